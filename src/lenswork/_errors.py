@@ -1,0 +1,36 @@
+"""Exception and warning types raised by lenswork.
+
+Every error a user can cause is a :class:`LensworkError`. The concrete
+classes also inherit the matching built-in, so ``except ValueError`` works
+too. Messages follow one shape: what was wrong, what was expected, what to do.
+"""
+
+__all__ = ["InputError", "LensworkError", "LensworkWarning", "ParameterError"]
+
+
+class LensworkError(Exception):
+    """Base class of every error lenswork raises on purpose."""
+
+
+class InputError(LensworkError, ValueError):
+    """The data (file, table, array) cannot be used as given.
+
+    Examples
+    --------
+    >>> issubclass(InputError, ValueError)
+    True
+    """
+
+
+class ParameterError(LensworkError, ValueError):
+    """A parameter of a lens, a cover or a command is out of range or unknown.
+
+    Examples
+    --------
+    >>> issubclass(ParameterError, LensworkError)
+    True
+    """
+
+
+class LensworkWarning(UserWarning):
+    """A soft problem: the computation goes on, but the user should know."""

@@ -1,0 +1,87 @@
+"""Shared pieces of the CLI: input options, error conversion, output helpers."""
+
+from __future__ import annotations
+
+import functools
+import warnings
+
+import click
+
+from .._errors import LensworkError, LensworkWarning
+
+__all__: list[str] = []
+
+
+class LensworkGroup(click.Group):
+    """A click group that turns lenswork's own errors into one-line messages."""
+
+    def invoke(self, ctx):
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("always", LensworkWarning)
+                warnings.showwarning = _show_warning
+                return super().invoke(ctx)
+        except LensworkError as err:
+            raise click.ClickException(str(err)) from None
+        except MemoryError:
+            raise click.ClickException(
+                "Ran out of memory. Use fewer rows, a smaller k, or the scalable modes."
+            ) from None
+
+
+def _show_warning(message, category, filename, lineno, file=None, line=None):
+    prefix = "Warning" if issubclass(category, LensworkWarning) else category.__name__
+    click.echo(f"{prefix}: {message}", err=True)
+
+
+def input_options(func):
+    """Options that choose the input table: a path or --demo, features, id, scaling."""
+
+    @click.argument("table", required=False, type=click.Path(dir_okay=False))
+    @click.option("--demo", is_flag=True, help="Use the bundled demo data (pump-station snapshots).")
+    @click.option(
+        "-f", "--features", default=None, metavar="COLS",
+        help="Feature columns, comma-separated names or 1-based positions (default: every "
+        "numeric column but the id).",
+    )
+    @click.option("--id-column", default=None, metavar="COL", help="Column holding row ids.")
+    @click.option(
+        "--scale", type=click.Choice(["none", "zscore", "robust"]), default=None,
+        help="Standardise each feature column first (recorded). Default: none for files, "
+        "zscore for the demo.",
+    )
+    @click.option(
+        "--skip-invalid", is_flag=True,
+        help="Report rows with missing/NaN/inf features and keep them out (default: error).",
+    )
+    @click.option("--seed", default=0, show_default=True, type=int, help="Random seed.")
+    @functools.wraps(func)
+    def wrapper(*args, table, demo, features, id_column, scale, skip_invalid, seed, **kwargs):
+        cloud = load_input(table, demo, features, id_column, scale, skip_invalid)
+        return func(*args, cloud=cloud, seed=seed, **kwargs)
+
+    return wrapper
+
+
+def load_input(table, demo, features, id_column, scale, skip_invalid):
+    """Load the PointCloud a command works on (the demo when asked or no table given)."""
+    from ..data import load_table
+
+    if demo and table:
+        raise click.UsageError("Give a TABLE or --demo, not both.")
+    if table is None:
+        if not demo:
+            raise click.UsageError("Give a TABLE to read, or --demo for the bundled demo data.")
+        from ..demo import load_demo
+
+        return load_demo(scale=scale or "zscore")
+    feats = None
+    if features:
+        feats = [f.strip() for f in features.split(",") if f.strip()]
+        feats = [int(f) - 1 if f.isdigit() else f for f in feats]  # 1-based on the CLI
+    return load_table(
+        table, features=feats, id_column=id_column,
+        scale=None if scale in (None, "none") else scale,
+        invalid="exclude" if skip_invalid else "error",
+    )
+

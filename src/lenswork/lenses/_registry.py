@@ -1,0 +1,241 @@
+"""The lens registry: one mapping used to validate, dispatch, list and test lenses.
+
+A lens family registers a *compute* function with :func:`register_lens`::
+
+    @register_lens("dtm", summary="Distance to a measure", cost="O(n k) once the graph exists",
+                   params=[Param("mass", 0.01, partial(check_float, lo=0, hi=1, lo_open=True),
+                                 "share of the points in the local mean")])
+    def _dtm_lens(ws, *, mass):
+        return [LensPart(values, info={"k": k})]
+
+``compute(ws, **params)`` receives a :class:`~lenswork.Workspace` and the
+validated parameters, and returns a list of :class:`LensPart` (one per output
+column). The registry turns them into named :class:`~lenswork.LensColumn`
+objects with their parameters recorded. Column names are the lens name, then
+``_<part>`` for multi-column lenses, then ``[key=value;...]`` for every
+parameter that differs from its default: ``pca_2``, ``dtm[mass=0.05]``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Callable, NamedTuple
+
+import numpy as np
+
+from .._errors import LensworkError, ParameterError
+from ..table import LensColumn
+
+__all__: list[str] = []
+
+
+@dataclass(frozen=True)
+class Param:
+    """One lens parameter: name, default, checker ``check(name, value, *, context)``, doc.
+
+    ``tag=False`` keeps the parameter out of the column name (for a parameter
+    the compute function already puts into the part label).
+    """
+
+    name: str
+    default: Any
+    check: Callable
+    doc: str
+    tag: bool = True
+
+    def clean(self, value, context):
+        return self.check(self.name, value, context=context)
+
+
+class LensPart(NamedTuple):
+    """One output column of a compute function: values, part label, extra info."""
+
+    values: np.ndarray
+    part: str = ""
+    info: dict = {}
+
+
+@dataclass(frozen=True)
+class LensSpec:
+    """A registered lens: name, one-line summary, cost, parameters and compute function."""
+
+    name: str
+    summary: str
+    cost: str
+    params: tuple
+    compute: Callable
+    family: str = ""
+    source: str = "builtin"
+    _by_name: dict = field(default=None, repr=False, compare=False)
+
+    def defaults(self):
+        """The default parameter values, as a dict."""
+        return {p.name: p.default for p in self.params}
+
+    def resolve(self, given=None):
+        """Validate ``given`` (values may be strings from the CLI) and fill defaults."""
+        given = dict(given or {})
+        known = {p.name: p for p in self.params}
+        unknown = sorted(set(given) - set(known))
+        if unknown:
+            valid = ", ".join(sorted(known)) or "none"
+            raise ParameterError(
+                f"Lens {self.name!r} has no parameter {unknown[0]!r}. Its parameters are: {valid}."
+            )
+        out = {}
+        for p in self.params:
+            out[p.name] = p.clean(given[p.name], self.name) if p.name in given else p.default
+        return out
+
+    def column_name(self, params, part=""):
+        """The column name for these resolved parameters and part label."""
+        name = self.name + (f"_{part}" if part else "")
+        tags = [
+            f"{p.name}={_fmt(params[p.name])}"
+            for p in self.params
+            if p.tag and params[p.name] != p.default
+        ]
+        return name + (f"[{';'.join(tags)}]" if tags else "")
+
+    def __call__(self, ws, **params):
+        """Compute the lens on a workspace; returns a list of LensColumn."""
+        resolved = self.resolve(params)
+        parts = self.compute(ws, **resolved)
+        columns = []
+        for part in parts:
+            values = np.asarray(part.values, dtype=np.float64)
+            if values.shape != (ws.n,):
+                raise LensworkError(
+                    f"Lens {self.name!r} returned values of shape {values.shape}; "
+                    f"expected ({ws.n},). This is a bug in the lens."
+                )
+            columns.append(
+                LensColumn(
+                    name=self.column_name(resolved, part.part),
+                    values=values,
+                    lens=self.name,
+                    params=_jsonable(resolved),
+                    info=_jsonable(dict(part.info)),
+                )
+            )
+        return columns
+
+
+def _fmt(value):
+    if isinstance(value, bool):
+        return str(value).lower()
+    if isinstance(value, float):
+        return f"{value:g}"
+    return str(value)
+
+
+def _jsonable(obj):
+    """Plain Python types only (for the JSON sidecar)."""
+    if isinstance(obj, dict):
+        return {str(k): _jsonable(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_jsonable(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return _jsonable(obj.tolist())
+    if isinstance(obj, np.generic):
+        return obj.item()
+    if callable(obj):
+        return getattr(obj, "__qualname__", repr(obj))
+    return obj
+
+
+#: name -> LensSpec. The one table of lenses.
+REGISTRY: dict = {}
+_ENTRY_POINTS_LOADED = False
+ENTRY_POINT_GROUP = "lenswork.lenses"
+
+
+def register_lens(name, *, summary, cost, params=(), family=None, source="builtin", replace=False):
+    """Decorator: register ``compute(ws, **params) -> list[LensPart]`` under ``name``."""
+    if not name or not name.replace("_", "").isalnum() or not name[0].isalpha():
+        raise ParameterError(
+            f"A lens name must start with a letter and hold only letters, digits and '_'. "
+            f"Got {name!r}."
+        )
+
+    def decorator(compute):
+        if name in REGISTRY and not replace:
+            raise ParameterError(
+                f"A lens named {name!r} is already registered ({REGISTRY[name].source}). "
+                f"Choose another name or pass replace=True."
+            )
+        REGISTRY[name] = LensSpec(
+            name=name, summary=summary, cost=cost, params=tuple(params), compute=compute,
+            family=family or name, source=source,
+        )
+        return compute
+
+    return decorator
+
+
+def _load_entry_points():
+    """Import lenses that installed packages declare in the ``lenswork.lenses`` group."""
+    global _ENTRY_POINTS_LOADED
+    if _ENTRY_POINTS_LOADED:
+        return
+    _ENTRY_POINTS_LOADED = True
+    from importlib.metadata import entry_points
+
+    for ep in entry_points(group=ENTRY_POINT_GROUP):
+        try:
+            ep.load()  # importing the module runs its @register_lens / @user_lens decorators
+        except Exception as err:  # a broken plug-in must not break the library
+            import warnings
+
+            from .._errors import LensworkWarning
+
+            warnings.warn(
+                f"Could not load lens plug-in {ep.name!r} ({ep.value}): {err}",
+                LensworkWarning,
+                stacklevel=2,
+            )
+
+
+def lens_names():
+    """Sorted names of every registered lens (built-in and plug-in)."""
+    _load_entry_points()
+    return sorted(REGISTRY)
+
+
+def get_lens(name):
+    """The LensSpec registered under ``name``; the error lists the valid names."""
+    _load_entry_points()
+    try:
+        return REGISTRY[name]
+    except KeyError:
+        raise ParameterError(
+            f"Unknown lens {name!r}. Registered lenses: {', '.join(sorted(REGISTRY))}."
+        ) from None
+
+
+def parse_lens(text):
+    """Parse the CLI lens syntax ``name`` or ``name:key=value,key=value``.
+
+    Examples
+    --------
+    >>> parse_lens("density:bandwidth=0.5,log=false")
+    ('density', {'bandwidth': '0.5', 'log': 'false'})
+    >>> parse_lens("pca")
+    ('pca', {})
+    """
+    text = text.strip()
+    name, _, rest = text.partition(":")
+    name = name.strip()
+    params = {}
+    if rest.strip():
+        for item in rest.split(","):
+            key, eq, value = item.partition("=")
+            if not eq or not key.strip():
+                raise ParameterError(
+                    f"Cannot read lens parameter {item!r} in {text!r}: expected key=value, "
+                    f"as in 'density:bandwidth=0.5,log=false'."
+                )
+            params[key.strip()] = value.strip()
+    if not name:
+        raise ParameterError(f"No lens name in {text!r}; expected e.g. 'pca:components=2'.")
+    return name, params

@@ -1,0 +1,1 @@
+"""Figures (matplotlib only; no plotting code lives elsewhere in lenswork)."""

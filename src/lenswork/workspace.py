@@ -1,0 +1,308 @@
+"""The Workspace: one place for the shared, expensive pieces of a point cloud.
+
+Every lens and the graph builder ask the workspace for what they need (the
+k-nearest-neighbour graph, the column means, the PCA basis...), and the
+workspace computes each piece once and caches it. The neighbour graph is the
+most expensive piece and the most shared: distance to a measure, k-NN
+distance, the scalable density, the Laplacian lenses and the clustering step
+all read the same :class:`NeighborGraph`.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import _progress
+from ._errors import InputError, LensworkWarning
+from ._validation import check_choice, check_int, seed_of
+from .data import PointCloud
+
+__all__ = ["NeighborGraph", "Workspace", "neighbor_graph"]
+
+#: Metrics both back ends (scikit-learn and pynndescent) support under these names.
+METRICS = ("euclidean", "manhattan", "chebyshev", "cosine")
+
+# Crossover between exact scikit-learn and pynndescent, measured on this
+# project's reference machine (2 cores) by tests/benchmarks/bench_neighbors.py;
+# see DEVELOPERS.md, "Neighbour graph: exact or approximate".
+EXACT_MAX_ROWS = 50_000  # any d: exact below this many rows
+EXACT_MAX_DIM_TREE = 6  # d <= this: kd-tree, exact at any n
+# pynndescent build settings tuned for recall (>= 0.95 at k=15 on 1e5 x 20 Gaussian).
+_NND_MIN_BUILD_K = 30
+_NND_TREES = 16
+_NND_ITERS = 12
+
+
+@dataclass(frozen=True, eq=False)
+class NeighborGraph:
+    """The k nearest neighbours of every row, self excluded, sorted by distance.
+
+    Attributes
+    ----------
+    indices : ndarray of shape (n_samples, k), int64
+    distances : ndarray of shape (n_samples, k), float64, ascending along each row
+    k : int
+    metric : str
+    method : {"exact", "approximate"}
+    info : dict
+        Back-end details (algorithm, build settings, seconds, recall when measured).
+
+    Examples
+    --------
+    >>> X = np.arange(10.0)[:, None]
+    >>> g = neighbor_graph(X, k=2)
+    >>> g.indices[0].tolist(), g.distances[0].tolist()
+    ([1, 2], [1.0, 2.0])
+    """
+
+    indices: np.ndarray
+    distances: np.ndarray
+    k: int
+    metric: str
+    method: str
+    info: dict = field(default_factory=dict)
+
+    @property
+    def n(self):
+        """Number of rows."""
+        return self.indices.shape[0]
+
+    def first(self, k):
+        """The graph restricted to the first ``k`` neighbours of each row."""
+        k = check_int("k", k, lo=1, hi=self.k, context="NeighborGraph.first")
+        if k == self.k:
+            return self
+        return NeighborGraph(
+            self.indices[:, :k].copy(), self.distances[:, :k].copy(), k, self.metric,
+            self.method, dict(self.info, sliced_from=self.k),
+        )
+
+    def to_sparse(self, symmetric=True):
+        """Distances as a sparse (n, n) CSR matrix; ``symmetric`` keeps an edge if either end has it."""
+        import scipy.sparse as sp
+
+        n, k = self.indices.shape
+        rows = np.repeat(np.arange(n), k)
+        A = sp.csr_matrix((self.distances.ravel(), (rows, self.indices.ravel())), shape=(n, n))
+        if symmetric:
+            A = A.maximum(A.T).tocsr()
+        return A
+
+    def recall(self, X, sample=1000, random_state=0):
+        """Share of true k nearest neighbours found, on a random sample of rows.
+
+        A found neighbour counts as correct when its distance is within the true
+        k-th distance (so ties do not count as misses). Exact graphs return 1.0.
+        """
+        if self.method == "exact":
+            return 1.0
+        rng = np.random.default_rng(random_state)
+        n = self.n
+        rows = rng.choice(n, size=min(sample, n), replace=False)
+        true_kth = _exact_kth_distance(np.asarray(X, dtype=np.float64), rows, self.k, self.metric)
+        hits = self.distances[rows] <= true_kth[:, None] * (1 + 1e-9) + 1e-12
+        return float(hits.mean())
+
+
+def _exact_kth_distance(X, rows, k, metric):
+    """Brute-force k-th neighbour distance (self excluded) for the given rows."""
+    from sklearn.metrics import pairwise_distances
+
+    out = np.empty(len(rows))
+    for start in range(0, len(rows), 256):
+        block = rows[start:start + 256]
+        D = pairwise_distances(X[block], X, metric=metric)
+        D[np.arange(len(block)), block] = np.inf
+        out[start:start + 256] = np.partition(D, k - 1, axis=1)[:, k - 1]
+    return out
+
+
+def _drop_self(indices, distances, k):
+    """Remove each row's own index from (n, k+1) results, keeping k columns."""
+    n = indices.shape[0]
+    is_self = indices == np.arange(n)[:, None]
+    # Rows where self was not returned (many exact duplicates): drop the last column.
+    missing = ~is_self.any(axis=1)
+    is_self[missing, -1] = True
+    # A row could list itself twice only with broken input; keep the first occurrence.
+    first = np.argmax(is_self, axis=1)
+    keep = np.ones_like(is_self)
+    keep[np.arange(n), first] = False
+    idx = indices[keep].reshape(n, k)
+    dist = distances[keep].reshape(n, k)
+    return np.ascontiguousarray(idx, dtype=np.int64), np.ascontiguousarray(dist, dtype=np.float64)
+
+
+def _choose_method(n, d, metric):
+    if n <= EXACT_MAX_ROWS:
+        return "exact"
+    if d <= EXACT_MAX_DIM_TREE and metric in ("euclidean", "manhattan", "chebyshev"):
+        return "exact"
+    return "approximate"
+
+
+def neighbor_graph(X, k=15, *, metric="euclidean", method="auto", random_state=0):
+    """Compute the k-nearest-neighbour graph of ``X`` (self excluded).
+
+    Parameters
+    ----------
+    X : array-like of shape (n_samples, n_features)
+    k : int, default=15
+        Neighbours per row; needs ``n_samples >= k + 1``.
+    metric : {"euclidean", "manhattan", "chebyshev", "cosine"}, default="euclidean"
+    method : {"auto", "exact", "approximate"}, default="auto"
+        ``"exact"`` uses scikit-learn (kd-tree for d <= 6, brute force above);
+        ``"approximate"`` uses pynndescent with a fixed seed and build settings
+        tuned for recall. ``"auto"`` is exact below 50,000 rows, and at any size
+        when d <= 6 (kd-trees stay fast in low dimension), else approximate.
+    random_state : int, default=0
+        Seed for pynndescent; the same seed gives the same graph.
+
+    Returns
+    -------
+    NeighborGraph
+
+    Notes
+    -----
+    Cost: exact brute force O(n^2 d); kd-tree about O(n log n) for small d;
+    pynndescent about O(n^1.14 d) plus a one-off numba compilation of 40-55 s
+    in every fresh process.
+
+    Examples
+    --------
+    >>> rng = np.random.default_rng(0)
+    >>> g = neighbor_graph(rng.normal(size=(200, 3)), k=5)
+    >>> g.indices.shape, g.method
+    ((200, 5), 'exact')
+    """
+    X = np.ascontiguousarray(np.asarray(X, dtype=np.float64))
+    n, d = X.shape
+    k = check_int("k", k, lo=1, context="neighbor_graph")
+    metric = check_choice("metric", metric, METRICS, context="neighbor_graph")
+    method = check_choice("method", method, ("auto", "exact", "approximate"), context="neighbor_graph")
+    if n < k + 1:
+        raise InputError(
+            f"A neighbour graph with k={k} needs at least {k + 1} rows; the data has {n}. "
+            f"Use a smaller k or more rows."
+        )
+    if method == "auto":
+        method = _choose_method(n, d, metric)
+    import time
+
+    start = time.perf_counter()
+    if method == "exact":
+        from sklearn.neighbors import NearestNeighbors
+
+        algorithm = "kd_tree" if (d <= EXACT_MAX_DIM_TREE and metric != "cosine") else "brute"
+        with _progress.step(f"neighbour graph: exact {algorithm}, n={n}, k={k}"):
+            nn = NearestNeighbors(n_neighbors=k + 1, metric=metric, algorithm=algorithm)
+            nn.fit(X)
+            dist, idx = nn.kneighbors(X)
+        info = {"backend": "scikit-learn", "algorithm": algorithm}
+    else:
+        import pynndescent
+
+        build_k = max(k + 1, _NND_MIN_BUILD_K)
+        with _progress.step(
+            f"neighbour graph: pynndescent, n={n}, k={k} (first call in a process compiles, ~50 s)"
+        ):
+            index = pynndescent.NNDescent(
+                X, n_neighbors=build_k, metric=metric, random_state=seed_of(random_state),
+                n_trees=_NND_TREES, n_iters=_NND_ITERS, low_memory=True, compressed=False,
+                n_jobs=1, verbose=False,
+            )
+            idx, dist = index.neighbor_graph
+        idx, dist = idx[:, : k + 1], dist[:, : k + 1]
+        info = {
+            "backend": "pynndescent", "build_k": build_k, "n_trees": _NND_TREES,
+            "n_iters": _NND_ITERS, "random_state": seed_of(random_state),
+        }
+    idx, dist = _drop_self(np.asarray(idx), np.asarray(dist, dtype=np.float64), k)
+    info["seconds"] = round(time.perf_counter() - start, 3)
+    return NeighborGraph(idx, dist, k, metric, method, info)
+
+
+class Workspace:
+    """Shared, cached pieces of one point cloud, computed on first use.
+
+    Parameters
+    ----------
+    data : PointCloud or array-like of shape (n_samples, n_features)
+    random_state : int, default=0
+        The one seed every lens and the graph builder use.
+    neighbor_method : {"auto", "exact", "approximate"}, default="auto"
+
+    Examples
+    --------
+    >>> rng = np.random.default_rng(1)
+    >>> ws = Workspace(rng.normal(size=(100, 4)))
+    >>> ws.neighbors(10) is ws.neighbors(10)
+    True
+    >>> ws.neighbors(5).k
+    5
+    """
+
+    def __init__(self, data, *, random_state=0, neighbor_method="auto"):
+        cloud = data if isinstance(data, PointCloud) else PointCloud.from_array(data)
+        self.cloud = cloud
+        self.random_state = random_state
+        self.neighbor_method = check_choice(
+            "neighbor_method", neighbor_method, ("auto", "exact", "approximate"), context="Workspace"
+        )
+        self._cache = {}
+
+    @property
+    def X(self):
+        """The feature array, (n_samples, n_features) float64."""
+        return self.cloud.X
+
+    @property
+    def n(self):
+        return self.cloud.X.shape[0]
+
+    @property
+    def d(self):
+        return self.cloud.X.shape[1]
+
+    def require_rows(self, needed, what):
+        """Raise InputError when the data has fewer than ``needed`` rows for ``what``."""
+        if self.n < needed:
+            raise InputError(
+                f"{what} needs at least {needed} rows; the data has {self.n}. "
+                f"Use more rows or smaller parameters."
+            )
+
+    def cached(self, key, compute):
+        """Return the cached value for ``key``, computing it with ``compute()`` once."""
+        if key not in self._cache:
+            self._cache[key] = compute()
+        return self._cache[key]
+
+    def neighbors(self, k=15, metric="euclidean"):
+        """The shared k-NN graph; a cached graph with more neighbours is sliced, not recomputed."""
+        k = check_int("k", k, lo=1, context="Workspace.neighbors")
+        metric = check_choice("metric", metric, METRICS, context="Workspace.neighbors")
+        self.require_rows(k + 1, f"A neighbour graph with k={k}")
+        best = None
+        for key, g in self._cache.items():
+            if key[0] == "knn" and key[1] == metric and key[2] >= k:
+                if best is None or key[2] < best.k:
+                    best = g
+        if best is None:
+            best = neighbor_graph(
+                self.X, k, metric=metric, method=self.neighbor_method, random_state=self.random_state
+            )
+            self._cache[("knn", metric, k)] = best
+        return best.first(k)
+
+    @property
+    def mean(self):
+        """Column means of X."""
+        return self.cached(("mean",), lambda: self.X.mean(axis=0))
+
+    def warn(self, message):
+        """Issue a :class:`~lenswork.LensworkWarning` (soft problem; work goes on)."""
+        warnings.warn(message, LensworkWarning, stacklevel=3)

@@ -1,0 +1,94 @@
+"""The shared neighbour graph and the Workspace cache."""
+
+import numpy as np
+import pytest
+from numpy.testing import assert_allclose, assert_array_equal
+from sklearn.datasets import load_iris
+from sklearn.neighbors import NearestNeighbors
+
+from lenswork import InputError, ParameterError, Workspace, neighbor_graph
+
+
+@pytest.mark.parametrize("metric", ["euclidean", "manhattan", "chebyshev", "cosine"])
+def test_exact_graph_matches_sklearn_on_iris(metric):
+    # Reference: scikit-learn NearestNeighbors on the bundled iris data. Iris has
+    # duplicate rows, so neighbours are compared by distance (ties may swap indices).
+    X = load_iris().data
+    g = neighbor_graph(X, k=10, metric=metric, method="exact")
+    nn = NearestNeighbors(n_neighbors=12, metric=metric, algorithm="brute").fit(X)
+    dist, idx = nn.kneighbors(X)
+    # sklearn returns the point itself (or an exact duplicate) at distance 0 first
+    assert_allclose(g.distances, dist[:, 1:11], atol=1e-12)  # same distances to round-off
+    assert not (g.indices == np.arange(len(X))[:, None]).any()  # self excluded
+    # Index sets agree wherever the 10th and 11th neighbour are not tied.
+    for i in np.flatnonzero(dist[:, 11] - dist[:, 10] > 1e-9):
+        expected = set(idx[i, :12].tolist()) - {i}
+        expected = {j for j in expected if np.linalg.norm(X[j] - X[i]) <= dist[i, 10] + 1e-12}
+        if len(expected) == 10:
+            assert set(g.indices[i].tolist()) == expected
+
+def test_exact_graph_matches_brute_force_distances():
+    # Reference: brute-force numpy distances written here.
+    rng = np.random.default_rng(4821)
+    X = rng.normal(size=(120, 4))
+    g = neighbor_graph(X, k=7)
+    D = np.sqrt(((X[:, None, :] - X[None, :, :]) ** 2).sum(-1))
+    np.fill_diagonal(D, np.inf)
+    assert_allclose(g.distances, np.sort(D, axis=1)[:, :7], rtol=1e-12)
+
+
+def test_approximate_graph_recall_and_determinism(pynndescent_ready):
+    rng = np.random.default_rng(77)
+    X = rng.normal(size=(3000, 10))
+    a = neighbor_graph(X, k=15, method="approximate", random_state=3)
+    b = neighbor_graph(X, k=15, method="approximate", random_state=3)
+    assert a.method == "approximate"
+    assert_array_equal(a.indices, b.indices)  # same seed, same graph, bit for bit
+    assert_array_equal(a.distances, b.distances)
+    assert not (a.indices == np.arange(len(X))[:, None]).any()
+    assert np.all(np.diff(a.distances, axis=1) >= 0)
+    # recall against exact search (scikit-learn brute force as reference)
+    assert a.recall(X, sample=500) >= 0.95
+
+
+def test_auto_method_depends_on_size_and_dimension():
+    rng = np.random.default_rng(5)
+    assert neighbor_graph(rng.normal(size=(500, 20)), k=5).method == "exact"
+    from lenswork.workspace import _choose_method
+
+    assert _choose_method(10**6, 3, "euclidean") == "exact"  # kd-tree stays exact in low d
+    assert _choose_method(10**6, 20, "euclidean") == "approximate"
+
+
+def test_workspace_caches_and_slices():
+    rng = np.random.default_rng(11)
+    ws = Workspace(rng.normal(size=(200, 3)))
+    g15 = ws.neighbors(15)
+    assert ws.neighbors(15) is g15
+    g5 = ws.neighbors(5)
+    assert_array_equal(g5.indices, g15.indices[:, :5])
+    assert len([k for k in ws._cache if k[0] == "knn"]) == 1  # sliced, not recomputed
+
+
+def test_to_sparse_is_symmetric():
+    rng = np.random.default_rng(12)
+    A = neighbor_graph(rng.normal(size=(80, 2)), k=4).to_sparse()
+    assert (abs(A - A.T)).nnz == 0
+
+
+def test_too_few_rows_for_k():
+    with pytest.raises(InputError, match="k=15 needs at least 16 rows; the data has 10"):
+        neighbor_graph(np.random.default_rng(0).normal(size=(10, 2)), k=15)
+
+
+@pytest.mark.parametrize(
+    ("kwargs", "match"),
+    [
+        ({"k": 0}, "'k' parameter of neighbor_graph must be an int"),
+        ({"metric": "hamming"}, "'metric' parameter of neighbor_graph must be a str among"),
+        ({"method": "fast"}, "'method' parameter"),
+    ],
+)
+def test_bad_parameters(kwargs, match):
+    with pytest.raises(ParameterError, match=match):
+        neighbor_graph(np.zeros((20, 2)) + np.arange(20)[:, None], **kwargs)
