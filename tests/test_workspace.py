@@ -67,7 +67,9 @@ def test_workspace_caches_and_slices():
     assert ws.neighbors(15) is g15
     g5 = ws.neighbors(5)
     assert_array_equal(g5.indices, g15.indices[:, :5])
-    assert len([k for k in ws._cache if k[0] == "knn"]) == 1  # sliced, not recomputed
+    assert g15.info["sliced_from"] == 30  # one build with min_neighbors=30, then slices
+    built = [g for key, g in ws._cache.items() if key[0] == "knn" and "sliced_from" not in g.info]
+    assert len(built) == 1
 
 
 def test_to_sparse_is_symmetric():

@@ -154,7 +154,8 @@ class LensTable:
         ex_rows = np.array([r.row for r in cloud.excluded], dtype=np.int64)
         order = np.argsort(np.concatenate([used, ex_rows]), kind="stable")
         ids = np.concatenate(
-            [np.asarray(cloud.ids, dtype=object), np.array([r.id for r in cloud.excluded], dtype=object)]
+            [np.asarray(cloud.ids, dtype=object),
+             np.array([r.id for r in cloud.excluded], dtype=object)]
         )[order]
         passthrough = {}
         for name, col in cloud.passthrough.items():

@@ -24,6 +24,7 @@ __all__ = ["NeighborGraph", "Workspace", "neighbor_graph"]
 
 #: Metrics both back ends (scikit-learn and pynndescent) support under these names.
 METRICS = ("euclidean", "manhattan", "chebyshev", "cosine")
+METHODS = ("auto", "exact", "approximate")
 
 # Crossover between exact scikit-learn and pynndescent, measured on this
 # project's reference machine (2 cores) by tests/benchmarks/bench_neighbors.py;
@@ -81,7 +82,7 @@ class NeighborGraph:
         )
 
     def to_sparse(self, symmetric=True):
-        """Distances as a sparse (n, n) CSR matrix; ``symmetric`` keeps an edge if either end has it."""
+        """Distances as a sparse (n, n) CSR matrix; ``symmetric`` keeps an edge either end has."""
         import scipy.sparse as sp
 
         n, k = self.indices.shape
@@ -182,7 +183,7 @@ def neighbor_graph(X, k=15, *, metric="euclidean", method="auto", random_state=0
     n, d = X.shape
     k = check_int("k", k, lo=1, context="neighbor_graph")
     metric = check_choice("metric", metric, METRICS, context="neighbor_graph")
-    method = check_choice("method", method, ("auto", "exact", "approximate"), context="neighbor_graph")
+    method = check_choice("method", method, METHODS, context="neighbor_graph")
     if n < k + 1:
         raise InputError(
             f"A neighbour graph with k={k} needs at least {k + 1} rows; the data has {n}. "
@@ -234,6 +235,10 @@ class Workspace:
     random_state : int, default=0
         The one seed every lens and the graph builder use.
     neighbor_method : {"auto", "exact", "approximate"}, default="auto"
+    min_neighbors : int, default=30
+        The first neighbour graph is built with at least this many neighbours,
+        so later requests for a smaller or slightly larger k (DTM, k-NN distance,
+        Laplacian, clustering) are slices of one graph, not new builds.
 
     Examples
     --------
@@ -245,13 +250,14 @@ class Workspace:
     5
     """
 
-    def __init__(self, data, *, random_state=0, neighbor_method="auto"):
+    def __init__(self, data, *, random_state=0, neighbor_method="auto", min_neighbors=30):
         cloud = data if isinstance(data, PointCloud) else PointCloud.from_array(data)
         self.cloud = cloud
         self.random_state = random_state
         self.neighbor_method = check_choice(
-            "neighbor_method", neighbor_method, ("auto", "exact", "approximate"), context="Workspace"
+            "neighbor_method", neighbor_method, METHODS, context="Workspace"
         )
+        self.min_neighbors = check_int("min_neighbors", min_neighbors, lo=1, context="Workspace")
         self._cache = {}
 
     @property
@@ -286,17 +292,22 @@ class Workspace:
         k = check_int("k", k, lo=1, context="Workspace.neighbors")
         metric = check_choice("metric", metric, METRICS, context="Workspace.neighbors")
         self.require_rows(k + 1, f"A neighbour graph with k={k}")
+        if ("knn", metric, k) in self._cache:
+            return self._cache[("knn", metric, k)]
         best = None
         for key, g in self._cache.items():
-            if key[0] == "knn" and key[1] == metric and key[2] >= k:
-                if best is None or key[2] < best.k:
-                    best = g
+            larger = key[0] == "knn" and key[1] == metric and key[2] >= k
+            if larger and (best is None or key[2] < best.k):
+                best = g
         if best is None:
+            build_k = min(max(k, self.min_neighbors), self.n - 1)
             best = neighbor_graph(
-                self.X, k, metric=metric, method=self.neighbor_method, random_state=self.random_state
+                self.X, build_k, metric=metric, method=self.neighbor_method,
+                random_state=self.random_state,
             )
-            self._cache[("knn", metric, k)] = best
-        return best.first(k)
+            self._cache[("knn", metric, build_k)] = best
+        self._cache[("knn", metric, k)] = graph = best.first(k)
+        return graph
 
     @property
     def mean(self):

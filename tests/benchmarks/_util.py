@@ -23,7 +23,7 @@ def print_table(rows, columns=None):
     """Print a list of dicts as an aligned text table."""
     if not rows:
         return
-    columns = columns or list(rows[0])
+    columns = columns or list(dict.fromkeys(k for r in rows for k in r))
     text = [[_fmt(r.get(c, "")) for c in columns] for r in rows]
     widths = [max(len(c), *(len(t[i]) for t in text)) for i, c in enumerate(columns)]
     print("  ".join(c.ljust(w) for c, w in zip(columns, widths)))

@@ -4,7 +4,7 @@ Every command is a few lines that parse options, call the public API and
 print. Commands live in the modules of this package, one per topic; shared
 options (the input table, ``--quiet``) and the error handling live here.
 Errors lenswork raises on purpose are printed as one line, ``Error: ...``,
-with exit code 2; nothing from deep inside numpy reaches the user.
+with exit code 1; nothing from deep inside numpy reaches the user.
 """
 
 from __future__ import annotations

@@ -38,7 +38,9 @@ def input_options(func):
     """Options that choose the input table: a path or --demo, features, id, scaling."""
 
     @click.argument("table", required=False, type=click.Path(dir_okay=False))
-    @click.option("--demo", is_flag=True, help="Use the bundled demo data (pump-station snapshots).")
+    @click.option(
+        "--demo", is_flag=True, help="Use the bundled demo data (pump-station snapshots)."
+    )
     @click.option(
         "-f", "--features", default=None, metavar="COLS",
         help="Feature columns, comma-separated names or 1-based positions (default: every "

@@ -1,1 +1,626 @@
-"""(being written)"""
+"""Eccentricity lenses: how far, on average, a point lies from all the others.
+
+``E_p(x) = (mean_y d(x, y)^p)^(1/p)`` over all n points y, x itself included
+(its zero distance counts in the mean), and ``E_inf(x) = max_y d(x, y)``.
+
+* Euclidean, p = 2: the closed form
+  ``E_2(x)^2 = ||x - mean||^2 + (1/n) sum_y ||y - mean||^2``, O(n d).
+* other p, exact: all pairs in tiles of one BLAS product each
+  (``||x||^2 + ||y||^2 - 2 x.y``), O(n^2 d).
+* other p, landmarks: the mean over a random subsample of landmarks, with a
+  standard error (p finite) or a hard upper bound (p = inf), O(n m d).
+* geodesic: shortest paths on the shared neighbour graph from landmarks.
+"""
+
+from __future__ import annotations
+
+import math
+from functools import partial
+
+import numpy as np
+from sklearn.base import BaseEstimator, TransformerMixin
+
+from .._errors import InputError, LensworkWarning, ParameterError
+from .._validation import (
+    check_choice,
+    check_float_or_choice,
+    check_int,
+    check_random_state,
+    seed_of,
+)
+from ._density import _TILE_COLS, _as_points, _parallel_rows, _sample_rows, _zero_self
+from ._registry import LensPart, Param, register_lens
+
+__all__ = ["Eccentricity", "eccentricity", "geodesic_eccentricity"]
+
+MODES = ("auto", "exact", "landmark")
+#: "auto" computes all pairs up to this many rows (p != 2), landmarks above.
+EXACT_MAX_ROWS = 40_000
+LANDMARKS = 1000
+GEODESIC_LANDMARKS = 200
+# Dijkstra runs from this many landmarks at a time (bounded memory: batch x n floats).
+_DIJKSTRA_BATCH = 16
+
+
+def _check_p(p, context):
+    p = check_float_or_choice("p", p, ("inf",), lo=1.0, lo_open=False, context=context)
+    return math.inf if p == "inf" else float(p)
+
+
+def _p_label(p):
+    return "inf" if math.isinf(p) else p
+
+
+# ---------------------------------------------------------------------------
+# tiled all-pairs reductions
+# ---------------------------------------------------------------------------
+
+
+def _augment_sq(Q, R):
+    """Factors with ``Qa @ RaT = ||q - r||^2``."""
+    d = Q.shape[1]
+    Qa = np.empty((Q.shape[0], d + 2))
+    Qa[:, :d] = Q
+    Qa[:, d] = np.einsum("ij,ij->i", Q, Q)
+    Qa[:, d + 1] = 1.0
+    RaT = np.empty((d + 2, R.shape[0]))
+    RaT[:d] = -2.0 * R.T
+    RaT[d] = 1.0
+    RaT[d + 1] = np.einsum("ij,ij->i", R, R)
+    return Qa, RaT
+
+
+def _power_sums(Q, R, p, *, ref_rows=None, second=False, extra=None):
+    """Per query row: sum_j d^p (and sum_j d^2p), or max_j d for p = inf.
+
+    ``ref_rows`` (sorted data index of each reference row) marks self pairs of
+    query rows 0..n-1, whose distance is set to exactly 0. ``extra`` (p = inf
+    only, one value per reference) also returns ``min_j (d_ij + extra_j)``.
+    """
+    Qa, RaT = _augment_sq(Q, R)
+    nq, nr = Qa.shape[0], RaT.shape[1]
+    s1 = np.zeros(nq)
+    s2 = np.zeros(nq) if second else None
+    upper = np.full(nq, np.inf) if extra is not None else None
+
+    def work(i0, i1):
+        acc1 = np.zeros(i1 - i0)
+        acc2 = np.zeros(i1 - i0) if second else None
+        up = np.full(i1 - i0, np.inf) if extra is not None else None
+        buf = np.empty((i1 - i0, _TILE_COLS))
+        for j0 in range(0, nr, _TILE_COLS):
+            j1 = min(j0 + _TILE_COLS, nr)
+            T = buf if j1 - j0 == _TILE_COLS else np.empty((i1 - i0, j1 - j0))
+            np.matmul(Qa[i0:i1], RaT[:, j0:j1], out=T)
+            np.maximum(T, 0.0, out=T)  # rounding can make a squared distance slightly negative
+            if ref_rows is not None:
+                _zero_self(T, i0, i1, None, ref_rows, j0, j1)
+            if math.isinf(p):
+                np.maximum(acc1, T.max(axis=1), out=acc1)
+                if extra is not None:
+                    np.sqrt(T, out=T)
+                    T += extra[None, j0:j1]
+                    np.minimum(up, T.min(axis=1), out=up)
+                continue
+            if p == 1.0:
+                np.sqrt(T, out=T)
+            elif p == 2.0:
+                pass
+            elif p == 4.0:
+                np.square(T, out=T)
+            else:
+                np.power(T, 0.5 * p, out=T)
+            acc1 += T.sum(axis=1)
+            if second:
+                acc2 += np.einsum("ij,ij->i", T, T)
+        s1[i0:i1] = np.sqrt(acc1) if math.isinf(p) else acc1
+        if second:
+            s2[i0:i1] = acc2
+        if extra is not None:
+            upper[i0:i1] = up
+
+    with np.errstate(over="ignore"):  # overflow of d^p is reported by _finite_or_fail
+        _parallel_rows(work, nq)
+    return s1, s2, upper
+
+
+def _scaled(X, Q=None):
+    """Centre on the reference mean and divide by a scale (accuracy, no overflow of d^p)."""
+    mean = X.mean(axis=0)
+    Xc = X - mean
+    scale = float(np.sqrt(np.einsum("ij,ij->i", Xc, Xc).max())) or 1.0
+    Qc = None if Q is None else (Q - mean) / scale
+    return Xc / scale, Qc, scale
+
+
+def _finite_or_fail(values, p):
+    if not np.all(np.isfinite(values)):
+        raise ParameterError(
+            f"The 'p' parameter of eccentricity is too large for floating point (p={p:g}): "
+            f"d^p overflowed. Use a smaller p, or p='inf' for the largest distance."
+        )
+    return values
+
+
+# ---------------------------------------------------------------------------
+# the worker
+# ---------------------------------------------------------------------------
+
+
+def _eccentricity(X, Q, *, p, mode, landmarks, rng):
+    """Eccentricity of the rows of Q (None: the rows of X themselves) w.r.t. X.
+
+    Returns ``(values, info, error)``; ``error`` is the per-point standard error
+    (landmarks, p finite), the gap to the upper bound (landmarks, p = inf) or None.
+    """
+    n = X.shape[0]
+    self_query = Q is None
+    info = {"p": _p_label(p), "metric": "euclidean"}
+    if p == 2.0:
+        mean = X.mean(axis=0)
+        Xc = X - mean
+        spread = float(np.einsum("ij,ij->i", Xc, Xc).mean())
+        Qc = Xc if self_query else Q - mean
+        values = np.sqrt(np.einsum("ij,ij->i", Qc, Qc) + spread)
+        info.update(mode="closed_form", error="none: exact closed form")
+        return values, info, None
+    if mode == "auto":
+        mode = "exact" if n <= EXACT_MAX_ROWS else "landmark"
+    if mode == "landmark" and landmarks >= n:
+        mode = "exact"
+    Xs, Qs, scale = _scaled(X, Q)
+    Qs = Xs if self_query else Qs
+    if mode == "exact":
+        s1, _, _ = _power_sums(Qs, Xs, p, ref_rows=np.arange(n) if self_query else None)
+        values = s1 if math.isinf(p) else (s1 / n) ** (1.0 / p)
+        info.update(mode="exact", error="none: exact sum over all pairs")
+        return _finite_or_fail(values * scale, p), info, None
+    rows = _sample_rows(X, landmarks, rng)
+    m = rows.size
+    L = Xs[rows]
+    ref_rows = rows if self_query else None
+    info.update(mode="landmark", landmarks=int(m))
+    if math.isinf(p):
+        # exact eccentricity of each landmark, then for every x:
+        #   max_l d(x, l) <= E_inf(x) <= min_l (d(x, l) + E_inf(l))   (triangle inequality)
+        ecc_l, _, _ = _power_sums(L, Xs, p, ref_rows=None)
+        lower, _, upper = _power_sums(Qs, L, p, ref_rows=ref_rows, extra=ecc_l)
+        gap = (upper - lower) * scale
+        info.update(
+            error="hard interval: value = max distance to a landmark (a lower bound); the true "
+            "value is at most value + gap (triangle inequality through the landmarks)",
+            gap_median=float(np.median(gap)), gap_max=float(np.max(gap)),
+            rel_gap_median=float(np.median(gap / np.maximum(lower * scale, 1e-300))),
+        )
+        return lower * scale, info, gap
+    s1, s2, _ = _power_sums(Qs, L, p, ref_rows=ref_rows, second=True)
+    mu = s1 / m
+    var = np.maximum(s2 / m - mu**2, 0.0) * m / max(m - 1, 1)
+    se_mu = np.sqrt(var / m * max(0.0, 1.0 - m / n))
+    values = mu ** (1.0 / p)
+    # delta method: se(mu^(1/p)) = mu^(1/p - 1) se(mu) / p
+    with np.errstate(divide="ignore", invalid="ignore"):
+        rel_se = np.where(mu > 0, se_mu / (p * mu), 0.0)
+    info.update(
+        error="estimated relative standard error (landmark sample, delta method)",
+        rel_se_median=float(np.median(rel_se)), rel_se_max=float(np.max(rel_se)),
+    )
+    values = _finite_or_fail(values * scale, p)
+    return values, info, rel_se * values
+
+
+def _check_params(p, mode, landmarks, context):
+    p = _check_p(p, context)
+    mode = check_choice("mode", mode, MODES, context=context)
+    landmarks = check_int("landmarks", landmarks, lo=2, context=context)
+    return p, mode, landmarks
+
+
+def eccentricity(X, *, p=2.0, mode="auto", landmarks=LANDMARKS, random_state=0,
+                 return_info=False):
+    """Euclidean eccentricity ``(mean_y ||x - y||^p)^(1/p)`` of every row.
+
+    Parameters
+    ----------
+    X : array-like of shape (n_samples, n_features)
+        A 1-D array is read as one feature.
+    p : float >= 1 or "inf", default=2.0
+        Order of the mean; ``"inf"`` (or ``np.inf``) gives the largest distance.
+    mode : {"auto", "exact", "landmark"}, default="auto"
+        For p != 2: all pairs, or the mean over ``landmarks`` random rows;
+        ``"auto"`` is exact up to 40,000 rows. p = 2 always uses the exact
+        closed form (``info["mode"] == "closed_form"``).
+    landmarks : int, default=1000
+        Landmark sample size.
+    random_state : int, numpy Generator or None, default=0
+        Seeds the landmark choice.
+    return_info : bool, default=False
+        Also return a dict (mode, error estimate) and, under ``"error"``... see Notes.
+
+    Returns
+    -------
+    values : ndarray of shape (n_samples,)
+    info : dict
+        Only with ``return_info=True``; in landmark mode it holds ``"se"``
+        (p finite: per-point standard error) or ``"gap"`` (p = inf: per-point
+        width of the hard interval).
+
+    Raises
+    ------
+    ParameterError
+        p < 1, an unknown mode, landmarks < 2, or p so large that d^p overflows.
+    InputError
+        Non-finite data.
+
+    Notes
+    -----
+    The mean runs over all n rows, the point itself included (distance 0), so
+    ``E_p(x)^p = (1/n) sum_y ||x - y||^p``.
+
+    * p = 2: ``E_2(x)^2 = ||x - m||^2 + (1/n) sum_y ||y - m||^2`` with ``m`` the
+      mean, O(n d).
+    * exact: tiles of ``||x||^2 + ||y||^2 - 2 x.y`` from one BLAS product each,
+      after centring and scaling; self distances set to exactly 0;
+      O(n^2 d). Exact duplicates of a row other than itself may show a distance
+      of about 1e-8 times the data scale instead of 0.
+    * landmarks, p finite: ``mu = mean_l ||x - l||^p`` over a simple random
+      sample of m rows (chosen by row content, so the choice does not depend on
+      the row order), unbiased for ``E_p^p``; standard error
+      ``sqrt(var / m (1 - m/n))``, carried to ``E_p`` by the delta method. O(n m d).
+    * landmarks, p = inf: the value is ``max_l ||x - l||``, a lower bound
+      attained by a real pair; with the exact ``E_inf`` of every landmark, the
+      triangle inequality gives ``E_inf(x) <= min_l (||x - l|| + E_inf(l))``. The
+      gap between the two is reported; O(n m d).
+
+    References
+    ----------
+    .. [1] G. Singh, F. Memoli and G. Carlsson, Mapper, 2007 (eccentricity as a
+       filter).
+    .. [2] M. Carriere, B. Michel and S. Oudot, "Statistical analysis and
+       parameter selection for Mapper", JMLR 19, 2018.
+
+    Examples
+    --------
+    >>> X = np.array([[0.0, 0.0], [2.0, 0.0]])
+    >>> eccentricity(X).round(6).tolist()
+    [1.414214, 1.414214]
+    >>> eccentricity(X, p="inf").tolist()
+    [2.0, 2.0]
+    """
+    p, mode, landmarks = _check_params(p, mode, landmarks, "eccentricity")
+    X = _as_points(X, "eccentricity")
+    rng = check_random_state(random_state)
+    values, info, err = _eccentricity(X, None, p=p, mode=mode, landmarks=landmarks, rng=rng)
+    if not return_info:
+        return values
+    if err is not None:
+        info["gap" if math.isinf(p) else "se"] = err
+    return values, info
+
+
+class Eccentricity(TransformerMixin, BaseEstimator):
+    """Euclidean eccentricity as a transformer (one output column).
+
+    Parameters
+    ----------
+    p : float >= 1 or "inf", default=2.0
+    mode : {"auto", "exact", "landmark"}, default="auto"
+    landmarks : int, default=1000
+    random_state : int or None, default=0
+        See :func:`eccentricity`.
+
+    Attributes
+    ----------
+    n_features_in_ : int
+    info_ : dict
+        Mode and error estimate of the last transform.
+
+    Notes
+    -----
+    ``transform(Y)`` gives the eccentricity of each row of ``Y`` with respect to
+    the fitted rows; ``fit_transform(X)`` equals :func:`eccentricity` on ``X``.
+
+    Examples
+    --------
+    >>> X = np.random.default_rng(0).normal(size=(200, 3))
+    >>> est = Eccentricity(p=1)
+    >>> est.fit_transform(X).shape
+    (200, 1)
+    >>> bool(np.allclose(est.transform(X[:4])[:, 0], eccentricity(X, p=1)[:4]))
+    True
+    """
+
+    def __init__(self, *, p=2.0, mode="auto", landmarks=LANDMARKS, random_state=0):
+        self.p = p
+        self.mode = mode
+        self.landmarks = landmarks
+        self.random_state = random_state
+
+    def fit(self, X, y=None):
+        """Keep ``X`` as the reference rows."""
+        _check_params(self.p, self.mode, self.landmarks, "Eccentricity")
+        self._X = _as_points(X, "Eccentricity.fit")
+        self.n_features_in_ = self._X.shape[1]
+        self.info_ = {}
+        return self
+
+    def _run(self, Q):
+        p, mode, landmarks = _check_params(self.p, self.mode, self.landmarks, "Eccentricity")
+        values, info, _ = _eccentricity(
+            self._X, Q, p=p, mode=mode, landmarks=landmarks,
+            rng=check_random_state(self.random_state),
+        )
+        self.info_ = info
+        return values[:, None]
+
+    def transform(self, X):
+        """Eccentricity of the rows of ``X`` w.r.t. the fitted rows, shape (n, 1)."""
+        if not hasattr(self, "_X"):
+            from sklearn.exceptions import NotFittedError
+
+            raise NotFittedError("Eccentricity is not fitted yet; call fit(X) first.")
+        Q = _as_points(X, "Eccentricity.transform")
+        if Q.shape[1] != self.n_features_in_:
+            raise InputError(
+                f"Eccentricity was fitted on {self.n_features_in_} features; X has "
+                f"{Q.shape[1]}. Pass rows with the same features."
+            )
+        return self._run(Q)
+
+    def fit_transform(self, X, y=None, **fit_params):
+        """Fit on ``X`` and return the eccentricity of its rows, shape (n, 1)."""
+        return self.fit(X)._run(None)
+
+
+# ---------------------------------------------------------------------------
+# geodesic eccentricity
+# ---------------------------------------------------------------------------
+
+
+def _graph_matrix(graph):
+    """Symmetric sparse distance matrix of a NeighborGraph; zero lengths made tiny, not dropped."""
+    import scipy.sparse as sp
+
+    n, k = graph.indices.shape
+    dist = graph.distances.ravel()
+    positive = dist[dist > 0]
+    tiny = (float(positive.min()) if positive.size else 1.0) * 1e-9
+    data = np.where(dist > 0, dist, tiny)
+    rows = np.repeat(np.arange(n), k)
+    A = sp.csr_matrix((data, (rows, graph.indices.ravel())), shape=(n, n))
+    return A.maximum(A.T).tocsr()
+
+
+def _geodesic(graph, X, *, p, landmarks, rng, warn):
+    """Geodesic eccentricity on a NeighborGraph; returns (values, info, error)."""
+    from scipy.sparse.csgraph import connected_components, dijkstra
+
+    A = _graph_matrix(graph)
+    n = A.shape[0]
+    ncomp, labels = connected_components(A, directed=False)
+    sizes = np.bincount(labels, minlength=ncomp)
+    if ncomp > 1:
+        warn(
+            f"geodesic eccentricity: the neighbour graph (k={graph.k}) has {ncomp} connected "
+            f"components (largest {sizes.max()} of {n} rows); each point's eccentricity is taken "
+            f"within its own component. A larger k joins components."
+        )
+    # landmarks per component, in proportion to its size (at least one; all when it is small)
+    chosen = []
+    for c in range(ncomp):
+        members = np.flatnonzero(labels == c)
+        m_c = members.size if landmarks >= n else min(
+            members.size, max(1, round(landmarks * members.size / n))
+        )
+        chosen.append(members[_sample_rows(X[members], m_c, rng)])
+    lm = np.sort(np.concatenate(chosen))
+    m_of = np.bincount(labels[lm], minlength=ncomp).astype(np.float64)
+    finite_p = not math.isinf(p)
+    s1 = np.zeros(n)
+    s2 = np.zeros(n)
+    low_hard = np.zeros(n)  # max_l (E(l) - d(x, l)) (p finite) / not used (p = inf)
+    up_hard = np.full(n, np.inf)  # min_l (E(l) + d(x, l))
+    ecc_l = np.empty(lm.size)
+    for b0 in range(0, lm.size, _DIJKSTRA_BATCH):
+        src = lm[b0:b0 + _DIJKSTRA_BATCH]
+        D = dijkstra(A, directed=False, indices=src)  # (batch, n), inf outside the component
+        for r, s in enumerate(src):
+            comp = labels == labels[s]
+            row = D[r]
+            dr = np.where(comp, row, 0.0)
+            if finite_p:
+                e = (np.sum(dr[comp] ** p) / sizes[labels[s]]) ** (1.0 / p)
+                s1 += dr**p
+                s2 += dr ** (2 * p)
+            else:
+                e = float(dr.max())
+                np.maximum(s1, dr, out=s1)
+            ecc_l[b0 + r] = e
+            # triangle inequality through the landmark, points of its component only
+            np.minimum(up_hard, np.where(comp, e + dr, np.inf), out=up_hard)
+            np.maximum(low_hard, np.where(comp, e - dr, 0.0), out=low_hard)
+    m_i = m_of[labels]
+    n_i = sizes[labels].astype(np.float64)
+    info = {
+        "p": _p_label(p), "k": graph.k, "landmarks": int(lm.size), "components": int(ncomp),
+        "neighbor_method": graph.method,
+    }
+    exact = bool(np.all(m_of == sizes))
+    if finite_p:
+        mu = s1 / m_i
+        values = mu ** (1.0 / p)
+        var = np.maximum(s2 / m_i - mu**2, 0.0) * m_i / np.maximum(m_i - 1, 1)
+        se_mu = np.sqrt(var / m_i * np.maximum(0.0, 1.0 - m_i / n_i))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            se = np.where(mu > 0, values * se_mu / (p * mu), 0.0)
+        error = se
+        info.update(
+            mode="exact" if exact else "landmark",
+            error="none: all points are landmarks" if exact else (
+                "estimated standard error (landmark sample, delta method); hard interval from "
+                "the triangle inequality through the landmarks"
+            ),
+        )
+        if not exact:
+            info.update(
+                rel_se_median=float(np.median(se / np.maximum(values, 1e-300))),
+                rel_se_max=float(np.max(se / np.maximum(values, 1e-300))),
+            )
+    else:
+        values = s1
+        error = up_hard - values
+        info.update(
+            mode="exact" if exact else "landmark",
+            error="none: all points are landmarks" if exact else (
+                "hard interval: value = largest geodesic distance to a landmark (a lower bound); "
+                "the true value is at most value + gap"
+            ),
+        )
+    lower = low_hard if finite_p else np.maximum(low_hard, values)
+    width = np.maximum(up_hard - lower, 0.0)
+    if not exact:
+        info.update(
+            hard_width_median=float(np.median(width)),
+            rel_hard_width_median=float(np.median(width / np.maximum(values, 1e-300))),
+        )
+    return values, info, (None if exact else error)
+
+
+def geodesic_eccentricity(X, *, p=2.0, k=15, landmarks=GEODESIC_LANDMARKS, neighbors=None,
+                          random_state=0, return_info=False):
+    """Eccentricity in the shortest-path metric of the k-nearest-neighbour graph.
+
+    Parameters
+    ----------
+    X : array-like of shape (n_samples, n_features)
+    p : float >= 1 or "inf", default=2.0
+    k : int, default=15
+        Neighbours per point of the graph (ignored when ``neighbors`` is given).
+    landmarks : int, default=200
+        Number of Dijkstra sources; with ``landmarks >= n_samples`` the result is exact.
+    neighbors : NeighborGraph, optional
+        A precomputed graph on ``X`` (the lens passes the workspace's shared graph).
+    random_state : int, numpy Generator or None, default=0
+        Seeds the landmark choice.
+    return_info : bool, default=False
+        Also return a dict (mode, components, error); in landmark mode it holds
+        ``"se"`` (p finite) or ``"gap"`` (p = inf), one value per point.
+
+    Returns
+    -------
+    values : ndarray of shape (n_samples,)
+    info : dict
+        Only with ``return_info=True``.
+
+    Raises
+    ------
+    ParameterError
+        A parameter out of range.
+    InputError
+        Non-finite data, fewer than k + 1 rows, or a graph of another size.
+
+    Warns
+    -----
+    LensworkWarning
+        When the graph is disconnected.
+
+    Notes
+    -----
+    Edge lengths are the Euclidean neighbour distances (an edge is kept if
+    either end lists the other). With ``d_G`` the shortest-path distance and
+    ``C(x)`` the connected component of x, ``E_p(x) = (mean_{y in C(x)} d_G(x,
+    y)^p)^(1/p)``, estimated by the mean over the landmarks in C(x) (each
+    component gets landmarks in proportion to its size, at least one), so a
+    disconnected graph never yields inf. Standard error as for
+    :func:`eccentricity`; for p = inf the value is the largest distance to a
+    landmark (a lower bound). Every landmark's exact eccentricity comes free
+    with its Dijkstra row, so the triangle inequality gives the hard interval
+    ``max_l (E(l) - d_G(x, l)) <= E(x) <= min_l (E(l) + d_G(x, l))``, reported as
+    ``hard_width_median``. Cost: O(m n k log n) for m landmarks.
+
+    Examples
+    --------
+    >>> t = np.linspace(0, 1, 50)
+    >>> X = np.c_[t, np.zeros(50)]  # a path: geodesic = Euclidean here
+    >>> bool(np.allclose(geodesic_eccentricity(X, k=2, landmarks=50), eccentricity(X)))
+    True
+    """
+    from ..workspace import NeighborGraph, neighbor_graph
+
+    p = _check_p(p, "geodesic_eccentricity")
+    k = check_int("k", k, lo=1, context="geodesic_eccentricity")
+    landmarks = check_int("landmarks", landmarks, lo=1, context="geodesic_eccentricity")
+    X = _as_points(X, "geodesic_eccentricity")
+    rng = check_random_state(random_state)
+    if neighbors is None:
+        neighbors = neighbor_graph(X, k, random_state=seed_of(random_state))
+    elif not isinstance(neighbors, NeighborGraph) or neighbors.n != X.shape[0]:
+        raise InputError(
+            "The 'neighbors' argument of geodesic_eccentricity must be a NeighborGraph on the "
+            f"same {X.shape[0]} rows as X. Build it with lenswork.neighbor_graph(X, k)."
+        )
+
+    def warn(msg):
+        import warnings
+
+        warnings.warn(msg, LensworkWarning, stacklevel=4)
+
+    values, info, err = _geodesic(neighbors, X, p=p, landmarks=landmarks, rng=rng, warn=warn)
+    if not return_info:
+        return values
+    if err is not None:
+        info["gap" if math.isinf(p) else "se"] = err
+    return values, info
+
+
+# ---------------------------------------------------------------------------
+# registry entries
+# ---------------------------------------------------------------------------
+
+_P_CHECK = partial(check_float_or_choice, choices=("inf",), lo=1.0, lo_open=False)
+
+
+def _p_value(p):
+    return math.inf if p == "inf" else float(p)
+
+
+@register_lens(
+    "eccentricity",
+    summary="Mean Euclidean distance to all points (order p)",
+    cost="p=2: O(n d); else exact O(n^2 d) up to 40,000 rows, landmarks O(n m d)",
+    family="eccentricity",
+    params=[
+        Param("p", 2.0, _P_CHECK, "order of the mean (>= 1) or 'inf' for the largest distance"),
+        Param("mode", "auto", partial(check_choice, choices=MODES),
+              "exact pairs, landmark estimate, or auto by size (p=2: closed form)"),
+        Param("landmarks", LANDMARKS, partial(check_int, lo=2),
+              "landmark sample size of the estimate"),
+    ],
+)
+def _eccentricity_lens(ws, *, p, mode, landmarks):
+    values, info, _ = _eccentricity(
+        ws.X, None, p=_p_value(p), mode=mode, landmarks=landmarks,
+        rng=check_random_state(ws.random_state),
+    )
+    return [LensPart(values, "", info)]
+
+
+@register_lens(
+    "geodesic_eccentricity",
+    summary="Mean shortest-path distance on the neighbour graph (order p)",
+    cost="O(m n k log n) for m landmarks, once the neighbour graph exists",
+    family="eccentricity",
+    params=[
+        Param("p", 2.0, _P_CHECK, "order of the mean (>= 1) or 'inf' for the largest distance"),
+        Param("k", 15, partial(check_int, lo=1), "neighbours per point of the graph"),
+        Param("landmarks", GEODESIC_LANDMARKS, partial(check_int, lo=1),
+              "Dijkstra sources; all points when at least n"),
+    ],
+)
+def _geodesic_eccentricity_lens(ws, *, p, k, landmarks):
+    graph = ws.neighbors(k)
+    values, info, _ = _geodesic(
+        graph, ws.X, p=_p_value(p), landmarks=landmarks,
+        rng=check_random_state(ws.random_state), warn=ws.warn,
+    )
+    return [LensPart(values, "", info)]

@@ -18,8 +18,9 @@ parameter that differs from its default: ``pca_2``, ``dtm[mass=0.05]``.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Any, Callable, NamedTuple
+from typing import Any, NamedTuple
 
 import numpy as np
 

@@ -13,10 +13,10 @@ from pathlib import Path
 import matplotlib
 
 matplotlib.use("Agg", force=False)
-import matplotlib.pyplot as plt  # noqa: E402
-from matplotlib.colors import LinearSegmentedColormap  # noqa: E402
+import matplotlib.pyplot as plt
+from matplotlib.colors import LinearSegmentedColormap
 
-from .._io import atomic_path  # noqa: E402
+from .._io import atomic_path
 
 __all__: list[str] = []
 
@@ -74,7 +74,7 @@ def style():
 
 
 def save(fig, path, *, dpi=150):
-    """Write ``fig`` to ``path`` (format from the ending: .png or .svg) atomically, then close it."""
+    """Write ``fig`` to ``path`` (.png or .svg, from the ending) atomically; close it."""
     path = Path(path)
     fmt = path.suffix.lower().lstrip(".") or "png"
     meta = {"Date": None} if fmt == "svg" else {"Software": "lenswork"}

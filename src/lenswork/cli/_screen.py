@@ -1,0 +1,78 @@
+"""CLI: screen candidate lenses, keep a small non-redundant set, write table, lenses, figures."""
+
+from __future__ import annotations
+
+import click
+
+from ..screen import screen
+from ..table import FORMATS
+from ..workspace import Workspace
+from ._common import input_options
+
+__all__ = ["COMMANDS"]
+
+
+def _names(values):
+    """Repeatable options that also take comma-separated lists."""
+    out = []
+    for v in values:
+        out.extend(x.strip() for x in v.split(",") if x.strip())
+    return out
+
+
+@click.command("screen")
+@input_options
+@click.option("-o", "--out", "out_dir", default="lenswork-screen", show_default=True,
+              type=click.Path(file_okay=False),
+              help="Output directory (created if missing; files in it are replaced).")
+@click.option("-n", "--count", default=2, show_default=True, type=int,
+              help="Lenses to select at most.")
+@click.option("--ceiling", default=0.8, show_default=True, type=float,
+              help="Never select two lenses with |Spearman rho| above this.")
+@click.option("-r", "--ref", "refs", multiple=True, metavar="COL",
+              help="Reference column (feature or passthrough) to correlate every lens with; "
+              "repeatable or comma-separated.")
+@click.option("-l", "--lens", "extra", multiple=True, metavar="SPEC",
+              help="Add a candidate lens, name or name:key=value,... (repeatable); "
+              "`lenswork lenses` lists them.")
+@click.option("--no-defaults", is_flag=True,
+              help="Screen only the --lens candidates, not the default set.")
+@click.option("--bins", default=20, show_default=True, type=int,
+              help="Histogram bins of the spread score.")
+@click.option("--lens-format", type=click.Choice(FORMATS), default="csv", show_default=True,
+              help="File format of the chosen lens columns.")
+@click.option("--neighbors", "neighbor_method",
+              type=click.Choice(["auto", "exact", "approximate"]), default="auto",
+              show_default=True, help="Neighbour-graph back end.")
+@click.option("--no-figures", is_flag=True, help="Skip the figure sheet (PNG and SVG).")
+def screen_command(cloud, seed, out_dir, count, ceiling, refs, extra, no_defaults, bins,
+                   lens_format, neighbor_method, no_figures):
+    """Rank candidate lenses for TABLE (or --demo) and keep a small non-redundant set.
+
+    Computes the default candidate set (PCA and Laplacian coordinates, density at
+    two bandwidths, eccentricity p = 1, 2, inf, distance to a measure at two
+    masses, k-NN distance, geodesic eccentricity) plus any --lens, scores each by
+    spread (histogram entropy over its range, less the largest tie), measures
+    redundancy by Spearman rank correlation, and greedily keeps up to --count
+    lenses, never two with |rho| above --ceiling.
+
+    Writes to OUT: ranking.csv and ranking.json (scores, correlations, the
+    reason for every decision), lenses.<format> with the chosen columns and a
+    .json sidecar, and sheet.png / sheet.svg. Everything is computed before the
+    first file is written; a failure leaves no partial output.
+    """
+    if no_defaults and not extra:
+        raise click.UsageError("--no-defaults needs at least one --lens.")
+    ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
+    result = screen(
+        ws, lenses=[] if no_defaults else None, extra=list(extra), count=count,
+        ceiling=ceiling, references=_names(refs), bins=bins,
+    )
+    click.echo(result.format_table())
+    click.echo("")
+    click.echo(result.summary())
+    files = result.write(out_dir, figures=not no_figures, lens_format=lens_format)
+    click.echo(f"wrote {', '.join(str(p) for p in files.values())}")
+
+
+COMMANDS = [screen_command]

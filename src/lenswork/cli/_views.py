@@ -1,0 +1,260 @@
+"""CLI: the stability map, the bootstrap of graph features, and the comparison of views."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from .._errors import ParameterError
+from ._common import input_options
+
+__all__ = ["COMMANDS"]
+
+
+def _graph_options(grid=False):
+    """Cover and clustering options shared by the three commands (``grid``: no single cover)."""
+    options = [
+        click.option("-k", "k", default=15, show_default=True, type=int,
+                     help="Neighbours of the shared k-NN graph used to cluster."),
+        click.option("--cutoff", default="auto", show_default=True, metavar="auto|none|FLOAT",
+                     help="Edge-length cut-off of the graph clusterer."),
+        click.option("--min-size", default=None, type=int, metavar="N",
+                     help="Smallest cluster kept as a node (default: the graph builder's)."),
+        click.option("--scale", "cover_scale", type=click.Choice(["rank", "raw"]),
+                     default="rank", show_default=True,
+                     help="Lay the intervals on ranks (equal counts) or raw lens values."),
+        click.option("--neighbors", "neighbor_method",
+                     type=click.Choice(["auto", "exact", "approximate"]), default="auto",
+                     show_default=True, help="Neighbour-graph back end."),
+    ]
+    if not grid:
+        options += [
+            click.option("--intervals", default=None, metavar="N[,N...]",
+                         help="Intervals per lens column (default: the graph builder's, 10)."),
+            click.option("--overlap", default=None, metavar="P[,P...]",
+                         help="Overlap fraction in [0, 1) (default: the graph builder's, 0.3)."),
+        ]
+
+    def decorator(func):
+        for option in reversed(options):
+            func = option(func)
+        return func
+
+    return decorator
+
+
+def _cutoff(text):
+    text = str(text).strip().lower()
+    if text in ("auto", "none"):
+        return text
+    try:
+        return float(text)
+    except ValueError:
+        raise ParameterError(
+            f"The --cutoff option must be 'auto', 'none' or a non-negative number; got {text!r}."
+        ) from None
+
+
+def _per_lens(text, cast, name):
+    """'10' -> 10; '10,12' -> [10, 12]; None -> None."""
+    if text is None:
+        return None
+    parts = [p.strip() for p in str(text).split(",") if p.strip()]
+    try:
+        values = [cast(p) for p in parts]
+    except ValueError:
+        raise ParameterError(
+            f"The {name} option must be a number or comma-separated numbers; got {text!r}."
+        ) from None
+    if not values:
+        raise ParameterError(f"The {name} option is empty; give a number, e.g. {name} 10.")
+    return values[0] if len(values) == 1 else values
+
+
+def _settings(k, cutoff, min_size, cover_scale):
+    out = {"k": k, "cutoff": _cutoff(cutoff), "scale": cover_scale}
+    if min_size is not None:
+        out["min_size"] = min_size
+    return out
+
+
+def _workspace(cloud, seed, neighbor_method):
+    from ..workspace import Workspace
+
+    return Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
+
+
+def _lens(ws, spec):
+    from ..lenses import compute_lenses
+
+    return compute_lenses(ws, [spec])
+
+
+def _out_dir(path):
+    path = Path(path)
+    if path.exists() and not path.is_dir():
+        raise ParameterError(f"Output directory {str(path)!r} is a file; give a directory path.")
+    return path
+
+
+_LENS_HELP = ("A lens as name or name:key=value,... (`lenswork lenses` lists them). A lens with "
+              "several columns (pca:components=2) gives a product cover.")
+
+
+# --------------------------------------------------------------------------- stability
+@click.command("stability")
+@input_options
+@click.option("-l", "--lens", "lens", required=True, metavar="SPEC", help=_LENS_HELP)
+@click.option("--intervals", "grid_intervals", default="4,6,8,10,12,14,16,20", show_default=True,
+              metavar="N,N,...", help="Interval counts of the grid (rows of the map).")
+@click.option("--overlaps", "grid_overlaps", default="0.1,0.2,0.3,0.4,0.5", show_default=True,
+              metavar="P,P,...", help="Overlaps of the grid (columns of the map).")
+@click.option("-o", "--out", default="lenswork-stability", show_default=True,
+              type=click.Path(file_okay=False),
+              help="Output directory: stability.csv (+ .json provenance), stability.png.")
+@click.option("--no-figure", is_flag=True, help="Write the CSV table only.")
+@_graph_options(grid=True)
+def stability(cloud, seed, lens, grid_intervals, grid_overlaps, out, no_figure, k, cutoff,
+              min_size, cover_scale, neighbor_method):
+    """Map the graph's feature counts over a grid of cover settings for one lens.
+
+    For every (intervals, overlap) cell the Mapper graph of the lens is built on
+    the shared neighbour graph and its components, loops (b1), branch points and
+    flares are counted. The table (one row per cell) goes to stability.csv, the
+    heat maps to stability.png; the region of cells around the default setting
+    (10 intervals, overlap 0.3) with the same count is outlined. Pick cover
+    settings inside such a region.
+    """
+    from ..probe import stability_map
+
+    out = _out_dir(out)
+    ws = _workspace(cloud, seed, neighbor_method)
+    smap = stability_map(_lens(ws, lens), ws, intervals=grid_intervals, overlaps=grid_overlaps,
+                         **_settings(k, cutoff, min_size, cover_scale))
+    csv_path, sidecar = smap.write(out / "stability.csv")
+    click.echo(f"Stability map of {smap.lens} on {ws.n} rows "
+               f"({len(smap.intervals)} x {len(smap.overlaps)} cover settings).")
+    click.echo(_grid_text(smap, "loops"))
+    cell = smap.default_cell
+    if cell is not None:
+        for feature in ("components", "loops", "branch_points", "flares"):
+            region = smap.region(feature)
+            value = int(smap.counts[feature][cell])
+            click.echo(f"{feature}: {value} at the default setting; the same over "
+                       f"{int(region.sum())} of {region.size} cells around it")
+    written = [csv_path, sidecar]
+    if not no_figure:
+        written += smap.plot(out / "stability.png")
+    click.echo("wrote " + ", ".join(str(p) for p in written))
+
+
+def _grid_text(smap, feature):
+    counts = smap.counts[feature]
+    head = "intervals \\ overlap " + " ".join(f"{o:>5g}" for o in smap.overlaps)
+    lines = [f"{feature}:", head]
+    for i, iv in enumerate(smap.intervals):
+        lines.append(f"{iv:>19d} " + " ".join(f"{int(v):>5d}" for v in counts[i]))
+    return "\n".join(lines)
+
+
+# --------------------------------------------------------------------------- bootstrap
+@click.command("bootstrap")
+@input_options
+@click.option("-l", "--lens", "lens", required=True, metavar="SPEC", help=_LENS_HELP)
+@click.option("--resamples", default=100, show_default=True, type=int,
+              help="Number of resampled graphs.")
+@click.option("--scheme", type=click.Choice(["subsample", "bootstrap"]), default="subsample",
+              show_default=True,
+              help="subsample: a share of the rows without replacement; bootstrap: n draws "
+              "with replacement, distinct rows kept.")
+@click.option("--fraction", default=0.8, show_default=True, type=float,
+              help="Share of rows in each subsample.")
+@click.option("--suggest", is_flag=True,
+              help="Take intervals, overlap and cut-off from the data (after Carriere, Michel "
+              "and Oudot 2018) instead of the options.")
+@click.option("-o", "--out", default="lenswork-bootstrap", show_default=True,
+              type=click.Path(file_okay=False),
+              help="Output directory: bootstrap.csv, bootstrap.json, bootstrap.png.")
+@click.option("--no-figure", is_flag=True, help="Write the tables only.")
+@_graph_options()
+def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_figure, k, cutoff,
+              min_size, cover_scale, neighbor_method, intervals, overlap):
+    """Rebuild the graph of a lens on resampled rows; report how often each feature recurs.
+
+    Each resample gets a neighbour graph of its own. For components, loops (b1),
+    branch points and flares the command prints the full-data count, the most
+    frequent count over the resamples and its share, and the share of resamples
+    that reproduce the full-data count. bootstrap.csv holds one row per
+    resample; bootstrap.json the summary, the settings and any suggestion.
+    """
+    from ..bootstrap import bootstrap_graph
+
+    out = _out_dir(out)
+    ws = _workspace(cloud, seed, neighbor_method)
+    result = bootstrap_graph(
+        _lens(ws, lens), ws, resamples=resamples, scheme=scheme, fraction=fraction,
+        intervals=_per_lens(intervals, int, "--intervals"),
+        overlap=_per_lens(overlap, float, "--overlap"), suggest=suggest, random_state=seed,
+        **_settings(k, cutoff, min_size, cover_scale),
+    )
+    if result.suggestion is not None:
+        s = result.suggestion
+        click.echo(f"Suggested cover: intervals {s.intervals}, overlap {s.overlap:g}, cut-off "
+                   f"{s.cutoff:.4g} (Hausdorff scale over {s.batches} subsamples of "
+                   f"{s.subsample_size} rows).")
+    click.echo(f"Bootstrap of {result.lens_label}: {result.resamples} resamples "
+               f"({result.scheme_text}), {ws.n} rows.")
+    click.echo(result.format_table())
+    written = result.write(out, figures=not no_figure)
+    click.echo("wrote " + ", ".join(str(p) for p in written.values()))
+
+
+# --------------------------------------------------------------------------- compare
+@click.command("compare")
+@input_options
+@click.option("-l", "--lens", "lenses", multiple=True, required=True, metavar="SPEC",
+              help="One view per --lens (give two or more). " + _LENS_HELP)
+@click.option("--partition", type=click.Choice(["component", "node"]), default="component",
+              show_default=True,
+              help="Row partition each view induces: the row's connected component, or its "
+              "first node.")
+@click.option("--match", default=0.5, show_default=True, type=float,
+              help="Overlap coefficient at which a feature counts as present in both views.")
+@click.option("-o", "--out", default="lenswork-compare", show_default=True,
+              type=click.Path(file_okay=False),
+              help="Output directory: comparison.json, correspondence CSVs, comparison.png.")
+@click.option("--no-figure", is_flag=True, help="Write the tables only.")
+@_graph_options()
+def compare(cloud, seed, lenses, partition, match, out, no_figure, k, cutoff, min_size,
+            cover_scale, neighbor_method, intervals, overlap):
+    """Compare the Mapper graphs of two or more lenses over the same rows.
+
+    For every pair of views it prints the adjusted Rand index and the variation
+    of information of the row partitions the views induce, and the features
+    (loops, flares, branch points, components) found in one view and not the
+    other. comparison.json holds all of it; correspondence_A_B.csv the node
+    correspondence M_a^T M_b (rows shared by each pair of nodes); comparison.png
+    draws the views side by side, each coloured by the other view's lens.
+    """
+    from ..compare import compare_views
+
+    if len(lenses) < 2:
+        raise click.UsageError("Give at least two --lens options: one per view.")
+    out = _out_dir(out)
+    ws = _workspace(cloud, seed, neighbor_method)
+    settings = _settings(k, cutoff, min_size, cover_scale)
+    iv = _per_lens(intervals, int, "--intervals")
+    ov = _per_lens(overlap, float, "--overlap")
+    if iv is not None:
+        settings["intervals"] = iv
+    if ov is not None:
+        settings["overlap"] = ov
+    views = {spec: _lens(ws, spec) for spec in lenses}
+    result = compare_views(views, ws, partition=partition, match=match, **settings)
+    click.echo(result.format_text())
+    written = result.write(out, figures=not no_figure)
+    click.echo("wrote " + ", ".join(str(p) for p in written.values()))
+
+
+COMMANDS = [stability, bootstrap, compare]

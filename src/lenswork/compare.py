@@ -1,0 +1,708 @@
+"""Compare views: two or more Mapper graphs (Mapper, 2007) over the same rows.
+
+A *view* is one graph of the data: one choice of lens (or lenses) and cover
+settings. Views of the same rows can be compared without any geometry,
+through the rows their nodes hold.
+
+Node correspondence
+-------------------
+With membership matrices ``M_a`` (rows x nodes of view a, 0/1) and ``M_b``,
+the product ``C = M_a^T M_b`` counts, for every pair of nodes (one per view),
+the rows they share: ``C[i, j] = |rows(i) & rows(j)|``. One sparse product,
+never a loop over node pairs.
+
+Induced row partitions
+----------------------
+A graph induces a partition of the rows it covers. Two are offered:
+
+* ``"component"`` (default): each row's label is the connected component of
+  the graph that holds its nodes. All nodes of one row lie in one component,
+  since two nodes sharing a row are joined by a nerve edge.
+* ``"node"``: each row's label is its *first node*, the node of smallest index
+  among the nodes that hold it (node order as the graph builder numbers them:
+  cover element by cover element, then cluster by cluster). Finer, and
+  sensitive to the cover.
+
+Rows that a view leaves unassigned (in no node) have no label there; the
+agreement scores are computed over the rows assigned in every view compared,
+and the number of rows left out is reported.
+
+Agreement scores
+----------------
+Both are computed here from the contingency table ``n_ij`` (rows with label
+``i`` in the first partition and ``j`` in the second), with ``a_i`` and
+``b_j`` its row and column sums and ``n`` the total:
+
+* adjusted Rand index (Hubert and Arabie 1985) [1]_::
+
+      index    = sum_ij C(n_ij, 2)
+      expected = sum_i C(a_i, 2) * sum_j C(b_j, 2) / C(n, 2)
+      maximum  = (sum_i C(a_i, 2) + sum_j C(b_j, 2)) / 2
+      ARI      = (index - expected) / (maximum - expected)
+
+  1 for identical partitions (also in the degenerate case where both are
+  one block or both all singletons), about 0 for independent ones, and
+  possibly negative. Computed in exact integer arithmetic, then divided once.
+* variation of information (Meilă 2007) [2]_, in nats::
+
+      VI = H(A) + H(B) - 2 I(A; B) = 2 H(A, B) - H(A) - H(B)
+
+  with ``H`` the Shannon entropy of the label shares. 0 for identical
+  partitions, at most ``log n``; a metric on partitions.
+
+Features in one view and not the other
+--------------------------------------
+Each feature the graph summary lists (a loop, a flare, a branch point, a
+component) is a set of nodes and so a set of rows. A feature of view a is
+*matched* in view b when b has a feature of the same type whose rows overlap
+it with overlap coefficient ``|A & B| / min(|A|, |B|)`` at least
+``match`` (default 0.5); unmatched features are reported per view.
+
+References
+----------
+.. [1] L. Hubert and P. Arabie, "Comparing partitions", Journal of
+   Classification 2, 193-218, 1985.
+.. [2] M. Meilă, "Comparing clusterings—an information based distance",
+   Journal of Multivariate Analysis 98, 873-895, 2007.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import scipy.sparse as sp
+
+from ._errors import InputError, ParameterError
+
+__all__ = [
+    "adjusted_rand_index",
+    "contingency_table",
+    "variation_of_information",
+]
+
+
+# --------------------------------------------------------------------------- partitions
+def _labels(labels, what):
+    """``labels`` as a 1-D array of integer codes 0..k-1 (any hashable labels accepted)."""
+    arr = np.asarray(labels)
+    if arr.ndim != 1:
+        raise InputError(
+            f"The {what} labels must be a 1-D array with one label per row; got shape "
+            f"{arr.shape}. Pass one label per row."
+        )
+    if arr.dtype.kind == "f" and not np.isfinite(arr).all():
+        raise InputError(
+            f"The {what} labels hold NaN or infinite values; expected one finite label per row. "
+            f"Leave unassigned rows out before comparing."
+        )
+    try:
+        _, codes = np.unique(arr, return_inverse=True)
+    except TypeError:  # mixed types that numpy cannot sort: fall back to first-seen order
+        seen = {}
+        codes = np.fromiter((seen.setdefault(v, len(seen)) for v in arr.tolist()),
+                            dtype=np.int64, count=arr.shape[0])
+    return np.asarray(codes, dtype=np.int64).ravel()
+
+
+def contingency_table(labels_a, labels_b):
+    """The contingency table of two partitions of the same rows.
+
+    Parameters
+    ----------
+    labels_a, labels_b : array-like of shape (n_samples,)
+        One label per row (any hashable values; only equality matters).
+
+    Returns
+    -------
+    scipy.sparse.csr_matrix of shape (k_a, k_b), int64
+        ``[i, j]`` = number of rows with the i-th label of ``labels_a`` (in
+        sorted order) and the j-th label of ``labels_b``.
+
+    Raises
+    ------
+    InputError
+        If the two label arrays differ in length, or are not 1-D.
+
+    Notes
+    -----
+    Cost: O(n log n) (two ``np.unique`` calls and one sparse build).
+
+    Examples
+    --------
+    >>> contingency_table([0, 0, 1, 1], ["x", "y", "y", "y"]).toarray().tolist()
+    [[1, 1], [0, 2]]
+    """
+    a = _labels(labels_a, "first")
+    b = _labels(labels_b, "second")
+    if a.shape != b.shape:
+        raise InputError(
+            f"The two partitions cover different numbers of rows ({a.shape[0]} and "
+            f"{b.shape[0]}); expected one label per row for the same rows in both."
+        )
+    ka = int(a.max()) + 1 if a.size else 0
+    kb = int(b.max()) + 1 if b.size else 0
+    ones = np.ones(a.shape[0], dtype=np.int64)
+    table = sp.csr_matrix((ones, (a, b)), shape=(ka, kb), dtype=np.int64)
+    table.sum_duplicates()
+    return table
+
+
+def _pairs(counts):
+    """sum over counts of C(c, 2), as an exact Python int."""
+    c = np.asarray(counts, dtype=np.int64)
+    return int(np.sum(c * (c - 1) // 2, dtype=np.int64)) if c.size else 0
+
+
+def adjusted_rand_index(labels_a, labels_b):
+    """Adjusted Rand index of two partitions of the same rows (Hubert and Arabie 1985).
+
+    Parameters
+    ----------
+    labels_a, labels_b : array-like of shape (n_samples,)
+
+    Returns
+    -------
+    float
+        1 for identical partitions (up to renaming the labels), about 0 for
+        independent ones, negative when the agreement is below chance.
+
+    Raises
+    ------
+    InputError
+        If the label arrays differ in length or are empty.
+
+    Notes
+    -----
+    From the contingency table ``n_ij`` with margins ``a_i``, ``b_j``::
+
+        ARI = (sum C(n_ij,2) - E) / ((sum C(a_i,2) + sum C(b_j,2)) / 2 - E),
+        E   = sum C(a_i,2) sum C(b_j,2) / C(n,2).
+
+    Numerator and denominator are multiplied by ``2 C(n, 2)`` and kept as
+    exact integers, so the only rounding is the final division. When the
+    denominator is 0 (both partitions one block, or both all singletons) the
+    partitions agree and 1.0 is returned. Cost O(n log n).
+
+    References
+    ----------
+    .. [1] L. Hubert and P. Arabie, "Comparing partitions", Journal of
+       Classification 2, 193-218, 1985.
+
+    Examples
+    --------
+    >>> adjusted_rand_index([0, 0, 1, 1], [5, 5, 7, 7])
+    1.0
+    >>> adjusted_rand_index([0, 0, 1, 1], [0, 1, 0, 1])
+    -0.5
+    """
+    table = contingency_table(labels_a, labels_b)
+    n = int(table.sum())
+    if n == 0:
+        raise InputError("Cannot compare empty partitions; expected at least one row.")
+    index = _pairs(table.data)
+    sa = _pairs(np.asarray(table.sum(axis=1)).ravel())
+    sb = _pairs(np.asarray(table.sum(axis=0)).ravel())
+    cn = n * (n - 1) // 2
+    numerator = 2 * (index * cn - sa * sb)
+    denominator = (sa + sb) * cn - 2 * sa * sb
+    if denominator == 0:
+        return 1.0
+    return numerator / denominator
+
+
+def _entropy(counts, n):
+    p = np.asarray(counts, dtype=np.float64)
+    p = p[p > 0] / n
+    return float(-np.sum(p * np.log(p)))
+
+
+def variation_of_information(labels_a, labels_b, *, normalized=False):
+    """Variation of information between two partitions of the same rows (Meilă 2007).
+
+    Parameters
+    ----------
+    labels_a, labels_b : array-like of shape (n_samples,)
+    normalized : bool, default=False
+        Divide by ``log n`` (the largest value VI can take on ``n`` rows), giving
+        a number in [0, 1].
+
+    Returns
+    -------
+    float
+        ``VI = H(A) + H(B) - 2 I(A; B)`` in nats; 0 for identical partitions.
+
+    Raises
+    ------
+    InputError
+        If the label arrays differ in length or are empty.
+
+    Notes
+    -----
+    With joint shares ``p_ij = n_ij / n`` and margins ``p_i``, ``q_j``::
+
+        VI = 2 H(A, B) - H(A) - H(B),   H(A, B) = -sum p_ij log p_ij.
+
+    Cost O(n log n) for the contingency table, then O(nonzero cells).
+
+    References
+    ----------
+    .. [1] M. Meilă, "Comparing clusterings—an information based distance",
+       Journal of Multivariate Analysis 98, 873-895, 2007.
+
+    Examples
+    --------
+    >>> variation_of_information([0, 0, 1, 1], [1, 1, 0, 0])
+    0.0
+    >>> round(variation_of_information([0, 0, 0, 0], [0, 0, 1, 1]), 6)  # log 2
+    0.693147
+    """
+    table = contingency_table(labels_a, labels_b)
+    n = int(table.sum())
+    if n == 0:
+        raise InputError("Cannot compare empty partitions; expected at least one row.")
+    h_ab = _entropy(table.data, n)
+    h_a = _entropy(np.asarray(table.sum(axis=1)).ravel(), n)
+    h_b = _entropy(np.asarray(table.sum(axis=0)).ravel(), n)
+    vi = max(2.0 * h_ab - h_a - h_b, 0.0)  # clip rounding below zero
+    if normalized:
+        return vi / math.log(n) if n > 1 else 0.0
+    return vi
+
+
+# --------------------------------------------------------------------------- graphs
+PARTITIONS = ("component", "node")
+
+
+def node_components(graph):
+    """Connected component of every node of a graph (labels 0..C-1, by smallest node)."""
+    from scipy.sparse.csgraph import connected_components
+
+    _, labels = connected_components(graph.adjacency(), directed=False)
+    return labels.astype(np.int64)
+
+
+def induced_partition(graph, how="component"):
+    """The row partition a graph induces; -1 for rows in no node.
+
+    Parameters
+    ----------
+    graph : LensGraph
+    how : {"component", "node"}, default="component"
+        ``"component"``: the connected component holding the row's nodes;
+        ``"node"``: the row's first node (smallest node index holding it).
+
+    Returns
+    -------
+    ndarray of shape (n_rows,), int64
+
+    Examples
+    --------
+    >>> import scipy.sparse as sp
+    >>> from lenswork.graph import LensGraph
+    >>> M = sp.csr_matrix(np.array([[1, 0, 0], [1, 1, 0], [0, 1, 0], [0, 0, 1], [0, 0, 0]]))
+    >>> g = LensGraph(M, [[0], [1], [2]], [[0, 1]], [1], {"h": np.zeros((3, 3))},
+    ...               lens_columns=["h"])
+    >>> induced_partition(g).tolist(), induced_partition(g, "node").tolist()
+    ([0, 0, 0, 1, -1], [0, 0, 1, 2, -1])
+    """
+    from ._validation import check_choice
+
+    how = check_choice("how", how, PARTITIONS, context="induced_partition")
+    M = graph.membership
+    counts = np.diff(M.indptr)
+    first = np.full(M.shape[0], -1, dtype=np.int64)
+    has = counts > 0
+    first[has] = M.indices[M.indptr[:-1][has]]  # indices are sorted: the first is the smallest
+    if how == "node":
+        return first
+    comp = node_components(graph)
+    out = np.full(M.shape[0], -1, dtype=np.int64)
+    out[has] = comp[first[has]]
+    return out
+
+
+def correspondence(graph_a, graph_b):
+    """Rows shared by every pair of nodes of two graphs over the same rows: ``M_a^T M_b``.
+
+    Parameters
+    ----------
+    graph_a, graph_b : LensGraph
+
+    Returns
+    -------
+    scipy.sparse.csr_matrix of shape (nodes of a, nodes of b), int64
+
+    Raises
+    ------
+    InputError
+        If the graphs were built on different numbers of rows.
+
+    Examples
+    --------
+    >>> import scipy.sparse as sp
+    >>> from lenswork.graph import LensGraph
+    >>> Ma = sp.csr_matrix(np.array([[1, 0], [1, 1], [0, 1]]))
+    >>> Mb = sp.csr_matrix(np.array([[1], [1], [1]]))
+    >>> ga = LensGraph(Ma, [[0], [1]], [[0, 1]], [1], {"h": np.zeros((2, 3))}, lens_columns=["h"])
+    >>> gb = LensGraph(Mb, [[0]], [], [], {"h": np.zeros((1, 3))}, lens_columns=["h"])
+    >>> correspondence(ga, gb).toarray().tolist()
+    [[2], [2]]
+    """
+    _same_rows([graph_a, graph_b], ["first", "second"])
+    A = sp.csr_matrix(graph_a.membership, dtype=np.int64)
+    B = sp.csr_matrix(graph_b.membership, dtype=np.int64)
+    return (A.T @ B).tocsr()
+
+
+def _same_rows(graphs, names):
+    sizes = {g.n_rows for g in graphs}
+    if len(sizes) > 1:
+        detail = ", ".join(f"{nm}: {g.n_rows}" for nm, g in zip(names, graphs, strict=True))
+        raise InputError(
+            f"The views cover different numbers of rows ({detail}); a comparison needs graphs "
+            f"built over the same rows. Build every view on the same workspace."
+        )
+
+
+def _overlap(a, b):
+    """Overlap coefficient |a & b| / min(|a|, |b|) of two sorted row arrays."""
+    if a.size == 0 or b.size == 0:
+        return 0.0
+    return np.intersect1d(a, b, assume_unique=True).size / min(a.size, b.size)
+
+
+#: Feature kinds compared between views (as the graph summary names them).
+FEATURE_KINDS = ("component", "loop", "flare", "branch")
+
+
+def _feature_rows(graph, summary):
+    """(kind, feature index within its kind, sorted row array) for every compared feature."""
+    M = sp.csc_matrix(graph.membership)
+    out = []
+    index = dict.fromkeys(FEATURE_KINDS, 0)
+    for f in summary.features:
+        if f.kind not in index:
+            continue
+        parts = [M.indices[M.indptr[v]:M.indptr[v + 1]] for v in f.nodes]
+        rows = np.unique(np.concatenate(parts)) if parts else np.empty(0, dtype=np.int64)
+        out.append((f.kind, index[f.kind], rows.astype(np.int64), f))
+        index[f.kind] += 1
+    return out
+
+
+def _unmatched(feats_a, feats_b, match):
+    """Features of a with no feature of the same kind in b overlapping at least ``match``."""
+    out = []
+    for kind, i, rows, f in feats_a:
+        best = max((_overlap(rows, r) for k, _, r, _ in feats_b if k == kind), default=0.0)
+        if best < match:
+            out.append({"kind": kind, "index": i, "nodes": list(f.nodes), "rows": int(rows.size),
+                        "best_overlap": float(best)})
+    return out
+
+
+def _node_means(graph, values):
+    """Mean of ``values`` (one per row) over the rows of every node."""
+    M = sp.csr_matrix(graph.membership, dtype=np.float64)
+    sums = M.T @ values
+    sizes = np.maximum(graph.node_sizes, 1)
+    return sums / sizes
+
+
+class ViewComparison:
+    """Two or more views (graphs over the same rows) compared.
+
+    Attributes
+    ----------
+    names : list of str
+        View names.
+    graphs : list of LensGraph
+    lens_values : list of ndarray of shape (n_rows, m_i)
+        The lens columns of each view (raw values), for colouring the other views.
+    partition : {"component", "node"}
+    labels : list of ndarray of shape (n_rows,)
+        The induced partition of each view (-1: row in no node).
+    compared : ndarray of bool, shape (n_rows,)
+        Rows assigned in every view; the agreement scores use these.
+    pairs : list of dict
+        One per pair of views (a < b): ``a``, ``b``, ``ari``, ``vi``,
+        ``vi_normalized``, ``rows_compared``, ``only_a`` / ``only_b`` (features
+        of one view not matched in the other) and ``matched`` counts.
+    match : float
+    summaries : list of GraphSummary
+    """
+
+    def __init__(self, names, graphs, lens_values, *, partition="component", match=0.5):
+        self.names = list(names)
+        self.graphs = list(graphs)
+        self.lens_values = [np.asarray(v, dtype=np.float64).reshape(self.graphs[0].n_rows, -1)
+                            for v in lens_values]
+        self.partition = partition
+        self.match = float(match)
+        self.labels = [induced_partition(g, partition) for g in self.graphs]
+        self.compared = np.logical_and.reduce([lab >= 0 for lab in self.labels])
+        self.summaries = [g.summary() for g in self.graphs]
+        feats = [_feature_rows(g, s) for g, s in zip(self.graphs, self.summaries, strict=True)]
+        self.pairs = []
+        rows = self.compared
+        for a in range(len(self.graphs)):
+            for b in range(a + 1, len(self.graphs)):
+                la, lb = self.labels[a][rows], self.labels[b][rows]
+                only_a = _unmatched(feats[a], feats[b], self.match)
+                only_b = _unmatched(feats[b], feats[a], self.match)
+                self.pairs.append({
+                    "a": self.names[a], "b": self.names[b],
+                    "ari": adjusted_rand_index(la, lb) if la.size else float("nan"),
+                    "vi": variation_of_information(la, lb) if la.size else float("nan"),
+                    "vi_normalized": (variation_of_information(la, lb, normalized=True)
+                                      if la.size else float("nan")),
+                    "rows_compared": int(la.size),
+                    "rows_left_out": int(rows.size - la.size),
+                    "only_a": only_a, "only_b": only_b,
+                    "matched_a": len(feats[a]) - len(only_a),
+                    "matched_b": len(feats[b]) - len(only_b),
+                })
+
+    def _index(self, view):
+        if isinstance(view, str):
+            if view not in self.names:
+                raise ParameterError(f"No view {view!r}; the views are: {', '.join(self.names)}.")
+            return self.names.index(view)
+        return int(view)
+
+    def correspondence(self, a=0, b=1):
+        """``M_a^T M_b``: rows shared by node i of view a and node j of view b."""
+        return correspondence(self.graphs[self._index(a)], self.graphs[self._index(b)])
+
+    def pair(self, a=0, b=1):
+        """The comparison dict of views a and b (names or positions)."""
+        ia, ib = sorted((self._index(a), self._index(b)))
+        for p in self.pairs:
+            if p["a"] == self.names[ia] and p["b"] == self.names[ib]:
+                return p
+        raise ParameterError("Compare two different views.")
+
+    def agreement(self, score="ari"):
+        """(V, V) matrix of one score between every pair of views (diagonal: identity value)."""
+        from ._validation import check_choice
+
+        score = check_choice("score", score, ("ari", "vi", "vi_normalized"),
+                             context="ViewComparison.agreement")
+        V = len(self.names)
+        out = np.full((V, V), 1.0 if score == "ari" else 0.0)
+        for p in self.pairs:
+            i, j = self.names.index(p["a"]), self.names.index(p["b"])
+            out[i, j] = out[j, i] = p[score]
+        return out
+
+    def node_colour(self, view, by):
+        """Node means of view ``by``'s first lens column over the nodes of ``view``."""
+        g = self.graphs[self._index(view)]
+        return _node_means(g, self.lens_values[self._index(by)][:, 0])
+
+    def format_text(self):
+        """The comparison in a few lines for a terminal."""
+        lines = []
+        for name, s in zip(self.names, self.summaries, strict=True):
+            lines.append(f"{name}: {s.n_nodes} nodes, {s.n_edges} edges, components "
+                         f"{s.n_components}, loops {s.loops}, branch points "
+                         f"{len(s.branch_points)}, flares {s.n_flares}")
+        for p in self.pairs:
+            lines.append(
+                f"{p['a']} vs {p['b']} ({self.partition} partition, {p['rows_compared']:,} rows): "
+                f"ARI {p['ari']:.3f}, VI {p['vi']:.3f} nats ({p['vi_normalized']:.3f} of log n)")
+            for side, key in ((p["a"], "only_a"), (p["b"], "only_b")):
+                if p[key]:
+                    items = ", ".join(f"{f['kind']} {f['index'] + 1} ({f['rows']} rows)"
+                                      for f in p[key])
+                    lines.append(f"  only in {side}: {items}")
+                else:
+                    lines.append(f"  only in {side}: nothing (every feature matched at "
+                                 f"overlap >= {self.match:g})")
+        return "\n".join(lines)
+
+    def to_dict(self):
+        """JSON-ready: views with their counts, pair scores, unmatched features, provenance."""
+        from . import __version__
+
+        views = []
+        for name, g, s in zip(self.names, self.graphs, self.summaries, strict=True):
+            views.append({"name": name, "lens_columns": list(g.lens_columns), "params": g.params,
+                          "nodes": s.n_nodes, "edges": s.n_edges, "components": s.n_components,
+                          "loops": s.loops, "branch_points": len(s.branch_points),
+                          "flares": s.n_flares, "unassigned": s.n_unassigned})
+        pairs = [{k: (None if isinstance(v, float) and math.isnan(v) else v)
+                  for k, v in p.items()} for p in self.pairs]
+        return {"lenswork_version": __version__, "kind": "view comparison",
+                "partition": self.partition, "match": self.match,
+                "n_rows": int(self.graphs[0].n_rows), "views": views, "pairs": pairs}
+
+    def write(self, directory, *, figures=True):
+        """Write ``comparison.json``, one ``correspondence_<a>_<b>.csv`` per pair (and a figure).
+
+        Each correspondence CSV lists the non-zero entries of ``M_a^T M_b``:
+        ``node_a, node_b, shared_rows``.
+
+        Returns
+        -------
+        dict of str -> Path
+        """
+        import json
+        from pathlib import Path
+
+        from ._io import write_text
+
+        directory = Path(directory)
+        if directory.exists() and not directory.is_dir():
+            raise ParameterError(
+                f"Output directory {str(directory)!r} is a file; give a directory path."
+            )
+        out = {}
+        path = directory / "comparison.json"
+        write_text(path, json.dumps(self.to_dict(), indent=2) + "\n")
+        out[path.name] = path
+        for i in range(len(self.names)):
+            for j in range(i + 1, len(self.names)):
+                C = self.correspondence(i, j).tocoo()
+                order = np.lexsort((C.col, C.row))
+                lines = ["node_a,node_b,shared_rows"]
+                lines += [f"{C.row[t]},{C.col[t]},{C.data[t]}" for t in order]
+                path = directory / f"correspondence_{i + 1}_{j + 1}.csv"
+                write_text(path, "\n".join(lines) + "\n")
+                out[path.name] = path
+        if figures:
+            path = self.plot(directory / "comparison.png")[0]
+            out[path.name] = path
+        return out
+
+    def plot(self, paths=None):
+        """Views side by side, each coloured by the next view's lens; write or return the figure."""
+        from .plot._compare import comparison_figure, comparison_sheet
+
+        if paths is None:
+            return comparison_figure(self)
+        paths = [paths] if isinstance(paths, (str, bytes)) or hasattr(paths, "suffix") else paths
+        return comparison_sheet(self, paths)
+
+    def __repr__(self):
+        p = self.pairs[0]
+        return (f"ViewComparison({len(self.names)} views, {self.partition} partition, "
+                f"ARI[{p['a']}, {p['b']}] = {p['ari']:.3f})")
+
+
+def _view_items(views):
+    if isinstance(views, dict):
+        return list(views.items())
+    views = list(views)
+    names = []
+    for i, v in enumerate(views):
+        if hasattr(v, "lens_columns") and hasattr(v, "membership"):
+            base = " \u00d7 ".join(v.lens_columns)
+        else:
+            base = None
+        names.append(base or f"view {i + 1}")
+    if len(set(names)) < len(names):
+        names = [f"{nm} ({i + 1})" for i, nm in enumerate(names)]
+    return list(zip(names, views, strict=True))
+
+
+def compare_views(views, workspace=None, *, partition="component", match=0.5, **graph_settings):
+    """Compare two or more views of the same rows.
+
+    Parameters
+    ----------
+    views : list or dict of views
+        Each view is a :class:`~lenswork.LensGraph` (already built), or a lens
+        input that :func:`lenswork.build_graph` accepts (LensTable, LensColumn(s),
+        array, registry spec string), built on ``workspace`` with
+        ``graph_settings``, or a pair ``(lens input, dict of settings)`` to
+        compare settings. A dict names the views; otherwise names come from the
+        lens columns.
+    workspace : Workspace, optional
+        Needed when a view is not a built graph.
+    partition : {"component", "node"}, default="component"
+        The induced row partition (see the module docstring).
+    match : float in (0, 1], default=0.5
+        Overlap coefficient at which a feature counts as present in both views.
+    **graph_settings
+        Passed to :func:`lenswork.build_graph` for views that are built here.
+
+    Returns
+    -------
+    ViewComparison
+
+    Raises
+    ------
+    ParameterError
+        Fewer than two views, a view that is not a graph without a workspace,
+        bad partition or match.
+    InputError
+        Views over different numbers of rows.
+
+    Notes
+    -----
+    Cost per pair: one sparse product ``M_a^T M_b`` (O(sum over rows of nodes_a
+    x nodes_b per row)), O(n log n) for the contingency table, and one
+    intersection per pair of same-kind features.
+
+    Examples
+    --------
+    >>> from lenswork import Workspace
+    >>> t = np.linspace(0, 2 * np.pi, 400, endpoint=False)
+    >>> ws = Workspace(np.column_stack([np.cos(t), np.sin(t)]))
+    >>> cmp = compare_views({"x": ws.X[:, 0], "y": ws.X[:, 1]}, ws)
+    >>> p = cmp.pair("x", "y")
+    >>> p["ari"], p["vi"], p["only_a"]
+    (1.0, 0.0, [])
+    """
+    from ._validation import check_choice, check_float
+
+    partition = check_choice("partition", partition, PARTITIONS, context="compare_views")
+    match = check_float("match", match, lo=0, hi=1, lo_open=True, context="compare_views")
+    items = _view_items(views)
+    if len(items) < 2:
+        raise ParameterError(
+            f"compare_views needs at least two views; got {len(items)}. Pass a list or dict of "
+            f"graphs or lenses."
+        )
+    names, graphs, values = [], [], []
+    for name, view in items:
+        if hasattr(view, "membership") and hasattr(view, "lens_columns"):
+            g = view
+            lens_vals = _graph_lens_values(g)
+        else:
+            if workspace is None:
+                raise ParameterError(
+                    f"View {name!r} is not a built graph, so compare_views needs the workspace "
+                    f"to build it: compare_views(views, workspace)."
+                )
+            from .graph import build_graph
+            from .probe import _as_columns
+
+            lens, settings = view, {}
+            if isinstance(view, tuple) and len(view) == 2 and isinstance(view[1], dict):
+                lens, settings = view
+            cols = _as_columns(lens, workspace)
+            g = build_graph(cols, workspace, **{**graph_settings, **settings})
+            lens_vals = np.column_stack([c.values for c in cols])
+        names.append(str(name))
+        graphs.append(g)
+        values.append(lens_vals)
+    _same_rows(graphs, names)
+    return ViewComparison(names, graphs, values, partition=partition, match=match)
+
+
+def _graph_lens_values(graph):
+    """Per-row lens values of a built graph, recovered from its node means.
+
+    A built graph keeps node statistics, not per-row lens values, so a row's
+    value is the mean of the lens means of the nodes holding it (NaN for a row
+    in no node). Used only to colour the other views' nodes.
+    """
+    M = sp.csr_matrix(graph.membership, dtype=np.float64)
+    counts = np.maximum(np.diff(M.indptr), 1)
+    cols = [graph.node_values(name) for name in graph.lens_columns]
+    vals = np.column_stack([(M @ c) / counts for c in cols])
+    vals[np.diff(M.indptr) == 0] = np.nan
+    return vals

@@ -1,0 +1,61 @@
+"""Mapper-style graphs (Mapper, 2007) over lens columns, on the shared neighbour graph.
+
+Public surface
+--------------
+Building
+    build_graph, Cover, neighbor_cutoff, node_statistics
+The graph
+    LensGraph, GraphNode, GraphEdge, GraphSummary, GraphFeature, graph_layout
+Nerve
+    membership_matrix, nerve_edges, nerve_triangles
+Files (:mod:`lenswork.graph.io`)
+    write_graphml, write_graph_json, read_graph_json, write_memberships
+
+=============  ==========================================================
+module         concept
+=============  ==========================================================
+``_cover``     overlapping intervals per lens and their product
+``_cluster``   clusters of each cover element; cut-off and fragment rules
+``_nerve``     membership matrix, edges from ``M^T M``, triangles
+``_lensgraph`` the LensGraph object
+``_summary``   components, loops, branch points, flares, features
+``_layout``    level, lens, spring and spectral layouts
+``_build``     build_graph: cover -> clusters -> nerve
+``io``         GraphML, JSON, memberships CSV
+=============  ==========================================================
+"""
+
+from __future__ import annotations
+
+from ._build import build_graph, node_statistics
+from ._cluster import CLUSTERERS, FRAGMENT_RULES, neighbor_cutoff
+from ._cover import COVER_SCALES, Cover
+from ._layout import LAYOUTS, graph_layout
+from ._lensgraph import GraphEdge, GraphNode, LensGraph
+from ._nerve import membership_matrix, nerve_edges, nerve_triangles
+from ._summary import GraphFeature, GraphSummary
+from .io import read_graph_json, write_graph_json, write_graphml, write_memberships
+
+__all__ = [
+    "CLUSTERERS",
+    "COVER_SCALES",
+    "FRAGMENT_RULES",
+    "LAYOUTS",
+    "Cover",
+    "GraphEdge",
+    "GraphFeature",
+    "GraphNode",
+    "GraphSummary",
+    "LensGraph",
+    "build_graph",
+    "graph_layout",
+    "membership_matrix",
+    "neighbor_cutoff",
+    "nerve_edges",
+    "nerve_triangles",
+    "node_statistics",
+    "read_graph_json",
+    "write_graph_json",
+    "write_graphml",
+    "write_memberships",
+]

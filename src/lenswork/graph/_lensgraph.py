@@ -1,0 +1,320 @@
+"""The LensGraph: nodes, edges and the membership of every row."""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass
+from functools import cached_property
+
+import numpy as np
+import scipy.sparse as sp
+
+from .._errors import ParameterError
+from ._nerve import jaccard_weights, nerve_triangles
+
+__all__ = ["GraphEdge", "GraphNode", "LensGraph"]
+
+#: Node statistics kept for every lens and data column, in this order.
+STATS = ("mean", "min", "max")
+
+
+@dataclass(frozen=True, eq=False)
+class GraphNode:
+    """One node: a cluster of the rows of one cover element.
+
+    Attributes
+    ----------
+    id : int
+    element : tuple of int
+        Interval index per lens of the cover element the node came from.
+    size : int
+        Number of member rows.
+    members : ndarray of int64
+        Member row positions (0-based, in the workspace's row order).
+    stats : dict of str -> dict
+        ``{"mean": ..., "min": ..., "max": ...}`` of every lens column and every
+        chosen data column over the members.
+    """
+
+    id: int
+    element: tuple
+    size: int
+    members: np.ndarray
+    stats: dict
+
+
+@dataclass(frozen=True)
+class GraphEdge:
+    """One edge of the nerve: two nodes sharing ``shared`` rows; Jaccard weight."""
+
+    source: int
+    target: int
+    shared: int
+    jaccard: float
+
+
+def _plain(value):
+    """Plain JSON types (tuples to lists, numpy scalars to Python)."""
+    if isinstance(value, dict):
+        return {str(k): _plain(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_plain(v) for v in value]
+    if isinstance(value, np.ndarray):
+        return _plain(value.tolist())
+    if isinstance(value, np.generic):
+        return value.item()
+    return value
+
+
+class LensGraph:
+    """A Mapper-style graph (Mapper, 2007) built over the rows of one point cloud.
+
+    Usually made by :func:`build_graph` or read by :func:`read_graph_json`.
+
+    Parameters
+    ----------
+    membership : scipy.sparse matrix of shape (n_rows, n_nodes)
+        ``1`` where a row belongs to a node.
+    node_elements : array-like of shape (n_nodes, n_lenses), int
+        Cover element (interval index per lens) of each node.
+    edges : array-like of shape (n_edges, 2), int
+        Node pairs ``a < b``.
+    edge_shared : array-like of shape (n_edges,), int
+        Rows shared by the two nodes of each edge.
+    node_stats : dict of str -> array of shape (n_nodes, 3)
+        Mean, min and max of each lens and data column per node.
+    lens_columns, data_columns : sequence of str
+        Which keys of ``node_stats`` are lenses and which are data columns.
+    row_ids : array-like of shape (n_rows,), optional
+    id_name : str, default="row"
+    params, provenance, fragments : dict, optional
+        How the graph was built; stored as plain JSON types.
+
+    Attributes
+    ----------
+    membership : scipy.sparse.csr_matrix, int8
+    node_elements, node_sizes : ndarray
+    edge_index, edge_shared, edge_jaccard : ndarray
+    nodes : tuple of GraphNode
+    edges : tuple of GraphEdge
+    unassigned : ndarray of int64
+        Row positions that belong to no node (reported, never dropped silently).
+
+    Examples
+    --------
+    >>> import scipy.sparse as sp
+    >>> M = sp.csr_matrix(np.array([[1, 0], [1, 1], [0, 1], [0, 0]]))
+    >>> g = LensGraph(M, [[0], [1]], [[0, 1]], [1], {"h": np.array([[0.5, 0, 1], [1.5, 1, 2]])},
+    ...               lens_columns=["h"])
+    >>> g.n_nodes, g.n_edges, g.unassigned.tolist(), round(g.edges[0].jaccard, 3)
+    (2, 1, [3], 0.333)
+    """
+
+    def __init__(self, membership, node_elements, edges, edge_shared, node_stats, *,
+                 lens_columns, data_columns=(), row_ids=None, id_name="row", params=None,
+                 provenance=None, fragments=None):
+        M = sp.csr_matrix(membership, dtype=np.int8)
+        M.sort_indices()
+        self.membership = M
+        n_rows, n_nodes = M.shape
+        self.node_elements = np.asarray(node_elements, dtype=np.int64).reshape(n_nodes, -1)
+        self.edge_index = np.asarray(edges, dtype=np.int64).reshape(-1, 2)
+        self.edge_shared = np.asarray(edge_shared, dtype=np.int64).reshape(-1)
+        if self.edge_shared.size != self.edge_index.shape[0]:
+            raise ParameterError(
+                f"A LensGraph needs one shared count per edge; got {self.edge_shared.size} "
+                f"counts for {self.edge_index.shape[0]} edges."
+            )
+        self.node_stats = {
+            str(k): np.asarray(v, dtype=np.float64).reshape(n_nodes, 3) for k, v in node_stats.items()
+        }
+        self.lens_columns = tuple(lens_columns)
+        self.data_columns = tuple(data_columns)
+        missing = [c for c in (*self.lens_columns, *self.data_columns) if c not in self.node_stats]
+        if missing:
+            raise ParameterError(
+                f"Column {missing[0]!r} has no node statistics; node_stats must hold every lens "
+                f"and data column."
+            )
+        self.row_ids = np.arange(1, n_rows + 1) if row_ids is None else np.asarray(row_ids)
+        self.id_name = str(id_name)
+        self.params = _plain(dict(params or {}))
+        self.provenance = _plain(dict(provenance or {}))
+        self.fragments = _plain(dict(fragments or {}))
+        self.node_sizes = np.asarray(M.sum(axis=0)).ravel().astype(np.int64)
+        self.edge_jaccard = jaccard_weights(self.edge_index, self.edge_shared, self.node_sizes)
+
+    # ---------------------------------------------------------------- counts
+    @property
+    def n_rows(self):
+        """Number of rows the graph was built on."""
+        return self.membership.shape[0]
+
+    @property
+    def n_nodes(self):
+        return self.membership.shape[1]
+
+    @property
+    def n_edges(self):
+        return self.edge_index.shape[0]
+
+    @cached_property
+    def _csc(self):
+        return self.membership.tocsc()
+
+    @cached_property
+    def unassigned(self):
+        """Row positions (0-based) that belong to no node."""
+        return np.flatnonzero(np.diff(self.membership.indptr) == 0).astype(np.int64)
+
+    @property
+    def unassigned_ids(self):
+        """Row ids of :attr:`unassigned`."""
+        return self.row_ids[self.unassigned]
+
+    def members(self, node):
+        """Member row positions (0-based) of one node."""
+        node = int(node)
+        if not 0 <= node < self.n_nodes:
+            raise ParameterError(
+                f"No node {node}: the graph has nodes 0 to {self.n_nodes - 1}."
+            )
+        csc = self._csc
+        return csc.indices[csc.indptr[node]:csc.indptr[node + 1]].astype(np.int64)
+
+    @cached_property
+    def degrees(self):
+        """Number of edges at each node."""
+        return np.bincount(self.edge_index.ravel(), minlength=self.n_nodes).astype(np.int64)
+
+    def adjacency(self):
+        """The symmetric (n_nodes, n_nodes) adjacency matrix, shared counts as weights."""
+        V = self.n_nodes
+        e = self.edge_index
+        A = sp.coo_matrix((self.edge_shared, (e[:, 0], e[:, 1])), shape=(V, V))
+        return (A + A.T).tocsr()
+
+    # ---------------------------------------------------------------- views
+    @cached_property
+    def nodes(self):
+        """Every node as a :class:`GraphNode` (id order)."""
+        csc = self._csc
+        names = (*self.lens_columns, *self.data_columns)
+        out = []
+        for a in range(self.n_nodes):
+            stats = {
+                name: dict(zip(STATS, (float(x) for x in self.node_stats[name][a])))
+                for name in names
+            }
+            out.append(GraphNode(
+                id=a, element=tuple(int(i) for i in self.node_elements[a]),
+                size=int(self.node_sizes[a]),
+                members=csc.indices[csc.indptr[a]:csc.indptr[a + 1]].astype(np.int64),
+                stats=stats,
+            ))
+        return tuple(out)
+
+    @cached_property
+    def edges(self):
+        """Every edge as a :class:`GraphEdge` (sorted by node pair)."""
+        return tuple(
+            GraphEdge(int(a), int(b), int(s), float(j))
+            for (a, b), s, j in zip(self.edge_index, self.edge_shared, self.edge_jaccard)
+        )
+
+    def node_values(self, name, stat="mean"):
+        """Per-node values of a lens or data column (``stat``: mean, min, max), or ``"size"``."""
+        if name == "size":
+            return self.node_sizes.astype(np.float64)
+        if name not in self.node_stats:
+            valid = ", ".join(["size", *self.node_stats])
+            raise ParameterError(
+                f"The graph has no node values for {name!r}. Choose among: {valid}."
+            )
+        if stat not in STATS:
+            raise ParameterError(
+                f"The 'stat' parameter of node_values must be a str among "
+                f"{{'mean', 'min', 'max'}}. Got {stat!r} instead."
+            )
+        return self.node_stats[name][:, STATS.index(stat)].copy()
+
+    # ---------------------------------------------------------------- analysis
+    def summary(self):
+        """Components, loops, branch points, flares and a per-feature list.
+
+        Returns
+        -------
+        GraphSummary
+        """
+        from ._summary import summarize
+
+        return summarize(self)
+
+    def triangles(self):
+        """Triples of nodes sharing at least one row, and how many rows they share."""
+        return nerve_triangles(self.membership)
+
+    def layout(self, method="auto", random_state=0):
+        """Node positions, shape (n_nodes, 2); see :func:`lenswork.graph.graph_layout`."""
+        from ._layout import graph_layout
+
+        return graph_layout(self, method=method, random_state=random_state)
+
+    def draw(self, path=None, **kwargs):
+        """Draw the graph (see :func:`lenswork.plot.draw_graph`)."""
+        from ..plot._graph import draw_graph
+
+        return draw_graph(self, path=path, **kwargs)
+
+    # ---------------------------------------------------------------- output
+    def write_graphml(self, path):
+        """Write GraphML (typed node and edge attributes) atomically."""
+        from .io import write_graphml
+
+        return write_graphml(self, path)
+
+    def write_json(self, path):
+        """Write the JSON form (nodes, edges, membership, params, provenance) atomically."""
+        from .io import write_graph_json
+
+        return write_graph_json(self, path)
+
+    def write_memberships(self, path):
+        """Write a CSV of row id -> node, one line per membership, atomically."""
+        from .io import write_memberships
+
+        return write_memberships(self, path)
+
+    # ---------------------------------------------------------------- identity
+    def __eq__(self, other):
+        if not isinstance(other, LensGraph):
+            return NotImplemented
+        a, b = self.membership, other.membership
+        return (
+            a.shape == b.shape
+            and a.nnz == b.nnz
+            and np.array_equal(a.indptr, b.indptr)
+            and np.array_equal(a.indices, b.indices)
+            and np.array_equal(self.node_elements, other.node_elements)
+            and np.array_equal(self.edge_index, other.edge_index)
+            and np.array_equal(self.edge_shared, other.edge_shared)
+            and self.lens_columns == other.lens_columns
+            and self.data_columns == other.data_columns
+            and self.node_stats.keys() == other.node_stats.keys()
+            and all(np.array_equal(v, other.node_stats[k]) for k, v in self.node_stats.items())
+            and _plain(list(self.row_ids)) == _plain(list(other.row_ids))
+            and self.id_name == other.id_name
+            and json.dumps(self.params, sort_keys=True) == json.dumps(other.params, sort_keys=True)
+            and json.dumps(self.provenance, sort_keys=True)
+            == json.dumps(other.provenance, sort_keys=True)
+            and json.dumps(self.fragments, sort_keys=True)
+            == json.dumps(other.fragments, sort_keys=True)
+        )
+
+    __hash__ = None
+
+    def __repr__(self):
+        return (
+            f"LensGraph(nodes={self.n_nodes}, edges={self.n_edges}, rows={self.n_rows}, "
+            f"lenses={list(self.lens_columns)})"
+        )

@@ -1,0 +1,260 @@
+"""The shape of a LensGraph in a few numbers and a list of features.
+
+=================  =========================================================
+quantity           definition
+=================  =========================================================
+components ``C``   connected components of the node graph
+loops ``b1``       first Betti number of the graph, ``E - V + C``: the number
+                   of independent cycles
+branch points      nodes of degree >= 3
+flares             chains that start at a leaf (degree 1) and run through
+                   degree-2 nodes up to a branch point
+=================  =========================================================
+
+Features are listed with the nodes they hold, the number of distinct rows
+in them, and the range of every lens they span (the least node minimum to
+the largest node maximum). Loops are reported as the fundamental cycles of
+a breadth-first spanning tree (one per non-tree edge), so their number is
+``b1``. A component that is one chain from leaf to leaf is also listed as a
+``path``.
+"""
+
+from __future__ import annotations
+
+from collections import deque
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.sparse.csgraph import connected_components
+
+__all__ = ["GraphFeature", "GraphSummary", "summarize"]
+
+
+@dataclass(frozen=True)
+class GraphFeature:
+    """One feature of the graph.
+
+    Attributes
+    ----------
+    kind : {"component", "loop", "branch", "flare", "path"}
+    nodes : tuple of int
+    rows : int
+        Distinct rows in the feature's nodes.
+    lens_range : dict of str -> (float, float)
+        Range of each lens spanned by the feature's nodes.
+    attached_to : int or None
+        For a flare: the branch point it leads to.
+    """
+
+    kind: str
+    nodes: tuple
+    rows: int
+    lens_range: dict
+    attached_to: int | None = None
+
+    def to_dict(self):
+        """JSON-ready form."""
+        return {
+            "kind": self.kind, "nodes": list(self.nodes), "rows": self.rows,
+            "lens_range": {k: [float(a), float(b)] for k, (a, b) in self.lens_range.items()},
+            "attached_to": self.attached_to,
+        }
+
+
+@dataclass(frozen=True)
+class GraphSummary:
+    """Counts and features of a LensGraph (see the module notes for the definitions).
+
+    Examples
+    --------
+    >>> import scipy.sparse as sp
+    >>> from lenswork.graph import LensGraph
+    >>> M = sp.csr_matrix(np.eye(4, dtype=int))
+    >>> ring = LensGraph(M, [[0], [1], [2], [3]], [[0, 1], [1, 2], [2, 3], [0, 3]], [1, 1, 1, 1],
+    ...                  {"h": np.zeros((4, 3))}, lens_columns=["h"])
+    >>> s = ring.summary()
+    >>> s.n_components, s.loops, s.branch_points, s.n_flares
+    (1, 1, (), 0)
+    """
+
+    n_rows: int
+    n_nodes: int
+    n_edges: int
+    n_components: int
+    loops: int
+    branch_points: tuple
+    n_flares: int
+    n_unassigned: int
+    component_sizes: tuple
+    features: tuple = field(default_factory=tuple)
+
+    @property
+    def flares(self):
+        """The flare features."""
+        return tuple(f for f in self.features if f.kind == "flare")
+
+    def features_of(self, kind):
+        """Features of one kind."""
+        return tuple(f for f in self.features if f.kind == kind)
+
+    def to_dict(self):
+        """JSON-ready form."""
+        return {
+            "n_rows": self.n_rows, "n_nodes": self.n_nodes, "n_edges": self.n_edges,
+            "n_components": self.n_components, "loops": self.loops,
+            "branch_points": list(self.branch_points), "n_flares": self.n_flares,
+            "n_unassigned": self.n_unassigned, "component_sizes": list(self.component_sizes),
+            "features": [f.to_dict() for f in self.features],
+        }
+
+    def text(self, max_features=20):
+        """A few lines for a terminal."""
+        lines = [
+            f"graph: {self.n_nodes} nodes, {self.n_edges} edges over {self.n_rows:,} rows "
+            f"({self.n_unassigned:,} in no node)",
+            f"  components {self.n_components}, loops {self.loops} (b1 = E - V + C), "
+            f"branch points {len(self.branch_points)}, flares {self.n_flares}",
+        ]
+        for f in self.features[:max_features]:
+            spans = ", ".join(f"{k} {a:.4g}..{b:.4g}" for k, (a, b) in f.lens_range.items())
+            extra = f" -> node {f.attached_to}" if f.attached_to is not None else ""
+            shown = f.nodes if len(f.nodes) <= 8 else (*f.nodes[:8], "...")
+            node_text = ",".join(str(x) for x in shown)
+            lines.append(
+                f"  {f.kind:<9} {len(f.nodes):>4} nodes {f.rows:>8,} rows  {spans}{extra}  "
+                f"[{node_text}]"
+            )
+        if len(self.features) > max_features:
+            lines.append(f"  ... {len(self.features) - max_features} more features")
+        return "\n".join(lines)
+
+    def __str__(self):
+        return self.text()
+
+
+def _neighbours(n_nodes, edges):
+    nb = [[] for _ in range(n_nodes)]
+    for a, b in edges.tolist():
+        nb[a].append(b)
+        nb[b].append(a)
+    return nb
+
+
+def _fundamental_cycles(nb, labels, n_comp):
+    """One cycle per non-tree edge of a BFS spanning forest (roots: smallest node)."""
+    V = len(nb)
+    parent = [-1] * V
+    depth = [-1] * V
+    for root in range(V):
+        if depth[root] >= 0:
+            continue
+        depth[root] = 0
+        queue = deque([root])
+        while queue:
+            u = queue.popleft()
+            for w in sorted(nb[u]):
+                if depth[w] < 0:
+                    depth[w] = depth[u] + 1
+                    parent[w] = u
+                    queue.append(w)
+    cycles = []
+    seen = set()
+    for u in range(V):
+        for w in sorted(nb[u]):
+            if w <= u or parent[w] == u or parent[u] == w or (u, w) in seen:
+                continue
+            seen.add((u, w))
+            left, right = [u], [w]
+            a, b = u, w
+            while depth[a] > depth[b]:
+                a = parent[a]
+                left.append(a)
+            while depth[b] > depth[a]:
+                b = parent[b]
+                right.append(b)
+            while a != b:
+                a, b = parent[a], parent[b]
+                left.append(a)
+                right.append(b)
+            cycles.append(tuple(left + right[-2::-1]))
+    return cycles
+
+
+def _chains(nb, deg):
+    """Leaf-started chains: (nodes, end) with end a branch point, or a path to another leaf."""
+    flares, paths = [], []
+    for leaf in range(len(nb)):
+        if deg[leaf] != 1:
+            continue
+        chain = [leaf]
+        prev, cur = leaf, nb[leaf][0]
+        while deg[cur] == 2:
+            chain.append(cur)
+            nxt = nb[cur][0] if nb[cur][0] != prev else nb[cur][1]
+            prev, cur = cur, nxt
+        if deg[cur] >= 3:
+            flares.append((tuple(chain), cur))
+        elif leaf < cur:  # deg[cur] == 1: the component is a path; record it once
+            paths.append(tuple(chain + [cur]))
+    return flares, paths
+
+
+def summarize(graph):
+    """Summarise a LensGraph; see :class:`GraphSummary`.
+
+    Notes
+    -----
+    Cost: O(V + E) for the counts and chains, plus the length of the
+    fundamental cycles for the loop list.
+    """
+    import scipy.sparse as sp
+
+    V, E = graph.n_nodes, graph.n_edges
+    A = graph.adjacency()
+    n_comp, labels = connected_components(A, directed=False)
+    deg = graph.degrees
+    nb = _neighbours(V, graph.edge_index)
+    csc = sp.csc_matrix(graph.membership)
+
+    def rows_of(nodes):
+        cols = np.asarray(nodes, dtype=np.int64)
+        parts = [csc.indices[csc.indptr[c]:csc.indptr[c + 1]] for c in cols]
+        return int(np.unique(np.concatenate(parts)).size) if parts else 0
+
+    def lens_range(nodes):
+        idx = np.asarray(nodes, dtype=np.int64)
+        return {
+            name: (float(graph.node_stats[name][idx, 1].min()),
+                   float(graph.node_stats[name][idx, 2].max()))
+            for name in graph.lens_columns
+        }
+
+    def feature(kind, nodes, attached_to=None):
+        nodes = tuple(int(x) for x in nodes)
+        return GraphFeature(kind, nodes, rows_of(nodes), lens_range(nodes), attached_to)
+
+    features = []
+    comp_nodes = [np.flatnonzero(labels == c) for c in range(n_comp)]
+    comp_order = sorted(range(n_comp), key=lambda c: (-comp_nodes[c].size, comp_nodes[c][0]))
+    comp_sizes = []
+    for c in comp_order:
+        nodes = comp_nodes[c]
+        f = feature("component", nodes)
+        comp_sizes.append(f.rows)
+        features.append(f)
+    for cycle in _fundamental_cycles(nb, labels, n_comp):
+        features.append(feature("loop", cycle))
+    branch = tuple(int(v) for v in np.flatnonzero(deg >= 3))
+    for v in branch:
+        features.append(feature("branch", (v,)))
+    flares, paths = _chains(nb, deg)
+    for chain, end in flares:
+        features.append(feature("flare", chain, attached_to=int(end)))
+    for chain in paths:
+        features.append(feature("path", chain))
+    return GraphSummary(
+        n_rows=graph.n_rows, n_nodes=V, n_edges=E, n_components=int(n_comp),
+        loops=int(E - V + n_comp), branch_points=branch, n_flares=len(flares),
+        n_unassigned=int(graph.unassigned.size), component_sizes=tuple(comp_sizes),
+        features=tuple(features),
+    )

@@ -1,0 +1,276 @@
+"""LensGraph files: GraphML, JSON and a CSV of row memberships.
+
+Every write goes to a temporary name beside the target and is renamed on
+success (:mod:`lenswork._io`), so a failure never leaves a half-written file.
+
+GraphML
+    The open GraphML standard, written with :mod:`xml.etree.ElementTree`.
+    Nodes ``n0, n1, ...`` carry ``size`` (long), ``element`` (string, the
+    interval index per lens joined by commas) and ``<column>_mean``,
+    ``<column>_min``, ``<column>_max`` (double) for every lens and data column;
+    edges carry ``shared`` (long) and ``jaccard`` (double); the graph carries
+    ``lens_columns``, ``params`` and ``provenance`` as JSON strings and
+    ``n_rows``, ``n_unassigned`` (long).
+JSON
+    ``{"format": "lenswork-graph", "format_version": 1, "id_name", "row_ids",
+    "lens_columns", "data_columns", "nodes": [{"id", "element", "size", "stats"}],
+    "edges": [{"source", "target", "shared", "jaccard"}], "membership": [rows of
+    node 0, rows of node 1, ...], "unassigned", "fragments", "params",
+    "provenance"}``; rows are 0-based positions, ``row_ids[row]`` is the id.
+    :func:`read_graph_json` gives back an equal LensGraph.
+CSV
+    Header ``<id column>,node``; one line per (row, node) membership in row
+    order, and one line with an empty node for every row in no node, so that
+    no row is missing from the file.
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+import xml.etree.ElementTree as ET
+from pathlib import Path
+
+import numpy as np
+
+from .._errors import InputError
+from .._io import atomic_path, write_text
+from ._lensgraph import STATS, LensGraph, _plain
+
+__all__ = ["read_graph_json", "write_graph_json", "write_graphml", "write_memberships"]
+
+FORMAT = "lenswork-graph"
+FORMAT_VERSION = 1
+_GRAPHML_NS = "http://graphml.graphdrawing.org/xmlns"
+_XSI_NS = "http://www.w3.org/2001/XMLSchema-instance"
+_SCHEMA = f"{_GRAPHML_NS} {_GRAPHML_NS}/1.0/graphml.xsd"
+
+
+def _num(x):
+    return repr(float(x))
+
+
+def write_graphml(graph, path):
+    """Write ``graph`` as GraphML with typed node, edge and graph attributes.
+
+    Parameters
+    ----------
+    graph : LensGraph
+    path : str or Path
+
+    Returns
+    -------
+    Path
+
+    Examples
+    --------
+    >>> import tempfile, scipy.sparse as sp
+    >>> g = LensGraph(sp.csr_matrix(np.eye(2, dtype=int)), [[0], [1]], [[0, 1]], [0],
+    ...               {"h": np.zeros((2, 3))}, lens_columns=["h"])
+    >>> with tempfile.TemporaryDirectory() as tmp:
+    ...     text = write_graphml(g, Path(tmp) / "g.graphml").read_text()
+    >>> text.count("<node "), text.count("<edge ")
+    (2, 1)
+    """
+    root = ET.Element(
+        "graphml", {"xmlns": _GRAPHML_NS, "xmlns:xsi": _XSI_NS, "xsi:schemaLocation": _SCHEMA}
+    )
+    keys = {}
+
+    def key(domain, name, kind):
+        kid = f"d{len(keys)}"
+        keys[(domain, name)] = kid
+        ET.SubElement(root, "key", {"id": kid, "for": domain, "attr.name": name,
+                                    "attr.type": kind})
+        return kid
+
+    for name, kind in (("lens_columns", "string"), ("params", "string"),
+                       ("provenance", "string"), ("n_rows", "long"), ("n_unassigned", "long")):
+        key("graph", name, kind)
+    key("node", "size", "long")
+    key("node", "element", "string")
+    names = (*graph.lens_columns, *graph.data_columns)
+    for name in names:
+        for stat in STATS:
+            key("node", f"{name}_{stat}", "double")
+    key("edge", "shared", "long")
+    key("edge", "jaccard", "double")
+
+    g = ET.SubElement(root, "graph", {"id": "G", "edgedefault": "undirected"})
+
+    def data(parent, domain, name, text):
+        ET.SubElement(parent, "data", {"key": keys[(domain, name)]}).text = text
+
+    data(g, "graph", "lens_columns", json.dumps(list(graph.lens_columns)))
+    data(g, "graph", "params", json.dumps(graph.params, sort_keys=True))
+    data(g, "graph", "provenance", json.dumps(graph.provenance, sort_keys=True))
+    data(g, "graph", "n_rows", str(graph.n_rows))
+    data(g, "graph", "n_unassigned", str(int(graph.unassigned.size)))
+    for a in range(graph.n_nodes):
+        node = ET.SubElement(g, "node", {"id": f"n{a}"})
+        data(node, "node", "size", str(int(graph.node_sizes[a])))
+        data(node, "node", "element", ",".join(str(int(i)) for i in graph.node_elements[a]))
+        for name in names:
+            for j, stat in enumerate(STATS):
+                data(node, "node", f"{name}_{stat}", _num(graph.node_stats[name][a, j]))
+    for e, ((a, b), s, w) in enumerate(zip(graph.edge_index, graph.edge_shared,
+                                           graph.edge_jaccard)):
+        edge = ET.SubElement(g, "edge", {"id": f"e{e}", "source": f"n{a}", "target": f"n{b}"})
+        data(edge, "edge", "shared", str(int(s)))
+        data(edge, "edge", "jaccard", _num(w))
+    tree = ET.ElementTree(root)
+    ET.indent(tree, space=" ")
+    path = Path(path)
+    with atomic_path(path) as tmp:
+        tree.write(tmp, encoding="utf-8", xml_declaration=True)
+    return path
+
+
+def graph_to_dict(graph):
+    """The JSON-ready dict that :func:`write_graph_json` writes."""
+    csc = graph.membership.tocsc()
+    csc.sort_indices()
+    names = (*graph.lens_columns, *graph.data_columns)
+    nodes = [
+        {
+            "id": a,
+            "element": [int(i) for i in graph.node_elements[a]],
+            "size": int(graph.node_sizes[a]),
+            "stats": {
+                name: dict(zip(STATS, (float(x) for x in graph.node_stats[name][a])))
+                for name in names
+            },
+        }
+        for a in range(graph.n_nodes)
+    ]
+    edges = [
+        {"source": int(a), "target": int(b), "shared": int(s), "jaccard": float(w)}
+        for (a, b), s, w in zip(graph.edge_index, graph.edge_shared, graph.edge_jaccard)
+    ]
+    return {
+        "format": FORMAT, "format_version": FORMAT_VERSION,
+        "n_rows": graph.n_rows, "id_name": graph.id_name,
+        "row_ids": _plain(list(graph.row_ids)),
+        "lens_columns": list(graph.lens_columns), "data_columns": list(graph.data_columns),
+        "nodes": nodes, "edges": edges,
+        "membership": [csc.indices[csc.indptr[a]:csc.indptr[a + 1]].tolist()
+                       for a in range(graph.n_nodes)],
+        "unassigned": graph.unassigned.tolist(),
+        "fragments": graph.fragments, "params": graph.params, "provenance": graph.provenance,
+    }
+
+
+def write_graph_json(graph, path):
+    """Write ``graph`` as JSON (see the module notes); returns the path."""
+    text = json.dumps(graph_to_dict(graph), separators=(",", ":"), allow_nan=False)
+    path = Path(path)
+    write_text(path, text + "\n")
+    return path
+
+
+def graph_from_dict(doc, source="the document"):
+    """Rebuild a LensGraph from :func:`graph_to_dict` output."""
+    if not isinstance(doc, dict) or doc.get("format") != FORMAT:
+        raise InputError(
+            f"{source} is not a lenswork graph file (no \"format\": \"{FORMAT}\" entry). "
+            f"Give a file written by LensGraph.write_json or the graph command."
+        )
+    if doc.get("format_version") != FORMAT_VERSION:
+        raise InputError(
+            f"{source} has graph format version {doc.get('format_version')!r}; this lenswork "
+            f"reads version {FORMAT_VERSION}. Rewrite it with this version."
+        )
+    try:
+        import scipy.sparse as sp
+
+        n_rows = int(doc["n_rows"])
+        nodes = doc["nodes"]
+        V = len(nodes)
+        members = doc["membership"]
+        rows = np.concatenate([np.asarray(m, dtype=np.int64) for m in members]) if V else \
+            np.zeros(0, dtype=np.int64)
+        cols = np.repeat(np.arange(V), [len(m) for m in members])
+        M = sp.csr_matrix((np.ones(rows.size, dtype=np.int8), (rows, cols)), shape=(n_rows, V))
+        names = [*doc["lens_columns"], *doc["data_columns"]]
+        stats = {
+            name: np.array([[nd["stats"][name][s] for s in STATS] for nd in nodes],
+                           dtype=np.float64).reshape(V, 3)
+            for name in names
+        }
+        m = len(doc["lens_columns"])
+        elements = np.array([nd["element"] for nd in nodes], dtype=np.int64).reshape(V, m)
+        edges = np.array([[e["source"], e["target"]] for e in doc["edges"]],
+                         dtype=np.int64).reshape(-1, 2)
+        shared = np.array([e["shared"] for e in doc["edges"]], dtype=np.int64)
+        row_ids = doc["row_ids"]
+        ids = np.empty(len(row_ids), dtype=object)
+        ids[:] = row_ids
+        if all(isinstance(x, int) for x in row_ids):
+            ids = np.asarray(row_ids, dtype=np.int64)
+        return LensGraph(
+            M, elements, edges, shared, stats, lens_columns=doc["lens_columns"],
+            data_columns=doc["data_columns"], row_ids=ids, id_name=doc["id_name"],
+            params=doc["params"], provenance=doc["provenance"], fragments=doc["fragments"],
+        )
+    except (KeyError, TypeError, ValueError, IndexError) as err:
+        raise InputError(
+            f"{source} is damaged or incomplete ({type(err).__name__}: {err}). Write it again "
+            f"with LensGraph.write_json."
+        ) from None
+
+
+def read_graph_json(path):
+    """Read a LensGraph written by :func:`write_graph_json`.
+
+    Parameters
+    ----------
+    path : str or Path
+
+    Returns
+    -------
+    LensGraph
+
+    Raises
+    ------
+    InputError
+        The file is missing, not JSON, or not a lenswork graph.
+
+    Examples
+    --------
+    >>> import tempfile, scipy.sparse as sp
+    >>> g = LensGraph(sp.csr_matrix(np.eye(2, dtype=int)), [[0], [1]], [], [],
+    ...               {"h": np.zeros((2, 3))}, lens_columns=["h"])
+    >>> with tempfile.TemporaryDirectory() as tmp:
+    ...     same = read_graph_json(write_graph_json(g, Path(tmp) / "g.json")) == g
+    >>> same
+    True
+    """
+    path = Path(path)
+    try:
+        doc = json.loads(path.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise InputError(f"No graph file {str(path)!r}; check the path.") from None
+    except (json.JSONDecodeError, UnicodeDecodeError) as err:
+        raise InputError(
+            f"{str(path)!r} is not valid JSON ({err}); give a file written by "
+            f"LensGraph.write_json."
+        ) from None
+    return graph_from_dict(doc, source=repr(str(path)))
+
+
+def write_memberships(graph, path):
+    """Write the CSV of row id -> node memberships (see the module notes); returns the path."""
+    M = graph.membership
+    ids = [_plain(x) for x in graph.row_ids]
+    path = Path(path)
+    with atomic_path(path) as tmp, open(tmp, "w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow([graph.id_name, "node"])
+        indptr, indices = M.indptr, M.indices
+        for i in range(graph.n_rows):
+            a, b = indptr[i], indptr[i + 1]
+            if a == b:
+                w.writerow([ids[i], ""])
+            else:
+                w.writerows([ids[i], int(node)] for node in indices[a:b])
+    return path

@@ -1,0 +1,222 @@
+"""The screen's figure sheet: one card per candidate lens, the correlation map, the ranking.
+
+Layout, top to bottom:
+
+* a title line (rows, features, what was chosen and why the selection stopped);
+* one *card* per candidate, in rank order: a histogram of the lens over its
+  min-max range, with the bins the spread score counts (what a cover sees),
+  above the data's first two principal coordinates coloured by the lens's
+  rank (so one outlier cannot wash the colours out). Chosen lenses carry the
+  accent colour in their title, bars and frame;
+* the Spearman correlation map in rank order, the chosen block outlined, and
+  beside it the merit and gain of every candidate with the reason it was or
+  was not taken.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..normalize import normalize
+from ._style import ACCENT, CORR_CMAP, GRID, INK, LENS_CMAP, MUTED, PAPER, plt, save, style
+
+__all__: list[str] = []
+
+#: Cards per row of the sheet.
+_COLS = 6
+#: Points drawn in each scatter panel (a fixed random subset when there are more).
+_MAX_POINTS = 4000
+_NAN_COLOUR = "#d5d2cb"
+
+
+def screen_sheet(result, paths):
+    """Draw the figure sheet of a :class:`~lenswork.ScreenResult` and write it to ``paths``.
+
+    Parameters
+    ----------
+    result : ScreenResult
+    paths : list of str or Path
+        Output files; the format comes from each ending (``.png``, ``.svg``).
+        Each is written atomically.
+
+    Returns
+    -------
+    list of Path
+    """
+    fig = _draw(result)
+    return [save(fig, p) for p in paths]
+
+
+def _short(text, width=26):
+    return text if len(text) <= width else text[: width - 1] + "\u2026"
+
+
+def _draw(result):
+    rows = result.rows()
+    m = len(rows)
+    order = [result.names.index(r["column"]) for r in rows]
+    ncols = min(_COLS, m)
+    nrows = math.ceil(m / ncols)
+    bottom_h = max(4.2, 0.24 * m + 1.4)
+    card_h = 2.35
+    width = max(12.5, 2.1 * ncols)
+    height = 0.9 + nrows * card_h + bottom_h
+    xy, pick = _points(result)
+    with style():
+        fig = plt.figure(figsize=(width, height))
+        outer = fig.add_gridspec(
+            3, 1, height_ratios=[0.55, nrows * card_h, bottom_h], hspace=0.12,
+            left=0.04, right=0.98, top=0.985, bottom=0.03,
+        )
+        _title(fig.add_subplot(outer[0]), result)
+        # per card row: histogram, scatter, spacer (room for the next row's titles)
+        cards = outer[1].subgridspec(3 * nrows, ncols, height_ratios=[0.42, 1.0, 0.2] * nrows,
+                                     hspace=0.12, wspace=0.16)
+        for pos, (row, j) in enumerate(zip(rows, order, strict=True)):
+            r, c = divmod(pos, ncols)
+            _card(fig.add_subplot(cards[3 * r, c]), fig.add_subplot(cards[3 * r + 1, c]),
+                  result, row, j, xy, pick)
+        low = outer[2].subgridspec(1, 2, width_ratios=[1.15, 1.0], wspace=0.42)
+        _heatmap(fig, fig.add_subplot(low[0]), result, rows, order)
+        _ranking(fig.add_subplot(low[1]), result, rows)
+    return fig
+
+
+def _points(result):
+    xy = result.embedding
+    n = xy.shape[0]
+    if n <= _MAX_POINTS:
+        return xy, np.arange(n)
+    seed = result.lenses.random_state
+    rng = np.random.default_rng(seed if isinstance(seed, int) else 0)
+    pick = np.sort(rng.choice(n, size=_MAX_POINTS, replace=False))
+    return xy[pick], pick
+
+
+def _title(ax, result):
+    ax.axis("off")
+    cloud = result.cloud
+    chosen = ", ".join(result.selected) if result.selected else "nothing"
+    head = ax.text(0, 0.62, "Lens screen", fontsize=13, fontweight="bold", color=INK,
+                   transform=ax.transAxes, va="baseline")
+    # each piece starts where the previous one ends (annotate relative to its bounding box)
+    info = ax.annotate(
+        f"   {cloud.n:,} rows \u00d7 {cloud.d} features  \u00b7  {len(result.names)} candidate "
+        f"columns  \u00b7  chosen:  ", xy=(1, 0), xycoords=head, va="bottom", fontsize=9,
+        color=MUTED,
+    )
+    ax.annotate(chosen, xy=(1, 0), xycoords=info, va="bottom", fontsize=9, color=ACCENT,
+                fontweight="bold")
+    ax.text(0, 0.18,
+            f"Stopped: {result.stop_text}.  Histograms: the lens over its min-max range "
+            f"({result.bins} bins, as the spread score counts them).  Scatter: the data's "
+            f"first two principal coordinates, coloured by the lens's rank.",
+            fontsize=7.5, color=MUTED, transform=ax.transAxes, va="center")
+
+
+def _card(ax_h, ax_s, result, row, j, xy, pick):
+    chosen = row["selected"]
+    colour = ACCENT if chosen else MUTED
+    values = np.asarray(result.lenses.columns[j].values, dtype=np.float64)
+    ok = bool(result.usable[j])
+    # title: rank and name, then the figures behind the score
+    ax_h.set_title(f"#{row['rank']}  {_short(row['column'])}", loc="left", fontsize=8,
+                   color=ACCENT if chosen else INK, pad=11)
+    if row["partner"] is None:
+        partner = "no partner"
+    else:
+        partner = f"|\u03c1| {abs(row['partner_rho']):.2f} {_short(row['partner'], 15)}"
+    ax_h.text(0, 1.04, f"spread {row['spread']:.2f} \u00b7 {partner}", fontsize=6,
+              color=MUTED, transform=ax_h.transAxes, va="bottom")
+    for ax in (ax_h, ax_s):
+        ax.set_xticks([])
+        ax.set_yticks([])
+    for side in ("left", "bottom"):
+        ax_h.spines[side].set_color(GRID)
+    if ok:
+        ax_h.hist(values, bins=result.bins, range=(values.min(), values.max()),
+                  color=colour, alpha=0.9 if chosen else 0.6, linewidth=0)
+        ax_h.set_xlim(values.min(), values.max())
+        colours = normalize(values, "rank")[pick]
+        ax_s.scatter(xy[:, 0], xy[:, 1], c=colours, cmap=LENS_CMAP, vmin=0, vmax=1, s=2.5,
+                     linewidths=0, rasterized=True)
+    else:
+        ax_h.text(0.5, 0.4, result.status[j], ha="center", va="center", fontsize=7,
+                  color=MUTED, transform=ax_h.transAxes)
+        ax_s.scatter(xy[:, 0], xy[:, 1], c=_NAN_COLOUR, s=2.5, linewidths=0, rasterized=True)
+    ax_s.set_aspect("equal", adjustable="datalim")
+    for spine in ax_s.spines.values():
+        spine.set_visible(True)
+        spine.set_color(ACCENT if chosen else GRID)
+        spine.set_linewidth(1.8 if chosen else 0.8)
+
+
+def _heatmap(fig, ax, result, rows, order):
+    C = result.correlation[np.ix_(order, order)]
+    m = len(order)
+    cmap = CORR_CMAP.with_extremes(bad=_NAN_COLOUR)
+    im = ax.imshow(np.ma.masked_invalid(C), cmap=cmap, vmin=-1, vmax=1, interpolation="nearest")
+    labels = [_short(r["column"], 22) for r in rows]
+    ax.set_xticks(range(m), labels, rotation=60, ha="right", rotation_mode="anchor", fontsize=6.5)
+    ax.set_yticks(range(m), labels, fontsize=6.5)
+    for tick_x, tick_y, r in zip(ax.get_xticklabels(), ax.get_yticklabels(), rows, strict=True):
+        for t in (tick_x, tick_y):
+            if r["selected"]:
+                t.set_color(ACCENT)
+                t.set_fontweight("bold")
+            else:
+                t.set_color(INK)
+    if m <= 24:
+        for a in range(m):
+            for b in range(m):
+                v = C[a, b]
+                if a == b or not np.isfinite(v):
+                    continue
+                text = f"{abs(v):.2f}".lstrip("0") if abs(v) < 0.995 else "1"
+                ax.text(b, a, ("\u2212" if v < 0 and text != ".00" else "") + text,
+                        ha="center", va="center", fontsize=4.8,
+                        color=PAPER if abs(v) > 0.6 else INK)
+    k = len(result.selected)
+    if k:
+        ax.add_patch(plt.Rectangle((-0.5, -0.5), k, k, fill=False, edgecolor=ACCENT,
+                                   linewidth=2.2, clip_on=False))
+    ax.set_title(f"Spearman \u03c1 between candidates (rank order; chosen block outlined; "
+                 f"ceiling |\u03c1| \u2264 {result.ceiling:.2f})", loc="left", fontsize=8)
+    for spine in ax.spines.values():
+        spine.set_visible(False)
+    ax.tick_params(length=0)
+    bar = fig.colorbar(im, ax=ax, fraction=0.035, pad=0.02)
+    bar.set_label("\u03c1", fontsize=7)
+    bar.outline.set_visible(False)
+    bar.ax.tick_params(labelsize=6)
+
+
+def _ranking(ax, result, rows):
+    m = len(rows)
+    y = np.arange(m)
+    merit = np.array([r["merit"] for r in rows])
+    gain = np.array([r["gain"] for r in rows])
+    chosen = np.array([r["selected"] for r in rows])
+    ax.barh(y, merit, height=0.72, color=GRID, linewidth=0, label="merit")
+    ax.barh(y, gain, height=0.42, color=np.where(chosen, ACCENT, MUTED), linewidth=0,
+            label="gain")
+    ax.set_yticks(y, [f"#{r['rank']} {_short(r['column'], 22)}" for r in rows], fontsize=6.5)
+    for t, r in zip(ax.get_yticklabels(), rows, strict=True):
+        t.set_color(ACCENT if r["selected"] else INK)
+        if r["selected"]:
+            t.set_fontweight("bold")
+    ax.invert_yaxis()
+    ax.set_xlim(0, 2.35)  # bars on [0, 1], the reasons to their right
+    ax.set_xticks([0, 0.5, 1.0])
+    ax.set_ylim(m - 0.5, -0.5)
+    ax.set_xlabel("merit (wide bar) and gain = merit \u00d7 (1 \u2212 max |\u03c1| to chosen)")
+    ax.tick_params(axis="y", length=0)
+    for yi, r in zip(y, rows, strict=True):
+        ax.text(1.04, yi, _short(r["reason"], 62), fontsize=5.8, va="center",
+                color=ACCENT if r["selected"] else MUTED)
+    ax.set_title("Ranking and reasons", loc="left", fontsize=8)
+    ax.grid(axis="x", color=GRID, linewidth=0.6)
+    ax.spines["bottom"].set_bounds(0, 1)
+    ax.set_axisbelow(True)

@@ -1,0 +1,408 @@
+"""Tests of lenswork.screen: spread, Spearman redundancy, greedy selection, the screen itself."""
+
+import json
+import math
+import warnings
+from collections import Counter
+
+import numpy as np
+import pytest
+import scipy.stats
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from numpy.testing import assert_allclose
+
+from lenswork import (
+    LensColumn,
+    LensTable,
+    LensworkWarning,
+    ParameterError,
+    PointCloud,
+    ScreenResult,
+    Workspace,
+    histogram_entropy,
+    screen,
+    select_lenses,
+    spearman_matrix,
+    spread_score,
+)
+from lenswork.screen import _merit, default_candidates
+
+
+def _table(columns, n=None, passthrough=None, rng=None):
+    """A LensTable over a small random point cloud from {name: values}."""
+    n = n or len(next(iter(columns.values())))
+    rng = rng or np.random.default_rng(0)
+    cloud = PointCloud.from_array(rng.normal(size=(n, 3)), passthrough=passthrough)
+    return LensTable([LensColumn(k, np.asarray(v, dtype=float)) for k, v in columns.items()],
+                     cloud)
+
+
+def _quiet_screen(*args, **kwargs):
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", LensworkWarning)
+        return screen(*args, **kwargs)
+
+
+# ----------------------------------------------------------------------------- Spearman
+def test_spearman_matrix_equals_scipy_with_ties():
+    rng = np.random.default_rng(11)
+    n = 400
+    A = np.column_stack([
+        rng.integers(0, 5, n),  # heavy ties
+        rng.integers(0, 40, n),  # some ties
+        rng.normal(size=n),
+        np.round(rng.normal(size=n), 1),
+        rng.exponential(size=n),
+    ]).astype(float)
+    A[:, 2] += 0.8 * A[:, 1]  # some real correlation
+    # scipy.stats.spearmanr as reference (average ranks, Pearson on ranks); both are
+    # O(1e-16) computations of the same formula, 1e-12 leaves room for summation order.
+    ref = scipy.stats.spearmanr(A).statistic
+    assert_allclose(spearman_matrix(A), ref, rtol=0, atol=1e-12)
+    B = np.column_stack([rng.integers(0, 3, n), A[:, 0] ** 3 + rng.normal(size=n)])
+    cross = spearman_matrix(A, B)
+    full = scipy.stats.spearmanr(np.column_stack([A, B])).statistic
+    assert_allclose(cross, full[:5, 5:], rtol=0, atol=1e-12)
+
+
+def test_spearman_scipy_docstring_example():
+    # scipy.stats.spearmanr docstring: spearmanr([1,2,3,4,5], [5,6,7,8,7]) = 0.8207826816681233
+    rho = spearman_matrix(np.c_[[1, 2, 3, 4, 5], [5, 6, 7, 8, 7]])
+    assert_allclose(rho[0, 1], 0.8207826816681233, rtol=0, atol=1e-12)
+    assert_allclose(np.diag(rho), 1.0, rtol=0, atol=0)
+
+
+def test_spearman_constant_column_is_nan_with_warning():
+    rng = np.random.default_rng(3)
+    A = np.c_[rng.normal(size=50), np.ones(50)]
+    with pytest.warns(LensworkWarning, match="Constant column"):
+        rho = spearman_matrix(A)
+    # scipy also returns nan for a constant input (rho undefined: zero rank variance)
+    assert np.isnan(rho[0, 1]) and np.isnan(rho[1, 1]) and rho[0, 0] == 1.0
+
+
+def test_spearman_rejects_nan():
+    A = np.c_[np.arange(5.0), [1.0, np.nan, 2.0, 3.0, 4.0]]
+    with pytest.raises(ParameterError, match="column 1 holds NaN"):
+        spearman_matrix(A)
+
+
+# ----------------------------------------------------------------------------- spread
+def test_entropy_of_uniform_is_log_bins():
+    rng = np.random.default_rng(20)
+    v = rng.uniform(size=100_000)
+    # The uniform law maximises entropy on an interval (Cover & Thomas 2006, th. 2.6.4):
+    # H -> log 20; the plug-in bias is about (B - 1) / (2 n) = 1e-4 (Miller 1955).
+    assert abs(histogram_entropy(v, bins=20) - math.log(20)) < 1e-3
+
+
+def test_entropy_matches_numpy_histogram_and_scipy_entropy():
+    rng = np.random.default_rng(21)
+    v = rng.gamma(2.0, size=5000)
+    # np.histogram gives the counts, scipy.stats.entropy the Shannon entropy (nats);
+    # the same sums in another order: 1e-12.
+    counts, _ = np.histogram(v, bins=17)
+    assert_allclose(histogram_entropy(v, bins=17), scipy.stats.entropy(counts),
+                    rtol=0, atol=1e-12)
+
+
+def test_values_on_bin_edges_count_half():
+    # 0, 1, 2, 3, 4 with 2 bins: the edge is 2, one value on it -> counts 2.5 / 2.5,
+    # entropy log 2 by hand.
+    assert_allclose(histogram_entropy([0.0, 1, 2, 3, 4], bins=2), math.log(2), atol=1e-15)
+
+
+def test_tie_figures_match_brute_force():
+    rng = np.random.default_rng(22)
+    v = np.r_[np.full(300, 2.0), rng.integers(0, 50, 500).astype(float), rng.normal(size=200)]
+    s = spread_score(v)
+    c = Counter(v.tolist())  # brute force over the values
+    assert_allclose(s.tied, sum(k for k in c.values() if k > 1) / v.size, atol=1e-15)
+    assert_allclose(s.largest_tie, max(c.values()) / v.size, atol=1e-15)
+    assert_allclose(s.spread, s.entropy * (1 - s.largest_tie), atol=1e-15)
+
+
+def test_outlier_figure_matches_numpy_quantiles():
+    rng = np.random.default_rng(23)
+    v = np.r_[rng.normal(size=999), 40.0]
+    q1, q99 = np.quantile(v, [0.01, 0.99])  # numpy's default (linear) quantiles as reference
+    expected = 1 - (q99 - q1) / (v.max() - v.min())
+    assert_allclose(spread_score(v).outliers, expected, rtol=0, atol=1e-14)
+    # uniform: the central 98 % span 98 % of the range (closed form), up to sampling error
+    assert abs(spread_score(rng.uniform(size=100_000)).outliers - 0.02) < 2e-3
+
+
+def test_spread_orders_obvious_cases():
+    rng = np.random.default_rng(24)
+    n = 3000
+    uniform = spread_score(rng.uniform(size=n)).spread
+    gauss = spread_score(rng.normal(size=n)).spread
+    crushed = spread_score(np.r_[rng.normal(size=n - 3), 1e4, -1e4, 2e4]).spread
+    half_tied = spread_score(np.r_[np.zeros(n // 2), rng.uniform(size=n // 2)]).spread
+    assert uniform > gauss > half_tied > crushed
+    assert uniform > 0.99 and crushed < 0.01
+
+
+@pytest.mark.parametrize("a", [3.5, -1.0, -2.75, 1e-4, -1e6])
+@pytest.mark.parametrize("kind", ["normal", "integers", "outlier"])
+def test_spread_is_affine_invariant(a, kind):
+    rng = np.random.default_rng(25)
+    v = {
+        "normal": rng.normal(size=2000),
+        "integers": rng.integers(0, 30, 2000).astype(float),  # many values on bin edges
+        "outlier": np.r_[rng.normal(size=1999), 25.0],
+    }[kind]
+    b = 7.25
+    s0, s1 = spread_score(v), spread_score(a * v + b)
+    # property check (invariance under v -> a v + b, a != 0); only rounding differs
+    for field in ("spread", "entropy", "tied", "largest_tie", "outliers"):
+        assert_allclose(getattr(s1, field), getattr(s0, field), rtol=0, atol=1e-12)
+
+
+def test_constant_spread_zero_with_warning():
+    with pytest.warns(LensworkWarning, match="constant"):
+        s = spread_score(np.full(100, 3.0))
+    assert s.spread == 0.0 and s.status == "constant" and s.largest_tie == 1.0
+
+
+def test_all_nan_spread_zero_with_warning():
+    with pytest.warns(LensworkWarning, match="not finite"):
+        s = spread_score(np.full(100, np.nan))
+    assert s.spread == 0.0 and s.status == "non-finite"
+
+
+# ----------------------------------------------------------------------------- selection
+def _greedy_reference(R, merit, count, ceiling, usable):
+    """Brute-force loop version of the documented greedy rule (written for this test)."""
+    m = len(merit)
+    taken = []
+    while len(taken) < count:
+        best, best_gain = None, -1.0
+        for j in range(m):
+            if j in taken or not usable[j] or merit[j] <= 0:
+                continue
+            worst = max((abs(R[i][j]) for i in taken), default=0.0)
+            if worst > ceiling:
+                continue
+            g = merit[j] * (1 - worst)
+            if g > best_gain:
+                best, best_gain = j, g
+        if best is None:
+            break
+        taken.append(best)
+    return taken
+
+
+@settings(max_examples=80, deadline=None)
+@given(seed=st.integers(0, 2**31 - 1), m=st.integers(2, 12),
+       ceiling=st.floats(0.05, 1.0), count=st.integers(1, 12))
+def test_selection_never_exceeds_ceiling(seed, m, ceiling, count):
+    rng = np.random.default_rng(seed)
+    n = 200
+    latent = rng.normal(size=(n, 3))
+    A = latent @ rng.normal(size=(3, m)) + rng.normal(scale=rng.uniform(0.05, 2), size=(n, m))
+    R = spearman_matrix(A)
+    merit = rng.uniform(0, 1, m)
+    usable = rng.uniform(size=m) > 0.15
+    sel = select_lenses(R, merit, count=count, ceiling=ceiling, usable=usable)
+    idx = list(sel.indices)
+    for a in idx:
+        assert usable[a]
+        for b in idx:
+            if a != b:
+                assert abs(R[a, b]) <= ceiling
+    assert len(idx) <= count
+    assert idx == _greedy_reference(R, merit, count, ceiling, usable)
+
+
+def test_selection_stop_reasons():
+    R = np.array([[1.0, 0.99], [0.99, 1.0]])
+    assert select_lenses(R, [0.9, 0.8], count=2, ceiling=0.5).stop == "ceiling"
+    assert select_lenses(R, [0.9, 0.0], count=2, ceiling=0.5).stop == "candidates"
+    assert select_lenses(R, [0.9, 0.8], count=1, ceiling=0.5).stop == "count"
+
+
+def test_merit_is_weighted_geometric_mean():
+    scores = {"spread": np.array([0.5, 0.9, 0.0]), "structure": np.array([0.8, 0.1, 1.0])}
+    m = _merit(scores, {"spread": 1.0, "structure": 3.0})
+    # closed form: (s^1 t^3)^(1/4), and 0 when any weighted score is 0
+    assert_allclose(m, [(0.5 * 0.8**3) ** 0.25, (0.9 * 0.1**3) ** 0.25, 0.0], atol=1e-15)
+
+
+# ----------------------------------------------------------------------------- screen
+def test_iris_monotone_map_of_pc1_is_redundant():
+    from sklearn.datasets import load_iris
+    from sklearn.decomposition import PCA
+
+    X = load_iris().data
+    pcs = PCA(n_components=2).fit_transform(X)  # scikit-learn PCA as the reference PC1
+    cloud = PointCloud.from_array(X)
+    table = LensTable([LensColumn("pc1", pcs[:, 0]), LensColumn("exp_pc1", np.exp(pcs[:, 0])),
+                       LensColumn("pc2", pcs[:, 1])], cloud)
+    result = screen(table, count=3, ceiling=0.9)
+    # exp is strictly increasing, so the ranks agree: rho = 1 (Spearman 1904)
+    assert_allclose(result.correlation[0, 1], 1.0, rtol=0, atol=1e-12)
+    assert not {"pc1", "exp_pc1"} <= set(result.selected)
+    rows = {r["column"]: r for r in result.rows()}
+    dropped = "exp_pc1" if "pc1" in result.selected else "pc1"
+    kept = "pc1" if dropped == "exp_pc1" else "exp_pc1"
+    assert rows[dropped]["reason"].startswith("redundant")
+    assert rows[dropped]["partner"] == kept and rows[dropped]["partner_rho"] > 0.999999
+
+
+def test_iris_pca_lens_tracks_reference():
+    from sklearn.datasets import load_iris
+    from sklearn.decomposition import PCA
+
+    X = load_iris().data
+    pc1 = PCA(n_components=1).fit_transform(X)[:, 0]  # scikit-learn as reference
+    cloud = PointCloud.from_array(X)
+    result = _quiet_screen(cloud, lenses=["pca", "knn_distance"],
+                           references={"exp_pc1": np.exp(pc1)})
+    j = result.names.index("pca_1")
+    # PC1 up to sign, through a monotone map: |rho| = 1
+    assert_allclose(abs(result.reference_correlation[j, 0]), 1.0, rtol=0, atol=1e-12)
+    assert "rho[exp_pc1]" in result.rows()[0]
+
+
+def test_constant_and_nan_lenses_never_selected():
+    rng = np.random.default_rng(30)
+    n = 500
+    table = _table({"const": np.full(n, 2.0), "nan": np.full(n, np.nan),
+                    "x": rng.normal(size=n), "y": rng.uniform(size=n)}, rng=rng)
+    with pytest.warns(LensworkWarning) as rec:
+        result = screen(table, count=4)
+    messages = " | ".join(str(w.message) for w in rec)
+    assert "'const' is constant" in messages and "'nan' is not finite" in messages
+    assert "only 2 candidate" in messages  # count 4 > 2 usable
+    assert sorted(result.selected) == ["x", "y"]
+    assert result.scores["spread"][0] == 0.0 and result.scores["spread"][1] == 0.0
+    assert np.isnan(result.correlation[0]).all()
+
+
+def test_count_larger_than_candidates_warns():
+    rng = np.random.default_rng(31)
+    table = _table({"a": rng.normal(size=200), "b": rng.normal(size=200)}, rng=rng)
+    with pytest.warns(LensworkWarning, match="Asked for 5 lenses but only 2"):
+        result = screen(table, count=5, ceiling=1.0)
+    assert len(result.selected) == 2 and result.selection.stop == "candidates"
+
+
+def test_reference_non_numeric_names_the_column():
+    rng = np.random.default_rng(32)
+    n = 100
+    labels = np.array(["a", "b"] * (n // 2), dtype=object)
+    table = _table({"x": rng.normal(size=n)}, passthrough={"state": labels}, rng=rng)
+    with pytest.raises(ParameterError, match="Reference column 'state' is not numeric: row 1"):
+        screen(table, references=["state"])
+    with pytest.raises(ParameterError, match="Reference column 'nope' is not in the data"):
+        screen(table, references=["nope"])
+
+
+def test_reference_with_missing_values_uses_complete_rows():
+    rng = np.random.default_rng(33)
+    n = 300
+    x = rng.normal(size=n)
+    ref = np.where(rng.uniform(size=n) < 0.2, np.nan, x + rng.normal(scale=0.7, size=n))
+    table = _table({"x": x, "xt": np.round(x, 1)}, passthrough={"temp": ref}, rng=rng)
+    result = screen(table, references="temp")
+    keep = np.isfinite(ref)
+    for j, name in enumerate(["x", "xt"]):
+        # scipy.stats.spearmanr on the complete pairs as reference
+        expected = scipy.stats.spearmanr(table[name].values[keep], ref[keep]).statistic
+        assert_allclose(result.reference_correlation[j, 0], expected, rtol=0, atol=1e-12)
+
+
+def test_rescore_adds_a_weighted_score_column():
+    rng = np.random.default_rng(34)
+    n = 1000
+    table = _table({"a": rng.uniform(size=n), "b": rng.normal(size=n),
+                    "c": rng.normal(size=n)}, rng=rng)
+    base = screen(table, count=1)
+    assert base.selected == ["a"]  # uniform spreads best
+    probe = np.array([0.05, 0.2, 1.0])  # an extra score column favouring c
+    new = base.rescore(scores={"structure": probe}, weights={"spread": 1, "structure": 2})
+    assert new.selected == ["c"]
+    assert_allclose(new.merit, (new.scores["spread"] * probe**2) ** (1 / 3), atol=1e-15)
+    assert "structure" in new.rows()[0]
+    with pytest.raises(ParameterError, match="score column 'nope'"):
+        base.rescore(weights={"nope": 1.0})
+    with pytest.raises(ParameterError, match=r"values in \[0, 1\]"):
+        base.rescore(scores={"bad": np.array([0.1, 2.0, 0.3])})
+
+
+def test_to_lens_table_and_bad_parameters():
+    rng = np.random.default_rng(35)
+    table = _table({"a": rng.normal(size=100), "b": rng.uniform(size=100)}, rng=rng)
+    result = screen(table, count=2, ceiling=1.0)
+    lt = result.to_lens_table()
+    assert isinstance(lt, LensTable) and lt.names == result.selected
+    assert isinstance(result, ScreenResult)
+    with pytest.raises(ParameterError, match="'ceiling' parameter of screen"):
+        screen(table, ceiling=1.5)
+    with pytest.raises(ParameterError, match="'count' parameter of screen"):
+        screen(table, count=0)
+
+
+def test_screen_inputs_agree_and_are_deterministic():
+    rng = np.random.default_rng(36)
+    X = rng.normal(size=(400, 4)) * [3, 2, 1, 0.5]
+    specs = ["pca:components=3", "dtm", "knn_distance"]
+    a = _quiet_screen(X, lenses=specs, random_state=5)
+    b = _quiet_screen(PointCloud.from_array(X), lenses=specs, random_state=5)
+    c = _quiet_screen(Workspace(X, random_state=5), lenses=specs)
+    for other in (b, c):
+        assert other.selected == a.selected
+        assert_allclose(other.correlation, a.correlation, rtol=0, atol=0)
+        assert other.rows() == a.rows()
+
+
+def test_default_candidates_cover_every_family():
+    rng = np.random.default_rng(37)
+    names = {name for name, _ in default_candidates(rng.normal(size=(3000, 12)))}
+    assert {"pca", "laplacian", "density", "eccentricity", "dtm", "knn_distance"} <= names
+    dtm = [p for name, p in default_candidates(rng.normal(size=(3000, 12))) if name == "dtm"]
+    assert len(dtm) == 2
+
+
+def test_write_outputs_and_no_partial_files(tmp_path, monkeypatch):
+    rng = np.random.default_rng(38)
+    n = 300
+    table = _table({"a": rng.normal(size=n), "b": rng.uniform(size=n),
+                    "const": np.ones(n)}, rng=rng)
+    result = _quiet_screen(table, count=2)
+    out = tmp_path / "screen"
+    files = result.write(out, figures=False)
+    assert sorted(files) == ["lenses.csv", "lenses.csv.json", "ranking.csv", "ranking.json"]
+    data = json.loads((out / "ranking.json").read_text())
+    assert data["selected"] == result.selected
+    assert data["correlation"]["spearman"][2][2] is None  # NaN -> null
+    lines = (out / "ranking.csv").read_text().splitlines()
+    assert len(lines) == 1 + 3 and lines[0].startswith("rank,column,lens")
+    header = (out / "lenses.csv").read_text().splitlines()[0].split(",")
+    assert header[-2:] == result.selected
+
+    import lenswork.plot._sheet as sheet
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("figure failed")
+
+    monkeypatch.setattr(sheet, "screen_sheet", broken)
+    fresh = tmp_path / "fresh"
+    with pytest.raises(RuntimeError, match="figure failed"):
+        result.write(fresh, figures=True)
+    assert not fresh.exists()  # nothing half-written, the new directory removed again
+    with pytest.raises(RuntimeError, match="figure failed"):
+        result.write(out, figures=True)
+    assert sorted(p.name for p in out.iterdir()) == sorted(files)  # old files untouched
+
+
+def test_write_figure_sheet(tmp_path):
+    rng = np.random.default_rng(39)
+    n = 500
+    table = _table({"a": rng.normal(size=n), "b": rng.uniform(size=n)}, rng=rng)
+    files = screen(table).write(tmp_path, figures=True)
+    png = files["sheet.png"].read_bytes()
+    assert png[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG specification, 5.2)
+    assert b"<svg" in files["sheet.svg"].read_bytes()[:400]
