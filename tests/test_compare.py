@@ -1,16 +1,29 @@
 """Tests of lenswork.compare: partition agreement scores, node correspondence, compare_views."""
 
+import json
 import math
 
 import numpy as np
 import pytest
 import scipy.sparse as sp
 from numpy.testing import assert_allclose
+from sklearn.datasets import make_circles
 from sklearn.metrics import adjusted_rand_score, mutual_info_score
 from sklearn.metrics.cluster import contingency_matrix
 
-from lenswork import InputError, ParameterError
-from lenswork.compare import adjusted_rand_index, contingency_table, variation_of_information
+from lenswork import (
+    InputError,
+    LensColumn,
+    ParameterError,
+    Workspace,
+    adjusted_rand_index,
+    compare_views,
+    contingency_table,
+    induced_partition,
+    node_correspondence,
+    variation_of_information,
+)
+from lenswork.graph import build_graph
 
 
 def _entropy_direct(labels):
@@ -154,3 +167,138 @@ def test_vi_is_a_metric():
         ab = variation_of_information(a, b)
         assert ab == pytest.approx(variation_of_information(b, a), abs=1e-12)
         assert ab <= variation_of_information(a, c) + variation_of_information(c, b) + 1e-12
+
+
+# --------------------------------------------------------------------------- views
+@pytest.fixture(scope="module")
+def circles():
+    # two concentric circles, scikit-learn's make_circles
+    X, y = make_circles(n_samples=1200, noise=0.03, factor=0.5, random_state=41)
+    return X, y, Workspace(X)
+
+
+@pytest.mark.parametrize("partition", ["component", "node"])
+def test_circles_x_and_y_views_agree_with_sklearn_ari(circles, partition):
+    X, y, ws = circles
+    cmp = compare_views({"x": X[:, 0], "y": X[:, 1]}, ws, partition=partition)
+    la, lb = cmp.labels
+    rows = cmp.compared
+    pair = cmp.pair("x", "y")
+    # scikit-learn's adjusted_rand_score on the same partitions, to 1e-12
+    assert_allclose(pair["ari"], adjusted_rand_score(la[rows], lb[rows]), rtol=0, atol=1e-12)
+    # VI against the direct entropy computation (Meila 2007, eq. 15)
+    assert_allclose(pair["vi"], _vi_direct(la[rows], lb[rows]), rtol=0, atol=1e-12)
+    assert pair["rows_compared"] == int(rows.sum())
+    if partition == "component":
+        # each view has the two circles as its two components, so the partitions agree
+        # with each other and with make_circles' labels (sklearn ARI as reference)
+        assert pair["ari"] == 1.0 and pair["vi"] == 0.0
+        assert adjusted_rand_score(y[rows], la[rows]) == 1.0
+        assert [s.loops for s in cmp.summaries] == [2, 2]
+
+
+def _brute_partition(graph, how):
+    """Row labels from the member lists, by loops (independent of the sparse code)."""
+    import networkx as nx
+
+    first = {}
+    for node in range(graph.n_nodes):
+        for row in graph.members(node):
+            first.setdefault(int(row), node)
+    if how == "node":
+        return np.array([first.get(r, -1) for r in range(graph.n_rows)])
+    G = nx.Graph()
+    G.add_nodes_from(range(graph.n_nodes))
+    G.add_edges_from(graph.edge_index.tolist())
+    comp = {}
+    for c, nodes in enumerate(sorted(nx.connected_components(G), key=min)):
+        for v in nodes:
+            comp[v] = c
+    return np.array([comp[first[r]] if r in first else -1 for r in range(graph.n_rows)])
+
+
+@pytest.mark.parametrize("how", ["component", "node"])
+def test_induced_partition_matches_brute_force(circles, how):
+    X, _, ws = circles
+    g = build_graph(X[:, 0], ws, intervals=8)
+    # networkx connected components and the member lists as reference (labels up to naming)
+    got = induced_partition(g, how)
+    ref = _brute_partition(g, how)
+    assert np.array_equal(got < 0, ref < 0)
+    assert adjusted_rand_index(got[got >= 0], ref[ref >= 0]) == 1.0
+
+
+def test_node_correspondence_matches_member_intersections(circles):
+    X, _, ws = circles
+    ga = build_graph(X[:, 0], ws, intervals=6)
+    gb = build_graph(X[:, 1], ws, intervals=7, overlap=0.4)
+    C = node_correspondence(ga, gb)
+    assert C.shape == (ga.n_nodes, gb.n_nodes) and sp.issparse(C)
+    # brute force: |rows(i) & rows(j)| for every pair, by numpy set intersection
+    ref = np.array([[np.intersect1d(ga.members(i), gb.members(j)).size
+                     for j in range(gb.n_nodes)] for i in range(ga.n_nodes)])
+    assert np.array_equal(C.toarray(), ref)
+
+
+def test_features_in_one_view_only():
+    rng = np.random.default_rng(42)
+    t = rng.uniform(0, 2 * np.pi, 800)
+    X = np.column_stack([np.cos(t), np.sin(t)]) + rng.normal(0, 0.03, (800, 2))
+    ws = Workspace(X)
+    col = LensColumn("x", X[:, 0])
+    # two intervals cannot close a loop over a circle (two nodes, one edge)
+    cmp = compare_views([col, (col, {"intervals": 2})], ws)
+    pair = cmp.pair(0, 1)
+    assert cmp.names == ["x", "x [intervals=2]"]
+    assert cmp.summaries[0].loops == 1 and cmp.summaries[1].loops == 0
+    # the loop of the fine view has no loop to match in the coarse view
+    assert [f["kind"] for f in pair["only_a"]] == ["loop"]
+    assert pair["only_a"][0]["best_jaccard"] == 0.0
+    assert "only in x: loop 1 (800 rows)" in cmp.format_text()
+
+
+def test_compare_settings_and_outputs(circles, tmp_path):
+    X, _, ws = circles
+    col = LensColumn("x", X[:, 0])
+    views = {"coarse": (col, {"intervals": 5}), "fine": (col, {"intervals": 15}),
+             "y": LensColumn("y", X[:, 1])}
+    cmp = compare_views(views, ws)
+    assert cmp.names == ["coarse", "fine", "y"] and len(cmp.pairs) == 3
+    A = cmp.agreement("ari")
+    assert_allclose(A, A.T, rtol=0) and np.all(np.diag(A) == 1.0)
+    out = cmp.write(tmp_path / "cmp")
+    assert sorted(out) == ["comparison.json", "comparison.png", "correspondence_1_2.csv",
+                           "correspondence_1_3.csv", "correspondence_2_3.csv"]
+    meta = json.loads(out["comparison.json"].read_text())
+    assert [v["name"] for v in meta["views"]] == ["coarse", "fine", "y"]
+    lines = out["correspondence_1_2.csv"].read_text().splitlines()
+    C = cmp.correspondence("coarse", "fine")
+    assert lines[0] == "node_a,node_b,shared_rows" and len(lines) == C.nnz + 1
+    assert sum(int(x.split(",")[2]) for x in lines[1:]) == C.sum()
+    assert out["comparison.png"].read_bytes()[:4] == b"\x89PNG"
+
+
+def test_compare_prebuilt_graphs(circles):
+    X, _, ws = circles
+    ga, gb = build_graph(X[:, 0], ws), build_graph(X[:, 1], ws)
+    cmp = compare_views([ga, gb])
+    assert cmp.names == ["lens (1)", "lens (2)"]
+    assert cmp.pair(0, 1)["ari"] == 1.0
+    assert np.isfinite(cmp.node_colour(0, 1)).all()
+
+
+@pytest.mark.filterwarnings("ignore::lenswork.LensworkWarning")  # rows in no node, small data
+def test_compare_errors(circles):
+    X, _, ws = circles
+    with pytest.raises(ParameterError, match="at least two views"):
+        compare_views([X[:, 0]], ws)
+    with pytest.raises(ParameterError, match="needs the workspace"):
+        compare_views([X[:, 0], X[:, 1]])
+    with pytest.raises(ParameterError, match="'partition' parameter of compare_views"):
+        compare_views([X[:, 0], X[:, 1]], ws, partition="cluster")
+    small = Workspace(X[:300])
+    with pytest.raises(InputError, match="different numbers of rows"):
+        compare_views([build_graph(X[:, 0], ws), build_graph(X[:300, 0], small)])
+    cmp = compare_views({"x": X[:, 0], "y": X[:, 1]}, ws)
+    with pytest.raises(ParameterError, match="No view 'z'"):
+        cmp.pair("x", "z")

@@ -507,7 +507,7 @@ def test_arrays_that_are_not_two_dimensional(shape):
 
 def test_non_utf8_bytes(tmp_path):
     path = tmp_path / "latin.csv"
-    path.write_bytes("a,b\n1,2\n3,4\n".encode() + "5,caf\u00e9\n".encode("latin-1"))
+    path.write_bytes(b"a,b\n1,2\n3,4\n" + "5,caf\u00e9\n".encode("latin-1"))
     with pytest.raises(InputError, match=r"is not UTF-8 text: row 4 holds the byte 0xe9.*UTF-8"):
         load_table(path)
 

@@ -14,6 +14,11 @@ Lens functions and transformers
 Screening
     screen, ScreenResult, spread_score, SpreadScore, histogram_entropy, spearman_matrix,
     select_lenses, Selection, default_candidates
+Structure probe, stability, bootstrap, comparison
+    structure_scores, StructureProbe, feature_counts, stability_map, StabilityMap,
+    bootstrap_graph, BootstrapResult, suggest_cover, CoverSuggestion, compare_views,
+    ViewComparison, node_correspondence, induced_partition, adjusted_rand_index,
+    variation_of_information, contingency_table
 Errors
     LensworkError, InputError, ParameterError, LensworkWarning
 """
@@ -23,6 +28,16 @@ from __future__ import annotations
 __version__ = "0.1.0"
 
 from ._errors import InputError, LensworkError, LensworkWarning, ParameterError
+from .bootstrap import BootstrapResult, CoverSuggestion, bootstrap_graph, suggest_cover
+from .compare import (
+    ViewComparison,
+    adjusted_rand_index,
+    compare_views,
+    contingency_table,
+    induced_partition,
+    node_correspondence,
+    variation_of_information,
+)
 from .data import ExcludedRow, PointCloud, load_table
 from .lenses import compute_lenses, get_lens, lens_names, parse_lens, register_lens
 from .lenses._column import data_column, user_lens
@@ -36,6 +51,7 @@ from .lenses._dtm import DistanceToMeasure, KNNDistance, distance_to_measure, kn
 from .lenses._eccentricity import Eccentricity, eccentricity, geodesic_eccentricity
 from .lenses._pca import PCALens, pca_coordinates
 from .normalize import normalize
+from .probe import StabilityMap, StructureProbe, feature_counts, stability_map, structure_scores
 from .screen import (
     ScreenResult,
     Selection,
@@ -51,6 +67,8 @@ from .table import LensColumn, LensTable
 from .workspace import NeighborGraph, Workspace, neighbor_graph
 
 __all__ = [
+    "BootstrapResult",
+    "CoverSuggestion",
     "DistanceToMeasure",
     "Eccentricity",
     "ExcludedRow",
@@ -68,21 +86,31 @@ __all__ = [
     "ScreenResult",
     "Selection",
     "SpreadScore",
+    "StabilityMap",
+    "StructureProbe",
+    "ViewComparison",
     "Workspace",
     "__version__",
+    "adjusted_rand_index",
+    "bootstrap_graph",
+    "compare_views",
     "compute_lenses",
+    "contingency_table",
     "data_column",
     "default_candidates",
     "distance_to_measure",
     "eccentricity",
+    "feature_counts",
     "gaussian_density",
     "geodesic_eccentricity",
     "get_lens",
     "histogram_entropy",
+    "induced_partition",
     "knn_distance",
     "lens_names",
     "load_table",
     "neighbor_graph",
+    "node_correspondence",
     "normalize",
     "parse_lens",
     "pca_coordinates",
@@ -93,5 +121,9 @@ __all__ = [
     "silverman_bandwidth",
     "spearman_matrix",
     "spread_score",
+    "stability_map",
+    "structure_scores",
+    "suggest_cover",
     "user_lens",
+    "variation_of_information",
 ]

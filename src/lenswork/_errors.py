@@ -9,7 +9,16 @@ __all__ = ["InputError", "LensworkError", "LensworkWarning", "ParameterError"]
 
 
 class LensworkError(Exception):
-    """Base class of every error lenswork raises on purpose."""
+    """Base class of every error lenswork raises on purpose.
+
+    Examples
+    --------
+    >>> try:
+    ...     raise InputError("row 3: bad value")
+    ... except LensworkError as err:
+    ...     print(type(err).__name__, err)
+    InputError row 3: bad value
+    """
 
 
 class InputError(LensworkError, ValueError):
@@ -33,4 +42,14 @@ class ParameterError(LensworkError, ValueError):
 
 
 class LensworkWarning(UserWarning):
-    """A soft problem: the computation goes on, but the user should know."""
+    """A soft problem: the computation goes on, but the user should know.
+
+    Examples
+    --------
+    >>> import warnings
+    >>> with warnings.catch_warnings(record=True) as caught:
+    ...     warnings.simplefilter("always")
+    ...     warnings.warn("graph is disconnected", LensworkWarning)
+    >>> caught[0].category.__name__
+    'LensworkWarning'
+    """

@@ -46,8 +46,9 @@ Cover suggestion
    ``g`` in (1/3, 1/2);
 3. single-linkage clustering at scale ``delta``.
 
-Here, step 2 is computed exactly (a radius search over all rows) on the lens
-values the cover is laid on (after ``scale``, rank by default), the interval
+Here, step 2 is computed exactly (a radius search over all rows) on the raw
+lens values by default (``scale="raw"``; with ``bootstrap_graph(...,
+suggest=True)`` the graphs then use the raw scale too), the interval
 length is turned into the largest interval count whose intervals are at
 least ``r`` long, and step 3 becomes the graph clusterer's cut-off: edges of
 the shared k-NN graph shorter than ``delta`` (single linkage restricted to
@@ -111,11 +112,13 @@ class CoverSuggestion:
     delta : float
         Mean Hausdorff distance between the data and its subsamples.
     resolution : list of float
-        Interval length per lens column on the cover's (normalised) scale.
+        Interval length per lens column on the cover's scale.
     subsample_size : int
     batches : int
     pairs : int
         Row pairs within ``delta`` that the resolution was taken over.
+    scale : {"raw", "rank"}
+        The scale the rule was applied on (the cover must use the same).
     """
 
     intervals: object
@@ -126,10 +129,12 @@ class CoverSuggestion:
     subsample_size: int
     batches: int
     pairs: int
+    scale: str = "raw"
 
     def settings(self):
         """Keyword arguments for :func:`lenswork.build_graph`."""
-        return {"intervals": self.intervals, "overlap": self.overlap, "cutoff": self.cutoff}
+        return {"intervals": self.intervals, "overlap": self.overlap, "cutoff": self.cutoff,
+                "scale": self.scale}
 
 
 def _hausdorff_scale(X, size, batches, rng):
@@ -178,7 +183,7 @@ def _count_for_length(length, span, gain):
     return max(1, math.floor((span / length - gain) / (1.0 - gain)))
 
 
-def suggest_cover(lenses, workspace, *, gain=0.4, batches=30, beta=0.1, scale="rank",
+def suggest_cover(lenses, workspace, *, gain=0.4, batches=30, beta=0.1, scale="raw",
                   max_intervals=100, random_state=None):
     """Suggest intervals, overlap and cut-off from the data (after [1]; see the module docstring).
 
@@ -192,9 +197,13 @@ def suggest_cover(lenses, workspace, *, gain=0.4, batches=30, beta=0.1, scale="r
         Subsamples averaged in the Hausdorff scale.
     beta : float > 0, default=0.1
         Exponent in the subsample size ``n / (log n) ** (1 + beta)``.
-    scale : {"rank", "raw"}, default="rank"
-        The scale the cover is laid on, as in :func:`lenswork.build_graph`:
-        ranks ``(rank - 1/2) / n`` or the raw lens values.
+    scale : {"raw", "rank"}, default="raw"
+        The scale the rule is applied on and the cover is then laid on, as in
+        :func:`lenswork.build_graph`: the lens values themselves (as in [1]), or
+        ranks ``(rank - 1/2) / n``. Ranks stretch the lens where its values
+        are dense, so the largest gap between close rows grows and the rule
+        asks for far fewer intervals (on a noisy circle of 500 rows: 2 on ranks,
+        too few for the loop, against 5 on raw values).
     max_intervals : int, default=100
         Upper bound on the suggested count.
     random_state : int, optional
@@ -262,6 +271,7 @@ def suggest_cover(lenses, workspace, *, gain=0.4, batches=30, beta=0.1, scale="r
     return CoverSuggestion(
         intervals=counts[0] if len(counts) == 1 else counts, overlap=gain, cutoff=delta,
         delta=delta, resolution=resolution, subsample_size=size, batches=batches, pairs=pairs,
+        scale=scale,
     )
 
 
@@ -366,7 +376,8 @@ class BootstrapResult:
         w = csv.writer(buf, lineterminator="\n")
         w.writerow(["resample", "rows", *self.features])
         for b in range(self.resamples):
-            w.writerow([b + 1, int(self.sizes[b]), *(int(self.counts[f][b]) for f in self.features)])
+            counts = (int(self.counts[f][b]) for f in self.features)
+            w.writerow([b + 1, int(self.sizes[b]), *counts])
         return buf.getvalue()
 
     def to_dict(self):
@@ -453,7 +464,8 @@ def bootstrap_graph(lenses, workspace, *, resamples=100, scheme="subsample", fra
         Neighbours of every neighbour graph (full data and each resample).
     suggest : bool, default=False
         Take intervals, overlap and cut-off from :func:`suggest_cover` on the
-        full data (they override ``intervals``, ``overlap`` and ``cutoff``).
+        full data's raw lens values (they override ``intervals``, ``overlap``,
+        ``cutoff`` and ``scale``, which becomes ``"raw"``).
     random_state : int, optional
         Seed of the resampling (default: the workspace's).
     **settings
@@ -502,10 +514,10 @@ def bootstrap_graph(lenses, workspace, *, resamples=100, scheme="subsample", fra
     d_iv, d_ov = _graph_defaults()
     suggestion = None
     if suggest:
-        suggestion = suggest_cover(cols, workspace, scale=settings.get("scale", "rank"),
-                                   random_state=random_state)
+        suggestion = suggest_cover(cols, workspace, scale="raw", random_state=random_state)
         intervals, overlap = suggestion.intervals, suggestion.overlap
         settings["cutoff"] = suggestion.cutoff
+        settings["scale"] = "raw"
     intervals = d_iv if intervals is None else intervals
     overlap = d_ov if overlap is None else overlap
     n = workspace.n

@@ -54,9 +54,11 @@ Features in one view and not the other
 --------------------------------------
 Each feature the graph summary lists (a loop, a flare, a branch point, a
 component) is a set of nodes and so a set of rows. A feature of view a is
-*matched* in view b when b has a feature of the same type whose rows overlap
-it with overlap coefficient ``|A & B| / min(|A|, |B|)`` at least
-``match`` (default 0.5); unmatched features are reported per view.
+*matched* in view b when b has a feature of the same type whose rows have
+Jaccard index ``|A & B| / |A | B|`` with it of at least ``match`` (default
+0.5); unmatched features are reported per view. (The Jaccard index, not the
+overlap coefficient ``|A & B| / min(|A|, |B|)``: with the latter a small
+spurious loop inside the rows of a large real one would count as a match.)
 
 References
 ----------
@@ -69,15 +71,24 @@ References
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import numpy as np
 import scipy.sparse as sp
 
 from ._errors import InputError, ParameterError
+from .table import LensColumn, LensTable
 
 __all__ = [
+    "FEATURE_KINDS",
+    "PARTITIONS",
+    "ViewComparison",
     "adjusted_rand_index",
+    "compare_views",
     "contingency_table",
+    "induced_partition",
+    "node_components",
+    "node_correspondence",
     "variation_of_information",
 ]
 
@@ -322,7 +333,7 @@ def induced_partition(graph, how="component"):
     return out
 
 
-def correspondence(graph_a, graph_b):
+def node_correspondence(graph_a, graph_b):
     """Rows shared by every pair of nodes of two graphs over the same rows: ``M_a^T M_b``.
 
     Parameters
@@ -346,7 +357,7 @@ def correspondence(graph_a, graph_b):
     >>> Mb = sp.csr_matrix(np.array([[1], [1], [1]]))
     >>> ga = LensGraph(Ma, [[0], [1]], [[0, 1]], [1], {"h": np.zeros((2, 3))}, lens_columns=["h"])
     >>> gb = LensGraph(Mb, [[0]], [], [], {"h": np.zeros((1, 3))}, lens_columns=["h"])
-    >>> correspondence(ga, gb).toarray().tolist()
+    >>> node_correspondence(ga, gb).toarray().tolist()
     [[2], [2]]
     """
     _same_rows([graph_a, graph_b], ["first", "second"])
@@ -365,13 +376,16 @@ def _same_rows(graphs, names):
         )
 
 
-def _overlap(a, b):
-    """Overlap coefficient |a & b| / min(|a|, |b|) of two sorted row arrays."""
-    if a.size == 0 or b.size == 0:
+def _jaccard(a, b):
+    """Jaccard index |a & b| / |a | b| of two sorted arrays of distinct rows."""
+    if a.size == 0 and b.size == 0:
         return 0.0
-    return np.intersect1d(a, b, assume_unique=True).size / min(a.size, b.size)
+    inter = np.intersect1d(a, b, assume_unique=True).size
+    return inter / (a.size + b.size - inter)
 
 
+#: Unmatched features listed per view in the text summary (all of them go to the JSON).
+_LIST_MAX = 8
 #: Feature kinds compared between views (as the graph summary names them).
 FEATURE_KINDS = ("component", "loop", "flare", "branch")
 
@@ -392,13 +406,13 @@ def _feature_rows(graph, summary):
 
 
 def _unmatched(feats_a, feats_b, match):
-    """Features of a with no feature of the same kind in b overlapping at least ``match``."""
+    """Features of a with no feature of the same kind in b at Jaccard index >= ``match``."""
     out = []
     for kind, i, rows, f in feats_a:
-        best = max((_overlap(rows, r) for k, _, r, _ in feats_b if k == kind), default=0.0)
+        best = max((_jaccard(rows, r) for k, _, r, _ in feats_b if k == kind), default=0.0)
         if best < match:
             out.append({"kind": kind, "index": i, "nodes": list(f.nodes), "rows": int(rows.size),
-                        "best_overlap": float(best)})
+                        "best_jaccard": float(best)})
     return out
 
 
@@ -473,7 +487,7 @@ class ViewComparison:
 
     def correspondence(self, a=0, b=1):
         """``M_a^T M_b``: rows shared by node i of view a and node j of view b."""
-        return correspondence(self.graphs[self._index(a)], self.graphs[self._index(b)])
+        return node_correspondence(self.graphs[self._index(a)], self.graphs[self._index(b)])
 
     def pair(self, a=0, b=1):
         """The comparison dict of views a and b (names or positions)."""
@@ -515,11 +529,13 @@ class ViewComparison:
             for side, key in ((p["a"], "only_a"), (p["b"], "only_b")):
                 if p[key]:
                     items = ", ".join(f"{f['kind']} {f['index'] + 1} ({f['rows']} rows)"
-                                      for f in p[key])
-                    lines.append(f"  only in {side}: {items}")
+                                      for f in p[key][:_LIST_MAX])
+                    more = len(p[key]) - _LIST_MAX
+                    tail = f" and {more} more (see comparison.json)" if more > 0 else ""
+                    lines.append(f"  only in {side}: {items}{tail}")
                 else:
                     lines.append(f"  only in {side}: nothing (every feature matched at "
-                                 f"overlap >= {self.match:g})")
+                                 f"Jaccard >= {self.match:g})")
         return "\n".join(lines)
 
     def to_dict(self):
@@ -591,17 +607,30 @@ class ViewComparison:
                 f"ARI[{p['a']}, {p['b']}] = {p['ari']:.3f})")
 
 
+def _view_name(view):
+    """A name for a view from what it is built from (None when nothing names it)."""
+    if hasattr(view, "lens_columns") and hasattr(view, "membership"):
+        return " \u00d7 ".join(view.lens_columns)
+    if isinstance(view, tuple) and len(view) == 2 and isinstance(view[1], dict):
+        base = _view_name(view[0]) or "view"
+        settings = ", ".join(f"{k}={v}" for k, v in view[1].items())
+        return f"{base} [{settings}]" if settings else base
+    if isinstance(view, str):
+        return view
+    if isinstance(view, LensColumn):
+        return view.name
+    if isinstance(view, LensTable):
+        return " \u00d7 ".join(view.names)
+    if isinstance(view, (list, tuple)) and view and all(isinstance(c, LensColumn) for c in view):
+        return " \u00d7 ".join(c.name for c in view)
+    return None
+
+
 def _view_items(views):
     if isinstance(views, dict):
-        return list(views.items())
+        return [(str(k), v) for k, v in views.items()]
     views = list(views)
-    names = []
-    for i, v in enumerate(views):
-        if hasattr(v, "lens_columns") and hasattr(v, "membership"):
-            base = " \u00d7 ".join(v.lens_columns)
-        else:
-            base = None
-        names.append(base or f"view {i + 1}")
+    names = [_view_name(v) or f"view {i + 1}" for i, v in enumerate(views)]
     if len(set(names)) < len(names):
         names = [f"{nm} ({i + 1})" for i, nm in enumerate(names)]
     return list(zip(names, views, strict=True))
@@ -624,7 +653,8 @@ def compare_views(views, workspace=None, *, partition="component", match=0.5, **
     partition : {"component", "node"}, default="component"
         The induced row partition (see the module docstring).
     match : float in (0, 1], default=0.5
-        Overlap coefficient at which a feature counts as present in both views.
+        Jaccard index of the rows at which a feature counts as present in both
+        views.
     **graph_settings
         Passed to :func:`lenswork.build_graph` for views that are built here.
 
@@ -684,6 +714,9 @@ def compare_views(views, workspace=None, *, partition="component", match=0.5, **
             if isinstance(view, tuple) and len(view) == 2 and isinstance(view[1], dict):
                 lens, settings = view
             cols = _as_columns(lens, workspace)
+            if _bare_array(lens):  # name its columns after the view
+                cols = [replace(c, name=str(name) if len(cols) == 1 else f"{name}_{j + 1}")
+                        for j, c in enumerate(cols)]
             g = build_graph(cols, workspace, **{**graph_settings, **settings})
             lens_vals = np.column_stack([c.values for c in cols])
         names.append(str(name))
@@ -691,6 +724,15 @@ def compare_views(views, workspace=None, *, partition="component", match=0.5, **
         values.append(lens_vals)
     _same_rows(graphs, names)
     return ViewComparison(names, graphs, values, partition=partition, match=match)
+
+
+def _bare_array(lens):
+    """True for lens values given as numbers (not columns, tables or registry specs)."""
+    if isinstance(lens, (str, LensColumn, LensTable)) or hasattr(lens, "to_lens_table"):
+        return False
+    if isinstance(lens, (list, tuple)):
+        return not any(isinstance(c, (str, LensColumn)) for c in lens)
+    return True
 
 
 def _graph_lens_values(graph):

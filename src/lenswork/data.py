@@ -75,6 +75,15 @@ class ExcludedRow:
         Why it was kept out, e.g. ``"NaN in column 'flow'"``.
     passthrough : dict
         The row's passthrough values, so outputs can still write the row.
+
+    Examples
+    --------
+    >>> import warnings
+    >>> X = np.array([[1.0, 2.0], [np.nan, 3.0], [4.0, 5.0]])
+    >>> with warnings.catch_warnings(record=True):
+    ...     cloud = load_table(X, invalid="exclude")
+    >>> cloud.excluded
+    (ExcludedRow(row=2, id=2, reason="NaN in column 'x0'", passthrough={}),)
     """
 
     row: int

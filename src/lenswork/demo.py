@@ -11,7 +11,7 @@ should reveal follows from them:
   current rise towards the morning and evening peaks, the tank fills and
   drains). Its graph summary should close into a loop.
 * **standby** (the dense core): at night the pump idles at minimum set point;
-  many nearly identical snapshots pile up at one place on the loop.
+  many nearly identical, steady snapshots pile up at one place on the loop.
 * **bearing_wear** (flare 1): a pump whose bearing is failing leaves the loop
   at the morning peak; vibration and bearing temperature climb, efficiency
   falls, further along the flare the worse the wear (and the fewer the
@@ -88,8 +88,11 @@ def _latent(rng):
         parts.append(z)
         labels += [state] * n
     Z = np.vstack(parts)
-    Z += rng.normal(0, 0.03, Z.shape)
-    return Z, np.array(labels, dtype=object)
+    labels = np.array(labels, dtype=object)
+    # an idling pump reads steadier than a working one: less jitter in standby
+    quiet = np.where(labels == "standby", 0.3, 1.0)
+    Z += rng.normal(0, 0.03, Z.shape) * quiet[:, None]
+    return Z, labels, quiet
 
 
 def demo_arrays(seed=DEMO_SEED):
@@ -116,12 +119,12 @@ def demo_arrays(seed=DEMO_SEED):
     ((3000, 12), 'flow_m3h', 'PS-00001')
     """
     rng = np.random.default_rng(seed)
-    Z, states = _latent(rng)
+    Z, states, quiet = _latent(rng)
     order = rng.permutation(len(states))  # snapshots arrive interleaved, not grouped by state
-    Z, states = Z[order], states[order]
+    Z, states, quiet = Z[order], states[order], quiet[order]
     cols = []
     for base, load, sd, dec in _CHANNELS.values():
-        col = base + Z @ np.asarray(load) + rng.normal(0, sd, len(Z))
+        col = base + Z @ np.asarray(load) + rng.normal(0, sd, len(Z)) * quiet
         cols.append(np.round(col, dec))
     X = np.column_stack(cols)
     ids = np.array([f"PS-{i:05d}" for i in range(1, len(Z) + 1)], dtype=object)

@@ -67,6 +67,7 @@ References
 
 from __future__ import annotations
 
+import contextlib
 import csv
 import inspect
 import io
@@ -134,7 +135,8 @@ def _as_columns(lenses, workspace, *, what="lens"):
 
         cols = []
         for c in [lenses] if isinstance(lenses, str) else lenses:
-            cols.extend([c] if isinstance(c, LensColumn) else compute_lenses(workspace, [c]).columns)
+            cols.extend([c] if isinstance(c, LensColumn)
+                        else compute_lenses(workspace, [c]).columns)
     else:
         try:
             arr = np.asarray(lenses, dtype=np.float64)
@@ -264,7 +266,8 @@ def feature_counts(graph, data_components=None):
 
     Examples
     --------
-    >>> from lenswork import Workspace, build_graph
+    >>> from lenswork import Workspace
+    >>> from lenswork.graph import build_graph
     >>> t = np.linspace(0, 2 * np.pi, 400, endpoint=False)
     >>> ws = Workspace(np.column_stack([np.cos(t), np.sin(t)]))
     >>> feature_counts(build_graph(np.cos(t), ws))["loops"]
@@ -281,12 +284,23 @@ def feature_counts(graph, data_components=None):
     return out
 
 
+@contextlib.contextmanager
+def _quiet():
+    """No per-graph progress lines or warnings inside a sweep (it reports its own progress)."""
+    previous = _progress.set_reporter(False)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", LensworkWarning)
+            yield
+    finally:
+        _progress._reporter = previous
+
+
 def _build(cols, workspace, intervals, overlap, settings):
     """build_graph without its per-graph warnings (a sweep counts unassigned rows instead)."""
     from .graph import build_graph
 
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", LensworkWarning)
+    with _quiet():
         return build_graph(cols, workspace, intervals=intervals, overlap=overlap, **settings)
 
 
@@ -462,8 +476,9 @@ def structure_scores(lenses, workspace, *, intervals=PROBE_INTERVALS, overlaps=P
         ``f`` in loops, flares, branch_points, extra_components, ``f`` (its most
         frequent count over the grid) and ``f_agreement`` (the share of cells
         with that count), then ``revealed``, ``stability``, ``coherence`` and
-        ``structure`` (see the module docstring for the formulas). ``.columns(["structure"])`` gives arrays
-        in input order for :meth:`ScreenResult.rescore`.
+        ``structure`` (see the module docstring for the formulas).
+        ``.columns(["structure"])`` gives arrays in input order for
+        :meth:`ScreenResult.rescore`.
 
     Raises
     ------

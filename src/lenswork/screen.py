@@ -650,7 +650,8 @@ def default_candidates(data):
       (``2 n^(-1/(d+4)) sigma``, sigma the root-mean feature variance): a local
       and a smoother view;
     - ``eccentricity`` with p = 1, 2 and inf;
-    - ``dtm`` at mass 0.01 and 0.05 (k = 1 % and 5 % of the rows);
+    - ``dtm`` at two masses: k = 1 % and 5 % of the rows, at most 30 and 100
+      points (mass 0.01 and 0.05 up to 2,000 rows; 0.01 and 0.0333 at 3,000);
     - ``knn_distance``, k = 10;
     - ``geodesic_eccentricity``, p = 2 (distances along the neighbour graph).
 
@@ -668,8 +669,15 @@ def default_candidates(data):
     else:
         X = np.asarray(data, dtype=np.float64)
         X = X[:, None] if X.ndim == 1 else X
-    d = X.shape[1]
+    n, d = X.shape
     broad = float(f"{2.0 * _scott_scale(X):.3g}")
+    # DTM: k = mass n points; the local one about 1 % of the rows (at most 30), the broad one
+    # 5 % (at most 100, the dtm lens's cap); masses rounded down so k never passes the cap.
+    local = 0.01 if 0.01 * n <= 30 else _round_down(30 / n)
+    wide = 0.05 if 0.05 * n <= 100 else _round_down(100 / n)
+    dtm = [("dtm", {} if local == 0.01 else {"mass": local})]
+    if wide > local:
+        dtm.append(("dtm", {"mass": wide}))
     return [
         ("pca", {"components": min(3, d)}),
         ("laplacian", {"components": 3}),
@@ -678,11 +686,16 @@ def default_candidates(data):
         ("eccentricity", {"p": 1.0}),
         ("eccentricity", {}),
         ("eccentricity", {"p": "inf"}),
-        ("dtm", {}),
-        ("dtm", {"mass": 0.05}),
+        *dtm,
         ("knn_distance", {}),
         ("geodesic_eccentricity", {}),
     ]
+
+
+def _round_down(x, digits=3):
+    """``x`` rounded down to ``digits`` significant digits."""
+    scale = 10.0 ** (digits - 1 - math.floor(math.log10(x)))
+    return math.floor(x * scale) / scale
 
 
 def _spec_label(name, params):
@@ -1338,6 +1351,7 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
         table = data
         if random_state is not None and random_state != table.random_state:
             table = LensTable(table.columns, table.cloud, random_state=random_state)
+        refs = _collect_references(table.cloud, references)
     else:
         if isinstance(data, Workspace):
             ws = data
@@ -1351,9 +1365,14 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
             ws = Workspace(data, random_state=0 if random_state is None else random_state)
         if ws.n < 3:
             raise InputError(f"A screen needs at least 3 rows; the data has {ws.n}.")
+        refs = _collect_references(ws.cloud, references)  # check them before the lenses
         specs_default = default_candidates(ws) if lenses is None else []
         specs_given = [_parse_spec(s) for s in (lenses or [])]
         specs_extra = [_parse_spec(s) for s in extra]
+        from .lenses import get_lens
+
+        for name, params in specs_given + specs_extra:  # unknown names / bad values: fail fast
+            get_lens(name).resolve(params)
         cols_d, skipped = _compute_candidates(ws, specs_default, strict=False)
         cols_g, _ = _compute_candidates(ws, specs_given + specs_extra, strict=True)
         seen = {c.name for c in cols_d}
@@ -1373,7 +1392,6 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
                 f"Lens column {col.name!r} has shape {np.shape(col.values)}; expected "
                 f"({cloud.n},), one value per row."
             )
-    refs = _collect_references(cloud, references)
     with _progress.step(f"ranking {len(table)} columns: spread and rank correlation"):
         scores, status, Z = _score_columns(table, bins)
         usable = np.array([s == "ok" for s in status])

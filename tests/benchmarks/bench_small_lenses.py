@@ -12,7 +12,7 @@ Three blocks, each at n = 1e4, 1e5, 1e6 (``--quick``: 1e4 and 3e4):
    k = 16 points = the row and its 15 neighbours, and ``knn_distance`` with
    k = 10). Reference: the same formula as a numpy one-liner on the graph's
    distances. Target: < 1 s at 1e6.
-3. PCA solver crossover, n = 20,000, m = 2, d = 100 ... 1000: covariance
+3. PCA solver crossover, n = 2,000 and 20,000, m = 2, d = 300 ... 2000: covariance
    eigendecomposition against randomized SVD (why the solver switches at d > 500).
 
 Peak memory is traced (tracemalloc) in a separate run of each case, so tracing
@@ -131,7 +131,7 @@ def _crossover_case(X, rows):
     def rnd():
         return pca_coordinates(X, components=2, solver="randomized")
 
-    t_cov, t_rnd = _best([cov, rnd], repeats=2)
+    t_cov, t_rnd = _best([cov, rnd], repeats=3)
     rows.append({"case": "pca solver crossover", "n": n, "d": d,
                  "seconds": t_cov, "ref_seconds": t_rnd, "ratio": t_cov / t_rnd,
                  "auto": "covariance" if d <= COVARIANCE_MAX_DIM else "randomized"})
@@ -150,10 +150,11 @@ def run(quick=False):
         _pca_case(rng.normal(size=(n, 20)) * np.linspace(3.0, 0.5, 20) + 5.0, rows)
     for n in sizes:
         _graph_case(rng.normal(size=(n, 3)), rows)
-    for d in [100, 500] if quick else [100, 300, 500, 1000]:
-        n = 20_000
-        latent = rng.normal(size=(n, 10)) * np.linspace(5.0, 1.0, 10)
-        _crossover_case(latent @ rng.normal(size=(10, d)) + 0.5 * rng.normal(size=(n, d)), rows)
+    for n in [2_000] if quick else [2_000, 20_000]:
+        for d in [300, 600] if quick else [300, 500, 1000, 2000]:
+            latent = rng.normal(size=(n, 10)) * np.linspace(5.0, 1.0, 10)
+            X = latent @ rng.normal(size=(10, d)) + 0.5 * rng.normal(size=(n, d))
+            _crossover_case(X, rows)
     return rows
 
 

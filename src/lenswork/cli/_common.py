@@ -56,16 +56,19 @@ def input_options(func):
         "--skip-invalid", is_flag=True,
         help="Report rows with missing/NaN/inf features and keep them out (default: error).",
     )
+    @click.option("--delimiter", default=None, metavar="CHAR",
+                  help="Field delimiter of a text table (default: detected).")
     @click.option("--seed", default=0, show_default=True, type=int, help="Random seed.")
     @functools.wraps(func)
-    def wrapper(*args, table, demo, features, id_column, scale, skip_invalid, seed, **kwargs):
-        cloud = load_input(table, demo, features, id_column, scale, skip_invalid)
+    def wrapper(*args, table, demo, features, id_column, scale, skip_invalid, delimiter, seed,
+                **kwargs):
+        cloud = load_input(table, demo, features, id_column, scale, skip_invalid, delimiter)
         return func(*args, cloud=cloud, seed=seed, **kwargs)
 
     return wrapper
 
 
-def load_input(table, demo, features, id_column, scale, skip_invalid):
+def load_input(table, demo, features, id_column, scale, skip_invalid, delimiter=None):
     """Load the PointCloud a command works on (the demo when asked or no table given)."""
     from ..data import load_table
 
@@ -84,6 +87,6 @@ def load_input(table, demo, features, id_column, scale, skip_invalid):
     return load_table(
         table, features=feats, id_column=id_column,
         scale=None if scale in (None, "none") else scale,
-        invalid="exclude" if skip_invalid else "error",
+        invalid="exclude" if skip_invalid else "error", delimiter=delimiter,
     )
 

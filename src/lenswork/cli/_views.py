@@ -21,7 +21,7 @@ def _graph_options(grid=False):
                      help="Edge-length cut-off of the graph clusterer."),
         click.option("--min-size", default=None, type=int, metavar="N",
                      help="Smallest cluster kept as a node (default: the graph builder's)."),
-        click.option("--scale", "cover_scale", type=click.Choice(["rank", "raw"]),
+        click.option("--cover-scale", "cover_scale", type=click.Choice(["rank", "raw"]),
                      default="rank", show_default=True,
                      help="Lay the intervals on ranks (equal counts) or raw lens values."),
         click.option("--neighbors", "neighbor_method",
@@ -220,7 +220,8 @@ def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_f
               help="Row partition each view induces: the row's connected component, or its "
               "first node.")
 @click.option("--match", default=0.5, show_default=True, type=float,
-              help="Overlap coefficient at which a feature counts as present in both views.")
+              help="Jaccard index of the rows at which a feature counts as present in both "
+              "views.")
 @click.option("-o", "--out", default="lenswork-compare", show_default=True,
               type=click.Path(file_okay=False),
               help="Output directory: comparison.json, correspondence CSVs, comparison.png.")

@@ -160,8 +160,10 @@ def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", c
         Lay the intervals on ranks (equal-count) or on the lens values.
     clusterer : {"graph", "single"} or scikit-learn clusterer, default="graph"
         See :mod:`lenswork.graph._cluster`.
-    cutoff : float, "auto" or "none", default="auto"
-        Longest neighbour edge the graph clusterer keeps (see :func:`neighbor_cutoff`).
+    cutoff : float or {"auto", "fence", "none"}, default="auto"
+        Longest neighbour edge the graph clusterer keeps; ``"auto"`` cuts only
+        at a gap in the tail of the neighbour distances (see
+        :func:`neighbor_cutoff`).
     min_size : int, default=5
         Groups with fewer points are fragments.
     k : int, default=15

@@ -15,13 +15,17 @@ Three clusterers, one table (:data:`CLUSTERERS`) for validation and dispatch:
 any object with ``fit_predict``
     A scikit-learn clusterer, cloned for each element; label -1 means noise.
 
-The cut-off rule (``cutoff="auto"``) is Tukey's upper fence on the logarithm
-of every neighbour distance of the shared graph,
-``cutoff = exp(Q3 + 1.5 (Q3 - Q1))`` with ``Q1, Q3`` the quartiles of
-``log d`` over the ``n k`` neighbour distances (zeros left out): it removes only
-the edges that are unusually long for the data, which are the ones that tie
-outliers and separate pieces together. ``cutoff="none"`` keeps every edge; a
-number sets the cut-off directly.
+The cut-off rule (``cutoff="auto"``) looks for a gap in the long tail of the
+neighbour distances, in the spirit of the gap rule above: the logarithms of
+the ``n k`` distances of the shared graph between their median and their
+maximum are binned into 10 equal bins, and the cut-off is the lower edge of
+the first empty bin; with no empty bin no edge is cut. So the cut-off only
+acts when some edges are clearly longer than the rest -- the links of
+isolated outliers -- and the neighbour graph, which adapts to the local
+density, decides everything else. ``cutoff="fence"`` is Tukey's upper fence
+``exp(Q3 + 1.5 (Q3 - Q1))`` of the log distances (it also cuts the sparse
+tails of smooth densities), ``cutoff="none"`` keeps every edge and a number
+sets the cut-off directly.
 
 Small groups
     A group smaller than ``min_size`` is a *fragment*. Restricting a neighbour
@@ -55,19 +59,42 @@ CLUSTERERS = ("graph", "single")
 FRAGMENT_RULES = ("attach", "report")
 #: Largest element the single-linkage clusterer accepts (it holds all pairwise distances).
 SINGLE_MAX_POINTS = 20_000
-_CUTOFF_WORDS = ("auto", "none")
+_CUTOFF_WORDS = ("auto", "fence", "none")
+#: Bins of the cut-off gap rule (log distances between their median and maximum).
+CUTOFF_GAP_BINS = 10
 _SCIPY_METRIC = {"euclidean": "euclidean", "manhattan": "cityblock", "chebyshev": "chebyshev",
                  "cosine": "cosine"}
 _ATTACH_BLOCK = 4096
 
 
-def _tukey_cutoff(distances):
+def _log_distances(distances):
     d = np.asarray(distances, dtype=np.float64).ravel()
-    d = d[d > 0]
-    if d.size == 0:
-        return 0.0
-    q1, q3 = np.percentile(np.log(d), [25.0, 75.0])
+    return np.log(d[d > 0])
+
+
+def _gap_cutoff(distances, bins=CUTOFF_GAP_BINS):
+    """Lower edge of the first empty bin of log distances over [median, max]; inf if none."""
+    ld = _log_distances(distances)
+    if ld.size == 0:
+        return float("inf")
+    med, top = np.median(ld), ld.max()
+    if top <= med:
+        return float("inf")
+    counts, edges = np.histogram(ld, bins=bins, range=(med, top))
+    empty = np.flatnonzero(counts == 0)
+    return float("inf") if empty.size == 0 else float(np.exp(edges[empty[0]]))
+
+
+def _fence_cutoff(distances):
+    """Tukey's upper fence of the log distances."""
+    ld = _log_distances(distances)
+    if ld.size == 0:
+        return float("inf")
+    q1, q3 = np.percentile(ld, [25.0, 75.0])
     return float(np.exp(q3 + 1.5 * (q3 - q1)))
+
+
+_CUTOFF_RULES = {"auto": _gap_cutoff, "fence": _fence_cutoff}
 
 
 def neighbor_cutoff(workspace, k=15, cutoff="auto", metric="euclidean"):
@@ -78,10 +105,12 @@ def neighbor_cutoff(workspace, k=15, cutoff="auto", metric="euclidean"):
     workspace : Workspace
     k : int, default=15
         Neighbours per row of the shared graph.
-    cutoff : float, "auto" or "none", default="auto"
-        ``"auto"``: Tukey's upper fence ``exp(Q3 + 1.5 IQR)`` of the log
-        neighbour distances; ``"none"``: infinity (keep every edge); a
-        non-negative number is returned as given.
+    cutoff : float or {"auto", "fence", "none"}, default="auto"
+        ``"auto"``: the gap rule (lower edge of the first empty bin among 10
+        bins of the log neighbour distances between their median and their
+        maximum; infinity when no bin is empty); ``"fence"``: Tukey's upper
+        fence ``exp(Q3 + 1.5 IQR)`` of the log distances; ``"none"``:
+        infinity (keep every edge); a non-negative number is returned as given.
     metric : str, default="euclidean"
 
     Returns
@@ -90,8 +119,9 @@ def neighbor_cutoff(workspace, k=15, cutoff="auto", metric="euclidean"):
 
     Notes
     -----
-    Cost: one percentile pass over the ``n k`` distances, cached in the
-    workspace under ``("graph_cutoff", metric, k)``.
+    Cost: one pass over the ``n k`` distances (a median and a histogram, or
+    two percentiles), cached in the workspace under
+    ``("graph_cutoff", rule, metric, k)``.
 
     References
     ----------
@@ -101,9 +131,9 @@ def neighbor_cutoff(workspace, k=15, cutoff="auto", metric="euclidean"):
     Examples
     --------
     >>> from lenswork import Workspace
-    >>> ws = Workspace(np.arange(20.0)[:, None])
-    >>> neighbor_cutoff(ws, k=2)
-    1.0
+    >>> ws = Workspace(np.append(np.arange(30.0), 100.0)[:, None])  # one outlier
+    >>> round(neighbor_cutoff(ws, k=2), 2)  # edges of 1 and 2 kept, the outlier's 71, 72 cut
+    2.35
     >>> neighbor_cutoff(ws, k=2, cutoff="none")
     inf
     """
@@ -112,15 +142,16 @@ def neighbor_cutoff(workspace, k=15, cutoff="auto", metric="euclidean"):
         if word == "none":
             return float("inf")
         graph = workspace.neighbors(k, metric)
+        rule = _CUTOFF_RULES[word]
         return workspace.cached(
-            ("graph_cutoff", graph.metric, graph.k), lambda: _tukey_cutoff(graph.distances)
+            ("graph_cutoff", word, graph.metric, graph.k), lambda: rule(graph.distances)
         )
     try:
         return check_float("cutoff", cutoff, lo=0.0, context="build_graph")
     except ParameterError:
         raise ParameterError(
             f"The 'cutoff' parameter of build_graph must be a float in [0.0, inf) or a str among "
-            f"{{'auto', 'none'}}. Got {cutoff!r} instead."
+            f"{{'auto', 'fence', 'none'}}. Got {cutoff!r} instead."
         ) from None
 
 
@@ -130,6 +161,8 @@ def _cut_indices(workspace, k, metric, cutoff):
     def compute():
         graph = workspace.neighbors(k, metric)
         dtype = np.int32 if graph.n < 2**31 - 1 else np.int64
+        if cutoff >= graph.distances.max():
+            return graph.indices.astype(dtype)
         self_idx = np.arange(graph.n, dtype=dtype)[:, None]
         return np.where(graph.distances <= cutoff, graph.indices.astype(dtype), self_idx)
 
@@ -219,7 +252,8 @@ def _graph_labels(cut_idx, pts, loc):
     indptr = np.zeros(m + 1, dtype=np.int64)
     np.cumsum(np.count_nonzero(mask, axis=1), out=indptr[1:])
     ind = lnb[mask]
-    A = sp.csr_matrix((np.ones(ind.size, dtype=bool), ind, indptr), shape=(m, m))
+    # float64 weights: csgraph works in float64, and other types cost a sort on conversion.
+    A = sp.csr_matrix((np.ones(ind.size), ind, indptr), shape=(m, m))
     _, lab = connected_components(A, directed=True, connection="weak")
     return lab.astype(np.int64)
 

@@ -221,7 +221,8 @@ class Cover:
         Parameters
         ----------
         order : ndarray of shape (n_samples,), optional
-            A key ordering the points inside each element (default: row order).
+            A key ordering the points inside each element (default: row order;
+            ties in the key are broken by row).
 
         Returns
         -------
@@ -251,8 +252,12 @@ class Cover:
                 new_flat.append(base[sel] + o)
             rows = np.concatenate(new_rows)
             flat = np.concatenate(new_flat)
-        key = np.arange(n) if order is None else np.asarray(order)
-        perm = np.lexsort((rows, key[rows], flat))
+        if order is not None:  # enumerate points in key order; a stable sort keeps it per element
+            rank = np.empty(n, dtype=np.int64)
+            rank[np.argsort(np.asarray(order), kind="stable")] = np.arange(n)
+            perm = np.argsort(flat * n + rank[rows])
+        else:
+            perm = np.argsort(flat * n + rows)
         return rows[perm], flat[perm]
 
     def params(self):

@@ -39,7 +39,7 @@ def membership_matrix(rows, nodes, n_rows, n_nodes):
     """
     rows = np.asarray(rows, dtype=np.int64)
     nodes = np.asarray(nodes, dtype=np.int64)
-    order = np.lexsort((nodes, rows))
+    order = np.argsort(rows * max(int(n_nodes), 1) + nodes)
     indptr = np.zeros(n_rows + 1, dtype=np.int64)
     np.cumsum(np.bincount(rows, minlength=n_rows), out=indptr[1:])
     M = sp.csr_matrix(

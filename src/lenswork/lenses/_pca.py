@@ -36,10 +36,12 @@ from ._registry import LensPart, Param, register_lens
 
 __all__ = ["PCALens", "pca_coordinates"]
 
-#: Largest d for the covariance solver; above it the randomized SVD is used. At
-#: d = 500 the d x d eigendecomposition is still well under a second, while the
-#: n d^2 cost of forming the covariance overtakes the randomized SVD's
-#: O(n d (m + 10)) per pass for small m (see tests/benchmarks/bench_small_lenses.py).
+#: Largest d for the covariance solver; above it the randomized SVD is used.
+#: Measured (tests/benchmarks/bench_small_lenses.py, m = 2, 2 shared cores): at
+#: n = 2,000 the randomized SVD wins from d = 500 on (the d^3 eigendecomposition
+#: dominates: 2-18x at d = 1000-2000); at n = 20,000 the covariance solver stays
+#: ahead up to d of about 1000 (ratio ~0.3 at d = 500, ~1 at d = 1000) and
+#: falls behind by d = 2000. d > 500 is the switch that is never far off.
 COVARIANCE_MAX_DIM = 500
 SOLVERS = ("auto", "covariance", "randomized")
 # Rows per block when centring on the fly (no (n, d) centred copy).

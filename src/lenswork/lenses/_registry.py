@@ -152,7 +152,33 @@ ENTRY_POINT_GROUP = "lenswork.lenses"
 
 
 def register_lens(name, *, summary, cost, params=(), family=None, source="builtin", replace=False):
-    """Decorator: register ``compute(ws, **params) -> list[LensPart]`` under ``name``."""
+    """Decorator: register ``compute(ws, **params) -> list[LensPart]`` under ``name``.
+
+    Parameters
+    ----------
+    name : str
+        Registry key: a letter, then letters, digits or ``_``.
+    summary, cost : str
+        One line each, shown by ``lenswork lenses``.
+    params : sequence of Param
+    family : str, optional
+    source : str, default="builtin"
+    replace : bool, default=False
+        Allow overwriting an existing entry.
+
+    Examples
+    --------
+    >>> from functools import partial
+    >>> from lenswork._validation import check_float
+    >>> @register_lens("shifted_first", summary="first column plus c", cost="O(n)",
+    ...                params=[Param("c", 0.0, partial(check_float), "shift")])
+    ... def _shifted(ws, *, c):
+    ...     return [LensPart(ws.X[:, 0] + c)]
+    >>> from lenswork import Workspace
+    >>> [col.name for col in get_lens("shifted_first")(Workspace(np.eye(3)), c="1")]
+    ['shifted_first[c=1]']
+    >>> _ = REGISTRY.pop("shifted_first")
+    """
     if not name or not name.replace("_", "").isalnum() or not name[0].isalpha():
         raise ParameterError(
             f"A lens name must start with a letter and hold only letters, digits and '_'. "
@@ -198,13 +224,26 @@ def _load_entry_points():
 
 
 def lens_names():
-    """Sorted names of every registered lens (built-in and plug-in)."""
+    """Sorted names of every registered lens (built-in and plug-in).
+
+    Examples
+    --------
+    >>> "pca" in lens_names()
+    True
+    """
     _load_entry_points()
     return sorted(REGISTRY)
 
 
 def get_lens(name):
-    """The LensSpec registered under ``name``; the error lists the valid names."""
+    """The LensSpec registered under ``name``; the error lists the valid names.
+
+    Examples
+    --------
+    >>> spec = get_lens("dtm")
+    >>> spec.name, [p.name for p in spec.params]
+    ('dtm', ['mass'])
+    """
     _load_entry_points()
     try:
         return REGISTRY[name]

@@ -81,7 +81,7 @@ def _draw_view(ax, cmp, view, by):
     return sc
 
 
-def _draw_correspondence(fig, ax, cmp):
+def _draw_correspondence(fig, ax, cax, cmp):
     C = cmp.correspondence(0, 1).toarray().astype(np.float64)
     sizes = np.maximum(cmp.graphs[0].node_sizes, 1)[:, None]
     share = C / sizes
@@ -93,7 +93,7 @@ def _draw_correspondence(fig, ax, cmp):
     for spine in ax.spines.values():
         spine.set_visible(False)
     ax.tick_params(length=0)
-    bar = fig.colorbar(im, ax=ax, fraction=0.05, pad=0.03)
+    bar = fig.colorbar(im, cax=cax)
     bar.set_label("share of the row node's rows", fontsize=7)
     bar.outline.set_visible(False)
     bar.ax.tick_params(labelsize=6)
@@ -102,18 +102,20 @@ def _draw_correspondence(fig, ax, cmp):
 def comparison_figure(cmp):
     """Draw a :class:`~lenswork.ViewComparison`; returns the figure."""
     V = len(cmp.names)
-    panels = V + 1
     with style():
-        fig, axes = plt.subplots(1, panels, figsize=(4.1 * V + 3.6, 4.6),
-                                 gridspec_kw={"width_ratios": [1.0] * V + [0.85]})
+        fig = plt.figure(figsize=(4.1 * V + 4.6, 4.7))
+        grid = fig.add_gridspec(1, V + 4, width_ratios=[1.0] * V + [0.04, 0.22, 0.95, 0.04],
+                                left=0.03, right=0.96, top=0.83, bottom=0.09, wspace=0.12)
+        axes = [fig.add_subplot(grid[0, i]) for i in range(V)]
         sc = None
         for i in range(V):
             sc = _draw_view(axes[i], cmp, i, (i + 1) % V)
-        _draw_correspondence(fig, axes[-1], cmp)
-        bar = fig.colorbar(sc, ax=list(axes[:V]), fraction=0.025, pad=0.01, aspect=30)
+        bar = fig.colorbar(sc, cax=fig.add_subplot(grid[0, V]))
         bar.set_label("other view's lens: mean rank over the node's rows", fontsize=7)
         bar.outline.set_visible(False)
         bar.ax.tick_params(labelsize=6)
+        _draw_correspondence(fig, fig.add_subplot(grid[0, V + 2]),
+                             fig.add_subplot(grid[0, V + 3]), cmp)
         p = cmp.pairs[0]
         fig.suptitle(
             f"{_short(p['a'], 30)} vs {_short(p['b'], 30)}:  ARI {p['ari']:.2f}  \u00b7  "
@@ -121,10 +123,11 @@ def comparison_figure(cmp):
             x=0.01, ha="left", fontsize=10, fontweight="bold", color=INK)
         only = [f"{f['kind']} only in {p['a']}" for f in p["only_a"]]
         only += [f"{f['kind']} only in {p['b']}" for f in p["only_b"]]
-        fig.text(0.01, 0.905, "; ".join(only[:6]) if only else
+        if len(only) > 6:
+            only = [*only[:6], f"{len(only) - 6} more"]
+        fig.text(0.01, 0.905, "; ".join(only) if only else
                  "every feature of each view has a match in the other",
                  fontsize=7.5, color=ACCENT if only else MUTED, ha="left")
-        fig.subplots_adjust(left=0.03, right=0.97, top=0.84, bottom=0.08, wspace=0.22)
     return fig
 
 
