@@ -14,6 +14,7 @@ from lenswork import (
     InputError,
     LensColumn,
     LensTable,
+    LensworkWarning,
     ParameterError,
     PointCloud,
     Workspace,
@@ -184,6 +185,18 @@ def test_probe_is_deterministic_and_permutation_invariant():
     # a graph does not depend on the order of the rows (common practice: relabelling
     # rows relabels nodes, counts stay)
     assert a["lens"] == c["lens"]
+
+
+def test_probe_gives_nan_scores_to_a_nan_column():
+    rng = np.random.default_rng(20)
+    X = noisy_circle(300, rng)
+    bad = X[:, 1].copy()
+    bad[7] = np.nan
+    with pytest.warns(LensworkWarning, match="'bad' holds NaN or infinite values"):
+        probe = structure_scores([LensColumn("x", X[:, 0]), LensColumn("bad", bad)],
+                                 Workspace(X), intervals=(8,), overlaps=(0.3,))
+    assert np.isnan(probe["bad"]["structure"]) and np.isfinite(probe["x"]["structure"])
+    assert set(probe["bad"]) == set(probe["x"])
 
 
 def test_probe_errors():

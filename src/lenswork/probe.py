@@ -112,7 +112,7 @@ GRAPH_SETTINGS = ("scale", "clusterer", "cutoff", "min_size", "k")
 
 
 # --------------------------------------------------------------------------- lens input
-def _as_columns(lenses, workspace, *, what="lens"):
+def _as_columns(lenses, workspace, *, what="lens", finite=True):
     """A list of LensColumn, one per lens column, each with one value per workspace row.
 
     Accepted: a LensTable; a LensColumn or a list of them; an object with
@@ -164,7 +164,7 @@ def _as_columns(lenses, workspace, *, what="lens"):
                 f"Lens column {c.name!r} has {v.shape[0] if v.ndim else 0} values but the data "
                 f"has {n} rows; expected one lens value per row of the workspace."
             )
-        if not np.isfinite(v).all():
+        if finite and not np.isfinite(v).all():
             row = int(np.flatnonzero(~np.isfinite(v))[0])
             raise InputError(
                 f"Lens column {c.name!r} has a non-finite value in row {row + 1}; expected finite "
@@ -376,6 +376,13 @@ def _score(counts, weights, floor):
     return row
 
 
+def _score_keys():
+    keys = []
+    for f in SCORED_FEATURES:
+        keys += [f, f"{f}_agreement"]
+    return [*keys, "revealed", "stability", "coherence", "structure"]
+
+
 class StructureProbe(dict):
     """The structure probe's result: lens column name -> dict of scores.
 
@@ -485,7 +492,13 @@ def structure_scores(lenses, workspace, *, intervals=PROBE_INTERVALS, overlaps=P
     ParameterError
         Bad grid, weights, floor or graph setting.
     InputError
-        A lens column with the wrong length or non-finite values.
+        A lens column with the wrong length.
+
+    Warns
+    -----
+    LensworkWarning
+        A lens column with NaN or infinite values (its scores are NaN, so the
+        screen, which never selects such a column, can still take the table).
 
     Notes
     -----
@@ -509,16 +522,24 @@ def structure_scores(lenses, workspace, *, intervals=PROBE_INTERVALS, overlaps=P
     floor = check_float("floor", floor, lo=0, hi=1, hi_open=True, context="structure_scores")
     settings = _settings(dict(settings, k=k), "structure_scores")
     workspace = _workspace(workspace)
-    cols = _as_columns(lenses, workspace)
+    cols = _as_columns(lenses, workspace, finite=False)
     names = [c.name for c in cols]
     dupes = sorted({x for x in names if names.count(x) > 1})
     if dupes:
         raise ParameterError(
             f"Lens column {dupes[0]!r} appears twice; give each lens column its own name."
         )
-    data_c = _data_components(workspace, cols, settings)
+    good = [c for c in cols if np.isfinite(np.asarray(c.values)).all()]
+    data_c = _data_components(workspace, good or cols, settings) if good else 0
     scores, counts = {}, {}
     for col in cols:
+        if col not in good:
+            workspace.warn(
+                f"Lens column {col.name!r} holds NaN or infinite values; the structure probe "
+                f"gives it NaN scores. Recompute the lens or drop it."
+            )
+            scores[col.name] = {k: math.nan for k in _score_keys()}
+            continue
         grid = _grid_counts([col], workspace, intervals, overlaps, settings, data_c, col.name)
         counts[col.name] = grid
         scores[col.name] = _score(grid, weights, floor)

@@ -147,6 +147,12 @@ class SpreadScore:
     bins : int
         Histogram bins used.
     status : {"ok", "constant", "non-finite"}
+
+    Examples
+    --------
+    >>> s = spread_score(np.r_[np.zeros(50), np.arange(50.0)])
+    >>> s.status, s.largest_tie, round(s.tied, 2)
+    ('ok', 0.51, 0.51)
     """
 
     spread: float
@@ -505,6 +511,12 @@ class Selection:
         Why selection stopped: the count was reached; every remaining usable
         candidate has ``|rho|`` above the ceiling with a chosen one; or no
         usable candidate with merit > 0 was left.
+
+    Examples
+    --------
+    >>> sel = select_lenses(np.eye(3), [0.2, 0.9, 0.5], count=3)
+    >>> sel.indices, sel.stop
+    ((1, 2, 0), 'count')
     """
 
     indices: tuple
@@ -860,6 +872,21 @@ class ScreenResult:
     count, ceiling, bins : int, float, int
     skipped : list of dict
         Default lenses that could not be computed here, with the reason.
+
+    Examples
+    --------
+    >>> from lenswork import LensColumn, LensTable, PointCloud
+    >>> rng = np.random.default_rng(1)
+    >>> cloud = PointCloud.from_array(rng.normal(size=(300, 2)))
+    >>> table = LensTable([LensColumn("a", cloud.X[:, 0]), LensColumn("b", cloud.X[:, 1])],
+    ...                   cloud)
+    >>> result = screen(table, count=1)
+    >>> result.to_lens_table().names == result.selected, len(result.rows())
+    (True, 2)
+    >>> probe = result.rescore(scores={"structure": [0.1, 1.0]},
+    ...                        weights={"spread": 1, "structure": 1})
+    >>> probe.selected
+    ['b']
     """
 
     def __init__(self, lenses, scores, correlation, *, usable, weights, count, ceiling, bins,
@@ -1162,13 +1189,16 @@ class ScreenResult:
         directory.mkdir(parents=True, exist_ok=True)
         staging = Path(tempfile.mkdtemp(prefix=".lenswork-screen-", dir=directory))
         try:
-            write_text(staging / "ranking.csv", self.to_csv_text())
-            write_text(staging / "ranking.json", json.dumps(self.to_dict(), indent=2) + "\n")
-            table.write(staging / f"lenses.{lens_format}")
+            with _progress.step("writing ranking and lens columns"):
+                write_text(staging / "ranking.csv", self.to_csv_text())
+                write_text(staging / "ranking.json",
+                           json.dumps(self.to_dict(), indent=2) + "\n")
+                table.write(staging / f"lenses.{lens_format}")
             if figures:
                 from .plot._sheet import screen_sheet
 
-                screen_sheet(self, [staging / "sheet.png", staging / "sheet.svg"])
+                with _progress.step("figure sheet (PNG, SVG)"):
+                    screen_sheet(self, [staging / "sheet.png", staging / "sheet.svg"])
             names = sorted(p.name for p in staging.iterdir() if not p.name.startswith("."))
             for name in names:
                 os.replace(staging / name, directory / name)

@@ -79,6 +79,7 @@ def _geodesic(n, rng, landmarks=200, k=15):
 
 def run(quick=False):
     rng = np.random.default_rng(0)
+    eccentricity(rng.normal(size=(50, 3)), p=1, mode="exact")  # warm-up: imports, thread pools
     results = []
     n_ref = 5_000 if quick else 30_000
     results.append(_versus_cdist(n_ref, 20, 2.0, rng))

@@ -579,8 +579,10 @@ def gaussian_density(
         ``scipy.stats.gaussian_kde``); ``"silverman"``: diagonal, see
         :func:`silverman_bandwidth`; ``"cv"``: the multiplier of Scott's
         bandwidth (1/8 to 8, 25 steps) that maximises the leave-one-out
-        log-likelihood on a subsample of 2,000 rows; a float ``h``: isotropic
-        kernel ``h^2 I``.
+        log-likelihood on a random subsample of ``s = min(n, 2000)`` rows (with
+        Scott's covariance for s rows), then applied to Scott's covariance for
+        all n rows; a warning when it lands on the edge of the grid; a float
+        ``h``: isotropic kernel ``h^2 I``.
     log : bool, default=True
         Return ``log f``; the density spans many orders of magnitude.
     mode : {"auto", "exact", "scalable"}, default="auto"

@@ -169,6 +169,8 @@ def bootstrap_figure(result):
                     ax.text(x, s + 0.02, f"{s:.0%}", ha="center", va="bottom", fontsize=6.5,
                             color=INK)
             ax.set_ylim(0, 1.12)
+            pad = max(0.7, (4 - xs.size) / 2)  # keep bars narrow when few counts occur
+            ax.set_xlim(lo - pad, hi + pad)
             ax.set_xticks(xs)
             ax.set_title(_TITLES.get(name, name), loc="left")
             ax.grid(axis="y", color=GRID, lw=0.6)
