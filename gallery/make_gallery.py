@@ -35,8 +35,8 @@ from lenswork.demo import load_demo
 
 #: Lenses whose graphs the gallery draws (the first is the loop lens of the stability map).
 GRAPH_LENSES = ("pca_1", "pca_2", "density")
-#: The two views compared.
-COMPARE = ("pca_1", "density")
+#: The two views compared (two views of the same loop).
+COMPARE = ("pca_1", "pca_2")
 
 
 def _demo(quick):

@@ -302,3 +302,33 @@ def test_compare_errors(circles):
     cmp = compare_views({"x": X[:, 0], "y": X[:, 1]}, ws)
     with pytest.raises(ParameterError, match="No view 'z'"):
         cmp.pair("x", "z")
+
+
+def _hand_graph(node_rows, edges, n_rows):
+    """A LensGraph from explicit member lists and edges (no cover involved)."""
+    from lenswork.graph import LensGraph
+
+    rows = np.concatenate([np.asarray(r) for r in node_rows])
+    cols = np.concatenate([np.full(len(r), j) for j, r in enumerate(node_rows)])
+    M = sp.csr_matrix((np.ones(rows.size, dtype=int), (rows, cols)),
+                      shape=(n_rows, len(node_rows)))
+    V = len(node_rows)
+    return LensGraph(M, np.arange(V)[:, None], edges, [1] * len(edges),
+                     {"h": np.zeros((V, 3))}, lens_columns=["h"])
+
+
+def test_a_small_loop_does_not_match_a_large_one():
+    # view a: one loop through all 100 rows; view b: a loop through rows 0..19 only,
+    # the other rows on a path. Jaccard of the loops' rows = 20 / 100 (by hand), below 0.5
+    ring = [range(0, 26), range(25, 51), range(50, 76), list(range(75, 100)) + [0]]
+    a = _hand_graph(ring, [[0, 1], [1, 2], [2, 3], [0, 3]], 100)
+    small = [range(0, 6), range(5, 11), range(10, 16), list(range(15, 20)) + [0]]
+    b = _hand_graph([*small, range(20, 60), range(59, 100)],
+                    [[0, 1], [1, 2], [2, 3], [0, 3], [4, 5]], 100)
+    cmp = compare_views([a, b])
+    pair = cmp.pair(0, 1)
+    loops = [f for f in pair["only_a"] if f["kind"] == "loop"]
+    assert len(loops) == 1 and loops[0]["best_jaccard"] == pytest.approx(20 / 100, abs=1e-12)
+    # component partitions: a = one block, b = two blocks (rows 0..19 | 20..99);
+    # ARI against scikit-learn on the same labels
+    assert_allclose(pair["ari"], adjusted_rand_score(cmp.labels[0], cmp.labels[1]), atol=1e-12)

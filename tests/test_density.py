@@ -94,8 +94,8 @@ def test_cv_bandwidth_maximises_leave_one_out_likelihood():
     X = np.r_[rng.normal(size=(120, 2)) * 0.3, rng.normal(size=(80, 2)) * 0.3 + 3.0]
     n, d = X.shape
     _, info = gaussian_density(X, bandwidth="cv", return_info=True)
-    # brute-force leave-one-out log-likelihood (Silverman 1986, sec. 3.4.4) over the same
-    # multipliers of Scott's covariance, with scipy.stats.multivariate_normal kernels
+    # brute-force leave-one-out log-likelihood (Silverman 1986, sec. 3.4.4, from memory) over
+    # the same multipliers of Scott's covariance, with scipy.stats.multivariate_normal kernels
     base = np.cov(X.T) * n ** (-2 / (d + 4))
     scores = []
     for c in CV_GRID:

@@ -41,7 +41,7 @@ def test_regular_polygon_closed_forms(N):
     assert P.shape == (N, 2)
     # textbook closed forms for the regular N-gon on the unit circle (chords 2 sin(pi k / N)):
     # mean squared chord = 2 (so E_2 = sqrt 2); sum_k sin(pi k / N) = cot(pi / 2N) (Gradshteyn
-    # and Ryzhik 1.342.1); the longest chord is 2 (N even) or 2 cos(pi / 2N) (N odd).
+    # and Ryzhik 1.342.1, from memory); the longest chord is 2 (N even) or 2 cos(pi / 2N) (N odd).
     # rtol 1e-12: float64 sums of N terms of size ~1
     assert_allclose(eccentricity(P), np.full(N, math.sqrt(2)), rtol=1e-12)
     assert_allclose(eccentricity(P, p=1), (2 / N) / math.tan(math.pi / (2 * N)), rtol=1e-12)

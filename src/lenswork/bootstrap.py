@@ -119,6 +119,13 @@ class CoverSuggestion:
         Row pairs within ``delta`` that the resolution was taken over.
     scale : {"raw", "rank"}
         The scale the rule was applied on (the cover must use the same).
+
+    Examples
+    --------
+    >>> s = CoverSuggestion(intervals=6, overlap=0.4, cutoff=0.2, delta=0.2, resolution=[0.3],
+    ...                     subsample_size=50, batches=30, pairs=900)
+    >>> s.settings()
+    {'intervals': 6, 'overlap': 0.4, 'cutoff': 0.2, 'scale': 'raw'}
     """
 
     intervals: object
@@ -299,6 +306,16 @@ class BootstrapResult:
         Cover and graph settings used for every graph.
     suggestion : CoverSuggestion or None
     random_state : int or None
+
+    Examples
+    --------
+    >>> from lenswork import Workspace
+    >>> rng = np.random.default_rng(1)
+    >>> t = rng.uniform(0, 2 * np.pi, 400)
+    >>> ws = Workspace(np.column_stack([np.cos(t), np.sin(t)]) + rng.normal(0, 0.03, (400, 2)))
+    >>> res = bootstrap_graph(ws.X[:, 0], ws, resamples=5)
+    >>> res.resamples, res.frequency("loops"), res.recurrence("loops")
+    (5, {1: 1.0}, 1.0)
     """
 
     lens_label: str

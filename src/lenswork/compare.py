@@ -445,6 +445,17 @@ class ViewComparison:
         of one view not matched in the other) and ``matched`` counts.
     match : float
     summaries : list of GraphSummary
+
+    Examples
+    --------
+    >>> from lenswork import Workspace
+    >>> t = np.linspace(0, 2 * np.pi, 300, endpoint=False)
+    >>> ws = Workspace(np.column_stack([np.cos(t), np.sin(t)]))
+    >>> cmp = compare_views({"x": ws.X[:, 0], "y": ws.X[:, 1]}, ws, partition="node")
+    >>> cmp.names, cmp.correspondence("x", "y").shape[0] == cmp.graphs[0].n_nodes
+    (['x', 'y'], True)
+    >>> cmp.agreement("vi").shape
+    (2, 2)
     """
 
     def __init__(self, names, graphs, lens_values, *, partition="component", match=0.5):

@@ -312,7 +312,7 @@ def check_clusterer(clusterer):
 
 
 def cluster_elements(workspace, rows, elements, *, clusterer="graph", cutoff="auto", k=15,
-                     metric="euclidean", min_size=5, fragments="attach", gap_bins=10,
+                     metric="euclidean", min_size=10, fragments="attach", gap_bins=10,
                      random_state=0):
     """Cluster the points of every cover element.
 
@@ -327,7 +327,7 @@ def cluster_elements(workspace, rows, elements, *, clusterer="graph", cutoff="au
         See :func:`neighbor_cutoff`.
     k : int, default=15
     metric : str, default="euclidean"
-    min_size : int, default=5
+    min_size : int, default=10
         Groups with fewer points are fragments.
     fragments : {"attach", "report"}, default="attach"
     gap_bins : int, default=10

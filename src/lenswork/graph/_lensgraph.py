@@ -143,6 +143,7 @@ class LensGraph:
         self.fragments = _plain(dict(fragments or {}))
         self.node_sizes = np.asarray(M.sum(axis=0)).ravel().astype(np.int64)
         self.edge_jaccard = jaccard_weights(self.edge_index, self.edge_shared, self.node_sizes)
+        self._summary = None
 
     # ---------------------------------------------------------------- counts
     @property
@@ -240,15 +241,17 @@ class LensGraph:
 
     # ---------------------------------------------------------------- analysis
     def summary(self):
-        """Components, loops, branch points, flares and a per-feature list.
+        """Components, loops, branch points, flares and a per-feature list (computed once).
 
         Returns
         -------
         GraphSummary
         """
-        from ._summary import summarize
+        if self._summary is None:
+            from ._summary import summarize
 
-        return summarize(self)
+            self._summary = summarize(self)
+        return self._summary
 
     def triangles(self):
         """Triples of nodes sharing at least one row, and how many rows they share."""

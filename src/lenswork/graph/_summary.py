@@ -23,8 +23,10 @@ from __future__ import annotations
 
 from collections import deque
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
+import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
 __all__ = ["GraphFeature", "GraphSummary", "summarize"]
@@ -65,6 +67,10 @@ class GraphFeature:
 class GraphSummary:
     """Counts and features of a LensGraph (see the module notes for the definitions).
 
+    The counts are computed at once, in O(V + E); the feature list (with the
+    rows and lens range of every feature) is computed on first use of
+    :attr:`features`, so sweeps that only need counts do not pay for it.
+
     Examples
     --------
     >>> import scipy.sparse as sp
@@ -86,7 +92,12 @@ class GraphSummary:
     n_flares: int
     n_unassigned: int
     component_sizes: tuple
-    features: tuple = field(default_factory=tuple)
+    _graph: object = field(default=None, repr=False, compare=False)
+
+    @cached_property
+    def features(self):
+        """Every feature (components, loops, branch points, flares, paths) as GraphFeature."""
+        return _features(self._graph) if self._graph is not None else ()
 
     @property
     def flares(self):
@@ -199,27 +210,39 @@ def _chains(nb, deg):
     return flares, paths
 
 
-def summarize(graph):
-    """Summarise a LensGraph; see :class:`GraphSummary`.
-
-    Notes
-    -----
-    Cost: O(V + E) for the counts and chains, plus the length of the
-    fundamental cycles for the loop list.
-    """
-    import scipy.sparse as sp
-
-    V, E = graph.n_nodes, graph.n_edges
+def _structure(graph):
+    """Components, degrees and neighbour lists (shared by the counts and the features)."""
     A = graph.adjacency()
     n_comp, labels = connected_components(A, directed=False)
-    deg = graph.degrees
-    nb = _neighbours(V, graph.edge_index)
+    return int(n_comp), labels, graph.degrees, _neighbours(graph.n_nodes, graph.edge_index)
+
+
+def _row_counter(graph):
+    """``rows_of(nodes)``: distinct rows in a set of nodes, O(their memberships)."""
     csc = sp.csc_matrix(graph.membership)
+    stamp = np.empty(graph.n_rows, dtype=np.int64)
 
     def rows_of(nodes):
-        cols = np.asarray(nodes, dtype=np.int64)
-        parts = [csc.indices[csc.indptr[c]:csc.indptr[c + 1]] for c in cols]
-        return int(np.unique(np.concatenate(parts)).size) if parts else 0
+        parts = [csc.indices[csc.indptr[c]:csc.indptr[c + 1]] for c in nodes]
+        if not parts:
+            return 0
+        idx = np.concatenate(parts)
+        pos = np.arange(idx.size)
+        stamp[idx] = pos  # a repeated row keeps one position: count each row once
+        return int(np.count_nonzero(stamp[idx] == pos))
+
+    return rows_of
+
+
+def _components(labels, n_comp):
+    nodes = [np.flatnonzero(labels == c) for c in range(n_comp)]
+    order = sorted(range(n_comp), key=lambda c: (-nodes[c].size, nodes[c][0]))
+    return [nodes[c] for c in order]
+
+
+def _features(graph):
+    n_comp, labels, deg, nb = _structure(graph)
+    rows_of = _row_counter(graph)
 
     def lens_range(nodes):
         idx = np.asarray(nodes, dtype=np.int64)
@@ -233,28 +256,32 @@ def summarize(graph):
         nodes = tuple(int(x) for x in nodes)
         return GraphFeature(kind, nodes, rows_of(nodes), lens_range(nodes), attached_to)
 
-    features = []
-    comp_nodes = [np.flatnonzero(labels == c) for c in range(n_comp)]
-    comp_order = sorted(range(n_comp), key=lambda c: (-comp_nodes[c].size, comp_nodes[c][0]))
-    comp_sizes = []
-    for c in comp_order:
-        nodes = comp_nodes[c]
-        f = feature("component", nodes)
-        comp_sizes.append(f.rows)
-        features.append(f)
-    for cycle in _fundamental_cycles(nb, labels, n_comp):
-        features.append(feature("loop", cycle))
-    branch = tuple(int(v) for v in np.flatnonzero(deg >= 3))
-    for v in branch:
-        features.append(feature("branch", (v,)))
+    features = [feature("component", nodes) for nodes in _components(labels, n_comp)]
+    features += [feature("loop", cycle) for cycle in _fundamental_cycles(nb, labels, n_comp)]
+    features += [feature("branch", (int(v),)) for v in np.flatnonzero(deg >= 3)]
     flares, paths = _chains(nb, deg)
-    for chain, end in flares:
-        features.append(feature("flare", chain, attached_to=int(end)))
-    for chain in paths:
-        features.append(feature("path", chain))
+    features += [feature("flare", chain, attached_to=int(end)) for chain, end in flares]
+    features += [feature("path", chain) for chain in paths]
+    return tuple(features)
+
+
+def summarize(graph):
+    """Summarise a LensGraph; see :class:`GraphSummary`.
+
+    Notes
+    -----
+    Cost: O(V + E) for the counts and chains plus O(P) for the component row
+    counts (P memberships); the features, computed on first use, add the
+    length of the fundamental cycles and O(P) per feature.
+    """
+    V, E = graph.n_nodes, graph.n_edges
+    n_comp, labels, deg, nb = _structure(graph)
+    rows_of = _row_counter(graph)
+    flares, _ = _chains(nb, deg)
     return GraphSummary(
-        n_rows=graph.n_rows, n_nodes=V, n_edges=E, n_components=int(n_comp),
-        loops=int(E - V + n_comp), branch_points=branch, n_flares=len(flares),
-        n_unassigned=int(graph.unassigned.size), component_sizes=tuple(comp_sizes),
-        features=tuple(features),
+        n_rows=graph.n_rows, n_nodes=V, n_edges=E, n_components=n_comp,
+        loops=int(E - V + n_comp), branch_points=tuple(int(v) for v in np.flatnonzero(deg >= 3)),
+        n_flares=len(flares), n_unassigned=int(graph.unassigned.size),
+        component_sizes=tuple(rows_of(nodes) for nodes in _components(labels, n_comp)),
+        _graph=graph,
     )

@@ -274,10 +274,9 @@ def eccentricity(X, *, p=2.0, mode="auto", landmarks=LANDMARKS, random_state=0,
 
     References
     ----------
-    .. [1] G. Singh, F. Memoli and G. Carlsson, Mapper, 2007 (eccentricity as a
-       filter).
-    .. [2] M. Carriere, B. Michel and S. Oudot, "Statistical analysis and
-       parameter selection for Mapper", JMLR 19, 2018.
+    .. [1] M. Carriere, B. Michel and S. Oudot, "Statistical analysis and
+       parameter selection for Mapper", JMLR 19, 2018 (eccentricity as a lens of
+       Mapper, 2007).
 
     Examples
     --------

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import numpy as np
 from matplotlib.colors import LinearSegmentedColormap
+from matplotlib.ticker import MaxNLocator
 
 from ..normalize import normalize
 from ._style import ACCENT, INK, LENS_CMAP, MUTED, PAPER, plt, save, style
@@ -93,6 +94,8 @@ def _draw_correspondence(fig, ax, cax, cmp):
     for spine in ax.spines.values():
         spine.set_visible(False)
     ax.tick_params(length=0)
+    ax.xaxis.set_major_locator(MaxNLocator(integer=True))
+    ax.yaxis.set_major_locator(MaxNLocator(integer=True))
     bar = fig.colorbar(im, cax=cax)
     bar.set_label("share of the row node's rows", fontsize=7)
     bar.outline.set_visible(False)

@@ -19,6 +19,7 @@ import math
 
 import numpy as np
 
+from .._io import atomic_path
 from ..normalize import normalize
 from ._style import ACCENT, CORR_CMAP, GRID, INK, LENS_CMAP, MUTED, PAPER, plt, save, style
 
@@ -46,7 +47,31 @@ def screen_sheet(result, paths):
     list of Path
     """
     fig = _draw(result)
-    return [save(fig, p) for p in paths]
+    out = []
+    for p in paths:
+        path = save(fig, p)
+        if path.suffix.lower() == ".png":
+            _palette_png(path)
+        out.append(path)
+    return out
+
+
+def _palette_png(path):
+    """Rewrite a PNG with a 256-colour palette (about a third of the size), atomically.
+
+    The sheet has a few thousand coloured points per card; a palette keeps the
+    file small enough to commit and to show in a README.
+    """
+    from PIL import Image, PngImagePlugin
+
+    with Image.open(path) as im:
+        small = im.convert("RGB").quantize(
+            colors=256, method=Image.Quantize.MEDIANCUT, dither=Image.Dither.NONE
+        )
+    info = PngImagePlugin.PngInfo()
+    info.add_text("Software", "lenswork")
+    with atomic_path(path) as tmp:
+        small.save(tmp, format="PNG", optimize=True, pnginfo=info)
 
 
 def _short(text, width=26):

@@ -1,0 +1,161 @@
+"""Drawing of a LensGraph: nodes sized by rows, coloured by a lens or data column."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+from .._errors import ParameterError
+from ._style import ACCENT, GRID, INK, LENS_CMAP, MUTED, PAPER, figure, save, style
+
+__all__ = ["draw_graph"]
+
+#: Node marker areas (points^2): smallest node and the extra area of the largest.
+_NODE_AREA_MIN = 16.0
+_NODE_AREA_SPAN = 340.0
+
+
+def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=None, title=None,
+               node_scale=1.0, labels=False, branches=True, random_state=0):
+    """Draw a LensGraph in the house style; PNG or SVG by the file ending.
+
+    Parameters
+    ----------
+    graph : LensGraph
+    path : str or Path, optional
+        Write the figure here (``.png`` or ``.svg``, atomically) and close it.
+    color : str, optional
+        Lens or data column whose node ``stat`` colours the nodes, or
+        ``"size"``. Default: the first lens.
+    stat : {"mean", "min", "max"}, default="mean"
+    layout : {"auto", "level", "lens", "spring", "spectral"} or ndarray, default="auto"
+        A layout name (see :func:`lenswork.graph.graph_layout`) or an array of
+        shape (n_nodes, 2).
+    ax : matplotlib Axes, optional
+        Draw into this axes instead of a new figure.
+    title : str, optional
+    node_scale : float, default=1.0
+        Multiplies every node area (area is proportional to the member count).
+    labels : bool, default=False
+        Write node ids beside the nodes.
+    branches : bool, default=True
+        Ring branch points (degree >= 3) in the accent colour.
+    random_state : int, default=0
+        Passed to the layout.
+
+    Returns
+    -------
+    matplotlib.figure.Figure, or Path when ``path`` is given
+
+    Examples
+    --------
+    >>> import scipy.sparse as sp
+    >>> from lenswork.graph import LensGraph
+    >>> M = sp.csr_matrix(np.eye(3, dtype=int))
+    >>> stats = {"h": np.array([[0.0, 0, 0], [1.0, 1, 1], [2.0, 2, 2]])}
+    >>> g = LensGraph(M, [[0], [1], [2]], [[0, 1], [1, 2]], [1, 1], stats, lens_columns=["h"])
+    >>> fig = draw_graph(g)
+    >>> len(fig.axes)  # the graph and its colourbar
+    2
+    """
+    from matplotlib.collections import LineCollection
+
+    color = color or graph.lens_columns[0]
+    values = graph.node_values(color, stat)
+    method = layout if isinstance(layout, str) else "given"
+    if isinstance(layout, str):
+        from ..graph._layout import graph_layout
+
+        if layout == "auto":
+            m = len(graph.lens_columns)
+            method = "level" if m == 1 else ("lens" if m == 2 else "spring")
+        pos = graph_layout(graph, method=method, random_state=random_state)
+    else:
+        pos = np.asarray(layout, dtype=np.float64)
+        if pos.shape != (graph.n_nodes, 2):
+            raise ParameterError(
+                f"A given layout must have shape ({graph.n_nodes}, 2), one position per node; "
+                f"got {pos.shape}."
+            )
+    with style():
+        if ax is None:
+            fig, ax = figure(figsize=(6.4, 5.2))
+        else:
+            fig = ax.figure
+        sizes = graph.node_sizes.astype(np.float64)
+        top = sizes.max() if sizes.size else 1.0
+        area = node_scale * (_NODE_AREA_MIN + _NODE_AREA_SPAN * sizes / top)
+        if graph.n_edges:
+            seg = pos[graph.edge_index]
+            widths = 0.6 + 3.4 * graph.edge_jaccard
+            ax.add_collection(LineCollection(seg, colors=MUTED, linewidths=widths, alpha=0.75,
+                                             zorder=1, capstyle="round"))
+        order = np.argsort(-sizes, kind="stable")  # small nodes drawn on top of large ones
+        finite = np.isfinite(values)
+        lo = values[finite].min() if finite.any() else 0.0
+        hi = values[finite].max() if finite.any() else 1.0
+        if hi <= lo:
+            lo, hi = lo - 0.5, hi + 0.5
+        points = ax.scatter(pos[order, 0], pos[order, 1], s=area[order], c=values[order],
+                            cmap=LENS_CMAP, vmin=lo, vmax=hi, edgecolors=INK, linewidths=0.5,
+                            zorder=2)
+        if branches:
+            bp = np.flatnonzero(graph.degrees >= 3)
+            if bp.size:
+                from matplotlib.lines import Line2D
+
+                ax.scatter(pos[bp, 0], pos[bp, 1], s=area[bp] * 1.9, facecolors="none",
+                           edgecolors=ACCENT, linewidths=1.4, zorder=3)
+                key = Line2D([], [], linestyle="none", marker="o", markersize=7,
+                             markerfacecolor="none", markeredgecolor=ACCENT, markeredgewidth=1.4)
+                ax.legend([key], ["branch point (degree ≥ 3)"], loc="best", handletextpad=0.3,
+                          borderaxespad=0.2)
+        if labels:
+            for a in range(graph.n_nodes):
+                ax.annotate(str(a), pos[a], xytext=(4, 3), textcoords="offset points",
+                            fontsize=6, color=INK, zorder=4)
+        bar = fig.colorbar(points, ax=ax, fraction=0.045, pad=0.02)
+        bar.set_label(f"{color}" if color == "size" else f"{color} (node {stat})")
+        bar.outline.set_edgecolor(GRID)
+        ax.margins(0.08)
+        ax.autoscale_view()
+        _axes_for(ax, graph, method)
+        summary = graph.summary()
+        ax.set_title(title or f"Mapper graph of {', '.join(graph.lens_columns)}", loc="left")
+        ax.text(
+            0.0, -0.04,
+            f"{summary.n_nodes} nodes · {summary.n_edges} edges · {summary.n_components} "
+            f"component{'s' if summary.n_components != 1 else ''} · {summary.loops} "
+            f"loop{'s' if summary.loops != 1 else ''} · {_count(len(summary.branch_points), 'branch point')}"
+            f" · {_count(summary.n_flares, 'flare')} · {summary.n_unassigned:,} rows in no node",
+            transform=ax.transAxes, ha="left", va="top", fontsize=7, color=MUTED,
+        )
+        ax.set_facecolor(PAPER)
+    if path is not None:
+        return save(fig, Path(path))
+    return fig
+
+
+def _count(n, word):
+    return f"{n} {word}{'' if n == 1 else 's'}"
+
+
+def _axes_for(ax, graph, method):
+    """Axis dressing: the lens axis for level and lens layouts, none otherwise."""
+    if method == "level":
+        ax.set_ylabel(f"{graph.lens_columns[0]} (node mean)")
+        ax.set_xticks([])
+        ax.spines["bottom"].set_visible(False)
+        ax.yaxis.grid(True, color=GRID, linewidth=0.6, zorder=0)
+        ax.set_axisbelow(True)
+    elif method == "lens" and len(graph.lens_columns) >= 2:
+        ax.set_xlabel(f"{graph.lens_columns[0]} (node mean)")
+        ax.set_ylabel(f"{graph.lens_columns[1]} (node mean)")
+        ax.grid(True, color=GRID, linewidth=0.6, zorder=0)
+        ax.set_axisbelow(True)
+    else:
+        ax.set_xticks([])
+        ax.set_yticks([])
+        for side in ("left", "bottom"):
+            ax.spines[side].set_visible(False)
