@@ -92,6 +92,7 @@ def test_score_formula():
     grid = {
         "loops": np.array([[1, 1], [1, 0]]), "flares": np.array([[2, 2], [2, 2]]),
         "branch_points": np.array([[0, 1], [1, 1]]), "extra_components": np.zeros((2, 2)),
+        "empty": np.zeros((2, 2)),
     }
     row = _score(grid, FEATURE_WEIGHTS, 0.25)
     # The module docstring's formulas, evaluated by hand: modes 1, 2, 1, 0;
@@ -106,6 +107,11 @@ def test_score_formula():
     # coherence 1 / (1 + 3) divides the revealed structure
     assert_allclose(_score(grid, FEATURE_WEIGHTS, 0.25)["structure"],
                     0.25 + 0.75 * revealed * stability / 4, rtol=1e-15)
+    grid["extra_components"] = np.array([[3, 1], [0, 0]])
+    grid["empty"] = np.array([[0, 0], [0, 1]])
+    # one empty cell of four; mean extra over the three others = 4 / 3
+    assert_allclose(_score(grid, FEATURE_WEIGHTS, 0.25)["coherence"], 0.75 / (1 + 4 / 3),
+                    rtol=1e-15)
 
 
 # --------------------------------------------------------------------------- counts
@@ -138,8 +144,9 @@ def test_probe_prefers_the_loop_lens_on_a_circle():
     probe = structure_scores(lenses, ws)
     assert probe["x"]["loops"] == 1 and probe["x"]["loops_agreement"] == 1.0
     # a lens of pure noise is not continuous along the circle: its graphs fall apart
-    assert probe["noise"]["extra_components"] > 0
-    assert probe["noise"]["coherence"] < 1
+    grid = probe.counts["noise"]
+    assert grid["extra_components"][grid["empty"] == 0].mean() > 1
+    assert probe["noise"]["coherence"] < 0.5 and probe["x"]["coherence"] == 1.0
     assert probe["x"]["structure"] > probe["noise"]["structure"]
     assert probe.data_components == 1
     for scores in probe.values():

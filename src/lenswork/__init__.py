@@ -19,6 +19,8 @@ Structure probe, stability, bootstrap, comparison
     bootstrap_graph, BootstrapResult, suggest_cover, CoverSuggestion, compare_views,
     ViewComparison, node_correspondence, induced_partition, adjusted_rand_index,
     variation_of_information, contingency_table
+Graphs
+    build_graph, Cover, LensGraph, GraphSummary, read_graph_json
 Errors
     LensworkError, InputError, ParameterError, LensworkWarning
 """
@@ -39,6 +41,7 @@ from .compare import (
     variation_of_information,
 )
 from .data import ExcludedRow, PointCloud, load_table
+from .graph import Cover, GraphSummary, LensGraph, build_graph, read_graph_json
 from .lenses import compute_lenses, get_lens, lens_names, parse_lens, register_lens
 from .lenses._column import data_column, user_lens
 from .lenses._density import (
@@ -68,14 +71,17 @@ from .workspace import NeighborGraph, Workspace, neighbor_graph
 
 __all__ = [
     "BootstrapResult",
+    "Cover",
     "CoverSuggestion",
     "DistanceToMeasure",
     "Eccentricity",
     "ExcludedRow",
     "GaussianDensity",
+    "GraphSummary",
     "InputError",
     "KNNDistance",
     "LensColumn",
+    "LensGraph",
     "LensTable",
     "LensworkError",
     "LensworkWarning",
@@ -93,6 +99,7 @@ __all__ = [
     "__version__",
     "adjusted_rand_index",
     "bootstrap_graph",
+    "build_graph",
     "compare_views",
     "compute_lenses",
     "contingency_table",
@@ -114,6 +121,7 @@ __all__ = [
     "normalize",
     "parse_lens",
     "pca_coordinates",
+    "read_graph_json",
     "register_lens",
     "scott_bandwidth",
     "screen",

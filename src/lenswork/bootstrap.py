@@ -83,6 +83,7 @@ from .probe import (
     FEATURES,
     _as_columns,
     _build,
+    _build_counts,
     _graph_defaults,
     _label,
     _settings,
@@ -306,6 +307,10 @@ class BootstrapResult:
         Cover and graph settings used for every graph.
     suggestion : CoverSuggestion or None
     random_state : int or None
+    n_rows : int
+    extra : dict
+        ``empty_resamples``: resamples whose graph had no node (every group
+        below ``min_size``); their counts are all 0.
 
     Examples
     --------
@@ -547,14 +552,15 @@ def bootstrap_graph(lenses, workspace, *, resamples=100, scheme="subsample", fra
     rng = check_random_state(workspace.random_state if random_state is None else random_state)
     counts = {f: np.zeros(resamples, dtype=np.int64) for f in FEATURES}
     sizes = np.zeros(resamples, dtype=np.int64)
+    empty = np.zeros(resamples, dtype=np.int64)
     for b in _progress.track(range(resamples), "bootstrap", length=resamples):
         idx = _draw(rng, n, scheme, fraction, k + 2)
         sub = Workspace(PointCloud.from_array(workspace.X[idx]),
                         random_state=workspace.random_state,
                         neighbor_method=workspace.neighbor_method)
         sub_cols = [replace(c, values=np.asarray(c.values)[idx]) for c in cols]
-        g = _build(sub_cols, sub, intervals, overlap, settings)
-        c = feature_counts(g)
+        c = _build_counts(sub_cols, sub, intervals, overlap, settings)
+        empty[b] = c["empty"]
         sizes[b] = idx.size
         for f in FEATURES:
             counts[f][b] = c[f]
@@ -564,4 +570,5 @@ def bootstrap_graph(lenses, workspace, *, resamples=100, scheme="subsample", fra
         counts=counts, sizes=sizes, scheme=scheme,
         fraction=fraction if scheme == "subsample" else None, settings=settings_out,
         suggestion=suggestion, random_state=random_state, n_rows=n,
+        extra={"empty_resamples": int(empty.sum())},
     )

@@ -27,9 +27,9 @@ take over the p x q grid cells
 Then, with feature weights ``w`` (default loops 1, flares 0.5, branch points
 0.25)::
 
-    revealed   = 1 - 2 ** -(sum_f w_f mode_f)           in [0, 1)
-    stability  = mean of agree_f over the four types     in (0, 1]
-    coherence  = 1 / (1 + mode_extra_components)         in (0, 1]
+    revealed   = 1 - 2 ** -(sum_f w_f mode_f)                  in [0, 1)
+    stability  = mean of agree_f over the four types            in (0, 1]
+    coherence  = (1 - empty share) / (1 + mean extra components) in [0, 1]
     structure  = floor + (1 - floor) * revealed * stability * coherence
 
 ``revealed`` is 0 for a lens whose graph is a plain path at most settings,
@@ -40,10 +40,17 @@ Components beyond the data's own are counted and reported, but they divide
 the score rather than add to it: when the data hang together at the
 clusterer's scale and a lens's graphs still fall apart, the lens is not
 continuous along the data there (a lens of pure noise on a circle gives
-dozens of extra components and no loop). ``structure`` (higher is better, in
-[floor, 1)) is the column meant for the screen's merit: the floor (default
-0.25) keeps a lens that reveals nothing from getting merit 0 in the screen's
-geometric mean, where it could still be the right second lens.
+dozens of extra components and no loop). A cell where no cover element
+holds a group of ``min_size`` rows has an *empty* graph (every count 0, every
+row unassigned); the share of empty cells lowers ``coherence`` too. The mean
+of the extra components is taken over the non-empty cells (a mean, not the
+mode: a lens that falls apart differently at every setting has no typical
+count, but on average many pieces).
+
+``structure`` (higher is better, in [floor, 1)) is the column meant for the
+screen's merit: the floor (default 0.25) keeps a lens that reveals nothing
+from getting merit 0 in the screen's geometric mean, where it could still be
+the right second lens.
 
 Stability map
 -------------
@@ -328,15 +335,34 @@ def _data_components(workspace, cols, settings):
     return workspace.cached(key, compute)
 
 
+def _empty_counts(n_rows):
+    """Counts of a cell where no cover element holds a group of ``min_size`` rows."""
+    return {"nodes": 0, "edges": 0, "unassigned": int(n_rows), "components": 0, "loops": 0,
+            "branch_points": 0, "flares": 0, "extra_components": 0, "empty": 1}
+
+
+def _build_counts(cols, workspace, intervals, overlap, settings, data_components=None):
+    """Feature counts of one graph; an empty graph (every group below min_size) counts as empty.
+
+    The settings were already accepted by the build for the data's own
+    components, so a ParameterError here comes from this cell's cover: the
+    graph builder refuses to return a graph with no node.
+    """
+    try:
+        g = _build(cols, workspace, intervals, overlap, settings)
+    except ParameterError:
+        return _empty_counts(workspace.n)
+    return {**feature_counts(g, data_components), "empty": 0}
+
+
 def _grid_counts(cols, workspace, intervals, overlaps, settings, data_components, label):
     """Feature counts of the graph at every (intervals, overlap) cell: dict -> (p, q) ints."""
     p, q = len(intervals), len(overlaps)
-    keys = ("nodes", "edges", "unassigned", *FEATURES, "extra_components")
+    keys = ("nodes", "edges", "unassigned", *FEATURES, "extra_components", "empty")
     out = {k: np.zeros((p, q), dtype=np.int64) for k in keys}
     cells = [(i, j) for i in range(p) for j in range(q)]
     for i, j in _progress.track(cells, f"probe {label}", length=len(cells)):
-        g = _build(cols, workspace, intervals[i], overlaps[j], settings)
-        c = feature_counts(g, data_components)
+        c = _build_counts(cols, workspace, intervals[i], overlaps[j], settings, data_components)
         for k in keys:
             out[k][i, j] = c[k]
     return out
@@ -370,7 +396,10 @@ def _score(counts, weights, floor):
     total = sum(w * row[f] for f, w in weights.items())
     revealed = 1.0 - 2.0 ** (-total)
     stability = float(np.mean([row[f"{f}_agreement"] for f in SCORED_FEATURES]))
-    coherence = 1.0 / (1.0 + row["extra_components"])
+    empty = np.asarray(counts["empty"], dtype=bool)
+    extra = np.asarray(counts["extra_components"], dtype=np.float64)[~empty]
+    mean_extra = float(extra.mean()) if extra.size else 0.0
+    coherence = (1.0 - float(empty.mean())) / (1.0 + mean_extra)
     row["revealed"] = revealed
     row["stability"] = stability
     row["coherence"] = coherence
@@ -575,7 +604,9 @@ class StabilityMap:
         Overlaps (grid columns).
     counts : dict of str -> ndarray of shape (len(intervals), len(overlaps)), int
         ``nodes``, ``edges``, ``unassigned`` (rows in no node), ``components``,
-        ``loops``, ``branch_points``, ``flares``, ``extra_components`` at every cell.
+        ``loops``, ``branch_points``, ``flares``, ``extra_components`` and
+        ``empty`` (1 where no cover element kept a group of ``min_size`` rows)
+        at every cell.
     n_rows : int
     data_components : int
         Components of the data itself (see the module docstring).

@@ -9,7 +9,7 @@ The graph
 Nerve
     membership_matrix, nerve_edges, nerve_triangles
 Files (:mod:`lenswork.graph.io`)
-    write_graphml, write_graph_json, read_graph_json, write_memberships
+    write_graphml, write_graph_json, read_graph_json, write_memberships, read_lens_file
 
 =============  ==========================================================
 module         concept
@@ -34,7 +34,13 @@ from ._layout import LAYOUTS, graph_layout
 from ._lensgraph import GraphEdge, GraphNode, LensGraph
 from ._nerve import membership_matrix, nerve_edges, nerve_triangles
 from ._summary import GraphFeature, GraphSummary
-from .io import read_graph_json, write_graph_json, write_graphml, write_memberships
+from .io import (
+    read_graph_json,
+    read_lens_file,
+    write_graph_json,
+    write_graphml,
+    write_memberships,
+)
 
 __all__ = [
     "CLUSTERERS",
@@ -55,6 +61,7 @@ __all__ = [
     "nerve_triangles",
     "node_statistics",
     "read_graph_json",
+    "read_lens_file",
     "write_graph_json",
     "write_graphml",
     "write_memberships",

@@ -9,7 +9,7 @@ from .._errors import InputError, ParameterError
 from .._validation import check_choice, check_int
 from ..table import LensColumn, LensTable
 from ..workspace import METRICS, Workspace
-from ._cluster import cluster_elements, clusterer_name
+from ._cluster import FRAGMENT_RULES, check_clusterer, cluster_elements, clusterer_name
 from ._cover import Cover
 from ._lensgraph import LensGraph
 from ._nerve import membership_matrix, nerve_edges
@@ -122,6 +122,18 @@ def node_statistics(membership, columns):
     Returns
     -------
     dict of str -> ndarray of shape (n_nodes, 3)
+
+    Notes
+    -----
+    Segment reductions (``np.add.reduceat`` and friends) over the members in
+    column order: O(P) per column for P memberships.
+
+    Examples
+    --------
+    >>> import scipy.sparse as sp
+    >>> M = sp.csr_matrix(np.array([[1, 0], [1, 1], [0, 1]]))
+    >>> node_statistics(M, {"v": np.array([1.0, 2.0, 6.0])})["v"].tolist()
+    [[1.5, 1.0, 2.0], [4.0, 2.0, 6.0]]
     """
     csc = membership.tocsc()
     csc.sort_indices()
@@ -230,11 +242,16 @@ def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", c
     seed = ws.random_state if random_state is None else random_state
     metric = check_choice("metric", metric, METRICS, context="build_graph")
     k = check_int("k", k, lo=1, context="build_graph")
+    clusterer = check_clusterer(clusterer)
+    fragments = check_choice("fragments", fragments, FRAGMENT_RULES, context="build_graph")
     names, values, lens_prov = _lens_columns(lenses, n)
     data = _data_columns(ws.cloud, columns, names)
     with _progress.step(f"graph: cover of {', '.join(names)}"):
         cover = Cover(intervals=intervals, overlap=overlap, scale=scale).fit(values, names)
         rows, elements = cover.incidence(order=cover.values_[:, 0])
+    uses_graph = (isinstance(clusterer, str) and clusterer == "graph") or fragments == "attach"
+    if uses_graph:
+        ws.neighbors(k, metric)  # computed (or found in the cache) outside the timed steps below
     with _progress.step(f"graph: clusters of {cover.n_elements} cover elements"):
         result = cluster_elements(
             ws, rows, elements, clusterer=clusterer, cutoff=cutoff, k=k, metric=metric,
@@ -246,7 +263,6 @@ def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", c
         edges, shared = nerve_edges(M)
         stats = node_statistics(M, {**dict(zip(names, values.T)), **data})
     used = result.cutoff
-    uses_graph = clusterer == "graph" or fragments == "attach"
     params = {
         "lens_columns": names,
         "cover": cover.params(),

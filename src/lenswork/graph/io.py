@@ -22,6 +22,12 @@ CSV
     Header ``<id column>,node``; one line per (row, node) membership in row
     order, and one line with an empty node for every row in no node, so that
     no row is missing from the file.
+
+Lens files
+    :func:`read_lens_file` reads lens columns written by
+    :meth:`lenswork.LensTable.write` (CSV, TSV or Parquet with the
+    ``<file>.json`` sidecar, as the screen command writes its selection) and
+    lines them up with the rows of a point cloud by row id.
 """
 
 from __future__ import annotations
@@ -37,7 +43,13 @@ from .._errors import InputError
 from .._io import atomic_path, write_text
 from ._lensgraph import STATS, LensGraph, _plain
 
-__all__ = ["read_graph_json", "write_graph_json", "write_graphml", "write_memberships"]
+__all__ = [
+    "read_graph_json",
+    "read_lens_file",
+    "write_graph_json",
+    "write_graphml",
+    "write_memberships",
+]
 
 FORMAT = "lenswork-graph"
 FORMAT_VERSION = 1
@@ -161,7 +173,18 @@ def graph_to_dict(graph):
 
 
 def write_graph_json(graph, path):
-    """Write ``graph`` as JSON (see the module notes); returns the path."""
+    """Write ``graph`` as JSON (see the module notes) atomically; returns the path.
+
+    Examples
+    --------
+    >>> import tempfile, scipy.sparse as sp
+    >>> g = LensGraph(sp.csr_matrix(np.eye(2, dtype=int)), [[0], [1]], [], [],
+    ...               {"h": np.zeros((2, 3))}, lens_columns=["h"])
+    >>> with tempfile.TemporaryDirectory() as tmp:
+    ...     doc = json.loads(write_graph_json(g, Path(tmp) / "g.json").read_text())
+    >>> doc["format"], doc["membership"]
+    ('lenswork-graph', [[0], [1]])
+    """
     text = json.dumps(graph_to_dict(graph), separators=(",", ":"), allow_nan=False)
     path = Path(path)
     write_text(path, text + "\n")
@@ -259,7 +282,18 @@ def read_graph_json(path):
 
 
 def write_memberships(graph, path):
-    """Write the CSV of row id -> node memberships (see the module notes); returns the path."""
+    """Write the CSV of row id -> node memberships (see the module notes); returns the path.
+
+    Examples
+    --------
+    >>> import tempfile, scipy.sparse as sp
+    >>> M = sp.csr_matrix(np.array([[1, 0], [1, 1], [0, 0]]))
+    >>> g = LensGraph(M, [[0], [1]], [[0, 1]], [1], {"h": np.zeros((2, 3))}, lens_columns=["h"])
+    >>> with tempfile.TemporaryDirectory() as tmp:
+    ...     text = write_memberships(g, Path(tmp) / "m.csv").read_text()
+    >>> text.split()
+    ['row,node', '1,0', '2,0', '2,1', '3,']
+    """
     M = graph.membership
     ids = [_plain(x) for x in graph.row_ids]
     path = Path(path)
@@ -274,3 +308,114 @@ def write_memberships(graph, path):
             else:
                 w.writerows([ids[i], int(node)] for node in indices[a:b])
     return path
+
+
+def read_lens_file(path, cloud, columns=None):
+    """Read lens columns written by :meth:`LensTable.write` for the rows of ``cloud``.
+
+    Parameters
+    ----------
+    path : str or Path
+        A CSV, TSV or Parquet lens file with its ``<path>.json`` sidecar; the
+        sidecar's ``file.lens_columns`` names the lens columns and
+        ``file.id_column`` the id column.
+    cloud : PointCloud
+        The rows the lenses are wanted for; every id of the cloud must be in
+        the file with a value in every chosen column.
+    columns : list of str, optional
+        Lens columns to read (default: every lens column of the sidecar).
+
+    Returns
+    -------
+    LensTable
+        Columns in the cloud's row order, with the lens, parameters and
+        normalisation recorded in the sidecar (a file of normalised values is
+        read as it is, with no normalisation to apply again).
+
+    Raises
+    ------
+    InputError
+        No sidecar, an unknown column, an id of the cloud missing from the
+        file, or a missing value.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> from lenswork import LensColumn, LensTable, PointCloud
+    >>> cloud = PointCloud.from_array(np.arange(8.0).reshape(4, 2))
+    >>> table = LensTable([LensColumn("h", np.array([0.5, 1.5, 2.5, 3.5]))], cloud)
+    >>> with tempfile.TemporaryDirectory() as tmp:
+    ...     path, _ = table.write(Path(tmp) / "lenses.csv")
+    ...     back = read_lens_file(path, cloud)
+    >>> back.names, back["h"].values.tolist()
+    (['h'], [0.5, 1.5, 2.5, 3.5])
+    """
+    import warnings
+
+    from ..data import load_table
+    from ..table import LensColumn, LensTable
+
+    path = Path(path)
+    sidecar = path.with_name(path.name + ".json")
+    if not path.exists():
+        raise InputError(f"No lens file {str(path)!r}; check the path.")
+    try:
+        meta = json.loads(sidecar.read_text(encoding="utf-8"))
+        info = meta["file"]
+        names = list(info["lens_columns"])
+        id_column = info["id_column"]
+    except FileNotFoundError:
+        raise InputError(
+            f"The lens file {str(path)!r} has no sidecar {sidecar.name!r}; lens files are read "
+            f"with the sidecar that LensTable.write and the screen command write beside them."
+        ) from None
+    except (json.JSONDecodeError, KeyError, TypeError) as err:
+        raise InputError(
+            f"The sidecar {str(sidecar)!r} is damaged or not a lens-file sidecar ({err}); write "
+            f"the lens file again."
+        ) from None
+    if info.get("format") == "npy":
+        raise InputError(
+            f"{str(path)!r} is an NPY lens file, which holds no row ids to line up with the "
+            f"table; write the lens columns as CSV or Parquet."
+        )
+    wanted = names if columns is None else list(columns)
+    unknown = [c for c in wanted if c not in names]
+    if unknown:
+        raise InputError(
+            f"The lens file {str(path)!r} has no lens column {unknown[0]!r}. Its lens columns: "
+            f"{', '.join(names)}."
+        )
+    with warnings.catch_warnings():  # rows kept out of the lens file are checked below
+        warnings.simplefilter("ignore")
+        lens_cloud = load_table(path, features=wanted, id_column=id_column, invalid="exclude",
+                                min_rows=1)
+    position = {str(_plain(i)): j for j, i in enumerate(lens_cloud.ids)}
+    blank = {str(_plain(r.id)): r.row for r in lens_cloud.excluded}
+    take = np.empty(cloud.n, dtype=np.int64)
+    for j, i in enumerate(cloud.ids):
+        key = str(_plain(i))
+        if key in position:
+            take[j] = position[key]
+        elif key in blank:
+            raise InputError(
+                f"Row {blank[key]} of the lens file {str(path)!r} (id {key}) has a missing lens "
+                f"value, but the table uses that row. Compute the lenses on the same rows."
+            )
+        else:
+            raise InputError(
+                f"Id {key} of the table is not in the lens file {str(path)!r} (id column "
+                f"{id_column!r}). Use the lens file written for this table."
+            )
+    provenance = {c.get("name"): c for c in meta.get("columns", []) if isinstance(c, dict)}
+    raw = info.get("values", "raw") == "raw"
+    out = []
+    for j, name in enumerate(wanted):
+        prov = provenance.get(name, {})
+        out.append(LensColumn(
+            name=name, values=lens_cloud.X[take, j].copy(), lens=prov.get("lens", "file"),
+            params=dict(prov.get("params") or {}),
+            info={**dict(prov.get("info") or {}), "source": str(path)},
+            normalization=prov.get("normalization") if raw else None,
+        ))
+    return LensTable(out, cloud, random_state=meta.get("random_state", 0))

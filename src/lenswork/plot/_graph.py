@@ -122,15 +122,16 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
         ax.autoscale_view()
         _axes_for(ax, graph, method)
         summary = graph.summary()
-        ax.set_title(title or f"Mapper graph of {', '.join(graph.lens_columns)}", loc="left")
-        ax.text(
-            0.0, -0.04,
-            f"{summary.n_nodes} nodes · {summary.n_edges} edges · {summary.n_components} "
-            f"component{'s' if summary.n_components != 1 else ''} · {summary.loops} "
-            f"loop{'s' if summary.loops != 1 else ''} · {_count(len(summary.branch_points), 'branch point')}"
-            f" · {_count(summary.n_flares, 'flare')} · {summary.n_unassigned:,} rows in no node",
-            transform=ax.transAxes, ha="left", va="top", fontsize=7, color=MUTED,
-        )
+        counts = " · ".join([
+            _count(summary.n_nodes, "node"), _count(summary.n_edges, "edge"),
+            _count(summary.n_components, "component"), _count(summary.loops, "loop"),
+            _count(len(summary.branch_points), "branch point"), _count(summary.n_flares, "flare"),
+            f"{summary.n_unassigned:,} rows in no node",
+        ])
+        ax.set_title(title or f"Mapper graph of {', '.join(graph.lens_columns)}", loc="left",
+                     pad=16)
+        ax.text(0.0, 1.012, counts, transform=ax.transAxes, ha="left", va="bottom", fontsize=7,
+                color=MUTED)
         ax.set_facecolor(PAPER)
     if path is not None:
         return save(fig, Path(path))

@@ -1,0 +1,162 @@
+"""CLI: build a Mapper graph from lens columns, print its summary, write files and a drawing."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from .._errors import ParameterError
+from ..graph import CLUSTERERS, COVER_SCALES, FRAGMENT_RULES, LAYOUTS
+from ._common import input_options
+
+__all__ = ["COMMANDS"]
+
+#: Files the command writes into the output directory.
+OUTPUTS = {
+    "graphml": "graph.graphml", "json": "graph.json", "members": "memberships.csv",
+    "png": "graph.png", "svg": "graph.svg",
+}
+
+
+def _numbers(text, cast, option):
+    """'10' -> 10 and '10,12' -> [10, 12] (one value per lens)."""
+    parts = [p.strip() for p in str(text).split(",") if p.strip()]
+    try:
+        values = [cast(p) for p in parts]
+    except ValueError:
+        raise ParameterError(
+            f"The {option} option must be a number or comma-separated numbers, one per lens; "
+            f"got {text!r}."
+        ) from None
+    if not values:
+        raise ParameterError(f"The {option} option is empty; give a number such as {option} 10.")
+    return values[0] if len(values) == 1 else values
+
+
+def _cutoff(text):
+    word = str(text).strip().lower()
+    if word in ("auto", "fence", "none"):
+        return word
+    try:
+        return float(word)
+    except ValueError:
+        raise ParameterError(
+            f"The --cutoff option must be 'auto', 'fence', 'none' or a non-negative number; "
+            f"got {text!r}."
+        ) from None
+
+
+def _names(text):
+    if text is None:
+        return None
+    if text.strip().lower() == "all":
+        return "all"
+    return [x.strip() for x in text.split(",") if x.strip()]
+
+
+@click.command("graph")
+@input_options
+@click.option("-l", "--lens", "lens_specs", multiple=True, metavar="SPEC",
+              help="A lens as name or name:key=value,... (repeatable; `lenswork lenses` lists "
+              "them). Two or more lens columns give a product cover.")
+@click.option("--lens-file", type=click.Path(dir_okay=False), default=None,
+              help="Lens columns written by `lenswork compute` or `lenswork screen` (CSV, TSV or "
+              "Parquet with its .json sidecar), matched to TABLE by row id.")
+@click.option("--use", "use", default=None, metavar="COLS",
+              help="Columns to take from --lens-file, comma-separated (default: all of them).")
+@click.option("--intervals", default="10", show_default=True, metavar="N[,N...]",
+              help="Intervals per lens: one value, or one per lens column.")
+@click.option("--overlap", default="0.3", show_default=True, metavar="P[,P...]",
+              help="Overlap fraction in [0, 1): one value, or one per lens column.")
+@click.option("--cover-scale", type=click.Choice(COVER_SCALES), default="rank",
+              show_default=True,
+              help="Lay the intervals on ranks (equal counts) or on raw lens values.")
+@click.option("--clusterer", type=click.Choice(CLUSTERERS), default="graph", show_default=True,
+              help="graph: components of the shared k-NN graph in each element; single: "
+              "single linkage cut at the first histogram gap (small data).")
+@click.option("--cutoff", default="auto", show_default=True, metavar="auto|fence|none|FLOAT",
+              help="Longest k-NN edge kept; auto cuts only at a gap in the distance tail.")
+@click.option("--min-size", default=10, show_default=True, type=int,
+              help="Groups with fewer rows are fragments.")
+@click.option("--fragments", type=click.Choice(FRAGMENT_RULES), default="attach",
+              show_default=True,
+              help="attach: join the nearest kept cluster within two k-NN hops and the "
+              "cut-off; report: leave them out (rows in no node are listed).")
+@click.option("-k", "k", default=15, show_default=True, type=int,
+              help="Neighbours of the shared k-NN graph.")
+@click.option("--stats", "stat_columns", default=None, metavar="COLS|all",
+              help="Data columns whose node mean, min and max go into the files.")
+@click.option("--color", default=None, metavar="COL",
+              help="Lens or --stats column that colours the nodes, or 'size' (default: the "
+              "first lens).")
+@click.option("--layout", type=click.Choice(LAYOUTS), default="auto", show_default=True,
+              help="auto: levels for one lens, lens coordinates for two, spring above.")
+@click.option("--neighbors", "neighbor_method",
+              type=click.Choice(["auto", "exact", "approximate"]), default="auto",
+              show_default=True, help="Neighbour-graph back end.")
+@click.option("-o", "--out", "out_dir", default="lenswork-graph", show_default=True,
+              type=click.Path(file_okay=False),
+              help="Output directory (created if missing; its graph files are replaced).")
+@click.option("--no-figure", is_flag=True, help="Skip the drawing (PNG and SVG).")
+def graph_command(cloud, seed, lens_specs, lens_file, use, intervals, overlap, cover_scale,
+                  clusterer, cutoff, min_size, fragments, k, stat_columns, color, layout,
+                  neighbor_method, out_dir, no_figure):
+    """Build a Mapper graph of TABLE (or --demo) over lens columns and summarise it.
+
+    The lenses come from --lens (computed here on the shared neighbour graph) or
+    --lens-file (for example the selection of `lenswork screen`), or both. The
+    cover lays --intervals intervals with --overlap over each lens; each cover
+    element is clustered on the shared k-NN graph; nodes that share rows are
+    joined. Prints the summary (components, loops b1 = E - V + C, branch points,
+    flares, rows in no node) and writes to OUT: graph.graphml, graph.json,
+    memberships.csv (row id -> node) and graph.png / graph.svg. Everything is
+    computed before the first file is written.
+    """
+    from ..graph import build_graph, read_lens_file
+    from ..lenses import compute_lenses
+    from ..table import LensTable
+    from ..workspace import Workspace
+
+    if not lens_specs and not lens_file:
+        raise click.UsageError("Give at least one --lens or a --lens-file.")
+    if use and not lens_file:
+        raise click.UsageError("--use picks columns of a --lens-file; give the --lens-file too.")
+    out = Path(out_dir)
+    if out.exists() and not out.is_dir():
+        raise ParameterError(f"Output directory {str(out)!r} is a file; give a directory path.")
+    ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
+    columns = []
+    if lens_file:
+        columns += list(read_lens_file(lens_file, cloud, columns=_names(use)))
+    if lens_specs:
+        columns += list(compute_lenses(ws, list(lens_specs)))
+    table = LensTable(columns, cloud, random_state=seed)
+    graph = build_graph(
+        table, ws, intervals=_numbers(intervals, int, "--intervals"),
+        overlap=_numbers(overlap, float, "--overlap"), scale=cover_scale, clusterer=clusterer,
+        cutoff=_cutoff(cutoff), min_size=min_size, k=k, columns=_names(stat_columns),
+        fragments=fragments,
+    )
+    if color is not None:
+        graph.node_values(color)  # a wrong name fails here, before any file is written
+    figures = {}
+    if not no_figure:  # drawn before any file is written, so a failure leaves no partial output
+        from ..plot._graph import draw_graph
+
+        figures = {key: draw_graph(graph, color=color, layout=layout, random_state=seed)
+                   for key in ("png", "svg")}
+    click.echo(graph.summary().text())
+    written = [
+        graph.write_graphml(out / OUTPUTS["graphml"]),
+        graph.write_json(out / OUTPUTS["json"]),
+        graph.write_memberships(out / OUTPUTS["members"]),
+    ]
+    if figures:
+        from ..plot._style import save
+
+        written += [save(fig, out / OUTPUTS[key]) for key, fig in figures.items()]
+    click.echo(f"wrote {', '.join(str(p) for p in written)}")
+
+
+COMMANDS = [graph_command]
