@@ -189,7 +189,8 @@ def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", c
     metric : {"euclidean", "manhattan", "chebyshev", "cosine"}, default="euclidean"
     fragments : {"attach", "report"}, default="attach"
         Attach each fragment to the nearest kept cluster of its element within
-        two neighbour hops and the cut-off, or leave it out and report it.
+        two neighbour hops and the cut-off (in rounds, so chains of fragments
+        follow), or leave it out and report it.
     gap_bins : int, default=10
         Histogram bins of the single-linkage gap rule.
     random_state : int, optional
@@ -244,6 +245,8 @@ def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", c
     k = check_int("k", k, lo=1, context="build_graph")
     clusterer = check_clusterer(clusterer)
     fragments = check_choice("fragments", fragments, FRAGMENT_RULES, context="build_graph")
+    min_size = check_int("min_size", min_size, lo=1, context="build_graph")
+    gap_bins = check_int("gap_bins", gap_bins, lo=2, context="build_graph")
     names, values, lens_prov = _lens_columns(lenses, n)
     data = _data_columns(ws.cloud, columns, names)
     with _progress.step(f"graph: cover of {', '.join(names)}"):
@@ -299,10 +302,13 @@ def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", c
     )
     lost = graph.unassigned.size
     if lost:
+        advice = "a larger k (thin slices stay connected), a smaller min_size"
+        if np.isfinite(used):
+            advice += " or a larger cutoff"
         ws.warn(
             f"{lost:,} of {n:,} rows are in no node (fragments smaller than min_size={min_size} "
-            f"with no kept cluster near them); they are listed in LensGraph.unassigned. Use a "
-            f"smaller min_size or a larger cutoff to keep them."
+            f"with no kept cluster near them); they are listed in LensGraph.unassigned. Use "
+            f"{advice} to keep them."
         )
     return graph
 

@@ -54,7 +54,7 @@ class GraphEdge:
 
 
 def _plain(value):
-    """Plain JSON types (tuples to lists, numpy scalars to Python)."""
+    """Plain JSON types: tuples to lists, numpy scalars to Python, NaN and inf to None."""
     if isinstance(value, dict):
         return {str(k): _plain(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
@@ -62,7 +62,9 @@ def _plain(value):
     if isinstance(value, np.ndarray):
         return _plain(value.tolist())
     if isinstance(value, np.generic):
-        return value.item()
+        value = value.item()
+    if isinstance(value, float) and not np.isfinite(value):
+        return None
     return value
 
 

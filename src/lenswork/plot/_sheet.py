@@ -66,7 +66,7 @@ def _palette_png(path):
 
     with Image.open(path) as im:
         small = im.convert("RGB").quantize(
-            colors=256, method=Image.Quantize.MEDIANCUT, dither=Image.Dither.NONE
+            colors=256, method=Image.Quantize.FASTOCTREE, dither=Image.Dither.NONE
         )
     info = PngImagePlugin.PngInfo()
     info.add_text("Software", "lenswork")
