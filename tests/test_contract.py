@@ -7,10 +7,14 @@
    unknown parameter name.
 2. Every public name in ``lenswork.__all__`` has a docstring with an Examples
    section.
+3. ``import lenswork`` does not import matplotlib; ``lenswork.plot`` gives its
+   drawing functions on first use.
 """
 
 import inspect
 import json
+import subprocess
+import sys
 
 import numpy as np
 import pytest
@@ -178,3 +182,24 @@ def test_public_name_has_a_docstring_with_examples(name):
     assert "Examples\n--------" in inspect.cleandoc(doc), (
         f"lenswork.{name} has no numpydoc 'Examples' section"
     )
+
+
+# ---------------------------------------------------------------- lazy plotting
+def test_import_lenswork_leaves_matplotlib_out():
+    code = ("import sys, lenswork, lenswork.plot; "
+            "print(sorted(m for m in sys.modules if m.split('.')[0] == 'matplotlib'))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "[]"
+
+
+def test_plot_names_resolve_to_their_modules():
+    import lenswork.plot as plot
+
+    assert plot.__all__ == sorted(plot.__all__)
+    for name in plot.__all__:
+        fn = getattr(plot, name)
+        module = sys.modules[fn.__module__]
+        assert getattr(module, name) is fn and fn.__module__.startswith("lenswork.plot._")
+        assert fn.__doc__ and fn.__doc__.strip(), f"lenswork.plot.{name} has no docstring"
+    with pytest.raises(AttributeError, match="has no attribute 'nothing'"):
+        plot.nothing  # noqa: B018

@@ -183,10 +183,14 @@ def test_bad_parameters(kwargs, match):
 
 def test_bad_values():
     v = np.array([[0.0], [1.0], [np.nan], [2.0]])
-    with pytest.raises(InputError, match="missing or infinite value at row 3"):
+    with pytest.raises(InputError, match=r"non-finite value \(nan\) in row 3, column 1;"):
         Cover().fit(v)
-    with pytest.raises(InputError, match="at least one row and one lens"):
+    with pytest.raises(InputError, match=r"non-finite value \(nan\) in row 3, column 1 \('h'\)"):
+        Cover().fit(v, names=["h"])
+    with pytest.raises(InputError, match=r"is empty \(shape \(0, 1\)\); expected at least one row"):
         Cover().fit(np.empty((0, 1)))
+    with pytest.raises(InputError, match="must be numeric"):
+        Cover().fit(["a", "b"])
 
 
 def test_strings_from_the_cli_are_accepted():

@@ -279,7 +279,8 @@ def test_from_array_keeps_working_and_checks_values():
     cloud = PointCloud.from_array(np.eye(3), ids=["a", "b", "c"])
     assert cloud.X.shape == (3, 3) and cloud.ids.tolist() == ["a", "b", "c"]
     assert PointCloud.from_array(np.arange(4.0)).X.shape == (4, 1)
-    with pytest.raises(InputError, match=r"Column 'x1' of the array holds NaN at row 2"):
+    with pytest.raises(InputError, match=r"The array has a non-finite value \(nan\) in row 2, "
+                                         r"column 2 \('x1'\)"):
         PointCloud.from_array(np.array([[1.0, 2.0], [3.0, np.nan]]))
     with pytest.raises(InputError, match="3 dimensions"):
         PointCloud.from_array(np.zeros((2, 2, 2)))

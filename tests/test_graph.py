@@ -192,6 +192,11 @@ def test_lens_inputs_agree():
     two = build_graph({"p": X[:, 0], "q": X[:, 1]}, ws, intervals=4)
     assert two.lens_columns == ("p", "q") and two.node_elements.shape[1] == 2
     assert build_graph(X, ws, intervals=4).lens_columns == ("lens_1", "lens_2")
+    # a registry spec is computed on the workspace: the column lens of x0 is X[:, 0] itself
+    spec = build_graph("column:name=x0", ws, intervals=4)
+    same = build_graph({"x0": X[:, 0]}, ws, intervals=4)
+    assert spec.lens_columns == ("column_x0",)
+    assert np.array_equal(spec.membership.indices, same.membership.indices)
 
 
 def test_bad_inputs():

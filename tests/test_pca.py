@@ -127,8 +127,8 @@ def test_basis_and_scores_are_shared_through_the_workspace():
     rng = np.random.default_rng(12)
     ws = Workspace(_anisotropic(rng, 250, [3.0, 2.0, 1.0, 0.5]))
     table = compute_lenses(ws, [("pca", {"components": 3})])
-    # Non-default parameters are tagged in the column name (registry convention).
-    names = [f"pca_{j}[components=3]" for j in (1, 2, 3)]
+    # `components` is not tagged: pca_j does not depend on how many coordinates are asked for.
+    names = [f"pca_{j}" for j in (1, 2, 3)]
     assert table.names == names
     scores = _pca_scores(ws, 3)
     assert scores is _pca_scores(ws, 3)  # cached, not recomputed

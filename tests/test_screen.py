@@ -439,12 +439,14 @@ def test_demo_screen_separates_loop_and_flares(demo_cloud):
 
     chosen = predict(result.selected)
     assert len(result.selected) == 2
-    assert balanced(chosen) >= 0.8
+    assert balanced(chosen) >= 0.9
     for flare in ("bearing_wear", "clogging"):  # each flare found on its own
-        assert np.mean(chosen[y == flare] == flare) >= 0.7
+        assert np.mean(chosen[y == flare] == flare) >= 0.8
     alone = [balanced(predict([c])) for c in result.selected]
-    assert balanced(chosen) >= max(alone) + 0.15  # together, not one of them alone
+    assert balanced(chosen) >= max(alone) + 0.03  # the second lens adds to the first
     pairs = [balanced(predict(list(p))) for p in itertools.combinations(result.names, 2)]
-    assert balanced(chosen) > np.median(pairs)  # better than two candidates at random
+    assert balanced(chosen) > np.quantile(pairs, 0.75)  # in the top quarter of all pairs
+    # the loop: the structure probe finds one stable loop in a chosen lens's graphs
+    assert any(result.probe[c]["loops"] == 1 for c in result.selected)
     sub = np.abs(result.correlation[np.ix_(result.selection.indices, result.selection.indices)])
     assert sub[0, 1] <= result.ceiling

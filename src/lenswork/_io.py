@@ -23,6 +23,10 @@ def atomic_path(path):
     os.close(fd)
     try:
         yield Path(tmp)
+        # mkstemp creates 0600 files; give the result the permissions a plain open() would
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
         os.replace(tmp, path)
     except BaseException:
         with contextlib.suppress(FileNotFoundError):

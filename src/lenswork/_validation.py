@@ -1,10 +1,14 @@
-"""Small parameter checks shared by every module (one message shape).
+"""Small parameter and data checks shared by every module (one message shape).
 
-Each checker takes the parameter's name, the value and a context string
-(the lens or function it belongs to), and returns the cleaned value or raises
-:class:`~lenswork.ParameterError` with the message
+Each parameter checker takes the parameter's name, the value and a context
+string (the lens or function it belongs to), and returns the cleaned value or
+raises :class:`~lenswork.ParameterError` with the message
 ``"The 'k' parameter of density must be an int in [1, inf). Got 0 instead."``.
 Checkers accept strings as well, so the CLI can pass ``key=value`` text through.
+
+:func:`check_array` turns the data a function is given into a finite float64
+(n, d) array, or raises :class:`~lenswork.InputError` naming the first bad row
+and column (1-based) and saying what to do.
 """
 
 from __future__ import annotations
@@ -14,7 +18,7 @@ import numbers
 
 import numpy as np
 
-from ._errors import ParameterError
+from ._errors import InputError, ParameterError
 
 __all__: list[str] = []
 
@@ -136,3 +140,126 @@ def check_float_or_choice(name, value, choices, *, lo=None, lo_open=True, contex
             f"a float in {interval} or a str among {{" + ", ".join(repr(c) for c in choices) + "}",
             value,
         )
+
+
+# ---------------------------------------------------------------- arrays
+_ADVICE = "Remove or impute such rows first (lenswork.load_table can report and skip them)."
+
+
+def _subject(context, label):
+    text = label or f"the data given to {context}"
+    return text[:1].upper() + text[1:]
+
+
+def check_array(X, context, *, min_rows=1, names=None, label=None, allow_bool=True,
+                finite=True, advice=None):
+    """Return ``X`` as a C-contiguous, finite float64 array of shape (n, d).
+
+    A 1-D array is read as one column (as :meth:`PointCloud.from_array` does).
+    No copy is made when ``X`` already is such an array.
+
+    Parameters
+    ----------
+    X : array-like of shape (n_samples, n_features) or (n_samples,)
+    context : str
+        The function the data is given to, for messages (``"pca_coordinates"``).
+    min_rows : int, default=1
+        Fewer rows raise InputError.
+    names : sequence of str, optional
+        Column names, quoted beside the column number in messages.
+    label : str, optional
+        What the data is called in messages (default ``"the data given to
+        <context>"``).
+    allow_bool : bool, default=True
+        Read booleans as 0/1; ``False`` rejects them like complex numbers and dates.
+    finite : bool, default=True
+        Check that every value is finite (see :func:`check_finite`).
+    advice : str, optional
+        What to do about a non-finite value (replaces the default advice).
+
+    Returns
+    -------
+    ndarray of shape (n_samples, n_features), float64
+
+    Raises
+    ------
+    InputError
+        Values that are not real numbers, other than 1 or 2 dimensions, no
+        column, fewer than ``min_rows`` rows, or a non-finite value (the first
+        one is named by row and column, 1-based).
+
+    Examples
+    --------
+    >>> check_array([1.0, 2.0, 3.0], "f").shape
+    (3, 1)
+    >>> try:
+    ...     check_array([[1.0, 2.0], [3.0, float("nan")]], "f")
+    ... except InputError as err:
+    ...     print(str(err).split(";")[0])
+    The data given to f has a non-finite value (nan) in row 2, column 2
+    """
+    subject = _subject(context, label)
+    arr = np.asarray(X)
+    rejected = "cmMV" if allow_bool else "bcmMV"
+    if arr.dtype.kind in rejected:
+        raise InputError(
+            f"{subject} holds {arr.dtype} values; expected real numbers. Convert them to floats "
+            f"first."
+        )
+    try:
+        arr = np.asarray(arr, dtype=np.float64)
+    except (TypeError, ValueError, OverflowError) as err:
+        raise InputError(
+            f"{subject} must be numeric (an array of shape (n_samples, n_features)); it could "
+            f"not be read as numbers ({err}). Select the numeric columns first."
+        ) from None
+    if arr.ndim == 1:
+        arr = arr[:, None]
+    if arr.ndim != 2:
+        raise InputError(
+            f"{subject} must be a 2-D array of shape (n_samples, n_features); got {arr.ndim} "
+            f"dimensions (shape {arr.shape}). Reshape it first."
+        )
+    n, d = arr.shape
+    if n == 0 or d == 0:
+        raise InputError(
+            f"{subject} is empty (shape {arr.shape}); expected at least one row and one column."
+        )
+    if n < min_rows:
+        raise InputError(
+            f"{subject} has {n} row{'s' if n != 1 else ''}; {context} needs at least {min_rows} "
+            f"rows. Use more rows."
+        )
+    if finite:
+        check_finite(arr, context, names=names, label=label, advice=advice)
+    return np.ascontiguousarray(arr)
+
+
+def check_finite(X, context, *, names=None, label=None, advice=None):
+    """Raise InputError naming the first non-finite entry (row, column, 1-based) of 2-D ``X``.
+
+    Parameters are those of :func:`check_array`. Cost: one pass over ``X`` when
+    it is finite (a finite sum proves every entry finite), a mask otherwise.
+
+    Examples
+    --------
+    >>> try:
+    ...     check_finite(np.array([[1.0, np.inf]]), "f", names=["a", "b"], label="the table")
+    ... except InputError as err:
+    ...     print(str(err).split(";")[0])
+    The table has a non-finite value (inf) in row 1, column 2 ('b')
+    """
+    # An overflowing sum of finite values falls through to the exact check.
+    with np.errstate(over="ignore", invalid="ignore"):
+        total = X.sum()
+    if np.isfinite(total):
+        return
+    bad = ~np.isfinite(X)
+    if not bad.any():
+        return
+    row, col = (int(i) for i in np.argwhere(bad)[0])
+    name = f" ({names[col]!r})" if names is not None and col < len(names) else ""
+    raise InputError(
+        f"{_subject(context, label)} has a non-finite value ({float(X[row, col])!r}) in row "
+        f"{row + 1}, column {col + 1}{name}; expected finite values. {advice or _ADVICE}"
+    )

@@ -81,7 +81,6 @@ from ._validation import check_choice, check_float, check_int, check_random_stat
 from .data import PointCloud
 from .probe import (
     FEATURES,
-    _as_columns,
     _build,
     _build_counts,
     _graph_defaults,
@@ -90,6 +89,7 @@ from .probe import (
     _workspace,
     feature_counts,
 )
+from .table import as_lens_table
 from .workspace import Workspace
 
 __all__ = ["BootstrapResult", "CoverSuggestion", "bootstrap_graph", "suggest_cover"]
@@ -257,7 +257,7 @@ def suggest_cover(lenses, workspace, *, gain=0.4, batches=30, beta=0.1, scale="r
     max_intervals = check_int("max_intervals", max_intervals, lo=1, context="suggest_cover")
     scale = check_choice("scale", scale, ("rank", "raw"), context="suggest_cover")
     workspace = _workspace(workspace)
-    cols = _as_columns(lenses, workspace)
+    cols = as_lens_table(lenses, workspace, what="suggest_cover").columns
     n = workspace.n
     if n < 10:
         raise InputError(f"suggest_cover needs at least 10 rows; the data has {n}. Use more rows.")
@@ -532,7 +532,7 @@ def bootstrap_graph(lenses, workspace, *, resamples=100, scheme="subsample", fra
     k = check_int("k", k, lo=1, context="bootstrap_graph")
     settings = _settings(dict(settings, k=k), "bootstrap_graph")
     workspace = _workspace(workspace)
-    cols = _as_columns(lenses, workspace)
+    cols = as_lens_table(lenses, workspace, what="bootstrap_graph").columns
     d_iv, d_ov = _graph_defaults()
     suggestion = None
     if suggest:

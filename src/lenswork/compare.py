@@ -719,12 +719,12 @@ def compare_views(views, workspace=None, *, partition="component", match=0.5, **
                     f"to build it: compare_views(views, workspace)."
                 )
             from .graph import build_graph
-            from .probe import _as_columns
+            from .table import as_lens_table
 
             lens, settings = view, {}
             if isinstance(view, tuple) and len(view) == 2 and isinstance(view[1], dict):
                 lens, settings = view
-            cols = _as_columns(lens, workspace)
+            cols = as_lens_table(lens, workspace, what="compare_views").columns
             if _bare_array(lens):  # name its columns after the view
                 cols = [replace(c, name=str(name) if len(cols) == 1 else f"{name}_{j + 1}")
                         for j, c in enumerate(cols)]
@@ -739,7 +739,7 @@ def compare_views(views, workspace=None, *, partition="component", match=0.5, **
 
 def _bare_array(lens):
     """True for lens values given as numbers (not columns, tables or registry specs)."""
-    if isinstance(lens, (str, LensColumn, LensTable)) or hasattr(lens, "to_lens_table"):
+    if isinstance(lens, (str, dict, LensColumn, LensTable)) or hasattr(lens, "to_lens_table"):
         return False
     if isinstance(lens, (list, tuple)):
         return not any(isinstance(c, (str, LensColumn)) for c in lens)

@@ -36,7 +36,7 @@ from pathlib import Path
 import numpy as np
 
 from ._errors import InputError, LensworkWarning, ParameterError
-from ._validation import check_choice, check_int
+from ._validation import check_array, check_choice, check_finite, check_int
 
 __all__ = ["ExcludedRow", "PointCloud", "load_table"]
 
@@ -163,8 +163,8 @@ class PointCloud:
         for non-numeric, non-finite or overflow-prone values and for arrays of
         other shapes; :func:`load_table` is the way to report and skip bad rows.
         """
-        label = "the array"
-        X = _to_float_matrix(X, label)
+        label, context = "the array", "PointCloud.from_array"
+        X = check_array(X, context, label=label, allow_bool=False, finite=False)
         n, d = X.shape
         if feature_names is None:
             feature_names = tuple(f"x{j}" for j in range(d))
@@ -175,15 +175,11 @@ class PointCloud:
                 f"give one name per column."
             )
         rows = np.arange(1, n + 1)
-        bad = ~np.isfinite(X)
-        if bad.any():
-            i, k = np.argwhere(bad)[0]
-            raise _input_error(
-                f"Column {feature_names[k]!r} of {label} holds {_describe_bad(X[i, k], False)} "
-                f"at row {i + 1}; features must be finite numbers. Fix or remove such rows, or "
-                f"load them with lenswork.load_table(..., invalid='exclude') to report them and "
-                f"keep them out."
-            )
+        check_finite(
+            X, context, names=feature_names, label=label,
+            advice="Fix or remove such rows, or load them with lenswork.load_table(..., "
+            "invalid='exclude') to report them and keep them out.",
+        )
         _check_magnitude(X, feature_names, rows, label, None)
         if ids is None:
             ids = np.arange(1, n + 1)
@@ -1072,31 +1068,6 @@ def _digest_columns(names, columns):
 
 
 # ---------------------------------------------------------------- shared checks
-def _to_float_matrix(X, label):
-    X = np.asarray(X)
-    if X.dtype.kind in "cmMV" or X.dtype.kind == "b":
-        raise _input_error(
-            f"{label} holds {X.dtype} values; expected real numbers. Convert it to floats first."
-        )
-    try:
-        X = np.asarray(X, dtype=np.float64)
-    except (TypeError, ValueError) as err:
-        raise _input_error(
-            f"{label} could not be read as numbers ({err}); expected a numeric array of shape "
-            f"(n_samples, n_features). Select the numeric columns, or use lenswork.load_table."
-        ) from None
-    if X.ndim == 1:
-        X = X[:, None]
-    if X.ndim != 2:
-        raise _input_error(
-            f"{label} has {X.ndim} dimensions (shape {X.shape}); expected a 2-D array of shape "
-            f"(n_samples, n_features). Reshape it first."
-        )
-    if X.shape[0] == 0 or X.shape[1] == 0:
-        raise _input_error(f"{label} is empty (shape {X.shape}); expected rows and columns.")
-    return np.ascontiguousarray(X)
-
-
 def _overflow_limit(d):
     """Largest |x| for which 4 d x^2 (the largest squared distance) stays finite."""
     return math.sqrt(_FLOAT_MAX / (4.0 * d))

@@ -89,10 +89,10 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import _progress
-from ._errors import InputError, LensworkWarning, ParameterError
+from ._errors import LensworkWarning, ParameterError
 from ._io import write_text
 from ._validation import check_float, check_int
-from .table import LensColumn, LensTable
+from .table import as_lens_table
 
 __all__ = [
     "FEATURES",
@@ -121,67 +121,6 @@ GRAPH_SETTINGS = ("scale", "clusterer", "cutoff", "min_size", "k")
 
 
 # --------------------------------------------------------------------------- lens input
-def _as_columns(lenses, workspace, *, what="lens", finite=True):
-    """A list of LensColumn, one per lens column, each with one value per workspace row.
-
-    Accepted: a LensTable; a LensColumn or a list of them; an object with
-    ``to_lens_table()``; a 1-D or 2-D array with one row per data row; a
-    registry spec string (``"pca"``, ``"dtm:mass=0.05"``) or a list of them,
-    computed on the workspace.
-    """
-    n = workspace.n
-    if hasattr(lenses, "to_lens_table") and not isinstance(lenses, LensTable):
-        lenses = lenses.to_lens_table()
-    if isinstance(lenses, LensTable):
-        cols = list(lenses.columns)
-    elif isinstance(lenses, LensColumn):
-        cols = [lenses]
-    elif isinstance(lenses, str) or (
-        isinstance(lenses, (list, tuple)) and lenses
-        and all(isinstance(c, (LensColumn, str)) for c in lenses)
-    ):
-        from .lenses import compute_lenses
-
-        cols = []
-        for c in [lenses] if isinstance(lenses, str) else lenses:
-            cols.extend([c] if isinstance(c, LensColumn)
-                        else compute_lenses(workspace, [c]).columns)
-    else:
-        try:
-            arr = np.asarray(lenses, dtype=np.float64)
-        except (TypeError, ValueError):
-            raise ParameterError(
-                f"Cannot read the {what} (a {type(lenses).__name__}): expected a LensTable, "
-                f"LensColumn(s), a registry spec such as 'pca' or an array with one row per "
-                f"data row."
-            ) from None
-        if arr.ndim == 1:
-            arr = arr[:, None]
-        if arr.ndim != 2 or arr.shape[1] == 0:
-            raise InputError(
-                f"The {what} array must be 1-D or 2-D with one row per data row; got shape "
-                f"{arr.shape}. Pass an array of shape (n_samples,) or (n_samples, n_lenses)."
-            )
-        names = ["lens"] if arr.shape[1] == 1 else [f"lens_{j + 1}" for j in range(arr.shape[1])]
-        cols = [LensColumn(nm, arr[:, j].copy()) for j, nm in enumerate(names)]
-    if not cols:
-        raise ParameterError(f"No {what} column given; pass at least one lens column.")
-    for c in cols:
-        v = np.asarray(c.values)
-        if v.shape != (n,):
-            raise InputError(
-                f"Lens column {c.name!r} has {v.shape[0] if v.ndim else 0} values but the data "
-                f"has {n} rows; expected one lens value per row of the workspace."
-            )
-        if finite and not np.isfinite(v).all():
-            row = int(np.flatnonzero(~np.isfinite(v))[0])
-            raise InputError(
-                f"Lens column {c.name!r} has a non-finite value in row {row + 1}; expected finite "
-                f"lens values. Recompute the lens or drop that row."
-            )
-    return cols
-
-
 def _label(cols):
     """A short label for a list of columns: their names joined by ' x '."""
     return " \u00d7 ".join(c.name for c in cols)
@@ -562,13 +501,7 @@ def structure_scores(lenses, workspace, *, intervals=PROBE_INTERVALS, overlaps=P
     floor = check_float("floor", floor, lo=0, hi=1, hi_open=True, context="structure_scores")
     settings = _settings(dict(settings, k=k), "structure_scores")
     workspace = _workspace(workspace)
-    cols = _as_columns(lenses, workspace, finite=False)
-    names = [c.name for c in cols]
-    dupes = sorted({x for x in names if names.count(x) > 1})
-    if dupes:
-        raise ParameterError(
-            f"Lens column {dupes[0]!r} appears twice; give each lens column its own name."
-        )
+    cols = as_lens_table(lenses, workspace, what="structure_scores", finite=False).columns
     good = [c for c in cols if np.isfinite(np.asarray(c.values)).all()]
     data_c = _data_components(workspace, good or cols, settings) if good else 0
     scores, counts = {}, {}
@@ -776,7 +709,7 @@ def stability_map(lens, workspace, *, intervals=MAP_INTERVALS, overlaps=MAP_OVER
     k = check_int("k", k, lo=1, context="stability_map")
     settings = _settings(dict(settings, k=k), "stability_map")
     workspace = _workspace(workspace)
-    cols = _as_columns(lens, workspace)
+    cols = as_lens_table(lens, workspace, what="stability_map").columns
     data_c = _data_components(workspace, cols, settings)
     label = _label(cols)
     counts = _grid_counts(cols, workspace, intervals, overlaps, settings, data_c, label)

@@ -934,6 +934,7 @@ class ScreenResult:
         )
         self.selected = [self.names[j] for j in self.selection.indices]
         self._embedding = None
+        self.probe = None  # a StructureProbe when the screen ran one
 
     # ---------------------------------------------------------------- API
     def to_lens_table(self):
@@ -996,6 +997,7 @@ class ScreenResult:
             status=self.status,
         )
         out._embedding = self._embedding
+        out.probe = self.probe
         return out
 
     @property
@@ -1063,6 +1065,10 @@ class ScreenResult:
             }
             for name, vals in self.scores.items():
                 row[name] = float(vals[j])
+            if self.probe is not None:
+                found = self.probe.get(col.name, {})
+                for key in PROBE_COUNTS:
+                    row[key] = found.get(key)
             row["partner"] = partners[j][0]
             row["partner_rho"] = partners[j][1]
             row["nearest_selected"] = nearest[j][0]
@@ -1141,19 +1147,26 @@ class ScreenResult:
         """The ranking as an aligned text table for the terminal."""
         rows = self.rows()[:max_rows]
         refs = self.reference_names[:3]
-        header = ["rank", "lens column", "spread", "merit", "gain", "partner (rho)",
-                  *[f"rho[{r}]" for r in refs], "status"]
+        probed = self.probe is not None
+        header = ["rank", "lens column", "spread", *(["structure", "L/F/B"] if probed else []),
+                  "merit", "gain", "partner (rho)", *[f"rho[{r}]" for r in refs], "status"]
         body = []
         for r in rows:
             partner = "-" if r["partner"] is None else f"{r['partner']} ({r['partner_rho']:+.2f})"
+            extra = []
+            if probed:
+                counts = [r.get(key) for key in PROBE_COUNTS]
+                extra = [_num(r["structure"]),
+                         "-" if counts[0] is None else "/".join(str(c) for c in counts)]
             body.append([
-                str(r["rank"]), r["column"], _num(r["spread"]), _num(r["merit"]),
+                str(r["rank"]), r["column"], _num(r["spread"]), *extra, _num(r["merit"]),
                 _num(r["gain"]), partner, *[_num(r[f"rho[{x}]"], signed=True) for x in refs],
                 r["reason"],
             ])
         widths = [max(len(h), *(len(b[i]) for b in body)) if body else len(h)
                   for i, h in enumerate(header)]
-        right = {0, 2, 3, 4, *range(6, 6 + len(refs))}
+        shift = 2 if probed else 0
+        right = {0, 2, 3, 4, *range(2, 5 + shift), *range(6 + shift, 6 + shift + len(refs))}
 
         def line(cells):
             out = [c.rjust(w) if i in right else c.ljust(w)
@@ -1318,7 +1331,7 @@ def _score_columns(table, bins):
 
 
 def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), bins=20,
-           weights=None, random_state=None):
+           weights=None, probe=True, random_state=None):
     """Compute candidate lenses, rank them by spread and redundancy, select a few.
 
     Parameters
@@ -1346,7 +1359,15 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
     bins : int, default=20
         Histogram bins of the spread score.
     weights : dict of str -> float, optional
-        Score columns in the merit (default ``{"spread": 1.0}``).
+        Score columns in the merit (default ``{"spread": 1.0, "structure": 1.0}``
+        with the probe, ``{"spread": 1.0}`` without).
+    probe : bool, default=True
+        Run the structure probe (:func:`lenswork.probe.structure_scores`): build
+        each usable candidate's graph over a small grid of covers on the shared
+        neighbour graph and add the scores ``structure``, ``revealed`` and
+        ``stability`` to the table (and the feature counts ``loops``,
+        ``flares``, ``branch_points``). The default merit then weighs spread and
+        structure equally.
     random_state : int, optional
         Seed of the lenses (default: the workspace's, or 0).
 
@@ -1477,11 +1498,42 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
         )
     with _progress.step("selection"):
         result = ScreenResult(
-            table, scores, corr, usable=usable, weights=weights, count=count, ceiling=ceiling,
-            bins=bins, reference_names=list(refs), reference_correlation=ref_corr,
-            skipped=skipped, status=status,
+            table, scores, corr, usable=usable,
+            weights=weights if weights is None or not probe else {"spread": 1.0},
+            count=count, ceiling=ceiling, bins=bins, reference_names=list(refs),
+            reference_correlation=ref_corr, skipped=skipped, status=status,
         )
+    if probe and usable.any():
+        if isinstance(data, LensTable):
+            ws = Workspace(table.cloud, random_state=table.random_state)
+        result = _with_structure(result, ws, weights)
     return result
+
+
+#: Probe scores added to the screen's table (all in [0, 1]) and the counts shown beside them.
+PROBE_SCORES = ("structure", "revealed", "stability")
+PROBE_COUNTS = ("loops", "flares", "branch_points")
+
+
+def _with_structure(result, ws, weights):
+    """Run the structure probe on the usable candidates and fold it into the merit."""
+    from .probe import structure_scores
+
+    names = [n for n, ok in zip(result.names, result.usable) if ok]
+    found = structure_scores(result.lenses.select(names), ws)  # reports its own progress
+    m = len(result.names)
+    scores = {}
+    for key in PROBE_SCORES:
+        col = np.full(m, np.nan)
+        for j, name in enumerate(result.names):
+            if name in found:
+                col[j] = found[name][key]
+        scores[key] = col
+    out = result.rescore(
+        scores=scores, weights=weights or {"spread": 1.0, "structure": 1.0}
+    )
+    out.probe = found
+    return out
 
 
 def _collect_references(cloud, references):

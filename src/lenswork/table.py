@@ -1,4 +1,11 @@
-"""Lens columns and the table that carries them to disk with their provenance."""
+"""Lens columns and the table that carries them to disk with their provenance.
+
+:meth:`LensTable.write` writes a table (CSV, Parquet or NPY plus a JSON
+sidecar) and :meth:`LensTable.read` reads a CSV or Parquet one back for the rows
+of a point cloud. :func:`as_lens_table` is the one reading of the ``lenses``
+argument that the graph builder, the structure probe, the bootstrap and the
+comparison of views accept.
+"""
 
 from __future__ import annotations
 
@@ -9,7 +16,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ._errors import ParameterError
+from ._errors import InputError, ParameterError
 from ._io import atomic_path, write_text
 from ._validation import check_choice
 from .normalize import NORMALIZATIONS, normalize
@@ -207,6 +214,257 @@ class LensTable:
         sidecar = path.with_name(path.name + ".json")
         write_text(sidecar, json.dumps(meta, indent=2, sort_keys=False) + "\n")
         return path, sidecar
+
+    @classmethod
+    def read(cls, path, cloud, *, columns=None):
+        """Read lens columns written by :meth:`write` for the rows of ``cloud``.
+
+        Parameters
+        ----------
+        path : str or Path
+            A CSV, TSV or Parquet lens file with its ``<path>.json`` sidecar; the
+            sidecar's ``file.lens_columns`` names the lens columns and
+            ``file.id_column`` the id column.
+        cloud : PointCloud
+            The rows the lenses are wanted for; every id of the cloud must be in
+            the file with a value in every chosen column.
+        columns : list of str, optional
+            Lens columns to read (default: every lens column of the sidecar).
+
+        Returns
+        -------
+        LensTable
+            Columns in the cloud's row order, with the lens, parameters and
+            normalisation recorded in the sidecar (a file of normalised values is
+            read as it is, with no normalisation to apply again).
+
+        Raises
+        ------
+        InputError
+            No sidecar, an NPY file (no row ids), an unknown column, an id of the
+            cloud missing from the file, or a missing value.
+
+        Notes
+        -----
+        Rows are matched by id (compared as text), so the file may hold its rows
+        in any order and rows the cloud does not use. Cost: one read of the file
+        (:func:`lenswork.load_table`) and O(n) dictionary look-ups.
+
+        Examples
+        --------
+        >>> import tempfile
+        >>> from lenswork import PointCloud
+        >>> cloud = PointCloud.from_array(np.arange(8.0).reshape(4, 2))
+        >>> table = LensTable([LensColumn("h", np.array([0.5, 1.5, 2.5, 3.5]))], cloud)
+        >>> with tempfile.TemporaryDirectory() as tmp:
+        ...     path, _ = table.write(Path(tmp) / "lenses.csv")
+        ...     back = LensTable.read(path, cloud)
+        >>> back.names, back["h"].values.tolist()
+        (['h'], [0.5, 1.5, 2.5, 3.5])
+        """
+        import warnings
+
+        from .data import load_table
+
+        path = Path(path)
+        meta, names, id_column = _read_sidecar(path)
+        wanted = names if columns is None else list(columns)
+        unknown = [c for c in wanted if c not in names]
+        if unknown:
+            raise InputError(
+                f"The lens file {str(path)!r} has no lens column {unknown[0]!r}. Its lens "
+                f"columns: {', '.join(names)}."
+            )
+        with warnings.catch_warnings():  # rows kept out of the lens file are checked below
+            warnings.simplefilter("ignore")
+            lens_cloud = load_table(path, features=wanted, id_column=id_column,
+                                    invalid="exclude", min_rows=1)
+        position = {str(_plain(i)): j for j, i in enumerate(lens_cloud.ids)}
+        blank = {str(_plain(r.id)): r.row for r in lens_cloud.excluded}
+        take = np.empty(cloud.n, dtype=np.int64)
+        for j, i in enumerate(cloud.ids):
+            key = str(_plain(i))
+            if key in position:
+                take[j] = position[key]
+            elif key in blank:
+                raise InputError(
+                    f"Row {blank[key]} of the lens file {str(path)!r} (id {key}) has a missing "
+                    f"lens value, but the table uses that row. Compute the lenses on the same rows."
+                )
+            else:
+                raise InputError(
+                    f"Id {key} of the table is not in the lens file {str(path)!r} (id column "
+                    f"{id_column!r}). Use the lens file written for this table."
+                )
+        provenance = {c.get("name"): c for c in meta.get("columns", []) if isinstance(c, dict)}
+        raw = meta["file"].get("values", "raw") == "raw"
+        out = []
+        for j, name in enumerate(wanted):
+            prov = provenance.get(name, {})
+            out.append(LensColumn(
+                name=name, values=lens_cloud.X[take, j].copy(), lens=prov.get("lens", "file"),
+                params=dict(prov.get("params") or {}),
+                info={**dict(prov.get("info") or {}), "source": str(path)},
+                normalization=prov.get("normalization") if raw else None,
+            ))
+        return cls(out, cloud, random_state=meta.get("random_state", 0))
+
+
+def _read_sidecar(path):
+    """(sidecar document, lens column names, id column) of the lens file ``path``."""
+    sidecar = path.with_name(path.name + ".json")
+    if not path.exists():
+        raise InputError(f"No lens file {str(path)!r}; check the path.")
+    try:
+        meta = json.loads(sidecar.read_text(encoding="utf-8"))
+        info = meta["file"]
+        names = list(info["lens_columns"])
+        id_column = info["id_column"]
+    except FileNotFoundError:
+        raise InputError(
+            f"The lens file {str(path)!r} has no sidecar {sidecar.name!r}; lens files are read "
+            f"with the sidecar that LensTable.write and the screen command write beside them."
+        ) from None
+    except (json.JSONDecodeError, KeyError, TypeError) as err:
+        raise InputError(
+            f"The sidecar {str(sidecar)!r} is damaged or not a lens-file sidecar ({err}); write "
+            f"the lens file again."
+        ) from None
+    if info.get("format") == "npy":
+        raise InputError(
+            f"{str(path)!r} is an NPY lens file, which holds no row ids to line up with the "
+            f"table; write the lens columns as CSV or Parquet."
+        )
+    return meta, names, id_column
+
+
+# ---------------------------------------------------------------------- lens input
+_ACCEPTED = (
+    "a LensTable, LensColumn(s), a registry spec such as 'pca' (or a list of them), a dict of "
+    "name -> values, an array of shape (n_samples,) or (n_samples, n_lenses), or an object "
+    "with to_lens_table()"
+)
+
+
+def _is_spec_list(lenses):
+    return isinstance(lenses, (list, tuple)) and bool(lenses) and all(
+        isinstance(c, (LensColumn, str)) for c in lenses
+    )
+
+
+def _array_columns(lenses, n, what):
+    """LensColumns ``lens``, ``lens_1``... of an array of lens values (one row per data row)."""
+    try:
+        arr = np.asarray(lenses, dtype=np.float64)
+    except (TypeError, ValueError, OverflowError):
+        raise ParameterError(
+            f"The 'lenses' argument of {what} must be {_ACCEPTED}. Got {type(lenses).__name__}."
+        ) from None
+    if arr.ndim == 1:
+        arr = arr[:, None]
+    if arr.ndim != 2 or arr.shape[1] == 0:
+        raise InputError(
+            f"Lens values given to {what} must have shape (n_samples,) or (n_samples, n_lenses); "
+            f"got shape {arr.shape}. Pass one row of lens values per data row."
+        )
+    if arr.shape[0] != n:
+        raise InputError(
+            f"The lenses have {arr.shape[0]:,} rows but the workspace has {n:,}; compute the "
+            f"lenses on the same data as the workspace."
+        )
+    m = arr.shape[1]
+    names = ["lens"] if m == 1 else [f"lens_{j + 1}" for j in range(m)]
+    return [LensColumn(nm, arr[:, j].copy(), lens="array") for j, nm in enumerate(names)]
+
+
+def as_lens_table(lenses, workspace, *, what="build_graph", finite=True):
+    """The ``lenses`` argument of a graph function as a LensTable over the workspace's rows.
+
+    Parameters
+    ----------
+    lenses : LensTable, LensColumn, list, dict, array-like, str or object
+        A LensTable; a LensColumn; an object with ``to_lens_table()`` (a
+        screening result); a dict of name -> values; a 1-D or 2-D array with
+        one row per data row (columns named ``lens`` or ``lens_1``, ``lens_2``...);
+        a registry spec (``"pca"``, ``"dtm:mass=0.05"``) or a list of specs
+        and LensColumns, the specs computed on the workspace.
+    workspace : Workspace
+        The rows (and the lenses computed for specs).
+    what : str, default="build_graph"
+        The function the lenses are given to, for messages.
+    finite : bool, default=True
+        Raise on a non-finite lens value (the structure probe gives such a
+        column NaN scores instead).
+
+    Returns
+    -------
+    LensTable
+        Over ``workspace.cloud``, with the random state of a given table (else
+        the workspace's).
+
+    Raises
+    ------
+    ParameterError
+        An input of none of the accepted kinds, no lens column, or a column name
+        that appears twice.
+    InputError
+        Lens values of the wrong shape, with another number of rows than the
+        workspace, or (with ``finite``) with a NaN or infinite value.
+
+    Examples
+    --------
+    >>> from lenswork import Workspace
+    >>> ws = Workspace(np.arange(10.0).reshape(5, 2))
+    >>> as_lens_table(ws.X, ws).names
+    ['lens_1', 'lens_2']
+    >>> as_lens_table({"h": ws.X[:, 0]}, ws)["h"].lens
+    'array'
+    """
+    n = workspace.n
+    random_state = workspace.random_state
+    if not isinstance(lenses, LensTable) and callable(getattr(lenses, "to_lens_table", None)):
+        lenses = lenses.to_lens_table()
+    if isinstance(lenses, LensTable):
+        cols, random_state = list(lenses.columns), lenses.random_state
+    elif isinstance(lenses, LensColumn):
+        cols = [lenses]
+    elif isinstance(lenses, dict):
+        cols = []
+        for key, values in lenses.items():
+            found = _array_columns(values, n, what)
+            if len(found) != 1:
+                raise InputError(
+                    f"Lens {str(key)!r} given to {what} has {len(found)} columns; a dict of "
+                    f"lenses holds one value per data row under each name."
+                )
+            cols.append(replace(found[0], name=str(key)))
+    elif isinstance(lenses, str) or _is_spec_list(lenses):
+        from .lenses import compute_lenses
+
+        cols = []
+        for c in [lenses] if isinstance(lenses, str) else lenses:
+            cols.extend([c] if isinstance(c, LensColumn)
+                        else compute_lenses(workspace, [c]).columns)
+    elif isinstance(lenses, (list, tuple)) and not lenses:
+        cols = []
+    else:
+        cols = _array_columns(lenses, n, what)
+    if not cols:
+        raise ParameterError(f"No lens column given to {what}; pass at least one lens column.")
+    for c in cols:
+        v = np.asarray(c.values)
+        if v.shape != (n,):
+            raise InputError(
+                f"Lens column {c.name!r} has {v.shape[0] if v.ndim else 0} values but the data "
+                f"has {n} rows; expected one lens value per row of the workspace."
+            )
+        if finite and not np.isfinite(v).all():
+            row = int(np.flatnonzero(~np.isfinite(v))[0])
+            raise InputError(
+                f"Lens column {c.name!r} has a non-finite value in row {row + 1}; expected finite "
+                f"lens values. Recompute the lens or drop that row."
+            )
+    return LensTable(cols, workspace.cloud, random_state=random_state)
 
 
 def _plain(v):

@@ -113,7 +113,7 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, intervals, overlap, c
     memberships.csv (row id -> node) and graph.png / graph.svg. Everything is
     computed before the first file is written.
     """
-    from ..graph import build_graph, read_lens_file
+    from ..graph import build_graph
     from ..lenses import compute_lenses
     from ..table import LensTable
     from ..workspace import Workspace
@@ -128,7 +128,7 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, intervals, overlap, c
     ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
     columns = []
     if lens_file:
-        columns += list(read_lens_file(lens_file, cloud, columns=_names(use)))
+        columns += list(LensTable.read(lens_file, cloud, columns=_names(use)))
     if lens_specs:
         columns += list(compute_lenses(ws, list(lens_specs)))
     table = LensTable(columns, cloud, random_state=seed)

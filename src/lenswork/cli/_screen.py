@@ -45,16 +45,21 @@ def _names(values):
               type=click.Choice(["auto", "exact", "approximate"]), default="auto",
               show_default=True, help="Neighbour-graph back end.")
 @click.option("--no-figures", is_flag=True, help="Skip the figure sheet (PNG and SVG).")
+@click.option("--no-probe", is_flag=True,
+              help="Rank by spread alone: skip the structure probe (graphs over a cover grid).")
 def screen_command(cloud, seed, out_dir, count, ceiling, refs, extra, no_defaults, bins,
-                   lens_format, neighbor_method, no_figures):
+                   lens_format, neighbor_method, no_figures, no_probe):
     """Rank candidate lenses for TABLE (or --demo) and keep a small non-redundant set.
 
     Computes the default candidate set (PCA and Laplacian coordinates, density at
     two bandwidths, eccentricity p = 1, 2, inf, distance to a measure at two
     masses, k-NN distance, geodesic eccentricity) plus any --lens, scores each by
     spread (histogram entropy over its range, less the largest tie), measures
-    redundancy by Spearman rank correlation, and greedily keeps up to --count
-    lenses, never two with |rho| above --ceiling.
+    redundancy by Spearman rank correlation, probes the graph structure each one
+    reveals (loops / flares / branch points over a small grid of covers, column
+    L/F/B, and how stable those counts are: the structure score), and greedily
+    keeps up to --count lenses by spread x structure, never two with |rho| above
+    --ceiling.
 
     Writes to OUT: ranking.csv and ranking.json (scores, correlations, the
     reason for every decision), lenses.<format> with the chosen columns and a
@@ -66,7 +71,7 @@ def screen_command(cloud, seed, out_dir, count, ceiling, refs, extra, no_default
     ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
     result = screen(
         ws, lenses=[] if no_defaults else None, extra=list(extra), count=count,
-        ceiling=ceiling, references=_names(refs), bins=bins,
+        ceiling=ceiling, references=_names(refs), bins=bins, probe=not no_probe,
     )
     click.echo(result.format_table())
     click.echo("")

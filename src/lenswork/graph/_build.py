@@ -5,9 +5,9 @@ from __future__ import annotations
 import numpy as np
 
 from .. import _progress
-from .._errors import InputError, ParameterError
+from .._errors import ParameterError
 from .._validation import check_choice, check_int
-from ..table import LensColumn, LensTable
+from ..table import as_lens_table
 from ..workspace import METRICS, Workspace
 from ._cluster import FRAGMENT_RULES, check_clusterer, cluster_elements, clusterer_name
 from ._cover import Cover
@@ -15,61 +15,6 @@ from ._lensgraph import LensGraph
 from ._nerve import membership_matrix, nerve_edges
 
 __all__ = ["build_graph", "node_statistics"]
-
-
-def _lens_columns(lenses, n):
-    """(names, values (n, m), provenance list) from any accepted lens input."""
-    if not isinstance(lenses, LensTable) and callable(getattr(lenses, "to_lens_table", None)):
-        lenses = lenses.to_lens_table()
-    if isinstance(lenses, LensColumn):
-        lenses = [lenses]
-    if isinstance(lenses, LensTable):
-        lenses = list(lenses.columns)
-    if isinstance(lenses, dict):
-        lenses = [LensColumn(str(k), np.asarray(v, dtype=np.float64), lens="array")
-                  for k, v in lenses.items()]
-    if isinstance(lenses, (list, tuple)) and lenses and all(
-        isinstance(c, LensColumn) for c in lenses
-    ):
-        names = [c.name for c in lenses]
-        dupes = sorted({x for x in names if names.count(x) > 1})
-        if dupes:
-            raise ParameterError(
-                f"Lens column {dupes[0]!r} appears twice; give each lens column its own name."
-            )
-        try:
-            values = np.column_stack([np.asarray(c.normalized(), dtype=np.float64) for c in lenses])
-        except ValueError as err:
-            raise InputError(
-                f"The lens columns have different lengths ({err}); compute them on the same rows."
-            ) from None
-        prov = [c.provenance() for c in lenses]
-    else:
-        try:
-            values = np.asarray(lenses, dtype=np.float64)
-        except (TypeError, ValueError):
-            raise ParameterError(
-                f"The 'lenses' argument of build_graph must be a LensTable, LensColumn(s), an "
-                f"array of shape (n_samples,) or (n_samples, n_lenses), or have to_lens_table(). "
-                f"Got {type(lenses).__name__}."
-            ) from None
-        if values.ndim == 1:
-            values = values[:, None]
-        if values.ndim != 2 or values.shape[1] == 0:
-            raise InputError(
-                f"Lens values must have shape (n_samples,) or (n_samples, n_lenses); got "
-                f"shape {values.shape}."
-            )
-        m = values.shape[1]
-        names = ["lens"] if m == 1 else [f"lens_{j + 1}" for j in range(m)]
-        prov = [{"name": nm, "lens": "array", "params": {}, "info": {}, "normalization": None}
-                for nm in names]
-    if values.shape[0] != n:
-        raise InputError(
-            f"The lenses have {values.shape[0]:,} rows but the workspace has {n:,}; compute the "
-            f"lenses on the same data as the workspace."
-        )
-    return names, values, prov
 
 
 def _data_columns(cloud, columns, lens_names):
@@ -157,10 +102,12 @@ def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", c
 
     Parameters
     ----------
-    lenses : LensTable, LensColumn or list of them, dict, array-like, or object
+    lenses : LensTable, LensColumn or list of them, dict, array-like, str, or object
         Lens values of shape (n_samples,) or (n_samples, n_lenses). LensColumns
         are read with their recorded normalisation applied; an object with a
-        ``to_lens_table()`` method (a screening result) is converted first.
+        ``to_lens_table()`` method (a screening result) is converted first;
+        registry specs (``"pca"``, ``["dtm:mass=0.05", ...]``) are computed on
+        the workspace (see :func:`lenswork.table.as_lens_table`).
     workspace : Workspace or array-like of shape (n_samples, n_features)
         The rows; its shared neighbour graph ``workspace.neighbors(k)`` does
         the clustering.
@@ -247,7 +194,10 @@ def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", c
     fragments = check_choice("fragments", fragments, FRAGMENT_RULES, context="build_graph")
     min_size = check_int("min_size", min_size, lo=1, context="build_graph")
     gap_bins = check_int("gap_bins", gap_bins, lo=2, context="build_graph")
-    names, values, lens_prov = _lens_columns(lenses, n)
+    table = as_lens_table(lenses, ws, what="build_graph")
+    names = table.names
+    values = np.asarray(table.values(), dtype=np.float64)
+    lens_prov = [c.provenance() for c in table]
     data = _data_columns(ws.cloud, columns, names)
     with _progress.step(f"graph: cover of {', '.join(names)}"):
         cover = Cover(intervals=intervals, overlap=overlap, scale=scale).fit(values, names)

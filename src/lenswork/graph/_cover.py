@@ -27,8 +27,8 @@ import warnings
 
 import numpy as np
 
-from .._errors import InputError, LensworkWarning, ParameterError
-from .._validation import check_choice, check_float, check_int
+from .._errors import LensworkWarning, ParameterError
+from .._validation import check_array, check_choice, check_float, check_int
 from ..normalize import normalize
 
 __all__ = ["COVER_SCALES", "Cover"]
@@ -142,23 +142,13 @@ class Cover:
         -------
         self
         """
-        V = np.asarray(values, dtype=np.float64)
-        if V.ndim == 1:
-            V = V[:, None]
-        if V.ndim != 2 or V.shape[1] == 0 or V.shape[0] == 0:
-            raise InputError(
-                f"A cover needs lens values of shape (n_samples,) or (n_samples, n_lenses) with "
-                f"at least one row and one lens; got shape {V.shape}."
-            )
+        names = list(names) if names is not None else None
+        V = check_array(
+            values, "Cover.fit", names=names, label="the lens array given to the cover",
+            advice="Drop those rows or fill the lens first.",
+        )
         n, m = V.shape
-        names = list(names) if names is not None else [f"lens {j + 1}" for j in range(m)]
-        bad = ~np.isfinite(V)
-        if bad.any():
-            row, col = np.argwhere(bad)[0]
-            raise InputError(
-                f"Lens {names[col]!r} has a missing or infinite value at row {row + 1}; a cover "
-                f"needs finite values. Drop those rows or fill the lens first."
-            )
+        names = names if names is not None else [f"lens {j + 1}" for j in range(m)]
         intervals, overlap, scale = self._check_params(m)
         if scale == "rank":
             U = np.column_stack([normalize(V[:, j], "rank") for j in range(m)])

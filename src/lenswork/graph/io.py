@@ -24,10 +24,10 @@ CSV
     no row is missing from the file.
 
 Lens files
-    :func:`read_lens_file` reads lens columns written by
-    :meth:`lenswork.LensTable.write` (CSV, TSV or Parquet with the
-    ``<file>.json`` sidecar, as the screen command writes its selection) and
-    lines them up with the rows of a point cloud by row id.
+    :func:`read_lens_file` (the same as :meth:`lenswork.LensTable.read`) reads
+    lens columns written by :meth:`lenswork.LensTable.write` (CSV, TSV or
+    Parquet with the ``<file>.json`` sidecar, as the screen command writes its
+    selection) and lines them up with the rows of a point cloud by row id.
 """
 
 from __future__ import annotations
@@ -313,109 +313,25 @@ def write_memberships(graph, path):
 def read_lens_file(path, cloud, columns=None):
     """Read lens columns written by :meth:`LensTable.write` for the rows of ``cloud``.
 
-    Parameters
-    ----------
-    path : str or Path
-        A CSV, TSV or Parquet lens file with its ``<path>.json`` sidecar; the
-        sidecar's ``file.lens_columns`` names the lens columns and
-        ``file.id_column`` the id column.
-    cloud : PointCloud
-        The rows the lenses are wanted for; every id of the cloud must be in
-        the file with a value in every chosen column.
-    columns : list of str, optional
-        Lens columns to read (default: every lens column of the sidecar).
+    The same as :meth:`lenswork.LensTable.read` (see there for the parameters,
+    the matching by row id and the errors).
 
     Returns
     -------
     LensTable
-        Columns in the cloud's row order, with the lens, parameters and
-        normalisation recorded in the sidecar (a file of normalised values is
-        read as it is, with no normalisation to apply again).
-
-    Raises
-    ------
-    InputError
-        No sidecar, an unknown column, an id of the cloud missing from the
-        file, or a missing value.
 
     Examples
     --------
     >>> import tempfile
     >>> from lenswork import LensColumn, LensTable, PointCloud
-    >>> cloud = PointCloud.from_array(np.arange(8.0).reshape(4, 2))
-    >>> table = LensTable([LensColumn("h", np.array([0.5, 1.5, 2.5, 3.5]))], cloud)
+    >>> cloud = PointCloud.from_array(np.zeros((3, 1)), ids=["a", "b", "c"])
+    >>> table = LensTable([LensColumn("u", np.array([1.0, 2.0, 3.0])),
+    ...                    LensColumn("v", np.array([6.0, 5.0, 4.0]))], cloud)
     >>> with tempfile.TemporaryDirectory() as tmp:
-    ...     path, _ = table.write(Path(tmp) / "lenses.csv")
-    ...     back = read_lens_file(path, cloud)
-    >>> back.names, back["h"].values.tolist()
-    (['h'], [0.5, 1.5, 2.5, 3.5])
+    ...     back = read_lens_file(table.write(Path(tmp) / "l.csv")[0], cloud, columns=["v"])
+    >>> back.names, back["v"].values.tolist()
+    (['v'], [6.0, 5.0, 4.0])
     """
-    import warnings
+    from ..table import LensTable
 
-    from ..data import load_table
-    from ..table import LensColumn, LensTable
-
-    path = Path(path)
-    sidecar = path.with_name(path.name + ".json")
-    if not path.exists():
-        raise InputError(f"No lens file {str(path)!r}; check the path.")
-    try:
-        meta = json.loads(sidecar.read_text(encoding="utf-8"))
-        info = meta["file"]
-        names = list(info["lens_columns"])
-        id_column = info["id_column"]
-    except FileNotFoundError:
-        raise InputError(
-            f"The lens file {str(path)!r} has no sidecar {sidecar.name!r}; lens files are read "
-            f"with the sidecar that LensTable.write and the screen command write beside them."
-        ) from None
-    except (json.JSONDecodeError, KeyError, TypeError) as err:
-        raise InputError(
-            f"The sidecar {str(sidecar)!r} is damaged or not a lens-file sidecar ({err}); write "
-            f"the lens file again."
-        ) from None
-    if info.get("format") == "npy":
-        raise InputError(
-            f"{str(path)!r} is an NPY lens file, which holds no row ids to line up with the "
-            f"table; write the lens columns as CSV or Parquet."
-        )
-    wanted = names if columns is None else list(columns)
-    unknown = [c for c in wanted if c not in names]
-    if unknown:
-        raise InputError(
-            f"The lens file {str(path)!r} has no lens column {unknown[0]!r}. Its lens columns: "
-            f"{', '.join(names)}."
-        )
-    with warnings.catch_warnings():  # rows kept out of the lens file are checked below
-        warnings.simplefilter("ignore")
-        lens_cloud = load_table(path, features=wanted, id_column=id_column, invalid="exclude",
-                                min_rows=1)
-    position = {str(_plain(i)): j for j, i in enumerate(lens_cloud.ids)}
-    blank = {str(_plain(r.id)): r.row for r in lens_cloud.excluded}
-    take = np.empty(cloud.n, dtype=np.int64)
-    for j, i in enumerate(cloud.ids):
-        key = str(_plain(i))
-        if key in position:
-            take[j] = position[key]
-        elif key in blank:
-            raise InputError(
-                f"Row {blank[key]} of the lens file {str(path)!r} (id {key}) has a missing lens "
-                f"value, but the table uses that row. Compute the lenses on the same rows."
-            )
-        else:
-            raise InputError(
-                f"Id {key} of the table is not in the lens file {str(path)!r} (id column "
-                f"{id_column!r}). Use the lens file written for this table."
-            )
-    provenance = {c.get("name"): c for c in meta.get("columns", []) if isinstance(c, dict)}
-    raw = info.get("values", "raw") == "raw"
-    out = []
-    for j, name in enumerate(wanted):
-        prov = provenance.get(name, {})
-        out.append(LensColumn(
-            name=name, values=lens_cloud.X[take, j].copy(), lens=prov.get("lens", "file"),
-            params=dict(prov.get("params") or {}),
-            info={**dict(prov.get("info") or {}), "source": str(path)},
-            normalization=prov.get("normalization") if raw else None,
-        ))
-    return LensTable(out, cloud, random_state=meta.get("random_state", 0))
+    return LensTable.read(path, cloud, columns=columns)

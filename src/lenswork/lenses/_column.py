@@ -26,53 +26,11 @@ import numbers
 import numpy as np
 
 from .._errors import InputError, LensworkError, ParameterError
+from .._validation import check_array as _check_array  # noqa: F401 (_laplacian.py uses it)
 from .._validation import check_bool, check_float, check_int
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["data_column", "user_lens"]
-
-
-# ---------------------------------------------------------------- array checks
-def _check_array(X, context):
-    """Return ``X`` as a C-contiguous, finite float64 array of shape (n, d).
-
-    A 1-D array is read as one feature column (as :meth:`PointCloud.from_array`
-    does). Raises InputError naming the first non-finite row and column (1-based).
-    """
-    try:
-        X = np.asarray(X, dtype=np.float64)
-    except (TypeError, ValueError) as err:
-        raise InputError(
-            f"The data given to {context} must be numeric (an array of shape "
-            f"(n_samples, n_features)); it could not be read as numbers ({err}). "
-            f"Select the numeric columns first."
-        ) from None
-    if X.ndim == 1:
-        X = X[:, None]
-    if X.ndim != 2:
-        raise InputError(
-            f"The data given to {context} must be a 2-D array of shape (n_samples, n_features); "
-            f"got a {X.ndim}-D array of shape {X.shape}. Reshape it first."
-        )
-    if X.shape[0] == 0 or X.shape[1] == 0:
-        raise InputError(
-            f"The data given to {context} is empty (shape {X.shape}); expected at least one row "
-            f"and one column."
-        )
-    # A finite sum proves every entry finite (one pass, no (n, d) mask); an
-    # overflowing sum of finite values falls through to the exact check.
-    with np.errstate(over="ignore", invalid="ignore"):
-        total = X.sum()
-    if not np.isfinite(total):
-        bad = ~np.isfinite(X)
-        if bad.any():
-            row, col = np.argwhere(bad)[0]
-            raise InputError(
-                f"The data given to {context} has a non-finite value ({float(X[row, col])!r}) "
-                f"in row {row + 1}, column {col + 1}; expected finite numbers. Remove or impute "
-                f"such rows first (lenswork.load_table can report and skip them)."
-            )
-    return np.ascontiguousarray(X)
 
 
 # ---------------------------------------------------------------- column lens

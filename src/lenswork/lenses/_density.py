@@ -21,8 +21,6 @@ sized to stay in cache, and tiles of rows run on a few threads.
 from __future__ import annotations
 
 import math
-import os
-from concurrent.futures import ThreadPoolExecutor
 from functools import partial
 
 import numpy as np
@@ -30,12 +28,14 @@ from sklearn.base import BaseEstimator, TransformerMixin
 
 from .._errors import InputError, LensworkWarning
 from .._validation import (
+    check_array,
     check_bool,
     check_choice,
     check_float_or_choice,
     check_int,
     check_random_state,
 )
+from ._common import _TILE_COLS, _TILE_ROWS, _check_query, _parallel_rows, _sample_rows, _zero_self
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["GaussianDensity", "gaussian_density", "scott_bandwidth", "silverman_bandwidth"]
@@ -53,115 +53,9 @@ REFERENCE_SIZE = 20_000
 CV_SUBSAMPLE = 2_000
 #: Multipliers of Scott's bandwidth tried by likelihood cross-validation.
 CV_GRID = np.geomspace(1 / 8, 8, 25)
-# Tile shape (rows x reference points) of the fused kernel sums; 256 x 2048
-# float64 = 4 MB, measured fastest at d = 20 among 64..1024 x 1024..30000.
-_TILE_ROWS = 256
-_TILE_COLS = 2048
 # Row sums below these values may have lost terms to underflow: such rows are
 # summed again with a per-row shift (log-sum-exp style).
 _UNDERFLOW = {"float64": 1e-250, "float32": 1e-25}
-
-
-# ---------------------------------------------------------------------------
-# helpers shared with the eccentricity lenses
-# ---------------------------------------------------------------------------
-
-
-def _as_points(X, what, *, min_rows=1):
-    """``X`` as a finite float64 C-contiguous (n, d) array; a 1-D array is one column."""
-    try:
-        arr = np.asarray(X, dtype=np.float64)
-    except (TypeError, ValueError) as err:
-        raise InputError(
-            f"{what} needs a numeric array of shape (n_samples, n_features); could not read "
-            f"the input as numbers ({err}). Pass a float array."
-        ) from None
-    if arr.ndim == 1:
-        arr = arr[:, None]
-    if arr.ndim != 2:
-        raise InputError(
-            f"{what} needs an array of shape (n_samples, n_features); got {arr.ndim} dimensions "
-            f"{arr.shape}. Reshape the input."
-        )
-    if arr.shape[1] == 0:
-        raise InputError(f"{what} needs at least one feature column; got shape {arr.shape}.")
-    if arr.shape[0] < min_rows:
-        raise InputError(
-            f"{what} needs at least {min_rows} rows; got {arr.shape[0]}. Use more rows."
-        )
-    bad = ~np.isfinite(arr)
-    if bad.any():
-        row, col = np.argwhere(bad)[0]
-        raise InputError(
-            f"{what} needs finite values; row {row + 1}, column {col + 1} holds {arr[row, col]}. "
-            f"Remove or impute missing and infinite values first."
-        )
-    return np.ascontiguousarray(arr)
-
-
-def _sample_rows(X, m, rng):
-    """Sorted indices of a simple random subsample of ``m`` rows, chosen by row content.
-
-    Each row gets a pseudo-random key computed from its own values (a seeded
-    random projection, scaled up and reduced modulo 1), and the ``m`` rows with
-    the smallest keys are taken. The subsample is uniform like
-    ``rng.choice(n, m, replace=False)`` but does not depend on the row order, so
-    permuting the rows permutes the lens values and changes nothing else.
-    """
-    n = X.shape[0]
-    if m >= n:
-        return np.arange(n)
-    w = rng.standard_normal(X.shape[1])
-    s = (X * w).sum(axis=1)
-    scale = float(np.std(s)) or 1.0
-    key = np.mod(s * (1e6 / scale) + rng.random(), 1.0)
-    order = np.lexsort((np.arange(n), key))  # duplicate rows: ties are exchangeable anyway
-    return np.sort(order[:m])
-
-
-def _n_threads():
-    try:
-        cores = len(os.sched_getaffinity(0))
-    except AttributeError:  # not on Linux
-        cores = os.cpu_count() or 1
-    return max(1, min(cores, 8))
-
-
-def _parallel_rows(work, n_rows, block=_TILE_ROWS):
-    """Run ``work(i0, i1)`` over blocks of rows on a few threads, BLAS at one thread each.
-
-    ``work`` writes its results into rows ``i0:i1`` of arrays it owns, so the
-    blocks never overlap; each row's arithmetic does not depend on the thread.
-    """
-    starts = list(range(0, n_rows, block))
-    threads = min(_n_threads(), len(starts))
-    if threads <= 1:
-        for i0 in starts:
-            work(i0, min(i0 + block, n_rows))
-        return
-    from threadpoolctl import threadpool_limits
-
-    with threadpool_limits(limits=1, user_api="blas"), ThreadPoolExecutor(threads) as pool:
-        for _ in pool.map(lambda i0: work(i0, min(i0 + block, n_rows)), starts):
-            pass
-
-
-def _zero_self(T, i0, i1, query_rows, ref_rows, j0, j1, value=0.0):
-    """Set the tile entries that pair a query row with itself.
-
-    The tile holds query rows ``i0:i1`` and reference columns ``j0:j1``;
-    ``ref_rows`` (sorted) is the data index of each reference column and
-    ``query_rows`` (sorted) that of each query row, ``None`` meaning 0..n-1.
-    """
-    cols = ref_rows[j0:j1]
-    if query_rows is None:
-        lo, hi = np.searchsorted(cols, (i0, i1))
-        if hi > lo:
-            T[cols[lo:hi] - i0, np.arange(lo, hi)] = value
-        return
-    _, qi, ci = np.intersect1d(query_rows[i0:i1], cols, assume_unique=True, return_indices=True)
-    if qi.size:
-        T[qi, ci] = value
 
 
 # ---------------------------------------------------------------------------
@@ -217,7 +111,7 @@ def scott_bandwidth(X):
     >>> H.shape, bool(np.allclose(H, np.cov(X.T) * 1000 ** (-1 / 3)))
     ((2, 2), True)
     """
-    X = _as_points(X, "scott_bandwidth", min_rows=2)
+    X = check_array(X, "scott_bandwidth", min_rows=2)
     n, d = X.shape
     return _covariance(X, "scott_bandwidth") * n ** (-2.0 / (d + 4))
 
@@ -273,7 +167,7 @@ def silverman_bandwidth(X):
     >>> round(float(np.sqrt(H[0, 0])), 6)
     3.500618
     """
-    X = _as_points(X, "silverman_bandwidth", min_rows=2)
+    X = check_array(X, "silverman_bandwidth", min_rows=2)
     n, d = X.shape
     s = _robust_sd(X)
     if d == 1:
@@ -649,7 +543,7 @@ def gaussian_density(
     bandwidth, log, mode, precision, reference_size = _check_params(
         bandwidth, log, mode, precision, reference_size, "gaussian_density"
     )
-    X = _as_points(X, "gaussian_density", min_rows=2)
+    X = check_array(X, "gaussian_density", min_rows=2)
     rng = check_random_state(random_state)
     kernel = _Kernel(X, bandwidth, rng)
     values, info, rel_se = _evaluate(
@@ -721,7 +615,7 @@ class GaussianDensity(TransformerMixin, BaseEstimator):
     def fit(self, X, y=None):
         """Choose the kernel for ``X`` and keep ``X`` as the reference sample."""
         bandwidth, *_ = self._params()
-        X = _as_points(X, "GaussianDensity.fit", min_rows=2)
+        X = check_array(X, "GaussianDensity.fit", min_rows=2)
         self._rng = check_random_state(self.random_state)
         self._kernel = _Kernel(X, bandwidth, self._rng)
         self.covariance_ = self._kernel.H
@@ -740,17 +634,7 @@ class GaussianDensity(TransformerMixin, BaseEstimator):
 
     def transform(self, X):
         """Density of the fitted sample at the rows of ``X`` (new points), shape (n, 1)."""
-        if not hasattr(self, "_kernel"):
-            from sklearn.exceptions import NotFittedError
-
-            raise NotFittedError("GaussianDensity is not fitted yet; call fit(X) first.")
-        Q = _as_points(X, "GaussianDensity.transform")
-        if Q.shape[1] != self.n_features_in_:
-            raise InputError(
-                f"GaussianDensity was fitted on {self.n_features_in_} features; X has "
-                f"{Q.shape[1]}. Pass rows with the same features."
-            )
-        return self._run(Q, self_query=False)
+        return self._run(_check_query(self, X, "_kernel"), self_query=False)
 
     def fit_transform(self, X, y=None, **fit_params):
         """Fit on ``X`` and return its density at its own points, shape (n, 1)."""

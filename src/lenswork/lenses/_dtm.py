@@ -28,9 +28,9 @@ import numpy as np
 from sklearn.base import BaseEstimator, TransformerMixin
 
 from .._errors import InputError, LensworkWarning, ParameterError
-from .._validation import check_float, check_int
+from .._validation import check_array, check_float, check_int
 from ..workspace import NeighborGraph, neighbor_graph
-from ._column import _check_array
+from ._common import _check_query
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["DistanceToMeasure", "KNNDistance", "distance_to_measure", "knn_distance"]
@@ -165,7 +165,7 @@ def distance_to_measure(X, *, mass=0.01, graph=None, max_k=MAX_K, random_state=0
     [1.6667, 0.6667, 0.6667, 0.6667, 1.6667]
     """
     context = "distance_to_measure"
-    X = _check_array(X, context)
+    X = check_array(X, context)
     mass = _check_mass(mass, context)
     max_k = _check_max_k(max_k, context)
     n = X.shape[0]
@@ -230,7 +230,7 @@ class DistanceToMeasure(BaseEstimator, TransformerMixin):
     def fit(self, X, y=None):
         """Remember the rows whose measure the DTM is taken of; returns self."""
         context = type(self).__name__
-        X = _check_array(X, context)
+        X = check_array(X, context)
         mass = _check_mass(self.mass, context)
         max_k = _check_max_k(self.max_k, context)
         n = X.shape[0]
@@ -253,27 +253,13 @@ class DistanceToMeasure(BaseEstimator, TransformerMixin):
 
     def transform(self, X):
         """The DTM of the fitted measure at the rows of ``X``, shape (n_samples,)."""
-        X = _check_query(self, X)
+        X = _check_query(self, X, "_fit_X")
         if self._nn is None:
             from sklearn.neighbors import NearestNeighbors
 
             self._nn = NearestNeighbors(n_neighbors=self.k_).fit(self._fit_X)
         dist, _ = self._nn.kneighbors(X, n_neighbors=self.k_)
         return np.sqrt(np.einsum("ij,ij->i", dist, dist) / self.k_)
-
-
-def _check_query(est, X):
-    if not hasattr(est, "_fit_X"):
-        from sklearn.exceptions import NotFittedError
-
-        raise NotFittedError(f"This {type(est).__name__} is not fitted yet; call fit(X) first.")
-    X = _check_array(X, f"{type(est).__name__}.transform")
-    if X.shape[1] != est.n_features_in_:
-        raise InputError(
-            f"{type(est).__name__}.transform got {X.shape[1]} feature columns; it was fitted on "
-            f"{est.n_features_in_}. Pass data with the same columns."
-        )
-    return X
 
 
 @register_lens(
@@ -362,7 +348,7 @@ def knn_distance(X, *, k=10, graph=None, random_state=0):
     ([1.0, 1.0, 2.0, 4.0], [3.0, 2.0, 3.0, 6.0])
     """
     context = "knn_distance"
-    X = _check_array(X, context)
+    X = check_array(X, context)
     k = _check_k(k, X.shape[0], context)
     if graph is None:
         distances = neighbor_graph(X, k, random_state=random_state).distances
@@ -412,7 +398,7 @@ class KNNDistance(BaseEstimator, TransformerMixin):
     def fit(self, X, y=None):
         """Remember the rows; returns self."""
         context = type(self).__name__
-        X = _check_array(X, context)
+        X = check_array(X, context)
         self.k_ = _check_k(self.k, X.shape[0], context)
         self.n_samples_fit_ = X.shape[0]
         self.n_features_in_ = X.shape[1]
@@ -428,7 +414,7 @@ class KNNDistance(BaseEstimator, TransformerMixin):
 
     def transform(self, X):
         """Distance from each row of ``X`` to its k-th nearest fitted row."""
-        X = _check_query(self, X)
+        X = _check_query(self, X, "_fit_X")
         if self._nn is None:
             from sklearn.neighbors import NearestNeighbors
 

@@ -22,13 +22,14 @@ from sklearn.base import BaseEstimator, TransformerMixin
 
 from .._errors import InputError, LensworkWarning, ParameterError
 from .._validation import (
+    check_array,
     check_choice,
     check_float_or_choice,
     check_int,
     check_random_state,
     seed_of,
 )
-from ._density import _TILE_COLS, _as_points, _parallel_rows, _sample_rows, _zero_self
+from ._common import _TILE_COLS, _check_query, _parallel_rows, _sample_rows, _zero_self
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["Eccentricity", "eccentricity", "geodesic_eccentricity"]
@@ -209,6 +210,15 @@ def _eccentricity(X, Q, *, p, mode, landmarks, rng):
     return values, info, rel_se * values
 
 
+def _returned(values, info, err, p, return_info):
+    """``values``, or ``(values, info)`` with the per-point error as ``"gap"`` or ``"se"``."""
+    if not return_info:
+        return values
+    if err is not None:
+        info["gap" if math.isinf(p) else "se"] = err
+    return values, info
+
+
 def _check_params(p, mode, landmarks, context):
     p = _check_p(p, context)
     mode = check_choice("mode", mode, MODES, context=context)
@@ -287,14 +297,10 @@ def eccentricity(X, *, p=2.0, mode="auto", landmarks=LANDMARKS, random_state=0,
     [2.0, 2.0]
     """
     p, mode, landmarks = _check_params(p, mode, landmarks, "eccentricity")
-    X = _as_points(X, "eccentricity")
+    X = check_array(X, "eccentricity")
     rng = check_random_state(random_state)
     values, info, err = _eccentricity(X, None, p=p, mode=mode, landmarks=landmarks, rng=rng)
-    if not return_info:
-        return values
-    if err is not None:
-        info["gap" if math.isinf(p) else "se"] = err
-    return values, info
+    return _returned(values, info, err, p, return_info)
 
 
 class Eccentricity(TransformerMixin, BaseEstimator):
@@ -338,7 +344,7 @@ class Eccentricity(TransformerMixin, BaseEstimator):
     def fit(self, X, y=None):
         """Keep ``X`` as the reference rows."""
         _check_params(self.p, self.mode, self.landmarks, "Eccentricity")
-        self._X = _as_points(X, "Eccentricity.fit")
+        self._X = check_array(X, "Eccentricity.fit")
         self.n_features_in_ = self._X.shape[1]
         self.info_ = {}
         return self
@@ -354,17 +360,7 @@ class Eccentricity(TransformerMixin, BaseEstimator):
 
     def transform(self, X):
         """Eccentricity of the rows of ``X`` w.r.t. the fitted rows, shape (n, 1)."""
-        if not hasattr(self, "_X"):
-            from sklearn.exceptions import NotFittedError
-
-            raise NotFittedError("Eccentricity is not fitted yet; call fit(X) first.")
-        Q = _as_points(X, "Eccentricity.transform")
-        if Q.shape[1] != self.n_features_in_:
-            raise InputError(
-                f"Eccentricity was fitted on {self.n_features_in_} features; X has "
-                f"{Q.shape[1]}. Pass rows with the same features."
-            )
-        return self._run(Q)
+        return self._run(_check_query(self, X, "_X"))
 
     def fit_transform(self, X, y=None, **fit_params):
         """Fit on ``X`` and return the eccentricity of its rows, shape (n, 1)."""
@@ -549,7 +545,7 @@ def geodesic_eccentricity(X, *, p=2.0, k=15, landmarks=GEODESIC_LANDMARKS, neigh
     p = _check_p(p, "geodesic_eccentricity")
     k = check_int("k", k, lo=1, context="geodesic_eccentricity")
     landmarks = check_int("landmarks", landmarks, lo=1, context="geodesic_eccentricity")
-    X = _as_points(X, "geodesic_eccentricity")
+    X = check_array(X, "geodesic_eccentricity")
     rng = check_random_state(random_state)
     if neighbors is None:
         neighbors = neighbor_graph(X, k, random_state=seed_of(random_state))
@@ -565,11 +561,7 @@ def geodesic_eccentricity(X, *, p=2.0, k=15, landmarks=GEODESIC_LANDMARKS, neigh
         warnings.warn(msg, LensworkWarning, stacklevel=4)
 
     values, info, err = _geodesic(neighbors, X, p=p, landmarks=landmarks, rng=rng, warn=warn)
-    if not return_info:
-        return values
-    if err is not None:
-        info["gap" if math.isinf(p) else "se"] = err
-    return values, info
+    return _returned(values, info, err, p, return_info)
 
 
 # ---------------------------------------------------------------------------

@@ -1,1 +1,749 @@
-"""(being written)"""
+"""Laplacian eigenmaps: the first non-trivial eigenvectors of a k-NN graph Laplacian.
+
+The lens reads the shared k-nearest-neighbour graph, weights its edges, makes
+it symmetric (an edge is kept when either end lists the other) and returns the
+first ``m`` non-trivial eigenvectors of the normalised Laplacian
+``L = I - S``, ``S = D^-1/2 W D^-1/2``, as *random-walk* coordinates
+``x = D^-1/2 u`` (the solutions of ``(D - W) x = lambda D x``), which is also
+what :class:`sklearn.manifold.SpectralEmbedding` returns.
+
+Edge weights
+------------
+``"heat"``
+    ``w_ij = exp(-d_ij^2 / sigma^2)`` with one global ``sigma``: the median of
+    the positive neighbour distances of the graph (the heat kernel of Belkin
+    and Niyogi 2003 with ``t = sigma^2``).
+``"self_tuning"``
+    ``w_ij = exp(-d_ij^2 / (sigma_i sigma_j))``, ``sigma_i`` the distance from
+    point i to its 7th neighbour, or to its k-th when k < 7 (Zelnik-Manor and
+    Perona 2004). A ``sigma_i`` of 0 (seven exact duplicates) is raised to the
+    smallest positive one.
+
+Weights below 1e-10 are dropped: a point whose neighbours are all that far
+(in units of sigma) is treated as detached, not as a numerically singular link.
+
+The solver
+----------
+On low-dimensional manifolds the wanted eigenvalues of ``L`` lie within
+1e-5..1e-6 of 0 and of each other, and Krylov solvers without a preconditioner
+need thousands of products. Here, after a reverse Cuthill-McKee reordering
+(for cache locality):
+
+1. The graph is coarsened by aggregation: random seeds (one in 8 vertices,
+   drawn from ``random_state``), every vertex joins the seed nearest in hops
+   (:func:`scipy.sparse.csgraph.dijkstra` with ``min_only``), the aggregates'
+   graph is ``P^T W P``; repeated until at most 500 vertices remain.
+2. The coarsest problem is solved densely and its eigenvectors, copied to all
+   points through the aggregates, start a block LOBPCG iteration
+   (Knyazev 2001) on the finest graph, with the trivial vector ``D^1/2 1`` as a
+   constraint and ``max(4, m // 2)`` extra block vectors.
+3. The preconditioner is one V-cycle of smoothed aggregation (Vanek, Mandel
+   and Brezina 1996) over the same aggregates, with one damped-Jacobi sweep
+   before and after each coarse correction. Where a coarse graph is denser
+   than the graph below it (high-dimensional, expander-like data, where the
+   eigenvalues are far from 0 and no strong preconditioner is needed) the
+   prolongation is left unsmoothed, so the hierarchy stays sparse.
+
+Iteration stops when every wanted vector has ``||S u - mu u|| <= tol * lambda``
+(``lambda = 1 - mu``, ``||u|| = 1``). Components of at most 1,000 vertices are
+solved densely with :func:`scipy.linalg.eigh`.
+
+Disconnected graphs
+-------------------
+A graph with several connected components raises a
+:class:`~lenswork.LensworkWarning` and each component is embedded on its own:
+its own first ``m`` non-trivial vectors, centred and scaled within the
+component. A component with fewer than ``m + 2`` points has fewer than ``m``
+non-trivial vectors; its points get 0 (the centre of every coordinate). The
+eigenvalues and residuals reported are those of the largest component.
+"""
+
+from __future__ import annotations
+
+import time
+import warnings
+from functools import partial
+
+import numpy as np
+import scipy.linalg as sla
+import scipy.sparse as sp
+from scipy.sparse.csgraph import connected_components, dijkstra, reverse_cuthill_mckee
+from sklearn.base import BaseEstimator, TransformerMixin
+
+from .._errors import InputError, LensworkWarning
+from .._validation import check_choice, check_float, check_int, check_random_state, seed_of
+from ._column import _check_array
+from ._registry import LensPart, Param, register_lens
+
+__all__ = ["LaplacianLens", "laplacian_eigenmaps"]
+
+#: Edge-weight rules (one table: validation and dispatch).
+WEIGHTS = ("heat", "self_tuning")
+#: Neighbour whose distance is sigma_i in the self-tuning rule (Zelnik-Manor and Perona 2004).
+_SELF_TUNING_NEIGHBOR = 7
+#: Edge weights below this are dropped (detached rather than numerically singular).
+_MIN_WEIGHT = 1e-10
+#: Components up to this many vertices are solved densely.
+_DENSE_MAX = 1000
+#: Coarsening stops once a level has at most this many vertices.
+_COARSEST = 500
+#: Vertices per aggregate (one random seed in this many vertices).
+_RATIO = 8
+#: Prolongations are smoothed while the aggregates' graph has at most this many
+#: entries per row (2-D and 3-D manifolds: 7-17; 20-d Gaussian data: 90-140).
+_SMOOTH_MAX_DEGREE = 32
+
+
+# ------------------------------------------------------------------ weights
+def _affinity(graph, weights):
+    """Symmetric weighted adjacency (CSR, zero diagonal) of a NeighborGraph, and its info."""
+    idx = np.asarray(graph.indices)
+    dist = np.asarray(graph.distances, dtype=np.float64)
+    n, k = idx.shape
+    positive = dist[np.isfinite(dist) & (dist > 0)]
+    with np.errstate(over="ignore", under="ignore", invalid="ignore"):
+        if weights == "heat":
+            sigma = float(np.median(positive)) if positive.size else 1.0
+            w = np.exp(-((dist / sigma) ** 2))
+            info = {"sigma": sigma, "sigma_rule": "median positive neighbour distance"}
+        else:
+            j = min(_SELF_TUNING_NEIGHBOR, k) - 1
+            s = dist[:, j].copy()
+            good = np.isfinite(s) & (s > 0)
+            floor = float(s[good].min()) if good.any() else 1.0
+            s[~good] = floor
+            w = np.exp(-(dist**2) / (s[:, None] * s[np.clip(idx, 0, n - 1)]))
+            info = {
+                "sigma_neighbor": j + 1,
+                "sigma_median": float(np.median(s)),
+                "sigma_min": float(s.min()),
+                "sigma_max": float(s.max()),
+            }
+    keep = (w >= _MIN_WEIGHT) & (idx >= 0) & (idx != np.arange(n)[:, None])
+    rows = np.broadcast_to(np.arange(n)[:, None], idx.shape)
+    A = sp.csr_matrix((w[keep], (rows[keep], idx[keep])), shape=(n, n))
+    W = A.maximum(A.T).tocsr()
+    info["dropped_edges"] = int(keep.size - keep.sum())
+    return W, info
+
+
+# ------------------------------------------------------------------ small linear algebra
+def _svqb_basis(V, drop=1e-12):
+    """Matrix M with ``V @ M`` orthonormal (columns of V that are dependent are dropped)."""
+    G = V.T @ V
+    d = np.sqrt(np.abs(np.diag(G)))
+    d[d == 0] = 1.0
+    Gs = G / d[:, None] / d[None, :]
+    w, Q = np.linalg.eigh((Gs + Gs.T) * 0.5)
+    keep = w > drop * max(w[-1], 0.0)
+    return (Q[:, keep] / np.sqrt(w[keep])) / d[:, None]
+
+
+def _fix_signs(V):
+    """Make the largest-magnitude entry of each column positive (in place)."""
+    if V.shape[0] == 0:
+        return V
+    pick = np.argmax(np.abs(V), axis=0)
+    signs = np.sign(V[pick, np.arange(V.shape[1])])
+    signs[signs == 0] = 1.0
+    V *= signs
+    return V
+
+
+def _sym_operator(W, b):
+    """``A = B^-1/2 (D - W) B^-1/2`` (CSR) for weights W and a positive mass b."""
+    deg = np.asarray(W.sum(axis=1)).ravel()
+    r = 1.0 / np.sqrt(b)
+    rows = np.repeat(np.arange(W.shape[0]), np.diff(W.indptr))
+    S = sp.csr_matrix((W.data * r[rows] * r[W.indices], W.indices, W.indptr), shape=W.shape)
+    return (sp.diags(deg / b) - S).tocsr(), deg
+
+
+# ------------------------------------------------------------------ LOBPCG
+def _lobpcg(A, U0, precond, Y, m, tol, floor, max_iter, rng):
+    """Block LOBPCG for the smallest eigenpairs of A on the complement of span(Y).
+
+    The search space is [X, W, P] with W the preconditioned residuals and P
+    the previous update orthogonalised against X (the orthogonal basis of
+    Hetmaniuk and Lehoucq 2006); [W, P] is projected off X and orthonormalised
+    through its Gram matrix (SVQB, near-dependent directions dropped), so each
+    step costs one block product with A, one preconditioner call and about
+    20 n b^2 flops of dense work. Converged when the first ``m`` residuals
+    satisfy ``||A u - theta u|| <= max(tol * theta, floor)``, checked on exact
+    products. Returns (theta, U, residuals, updates, converged).
+    """
+    n, nb = U0.shape
+
+    def project(V):
+        for _ in range(2):
+            V -= Y @ (Y.T @ V)
+        return V
+
+    def done(theta, res):
+        return bool(np.all(res[:m] <= np.maximum(tol * np.abs(theta[:m]), floor)))
+
+    X = project(np.array(U0, dtype=np.float64))
+    X = X @ _svqb_basis(X)
+    if X.shape[1] < nb:  # a degenerate start: fill it up with random directions
+        extra = project(rng.standard_normal((n, nb - X.shape[1])))
+        extra -= X @ (X.T @ extra)
+        X = np.hstack([X, extra @ _svqb_basis(extra)])
+        X = X @ _svqb_basis(X)
+    AX = A @ X
+    theta, C = np.linalg.eigh(_sym(X.T @ AX))
+    X, AX = X @ C, AX @ C
+    P = AP = None
+    Qbuf, AQbuf = np.empty((n, 2 * nb)), np.empty((n, 2 * nb))
+    converged = False
+    updates = 0
+    while True:
+        R = AX - X * theta
+        res = np.linalg.norm(R, axis=0)
+        if done(theta, res):
+            AX = A @ X  # the running AX drifts; confirm on exact products
+            theta = np.einsum("ij,ij->j", X, AX)
+            R = AX - X * theta
+            res = np.linalg.norm(R, axis=0)
+            if done(theta, res):
+                converged = True
+                break
+        if updates == max_iter:
+            break
+        updates += 1
+        Wv = project(precond(R))
+        Wv -= X @ (X.T @ Wv)
+        norms = np.linalg.norm(Wv, axis=0)
+        norms[norms == 0] = 1.0
+        Wv /= norms
+        q = nb if P is None else 2 * nb
+        Q, AQ = Qbuf[:, :q], AQbuf[:, :q]
+        Q[:, :nb] = Wv
+        AQ[:, :nb] = A @ Wv
+        if P is not None:
+            Q[:, nb:] = P
+            AQ[:, nb:] = AP
+        XQ = X.T @ Q
+        Q -= X @ XQ
+        AQ -= AX @ XQ
+        M = _svqb_basis(Q, drop=1e-8)
+        r = M.shape[1]
+        if r == 0:  # no new direction left: nothing more to gain
+            break
+        H = np.empty((nb + r, nb + r))
+        H[:nb, :nb] = np.diag(theta)
+        off = M.T @ (Q.T @ AX)
+        H[nb:, :nb] = off
+        H[:nb, nb:] = off.T
+        H[nb:, nb:] = M.T @ (Q.T @ AQ) @ M
+        theta_all, V = np.linalg.eigh(_sym(H))
+        theta, V = theta_all[:nb], V[:, :nb]
+        VX, VQ = V[:nb], V[nb:]
+        E = VQ.T @ VQ
+        CQ, DQ, ZX = M @ VQ, M @ (VQ - VQ @ E), -VX @ E
+        X, AX, P, AP = (
+            X @ VX + Q @ CQ, AX @ VX + AQ @ CQ, X @ ZX + Q @ DQ, AX @ ZX + AQ @ DQ
+        )
+        if np.abs(X.T @ X - np.eye(nb)).max() > 1e-10:  # restore orthonormality
+            Mx = _svqb_basis(X)
+            X, AX = X @ Mx, AX @ Mx
+            theta, C = np.linalg.eigh(_sym(X.T @ AX))
+            X, AX = X @ C, AX @ C
+    if not converged:
+        AX = A @ X
+        theta = np.einsum("ij,ij->j", X, AX)
+        res = np.linalg.norm(AX - X * theta, axis=0)
+        converged = done(theta, res)
+    order = np.argsort(theta, kind="stable")
+    return theta[order], X[:, order], res[order], updates, converged
+
+
+def _sym(G):
+    return (G + G.T) * 0.5
+
+
+# ------------------------------------------------------------------ multilevel pieces
+def _aggregate(W, rng):
+    """Aggregate the vertices of a connected graph around random seeds (hop-nearest seed)."""
+    n = W.shape[0]
+    nc = max(n // _RATIO, 2)
+    seeds = np.sort(rng.choice(n, size=nc, replace=False))
+    _, _, sources = dijkstra(
+        W, directed=False, indices=seeds, unweighted=True, min_only=True,
+        return_predecessors=True,
+    )
+    agg = np.searchsorted(seeds, sources)
+    if np.any(sources < 0):  # cannot happen on a connected graph; keep every vertex somewhere
+        agg[sources < 0] = 0
+    coo = W.tocoo()
+    Wc = sp.csr_matrix((coo.data, (agg[coo.row], agg[coo.col])), shape=(nc, nc))
+    Wc.sum_duplicates()
+    return agg, Wc
+
+
+def _graph_hierarchy(W, b, nb, rng):
+    """Aggregation maps and coarse graphs down to at most _COARSEST vertices."""
+    graphs, masses, aggs = [W], [b], []
+    smallest = max(4 * nb, 16)
+    while graphs[-1].shape[0] > _COARSEST and graphs[-1].shape[0] // _RATIO >= smallest:
+        agg, Wc = _aggregate(graphs[-1], rng)
+        aggs.append(agg)
+        graphs.append(Wc)
+        masses.append(np.bincount(agg, weights=masses[-1], minlength=Wc.shape[0]))
+    return graphs, masses, aggs
+
+
+def _spectral_radius_bound(A, dinv, rng, graph_form):
+    """Upper estimate of the spectral radius of D^-1 A (2 for graph Laplacians, Gershgorin)."""
+    if graph_form:
+        return 2.0
+    x = rng.standard_normal(A.shape[0])
+    lam = 2.0
+    for _ in range(12):
+        y = dinv * (A @ x)
+        nrm = np.linalg.norm(y)
+        if nrm == 0:
+            break
+        lam = nrm / np.linalg.norm(x)
+        x = y / nrm
+    return 1.1 * lam
+
+
+class _Preconditioner:
+    """One smoothed-aggregation V-cycle for A (symmetric form), as a block operator."""
+
+    def __init__(self, A, t, graphs, aggs, rng):
+        self.ops, self.prolong, self.dinv, self.omega = [A], [], [], []
+        smoothed_levels = 0
+        graph_form = True
+        for lvl, agg in enumerate(aggs):
+            Al = self.ops[-1]
+            nf, nc = Al.shape[0], graphs[lvl + 1].shape[0]
+            dinv = 1.0 / Al.diagonal()
+            omega = 4.0 / (3.0 * _spectral_radius_bound(Al, dinv, rng, graph_form))
+            self.dinv.append(dinv)
+            self.omega.append(omega)
+            tc = np.sqrt(np.bincount(agg, weights=t * t, minlength=nc))
+            T = sp.csr_matrix((t / tc[agg], (np.arange(nf), agg)), shape=(nf, nc))
+            # Smooth while the graph of aggregates stays sparse (mesh-like data); on
+            # expander-like data (aggregates with many neighbours) the smoothed coarse
+            # operator would be nearly dense, so from there on the hierarchy is unsmoothed.
+            smooth = smoothed_levels == lvl and graphs[lvl + 1].nnz / nc <= _SMOOTH_MAX_DEGREE
+            if smooth:
+                P = (T - (sp.diags(omega * dinv) @ (Al @ T))).tocsr()
+                smoothed_levels += 1
+                graph_form = False
+            else:
+                P = T
+            self.prolong.append((P, P.T.tocsr()))
+            self.ops.append((P.T @ (Al @ P)).tocsr())
+            t = tc
+        ev, V = np.linalg.eigh(_sym(self.ops[-1].toarray()))
+        inv = np.zeros_like(ev)
+        ok = ev > 1e-10 * max(ev[-1], 0.0)
+        inv[ok] = 1.0 / ev[ok]
+        self.coarse = (V * inv) @ V.T
+        self.smoothed_levels = smoothed_levels
+
+    def __call__(self, R):
+        return self._cycle(0, R)
+
+    def _cycle(self, lvl, r):
+        if lvl == len(self.prolong):
+            return self.coarse @ r
+        A = self.ops[lvl]
+        wd = (self.omega[lvl] * self.dinv[lvl])[:, None]
+        x = wd * r
+        P, PT = self.prolong[lvl]
+        x += P @ self._cycle(lvl + 1, PT @ (r - A @ x))
+        x += wd * (r - A @ x)
+        return x
+
+
+# ------------------------------------------------------------------ one connected component
+def _dense_eigs(A, t, m):
+    """Smallest m non-trivial eigenpairs of a small A (trivial vector t shifted away)."""
+    Ad = A.toarray()
+    shift = 2.0 * float(np.abs(Ad).sum(axis=1).max()) + 1.0
+    Ad += shift * np.outer(t, t)
+    theta, U = sla.eigh(_sym(Ad), subset_by_index=[0, m - 1])
+    res = np.linalg.norm(A @ U - U * theta, axis=0)
+    return theta, U, res
+
+
+def _component_eigs(W, b, m, rng, tol, max_iter):
+    """First m non-trivial eigenpairs of one connected graph.
+
+    Returns (x, theta, residuals, info) with x the mass-orthonormal random-walk
+    vectors (``x = B^-1/2 u``, ``sum_i b_i x_i^2 = 1``).
+    """
+    n = W.shape[0]
+    sb = np.sqrt(b)
+    if n <= _DENSE_MAX:
+        A, _ = _sym_operator(W, b)
+        theta, U, res = _dense_eigs(A, sb / np.linalg.norm(sb), m)
+        info = {"method": "dense", "iterations": 0, "converged": True, "levels": [n]}
+        return U / sb[:, None], theta, res, info
+    nb = min(m + max(4, m // 2), n - 2)
+    perm = reverse_cuthill_mckee(W, symmetric_mode=True)
+    W = W[perm][:, perm].tocsr()
+    b, sb = b[perm], sb[perm]
+    A, deg = _sym_operator(W, b)
+    graphs, masses, aggs = _graph_hierarchy(W, b, nb, rng)
+    # Start: eigenvectors of the coarsest graph, copied down through the aggregates.
+    Wc, bc = graphs[-1], masses[-1]
+    if Wc.shape[0] >= nb + 2:
+        Ac, _ = _sym_operator(Wc, bc)
+        sbc = np.sqrt(bc)
+        _, Uc, _ = _dense_eigs(Ac, sbc / np.linalg.norm(sbc), nb)
+        Xs = Uc / sbc[:, None]
+        for agg in reversed(aggs):
+            Xs = Xs[agg]
+        U0 = Xs * sb[:, None]
+    else:
+        U0 = rng.standard_normal((n, nb))
+    precond = _Preconditioner(A, sb, graphs, aggs, rng)
+    # ||A|| <= 2 max(deg / b) (Gershgorin); residuals below ~1e-13 ||A|| are rounding.
+    floor = 1e-13 * max(2.0 * float(np.max(deg / b)), 1.0)
+    theta, U, res, iters, converged = _lobpcg(
+        A, U0, precond, (sb / np.linalg.norm(sb))[:, None], m, tol, floor, max_iter, rng
+    )
+    x = np.empty((n, m))
+    x[perm] = U[:, :m] / sb[:, None]
+    info = {
+        "method": "multilevel",
+        "iterations": int(iters),
+        "converged": bool(converged),
+        "levels": [int(g.shape[0]) for g in graphs],
+        "smoothed_levels": int(precond.smoothed_levels),
+        "block_size": int(nb),
+    }
+    return x, theta[:m], res[:m], info
+
+
+# ------------------------------------------------------------------ the worker
+def _warn(message):
+    warnings.warn(message, LensworkWarning, stacklevel=4)
+
+
+def _laplacian_eigs(W, m, *, mass="degree", rng, tol=1e-3, max_iter=200, warn=_warn):
+    """Laplacian eigenvectors of a symmetric weighted graph W (the one private worker).
+
+    Parameters
+    ----------
+    W : sparse (n, n) symmetric, non-negative
+    m : int
+    mass : {"degree", "uniform"}
+        ``"degree"``: the normalised (random-walk) problem ``(D - W) x = lambda D x``;
+        ``"uniform"``: the combinatorial Laplacian ``(D - W) x = lambda x``.
+    rng : numpy Generator
+
+    Returns
+    -------
+    coords : ndarray (n, m)
+        Per component: centred (mass-weighted mean 0), mass-weighted mean square 1,
+        largest-magnitude entry positive.
+    info : dict
+    """
+    start = time.perf_counter()
+    W = sp.csr_matrix(W, dtype=np.float64)
+    W.setdiag(0)
+    W.eliminate_zeros()
+    n = W.shape[0]
+    deg = np.asarray(W.sum(axis=1)).ravel()
+    b_all = deg if mass == "degree" else np.ones(n)
+    ncomp, labels = connected_components(W, directed=False)
+    sizes = np.bincount(labels, minlength=ncomp)
+    order = np.argsort(-sizes, kind="stable")
+    coords = np.zeros((n, m))
+    if ncomp > 1:
+        shown = ", ".join(str(int(s)) for s in sizes[order[:5]]) + (", ..." if ncomp > 5 else "")
+        small = int((sizes < m + 2).sum())
+        warn(
+            f"The neighbour graph is not connected: {ncomp} components (sizes {shown}). "
+            f"Each component is embedded on its own (its own first {m} Laplacian vectors, "
+            f"centred and scaled within it)"
+            + (f"; {small} component(s) with fewer than {m + 2} points get 0" if small else "")
+            + ". A larger k joins components."
+        )
+    rows_of = np.argsort(labels, kind="stable")
+    bounds = np.concatenate([[0], np.cumsum(sizes)])
+    info = {}
+    worst = 0.0
+    all_converged = True
+    if ncomp > 1:
+        Wp = W[rows_of][:, rows_of].tocsr()
+    for rank, c in enumerate(order):
+        if sizes[c] < m + 2:
+            continue
+        rows = rows_of[bounds[c]:bounds[c + 1]]
+        if ncomp == 1:
+            Wc, bc = W, b_all
+        else:
+            Wc = Wp[bounds[c]:bounds[c + 1], bounds[c]:bounds[c + 1]].tocsr()
+            bc = b_all[rows]
+        x, theta, res, cinfo = _component_eigs(Wc, bc, m, rng, tol, max_iter)
+        x *= np.sqrt(bc.sum())
+        x -= (bc @ x) / bc.sum()  # remove rounding drift along the trivial vector
+        coords[rows] = _fix_signs(x)
+        worst = max(worst, float(res.max()))
+        all_converged &= cinfo["converged"]
+        if rank == 0:
+            info.update(cinfo)
+            info["eigenvalues"] = [float(v) for v in theta]
+            info["residuals"] = [float(v) for v in res]
+    if not info:  # every component too small
+        info = {"method": "none", "iterations": 0, "converged": True, "levels": [],
+                "eigenvalues": [], "residuals": []}
+    info["converged"] = bool(all_converged)
+    info["max_residual"] = worst
+    info["graph_components"] = int(ncomp)
+    info["component_sizes"] = [int(s) for s in sizes[order[:10]]]
+    info["tol"] = float(tol)
+    info["seconds"] = round(time.perf_counter() - start, 3)
+    if not all_converged:
+        warn(
+            f"The Laplacian eigensolver stopped after {max_iter} iterations before every "
+            f"residual fell below tol={tol:g} times its eigenvalue (largest residual "
+            f"{worst:.2e}); the vectors may be inaccurate. Raise max_iter or tol."
+        )
+    return coords, info
+
+
+def _embed(graph, m, weights, rng, tol, max_iter, warn=_warn):
+    """Affinity of a NeighborGraph, then its Laplacian eigenvectors: (coords, info)."""
+    W, winfo = _affinity(graph, weights)
+    coords, info = _laplacian_eigs(W, m, rng=rng, tol=tol, max_iter=max_iter, warn=warn)
+    info = dict(info, weights=weights, k=int(graph.k), **winfo)
+    return coords, info
+
+
+def _check_params(components, k, weights, tol, max_iter, context):
+    components = check_int("components", components, lo=1, context=context)
+    k = check_int("k", k, lo=1, context=context)
+    weights = check_choice("weights", weights, WEIGHTS, context=context)
+    tol = check_float("tol", tol, lo=0, hi=1, lo_open=True, hi_open=True, context=context)
+    max_iter = check_int("max_iter", max_iter, lo=1, context=context)
+    return components, k, weights, tol, max_iter
+
+
+def _require_rows(n, components, k, context):
+    needed = max(components + 2, k + 1)
+    if n < needed:
+        raise InputError(
+            f"{context} with components={components} and k={k} needs at least {needed} rows; "
+            f"the data has {n}. Use fewer components, a smaller k or more rows."
+        )
+
+
+# ------------------------------------------------------------------ public surface
+def laplacian_eigenmaps(
+    X, components=2, *, k=15, weights="heat", tol=1e-3, max_iter=200, random_state=0,
+    return_info=False,
+):
+    """Laplacian-eigenmap coordinates of the rows of ``X``.
+
+    Parameters
+    ----------
+    X : array-like of shape (n_samples, n_features)
+    components : int, default=2
+        Number m of non-trivial eigenvectors (output columns).
+    k : int, default=15
+        Neighbours per point in the k-NN graph (built with
+        :func:`lenswork.neighbor_graph`, exact or approximate by size).
+    weights : {"heat", "self_tuning"}, default="heat"
+        Edge weights; see the module notes.
+    tol : float in (0, 1), default=1e-3
+        Stop when each residual ``||S u - mu u||`` is at most ``tol`` times its
+        eigenvalue ``lambda = 1 - mu``.
+    max_iter : int, default=200
+        LOBPCG iterations at most (a warning says when they ran out).
+    random_state : int, default=0
+        Seed of the aggregation (and of the approximate neighbour graph).
+    return_info : bool, default=False
+        Also return a dict with ``eigenvalues`` (of ``I - S``), ``residuals``,
+        ``iterations``, ``method``, ``levels``, ``sigma``, ``graph_components``...
+
+    Returns
+    -------
+    coords : ndarray of shape (n_samples, components)
+        Random-walk coordinates ``D^-1/2 u``, scaled to a degree-weighted mean
+        square of 1 (``sum_i d_i x_i^2 = sum_i d_i``) with degree-weighted mean 0;
+        the largest-magnitude entry of each column is positive.
+    info : dict
+        Only with ``return_info=True``.
+
+    Raises
+    ------
+    ParameterError
+        For a parameter out of range.
+    InputError
+        For non-finite data or fewer than ``max(components + 2, k + 1)`` rows.
+
+    Notes
+    -----
+    The first ``m`` non-trivial solutions of ``(D - W) x = lambda D x``, the
+    smallest of the normalised Laplacian ``I - D^-1/2 W D^-1/2`` (Belkin and
+    Niyogi 2003; Chung 1997). Cost once the graph exists: O(n k) to build and
+    coarsen the graph and about 10-30 LOBPCG iterations of O(n k (m + 4))
+    each (measured in tests/benchmarks/bench_laplacian.py). A disconnected
+    graph is embedded per component (see the module notes).
+
+    References
+    ----------
+    .. [1] M. Belkin and P. Niyogi, "Laplacian eigenmaps for dimensionality
+       reduction and data representation", Neural Computation 15, 2003.
+    .. [2] L. Zelnik-Manor and P. Perona, "Self-tuning spectral clustering",
+       NIPS 2004.
+    .. [3] A. V. Knyazev, "Toward the optimal preconditioned eigensolver:
+       locally optimal block preconditioned conjugate gradient method",
+       SIAM J. Sci. Comput. 23, 2001.
+    .. [4] P. Vanek, J. Mandel and M. Brezina, "Algebraic multigrid by smoothed
+       aggregation for second and fourth order elliptic problems",
+       Computing 56, 1996.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> t = np.linspace(0.0, 1.0, 300)
+    >>> X = np.c_[t, np.sin(3 * t)]
+    >>> coords, info = laplacian_eigenmaps(X, components=2, k=10, return_info=True)
+    >>> coords.shape, info["graph_components"]
+    ((300, 2), 1)
+    >>> bool(np.all(np.diff(coords[:, 0]) < 0) or np.all(np.diff(coords[:, 0]) > 0))
+    True
+    """
+    context = "laplacian_eigenmaps"
+    components, k, weights, tol, max_iter = _check_params(
+        components, k, weights, tol, max_iter, context
+    )
+    coords, info, _ = _fit(X, components, k, weights, tol, max_iter, random_state, context)
+    return (coords, info) if return_info else coords
+
+
+def _fit(X, components, k, weights, tol, max_iter, random_state, context):
+    from ..workspace import neighbor_graph
+
+    X = _check_array(X, context)
+    _require_rows(X.shape[0], components, k, context)
+    rng = check_random_state(random_state)
+    graph = neighbor_graph(X, k, random_state=seed_of(random_state))
+    with _one_blas_thread():
+        coords, info = _embed(graph, components, weights, rng, tol, max_iter)
+    info["neighbor_seconds"] = graph.info.get("seconds")
+    info["neighbor_method"] = graph.method
+    return coords, info, X.shape[1]
+
+
+def _one_blas_thread():
+    """BLAS on one thread inside the solver.
+
+    Its dense products are tall and thin (n x 3b); on a loaded machine a
+    threaded BLAS ran them 10-30x slower (tests/benchmarks/bench_laplacian.py),
+    and one thread keeps results bit-for-bit reproducible.
+    """
+    from threadpoolctl import threadpool_limits
+
+    return threadpool_limits(limits=1, user_api="blas")
+
+
+class LaplacianLens(TransformerMixin, BaseEstimator):
+    """Laplacian eigenmaps as a scikit-learn transformer (``fit_transform`` only).
+
+    Parameters
+    ----------
+    components : int, default=2
+    k : int, default=15
+    weights : {"heat", "self_tuning"}, default="heat"
+    tol : float, default=1e-3
+    max_iter : int, default=200
+    random_state : int, default=0
+        See :func:`laplacian_eigenmaps`.
+
+    Attributes
+    ----------
+    embedding_ : ndarray of shape (n_samples, components)
+        The coordinates :func:`laplacian_eigenmaps` returns.
+    eigenvalues_ : ndarray of shape (components,)
+        Eigenvalues of ``I - D^-1/2 W D^-1/2`` (of the largest component).
+    residuals_ : ndarray of shape (components,)
+        ``||S u - mu u||`` of each unit eigenvector.
+    info_ : dict
+        Solver details (see :func:`laplacian_eigenmaps`).
+    n_features_in_ : int
+
+    Notes
+    -----
+    There is no ``transform`` for new rows: the eigenvectors are defined on the
+    graph of the fitted rows only. Cost as in :func:`laplacian_eigenmaps`.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rng = np.random.default_rng(0)
+    >>> angle = rng.uniform(0.0, 2.0 * np.pi, 400)
+    >>> X = np.c_[np.cos(angle), np.sin(angle)] + 0.01 * rng.normal(size=(400, 2))
+    >>> lens = LaplacianLens(components=2, k=10)
+    >>> lens.fit_transform(X).shape
+    (400, 2)
+    >>> bool(lens.residuals_.max() < 1e-6), lens.info_["graph_components"]
+    (True, 1)
+    """
+
+    def __init__(
+        self, *, components=2, k=15, weights="heat", tol=1e-3, max_iter=200, random_state=0
+    ):
+        self.components = components
+        self.k = k
+        self.weights = weights
+        self.tol = tol
+        self.max_iter = max_iter
+        self.random_state = random_state
+
+    def fit(self, X, y=None):
+        """Compute the embedding of ``X``; returns self."""
+        context = type(self).__name__
+        params = _check_params(
+            self.components, self.k, self.weights, self.tol, self.max_iter, context
+        )
+        coords, info, d = _fit(X, *params, self.random_state, context)
+        self.embedding_ = coords
+        self.eigenvalues_ = np.asarray(info["eigenvalues"])
+        self.residuals_ = np.asarray(info["residuals"])
+        self.info_ = info
+        self.n_features_in_ = d
+        return self
+
+    def fit_transform(self, X, y=None):
+        """Compute the embedding of ``X`` and return it, shape (n_samples, components)."""
+        return self.fit(X).embedding_
+
+
+@register_lens(
+    "laplacian",
+    summary="Laplacian eigenmaps: first non-trivial eigenvectors of the normalised k-NN "
+    "graph Laplacian",
+    cost="O(n k) per LOBPCG iteration (about 10-30) once the neighbour graph exists",
+    params=[
+        Param("components", 2, partial(check_int, lo=1), "number of eigenvectors (columns)"),
+        Param("k", 15, partial(check_int, lo=1), "neighbours per point in the graph"),
+        Param(
+            "weights", "heat", partial(check_choice, choices=WEIGHTS),
+            "edge weights: heat (one global sigma) or self_tuning (local sigma_i)",
+        ),
+    ],
+    family="laplacian",
+)
+def _laplacian_lens(ws, *, components, k, weights):
+    _require_rows(ws.n, components, k, "The laplacian lens")
+    graph = ws.neighbors(k)
+    rng = check_random_state(ws.random_state)
+    with _one_blas_thread():
+        coords, info = _embed(graph, components, weights, rng, 1e-3, 200, warn=ws.warn)
+    parts = []
+    for j in range(components):
+        part_info = dict(info, component=j + 1)
+        if j < len(info["eigenvalues"]):
+            part_info["eigenvalue"] = info["eigenvalues"][j]
+            part_info["residual"] = info["residuals"][j]
+        parts.append(LensPart(coords[:, j], str(j + 1), part_info))
+    return parts

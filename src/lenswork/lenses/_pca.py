@@ -30,8 +30,8 @@ import numpy as np
 from sklearn.base import BaseEstimator, TransformerMixin
 
 from .._errors import InputError, LensworkWarning, ParameterError
-from .._validation import check_choice, check_int, seed_of
-from ._column import _check_array
+from .._validation import check_array, check_choice, check_int, seed_of
+from ._common import _check_query
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["PCALens", "pca_coordinates"]
@@ -270,7 +270,7 @@ def pca_coordinates(X, *, components=2, solver="auto", random_state=0):
     ((500, 2), [5.0, 1.0])
     """
     context = "pca_coordinates"
-    X = _check_array(X, context)
+    X = check_array(X, context)
     n, d = X.shape
     _require_two_rows(n, context)
     m = _check_components(components, n, d, context)
@@ -341,7 +341,7 @@ class PCALens(BaseEstimator, TransformerMixin):
     def fit(self, X, y=None):
         """Compute the basis of ``X``; returns self."""
         context = type(self).__name__
-        X = _check_array(X, context)
+        X = check_array(X, context)
         n, d = X.shape
         _require_two_rows(n, context)
         m = _check_components(self.components, n, d, context)
@@ -358,18 +358,7 @@ class PCALens(BaseEstimator, TransformerMixin):
 
     def transform(self, X):
         """Principal coordinates of the rows of ``X``, shape (n_samples, components)."""
-        if not hasattr(self, "components_"):
-            from sklearn.exceptions import NotFittedError
-
-            raise NotFittedError(
-                f"This {type(self).__name__} is not fitted yet; call fit(X) first."
-            )
-        X = _check_array(X, f"{type(self).__name__}.transform")
-        if X.shape[1] != self.n_features_in_:
-            raise InputError(
-                f"{type(self).__name__}.transform got {X.shape[1]} feature columns; it was "
-                f"fitted on {self.n_features_in_}. Pass data with the same columns."
-            )
+        X = _check_query(self, X, "components_")
         return _project(X, self._basis, self.components_.shape[0]).T
 
 
@@ -380,7 +369,9 @@ class PCALens(BaseEstimator, TransformerMixin):
     params=[
         Param(
             "components", 2, partial(check_int, lo=1),
-            "number of principal coordinates (columns pca_1, pca_2, ...)",
+            "number of principal coordinates (columns pca_1, pca_2, ...; pca_j does not depend "
+            "on it, so it is not part of the column name)",
+            tag=False,
         )
     ],
     family="pca",

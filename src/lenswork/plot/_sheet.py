@@ -147,7 +147,8 @@ def _card(ax_h, ax_s, result, row, j, xy, pick):
     values = np.asarray(result.lenses.columns[j].values, dtype=np.float64)
     ok = bool(result.usable[j])
     # title: rank and name, then the figures behind the score
-    ax_h.set_title(f"#{row['rank']}  {_short(row['column'])}", loc="left", fontsize=8,
+    name = _short(row["column"], 21 if row["rank"] >= 10 else 22)  # fits one card's width
+    ax_h.set_title(f"#{row['rank']}  {name}", loc="left", fontsize=8,
                    color=ACCENT if chosen else INK, pad=11)
     if row["partner"] is None:
         partner = "no partner"

@@ -44,7 +44,7 @@ RC = {
     "axes.labelcolor": INK,
     "axes.titlecolor": INK,
     "axes.titlesize": 9,
-    "axes.titleweight": "semibold",
+    "axes.titleweight": "bold",
     "axes.labelsize": 8,
     "xtick.color": MUTED,
     "ytick.color": MUTED,
