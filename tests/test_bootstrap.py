@@ -5,6 +5,7 @@ import math
 
 import numpy as np
 import pytest
+from _shapes import noisy_circle
 from numpy.testing import assert_allclose
 from scipy.spatial.distance import cdist
 
@@ -19,16 +20,11 @@ from lenswork import (
 from lenswork.bootstrap import _count_for_length, _draw, _hausdorff_scale, _max_lens_gap
 
 
-def noisy_circle(n, rng, noise=0.05):
-    t = rng.uniform(0, 2 * np.pi, n)
-    return np.column_stack([np.cos(t), np.sin(t)]) + rng.normal(0, noise, (n, 2))
-
-
 # --------------------------------------------------------------------------- confidence
 @pytest.mark.parametrize("scheme", ["subsample", "bootstrap"])
 def test_noisy_circle_loop_recurs(scheme):
     rng = np.random.default_rng(31)
-    X = noisy_circle(500, rng)
+    X = noisy_circle(500, rng, noise=0.05)
     res = bootstrap_graph(LensColumn("x", X[:, 0]), Workspace(X), resamples=60, scheme=scheme,
                           random_state=1)
     freq = res.frequency("loops")
@@ -42,7 +38,7 @@ def test_noisy_circle_loop_recurs(scheme):
 
 def test_bootstrap_is_deterministic_under_a_seed(tmp_path):
     rng = np.random.default_rng(32)
-    X = noisy_circle(300, rng)
+    X = noisy_circle(300, rng, noise=0.05)
     ws = Workspace(X)
     a = bootstrap_graph(X[:, 0], ws, resamples=8, random_state=5)
     b = bootstrap_graph(X[:, 0], ws, resamples=8, random_state=5)
@@ -73,7 +69,7 @@ def test_draws():
 
 def test_bootstrap_errors():
     rng = np.random.default_rng(34)
-    X = noisy_circle(100, rng)
+    X = noisy_circle(100, rng, noise=0.05)
     ws = Workspace(X)
     with pytest.raises(ParameterError, match="'scheme' parameter of bootstrap_graph"):
         bootstrap_graph(X[:, 0], ws, scheme="jackknife")
@@ -126,7 +122,7 @@ def test_count_for_length_against_the_cover_formula():
 
 def test_suggest_cover_on_a_circle():
     rng = np.random.default_rng(37)
-    X = noisy_circle(800, rng)
+    X = noisy_circle(800, rng, noise=0.05)
     ws = Workspace(X)
     s = suggest_cover(X[:, 0], ws, random_state=0)
     n = 800
@@ -141,7 +137,7 @@ def test_suggest_cover_on_a_circle():
 
 def test_suggest_cover_errors():
     rng = np.random.default_rng(38)
-    X = noisy_circle(100, rng)
+    X = noisy_circle(100, rng, noise=0.05)
     ws = Workspace(X)
     with pytest.raises(ParameterError, match="'gain' parameter of suggest_cover"):
         suggest_cover(X[:, 0], ws, gain=0.6)

@@ -7,6 +7,7 @@ import networkx as nx
 import numpy as np
 import pytest
 import scipy.sparse as sp
+from _shapes import torus
 from numpy.testing import assert_allclose
 from sklearn.datasets import make_circles
 
@@ -24,21 +25,6 @@ from lenswork.plot._graph import draw_graph
 
 
 # --------------------------------------------------------------------------- samples
-def torus(rng, n, R=3.0, r=1.0):
-    """Uniform sample of the torus surface by rejection on the area element (R + r cos v).
-
-    (Diaconis, Holmes and Shahshahani, "Sampling from a manifold", 2013; from memory.)
-    """
-    out = []
-    while sum(len(o) for o in out) < n:
-        u = rng.uniform(0, 2 * np.pi, n)
-        v = rng.uniform(0, 2 * np.pi, n)
-        keep = rng.uniform(0, R + r, n) < R + r * np.cos(v)
-        ring = R + r * np.cos(v)
-        out.append(np.column_stack([ring * np.cos(u), ring * np.sin(u), r * np.sin(v)])[keep])
-    return np.concatenate(out)[:n]
-
-
 def sphere(rng, n):
     """Uniform on the unit sphere: normalised Gaussian vectors (Muller 1959)."""
     X = rng.normal(size=(n, 3))
@@ -78,7 +64,7 @@ def hand_graph(edges, n_nodes, lens=None):
 @pytest.mark.parametrize("seed", range(10))
 def test_torus_height_across_the_hole_is_a_circle(seed):
     rng = np.random.default_rng(4000 + seed)
-    X = torus(rng, 2000)
+    X = torus(2000, rng)
     # height lens = x, a coordinate in the plane of the ring: the level sets are one circle
     # near the ends and two circles across the hole, so the Reeb graph is a circle and
     # b1 = genus = 1 (Cole-McLaughlin et al. 2004, "Loops in Reeb graphs of 2-manifolds").
@@ -110,7 +96,7 @@ def test_sphere_height_is_a_tree(seed):
 def test_b1_two_ways(case):
     rng = np.random.default_rng(4200)
     if case == "torus":
-        X = torus(rng, 1500)
+        X = torus(1500, rng)
         g = build_graph(X[:, 0], X)
     elif case == "circles":
         X, _ = make_circles(800, noise=0.03, factor=0.5, random_state=1)
@@ -217,7 +203,7 @@ def test_bad_inputs():
 
 def test_deterministic_and_row_order_free():
     rng = np.random.default_rng(4700)
-    X = torus(rng, 1200)
+    X = torus(1200, rng)
     a = build_graph(X[:, 0], X)
     b = build_graph(X[:, 0], X)
     assert a == b
@@ -281,7 +267,7 @@ def test_summary_of_a_ring_with_a_tail_and_a_path():
 # --------------------------------------------------------------------------- layout, drawing
 def test_level_layout_reads_the_lens():
     rng = np.random.default_rng(4900)
-    X = torus(rng, 1500)
+    X = torus(1500, rng)
     g = build_graph(X[:, 0], X)
     pos = graph_layout(g)
     assert_allclose(pos[:, 1], g.node_values("lens"), rtol=0, atol=0)  # y = node lens mean
@@ -319,7 +305,7 @@ def test_other_layouts(method):
 
 def test_draw_png_and_svg(tmp_path):
     rng = np.random.default_rng(5100)
-    X = torus(rng, 1200)
+    X = torus(1200, rng)
     g = build_graph(X[:, 0], X, columns=["x2"])
     png = draw_graph(g, tmp_path / "g.png", color="x2")
     assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # the PNG signature (PNG spec 5.2)

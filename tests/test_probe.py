@@ -7,6 +7,7 @@ from collections import Counter
 import networkx as nx
 import numpy as np
 import pytest
+from _shapes import noisy_circle, torus
 from numpy.testing import assert_allclose
 from scipy import ndimage
 
@@ -26,28 +27,6 @@ from lenswork import (
 )
 from lenswork.graph import build_graph
 from lenswork.probe import FEATURE_WEIGHTS, _mode, _region, _score
-
-
-def noisy_circle(n, rng, noise=0.03):
-    t = rng.uniform(0, 2 * np.pi, n)
-    return np.column_stack([np.cos(t), np.sin(t)]) + rng.normal(0, noise, (n, 2))
-
-
-def torus(n, rng, R=3.0, r=1.0):
-    """Points uniform in area on the torus ((R + r cos v) cos u, (R + r cos v) sin u, r sin v).
-
-    The area element is r (R + r cos v) du dv, so v is drawn by rejection on R + r cos v.
-    """
-    out, m = [], 0
-    while m < n:
-        u = rng.uniform(0, 2 * np.pi, 2 * n)
-        v = rng.uniform(0, 2 * np.pi, 2 * n)
-        keep = rng.uniform(0, R + r, 2 * n) < R + r * np.cos(v)
-        u, v = u[keep], v[keep]
-        out.append(np.column_stack([(R + r * np.cos(v)) * np.cos(u),
-                                    (R + r * np.cos(v)) * np.sin(u), r * np.sin(v)]))
-        m += u.size
-    return np.vstack(out)[:n]
 
 
 def _networkx_counts(graph):

@@ -47,7 +47,8 @@ def test_npy_and_parquet(tmp_path):
     assert_allclose(back["b"], table["b"].values, rtol=0)
 
 
-def test_excluded_rows_written_as_missing(tmp_path):
+def _cloud_without_row_3():
+    """Rows 2, 4, 5 of an input whose row 3 (id r2) was kept out (as load_table reports it)."""
     X = np.arange(6.0).reshape(3, 2)
     cloud = PointCloud(
         X=X, feature_names=("p", "q"), ids=np.array(["r1", "r3", "r4"], dtype=object),
@@ -55,6 +56,11 @@ def test_excluded_rows_written_as_missing(tmp_path):
         excluded=(ExcludedRow(row=3, id="r2", reason="NaN in column 'p'"),),
         provenance={"source": "test", "sha256": "0", "scaling": None},
     )
+    return X, cloud
+
+
+def test_excluded_rows_written_as_missing(tmp_path):
+    X, cloud = _cloud_without_row_3()
     table = LensTable([LensColumn("p", X[:, 0])], cloud)
     path, sidecar = table.write(tmp_path / "o.csv")
     with open(path, newline="") as fh:
@@ -103,13 +109,7 @@ def test_read_normalized_parquet_and_rows_in_another_order(tmp_path):
 
 
 def test_read_reports_missing_rows_and_npy_files(tmp_path):
-    X = np.arange(6.0).reshape(3, 2)
-    cloud = PointCloud(
-        X=X, feature_names=("p", "q"), ids=np.array(["r1", "r3", "r4"], dtype=object),
-        id_name="id", passthrough={}, row_numbers=np.array([2, 4, 5]),
-        excluded=(ExcludedRow(row=3, id="r2", reason="NaN in column 'p'"),),
-        provenance={"source": "test", "sha256": "0", "scaling": None},
-    )
+    X, cloud = _cloud_without_row_3()
     path, _ = LensTable([LensColumn("p", X[:, 0])], cloud).write(tmp_path / "o.csv")
     wants_r2 = PointCloud.from_array(np.zeros((2, 1)), ids=np.array(["r1", "r2"], dtype=object))
     with pytest.raises(InputError, match=r"\(id r2\) has a missing lens value"):

@@ -32,6 +32,7 @@ def test_values_and_layout_match_numpy():
         (np.array([True]), {"allow_bool": False}, "holds bool values"),
         (np.array([["a", "b"]]), {}, "must be numeric .* could not be read as numbers"),
         (np.array([10**400], dtype=object), {}, "could not be read as numbers"),
+        ([[1.0, 2.0], [3.0]], {}, "could not be read as numbers"),  # ragged rows
         (np.zeros((2, 2, 2)), {}, r"got 3 dimensions \(shape \(2, 2, 2\)\)"),
         (np.zeros((0, 3)), {}, r"is empty \(shape \(0, 3\)\)"),
         (np.zeros((3, 0)), {}, r"is empty \(shape \(3, 0\)\)"),

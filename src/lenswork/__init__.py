@@ -10,7 +10,8 @@ Lenses
 Lens functions and transformers
     pca_coordinates, PCALens, distance_to_measure, DistanceToMeasure,
     knn_distance, KNNDistance, data_column, gaussian_density, GaussianDensity,
-    scott_bandwidth, silverman_bandwidth, eccentricity, Eccentricity, geodesic_eccentricity
+    scott_bandwidth, silverman_bandwidth, eccentricity, Eccentricity, geodesic_eccentricity,
+    laplacian_eigenmaps, LaplacianLens
 Screening
     screen, ScreenResult, spread_score, SpreadScore, histogram_entropy, spearman_matrix,
     select_lenses, Selection, default_candidates
@@ -52,6 +53,7 @@ from .lenses._density import (
 )
 from .lenses._dtm import DistanceToMeasure, KNNDistance, distance_to_measure, knn_distance
 from .lenses._eccentricity import Eccentricity, eccentricity, geodesic_eccentricity
+from .lenses._laplacian import LaplacianLens, laplacian_eigenmaps
 from .lenses._pca import PCALens, pca_coordinates
 from .normalize import normalize
 from .probe import StabilityMap, StructureProbe, feature_counts, stability_map, structure_scores
@@ -80,6 +82,7 @@ __all__ = [
     "GraphSummary",
     "InputError",
     "KNNDistance",
+    "LaplacianLens",
     "LensColumn",
     "LensGraph",
     "LensTable",
@@ -114,6 +117,7 @@ __all__ = [
     "histogram_entropy",
     "induced_partition",
     "knn_distance",
+    "laplacian_eigenmaps",
     "lens_names",
     "load_table",
     "neighbor_graph",

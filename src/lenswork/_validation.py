@@ -38,14 +38,20 @@ def _interval(lo, hi, lo_open, hi_open):
     return f"{left}{lo_s}, {hi_s}{right}"
 
 
+def _from_text(value, convert, name, context, expected):
+    """``convert(value)`` for a string (CLI ``key=value`` text); any other value as it is."""
+    if not isinstance(value, str):
+        return value
+    try:
+        return convert(value.strip())
+    except ValueError:
+        _fail(name, context, expected, value)
+
+
 def check_int(name, value, *, lo=None, hi=None, context=""):
     """Return ``value`` as an int within ``[lo, hi]`` or raise ParameterError."""
     expected = f"an int in {_interval(lo, hi, False, hi is None)}"
-    if isinstance(value, str):
-        try:
-            value = int(value.strip())
-        except ValueError:
-            _fail(name, context, expected, value)
+    value = _from_text(value, int, name, context, expected)
     if isinstance(value, bool) or not isinstance(value, numbers.Integral):
         if isinstance(value, numbers.Real) and float(value).is_integer():
             value = int(value)
@@ -60,11 +66,7 @@ def check_int(name, value, *, lo=None, hi=None, context=""):
 def check_float(name, value, *, lo=None, hi=None, lo_open=False, hi_open=False, context=""):
     """Return ``value`` as a finite float within the interval or raise ParameterError."""
     expected = f"a float in {_interval(lo, hi, lo_open or lo is None, hi_open or hi is None)}"
-    if isinstance(value, str):
-        try:
-            value = float(value.strip())
-        except ValueError:
-            _fail(name, context, expected, value)
+    value = _from_text(value, float, name, context, expected)
     if isinstance(value, bool) or not isinstance(value, numbers.Real):
         _fail(name, context, expected, value)
     value = float(value)
@@ -199,20 +201,20 @@ def check_array(X, context, *, min_rows=1, names=None, label=None, allow_bool=Tr
     The data given to f has a non-finite value (nan) in row 2, column 2
     """
     subject = _subject(context, label)
-    arr = np.asarray(X)
     rejected = "cmMV" if allow_bool else "bcmMV"
-    if arr.dtype.kind in rejected:
-        raise InputError(
-            f"{subject} holds {arr.dtype} values; expected real numbers. Convert them to floats "
-            f"first."
-        )
     try:
-        arr = np.asarray(arr, dtype=np.float64)
+        given = np.asarray(X)
+        arr = None if given.dtype.kind in rejected else np.asarray(given, dtype=np.float64)
     except (TypeError, ValueError, OverflowError) as err:
         raise InputError(
             f"{subject} must be numeric (an array of shape (n_samples, n_features)); it could "
             f"not be read as numbers ({err}). Select the numeric columns first."
         ) from None
+    if arr is None:
+        raise InputError(
+            f"{subject} holds {given.dtype} values; expected real numbers. Convert them to floats "
+            f"first."
+        )
     if arr.ndim == 1:
         arr = arr[:, None]
     if arr.ndim != 2:

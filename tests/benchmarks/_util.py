@@ -1,10 +1,26 @@
-"""Helpers shared by the benchmark scripts: timing, peak memory, table printing."""
+"""Helpers shared by the benchmark scripts: timing, peak memory, printing, the --quick flag.
+
+The sample generators of the tests (``tests/_shapes.py``) are re-exported here,
+so a benchmark draws the same shapes as the tests that check them.
+"""
 
 from __future__ import annotations
 
+import argparse
 import resource
+import sys
 import time
 import tracemalloc
+from pathlib import Path
+
+_TESTS = str(Path(__file__).resolve().parents[1])
+if _TESTS not in sys.path:
+    sys.path.insert(0, _TESTS)
+
+from _shapes import noisy_circle, torus  # noqa: E402
+
+__all__ = ["measure", "noisy_circle", "print_records", "print_table", "quick_flag", "timed",
+           "torus"]
 
 
 def measure(fn, *args, **kwargs):
@@ -19,6 +35,13 @@ def measure(fn, *args, **kwargs):
     return out, seconds, peak / 2**20, rss
 
 
+def timed(fn, *args, **kwargs):
+    """Run ``fn`` once without tracing (tracemalloc slows Python code down); (result, seconds)."""
+    start = time.perf_counter()
+    out = fn(*args, **kwargs)
+    return out, time.perf_counter() - start
+
+
 def print_table(rows, columns=None):
     """Print a list of dicts as an aligned text table."""
     if not rows:
@@ -29,6 +52,20 @@ def print_table(rows, columns=None):
     print("  ".join(c.ljust(w) for c, w in zip(columns, widths)))
     for t in text:
         print("  ".join(v.ljust(w) for v, w in zip(t, widths)))
+
+
+def print_records(rows, keys):
+    """Print each dict as one line of ``key=value`` pairs (the keys given, in order, if set)."""
+    for r in rows:
+        parts = [f"{k}={_fmt(r[k])}" for k in keys if r.get(k) is not None]
+        print("  ".join(parts), flush=True)
+
+
+def quick_flag(doc, help="small sizes, a smoke run"):
+    """Parse the command line of a script whose one option is ``--quick``; return it."""
+    parser = argparse.ArgumentParser(description=doc.splitlines()[0])
+    parser.add_argument("--quick", action="store_true", help=help)
+    return parser.parse_args().quick
 
 
 def _fmt(v):

@@ -9,32 +9,21 @@ Reference: scipy.stats.gaussian_kde (same Scott bandwidth, full covariance).
 
 from __future__ import annotations
 
-import argparse
 import time
-import tracemalloc
 
 import numpy as np
+from _util import measure, print_records, quick_flag
 from scipy.stats import gaussian_kde
 
 from lenswork import gaussian_density
 
 
-def _timed(fn):
-    tracemalloc.start()
-    start = time.perf_counter()
-    out = fn()
-    seconds = time.perf_counter() - start
-    peak = tracemalloc.get_traced_memory()[1] / 2**20
-    tracemalloc.stop()
-    return out, seconds, peak
-
-
 def _exact_vs_scipy(n, d, rng):
     X = rng.normal(size=(n, d))
-    ref, t_ref, _ = _timed(lambda: gaussian_kde(X.T)(X.T))
+    ref, t_ref, _, _ = measure(lambda: gaussian_kde(X.T)(X.T))
     rows = []
     for precision in ("float64", "float32"):
-        ours, t, peak = _timed(
+        ours, t, peak, _ = measure(
             lambda precision=precision: gaussian_density(
                 X, mode="exact", log=False, precision=precision
             )
@@ -50,7 +39,7 @@ def _exact_vs_scipy(n, d, rng):
 
 def _scalable(n, d, rng, precision="float64", check=200, bandwidth="scott", mode="auto"):
     X = rng.normal(size=(n, d))
-    (values, info), t, peak = _timed(
+    (values, info), t, peak, _ = measure(
         lambda: gaussian_density(X, mode=mode, precision=precision, bandwidth=bandwidth,
                                  return_info=True)
     )
@@ -108,22 +97,11 @@ def run(quick=False):
     return results
 
 
-def _print(results):
-    keys = ["bench", "n", "d", "mode", "seconds", "ref_seconds", "ratio", "peak_mb",
+KEYS = ["bench", "n", "d", "mode", "seconds", "ref_seconds", "ratio", "peak_mb",
             "max_rel_err", "within_rtol_1e-6", "median_rel_err", "p90_rel_err",
             "rel_se_median", "within_3se", "self_share_median", "others_median_rel_err",
             "others_rel_se_median", "check_seconds"]
-    for r in results:
-        parts = []
-        for k in keys:
-            if r.get(k) is None:
-                continue
-            v = r[k]
-            parts.append(f"{k}={v:.4g}" if isinstance(v, float) else f"{k}={v}")
-        print("  ".join(parts), flush=True)
 
 
 if __name__ == "__main__":
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--quick", action="store_true", help="small smoke run")
-    _print(run(quick=parser.parse_args().quick))
+    print_records(run(quick=quick_flag(__doc__, "small smoke run")), KEYS)

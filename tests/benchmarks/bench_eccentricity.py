@@ -8,25 +8,13 @@
 
 from __future__ import annotations
 
-import argparse
 import math
-import time
-import tracemalloc
 
 import numpy as np
+from _util import measure, print_records, quick_flag
 from scipy.spatial.distance import cdist
 
 from lenswork import eccentricity, geodesic_eccentricity, neighbor_graph
-
-
-def _timed(fn):
-    tracemalloc.start()
-    start = time.perf_counter()
-    out = fn()
-    seconds = time.perf_counter() - start
-    peak = tracemalloc.get_traced_memory()[1] / 2**20
-    tracemalloc.stop()
-    return out, seconds, peak
 
 
 def _cdist_eccentricity(X, p, block=2000):
@@ -40,8 +28,8 @@ def _cdist_eccentricity(X, p, block=2000):
 
 def _versus_cdist(n, d, p, rng):
     X = rng.normal(size=(n, d))
-    ref, t_ref, _ = _timed(lambda: _cdist_eccentricity(X, p))
-    ours, t, peak = _timed(lambda: eccentricity(X, p=p, mode="exact"))
+    ref, t_ref, _, _ = measure(lambda: _cdist_eccentricity(X, p))
+    ours, t, peak, _ = measure(lambda: eccentricity(X, p=p, mode="exact"))
     return {
         "bench": f"eccentricity p={p:g} vs cdist", "n": n, "d": d, "seconds": t,
         "ref_seconds": t_ref, "ratio": t_ref / t, "peak_mb": peak,
@@ -51,7 +39,7 @@ def _versus_cdist(n, d, p, rng):
 
 def _scaling(n, d, p, rng):
     X = rng.normal(size=(n, d))
-    (values, info), t, peak = _timed(lambda: eccentricity(X, p=p, return_info=True))
+    (values, info), t, peak, _ = measure(lambda: eccentricity(X, p=p, return_info=True))
     row = {"bench": f"eccentricity p={p:g} auto", "n": n, "d": d, "seconds": t, "peak_mb": peak,
            "mode": info["mode"]}
     if "rel_se_median" in info:
@@ -66,8 +54,8 @@ def _geodesic(n, rng, landmarks=200, k=15):
     u, v = rng.uniform(0, 2 * np.pi, (2, n))
     X = np.c_[(2 + np.cos(v)) * np.cos(u), (2 + np.cos(v)) * np.sin(u), np.sin(v)]
     X += rng.normal(scale=0.02, size=X.shape)
-    graph, t_graph, _ = _timed(lambda: neighbor_graph(X, k))
-    (values, info), t, peak = _timed(
+    graph, t_graph, _, _ = measure(lambda: neighbor_graph(X, k))
+    (values, info), t, peak, _ = measure(
         lambda: geodesic_eccentricity(X, neighbors=graph, landmarks=landmarks, return_info=True)
     )
     return {
@@ -93,20 +81,9 @@ def run(quick=False):
     return results
 
 
-def _print(results):
-    keys = ["bench", "n", "d", "mode", "seconds", "ref_seconds", "ratio", "graph_seconds",
+KEYS = ["bench", "n", "d", "mode", "seconds", "ref_seconds", "ratio", "graph_seconds",
             "peak_mb", "max_rel_err", "rel_se_median", "rel_gap_median"]
-    for r in results:
-        parts = []
-        for k in keys:
-            if r.get(k) is None:
-                continue
-            v = r[k]
-            parts.append(f"{k}={v:.4g}" if isinstance(v, float) else f"{k}={v}")
-        print("  ".join(parts), flush=True)
 
 
 if __name__ == "__main__":
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--quick", action="store_true", help="small smoke run")
-    _print(run(quick=parser.parse_args().quick))
+    print_records(run(quick=quick_flag(__doc__, "small smoke run")), KEYS)

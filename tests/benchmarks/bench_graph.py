@@ -19,23 +19,16 @@ Run:  flock /tmp/lenswork-bench.lock python tests/benchmarks/bench_graph.py [--q
 
 from __future__ import annotations
 
-import argparse
 import time
 import warnings
 
 import numpy as np
-from _util import measure, print_table
+from _util import measure, print_table, quick_flag, timed
 
 from lenswork import LensworkWarning, Workspace
 from lenswork.graph import Cover, build_graph, membership_matrix, neighbor_cutoff, nerve_edges
 from lenswork.graph._build import node_statistics
 from lenswork.graph._cluster import _cut_indices, cluster_elements
-
-
-def _timed(fn, *args, **kwargs):
-    start = time.perf_counter()
-    out = fn(*args, **kwargs)
-    return out, time.perf_counter() - start
 
 
 def _baseline_clusters(ws, rows, elements, k, cutoff):
@@ -59,28 +52,28 @@ def run_size(n, rng, intervals=20, overlap=0.3, k=15):
     X = rng.normal(size=(n, 3))
     lens = X[:, 0]
     ws = Workspace(X)
-    _, t_knn = _timed(ws.neighbors, k)
-    cutoff, t_cut = _timed(neighbor_cutoff, ws, k)
-    _, t_cutidx = _timed(_cut_indices, ws, k, "euclidean", cutoff)
-    cover, t_fit = _timed(Cover(intervals=intervals, overlap=overlap).fit, lens)
-    (rows, elements), t_inc = _timed(cover.incidence, order=cover.values_[:, 0])
-    result, t_cl = _timed(cluster_elements, ws, rows, elements, k=k)
+    _, t_knn = timed(ws.neighbors, k)
+    cutoff, t_cut = timed(neighbor_cutoff, ws, k)
+    _, t_cutidx = timed(_cut_indices, ws, k, "euclidean", cutoff)
+    cover, t_fit = timed(Cover(intervals=intervals, overlap=overlap).fit, lens)
+    (rows, elements), t_inc = timed(cover.incidence, order=cover.values_[:, 0])
+    result, t_cl = timed(cluster_elements, ws, rows, elements, k=k)
     V = result.node_element.size
 
     def nerve():
         M = membership_matrix(result.rows, result.nodes, n, V)
         return M, nerve_edges(M)
 
-    (M, _), t_nerve = _timed(nerve)
-    _, t_stats = _timed(node_statistics, M, {"lens": lens})
+    (M, _), t_nerve = timed(nerve)
+    _, t_stats = timed(node_statistics, M, {"lens": lens})
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", LensworkWarning)
-        g, t_build = _timed(build_graph, lens, ws, intervals=intervals, overlap=overlap, k=k)
-        _, t_build2 = _timed(build_graph, lens, ws, intervals=intervals, overlap=overlap, k=k)
+        g, t_build = timed(build_graph, lens, ws, intervals=intervals, overlap=overlap, k=k)
+        _, t_build2 = timed(build_graph, lens, ws, intervals=intervals, overlap=overlap, k=k)
         _, secs_mem, peak, rss = measure(build_graph, lens, ws, intervals=intervals,
                                          overlap=overlap, k=k)
-    _, t_summary = _timed(lambda: g.summary().loops)
-    _, t_base = _timed(_baseline_clusters, ws, rows, elements, k, cutoff)
+    _, t_summary = timed(lambda: g.summary().loops)
+    _, t_base = timed(_baseline_clusters, ws, rows, elements, k, cutoff)
     core = t_fit + t_inc + t_cl + t_nerve
     return {
         "n": n, "knn_graph_s": t_knn, "cutoff_s": t_cut, "cut_lists_s": t_cutidx,
@@ -96,7 +89,7 @@ def run_size(n, rng, intervals=20, overlap=0.3, k=15):
 def run_sweep(n, rng, k=15):
     X = rng.normal(size=(n, 3))
     ws = Workspace(X)
-    _, t_knn = _timed(ws.neighbors, k)
+    _, t_knn = timed(ws.neighbors, k)
     start = time.perf_counter()
     count = 0
     with warnings.catch_warnings():
@@ -134,7 +127,4 @@ def run(quick=False):
 
 
 if __name__ == "__main__":
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--quick", action="store_true", help="small sizes, a smoke run")
-    args = parser.parse_args()
-    run(args.quick)
+    run(quick_flag(__doc__))

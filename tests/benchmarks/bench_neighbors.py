@@ -13,11 +13,10 @@ Run:  flock /tmp/lenswork-bench.lock python tests/benchmarks/bench_neighbors.py 
 
 from __future__ import annotations
 
-import argparse
 import time
 
 import numpy as np
-from _util import measure, print_table
+from _util import measure, print_table, quick_flag
 
 from lenswork import neighbor_graph
 
@@ -57,7 +56,4 @@ def run(quick=False):
 
 
 if __name__ == "__main__":
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--quick", action="store_true", help="small sizes, a smoke run")
-    args = parser.parse_args()
-    print_table(run(args.quick))
+    print_table(run(quick_flag(__doc__)))

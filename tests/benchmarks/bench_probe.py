@@ -20,12 +20,10 @@ Run:  flock /tmp/lenswork-bench.lock python tests/benchmarks/bench_probe.py [--q
 
 from __future__ import annotations
 
-import argparse
 import math
-import time
 
 import numpy as np
-from _util import measure, print_table
+from _util import measure, print_table, quick_flag, timed, torus
 
 from lenswork import LensColumn, Workspace, stability_map, structure_scores
 
@@ -33,40 +31,20 @@ GRID_INTERVALS = (6, 8, 10, 12, 14)
 GRID_OVERLAPS = (0.2, 0.3, 0.4, 0.5)
 
 
-def torus(n, rng, R=3.0, r=1.0, noise=0.05):
-    """Points near a torus, uniform in area (rejection on the (R + r cos v) density)."""
-    out = []
-    while sum(len(o) for o in out) < n:
-        u = rng.uniform(0, 2 * np.pi, 2 * n)
-        v = rng.uniform(0, 2 * np.pi, 2 * n)
-        keep = rng.uniform(0, R + r, 2 * n) < R + r * np.cos(v)
-        u, v = u[keep], v[keep]
-        out.append(np.column_stack([(R + r * np.cos(v)) * np.cos(u),
-                                    (R + r * np.cos(v)) * np.sin(u), r * np.sin(v)]))
-    X = np.vstack(out)[:n]
-    return X + rng.normal(0, noise, X.shape)
-
-
-def _timed(fn, *args, **kwargs):
-    start = time.perf_counter()
-    out = fn(*args, **kwargs)
-    return out, time.perf_counter() - start
-
-
 def run(quick=False):
     rng = np.random.default_rng(20261202)
     sizes = [10_000, 20_000] if quick else [10_000, 30_000, 100_000]
-    Workspace(torus(500, rng)).neighbors(15)  # import scikit-learn before timing
+    Workspace(torus(500, rng, noise=0.05)).neighbors(15)  # import scikit-learn before timing
     rows, probe_t = [], {}
     for n in sizes:
-        X = torus(n, rng)
+        X = torus(n, rng, noise=0.05)
         lens = LensColumn("height", X[:, 0])
         # timings without tracemalloc (it slows Python code down); memory in a second run
         ws = Workspace(X, random_state=0)
-        g, t_nn = _timed(ws.neighbors, 15)
-        probe, t_probe = _timed(structure_scores, [lens], ws, intervals=GRID_INTERVALS,
+        g, t_nn = timed(ws.neighbors, 15)
+        probe, t_probe = timed(structure_scores, [lens], ws, intervals=GRID_INTERVALS,
                                 overlaps=GRID_OVERLAPS)
-        smap, t_map = _timed(stability_map, lens, ws)
+        smap, t_map = timed(stability_map, lens, ws)
         probe_t[n] = t_probe
         ws2 = Workspace(X, random_state=0)
         ws2.neighbors(15)
@@ -92,6 +70,4 @@ def run(quick=False):
 
 
 if __name__ == "__main__":
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--quick", action="store_true", help="small sizes, a smoke run")
-    run(parser.parse_args().quick)
+    run(quick_flag(__doc__))

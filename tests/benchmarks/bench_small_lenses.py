@@ -23,11 +23,10 @@ Run:  flock /tmp/lenswork-bench.lock python tests/benchmarks/bench_small_lenses.
 
 from __future__ import annotations
 
-import argparse
 import time
 
 import numpy as np
-from _util import measure, print_table
+from _util import measure, print_table, quick_flag
 from sklearn.decomposition import PCA
 
 from lenswork import Workspace, distance_to_measure, get_lens, knn_distance, pca_coordinates
@@ -159,7 +158,4 @@ def run(quick=False):
 
 
 if __name__ == "__main__":
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--quick", action="store_true", help="small sizes, a smoke run")
-    args = parser.parse_args()
-    print_table(run(args.quick))
+    print_table(run(quick_flag(__doc__)))

@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import functools
 import warnings
+from pathlib import Path
 
 import click
 
-from .._errors import LensworkError, LensworkWarning
+from .._errors import LensworkError, LensworkWarning, ParameterError
 
 __all__: list[str] = []
 
@@ -90,3 +91,41 @@ def load_input(table, demo, features, id_column, scale, skip_invalid, delimiter=
         invalid="exclude" if skip_invalid else "error", delimiter=delimiter,
     )
 
+
+def number_list(text, cast, option):
+    """'10' -> 10, '10,12' -> [10, 12] (one value per lens column), None -> None."""
+    if text is None:
+        return None
+    parts = [p.strip() for p in str(text).split(",") if p.strip()]
+    try:
+        values = [cast(p) for p in parts]
+    except ValueError:
+        raise ParameterError(
+            f"The {option} option must be a number or comma-separated numbers, one per lens; "
+            f"got {text!r}."
+        ) from None
+    if not values:
+        raise ParameterError(f"The {option} option is empty; give a number such as {option} 10.")
+    return values[0] if len(values) == 1 else values
+
+
+def cutoff_value(text, words=("auto", "fence", "none")):
+    """The --cutoff option: one of ``words`` or a number."""
+    word = str(text).strip().lower()
+    if word in words:
+        return word
+    try:
+        return float(word)
+    except ValueError:
+        raise ParameterError(
+            f"The --cutoff option must be {', '.join(repr(w) for w in words)} or a non-negative "
+            f"number; got {text!r}."
+        ) from None
+
+
+def output_dir(path):
+    """``path`` as a Path, or ParameterError when it names an existing file."""
+    path = Path(path)
+    if path.exists() and not path.is_dir():
+        raise ParameterError(f"Output directory {str(path)!r} is a file; give a directory path.")
+    return path

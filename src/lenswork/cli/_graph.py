@@ -2,13 +2,10 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import click
 
-from .._errors import ParameterError
 from ..graph import CLUSTERERS, COVER_SCALES, FRAGMENT_RULES, LAYOUTS
-from ._common import input_options
+from ._common import cutoff_value, input_options, number_list, output_dir
 
 __all__ = ["COMMANDS"]
 
@@ -17,34 +14,6 @@ OUTPUTS = {
     "graphml": "graph.graphml", "json": "graph.json", "members": "memberships.csv",
     "png": "graph.png", "svg": "graph.svg",
 }
-
-
-def _numbers(text, cast, option):
-    """'10' -> 10 and '10,12' -> [10, 12] (one value per lens)."""
-    parts = [p.strip() for p in str(text).split(",") if p.strip()]
-    try:
-        values = [cast(p) for p in parts]
-    except ValueError:
-        raise ParameterError(
-            f"The {option} option must be a number or comma-separated numbers, one per lens; "
-            f"got {text!r}."
-        ) from None
-    if not values:
-        raise ParameterError(f"The {option} option is empty; give a number such as {option} 10.")
-    return values[0] if len(values) == 1 else values
-
-
-def _cutoff(text):
-    word = str(text).strip().lower()
-    if word in ("auto", "fence", "none"):
-        return word
-    try:
-        return float(word)
-    except ValueError:
-        raise ParameterError(
-            f"The --cutoff option must be 'auto', 'fence', 'none' or a non-negative number; "
-            f"got {text!r}."
-        ) from None
 
 
 def _names(text):
@@ -122,9 +91,7 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, intervals, overlap, c
         raise click.UsageError("Give at least one --lens or a --lens-file.")
     if use and not lens_file:
         raise click.UsageError("--use picks columns of a --lens-file; give the --lens-file too.")
-    out = Path(out_dir)
-    if out.exists() and not out.is_dir():
-        raise ParameterError(f"Output directory {str(out)!r} is a file; give a directory path.")
+    out = output_dir(out_dir)
     ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
     columns = []
     if lens_file:
@@ -133,9 +100,9 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, intervals, overlap, c
         columns += list(compute_lenses(ws, list(lens_specs)))
     table = LensTable(columns, cloud, random_state=seed)
     graph = build_graph(
-        table, ws, intervals=_numbers(intervals, int, "--intervals"),
-        overlap=_numbers(overlap, float, "--overlap"), scale=cover_scale, clusterer=clusterer,
-        cutoff=_cutoff(cutoff), min_size=min_size, k=k, columns=_names(stat_columns),
+        table, ws, intervals=number_list(intervals, int, "--intervals"),
+        overlap=number_list(overlap, float, "--overlap"), scale=cover_scale, clusterer=clusterer,
+        cutoff=cutoff_value(cutoff), min_size=min_size, k=k, columns=_names(stat_columns),
         fragments=fragments,
     )
     if color is not None:

@@ -2,12 +2,9 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import click
 
-from .._errors import ParameterError
-from ._common import input_options
+from ._common import cutoff_value, input_options, number_list, output_dir
 
 __all__ = ["COMMANDS"]
 
@@ -44,36 +41,8 @@ def _graph_options(grid=False):
     return decorator
 
 
-def _cutoff(text):
-    text = str(text).strip().lower()
-    if text in ("auto", "none"):
-        return text
-    try:
-        return float(text)
-    except ValueError:
-        raise ParameterError(
-            f"The --cutoff option must be 'auto', 'none' or a non-negative number; got {text!r}."
-        ) from None
-
-
-def _per_lens(text, cast, name):
-    """'10' -> 10; '10,12' -> [10, 12]; None -> None."""
-    if text is None:
-        return None
-    parts = [p.strip() for p in str(text).split(",") if p.strip()]
-    try:
-        values = [cast(p) for p in parts]
-    except ValueError:
-        raise ParameterError(
-            f"The {name} option must be a number or comma-separated numbers; got {text!r}."
-        ) from None
-    if not values:
-        raise ParameterError(f"The {name} option is empty; give a number, e.g. {name} 10.")
-    return values[0] if len(values) == 1 else values
-
-
 def _settings(k, cutoff, min_size, cover_scale):
-    out = {"k": k, "cutoff": _cutoff(cutoff), "scale": cover_scale}
+    out = {"k": k, "cutoff": cutoff_value(cutoff, ("auto", "none")), "scale": cover_scale}
     if min_size is not None:
         out["min_size"] = min_size
     return out
@@ -89,13 +58,6 @@ def _lens(ws, spec):
     from ..lenses import compute_lenses
 
     return compute_lenses(ws, [spec])
-
-
-def _out_dir(path):
-    path = Path(path)
-    if path.exists() and not path.is_dir():
-        raise ParameterError(f"Output directory {str(path)!r} is a file; give a directory path.")
-    return path
 
 
 _LENS_HELP = ("A lens as name or name:key=value,... (`lenswork lenses` lists them). A lens with "
@@ -128,7 +90,7 @@ def stability(cloud, seed, lens, grid_intervals, grid_overlaps, out, no_figure, 
     """
     from ..probe import stability_map
 
-    out = _out_dir(out)
+    out = output_dir(out)
     ws = _workspace(cloud, seed, neighbor_method)
     smap = stability_map(_lens(ws, lens), ws, intervals=grid_intervals, overlaps=grid_overlaps,
                          **_settings(k, cutoff, min_size, cover_scale))
@@ -190,12 +152,12 @@ def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_f
     """
     from ..bootstrap import bootstrap_graph
 
-    out = _out_dir(out)
+    out = output_dir(out)
     ws = _workspace(cloud, seed, neighbor_method)
     result = bootstrap_graph(
         _lens(ws, lens), ws, resamples=resamples, scheme=scheme, fraction=fraction,
-        intervals=_per_lens(intervals, int, "--intervals"),
-        overlap=_per_lens(overlap, float, "--overlap"), suggest=suggest, random_state=seed,
+        intervals=number_list(intervals, int, "--intervals"),
+        overlap=number_list(overlap, float, "--overlap"), suggest=suggest, random_state=seed,
         **_settings(k, cutoff, min_size, cover_scale),
     )
     if result.suggestion is not None:
@@ -242,11 +204,11 @@ def compare(cloud, seed, lenses, partition, match, out, no_figure, k, cutoff, mi
 
     if len(lenses) < 2:
         raise click.UsageError("Give at least two --lens options: one per view.")
-    out = _out_dir(out)
+    out = output_dir(out)
     ws = _workspace(cloud, seed, neighbor_method)
     settings = _settings(k, cutoff, min_size, cover_scale)
-    iv = _per_lens(intervals, int, "--intervals")
-    ov = _per_lens(overlap, float, "--overlap")
+    iv = number_list(intervals, int, "--intervals")
+    ov = number_list(overlap, float, "--overlap")
     if iv is not None:
         settings["intervals"] = iv
     if ov is not None:

@@ -28,6 +28,7 @@ import numpy as np
 from scipy.sparse.csgraph import connected_components
 
 from .._validation import check_choice
+from ._summary import _neighbours
 
 __all__ = ["LAYOUTS", "graph_layout"]
 
@@ -119,14 +120,6 @@ def graph_layout(graph, method="auto", random_state=0):
         offset += width + 1.5
     pos -= pos.mean(axis=0)
     return pos
-
-
-def _neighbours(V, edges):
-    nb = [[] for _ in range(V)]
-    for a, b in edges.tolist():
-        nb[a].append(b)
-        nb[b].append(a)
-    return nb
 
 
 def _centred(order):

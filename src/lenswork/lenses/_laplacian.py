@@ -87,8 +87,13 @@ _MIN_WEIGHT = 1e-10
 _DENSE_MAX = 1000
 #: Coarsening stops once a level has at most this many vertices.
 _COARSEST = 500
+#: Largest coarsest level solved exactly (dense) in the preconditioner.
+_COARSE_DENSE_MAX = 3000
 #: Vertices per aggregate (one random seed in this many vertices).
 _RATIO = 8
+#: An edge is strong (may join an aggregate) when its weight is at least this share of
+#: the largest edge weight at either end.
+_STRONG = 0.01
 #: Prolongations are smoothed while the aggregates' graph has at most this many
 #: entries per row (2-D and 3-D manifolds: 7-17; 20-d Gaussian data: 90-140).
 _SMOOTH_MAX_DEGREE = 32
@@ -262,18 +267,43 @@ def _sym(G):
 
 
 # ------------------------------------------------------------------ multilevel pieces
-def _aggregate(W, rng):
-    """Aggregate the vertices of a connected graph around random seeds (hop-nearest seed)."""
+def _strong_edges(W):
+    """Pattern of the strong edges: weight >= _STRONG * the largest edge weight at either end."""
     n = W.shape[0]
-    nc = max(n // _RATIO, 2)
-    seeds = np.sort(rng.choice(n, size=nc, replace=False))
+    rows = np.repeat(np.arange(n), np.diff(W.indptr))
+    off = W.indices != rows
+    wmax = np.zeros(n)
+    np.maximum.at(wmax, rows[off], W.data[off])
+    keep = off & (W.data >= _STRONG * np.maximum(wmax[rows], wmax[W.indices]))
+    return sp.csr_matrix(
+        (np.ones(int(keep.sum())), (rows[keep], W.indices[keep])), shape=W.shape
+    )
+
+
+def _aggregate(W, rng):
+    """Aggregate vertices around random seeds, each joining the hop-nearest seed.
+
+    Hops follow strong edges only (classical strength of connection in algebraic
+    multigrid), so a weakly attached vertex or clump is not merged into its
+    neighbours: every group of strongly connected vertices without a seed gets
+    one, and becomes its own aggregate. Returns (agg, coarse graph P^T W P).
+    """
+    n = W.shape[0]
+    Ws = _strong_edges(W)
+    seeds = rng.choice(n, size=max(n // _RATIO, 1), replace=False)
+    ns, label = connected_components(Ws, directed=False)
+    seeded = np.zeros(ns, dtype=bool)
+    seeded[label[seeds]] = True
+    if not seeded.all():
+        _, first = np.unique(label, return_index=True)
+        seeds = np.concatenate([seeds, first[~seeded]])
+    seeds = np.sort(seeds)
     _, _, sources = dijkstra(
-        W, directed=False, indices=seeds, unweighted=True, min_only=True,
+        Ws, directed=False, indices=seeds, unweighted=True, min_only=True,
         return_predecessors=True,
     )
     agg = np.searchsorted(seeds, sources)
-    if np.any(sources < 0):  # cannot happen on a connected graph; keep every vertex somewhere
-        agg[sources < 0] = 0
+    nc = seeds.size
     coo = W.tocoo()
     Wc = sp.csr_matrix((coo.data, (agg[coo.row], agg[coo.col])), shape=(nc, nc))
     Wc.sum_duplicates()
@@ -281,11 +311,17 @@ def _aggregate(W, rng):
 
 
 def _graph_hierarchy(W, b, nb, rng):
-    """Aggregation maps and coarse graphs down to at most _COARSEST vertices."""
+    """Aggregation maps and coarse graphs down to at most _COARSEST vertices.
+
+    Coarsening also stops when a level would keep more than half of the
+    vertices (many weakly attached vertices) or fall below 4 block sizes.
+    """
     graphs, masses, aggs = [W], [b], []
     smallest = max(4 * nb, 16)
     while graphs[-1].shape[0] > _COARSEST and graphs[-1].shape[0] // _RATIO >= smallest:
         agg, Wc = _aggregate(graphs[-1], rng)
+        if Wc.shape[0] > graphs[-1].shape[0] // 2:
+            break
         aggs.append(agg)
         graphs.append(Wc)
         masses.append(np.bincount(agg, weights=masses[-1], minlength=Wc.shape[0]))
@@ -337,11 +373,17 @@ class _Preconditioner:
             self.prolong.append((P, P.T.tocsr()))
             self.ops.append((P.T @ (Al @ P)).tocsr())
             t = tc
-        ev, V = np.linalg.eigh(_sym(self.ops[-1].toarray()))
-        inv = np.zeros_like(ev)
-        ok = ev > 1e-10 * max(ev[-1], 0.0)
-        inv[ok] = 1.0 / ev[ok]
-        self.coarse = (V * inv) @ V.T
+        # Coarsest level: exact inverse on the complement of its null vector t, from
+        # (A + s t t^T)^-1 = A^+ + t t^T / s; too large a level gets Jacobi sweeps instead.
+        Ac = self.ops[-1]
+        self.coarse_dinv = 1.0 / Ac.diagonal()
+        self.coarse = None
+        if Ac.shape[0] <= _COARSE_DENSE_MAX:
+            tn = t / np.linalg.norm(t)
+            shift = float(np.abs(Ac).sum(axis=1).max()) + 1e-300
+            ev, V = np.linalg.eigh(_sym(Ac.toarray()) + shift * np.outer(tn, tn))
+            ev = np.maximum(ev, ev[-1] * 1e-14)
+            self.coarse = (V / ev) @ V.T - np.outer(tn, tn) / shift
         self.smoothed_levels = smoothed_levels
 
     def __call__(self, R):
@@ -349,7 +391,13 @@ class _Preconditioner:
 
     def _cycle(self, lvl, r):
         if lvl == len(self.prolong):
-            return self.coarse @ r
+            if self.coarse is not None:
+                return self.coarse @ r
+            A, wd = self.ops[lvl], (0.5 * self.coarse_dinv)[:, None]
+            x = wd * r
+            for _ in range(2):
+                x += wd * (r - A @ x)
+            return x
         A = self.ops[lvl]
         wd = (self.omega[lvl] * self.dinv[lvl])[:, None]
         x = wd * r
@@ -391,7 +439,7 @@ def _component_eigs(W, b, m, rng, tol, max_iter):
     graphs, masses, aggs = _graph_hierarchy(W, b, nb, rng)
     # Start: eigenvectors of the coarsest graph, copied down through the aggregates.
     Wc, bc = graphs[-1], masses[-1]
-    if Wc.shape[0] >= nb + 2:
+    if nb + 2 <= Wc.shape[0] <= _COARSE_DENSE_MAX:
         Ac, _ = _sym_operator(Wc, bc)
         sbc = np.sqrt(bc)
         _, Uc, _ = _dense_eigs(Ac, sbc / np.linalg.norm(sbc), nb)
@@ -421,6 +469,15 @@ def _component_eigs(W, b, m, rng, tol, max_iter):
 
 
 # ------------------------------------------------------------------ the worker
+def _half_weight_points(x, b):
+    """Per column: the fewest points holding half of ``sum_i b_i x_i^2`` (a spread measure)."""
+    out = []
+    for j in range(x.shape[1]):
+        c = np.cumsum(np.sort(b * x[:, j] ** 2)[::-1])
+        out.append(int(np.searchsorted(c, 0.5 * c[-1]) + 1) if c[-1] > 0 else 0)
+    return out
+
+
 def _warn(message):
     warnings.warn(message, LensworkWarning, stacklevel=4)
 
@@ -491,6 +548,18 @@ def _laplacian_eigs(W, m, *, mass="degree", rng, tol=1e-3, max_iter=200, warn=_w
             info.update(cinfo)
             info["eigenvalues"] = [float(v) for v in theta]
             info["residuals"] = [float(v) for v in res]
+            half = _half_weight_points(coords[rows], bc)
+            info["half_weight_points"] = half
+            few = [j for j, h in enumerate(half) if rows.size >= 200 and h < 0.01 * rows.size]
+            if few:
+                j = few[0]
+                warn(
+                    f"Laplacian vector(s) {', '.join(str(i + 1) for i in few)} are concentrated "
+                    f"on few points (half the weight of vector {j + 1} on {half[j]} of "
+                    f"{rows.size} points, eigenvalue {theta[j]:.2g}): they single out a few "
+                    f"points that the graph links only weakly to the rest, which makes a poor "
+                    f"lens. weights='self_tuning' or a larger k usually spreads them."
+                )
     if not info:  # every component too small
         info = {"method": "none", "iterations": 0, "converged": True, "levels": [],
                 "eigenvalues": [], "residuals": []}
