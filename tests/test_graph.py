@@ -323,3 +323,29 @@ def test_draw_png_and_svg(tmp_path):
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         assert "LensGraph(nodes=" in repr(g)
+
+
+def test_holes_of_a_two_lens_cover_annulus_and_disk():
+    # Nerve of a good cover of the annulus has b1 = 1, of the disk b1 = 0 (nerve theorem;
+    # textbook fact: b1(annulus) = 1, b1(disk) = 0). The x and y lenses give a product
+    # cover whose graph has many filled triangles, so graph cycles >> holes.
+    rng = np.random.default_rng(2718)
+    n = 4000
+    theta = rng.uniform(0, 2 * np.pi, n)
+    r_annulus = np.sqrt(rng.uniform(0.5**2, 1.0, n))  # uniform on the annulus 0.5 <= r <= 1
+    r_disk = np.sqrt(rng.uniform(0, 1.0, n))  # uniform on the unit disk
+    for r, expected in ((r_annulus, 1), (r_disk, 0)):
+        X = np.column_stack([r * np.cos(theta), r * np.sin(theta)])
+        s = build_graph(X, Workspace(X), intervals=6, overlap=0.3).summary()
+        assert s.n_components == 1
+        assert s.holes == expected
+        assert s.loops >= s.holes  # graph cycles include the filled triangles
+
+
+def test_holes_equal_loops_without_triangles():
+    # A 1-D cover with overlap <= 1/2 has no three-way overlaps, so no triangles.
+    rng = np.random.default_rng(99)
+    t = rng.uniform(0, 2 * np.pi, 1500)
+    X = np.column_stack([np.cos(t), np.sin(t)]) + rng.normal(0, 0.03, (1500, 2))
+    s = build_graph(X[:, 0], Workspace(X), intervals=8, overlap=0.3).summary()
+    assert s.holes == s.loops == 1

@@ -174,8 +174,9 @@ def neighbor_graph(X, k=15, *, metric="euclidean", method="auto", random_state=0
         ``"exact"`` uses scikit-learn (kd-tree for d <= 6, brute force above);
         ``"approximate"`` uses pynndescent with a fixed seed, built with
         ``max(k + 1, 24)`` neighbours of which the first k are kept (this lifts
-        recall), its float32 distances recomputed in float64. ``"auto"`` is exact below 50,000 rows, and at any size
-        when d <= 6 (kd-trees stay fast in low dimension), else approximate.
+        recall), its float32 distances recomputed in float64. ``"auto"`` is
+        exact below 50,000 rows, and at any size when d <= 6 (kd-trees stay
+        fast in low dimension), else approximate.
     random_state : int, default=0
         Seed for pynndescent; the same seed (and the same number of threads)
         gives the same graph, bit for bit.

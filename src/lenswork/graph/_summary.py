@@ -6,6 +6,13 @@ quantity           definition
 components ``C``   connected components of the node graph
 loops ``b1``       first Betti number of the graph, ``E - V + C``: the number
                    of independent cycles
+holes              first Betti number of the nerve with its triangles
+                   (2-simplices: three nodes sharing a row), ``E - V + C -
+                   rank(d2)``. Equal to the loops for a 1-D cover with
+                   overlap <= 1/2 (no triangles); for a product cover of two
+                   lenses, where four cells meet at every corner, the graph's
+                   cycles are mostly filled triangles and the holes are the
+                   loops that count
 branch points      nodes of degree >= 3
 flares             chains that start at a leaf (degree 1) and run through
                    degree-2 nodes up to a branch point
@@ -88,6 +95,7 @@ class GraphSummary:
     n_edges: int
     n_components: int
     loops: int
+    holes: object
     branch_points: tuple
     n_flares: int
     n_unassigned: int
@@ -112,7 +120,7 @@ class GraphSummary:
         """JSON-ready form."""
         return {
             "n_rows": self.n_rows, "n_nodes": self.n_nodes, "n_edges": self.n_edges,
-            "n_components": self.n_components, "loops": self.loops,
+            "n_components": self.n_components, "loops": self.loops, "holes": self.holes,
             "branch_points": list(self.branch_points), "n_flares": self.n_flares,
             "n_unassigned": self.n_unassigned, "component_sizes": list(self.component_sizes),
             "features": [f.to_dict() for f in self.features],
@@ -126,6 +134,12 @@ class GraphSummary:
             f"  components {self.n_components}, loops {self.loops} (b1 = E - V + C), "
             f"branch points {len(self.branch_points)}, flares {self.n_flares}",
         ]
+        if self.holes != self.loops:
+            holes = "not computed (nerve too large)" if self.holes is None else self.holes
+            lines.append(
+                f"  holes {holes} (b1 of the nerve with its triangles: most graph cycles of a "
+                f"multi-lens cover are filled triangles)"
+            )
         for f in self.features[:max_features]:
             spans = ", ".join(f"{k} {a:.4g}..{b:.4g}" for k, (a, b) in f.lens_range.items())
             extra = f" -> node {f.attached_to}" if f.attached_to is not None else ""
@@ -265,6 +279,34 @@ def _features(graph):
     return tuple(features)
 
 
+#: Largest boundary matrix (edges x triangles) whose rank is computed densely.
+_MAX_BOUNDARY = 4_000_000
+
+
+def _holes(graph, loops):
+    """b1 of the nerve's 2-skeleton: loops minus the rank of the triangle boundary map."""
+    from ._nerve import nerve_triangles
+
+    if loops == 0:
+        return 0
+    tri, _ = nerve_triangles(graph.membership)
+    if len(tri) == 0:
+        return loops
+    V = graph.n_nodes
+    edges = np.sort(np.asarray(graph.edge_index, dtype=np.int64), axis=1)
+    keys = edges[:, 0] * V + edges[:, 1]
+    order = np.argsort(keys)
+    if len(keys) * len(tri) > _MAX_BOUNDARY:
+        return None
+    D = np.zeros((len(keys), len(tri)))
+    cols = np.arange(len(tri))
+    # boundary of [i, j, h] = [j, h] - [i, h] + [i, j] (common practice, simplicial homology)
+    for (a, b), sign in (((1, 2), 1.0), ((0, 2), -1.0), ((0, 1), 1.0)):
+        e = order[np.searchsorted(keys, tri[:, a] * V + tri[:, b], sorter=order)]
+        D[e, cols] = sign
+    return int(loops - np.linalg.matrix_rank(D))
+
+
 def summarize(graph):
     """Summarise a LensGraph; see :class:`GraphSummary`.
 
@@ -278,9 +320,10 @@ def summarize(graph):
     n_comp, labels, deg, nb = _structure(graph)
     rows_of = _row_counter(graph)
     flares, _ = _chains(nb, deg)
+    loops = int(E - V + n_comp)
     return GraphSummary(
         n_rows=graph.n_rows, n_nodes=V, n_edges=E, n_components=n_comp,
-        loops=int(E - V + n_comp), branch_points=tuple(int(v) for v in np.flatnonzero(deg >= 3)),
+        loops=loops, holes=_holes(graph, loops), branch_points=tuple(int(v) for v in np.flatnonzero(deg >= 3)),
         n_flares=len(flares), n_unassigned=int(graph.unassigned.size),
         component_sizes=tuple(rows_of(nodes) for nodes in _components(labels, n_comp)),
         _graph=graph,
