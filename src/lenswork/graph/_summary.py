@@ -323,7 +323,8 @@ def summarize(graph):
     loops = int(E - V + n_comp)
     return GraphSummary(
         n_rows=graph.n_rows, n_nodes=V, n_edges=E, n_components=n_comp,
-        loops=loops, holes=_holes(graph, loops), branch_points=tuple(int(v) for v in np.flatnonzero(deg >= 3)),
+        loops=loops, holes=_holes(graph, loops),
+        branch_points=tuple(int(v) for v in np.flatnonzero(deg >= 3)),
         n_flares=len(flares), n_unassigned=int(graph.unassigned.size),
         component_sizes=tuple(rows_of(nodes) for nodes in _components(labels, n_comp)),
         _graph=graph,
