@@ -33,10 +33,11 @@ from pathlib import Path
 import lenswork as lw
 from lenswork.demo import load_demo
 
-#: Lenses whose graphs the gallery draws (the first is the loop lens of the stability map).
-GRAPH_LENSES = ("pca_1", "pca_2", "density")
-#: The two views compared (two views of the same loop).
-COMPARE = ("pca_1", "pca_2")
+#: Lenses whose graphs the gallery draws (the first, the screen's first pick on the demo, is
+#: the loop lens of the stability map and the bootstrap).
+GRAPH_LENSES = ("laplacian_1", "pca_2", "density")
+#: The two views compared: the loop lens against the density lens.
+COMPARE = ("laplacian_1", "density")
 
 
 def _demo(quick):
@@ -71,7 +72,7 @@ def make_gallery(out, quick=False):
     written.append(target)
     _step("screen sheet", t)
 
-    table = lw.compute_lenses(ws, ["pca:components=2", "density"])
+    table = lw.compute_lenses(ws, ["laplacian", "pca:components=2", "density"])
     for name in GRAPH_LENSES:
         t = time.perf_counter()
         graph = lw.build_graph(table[name], ws)

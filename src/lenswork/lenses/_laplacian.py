@@ -47,7 +47,9 @@ need thousands of products. Here, after a reverse Cuthill-McKee reordering
 2. The coarsest problem is solved densely and its eigenvectors, copied to all
    points through the aggregates, start a block LOBPCG iteration
    (Knyazev 2001) on the finest graph, with the trivial vector ``D^1/2 1`` as a
-   constraint and ``max(4, m // 2)`` extra block vectors.
+   constraint and ``max(4, m // 2)`` extra block vectors, widened in steps of 4
+   (to at most m + 12) while the coarse spectrum shows a cluster across the
+   block's edge (the next coarse eigenvalue within 25% of the m-th).
 3. The preconditioner is one V-cycle of smoothed aggregation (Vanek, Mandel
    and Brezina 1996) over the same aggregates, with one damped-Jacobi sweep
    before and after each coarse correction. Prolongations are smoothed while
@@ -109,6 +111,8 @@ _DENSE_MAX = 1000
 _COARSEST = 500
 #: Largest coarsest level solved exactly (dense) in the preconditioner.
 _COARSE_DENSE_MAX = 3000
+#: Most extra block vectors (beyond m) LOBPCG may carry on clustered spectra.
+_EXTRA_MAX = 12
 #: Vertices per aggregate (one random seed in this many vertices).
 _RATIO = 8
 #: An edge is strong (may join an aggregate) when its weight is at least this share of
@@ -199,9 +203,9 @@ def _lobpcg(A, U0, precond, Y, m, tol, floor, max_iter, rng):
     """
     n, nb = U0.shape
 
-    def project(V):
-        for _ in range(2):
-            V -= Y @ (Y.T @ V)
+    def project(V, work=None):
+        coef = Y.T @ V
+        V -= np.multiply(Y, coef, out=work) if work is not None else Y * coef
         return V
 
     def done(theta, res):
@@ -217,17 +221,23 @@ def _lobpcg(A, U0, precond, Y, m, tol, floor, max_iter, rng):
     AX = A @ X
     theta, C = np.linalg.eigh(_sym(X.T @ AX))
     X, AX = X @ C, AX @ C
+    # Work arrays are allocated once: a fresh (n, b) temporary per operation costs as
+    # much in page faults as the operation itself at n = 1e6.
     P = AP = None
-    Qbuf, AQbuf = np.empty((n, 2 * nb)), np.empty((n, 2 * nb))
+    R, T = np.empty((n, nb)), np.empty((n, nb))
+    spare = [np.empty((n, nb)) for _ in range(4)]
+    Qbuf, AQbuf, Tq = (np.empty((n, 2 * nb)) for _ in range(3))
     converged = False
     updates = 0
     while True:
-        R = AX - X * theta
+        np.multiply(X, theta, out=R)
+        np.subtract(AX, R, out=R)
         res = np.linalg.norm(R, axis=0)
         if done(theta, res):
             AX = A @ X  # the running AX drifts; confirm on exact products
             theta = np.einsum("ij,ij->j", X, AX)
-            R = AX - X * theta
+            np.multiply(X, theta, out=R)
+            np.subtract(AX, R, out=R)
             res = np.linalg.norm(R, axis=0)
             if done(theta, res):
                 converged = True
@@ -235,21 +245,22 @@ def _lobpcg(A, U0, precond, Y, m, tol, floor, max_iter, rng):
         if updates == max_iter:
             break
         updates += 1
-        Wv = project(precond(R))
-        Wv -= X @ (X.T @ Wv)
+        Wv = project(precond(R), T)
+        np.matmul(X, X.T @ Wv, out=T)
+        Wv -= T
         norms = np.linalg.norm(Wv, axis=0)
         norms[norms == 0] = 1.0
         Wv /= norms
         q = nb if P is None else 2 * nb
-        Q, AQ = Qbuf[:, :q], AQbuf[:, :q]
+        Q, AQ, Tqv = Qbuf[:, :q], AQbuf[:, :q], Tq[:, :q]
         Q[:, :nb] = Wv
         AQ[:, :nb] = A @ Wv
         if P is not None:
             Q[:, nb:] = P
             AQ[:, nb:] = AP
         XQ = X.T @ Q
-        Q -= X @ XQ
-        AQ -= AX @ XQ
+        Q -= np.matmul(X, XQ, out=Tqv)
+        AQ -= np.matmul(AX, XQ, out=Tqv)
         M = _svqb_basis(Q, drop=1e-8)
         r = M.shape[1]
         if r == 0:  # no new direction left: nothing more to gain
@@ -265,11 +276,19 @@ def _lobpcg(A, U0, precond, Y, m, tol, floor, max_iter, rng):
         VX, VQ = V[:nb], V[nb:]
         E = VQ.T @ VQ
         CQ, DQ, ZX = M @ VQ, M @ (VQ - VQ @ E), -VX @ E
-        X, AX, P, AP = (
-            X @ VX + Q @ CQ, AX @ VX + AQ @ CQ, X @ ZX + Q @ DQ, AX @ ZX + AQ @ DQ
-        )
+        new = []
+        for base, rest, cx, cq in ((X, Q, VX, CQ), (AX, AQ, VX, CQ), (X, Q, ZX, DQ),
+                                   (AX, AQ, ZX, DQ)):
+            out = spare.pop()
+            np.matmul(base, cx, out=out)
+            out += np.matmul(rest, cq, out=T)
+            new.append(out)
+        spare += [X, AX] + ([P, AP] if P is not None else [np.empty((n, nb)) for _ in range(2)])
+        X, AX, P, AP = new
         if np.abs(X.T @ X - np.eye(nb)).max() > 1e-10:  # restore orthonormality
             Mx = _svqb_basis(X)
+            if Mx.shape[1] < nb:  # the block lost rank: stop here, the final check decides
+                break
             X, AX = X @ Mx, AX @ Mx
             theta, C = np.linalg.eigh(_sym(X.T @ AX))
             X, AX = X @ C, AX @ C
@@ -292,8 +311,9 @@ def _strong_edges(W):
     n = W.shape[0]
     rows = np.repeat(np.arange(n), np.diff(W.indptr))
     off = W.indices != rows
-    Woff = sp.csr_matrix((np.where(off, W.data, 0.0), W.indices, W.indptr), shape=W.shape)
-    wmax = Woff.max(axis=1).toarray().ravel()
+    filled = np.diff(W.indptr) > 0
+    wmax = np.zeros(n)
+    wmax[filled] = np.maximum.reduceat(np.where(off, W.data, 0.0), W.indptr[:-1][filled])
     keep = off & (W.data >= _STRONG * np.maximum(wmax[rows], wmax[W.indices]))
     return sp.csr_matrix(
         (np.ones(int(keep.sum())), (rows[keep], W.indices[keep])), shape=W.shape
@@ -405,21 +425,33 @@ class _Preconditioner:
             ev = np.maximum(ev, ev[-1] * 1e-14)
             self.coarse = (V / ev) @ V.T - np.outer(tn, tn) / shift
         self.smoothed_levels = smoothed_levels
+        self._single()
 
     def __call__(self, R):
-        return self._cycle(0, R)
+        # The cycle runs in float32 (half the memory traffic of the sparse products;
+        # a preconditioner needs no more than a few digits); LOBPCG stays in float64.
+        return self._cycle(0, np.asarray(R, dtype=np.float32)).astype(np.float64)
+
+    def _single(self):
+        """Keep float32 copies of every operator (after the float64 set-up)."""
+        f32 = np.float32
+        self.ops = [A.astype(f32) for A in self.ops]
+        self.prolong = [(P.astype(f32), PT.astype(f32)) for P, PT in self.prolong]
+        self.wdiag = [(w * d).astype(f32)[:, None] for w, d in zip(self.omega, self.dinv)]
+        self.coarse_wdiag = (0.5 * self.coarse_dinv).astype(f32)[:, None]
+        if self.coarse is not None:
+            self.coarse = self.coarse.astype(f32)
 
     def _cycle(self, lvl, r):
         if lvl == len(self.prolong):
             if self.coarse is not None:
                 return self.coarse @ r
-            A, wd = self.ops[lvl], (0.5 * self.coarse_dinv)[:, None]
+            A, wd = self.ops[lvl], self.coarse_wdiag
             x = wd * r
             for _ in range(2):
                 x += wd * (r - A @ x)
             return x
-        A = self.ops[lvl]
-        wd = (self.omega[lvl] * self.dinv[lvl])[:, None]
+        A, wd = self.ops[lvl], self.wdiag[lvl]
         x = wd * r
         P, PT = self.prolong[lvl]
         x += P @ self._cycle(lvl + 1, PT @ (r - A @ x))
@@ -462,8 +494,14 @@ def _component_eigs(W, b, m, rng, tol, max_iter):
     if nb + 2 <= Wc.shape[0] <= _COARSE_DENSE_MAX:
         Ac, _ = _sym_operator(Wc, bc)
         sbc = np.sqrt(bc)
-        _, Uc, _ = _dense_eigs(Ac, sbc / np.linalg.norm(sbc), nb)
-        Xs = Uc / sbc[:, None]
+        most = min(m + _EXTRA_MAX, Wc.shape[0] - 2, n - 2)
+        theta_c, Uc, _ = _dense_eigs(Ac, sbc / np.linalg.norm(sbc), most)
+        # A cluster of eigenvalues across the block's edge slows LOBPCG down (20-d
+        # Gaussian data: 34 iterations with m + 4 vectors, 12 with m + 12): widen the
+        # block while the next coarse value is within 25% of the m-th.
+        while nb + 4 <= most and theta_c[nb] < 1.25 * theta_c[m - 1]:
+            nb += 4
+        Xs = Uc[:, :nb] / sbc[:, None]
         for agg in reversed(aggs):
             Xs = Xs[agg]
         U0 = Xs * sb[:, None]
