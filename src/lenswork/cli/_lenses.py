@@ -65,7 +65,8 @@ def compute(cloud, seed, lenses, out, normalization, neighbor_method):
     path, sidecar = table.write(out, normalized=normalization is not None)
     for col in table:
         extra = ", ".join(
-            f"{k}={v}" for k, v in col.info.items() if not isinstance(v, (list, dict))
+            f"{k}={v:.4g}" if isinstance(v, float) else f"{k}={v}"
+            for k, v in col.info.items() if not isinstance(v, (list, dict))
         )
         click.echo(f"{col.name}: {extra}" if extra else col.name)
     click.echo(f"wrote {path} ({cloud.n} rows x {len(table)} lens columns) and {sidecar}")
