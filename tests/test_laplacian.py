@@ -207,6 +207,7 @@ def test_multilevel_solution_matches_a_dense_reference():
     W, _ = _affinity(neighbor_graph(X, 10), "heat")
     x, info = _laplacian_eigs(W, 4, rng=np.random.default_rng(1))
     assert info["method"] == "multilevel" and info["converged"]
+    assert info["preconditioner"] == "smoothed aggregation"
     lam, U, d, S = _dense_normalized(W)
     res = np.array(info["residuals"])
     gap = _gaps(lam[1:5], lam)
@@ -220,6 +221,35 @@ def test_multilevel_solution_matches_a_dense_reference():
         assert_allclose(np.linalg.norm(S @ u - mu * u), res[j], rtol=1e-3, atol=1e-13)
 
 
+def test_unsmoothed_aggregation_preconditioner_matches_a_dense_reference(monkeypatch):
+    # Force the unsmoothed hierarchy (as on dense aggregate graphs) on a 2-D sheet, whose
+    # eigenvalues are near 0, so the plain aggregation V-cycle is used; numpy.linalg.eigh
+    # of the dense normalised Laplacian as the reference.
+    monkeypatch.setattr(_laplacian, "_SMOOTH_MAX_DEGREE", 0)
+    rng = np.random.default_rng(118)
+    W, _ = _affinity(neighbor_graph(_manifold(rng, 1100), 10), "heat")
+    _, info = _laplacian_eigs(W, 3, rng=np.random.default_rng(3))
+    assert info["preconditioner"] == "aggregation" and info["converged"]
+    lam = _dense_normalized(W, vectors=False)
+    res = np.array(info["residuals"])
+    bound = (res**2 / _gaps(lam[1:4], lam)).max()  # Parlett ch. 11
+    assert_allclose(info["eigenvalues"], lam[1:4], rtol=0, atol=1e-13 + bound)
+
+
+def test_random_start_and_jacobi_coarsest_level_still_converge(monkeypatch):
+    # A coarsest level too large for a dense solve (forced here) gets Jacobi sweeps and a
+    # random start block; numpy.linalg.eigh of the dense matrix as the reference.
+    monkeypatch.setattr(_laplacian, "_COARSE_DENSE_MAX", 10)
+    rng = np.random.default_rng(119)
+    W, _ = _affinity(neighbor_graph(_manifold(rng, 1100), 10), "heat")
+    _, info = _laplacian_eigs(W, 2, rng=np.random.default_rng(4))
+    assert info["converged"]
+    lam = _dense_normalized(W, vectors=False)
+    res = np.array(info["residuals"])
+    bound = (res**2 / _gaps(lam[1:3], lam)).max()  # Parlett ch. 11
+    assert_allclose(info["eigenvalues"], lam[1:3], rtol=0, atol=1e-13 + bound)
+
+
 def test_expander_like_data_uses_the_unsmoothed_hierarchy_and_converges():
     # 10-d Gaussian data: aggregates have many neighbours, so the prolongation stays
     # unsmoothed; eigenvalues far from 0 and clustered. numpy.linalg.eigh as reference.
@@ -228,6 +258,7 @@ def test_expander_like_data_uses_the_unsmoothed_hierarchy_and_converges():
     W, _ = _affinity(neighbor_graph(X, 10), "self_tuning")
     x, info = _laplacian_eigs(W, 3, rng=np.random.default_rng(2))
     assert info["smoothed_levels"] == 0 and info["converged"]
+    assert info["preconditioner"] in {"none", "aggregation"}
     lam = _dense_normalized(W, vectors=False)
     res = np.array(info["residuals"])
     # Clustered values: bound each by ||r||^2 / gap and, where the gap is tiny, by ||r||.
@@ -335,7 +366,7 @@ def test_lens_registry_matches_the_function():
     X = _manifold(rng, 500)
     ws = Workspace(X, random_state=3)
     table = compute_lenses(ws, ["laplacian:components=3,k=10"])
-    assert table.names == [f"laplacian_{j}[components=3;k=10]" for j in (1, 2, 3)]
+    assert table.names == [f"laplacian_{j}[k=10]" for j in (1, 2, 3)]  # components untagged
     coords = laplacian_eigenmaps(X, 3, k=10, random_state=3)
     for j, col in enumerate(table.columns):
         assert np.array_equal(col.values, coords[:, j])
