@@ -73,10 +73,11 @@ keeps results bit-for-bit reproducible.
 
 Measured (tests/benchmarks/bench_laplacian.py, 2 shared cores, 4 vectors,
 k = 15): against :class:`sklearn.manifold.SpectralEmbedding` on 5,000 x 20
-Gaussian data, graph included, 0.19 s against 10.1 s (54x), |corr| = 1.0 on
-the same affinity. Once the neighbour graph exists, at n = 1e6: noisy swiss
-roll 28 s (16 iterations, largest residual 3.9e-9, lambda_1 = 1.6e-6), noisy
-torus 34 s (20 iterations); about 2.6 GB traced at the peak of the solve.
+Gaussian data, graph included, 0.15 s against 8.9 s (57x), |corr| >= 0.999999
+on the same affinity. Once the neighbour graph exists, at n = 1e6: noisy swiss
+roll 27 s (16 iterations, largest residual 3.9e-9, lambda_1 = 1.6e-6), noisy
+torus 35 s (20 iterations), both about 2.6 GB traced at the peak of the solve;
+20-d Gaussian 67 s (21 iterations, 16 block vectors, 3.9 GB).
 
 Disconnected graphs
 -------------------
@@ -745,7 +746,7 @@ def laplacian_eigenmaps(
     Niyogi 2003; Chung 1997). Cost once the graph exists: O(n k) to weight,
     reorder and coarsen the graph, then 10-25 LOBPCG iterations, each one
     block product and one V-cycle, O(n k b), plus O(n b^2) dense work for a
-    block of b = m + 4 or more vectors (1e6 rows in 28-34 s on 2-D manifolds,
+    block of b = m + 4 or more vectors (1e6 rows in 27-35 s on 2-D manifolds,
     see the module notes). A disconnected graph is embedded per component.
 
     References
