@@ -447,7 +447,9 @@ class BootstrapResult:
 
         if paths is None:
             return bootstrap_figure(self)
-        paths = [paths] if isinstance(paths, (str, bytes)) or hasattr(paths, "suffix") else paths
+        from .plot._style import as_paths
+
+        paths = as_paths(paths)
         return bootstrap_sheet(self, paths)
 
     def __repr__(self):

@@ -609,7 +609,9 @@ class ViewComparison:
 
         if paths is None:
             return comparison_figure(self)
-        paths = [paths] if isinstance(paths, (str, bytes)) or hasattr(paths, "suffix") else paths
+        from .plot._style import as_paths
+
+        paths = as_paths(paths)
         return comparison_sheet(self, paths)
 
     def __repr__(self):

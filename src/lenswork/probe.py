@@ -658,7 +658,9 @@ class StabilityMap:
 
         if paths is None:
             return stability_figure(self, features)
-        paths = [paths] if isinstance(paths, (str, bytes)) or hasattr(paths, "suffix") else paths
+        from .plot._style import as_paths
+
+        paths = as_paths(paths)
         return stability_sheet(self, paths, features)
 
 

@@ -81,16 +81,13 @@ class NeighborGraph:
             self.method, dict(self.info, sliced_from=self.k),
         )
 
-    def to_sparse(self, symmetric=True):
-        """Distances as a sparse (n, n) CSR matrix; ``symmetric`` keeps an edge either end has."""
-        import scipy.sparse as sp
+    def to_sparse(self, values=None, *, symmetric=True):
+        """Edges as a sparse (n, n) CSR matrix; ``symmetric`` keeps an edge either end has.
 
-        n, k = self.indices.shape
-        rows = np.repeat(np.arange(n), k)
-        A = sp.csr_matrix((self.distances.ravel(), (rows, self.indices.ravel())), shape=(n, n))
-        if symmetric:
-            A = A.maximum(A.T).tocsr()
-        return A
+        ``values`` (shape (n, k)) replaces the distances as edge values, e.g. kernel weights.
+        """
+        return knn_matrix(self.indices, self.distances if values is None else values,
+                          symmetric=symmetric)
 
     def recall(self, X, sample=1000, random_state=0):
         """Share of true k nearest neighbours found, on a random sample of rows.
@@ -106,6 +103,24 @@ class NeighborGraph:
         true_kth = _exact_kth_distance(np.asarray(X, dtype=np.float64), rows, self.k, self.metric)
         hits = self.distances[rows] <= true_kth[:, None] * (1 + 1e-9) + 1e-12
         return float(hits.mean())
+
+
+def knn_matrix(indices, values, keep=None, *, symmetric=True):
+    """Sparse (n, n) CSR matrix of k-NN edges ``i -> indices[i, j]`` carrying ``values[i, j]``.
+
+    ``keep`` (bool, shape (n, k)) leaves edges out; ``symmetric`` takes the
+    elementwise maximum with the transpose, so an edge either end lists is kept.
+    """
+    import scipy.sparse as sp
+
+    n = indices.shape[0]
+    rows = np.broadcast_to(np.arange(n)[:, None], indices.shape)
+    if keep is None:
+        data, r, c = np.ravel(values), rows.ravel(), indices.ravel()
+    else:
+        data, r, c = values[keep], rows[keep], indices[keep]
+    A = sp.csr_matrix((data, (r, c)), shape=(n, n))
+    return A.maximum(A.T).tocsr() if symmetric else A
 
 
 def _exact_kth_distance(X, rows, k, metric):

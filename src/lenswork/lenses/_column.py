@@ -26,7 +26,6 @@ import numbers
 import numpy as np
 
 from .._errors import InputError, LensworkError, ParameterError
-from .._validation import check_array as _check_array  # noqa: F401 (_laplacian.py uses it)
 from .._validation import check_bool, check_float, check_int
 from ._registry import LensPart, Param, register_lens
 

@@ -374,16 +374,10 @@ class Eccentricity(TransformerMixin, BaseEstimator):
 
 def _graph_matrix(graph):
     """Symmetric sparse distance matrix of a NeighborGraph; zero lengths made tiny, not dropped."""
-    import scipy.sparse as sp
-
-    n, k = graph.indices.shape
-    dist = graph.distances.ravel()
+    dist = graph.distances
     positive = dist[dist > 0]
     tiny = (float(positive.min()) if positive.size else 1.0) * 1e-9
-    data = np.where(dist > 0, dist, tiny)
-    rows = np.repeat(np.arange(n), k)
-    A = sp.csr_matrix((data, (rows, graph.indices.ravel())), shape=(n, n))
-    return A.maximum(A.T).tocsr()
+    return graph.to_sparse(np.where(dist > 0, dist, tiny))
 
 
 def _geodesic(graph, X, *, p, landmarks, rng, warn):

@@ -103,8 +103,15 @@ from scipy.sparse.csgraph import connected_components, dijkstra, reverse_cuthill
 from sklearn.base import BaseEstimator, TransformerMixin
 
 from .._errors import InputError, LensworkWarning
-from .._validation import check_choice, check_float, check_int, check_random_state, seed_of
-from ._column import _check_array
+from .._validation import (
+    check_array,
+    check_choice,
+    check_float,
+    check_int,
+    check_random_state,
+    seed_of,
+)
+from ..workspace import knn_matrix
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["LaplacianLens", "laplacian_eigenmaps"]
@@ -161,9 +168,7 @@ def _affinity(graph, weights):
                 "sigma_max": float(s.max()),
             }
     keep = (w >= _MIN_WEIGHT) & (idx >= 0) & (idx != np.arange(n)[:, None])
-    rows = np.broadcast_to(np.arange(n)[:, None], idx.shape)
-    A = sp.csr_matrix((w[keep], (rows[keep], idx[keep])), shape=(n, n))
-    W = A.maximum(A.T).tocsr()
+    W = knn_matrix(idx, w, keep)
     info["dropped_edges"] = int((w < _MIN_WEIGHT).sum())  # edges under the weight floor
     return W, info
 
@@ -784,7 +789,7 @@ def laplacian_eigenmaps(
 def _fit(X, components, k, weights, tol, max_iter, random_state, context):
     from ..workspace import neighbor_graph
 
-    X = _check_array(X, context)
+    X = check_array(X, context)
     _require_rows(X.shape[0], components, k, context)
     rng = check_random_state(random_state)
     graph = neighbor_graph(X, k, random_state=seed_of(random_state))

@@ -73,6 +73,11 @@ def style():
         yield
 
 
+def as_paths(paths):
+    """One path (str or Path) or several, as a list of paths."""
+    return [paths] if isinstance(paths, (str, bytes)) or hasattr(paths, "suffix") else list(paths)
+
+
 def save(fig, path, *, dpi=150):
     """Write ``fig`` to ``path`` (.png or .svg, from the ending) atomically; close it."""
     path = Path(path)
