@@ -28,9 +28,8 @@ Errors
 
 from __future__ import annotations
 
-__version__ = "0.1.0"
-
 from ._errors import InputError, LensworkError, LensworkWarning, ParameterError
+from ._version import __version__
 from .bootstrap import BootstrapResult, CoverSuggestion, bootstrap_graph, suggest_cover
 from .compare import (
     ViewComparison,
