@@ -166,7 +166,7 @@ def test_transformer_new_points_equal_scipy():
     from sklearn.base import clone
 
     assert clone(est).get_params()["log"] is False
-    with pytest.raises(InputError, match="fitted on 3 features"):
+    with pytest.raises(InputError, match="X has 2 features, but GaussianDensity is expecting 3"):
         est.transform(Y[:, :2])
 
 

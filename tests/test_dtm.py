@@ -66,7 +66,7 @@ def test_dtm_is_one_lipschitz():
     # ... and on random pairs of new points through the transformer.
     dtm = DistanceToMeasure(mass=0.05).fit(X)
     P, Q = rng.uniform(-6, 6, size=(2, 1000, 2))
-    gap = np.abs(dtm.transform(P) - dtm.transform(Q))
+    gap = np.abs(dtm.transform(P)[:, 0] - dtm.transform(Q)[:, 0])
     assert np.all(gap <= np.linalg.norm(P - Q, axis=1) + 1e-12)
     # The bound is nearly attained somewhere (a sanity check that the test can fail).
     assert np.max(gap / np.linalg.norm(P - Q, axis=1)) > 0.5
@@ -141,12 +141,14 @@ def test_dtm_transformer():
     est = DistanceToMeasure(mass=0.03)
     assert clone(est).get_params() == {"mass": 0.03, "max_k": MAX_K, "random_state": 0}
     fitted = est.fit_transform(X)
+    assert fitted.shape == (300, 1)  # one output column, as every transformer
+    fitted = fitted[:, 0]
     assert est.k_ == 9
     assert_allclose(fitted, _brute_dtm(X, 9), rtol=1e-12)  # reference: brute force
     # A fitted row finds itself at distance 0: transform agrees with fit_transform.
-    assert_allclose(est.transform(X), fitted, rtol=1e-12)
+    assert_allclose(est.transform(X)[:, 0], fitted, rtol=1e-12)
     Q = rng.normal(size=(40, 3)) * 3
-    assert_allclose(est.transform(Q), _brute_dtm(X, 9, Q=Q), rtol=1e-12)
+    assert_allclose(est.transform(Q)[:, 0], _brute_dtm(X, 9, Q=Q), rtol=1e-12)
 
 
 @pytest.mark.parametrize("k", [1, 5, 10])
@@ -159,11 +161,13 @@ def test_knn_distance_equals_sklearn(k):
     assert_allclose(knn_distance(X, k=k), ref, rtol=1e-12)
     table = compute_lenses(Workspace(X), [("knn_distance", {"k": k})])
     assert_allclose(table.values()[:, 0], ref, rtol=1e-12)
-    assert_allclose(KNNDistance(k=k).fit_transform(X), ref, rtol=1e-12)
+    assert_allclose(KNNDistance(k=k).fit_transform(X)[:, 0], ref, rtol=1e-12)
+    # The fitted rows through transform: each skips itself, so fit_transform is matched.
+    assert_allclose(KNNDistance(k=k).fit(X).transform(X)[:, 0], ref, rtol=1e-12)
     # New points: the k-th nearest fitted row, nothing excluded (sklearn's kneighbors(Q)).
     Q = rng.normal(size=(30, 4))
     ref_q = NearestNeighbors(n_neighbors=k).fit(X).kneighbors(Q)[0][:, k - 1]
-    assert_allclose(KNNDistance(k=k).fit(X).transform(Q), ref_q, rtol=1e-12)
+    assert_allclose(KNNDistance(k=k).fit(X).transform(Q)[:, 0], ref_q, rtol=1e-12)
 
 
 def test_default_column_names_and_info():
@@ -194,5 +198,5 @@ def test_bad_parameters_and_data():
     bad[4, 0] = np.inf
     with pytest.raises(InputError, match=r"non-finite value \(inf\) in row 5, column 1"):
         distance_to_measure(bad)
-    with pytest.raises(InputError, match="got 3 feature columns; it was fitted on 2"):
+    with pytest.raises(InputError, match="X has 3 features, but DistanceToMeasure is expecting 2"):
         DistanceToMeasure(mass=0.5).fit(X).transform(np.zeros((1, 3)))

@@ -5,8 +5,9 @@
 * :func:`_parallel_rows` runs a worker over blocks of rows on a few threads
   (BLAS at one thread each); :func:`_zero_self` clears the self pairs of a
   tile of an all-pairs reduction. Tiles are ``_TILE_ROWS x _TILE_COLS``.
-* :func:`_check_query` checks the rows given to a fitted transformer's
-  ``transform``.
+* :func:`_check_input` checks the rows given to a transformer's ``fit`` or
+  ``transform`` (scikit-learn's contract plus lenswork's messages);
+  :class:`_LensOutputMixin` gives the transformers ``get_feature_names_out``.
 """
 
 from __future__ import annotations
@@ -17,7 +18,7 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 
 from .._errors import InputError
-from .._validation import check_array
+from .._validation import check_finite
 
 __all__: list[str] = []
 
@@ -110,21 +111,85 @@ def _zero_self(T, i0, i1, query_rows, ref_rows, j0, j1, value=0.0):
         T[qi, ci] = value
 
 
-def _check_query(est, X, fitted):
-    """The rows given to ``est.transform``, checked: ``est`` is fitted and has their width.
+class _LensOutputMixin:
+    """``get_feature_names_out`` for the lens transformers (place it before TransformerMixin).
 
-    ``fitted`` names an attribute that ``fit`` sets; ``est.n_features_in_`` is
-    the number of feature columns it was fitted on.
+    A transformer lists its output column names in ``_output_names()`` (the
+    lens column names, e.g. ``pca_1, pca_2``); ``set_output(transform="pandas")``
+    then labels the DataFrame columns with them.
     """
-    name = type(est).__name__
-    if not hasattr(est, fitted):
-        from sklearn.exceptions import NotFittedError
 
-        raise NotFittedError(f"This {name} is not fitted yet; call fit(X) first.")
-    X = check_array(X, f"{name}.transform")
-    if X.shape[1] != est.n_features_in_:
+    def get_feature_names_out(self, input_features=None):
+        """The output column names (lens names), an object array of str.
+
+        ``input_features``, when given, must match the fitted columns (as in
+        scikit-learn); it does not change the output names, which are the lens's.
+        """
+        from sklearn.utils.validation import check_is_fitted
+
+        check_is_fitted(self, "n_features_in_")
+        if input_features is not None:
+            given = np.asarray(input_features, dtype=object)
+            if given.ndim != 1 or len(given) != self.n_features_in_:
+                raise InputError(
+                    f"input_features should have length equal to number of features "
+                    f"({self.n_features_in_}), got {given.size}. Pass the names of the columns "
+                    f"{type(self).__name__} was fitted on."
+                )
+            fitted = getattr(self, "feature_names_in_", None)
+            if fitted is not None and not np.array_equal(fitted, given):
+                raise InputError(
+                    f"input_features is not equal to feature_names_in_ of "
+                    f"{type(self).__name__}: {list(given)} != {list(fitted)}."
+                )
+        return np.asarray(self._output_names(), dtype=object)
+
+
+# Appended to the non-finite message of a transformer's input check; the words NaN and inf
+# are what scikit-learn's estimator checks (check_estimators_nan_inf) look for.
+_NONFINITE_ADVICE = "NaN and inf are not allowed: remove or impute such rows first."
+
+
+def _check_input(est, X, *, reset, min_rows=1, why=""):
+    """``X`` checked as a transformer's ``fit`` (``reset=True``) or ``transform`` input.
+
+    scikit-learn's ``validate_data`` does the estimator contract: 2-D input
+    (1-D raises "Reshape your data"), real numbers (complex, sparse and
+    non-numeric objects are refused), at least one row and one column, the
+    column count of ``fit`` (``n_features_in_``) and the column names of a
+    DataFrame (``feature_names_in_``). lenswork's own checks follow: the first
+    non-finite entry named by row and column, and the rows the estimator needs
+    (``min_rows``; ``why`` says why). Errors are :class:`InputError` (also a
+    ValueError), except the TypeError numpy raises for values that are not
+    numbers at all.
+    """
+    from sklearn.utils.validation import check_is_fitted, validate_data
+
+    name = type(est).__name__
+    method = "fit" if reset else "transform"
+    if not reset:
+        check_is_fitted(est, "n_features_in_")
+    try:
+        X = validate_data(
+            est, X, reset=reset, dtype=np.float64, order="C", ensure_all_finite=False
+        )
+    except ValueError as err:
+        text = str(err)
+        advice = ""
+        if "convert" in text:
+            advice = " Select the numeric columns first."
+        elif "is expecting" in text:
+            advice = f" Pass data with the columns {name} was fitted on."
+        raise InputError(f"{name}.{method}: {err}{advice}") from None
+    names = getattr(est, "feature_names_in_", None)
+    check_finite(
+        X, f"{name}.{method}", names=None if names is None else list(names),
+        advice=_NONFINITE_ADVICE,
+    )
+    n = X.shape[0]
+    if n < min_rows:
         raise InputError(
-            f"{name}.transform got {X.shape[1]} feature columns; it was fitted on "
-            f"{est.n_features_in_} features. Pass data with the same columns."
+            f"{name}.{method} got n_samples={n} row{'s' if n != 1 else ''}; it needs at least "
+            f"{min_rows}{f' ({why})' if why else ''}. Use more rows."
         )
     return X

@@ -35,7 +35,15 @@ from .._validation import (
     check_int,
     check_random_state,
 )
-from ._common import _TILE_COLS, _TILE_ROWS, _check_query, _parallel_rows, _sample_rows, _zero_self
+from ._common import (
+    _TILE_COLS,
+    _TILE_ROWS,
+    _check_input,
+    _LensOutputMixin,
+    _parallel_rows,
+    _sample_rows,
+    _zero_self,
+)
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["GaussianDensity", "gaussian_density", "scott_bandwidth", "silverman_bandwidth"]
@@ -557,7 +565,7 @@ def gaussian_density(
     return values, info
 
 
-class GaussianDensity(TransformerMixin, BaseEstimator):
+class GaussianDensity(_LensOutputMixin, TransformerMixin, BaseEstimator):
     """Gaussian kernel density as a transformer (one output column).
 
     Parameters
@@ -575,15 +583,19 @@ class GaussianDensity(TransformerMixin, BaseEstimator):
     covariance_ : ndarray of shape (n_features, n_features)
         Kernel covariance used.
     n_features_in_ : int
+    feature_names_in_ : ndarray of str
+        Column names of a DataFrame given to ``fit`` (only then).
     info_ : dict
         Bandwidth rule and factor, kernel sd (set by ``fit``); after
-        ``fit_transform`` also mode and error estimate.
+        ``fit_transform`` also mode and error estimate (``transform`` leaves
+        the fitted estimator unchanged).
 
     Notes
     -----
     ``fit_transform(X)`` evaluates at the training points with their own
     kernel term handled exactly (equal to :func:`gaussian_density`);
-    ``transform(Y)`` treats the rows of ``Y`` as new points.
+    ``transform(Y)`` treats the rows of ``Y`` as new points. The output
+    column is named ``density`` (``get_feature_names_out``).
 
     Examples
     --------
@@ -615,11 +627,9 @@ class GaussianDensity(TransformerMixin, BaseEstimator):
     def fit(self, X, y=None):
         """Choose the kernel for ``X`` and keep ``X`` as the reference sample."""
         bandwidth, *_ = self._params()
-        X = check_array(X, "GaussianDensity.fit", min_rows=2)
-        self._rng = check_random_state(self.random_state)
-        self._kernel = _Kernel(X, bandwidth, self._rng)
+        X = _check_input(self, X, reset=True, min_rows=2, why="a kernel covariance")
+        self._kernel = _Kernel(X, bandwidth, check_random_state(self.random_state))
         self.covariance_ = self._kernel.H
-        self.n_features_in_ = X.shape[1]
         self.info_ = dict(self._kernel.info)
         return self
 
@@ -629,17 +639,20 @@ class GaussianDensity(TransformerMixin, BaseEstimator):
             self._kernel, Q, self_query=self_query, log=log, mode=mode, precision=precision,
             reference_size=reference_size, rng=check_random_state(self.random_state),
         )
-        self.info_ = info
-        return values[:, None]
+        return values[:, None], info
+
+    def _output_names(self):
+        return ["density"]
 
     def transform(self, X):
         """Density of the fitted sample at the rows of ``X`` (new points), shape (n, 1)."""
-        return self._run(_check_query(self, X, "_kernel"), self_query=False)
+        return self._run(_check_input(self, X, reset=False), self_query=False)[0]
 
     def fit_transform(self, X, y=None, **fit_params):
         """Fit on ``X`` and return its density at its own points, shape (n, 1)."""
         self.fit(X)
-        return self._run(self._kernel.X, self_query=True)
+        values, self.info_ = self._run(self._kernel.X, self_query=True)
+        return values
 
 
 @register_lens(

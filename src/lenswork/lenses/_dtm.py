@@ -30,7 +30,7 @@ from sklearn.base import BaseEstimator, TransformerMixin
 from .._errors import InputError, LensworkWarning, ParameterError
 from .._validation import check_array, check_float, check_int
 from ..workspace import NeighborGraph, neighbor_graph
-from ._common import _check_query
+from ._common import _check_input, _LensOutputMixin
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["DistanceToMeasure", "KNNDistance", "distance_to_measure", "knn_distance"]
@@ -180,7 +180,7 @@ def distance_to_measure(X, *, mass=0.01, graph=None, max_k=MAX_K, random_state=0
     return _dtm_from_distances(distances, k)
 
 
-class DistanceToMeasure(BaseEstimator, TransformerMixin):
+class DistanceToMeasure(_LensOutputMixin, TransformerMixin, BaseEstimator):
     """Distance to the empirical measure of the fitted rows, as a transformer.
 
     Parameters
@@ -197,6 +197,8 @@ class DistanceToMeasure(BaseEstimator, TransformerMixin):
         Number of points averaged over.
     n_samples_fit_ : int
     n_features_in_ : int
+    feature_names_in_ : ndarray of str
+        Column names of a DataFrame given to ``fit`` (only then).
 
     See Also
     --------
@@ -209,17 +211,19 @@ class DistanceToMeasure(BaseEstimator, TransformerMixin):
     ``transform(Y)`` evaluates it at any points Y, averaging over the k
     nearest fitted rows (an exact scikit-learn search, built on first use); a
     fitted row passed to ``transform`` finds itself at distance 0, so it gets
-    the value ``fit_transform`` gave it. Cost: O(n k) plus the neighbour search.
+    the value ``fit_transform`` gave it. Both return one column, named ``dtm``
+    (``get_feature_names_out``). Cost: O(n k) plus the neighbour search (the
+    exact search structure is built by ``fit``).
 
     Examples
     --------
     >>> import numpy as np
     >>> X = np.arange(5.0)[:, None]
     >>> dtm = DistanceToMeasure(mass=0.6)
-    >>> np.round(dtm.fit_transform(X) ** 2, 4).tolist()
+    >>> np.round(dtm.fit_transform(X)[:, 0] ** 2, 4).tolist()
     [1.6667, 0.6667, 0.6667, 0.6667, 1.6667]
     >>> np.round(dtm.transform([[10.0]]) ** 2, 4).tolist()   # (36 + 49 + 64) / 3
-    [49.6667]
+    [[49.6667]]
     """
 
     def __init__(self, *, mass=0.01, max_k=MAX_K, random_state=0):
@@ -229,37 +233,37 @@ class DistanceToMeasure(BaseEstimator, TransformerMixin):
 
     def fit(self, X, y=None):
         """Remember the rows whose measure the DTM is taken of; returns self."""
+        from sklearn.neighbors import NearestNeighbors
+
         context = type(self).__name__
-        X = check_array(X, context)
         mass = _check_mass(self.mass, context)
         max_k = _check_max_k(self.max_k, context)
+        X = _check_input(self, X, reset=True)
         n = X.shape[0]
         self.k_, wanted = _dtm_k(mass, n, max_k)
         _dtm_messages(mass, n, self.k_, wanted, context, _warn)
         self.n_samples_fit_ = n
-        self.n_features_in_ = X.shape[1]
         self._fit_X = X
-        self._nn = None
+        self._nn = NearestNeighbors(n_neighbors=self.k_).fit(X)
         return self
 
+    def _output_names(self):
+        return ["dtm"]
+
     def fit_transform(self, X, y=None):
-        """Fit on ``X`` and return the DTM at its rows, shape (n_samples,)."""
+        """Fit on ``X`` and return the DTM at its rows, shape (n_samples, 1)."""
         self.fit(X)
         X = self._fit_X
         if self.k_ == 1:
-            return np.zeros(X.shape[0])
+            return np.zeros((X.shape[0], 1))
         g = neighbor_graph(X, self.k_ - 1, random_state=self.random_state)
-        return _dtm_from_distances(g.distances, self.k_)
+        return _dtm_from_distances(g.distances, self.k_)[:, None]
 
     def transform(self, X):
-        """The DTM of the fitted measure at the rows of ``X``, shape (n_samples,)."""
-        X = _check_query(self, X, "_fit_X")
-        if self._nn is None:
-            from sklearn.neighbors import NearestNeighbors
-
-            self._nn = NearestNeighbors(n_neighbors=self.k_).fit(self._fit_X)
+        """The DTM of the fitted measure at the rows of ``X``, shape (n_samples, 1)."""
+        X = _check_input(self, X, reset=False)
         dist, _ = self._nn.kneighbors(X, n_neighbors=self.k_)
-        return np.sqrt(np.einsum("ij,ij->i", dist, dist) / self.k_)
+        return np.sqrt(np.einsum("ij,ij->i", dist, dist) / self.k_)[:, None]
 
 
 @register_lens(
@@ -357,7 +361,7 @@ def knn_distance(X, *, k=10, graph=None, random_state=0):
     return np.ascontiguousarray(distances[:, k - 1])
 
 
-class KNNDistance(BaseEstimator, TransformerMixin):
+class KNNDistance(_LensOutputMixin, TransformerMixin, BaseEstimator):
     """Distance to the k-th nearest fitted row, as a transformer.
 
     Parameters
@@ -368,8 +372,12 @@ class KNNDistance(BaseEstimator, TransformerMixin):
 
     Attributes
     ----------
+    k_ : int
+        The checked ``k``.
     n_samples_fit_ : int
     n_features_in_ : int
+    feature_names_in_ : ndarray of str
+        Column names of a DataFrame given to ``fit`` (only then).
 
     See Also
     --------
@@ -377,18 +385,25 @@ class KNNDistance(BaseEstimator, TransformerMixin):
 
     Notes
     -----
-    As in :meth:`sklearn.neighbors.NearestNeighbors.kneighbors`, ``fit_transform(X)``
-    excludes each row itself (its k-th *other* row), while ``transform(Y)``
-    treats the rows of Y as new points: the k-th nearest fitted row, with
-    nothing excluded. Cost: O(n) once the neighbour graph exists.
+    ``fit_transform(X)`` gives each row's distance to its k-th nearest *other*
+    row (as :meth:`sklearn.neighbors.NearestNeighbors.kneighbors` with no
+    query excludes each row itself), equal to :func:`knn_distance`.
+    ``transform(Y)`` gives the distance to the k-th nearest fitted row, with
+    one rule for points of the sample: a row of ``Y`` identical to a fitted row
+    is that row and is not its own neighbour (one fitted row at distance 0 is
+    skipped). So ``transform(X)`` on the fitted rows equals ``fit_transform(X)``
+    (the scikit-learn contract), and each row's value does not depend on the
+    other rows passed with it. Both return one column, named ``knn_distance``.
+    Cost: O(n) once the neighbour graph exists; ``transform`` one exact
+    (k + 1)-neighbour search per row.
 
     Examples
     --------
     >>> import numpy as np
     >>> X = np.array([[0.0], [1.0], [3.0], [7.0]])
     >>> est = KNNDistance(k=2)
-    >>> est.fit_transform(X).tolist(), est.transform([[2.0]]).tolist()
-    ([3.0, 2.0, 3.0, 6.0], [1.0])
+    >>> est.fit_transform(X)[:, 0].tolist(), est.transform([[2.0], [3.0]])[:, 0].tolist()
+    ([3.0, 2.0, 3.0, 6.0], [1.0, 3.0])
     """
 
     def __init__(self, *, k=10, random_state=0):
@@ -397,30 +412,40 @@ class KNNDistance(BaseEstimator, TransformerMixin):
 
     def fit(self, X, y=None):
         """Remember the rows; returns self."""
+        from sklearn.neighbors import NearestNeighbors
+
         context = type(self).__name__
-        X = check_array(X, context)
-        self.k_ = _check_k(self.k, X.shape[0], context)
+        k = check_int("k", self.k, lo=1, context=context)
+        X = _check_input(
+            self, X, reset=True, min_rows=k + 1, why=f"each row's k-th neighbour other than itself, k={k}"
+        )
+        self.k_ = k
         self.n_samples_fit_ = X.shape[0]
-        self.n_features_in_ = X.shape[1]
         self._fit_X = X
-        self._nn = None
+        self._nn = NearestNeighbors(n_neighbors=k).fit(X)
         return self
 
+    def _output_names(self):
+        return ["knn_distance"]
+
     def fit_transform(self, X, y=None):
-        """Fit on ``X`` and return each row's distance to its k-th other row."""
+        """Fit on ``X``; each row's distance to its k-th other row, shape (n_samples, 1)."""
         self.fit(X)
         g = neighbor_graph(self._fit_X, self.k_, random_state=self.random_state)
-        return np.ascontiguousarray(g.distances[:, self.k_ - 1])
+        return np.ascontiguousarray(g.distances[:, self.k_ - 1])[:, None]
 
     def transform(self, X):
-        """Distance from each row of ``X`` to its k-th nearest fitted row."""
-        X = _check_query(self, X, "_fit_X")
-        if self._nn is None:
-            from sklearn.neighbors import NearestNeighbors
+        """Distance from each row of ``X`` to its k-th nearest fitted row, shape (n_samples, 1).
 
-            self._nn = NearestNeighbors(n_neighbors=self.k_).fit(self._fit_X)
-        dist, _ = self._nn.kneighbors(X, n_neighbors=self.k_)
-        return np.ascontiguousarray(dist[:, -1])
+        A row identical to a fitted row skips that fitted row (see Notes).
+        """
+        X = _check_input(self, X, reset=False)
+        k = self.k_
+        dist, idx = self._nn.kneighbors(X, n_neighbors=k + 1)  # fit ensured n > k
+        # A query equal to its nearest fitted row is that row (compared exactly: a brute
+        # search may report a tiny non-zero distance for identical rows).
+        on_sample = np.all(X == self._fit_X[idx[:, 0]], axis=1)
+        return np.where(on_sample, dist[:, k], dist[:, k - 1])[:, None]
 
 
 @register_lens(

@@ -29,7 +29,14 @@ from .._validation import (
     check_random_state,
     seed_of,
 )
-from ._common import _TILE_COLS, _check_query, _parallel_rows, _sample_rows, _zero_self
+from ._common import (
+    _TILE_COLS,
+    _check_input,
+    _LensOutputMixin,
+    _parallel_rows,
+    _sample_rows,
+    _zero_self,
+)
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["Eccentricity", "eccentricity", "geodesic_eccentricity"]
@@ -303,7 +310,7 @@ def eccentricity(X, *, p=2.0, mode="auto", landmarks=LANDMARKS, random_state=0,
     return _returned(values, info, err, p, return_info)
 
 
-class Eccentricity(TransformerMixin, BaseEstimator):
+class Eccentricity(_LensOutputMixin, TransformerMixin, BaseEstimator):
     """Euclidean eccentricity as a transformer (one output column).
 
     Parameters
@@ -317,13 +324,17 @@ class Eccentricity(TransformerMixin, BaseEstimator):
     Attributes
     ----------
     n_features_in_ : int
+    feature_names_in_ : ndarray of str
+        Column names of a DataFrame given to ``fit`` (only then).
     info_ : dict
-        Mode and error estimate of the last transform.
+        Mode and error estimate of ``fit_transform`` (empty after ``fit``;
+        ``transform`` leaves the fitted estimator unchanged).
 
     Notes
     -----
     ``transform(Y)`` gives the eccentricity of each row of ``Y`` with respect to
     the fitted rows; ``fit_transform(X)`` equals :func:`eccentricity` on ``X``.
+    The output column is named ``eccentricity`` (``get_feature_names_out``).
 
     Examples
     --------
@@ -344,8 +355,7 @@ class Eccentricity(TransformerMixin, BaseEstimator):
     def fit(self, X, y=None):
         """Keep ``X`` as the reference rows."""
         _check_params(self.p, self.mode, self.landmarks, "Eccentricity")
-        self._X = check_array(X, "Eccentricity.fit")
-        self.n_features_in_ = self._X.shape[1]
+        self._X = _check_input(self, X, reset=True)
         self.info_ = {}
         return self
 
@@ -355,16 +365,19 @@ class Eccentricity(TransformerMixin, BaseEstimator):
             self._X, Q, p=p, mode=mode, landmarks=landmarks,
             rng=check_random_state(self.random_state),
         )
-        self.info_ = info
-        return values[:, None]
+        return values[:, None], info
+
+    def _output_names(self):
+        return ["eccentricity"]
 
     def transform(self, X):
         """Eccentricity of the rows of ``X`` w.r.t. the fitted rows, shape (n, 1)."""
-        return self._run(_check_query(self, X, "_X"))
+        return self._run(_check_input(self, X, reset=False))[0]
 
     def fit_transform(self, X, y=None, **fit_params):
         """Fit on ``X`` and return the eccentricity of its rows, shape (n, 1)."""
-        return self.fit(X)._run(None)
+        values, self.info_ = self.fit(X)._run(None)
+        return values
 
 
 # ---------------------------------------------------------------------------

@@ -112,6 +112,7 @@ from .._validation import (
     seed_of,
 )
 from ..workspace import knn_matrix
+from ._common import _check_input, _LensOutputMixin
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["LaplacianLens", "laplacian_eigenmaps"]
@@ -812,7 +813,7 @@ def _one_blas_thread():
     return threadpool_limits(limits=1, user_api="blas")
 
 
-class LaplacianLens(TransformerMixin, BaseEstimator):
+class LaplacianLens(_LensOutputMixin, TransformerMixin, BaseEstimator):
     """Laplacian eigenmaps as a scikit-learn transformer (``fit_transform`` only).
 
     Parameters
@@ -836,11 +837,17 @@ class LaplacianLens(TransformerMixin, BaseEstimator):
     info_ : dict
         Solver details (see :func:`laplacian_eigenmaps`).
     n_features_in_ : int
+    feature_names_in_ : ndarray of str
+        Column names of a DataFrame given to ``fit`` (only then).
 
     Notes
     -----
     There is no ``transform`` for new rows: the eigenvectors are defined on the
-    graph of the fitted rows only. Cost as in :func:`laplacian_eigenmaps`.
+    graph of the fitted rows only (as in
+    :class:`sklearn.manifold.SpectralEmbedding`), so scikit-learn's checks run
+    the ``fit`` / ``fit_transform`` ones. The output columns are named
+    ``laplacian_1, laplacian_2, ...`` (``get_feature_names_out``), as the
+    ``laplacian`` lens names them. Cost as in :func:`laplacian_eigenmaps`.
 
     Examples
     --------
@@ -871,13 +878,20 @@ class LaplacianLens(TransformerMixin, BaseEstimator):
         params = _check_params(
             self.components, self.k, self.weights, self.tol, self.max_iter, context
         )
-        coords, info, d = _fit(X, *params, self.random_state, context)
+        components, k = params[0], params[1]
+        X = _check_input(
+            self, X, reset=True, min_rows=max(components + 2, k + 1),
+            why=f"components + 2 and k + 1, with components={components}, k={k}",
+        )
+        coords, info, _ = _fit(X, *params, self.random_state, context)
         self.embedding_ = coords
         self.eigenvalues_ = np.asarray(info["eigenvalues"])
         self.residuals_ = np.asarray(info["residuals"])
         self.info_ = info
-        self.n_features_in_ = d
         return self
+
+    def _output_names(self):
+        return [f"laplacian_{j + 1}" for j in range(self.embedding_.shape[1])]
 
     def fit_transform(self, X, y=None):
         """Compute the embedding of ``X`` and return it, shape (n_samples, components)."""

@@ -31,7 +31,7 @@ from sklearn.base import BaseEstimator, TransformerMixin
 
 from .._errors import InputError, LensworkWarning, ParameterError
 from .._validation import check_array, check_choice, check_int, seed_of
-from ._common import _check_query
+from ._common import _check_input, _LensOutputMixin
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["PCALens", "pca_coordinates"]
@@ -287,7 +287,7 @@ def _require_two_rows(n, context):
         )
 
 
-class PCALens(BaseEstimator, TransformerMixin):
+class PCALens(_LensOutputMixin, TransformerMixin, BaseEstimator):
     """Principal coordinates as a scikit-learn transformer.
 
     Parameters
@@ -311,6 +311,8 @@ class PCALens(BaseEstimator, TransformerMixin):
     solver_ : str
         The solver used (``"covariance"`` or ``"randomized"``).
     n_features_in_ : int
+    feature_names_in_ : ndarray of str
+        Column names of a DataFrame given to ``fit`` (only then).
 
     See Also
     --------
@@ -319,7 +321,8 @@ class PCALens(BaseEstimator, TransformerMixin):
     Notes
     -----
     ``transform(X)`` returns ``(X - mean_) @ components_.T``; cost as in
-    :func:`pca_coordinates`.
+    :func:`pca_coordinates`. The output columns are named ``pca_1, pca_2, ...``
+    (``get_feature_names_out``), as the ``pca`` lens names them.
 
     Examples
     --------
@@ -341,9 +344,8 @@ class PCALens(BaseEstimator, TransformerMixin):
     def fit(self, X, y=None):
         """Compute the basis of ``X``; returns self."""
         context = type(self).__name__
-        X = check_array(X, context)
+        X = _check_input(self, X, reset=True, min_rows=2, why="a covariance")
         n, d = X.shape
-        _require_two_rows(n, context)
         m = _check_components(self.components, n, d, context)
         solver = _choose_solver(check_choice("solver", self.solver, SOLVERS, context=context), d)
         basis = _fit_basis(X, m, solver, self.random_state).first(m)
@@ -352,13 +354,15 @@ class PCALens(BaseEstimator, TransformerMixin):
         self.explained_variance_ = basis.explained_variance
         self.explained_variance_ratio_ = basis.explained_variance_ratio
         self.solver_ = solver
-        self.n_features_in_ = d
         self._basis = basis
         return self
 
+    def _output_names(self):
+        return [f"pca_{j + 1}" for j in range(self.components_.shape[0])]
+
     def transform(self, X):
         """Principal coordinates of the rows of ``X``, shape (n_samples, components)."""
-        X = _check_query(self, X, "components_")
+        X = _check_input(self, X, reset=False)
         return _project(X, self._basis, self.components_.shape[0]).T
 
 
