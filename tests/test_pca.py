@@ -155,7 +155,8 @@ def test_transformer_is_a_proper_sklearn_estimator():
     rng = np.random.default_rng(5)
     X = _anisotropic(rng, 100, [3.0, 2.0, 1.0, 0.5])
     assert_allclose(lens.fit_transform(X), lens.fit(X).transform(X), atol=1e-12)
-    with pytest.raises(InputError, match="X has 3 features, but PCALens is expecting 4 .* columns PCALens was fitted on"):
+    msg = "X has 3 features, but PCALens is expecting 4 .* columns PCALens was fitted on"
+    with pytest.raises(InputError, match=msg):
         lens.transform(np.zeros((2, 3)))
 
 

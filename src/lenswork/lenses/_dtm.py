@@ -416,9 +416,8 @@ class KNNDistance(_LensOutputMixin, TransformerMixin, BaseEstimator):
 
         context = type(self).__name__
         k = check_int("k", self.k, lo=1, context=context)
-        X = _check_input(
-            self, X, reset=True, min_rows=k + 1, why=f"each row's k-th neighbour other than itself, k={k}"
-        )
+        why = f"each row's k-th neighbour other than itself, k={k}"
+        X = _check_input(self, X, reset=True, min_rows=k + 1, why=why)
         self.k_ = k
         self.n_samples_fit_ = X.shape[0]
         self._fit_X = X
@@ -444,7 +443,7 @@ class KNNDistance(_LensOutputMixin, TransformerMixin, BaseEstimator):
         dist, idx = self._nn.kneighbors(X, n_neighbors=k + 1)  # fit ensured n > k
         # A query equal to its nearest fitted row is that row (compared exactly: a brute
         # search may report a tiny non-zero distance for identical rows).
-        on_sample = np.all(X == self._fit_X[idx[:, 0]], axis=1)
+        on_sample = np.all(self._fit_X[idx[:, 0]] == X, axis=1)
         return np.where(on_sample, dist[:, k], dist[:, k - 1])[:, None]
 
 
