@@ -16,7 +16,10 @@ from lenswork.cli import cli
 def demo_run(tmp_path_factory):
     """One full `lenswork screen --demo` run with figures, shared by the checks below."""
     out = tmp_path_factory.mktemp("screen") / "out"
-    result = CliRunner().invoke(cli, ["screen", "--demo", "-o", str(out), "--ref", "flow_m3h"])
+    # --progress: the runner's stderr is not a terminal, where progress is off by default
+    result = CliRunner().invoke(
+        cli, ["--progress", "screen", "--demo", "-o", str(out), "--ref", "flow_m3h"]
+    )
     return result, out
 
 

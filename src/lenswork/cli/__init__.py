@@ -23,8 +23,13 @@ __all__ = ["cli", "main"]
 @click.group(cls=LensworkGroup, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, "--version", prog_name="lenswork")
 @click.option("-q", "--quiet", is_flag=True, help="Print results only: no progress lines or bars.")
+@click.option(
+    "--progress/--no-progress", default=None,
+    help="Show (or hide) progress on stderr even when it is not a terminal (default: shown on a "
+    "terminal only; also the environment variable LENSWORK_PROGRESS=1 or 0). --quiet wins.",
+)
 @click.pass_context
-def cli(ctx, quiet):
+def cli(ctx, quiet, progress):
     """lenswork: choose lenses for Mapper-style graph summaries of a point cloud.
 
     Start with `lenswork screen --demo`: it computes a set of candidate lenses on
@@ -36,7 +41,8 @@ def cli(ctx, quiet):
 
     ctx.ensure_object(dict)
     ctx.obj["quiet"] = quiet
-    _progress.set_reporter(not quiet)
+    previous = _progress.configure(quiet=quiet, force=progress)
+    ctx.call_on_close(lambda: _progress.restore(previous))  # the library is silent again after
 
 
 def _register_commands():
