@@ -108,12 +108,17 @@ def test_column_transformer_with_pandas_output():
             ("ecc", Eccentricity(), ["p", "q", "r", "s"]),
             ("knn", KNNDistance(k=4), ["r", "s"]),
             ("pca", PCALens(components=2), ["p", "q", "r"]),
+            ("lap", LaplacianLens(components=2, k=8), ["p", "q", "r"]),
         ]
     ).set_output(transform="pandas")
     out = ct.fit_transform(frame)
     assert list(out.columns) == [
         "dens__density", "ecc__eccentricity", "knn__knn_distance", "pca__pca_1", "pca__pca_2",
+        "lap__laplacian_1", "lap__laplacian_2",
     ]
+    # fit_transform of the whole and transform of the fitted rows agree (every lens maps
+    # its own fitted rows to their fit_transform values).
+    assert_allclose(ct.transform(frame).to_numpy(), out.to_numpy(), rtol=1e-12)
     # scipy.stats.gaussian_kde (Scott's rule, full covariance) as reference; rtol 1e-10.
     assert_allclose(out["dens__density"], gaussian_kde(X[:, :2].T).logpdf(X[:, :2].T), rtol=1e-10)
     # Eccentricity E_2(x) = sqrt(mean_y ||x - y||^2), brute force with scipy's cdist.
@@ -132,9 +137,8 @@ def test_column_transformer_with_pandas_output():
     assert_allclose(got["knn__knn_distance"], ref[0][:, 3], rtol=1e-12)
 
 
-def test_laplacian_lens_ends_a_pipeline():
-    # No transform for new rows (as sklearn.manifold.SpectralEmbedding), so it is the last
-    # step of a Pipeline; fit_transform gives the same as the function on the scaled data.
+def test_laplacian_lens_in_a_pipeline():
+    # fit_transform through the Pipeline gives the same as the function on the scaled data.
     rng = np.random.default_rng(3305)
     t = rng.uniform(0.0, 3.0, 300)
     frame = pd.DataFrame(np.c_[t, np.sin(2 * t), 0.01 * rng.normal(size=300)], columns=list("abc"))
@@ -150,6 +154,12 @@ def test_laplacian_lens_ends_a_pipeline():
     # a sampled curve bend it a little, hence 0.95 rather than 1).
     rho = pd.Series(out["laplacian_1"]).corr(pd.Series(t), method="spearman")
     assert abs(rho) > 0.95
+    # New rows (Nystrom extension) keep the names, and a point 1e-3 away from a fitted row
+    # gets nearly that row's coordinates (the extension is a weighted mean over the
+    # neighbours, smooth along the curve; 0.05 is about the change over 10 neighbours).
+    new = pipe.transform(frame.iloc[:5] + 1e-3)
+    assert list(new.columns) == ["laplacian_1", "laplacian_2"]
+    assert_allclose(new["laplacian_1"], out["laplacian_1"].iloc[:5], atol=0.05)
 
 
 def test_pipeline_refuses_wrong_columns_with_a_clear_error():

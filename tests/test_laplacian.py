@@ -413,3 +413,70 @@ def test_bad_data_is_a_clear_error():
         laplacian_eigenmaps(X)
     with pytest.raises(ParameterError, match=r"The 'weights' parameter of LaplacianLens"):
         LaplacianLens(weights="cosine").fit(rng.normal(size=(40, 2)))
+
+
+# ---------------------------------------------------------------- Nystrom extension
+def test_nystrom_extension_on_an_evenly_sampled_circle():
+    # Closed form: the first non-trivial Laplacian eigenvectors of a cycle graph are
+    # cos(2 pi j / n) and sin(2 pi j / n), eigenvalue 1 - cos(2 pi / n) per unit degree
+    # (Chung 1997, ch. 1). Scaled to mean square 1 the fitted rows lie on a circle of
+    # radius sqrt(2) at angle a + phi (one rotation phi, or a reflection).
+    rng = np.random.default_rng(4101)
+    a = np.arange(600) * (2.0 * np.pi / 600)
+    lens = LaplacianLens(components=2, k=10).fit(np.c_[np.cos(a), np.sin(a)])
+    E = lens.embedding_
+    assert_allclose(np.hypot(E[:, 0], E[:, 1]), np.sqrt(2.0), rtol=1e-9)
+    phi = np.angle(np.exp(1j * (np.arctan2(E[:, 1], E[:, 0]) - a)))
+    flip = np.ptp(phi) > 1e-6  # a reflection: the angle runs the other way
+    phi = np.angle(np.exp(1j * (np.arctan2(E[:, 1], E[:, 0]) + (a if flip else -a))))
+    assert np.ptp(phi) < 1e-6
+    # New points on the circle: the Nystrom formula (Bengio et al. 2004) must put them on
+    # the same circle at their own angle. Tolerances: the extension averages chords of
+    # the 10 nearest grid points (spacing 0.0105 rad), so 1e-3 in radius and angle.
+    t = rng.uniform(0.0, 2.0 * np.pi, 50)
+    N = lens.transform(np.c_[np.cos(t), np.sin(t)])
+    assert_allclose(np.hypot(N[:, 0], N[:, 1]), np.sqrt(2.0), rtol=1e-3)
+    psi = np.arctan2(N[:, 1], N[:, 0]) + (t if flip else -t)
+    assert np.max(np.abs(np.angle(np.exp(1j * (psi - phi[0]))))) < 1e-3
+
+
+@pytest.mark.parametrize("weights", ["heat", "self_tuning"])
+def test_nystrom_extension_equals_the_formula(weights):
+    # Reference: the out-of-sample formula of Bengio et al. (NIPS 2004) for Laplacian
+    # eigenmaps, f(y) = sum_j w(y, x_j) f(x_j) / ((1 - lambda) sum_j w(y, x_j)), written
+    # here with scipy's cdist, the eigenvalue from the Rayleigh quotient of the fitted
+    # coordinates on a dense affinity built from sklearn's NearestNeighbors.
+    from scipy.spatial.distance import cdist
+
+    rng = np.random.default_rng(4102 + len(weights))
+    X = _manifold(rng, 300)
+    k = 10
+    lens = LaplacianLens(components=2, k=k, weights=weights).fit(X)
+    E = lens.embedding_
+    dist, idx = NearestNeighbors(n_neighbors=k + 1).fit(X).kneighbors(X)
+    dist, idx = dist[:, 1:], idx[:, 1:]
+    if weights == "heat":
+        sigma = np.median(dist[dist > 0])
+        wgt = np.exp(-((dist / sigma) ** 2))
+    else:
+        s = dist[:, 6]
+        wgt = np.exp(-(dist**2) / (s[:, None] * s[idx]))
+    W = np.zeros((300, 300))
+    W[np.repeat(np.arange(300), k), idx.ravel()] = wgt.ravel()
+    W = np.maximum(W, W.T)
+    deg = W.sum(axis=1)
+    lam = np.array([E[:, j] @ (deg * E[:, j] - W @ E[:, j]) / (deg @ E[:, j] ** 2)
+                    for j in range(2)])
+    Y = X[:20] + 0.05 * rng.normal(size=(20, X.shape[1]))
+    D = cdist(Y, X)
+    near = np.argsort(D, axis=1)[:, :k]
+    d = np.take_along_axis(D, near, axis=1)
+    if weights == "heat":
+        w = np.exp(-((d / sigma) ** 2))
+    else:
+        w = np.exp(-(d**2) / (d[:, 6][:, None] * s[near]))
+    ref = np.einsum("ij,ijm->im", w, E[near]) / w.sum(axis=1)[:, None] / (1.0 - lam)
+    # Same formula in a different order of operations: float64 rounding only.
+    assert_allclose(lens.transform(Y), ref, rtol=1e-8, atol=1e-10)
+    # The fitted rows themselves come back unchanged (the scikit-learn contract).
+    assert np.array_equal(lens.transform(X), E)

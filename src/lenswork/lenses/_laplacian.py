@@ -123,6 +123,8 @@ WEIGHTS = ("heat", "self_tuning")
 _SELF_TUNING_NEIGHBOR = 7
 #: Edge weights below this are dropped (detached rather than numerically singular).
 _MIN_WEIGHT = 1e-10
+# Rows per block of the Nystrom extension (k x m floats per row).
+_NYSTROM_BLOCK = 65536
 #: Components up to this many vertices are solved densely.
 _DENSE_MAX = 1000
 #: Coarsening stops once a level has at most this many vertices.
@@ -144,6 +146,21 @@ _SMOOTH_MAX_DEGREE = 32
 
 
 # ------------------------------------------------------------------ weights
+def _local_sigma(dist, floor=None):
+    """Self-tuning scales: each row's distance to its 7th neighbour (k-th when k < 7).
+
+    Zero or non-finite scales are raised to ``floor`` (default: the smallest
+    positive one); returns ``(sigma, floor)``.
+    """
+    j = min(_SELF_TUNING_NEIGHBOR, dist.shape[1]) - 1
+    s = dist[:, j].copy()
+    good = np.isfinite(s) & (s > 0)
+    if floor is None:
+        floor = float(s[good].min()) if good.any() else 1.0
+    s[~good] = floor
+    return s, floor
+
+
 def _affinity(graph, weights):
     """Symmetric weighted adjacency (CSR, zero diagonal) of a NeighborGraph, and its info."""
     idx = np.asarray(graph.indices)
@@ -156,11 +173,8 @@ def _affinity(graph, weights):
             w = np.exp(-((dist / sigma) ** 2))
             info = {"sigma": sigma, "sigma_rule": "median positive neighbour distance"}
         else:
+            s, _ = _local_sigma(dist)
             j = min(_SELF_TUNING_NEIGHBOR, k) - 1
-            s = dist[:, j].copy()
-            good = np.isfinite(s) & (s > 0)
-            floor = float(s[good].min()) if good.any() else 1.0
-            s[~good] = floor
             w = np.exp(-(dist**2) / (s[:, None] * s[np.clip(idx, 0, n - 1)]))
             info = {
                 "sigma_neighbor": j + 1,
@@ -797,7 +811,7 @@ def _fit(X, components, k, weights, tol, max_iter, random_state, context):
     coords, info = _embed(graph, components, weights, rng, tol, max_iter)
     info["neighbor_seconds"] = graph.info.get("seconds")
     info["neighbor_method"] = graph.method
-    return coords, info, X.shape[1]
+    return coords, info, graph
 
 
 def _one_blas_thread():
@@ -813,8 +827,28 @@ def _one_blas_thread():
     return threadpool_limits(limits=1, user_api="blas")
 
 
+def _component_eigenvalues(W, coords):
+    """Per connected component and column, the Rayleigh quotient ``x^T (D - W) x / x^T D x``.
+
+    For a converged eigenvector of ``(D - W) x = lambda D x`` restricted to a
+    component this is its eigenvalue; columns that are 0 on a component (too
+    few points) get 0. Returns ``(labels, lambdas)``, lambdas of shape
+    (n_components, m).
+    """
+    ncomp, labels = connected_components(W, directed=False)
+    deg = np.asarray(W.sum(axis=1)).ravel()
+    Wx = W @ coords
+    lambdas = np.zeros((ncomp, coords.shape[1]))
+    for j in range(coords.shape[1]):
+        x = coords[:, j]
+        num = np.bincount(labels, weights=x * (deg * x - Wx[:, j]), minlength=ncomp)
+        den = np.bincount(labels, weights=deg * x * x, minlength=ncomp)
+        np.divide(num, den, out=lambdas[:, j], where=den > 0)
+    return labels, lambdas
+
+
 class LaplacianLens(_LensOutputMixin, TransformerMixin, BaseEstimator):
-    """Laplacian eigenmaps as a scikit-learn transformer (``fit_transform`` only).
+    """Laplacian eigenmaps as a scikit-learn transformer, with a Nystrom extension to new rows.
 
     Parameters
     ----------
@@ -836,18 +870,40 @@ class LaplacianLens(_LensOutputMixin, TransformerMixin, BaseEstimator):
         ``||S u - mu u||`` of each unit eigenvector.
     info_ : dict
         Solver details (see :func:`laplacian_eigenmaps`).
+    n_iter_ : int
+        LOBPCG iterations on the largest graph component; 1 when it was small
+        enough (at most 1,000 points) to be solved directly in one dense solve.
     n_features_in_ : int
     feature_names_in_ : ndarray of str
         Column names of a DataFrame given to ``fit`` (only then).
 
     Notes
     -----
-    There is no ``transform`` for new rows: the eigenvectors are defined on the
-    graph of the fitted rows only (as in
-    :class:`sklearn.manifold.SpectralEmbedding`), so scikit-learn's checks run
-    the ``fit`` / ``fit_transform`` ones. The output columns are named
-    ``laplacian_1, laplacian_2, ...`` (``get_feature_names_out``), as the
-    ``laplacian`` lens names them. Cost as in :func:`laplacian_eigenmaps`.
+    ``fit_transform(X)`` equals :func:`laplacian_eigenmaps` on ``X``.
+    ``transform(Y)`` extends the coordinates to new rows by the Nystrom
+    formula for Laplacian eigenmaps (Bengio et al. 2004): with the k nearest
+    fitted rows ``x_j`` of ``y`` and the fit's edge weights ``w_j`` (heat:
+    ``exp(-d_j^2 / sigma^2)``; self-tuning: ``exp(-d_j^2 / (sigma_y sigma_j))``,
+    ``sigma_y`` the distance from ``y`` to its 7th nearest fitted row),
+
+    ``f(y) = sum_j w_j f(x_j) / ((1 - lambda) sum_j w_j)``,
+
+    ``lambda`` the eigenvalue of the column on the graph component of the
+    nearest fitted row. This is the eigen-equation ``P f = (1 - lambda) f`` of
+    the random walk ``P = D^-1 W`` read at a new point. A row of ``Y``
+    identical to a fitted row is that row and gets its fitted coordinates, so
+    ``transform(X) == fit_transform(X)`` on the fitted rows. Weights are taken
+    relative to the nearest one, so a point far from the data gets (about)
+    its nearest fitted row's coordinates over ``1 - lambda`` rather than 0 / 0.
+    Cost of ``transform``: one exact k-neighbour search per row plus O(k m).
+    The output columns are named ``laplacian_1, laplacian_2, ...``
+    (``get_feature_names_out``), as the ``laplacian`` lens names them.
+
+    References
+    ----------
+    .. [1] Y. Bengio, J.-F. Paiement, P. Vincent, O. Delalleau, N. Le Roux and
+       M. Ouimet, "Out-of-sample extensions for LLE, Isomap, MDS, Eigenmaps,
+       and spectral clustering", NIPS 2004.
 
     Examples
     --------
@@ -860,6 +916,15 @@ class LaplacianLens(_LensOutputMixin, TransformerMixin, BaseEstimator):
     (400, 2)
     >>> bool(lens.residuals_.max() < 1e-6), lens.info_["graph_components"]
     (True, 1)
+
+    An evenly sampled circle embeds as a circle of radius sqrt(2) (cos and
+    sin, scaled to mean square 1); new points on it land on that circle too:
+
+    >>> a = np.arange(600) * (2.0 * np.pi / 600)
+    >>> lens = LaplacianLens(components=2, k=10).fit(np.c_[np.cos(a), np.sin(a)])
+    >>> new = lens.transform([[1.0, 0.0], [0.6, -0.8]])
+    >>> np.round(np.hypot(new[:, 0], new[:, 1]) ** 2, 3).tolist()
+    [2.0, 2.0]
     """
 
     def __init__(
@@ -874,24 +939,58 @@ class LaplacianLens(_LensOutputMixin, TransformerMixin, BaseEstimator):
 
     def fit(self, X, y=None):
         """Compute the embedding of ``X``; returns self."""
+        from sklearn.neighbors import NearestNeighbors
+
         context = type(self).__name__
         params = _check_params(
             self.components, self.k, self.weights, self.tol, self.max_iter, context
         )
-        components, k = params[0], params[1]
+        components, k, weights = params[0], params[1], params[2]
         X = _check_input(
             self, X, reset=True, min_rows=max(components + 2, k + 1),
             why=f"components + 2 and k + 1, with components={components}, k={k}",
         )
-        coords, info, _ = _fit(X, *params, self.random_state, context)
+        coords, info, graph = _fit(X, *params, self.random_state, context)
         self.embedding_ = coords
         self.eigenvalues_ = np.asarray(info["eigenvalues"])
         self.residuals_ = np.asarray(info["residuals"])
         self.info_ = info
+        self.n_iter_ = max(int(info["iterations"]), 1)
+        # What the Nystrom extension needs: the fitted rows, their scales, the eigenvalue
+        # of each column on each graph component.
+        W, _ = _affinity(graph, weights)
+        self._labels, self._lambdas = _component_eigenvalues(W, coords)
+        if weights == "self_tuning":
+            self._sigma, self._sigma_floor = _local_sigma(np.asarray(graph.distances, float))
+        self._fit_X = X
+        self._nn = NearestNeighbors(n_neighbors=k).fit(X)
         return self
 
     def _output_names(self):
         return [f"laplacian_{j + 1}" for j in range(self.embedding_.shape[1])]
+
+    def transform(self, X):
+        """Coordinates of the rows of ``X`` by the Nystrom extension, shape (n, components)."""
+        X = _check_input(self, X, reset=False)
+        k = self._nn.n_neighbors
+        coords = self.embedding_
+        out = np.empty((X.shape[0], coords.shape[1]))
+        for i0 in range(0, X.shape[0], _NYSTROM_BLOCK):
+            Q = X[i0:i0 + _NYSTROM_BLOCK]
+            dist, idx = self._nn.kneighbors(Q, n_neighbors=k)
+            if self.info_["weights"] == "heat":
+                logw = -((dist / self.info_["sigma"]) ** 2)
+            else:
+                s_q, _ = _local_sigma(dist, self._sigma_floor)
+                logw = -(dist**2) / (s_q[:, None] * self._sigma[idx])
+            w = np.exp(logw - logw.max(axis=1, keepdims=True))  # relative: never 0 / 0
+            mean = np.einsum("ij,ijm->im", w, coords[idx]) / w.sum(axis=1)[:, None]
+            lam = self._lambdas[self._labels[idx[:, 0]]]
+            block = mean / (1.0 - lam)
+            on_sample = np.all(self._fit_X[idx[:, 0]] == Q, axis=1)
+            block[on_sample] = coords[idx[on_sample, 0]]
+            out[i0:i0 + _NYSTROM_BLOCK] = block
+        return out
 
     def fit_transform(self, X, y=None):
         """Compute the embedding of ``X`` and return it, shape (n_samples, components)."""
