@@ -173,3 +173,17 @@ def test_pipeline_refuses_wrong_columns_with_a_clear_error():
         GaussianDensity().fit(pd.DataFrame(bad, columns=["a", "b", "c"]))
     with pytest.raises(InputError, match="n_samples=3 rows; it needs at least 6"):
         KNNDistance(k=5).fit(bad[3:6])
+
+
+def test_every_public_transformer_is_checked():
+    # A new transformer exported by lenswork must join ESTIMATORS (common practice:
+    # the contract test covers the whole public surface).
+    from sklearn.base import TransformerMixin
+
+    import lenswork
+
+    public = {
+        obj for name in lenswork.__all__
+        if isinstance(obj := getattr(lenswork, name), type) and issubclass(obj, TransformerMixin)
+    }
+    assert public == {type(e) for e in ESTIMATORS}

@@ -177,9 +177,12 @@ class _FakeClock:
 
 def test_loop_lines_count_rate_and_time_left(monkeypatch):
     monkeypatch.setattr(_progress.time, "perf_counter", _FakeClock())
-    out = io.StringIO()
-    reporter = _progress._Printing(out, live=False, interval=1.0)
-    assert list(reporter.track(range(4), "items", length=4)) == [0, 1, 2, 3]
+    out = io.StringIO()  # not a terminal: timed lines
+    previous = _progress.set_reporter(True, out, interval=1.0)
+    try:
+        assert list(_progress.track(range(4), "items", length=4)) == [0, 1, 2, 3]
+    finally:
+        _progress.restore(previous)
     # Clock: start 0, items done at 2, 4, 6, 8 s, closing read at 10 s. Rate = count /
     # elapsed; time left = elapsed / count * remaining (constant-rate extrapolation,
     # common practice).

@@ -218,16 +218,17 @@ class _Printing:
 _reporter = _Silent()
 
 
-def set_reporter(verbose, stream=None):
+def set_reporter(verbose, stream=None, *, interval=5.0):
     """Switch progress output on (``verbose=True``) or off; returns the previous reporter.
 
     On, it prints whether or not ``stream`` (default stderr) is a terminal; a
-    loop is a redrawn bar on a terminal and timed lines elsewhere. Pass the
-    returned reporter to :func:`restore` to switch back.
+    loop is a redrawn bar on a terminal and, elsewhere, a line every
+    ``interval`` seconds and a closing line. Pass the returned reporter to
+    :func:`restore` to switch back.
     """
     global _reporter
     previous = _reporter
-    _reporter = _Printing(stream) if verbose else _Silent()
+    _reporter = _Printing(stream, interval=interval) if verbose else _Silent()
     return previous
 
 

@@ -5,9 +5,9 @@
 * :func:`_parallel_rows` runs a worker over blocks of rows on a few threads
   (BLAS at one thread each); :func:`_zero_self` clears the self pairs of a
   tile of an all-pairs reduction. Tiles are ``_TILE_ROWS x _TILE_COLS``.
-* :func:`_check_input` checks the rows given to a transformer's ``fit`` or
+* :func:`check_input` checks the rows given to a transformer's ``fit`` or
   ``transform`` (scikit-learn's contract plus lenswork's messages);
-  :class:`_LensOutputMixin` gives the transformers ``get_feature_names_out``.
+  :class:`LensOutputMixin` gives the transformers ``get_feature_names_out``.
 """
 
 from __future__ import annotations
@@ -20,7 +20,7 @@ import numpy as np
 from .._errors import InputError
 from .._validation import check_finite
 
-__all__: list[str] = []
+__all__ = ["LensOutputMixin", "check_input"]
 
 # Tile shape (rows x reference points) of the fused all-pairs reductions; 256 x 2048
 # float64 = 4 MB, measured fastest at d = 20 among 64..1024 x 1024..30000
@@ -111,7 +111,7 @@ def _zero_self(T, i0, i1, query_rows, ref_rows, j0, j1, value=0.0):
         T[qi, ci] = value
 
 
-class _LensOutputMixin:
+class LensOutputMixin:
     """``get_feature_names_out`` for the lens transformers (place it before TransformerMixin).
 
     A transformer lists its output column names in ``_output_names()`` (the
@@ -150,7 +150,7 @@ class _LensOutputMixin:
 _NONFINITE_ADVICE = "NaN and inf are not allowed: remove or impute such rows first."
 
 
-def _check_input(est, X, *, reset, min_rows=1, why=""):
+def check_input(est, X, *, reset, min_rows=1, why=""):
     """``X`` checked as a transformer's ``fit`` (``reset=True``) or ``transform`` input.
 
     scikit-learn's ``validate_data`` does the estimator contract: 2-D input

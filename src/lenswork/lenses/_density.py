@@ -38,11 +38,11 @@ from .._validation import (
 from ._common import (
     _TILE_COLS,
     _TILE_ROWS,
-    _check_input,
-    _LensOutputMixin,
+    LensOutputMixin,
     _parallel_rows,
     _sample_rows,
     _zero_self,
+    check_input,
 )
 from ._registry import LensPart, Param, register_lens
 
@@ -565,7 +565,7 @@ def gaussian_density(
     return values, info
 
 
-class GaussianDensity(_LensOutputMixin, TransformerMixin, BaseEstimator):
+class GaussianDensity(LensOutputMixin, TransformerMixin, BaseEstimator):
     """Gaussian kernel density as a transformer (one output column).
 
     Parameters
@@ -627,7 +627,7 @@ class GaussianDensity(_LensOutputMixin, TransformerMixin, BaseEstimator):
     def fit(self, X, y=None):
         """Choose the kernel for ``X`` and keep ``X`` as the reference sample."""
         bandwidth, *_ = self._params()
-        X = _check_input(self, X, reset=True, min_rows=2, why="a kernel covariance")
+        X = check_input(self, X, reset=True, min_rows=2, why="a kernel covariance")
         self._kernel = _Kernel(X, bandwidth, check_random_state(self.random_state))
         self.covariance_ = self._kernel.H
         self.info_ = dict(self._kernel.info)
@@ -646,7 +646,7 @@ class GaussianDensity(_LensOutputMixin, TransformerMixin, BaseEstimator):
 
     def transform(self, X):
         """Density of the fitted sample at the rows of ``X`` (new points), shape (n, 1)."""
-        return self._run(_check_input(self, X, reset=False), self_query=False)[0]
+        return self._run(check_input(self, X, reset=False), self_query=False)[0]
 
     def fit_transform(self, X, y=None, **fit_params):
         """Fit on ``X`` and return its density at its own points, shape (n, 1)."""

@@ -30,7 +30,7 @@ from sklearn.base import BaseEstimator, TransformerMixin
 from .._errors import InputError, LensworkWarning, ParameterError
 from .._validation import check_array, check_float, check_int
 from ..workspace import NeighborGraph, neighbor_graph
-from ._common import _check_input, _LensOutputMixin
+from ._common import LensOutputMixin, check_input
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["DistanceToMeasure", "KNNDistance", "distance_to_measure", "knn_distance"]
@@ -180,7 +180,7 @@ def distance_to_measure(X, *, mass=0.01, graph=None, max_k=MAX_K, random_state=0
     return _dtm_from_distances(distances, k)
 
 
-class DistanceToMeasure(_LensOutputMixin, TransformerMixin, BaseEstimator):
+class DistanceToMeasure(LensOutputMixin, TransformerMixin, BaseEstimator):
     """Distance to the empirical measure of the fitted rows, as a transformer.
 
     Parameters
@@ -238,7 +238,7 @@ class DistanceToMeasure(_LensOutputMixin, TransformerMixin, BaseEstimator):
         context = type(self).__name__
         mass = _check_mass(self.mass, context)
         max_k = _check_max_k(self.max_k, context)
-        X = _check_input(self, X, reset=True)
+        X = check_input(self, X, reset=True)
         n = X.shape[0]
         self.k_, wanted = _dtm_k(mass, n, max_k)
         _dtm_messages(mass, n, self.k_, wanted, context, _warn)
@@ -261,7 +261,7 @@ class DistanceToMeasure(_LensOutputMixin, TransformerMixin, BaseEstimator):
 
     def transform(self, X):
         """The DTM of the fitted measure at the rows of ``X``, shape (n_samples, 1)."""
-        X = _check_input(self, X, reset=False)
+        X = check_input(self, X, reset=False)
         dist, _ = self._nn.kneighbors(X, n_neighbors=self.k_)
         return np.sqrt(np.einsum("ij,ij->i", dist, dist) / self.k_)[:, None]
 
@@ -361,7 +361,7 @@ def knn_distance(X, *, k=10, graph=None, random_state=0):
     return np.ascontiguousarray(distances[:, k - 1])
 
 
-class KNNDistance(_LensOutputMixin, TransformerMixin, BaseEstimator):
+class KNNDistance(LensOutputMixin, TransformerMixin, BaseEstimator):
     """Distance to the k-th nearest fitted row, as a transformer.
 
     Parameters
@@ -417,7 +417,7 @@ class KNNDistance(_LensOutputMixin, TransformerMixin, BaseEstimator):
         context = type(self).__name__
         k = check_int("k", self.k, lo=1, context=context)
         why = f"each row's k-th neighbour other than itself, k={k}"
-        X = _check_input(self, X, reset=True, min_rows=k + 1, why=why)
+        X = check_input(self, X, reset=True, min_rows=k + 1, why=why)
         self.k_ = k
         self.n_samples_fit_ = X.shape[0]
         self._fit_X = X
@@ -438,7 +438,7 @@ class KNNDistance(_LensOutputMixin, TransformerMixin, BaseEstimator):
 
         A row identical to a fitted row skips that fitted row (see Notes).
         """
-        X = _check_input(self, X, reset=False)
+        X = check_input(self, X, reset=False)
         k = self.k_
         dist, idx = self._nn.kneighbors(X, n_neighbors=k + 1)  # fit ensured n > k
         # A query equal to its nearest fitted row is that row (compared exactly: a brute

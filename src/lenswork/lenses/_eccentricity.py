@@ -31,11 +31,11 @@ from .._validation import (
 )
 from ._common import (
     _TILE_COLS,
-    _check_input,
-    _LensOutputMixin,
+    LensOutputMixin,
     _parallel_rows,
     _sample_rows,
     _zero_self,
+    check_input,
 )
 from ._registry import LensPart, Param, register_lens
 
@@ -310,7 +310,7 @@ def eccentricity(X, *, p=2.0, mode="auto", landmarks=LANDMARKS, random_state=0,
     return _returned(values, info, err, p, return_info)
 
 
-class Eccentricity(_LensOutputMixin, TransformerMixin, BaseEstimator):
+class Eccentricity(LensOutputMixin, TransformerMixin, BaseEstimator):
     """Euclidean eccentricity as a transformer (one output column).
 
     Parameters
@@ -355,7 +355,7 @@ class Eccentricity(_LensOutputMixin, TransformerMixin, BaseEstimator):
     def fit(self, X, y=None):
         """Keep ``X`` as the reference rows."""
         _check_params(self.p, self.mode, self.landmarks, "Eccentricity")
-        self._X = _check_input(self, X, reset=True)
+        self._X = check_input(self, X, reset=True)
         self.info_ = {}
         return self
 
@@ -372,7 +372,7 @@ class Eccentricity(_LensOutputMixin, TransformerMixin, BaseEstimator):
 
     def transform(self, X):
         """Eccentricity of the rows of ``X`` w.r.t. the fitted rows, shape (n, 1)."""
-        return self._run(_check_input(self, X, reset=False))[0]
+        return self._run(check_input(self, X, reset=False))[0]
 
     def fit_transform(self, X, y=None, **fit_params):
         """Fit on ``X`` and return the eccentricity of its rows, shape (n, 1)."""

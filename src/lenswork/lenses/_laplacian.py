@@ -112,7 +112,7 @@ from .._validation import (
     seed_of,
 )
 from ..workspace import knn_matrix
-from ._common import _check_input, _LensOutputMixin
+from ._common import LensOutputMixin, check_input
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["LaplacianLens", "laplacian_eigenmaps"]
@@ -847,7 +847,7 @@ def _component_eigenvalues(W, coords):
     return labels, lambdas
 
 
-class LaplacianLens(_LensOutputMixin, TransformerMixin, BaseEstimator):
+class LaplacianLens(LensOutputMixin, TransformerMixin, BaseEstimator):
     """Laplacian eigenmaps as a scikit-learn transformer, with a Nystrom extension to new rows.
 
     Parameters
@@ -946,7 +946,7 @@ class LaplacianLens(_LensOutputMixin, TransformerMixin, BaseEstimator):
             self.components, self.k, self.weights, self.tol, self.max_iter, context
         )
         components, k, weights = params[0], params[1], params[2]
-        X = _check_input(
+        X = check_input(
             self, X, reset=True, min_rows=max(components + 2, k + 1),
             why=f"components + 2 and k + 1, with components={components}, k={k}",
         )
@@ -971,7 +971,7 @@ class LaplacianLens(_LensOutputMixin, TransformerMixin, BaseEstimator):
 
     def transform(self, X):
         """Coordinates of the rows of ``X`` by the Nystrom extension, shape (n, components)."""
-        X = _check_input(self, X, reset=False)
+        X = check_input(self, X, reset=False)
         k = self._nn.n_neighbors
         coords = self.embedding_
         out = np.empty((X.shape[0], coords.shape[1]))

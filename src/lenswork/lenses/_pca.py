@@ -31,7 +31,7 @@ from sklearn.base import BaseEstimator, TransformerMixin
 
 from .._errors import InputError, LensworkWarning, ParameterError
 from .._validation import check_array, check_choice, check_int, seed_of
-from ._common import _check_input, _LensOutputMixin
+from ._common import LensOutputMixin, check_input
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["PCALens", "pca_coordinates"]
@@ -287,7 +287,7 @@ def _require_two_rows(n, context):
         )
 
 
-class PCALens(_LensOutputMixin, TransformerMixin, BaseEstimator):
+class PCALens(LensOutputMixin, TransformerMixin, BaseEstimator):
     """Principal coordinates as a scikit-learn transformer.
 
     Parameters
@@ -344,7 +344,7 @@ class PCALens(_LensOutputMixin, TransformerMixin, BaseEstimator):
     def fit(self, X, y=None):
         """Compute the basis of ``X``; returns self."""
         context = type(self).__name__
-        X = _check_input(self, X, reset=True, min_rows=2, why="a covariance")
+        X = check_input(self, X, reset=True, min_rows=2, why="a covariance")
         n, d = X.shape
         m = _check_components(self.components, n, d, context)
         solver = _choose_solver(check_choice("solver", self.solver, SOLVERS, context=context), d)
@@ -362,7 +362,7 @@ class PCALens(_LensOutputMixin, TransformerMixin, BaseEstimator):
 
     def transform(self, X):
         """Principal coordinates of the rows of ``X``, shape (n_samples, components)."""
-        X = _check_input(self, X, reset=False)
+        X = check_input(self, X, reset=False)
         return _project(X, self._basis, self.components_.shape[0]).T
 
 
