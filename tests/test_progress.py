@@ -145,9 +145,9 @@ def test_quiet_wins_in_a_pseudo_terminal(tmp_path):
     assert raw == "" and "wrote" in stdout
 
 
-def test_cli_progress_option_and_quiet(capsys):
+def test_cli_progress_option_and_quiet(capsys, tmp_path):
     runner = CliRunner()
-    base = ["compute", "--demo", "--lens", "dtm:mass=0.03"]
+    base = ["compute", "--demo", "--lens", "dtm:mass=0.03", "-o", str(tmp_path / "l.csv")]
     res = runner.invoke(cli, base)
     assert res.exit_code == 0 and "neighbour graph" not in res.stderr  # not a terminal
     res = runner.invoke(cli, ["--progress", *base])
