@@ -35,7 +35,12 @@ from .._validation import (
     check_int,
     check_random_state,
 )
-from ._common import _TILE_COLS, _TILE_ROWS, _check_query, _parallel_rows, _sample_rows, _zero_self
+from ._common import TILE_COLS as _TILE_COLS
+from ._common import TILE_ROWS as _TILE_ROWS
+from ._common import check_query as _check_query
+from ._common import parallel_rows as _parallel_rows
+from ._common import sample_rows as _sample_rows
+from ._common import zero_self as _zero_self
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["GaussianDensity", "gaussian_density", "scott_bandwidth", "silverman_bandwidth"]

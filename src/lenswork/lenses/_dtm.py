@@ -30,7 +30,7 @@ from sklearn.base import BaseEstimator, TransformerMixin
 from .._errors import InputError, LensworkWarning, ParameterError
 from .._validation import check_array, check_float, check_int
 from ..workspace import NeighborGraph, neighbor_graph
-from ._common import _check_query
+from ._common import check_query as _check_query
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["DistanceToMeasure", "KNNDistance", "distance_to_measure", "knn_distance"]

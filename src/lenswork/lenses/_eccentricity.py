@@ -29,7 +29,11 @@ from .._validation import (
     check_random_state,
     seed_of,
 )
-from ._common import _TILE_COLS, _check_query, _parallel_rows, _sample_rows, _zero_self
+from ._common import TILE_COLS as _TILE_COLS
+from ._common import check_query as _check_query
+from ._common import parallel_rows as _parallel_rows
+from ._common import sample_rows as _sample_rows
+from ._common import zero_self as _zero_self
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["Eccentricity", "eccentricity", "geodesic_eccentricity"]

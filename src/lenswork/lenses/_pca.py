@@ -31,7 +31,7 @@ from sklearn.base import BaseEstimator, TransformerMixin
 
 from .._errors import InputError, LensworkWarning, ParameterError
 from .._validation import check_array, check_choice, check_int, seed_of
-from ._common import _check_query
+from ._common import check_query as _check_query
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["PCALens", "pca_coordinates"]
