@@ -25,9 +25,8 @@ from .._validation import check_choice
 from .._version import __version__
 from ..normalize import NORMALIZATIONS, normalize
 
-__all__ = ["FORMATS", "LensColumn", "LensTable"]
+__all__ = ["ENDINGS", "FORMATS", "LensColumn", "LensTable"]
 
-FORMATS = ("csv", "parquet", "npy")
 
 
 @dataclass(frozen=True, eq=False)
@@ -195,7 +194,7 @@ class LensTable:
         path = Path(path)
         if format is None:
             ending = path.suffix.lower().lstrip(".")
-            format = {"tsv": "csv", "pq": "parquet"}.get(ending, ending)
+            format = ENDINGS.get(ending, ending)
         format = check_choice("format", format, FORMATS, context="LensTable.write")
         ids, passthrough, lens = self._full_rows(normalized)
         meta = self.provenance()
@@ -206,13 +205,7 @@ class LensTable:
             "lens_columns": self.names,
         }
         with atomic_path(path) as tmp:
-            if format == "csv":
-                _write_csv(tmp, self.cloud.id_name, ids, passthrough, self.names, lens)
-            elif format == "npy":
-                with open(tmp, "wb") as fh:
-                    np.save(fh, lens)
-            else:
-                _write_parquet(tmp, self.cloud.id_name, ids, passthrough, self.names, lens)
+            _WRITERS[format](tmp, self.cloud.id_name, ids, passthrough, self.names, lens)
         sidecar = path.with_name(path.name + ".json")
         write_text(sidecar, dumps(meta) + "\n")
         return path, sidecar
@@ -372,3 +365,18 @@ def _write_parquet(tmp, id_name, ids, passthrough, names, lens):
     for j, name in enumerate(names):
         data[name] = pa.array(lens[:, j], mask=np.isnan(lens[:, j]))
     pq.write_table(pa.table(data), tmp)
+
+
+def _write_npy(tmp, id_name, ids, passthrough, names, lens):
+    """Lens values only: an NPY file holds one array, no ids (read back by position)."""
+    with open(tmp, "wb") as fh:
+        np.save(fh, lens)
+
+
+#: Lens-file format -> writer ``(tmp, id_name, ids, passthrough, names, lens)``: the one table
+#: of output formats (validation, dispatch, the CLI's choices). A new format is one writer
+#: function and one entry here (plus a file ending in ENDINGS).
+_WRITERS = {"csv": _write_csv, "parquet": _write_parquet, "npy": _write_npy}
+FORMATS = tuple(_WRITERS)
+#: File ending -> format, for ``LensTable.write(path)`` without ``format=``.
+ENDINGS = {"csv": "csv", "tsv": "csv", "parquet": "parquet", "pq": "parquet", "npy": "npy"}
