@@ -23,7 +23,7 @@ Registry
     compute_lenses, get_lens, lens_names, parse_lens, register_lens, user_lens,
     LensPart, LensSpec, Param
 Lens columns
-    LensColumn, LensTable, FORMATS
+    LensColumn, LensTable, FORMATS (lens-file formats), ENDINGS (file ending -> format)
 Lens functions and transformers
     pca_coordinates, PCALens, distance_to_measure, DistanceToMeasure,
     knn_distance, KNNDistance, data_column, gaussian_density, GaussianDensity,
@@ -40,10 +40,11 @@ from ._eccentricity import Eccentricity, eccentricity, geodesic_eccentricity
 from ._laplacian import LaplacianLens, laplacian_eigenmaps
 from ._pca import PCALens, pca_coordinates
 from ._registry import LensPart, LensSpec, Param, get_lens, lens_names, parse_lens, register_lens
-from ._table import FORMATS, LensColumn, LensTable
+from ._table import ENDINGS, FORMATS, LensColumn, LensTable
 
 __all__ = [
     "DistanceToMeasure",
+    "ENDINGS",
     "Eccentricity",
     "FORMATS",
     "GaussianDensity",
