@@ -18,6 +18,7 @@ parameter that differs from its default: ``pca_2``, ``dtm[mass=0.05]``.
 
 from __future__ import annotations
 
+import warnings
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any, NamedTuple
@@ -208,8 +209,6 @@ def _load_entry_points():
         try:
             ep.load()  # importing the module runs its @register_lens / @user_lens decorators
         except Exception as err:  # a broken plug-in must not break the library
-            import warnings
-
             warnings.warn(
                 f"Could not load lens plug-in {ep.name!r} ({ep.value}): {err}",
                 LensworkWarning,

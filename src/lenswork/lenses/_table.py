@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import csv
 import json
+import warnings
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
@@ -23,6 +24,7 @@ from .._io import atomic_path, write_text
 from .._json import dumps, plain
 from .._validation import check_choice
 from .._version import __version__
+from ..data import load_table
 from ..normalize import NORMALIZATIONS, normalize
 
 __all__ = ["ENDINGS", "FORMATS", "LensColumn", "LensTable"]
@@ -257,10 +259,6 @@ class LensTable:
         >>> back.names, back["h"].values.tolist()
         (['h'], [0.5, 1.5, 2.5, 3.5])
         """
-        import warnings
-
-        from ..data import load_table
-
         path = Path(path)
         meta, names, id_column = _read_sidecar(path)
         wanted = names if columns is None else list(columns)
