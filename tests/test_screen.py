@@ -26,7 +26,7 @@ from lenswork import (
     spearman_matrix,
     spread_score,
 )
-from lenswork.screen import _merit, default_candidates
+from lenswork.screen import default_candidates, weighted_merit
 
 
 def _table(columns, n=None, passthrough=None, rng=None):
@@ -225,7 +225,7 @@ def test_selection_stop_reasons():
 
 def test_merit_is_weighted_geometric_mean():
     scores = {"spread": np.array([0.5, 0.9, 0.0]), "structure": np.array([0.8, 0.1, 1.0])}
-    m = _merit(scores, {"spread": 1.0, "structure": 3.0})
+    m = weighted_merit(scores, {"spread": 1.0, "structure": 3.0})
     # closed form: (s^1 t^3)^(1/4), and 0 when any weighted score is 0
     assert_allclose(m, [(0.5 * 0.8**3) ** 0.25, (0.9 * 0.1**3) ** 0.25, 0.0], atol=1e-15)
 

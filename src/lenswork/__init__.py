@@ -42,18 +42,32 @@ from .compare import (
 )
 from .data import ExcludedRow, PointCloud, load_table
 from .graph import Cover, GraphSummary, LensGraph, build_graph, read_graph_json
-from .lenses import compute_lenses, get_lens, lens_names, parse_lens, register_lens
-from .lenses._column import data_column, user_lens
-from .lenses._density import (
+from .lenses import (
+    DistanceToMeasure,
+    Eccentricity,
     GaussianDensity,
+    KNNDistance,
+    LaplacianLens,
+    LensColumn,
+    LensTable,
+    PCALens,
+    compute_lenses,
+    data_column,
+    distance_to_measure,
+    eccentricity,
     gaussian_density,
+    geodesic_eccentricity,
+    get_lens,
+    knn_distance,
+    laplacian_eigenmaps,
+    lens_names,
+    parse_lens,
+    pca_coordinates,
+    register_lens,
     scott_bandwidth,
     silverman_bandwidth,
+    user_lens,
 )
-from .lenses._dtm import DistanceToMeasure, KNNDistance, distance_to_measure, knn_distance
-from .lenses._eccentricity import Eccentricity, eccentricity, geodesic_eccentricity
-from .lenses._laplacian import LaplacianLens, laplacian_eigenmaps
-from .lenses._pca import PCALens, pca_coordinates
 from .normalize import normalize
 from .probe import StabilityMap, StructureProbe, feature_counts, stability_map, structure_scores
 from .screen import (
@@ -67,7 +81,6 @@ from .screen import (
     spearman_matrix,
     spread_score,
 )
-from .table import LensColumn, LensTable
 from .workspace import NeighborGraph, Workspace, neighbor_graph
 
 __all__ = [

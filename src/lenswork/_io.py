@@ -7,7 +7,7 @@ import os
 import tempfile
 from pathlib import Path
 
-__all__: list[str] = []
+__all__ = ["atomic_path", "write_text"]
 
 
 @contextlib.contextmanager

@@ -20,7 +20,17 @@ import numpy as np
 
 from ._errors import InputError, ParameterError
 
-__all__: list[str] = []
+__all__ = [
+    "check_array",
+    "check_bool",
+    "check_choice",
+    "check_finite",
+    "check_float",
+    "check_float_or_choice",
+    "check_int",
+    "check_random_state",
+    "seed_of",
+]
 
 
 def _fail(name, context, expected, value):

@@ -38,8 +38,9 @@ from pathlib import Path
 import numpy as np
 
 from ._io import write_text
+from .data import load_table
 
-__all__ = ["DEMO_SEED", "demo_arrays", "demo_csv_text", "load_demo", "write_demo"]
+__all__ = ["DEMO_FILE", "DEMO_SEED", "demo_arrays", "demo_csv_text", "load_demo", "write_demo"]
 
 DEMO_SEED = 20261201
 DEMO_FILE = "pump_stations.csv"
@@ -163,8 +164,6 @@ def load_demo(scale="zscore", seed=DEMO_SEED):
     PointCloud
         Features: the 12 channels; id column ``snapshot``; passthrough ``state``.
     """
-    from .data import load_table
-
     with tempfile.TemporaryDirectory() as tmp:
         path = write_demo(Path(tmp) / DEMO_FILE, seed)
         cloud = load_table(path, id_column="snapshot", scale=None if scale == "none" else scale)

@@ -13,8 +13,8 @@ import sys
 
 import click
 
-from .. import __version__
 from .._errors import LensworkError
+from .._version import __version__
 from ._common import LensworkGroup
 
 __all__ = ["cli", "main"]

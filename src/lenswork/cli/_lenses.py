@@ -6,7 +6,7 @@ import textwrap
 
 import click
 
-from ..lenses import compute_lenses, get_lens, lens_names
+from ..lenses import ENDINGS, compute_lenses, get_lens, lens_names
 from ..normalize import NORMALIZATIONS
 from ..workspace import Workspace
 from ._common import input_options
@@ -44,8 +44,8 @@ def list_lenses(only):
 )
 @click.option("-o", "--out", default="lenses.csv", show_default=True,
               type=click.Path(dir_okay=False),
-              help="Output file; the ending picks the format (.csv, .tsv, .parquet, .npy). "
-              "Provenance goes to OUT.json.")
+              help="Output file; the ending picks the format "
+              f"({', '.join('.' + e for e in ENDINGS)}). Provenance goes to OUT.json.")
 @click.option("--normalize", "normalization", type=click.Choice(NORMALIZATIONS), default=None,
               help="Write normalised values (recorded in the sidecar) instead of raw ones.")
 @click.option("--neighbors", "neighbor_method", type=click.Choice(["auto", "exact", "approximate"]),

@@ -1,4 +1,4 @@
-"""Lens families and the registry.
+"""Lens families, the registry, and the lens columns they produce.
 
 Each family lives in its own module and registers itself on import:
 
@@ -12,23 +12,66 @@ module             lenses
 ``_dtm``           ``dtm`` (distance to a measure), ``knn_distance``
 ``_column``        ``column`` (any data column); :func:`user_lens` for callables
 =================  ====================================================
+
+``_registry`` holds the one mapping (validation, dispatch, listing), ``_table``
+the :class:`LensColumn` / :class:`LensTable` objects the registry builds, and
+``_common`` the helpers the families share.
+
+Public surface
+--------------
+Registry
+    compute_lenses, get_lens, lens_names, parse_lens, register_lens, user_lens,
+    LensPart, LensSpec, Param
+Lens columns
+    LensColumn, LensTable, FORMATS (lens-file formats), ENDINGS (file ending -> format)
+Lens functions and transformers
+    pca_coordinates, PCALens, distance_to_measure, DistanceToMeasure,
+    knn_distance, KNNDistance, data_column, gaussian_density, GaussianDensity,
+    scott_bandwidth, silverman_bandwidth, eccentricity, Eccentricity,
+    geodesic_eccentricity, laplacian_eigenmaps, LaplacianLens
 """
 
 from __future__ import annotations
 
-from ..table import LensTable
-from . import _column, _density, _dtm, _eccentricity, _laplacian, _pca  # noqa: F401  (register)
+from ._column import data_column, user_lens
+from ._density import GaussianDensity, gaussian_density, scott_bandwidth, silverman_bandwidth
+from ._dtm import DistanceToMeasure, KNNDistance, distance_to_measure, knn_distance
+from ._eccentricity import Eccentricity, eccentricity, geodesic_eccentricity
+from ._laplacian import LaplacianLens, laplacian_eigenmaps
+from ._pca import PCALens, pca_coordinates
 from ._registry import LensPart, LensSpec, Param, get_lens, lens_names, parse_lens, register_lens
+from ._table import ENDINGS, FORMATS, LensColumn, LensTable
 
 __all__ = [
+    "DistanceToMeasure",
+    "ENDINGS",
+    "Eccentricity",
+    "FORMATS",
+    "GaussianDensity",
+    "KNNDistance",
+    "LaplacianLens",
+    "LensColumn",
     "LensPart",
     "LensSpec",
+    "LensTable",
+    "PCALens",
     "Param",
     "compute_lenses",
+    "data_column",
+    "distance_to_measure",
+    "eccentricity",
+    "gaussian_density",
+    "geodesic_eccentricity",
     "get_lens",
+    "knn_distance",
+    "laplacian_eigenmaps",
     "lens_names",
     "parse_lens",
+    "pca_coordinates",
     "register_lens",
+    "scott_bandwidth",
+    "silverman_bandwidth",
+    "user_lens",
 ]
 
 

@@ -1,10 +1,10 @@
-"""Private helpers shared by the lens modules: row sampling, threaded row tiles, query checks.
+"""Helpers shared by the lens modules: row sampling, threaded row tiles, query checks.
 
-* :func:`_sample_rows` draws a simple random subsample keyed on the rows'
+* :func:`sample_rows` draws a simple random subsample keyed on the rows'
   own values, so a lens estimated from it does not depend on the row order.
-* :func:`_parallel_rows` runs a worker over blocks of rows on a few threads
-  (BLAS at one thread each); :func:`_zero_self` clears the self pairs of a
-  tile of an all-pairs reduction. Tiles are ``_TILE_ROWS x _TILE_COLS``.
+* :func:`parallel_rows` runs a worker over blocks of rows on a few threads
+  (BLAS at one thread each); :func:`zero_self` clears the self pairs of a
+  tile of an all-pairs reduction. Tiles are ``TILE_ROWS x TILE_COLS``.
 * :func:`check_input` checks the rows given to a transformer's ``fit`` or
   ``transform`` (scikit-learn's contract plus lenswork's messages);
   :class:`LensOutputMixin` gives the transformers ``get_feature_names_out``.
@@ -20,16 +20,24 @@ import numpy as np
 from .._errors import InputError
 from .._validation import check_finite
 
-__all__ = ["LensOutputMixin", "check_input"]
+__all__ = [
+    "TILE_COLS",
+    "TILE_ROWS",
+    "LensOutputMixin",
+    "check_input",
+    "parallel_rows",
+    "sample_rows",
+    "zero_self",
+]
 
 # Tile shape (rows x reference points) of the fused all-pairs reductions; 256 x 2048
 # float64 = 4 MB, measured fastest at d = 20 among 64..1024 x 1024..30000
 # (tests/benchmarks/bench_density.py).
-_TILE_ROWS = 256
-_TILE_COLS = 2048
+TILE_ROWS = 256
+TILE_COLS = 2048
 
 
-def _sample_rows(X, m, rng):
+def sample_rows(X, m, rng):
     """Sorted indices of a simple random subsample of ``m`` rows, chosen by row content.
 
     Each row gets a pseudo-random key computed from its own values (a seeded
@@ -41,8 +49,8 @@ def _sample_rows(X, m, rng):
     Examples
     --------
     >>> X = np.arange(20.0).reshape(10, 2)
-    >>> a = _sample_rows(X, 4, np.random.default_rng(0))
-    >>> b = _sample_rows(X[::-1], 4, np.random.default_rng(0))
+    >>> a = sample_rows(X, 4, np.random.default_rng(0))
+    >>> b = sample_rows(X[::-1], 4, np.random.default_rng(0))
     >>> a.size, sorted(X[a, 0].tolist()) == sorted(X[::-1][b, 0].tolist())
     (4, True)
     """
@@ -65,7 +73,7 @@ def _n_threads():
     return max(1, min(cores, 8))
 
 
-def _parallel_rows(work, n_rows, block=_TILE_ROWS):
+def parallel_rows(work, n_rows, block=TILE_ROWS):
     """Run ``work(i0, i1)`` over blocks of rows on a few threads, BLAS at one thread each.
 
     ``work`` writes its results into rows ``i0:i1`` of arrays it owns, so the
@@ -76,7 +84,7 @@ def _parallel_rows(work, n_rows, block=_TILE_ROWS):
     >>> out = np.zeros(1000)
     >>> def work(i0, i1):
     ...     out[i0:i1] = np.arange(i0, i1)
-    >>> _parallel_rows(work, 1000)
+    >>> parallel_rows(work, 1000)
     >>> bool(np.array_equal(out, np.arange(1000)))
     True
     """
@@ -93,7 +101,7 @@ def _parallel_rows(work, n_rows, block=_TILE_ROWS):
             pass
 
 
-def _zero_self(T, i0, i1, query_rows, ref_rows, j0, j1, value=0.0):
+def zero_self(T, i0, i1, query_rows, ref_rows, j0, j1, value=0.0):
     """Set the tile entries that pair a query row with itself.
 
     The tile holds query rows ``i0:i1`` and reference columns ``j0:j1``;

@@ -36,13 +36,13 @@ from .._validation import (
     check_random_state,
 )
 from ._common import (
-    _TILE_COLS,
-    _TILE_ROWS,
+    TILE_COLS,
+    TILE_ROWS,
     LensOutputMixin,
-    _parallel_rows,
-    _sample_rows,
-    _zero_self,
     check_input,
+    parallel_rows,
+    sample_rows,
+    zero_self,
 )
 from ._registry import LensPart, Param, register_lens
 
@@ -210,7 +210,7 @@ def _kernel_sums(Qa, RaT, *, shift=None, second=False, self_pairs=None):
 
     ``shift`` (per query row) avoids underflow for far-out rows; ``second``
     also returns the sums of squares (for standard errors); ``self_pairs =
-    (query_rows, ref_rows)`` (see :func:`_zero_self`) drops the pairs of a point
+    (query_rows, ref_rows)`` (see :func:`zero_self`) drops the pairs of a point
     with itself. Accumulation is in float64 whatever the tile precision.
     """
     nq, nr = Qa.shape[0], RaT.shape[1]
@@ -219,19 +219,19 @@ def _kernel_sums(Qa, RaT, *, shift=None, second=False, self_pairs=None):
     s2 = np.zeros(nq) if second else None
 
     def work(i0, i1):
-        buf = np.empty((i1 - i0, _TILE_COLS), dtype=dtype)
+        buf = np.empty((i1 - i0, TILE_COLS), dtype=dtype)
         sh = None if shift is None else shift[i0:i1, None].astype(dtype)
         acc1 = np.zeros(i1 - i0)
         acc2 = np.zeros(i1 - i0) if second else None
-        for j0 in range(0, nr, _TILE_COLS):
-            j1 = min(j0 + _TILE_COLS, nr)
-            T = buf if j1 - j0 == _TILE_COLS else np.empty((i1 - i0, j1 - j0), dtype=dtype)
+        for j0 in range(0, nr, TILE_COLS):
+            j1 = min(j0 + TILE_COLS, nr)
+            T = buf if j1 - j0 == TILE_COLS else np.empty((i1 - i0, j1 - j0), dtype=dtype)
             np.matmul(Qa[i0:i1], RaT[:, j0:j1], out=T)
             if sh is not None:
                 T += sh
             np.exp(T, out=T)
             if self_pairs is not None:
-                _zero_self(T, i0, i1, *self_pairs, j0, j1)
+                zero_self(T, i0, i1, *self_pairs, j0, j1)
             acc1 += T.sum(axis=1)
             if second:
                 acc2 += np.einsum("ij,ij->i", T, T)
@@ -239,7 +239,7 @@ def _kernel_sums(Qa, RaT, *, shift=None, second=False, self_pairs=None):
         if second:
             s2[i0:i1] = acc2
 
-    _parallel_rows(work, nq)
+    parallel_rows(work, nq)
     return s1, s2
 
 
@@ -247,13 +247,13 @@ def _row_max(Qa, RaT, self_pairs=None):
     """Row maxima of ``Qa @ RaT`` (self pairs left out when ``self_pairs`` is given)."""
     nq, nr = Qa.shape[0], RaT.shape[1]
     out = np.full(nq, -np.inf)
-    for i0 in range(0, nq, _TILE_ROWS):
-        i1 = min(i0 + _TILE_ROWS, nq)
-        for j0 in range(0, nr, _TILE_COLS):
-            j1 = min(j0 + _TILE_COLS, nr)
+    for i0 in range(0, nq, TILE_ROWS):
+        i1 = min(i0 + TILE_ROWS, nq)
+        for j0 in range(0, nr, TILE_COLS):
+            j1 = min(j0 + TILE_COLS, nr)
             T = (Qa[i0:i1] @ RaT[:, j0:j1]).astype(np.float64)
             if self_pairs is not None:
-                _zero_self(T, i0, i1, *self_pairs, j0, j1, value=-np.inf)
+                zero_self(T, i0, i1, *self_pairs, j0, j1, value=-np.inf)
             np.maximum(out[i0:i1], T.max(axis=1), out=out[i0:i1])
     return out
 
@@ -335,7 +335,7 @@ def _cv_covariance(X, rng):
     """
     n, d = X.shape
     C = _covariance(X, "The 'cv' bandwidth")
-    rows = _sample_rows(X, CV_SUBSAMPLE, rng)
+    rows = sample_rows(X, CV_SUBSAMPLE, rng)
     S = X[rows]
     s = S.shape[0]
     if s < 3:
@@ -411,7 +411,7 @@ def _evaluate(kernel, Q, *, self_query, log, mode, precision, reference_size, rn
             # share of the density due to each point's own kernel term (exp(0) = 1)
             info["self_share_median"] = float(np.median(np.exp(-log_sum)))
     else:
-        rows = _sample_rows(kernel.X, reference_size, rng)
+        rows = sample_rows(kernel.X, reference_size, rng)
         m = rows.size
         Qa, _ = _augment(Zq, dtype)
         _, RaT = _augment(kernel.Z[rows], dtype)

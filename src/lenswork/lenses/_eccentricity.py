@@ -30,12 +30,12 @@ from .._validation import (
     seed_of,
 )
 from ._common import (
-    _TILE_COLS,
+    TILE_COLS,
     LensOutputMixin,
-    _parallel_rows,
-    _sample_rows,
-    _zero_self,
     check_input,
+    parallel_rows,
+    sample_rows,
+    zero_self,
 )
 from ._registry import LensPart, Param, register_lens
 
@@ -95,14 +95,14 @@ def _power_sums(Q, R, p, *, ref_rows=None, second=False, extra=None):
         acc1 = np.zeros(i1 - i0)
         acc2 = np.zeros(i1 - i0) if second else None
         up = np.full(i1 - i0, np.inf) if extra is not None else None
-        buf = np.empty((i1 - i0, _TILE_COLS))
-        for j0 in range(0, nr, _TILE_COLS):
-            j1 = min(j0 + _TILE_COLS, nr)
-            T = buf if j1 - j0 == _TILE_COLS else np.empty((i1 - i0, j1 - j0))
+        buf = np.empty((i1 - i0, TILE_COLS))
+        for j0 in range(0, nr, TILE_COLS):
+            j1 = min(j0 + TILE_COLS, nr)
+            T = buf if j1 - j0 == TILE_COLS else np.empty((i1 - i0, j1 - j0))
             np.matmul(Qa[i0:i1], RaT[:, j0:j1], out=T)
             np.maximum(T, 0.0, out=T)  # rounding can make a squared distance slightly negative
             if ref_rows is not None:
-                _zero_self(T, i0, i1, None, ref_rows, j0, j1)
+                zero_self(T, i0, i1, None, ref_rows, j0, j1)
             if math.isinf(p):
                 np.maximum(acc1, T.max(axis=1), out=acc1)
                 if extra is not None:
@@ -128,7 +128,7 @@ def _power_sums(Q, R, p, *, ref_rows=None, second=False, extra=None):
             upper[i0:i1] = up
 
     with np.errstate(over="ignore"):  # overflow of d^p is reported by _finite_or_fail
-        _parallel_rows(work, nq)
+        parallel_rows(work, nq)
     return s1, s2, upper
 
 
@@ -183,7 +183,7 @@ def _eccentricity(X, Q, *, p, mode, landmarks, rng):
         values = s1 if math.isinf(p) else (s1 / n) ** (1.0 / p)
         info.update(mode="exact", error="none: exact sum over all pairs")
         return _finite_or_fail(values * scale, p), info, None
-    rows = _sample_rows(X, landmarks, rng)
+    rows = sample_rows(X, landmarks, rng)
     m = rows.size
     L = Xs[rows]
     ref_rows = rows if self_query else None
@@ -414,7 +414,7 @@ def _geodesic(graph, X, *, p, landmarks, rng, warn):
         m_c = members.size if landmarks >= n else min(
             members.size, max(1, round(landmarks * members.size / n))
         )
-        chosen.append(members[_sample_rows(X[members], m_c, rng)])
+        chosen.append(members[sample_rows(X[members], m_c, rng)])
     lm = np.sort(np.concatenate(chosen))
     m_of = np.bincount(labels[lm], minlength=ncomp).astype(np.float64)
     finite_p = not math.isinf(p)

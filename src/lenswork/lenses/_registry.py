@@ -18,16 +18,28 @@ parameter that differs from its default: ``pca_2``, ``dtm[mass=0.05]``.
 
 from __future__ import annotations
 
+import warnings
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any, NamedTuple
 
 import numpy as np
 
-from .._errors import LensworkError, ParameterError
-from ..table import LensColumn
+from .._errors import LensworkError, LensworkWarning, ParameterError
+from .._json import plain
+from ._table import LensColumn
 
-__all__: list[str] = []
+__all__ = [
+    "ENTRY_POINT_GROUP",
+    "LensPart",
+    "LensSpec",
+    "Param",
+    "REGISTRY",
+    "get_lens",
+    "lens_names",
+    "parse_lens",
+    "register_lens",
+]
 
 
 @dataclass(frozen=True)
@@ -115,8 +127,8 @@ class LensSpec:
                     name=self.column_name(resolved, part.part),
                     values=values,
                     lens=self.name,
-                    params=_jsonable(resolved),
-                    info=_jsonable(dict(part.info)),
+                    params=plain(resolved),
+                    info=plain(dict(part.info)),
                 )
             )
         return columns
@@ -128,21 +140,6 @@ def _fmt(value):
     if isinstance(value, float):
         return f"{value:g}"
     return str(value)
-
-
-def _jsonable(obj):
-    """Plain Python types only (for the JSON sidecar)."""
-    if isinstance(obj, dict):
-        return {str(k): _jsonable(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_jsonable(v) for v in obj]
-    if isinstance(obj, np.ndarray):
-        return _jsonable(obj.tolist())
-    if isinstance(obj, np.generic):
-        return obj.item()
-    if callable(obj):
-        return getattr(obj, "__qualname__", repr(obj))
-    return obj
 
 
 #: name -> LensSpec. The one table of lenses.
@@ -212,10 +209,6 @@ def _load_entry_points():
         try:
             ep.load()  # importing the module runs its @register_lens / @user_lens decorators
         except Exception as err:  # a broken plug-in must not break the library
-            import warnings
-
-            from .._errors import LensworkWarning
-
             warnings.warn(
                 f"Could not load lens plug-in {ep.name!r} ({ep.value}): {err}",
                 LensworkWarning,

@@ -23,7 +23,7 @@ from .._io import atomic_path
 from ..normalize import normalize
 from ._style import ACCENT, CORR_CMAP, GRID, INK, LENS_CMAP, MUTED, PAPER, plt, save, style
 
-__all__: list[str] = []
+__all__ = ["screen_sheet"]
 
 #: Cards per row of the sheet.
 _COLS = 6

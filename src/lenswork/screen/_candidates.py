@@ -1,0 +1,168 @@
+"""Candidates: the screen's default lens set, and computing candidate columns.
+
+:func:`default_candidates` lists every lens family with the parameters a
+practitioner would try first; :func:`compute_candidates` computes specs on a
+workspace through the lens registry, skipping (with a warning) a default lens
+that cannot be computed on the data at hand.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+
+import numpy as np
+
+from .. import _progress
+from .._errors import LensworkError, LensworkWarning, ParameterError
+from ..data import PointCloud
+from ..lenses import get_lens, lens_names, parse_lens
+from ..workspace import Workspace
+
+__all__ = ["compute_candidates", "default_candidates", "parse_spec"]
+
+
+def _scott_scale(X):
+    """Scott's rule factor n^(-1/(d+4)) times the root-mean feature variance."""
+    n, d = X.shape
+    sigma = float(np.sqrt(np.mean(X.var(axis=0))))
+    return n ** (-1.0 / (d + 4)) * (sigma if sigma > 0 else 1.0)
+
+
+def default_candidates(data):
+    """The default candidate set of the screen, as ``(lens name, params)`` pairs.
+
+    Parameters
+    ----------
+    data : PointCloud, Workspace or array-like of shape (n_samples, n_features)
+
+    Returns
+    -------
+    list of (str, dict)
+
+    Notes
+    -----
+    Every lens family with parameters a practitioner would try first:
+
+    - ``pca``, 3 components (fewer when there are fewer features);
+    - ``laplacian``, 3 components, k = 15;
+    - ``density`` at Scott's rule and at a bandwidth twice Scott's factor
+      (``2 n^(-1/(d+4)) sigma``, sigma the root-mean feature variance): a local
+      and a smoother view;
+    - ``eccentricity`` with p = 1, 2 and inf;
+    - ``dtm`` at two masses: k about 1 % of the rows (5 to 30 points) and 5 %
+      (at least twice as many, at most 100 points): mass 0.01 and 0.05 from
+      500 to 2,000 rows, 0.01 and 0.0333 at 3,000;
+    - ``knn_distance``, k = 10;
+    - ``geodesic_eccentricity``, p = 2 (distances along the neighbour graph).
+
+    Raw data columns (the ``column`` lens) are not in the default set; add them
+    with ``extra=["column:name=..."]``.
+
+    Examples
+    --------
+    >>> specs = default_candidates(np.random.default_rng(0).normal(size=(500, 2)))
+    >>> specs[0], len(specs)
+    (('pca', {'components': 2}), 11)
+    """
+    if isinstance(data, (Workspace, PointCloud)):
+        X = data.X
+    else:
+        X = np.asarray(data, dtype=np.float64)
+        X = X[:, None] if X.ndim == 1 else X
+    n, d = X.shape
+    broad = float(f"{2.0 * _scott_scale(X):.3g}")
+    # DTM: k = ceil(mass n) points; the local one about 1 % of the rows (5 to 30 points), the
+    # broad one 5 % (at least twice the local mass, at most 100 points, the dtm lens's cap).
+    # Masses are rounded (3 significant digits) in the direction that keeps k inside.
+    if 0.01 * n < 5:
+        local = min(1.0, _round_up(5 / n))
+    else:
+        local = 0.01 if 0.01 * n <= 30 else _round_down(30 / n)
+    wide = min(1.0, max(0.05, 2 * local))
+    if wide * n > 100:
+        wide = _round_down(100 / n)
+    dtm = [("dtm", {} if local == 0.01 else {"mass": local})]
+    if wide > local:
+        dtm.append(("dtm", {"mass": wide}))
+    return [
+        ("pca", {"components": min(3, d)}),
+        ("laplacian", {"components": 3}),
+        ("density", {}),
+        ("density", {"bandwidth": broad}),
+        ("eccentricity", {"p": 1}),
+        ("eccentricity", {}),
+        ("eccentricity", {"p": "inf"}),
+        *dtm,
+        ("knn_distance", {}),
+        ("geodesic_eccentricity", {}),
+    ]
+
+
+def _round_down(x, digits=3):
+    """``x`` rounded down to ``digits`` significant digits."""
+    scale = 10.0 ** (digits - 1 - math.floor(math.log10(x)))
+    return math.floor(x * scale) / scale
+
+
+def _round_up(x, digits=3):
+    """``x`` rounded up to ``digits`` significant digits."""
+    scale = 10.0 ** (digits - 1 - math.floor(math.log10(x)))
+    return math.ceil(round(x * scale, 9)) / scale
+
+
+def _spec_label(name, params):
+    if not params:
+        return name
+    return name + ":" + ",".join(f"{k}={v}" for k, v in params.items())
+
+
+def parse_spec(item):
+    """A candidate given as a spec string or a ``(name, params)`` pair, as ``(name, dict)``."""
+    if isinstance(item, str):
+        return parse_lens(item)
+    try:
+        name, params = item
+    except (TypeError, ValueError):
+        raise ParameterError(
+            f"Cannot read lens {item!r}; expected a name, a spec like 'dtm:mass=0.05' or a "
+            f"(name, params) pair."
+        ) from None
+    return str(name), dict(params or {})
+
+
+def compute_candidates(ws, specs, *, strict):
+    """Compute lens columns; with ``strict=False`` a failing lens warns and is skipped.
+
+    Returns the columns (a column asked twice is kept once) and, for each
+    skipped lens, ``{"lens": label, "reason": text}``.
+    """
+    columns, skipped, seen = [], [], set()
+    known = set(lens_names())
+    for i, (name, params) in enumerate(specs, 1):
+        label = _spec_label(name, params)
+        if not strict and name not in known:
+            skipped.append({"lens": label, "reason": "not registered"})
+            warnings.warn(
+                f"Default lens {name!r} is not registered here; screening without it.",
+                LensworkWarning, stacklevel=3,
+            )
+            continue
+        spec = get_lens(name)
+        try:
+            with _progress.step(f"lens {i}/{len(specs)}: {label}"):
+                cols = spec(ws, **params)
+        except LensworkError as err:
+            if strict:
+                raise
+            skipped.append({"lens": label, "reason": str(err)})
+            warnings.warn(
+                f"Default lens {label!r} was skipped: {err}", LensworkWarning, stacklevel=3
+            )
+            continue
+        for col in cols:
+            if col.name in seen:  # the same column asked twice (e.g. a default repeated)
+                continue
+            seen.add(col.name)
+            columns.append(col)
+    return columns, skipped

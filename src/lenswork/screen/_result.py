@@ -1,0 +1,458 @@
+"""The result of a screen: scores, correlations, the selection, and its serialisations.
+
+:class:`ScreenResult` holds every candidate column with its scores and the
+greedy selection over them, and gives the ranking as rows
+(:meth:`~ScreenResult.rows`), CSV text, a terminal table, a strict-JSON
+document (:meth:`~ScreenResult.to_dict`) and an output directory
+(:meth:`~ScreenResult.write`: ranking CSV and JSON, the chosen lens columns,
+the figure sheet).
+"""
+
+from __future__ import annotations
+
+import contextlib
+import csv
+import io
+import math
+import os
+import shutil
+import tempfile
+import warnings
+from pathlib import Path
+
+import numpy as np
+
+from .. import _progress
+from .._errors import LensworkWarning, ParameterError
+from .._io import write_text
+from .._json import dumps, plain
+from .._validation import check_choice, check_float, check_int
+from .._version import __version__
+from ..lenses import FORMATS, pca_coordinates
+from ._select import check_weights, select_lenses, weighted_merit
+from ._spread import status_text
+
+__all__ = ["PROBE_COUNTS", "PROBE_SCORES", "ScreenResult"]
+
+#: Probe scores added to the screen's table (all in [0, 1]) and the counts shown beside them.
+PROBE_SCORES = ("structure", "revealed", "stability")
+PROBE_COUNTS = ("loops", "flares", "branch_points")
+
+
+class ScreenResult:
+    """Everything a screen found: scores, correlations, the selection and the lens columns.
+
+    Hand it straight to the graph builder: :meth:`to_lens_table` gives the
+    chosen columns.
+
+    Attributes
+    ----------
+    lenses : LensTable
+        Every candidate column, in candidate order.
+    names : list of str
+        Candidate column names.
+    scores : dict of str -> ndarray of shape (m,)
+        Score and diagnosis columns: ``spread``, ``entropy``, ``tied``,
+        ``largest_tie``, ``outliers`` (and any added by :meth:`rescore`).
+    weights : dict of str -> float
+        Score columns entering the merit and their weights.
+    merit : ndarray of shape (m,)
+        Weighted geometric mean of the weighted score columns.
+    correlation : ndarray of shape (m, m)
+        Spearman rho between candidates (NaN for unusable ones).
+    reference_names : list of str
+    reference_correlation : ndarray of shape (m, p)
+        Spearman rho of each candidate with each reference column.
+    usable : ndarray of bool, shape (m,)
+        False for constant or non-finite columns.
+    selection : Selection
+    selected : list of str
+        Chosen column names, in the order taken.
+    count, ceiling, bins : int, float, int
+    skipped : list of dict
+        Default lenses that could not be computed here, with the reason.
+
+    Examples
+    --------
+    >>> from lenswork import LensColumn, LensTable, PointCloud, screen
+    >>> rng = np.random.default_rng(1)
+    >>> cloud = PointCloud.from_array(rng.normal(size=(300, 2)))
+    >>> table = LensTable([LensColumn("a", cloud.X[:, 0]), LensColumn("b", cloud.X[:, 1])],
+    ...                   cloud)
+    >>> result = screen(table, count=1)
+    >>> result.to_lens_table().names == result.selected, len(result.rows())
+    (True, 2)
+    >>> probe = result.rescore(scores={"structure": [0.1, 1.0]},
+    ...                        weights={"spread": 1, "structure": 1})
+    >>> probe.selected
+    ['b']
+    """
+
+    def __init__(self, lenses, scores, correlation, *, usable, weights, count, ceiling, bins,
+                 reference_names=(), reference_correlation=None, skipped=(), status=None):
+        self.lenses = lenses
+        self.names = lenses.names
+        self.scores = {k: np.asarray(v, dtype=np.float64) for k, v in scores.items()}
+        self.correlation = correlation
+        self.usable = np.asarray(usable, dtype=bool)
+        self.status = list(status) if status is not None else ["ok"] * len(self.names)
+        self.weights = check_weights(weights, self.scores)
+        self.count = count
+        self.ceiling = ceiling
+        self.bins = bins
+        self.reference_names = list(reference_names)
+        m = len(self.names)
+        self.reference_correlation = (
+            np.empty((m, 0)) if reference_correlation is None else reference_correlation
+        )
+        self.skipped = list(skipped)
+        self.merit = weighted_merit(self.scores, self.weights)
+        self.merit[~self.usable] = 0.0
+        self.selection = select_lenses(
+            correlation, self.merit, count=count, ceiling=ceiling, usable=self.usable
+        )
+        self.selected = [self.names[j] for j in self.selection.indices]
+        self._embedding = None
+        self.probe = None  # a StructureProbe when the screen ran one
+
+    # ---------------------------------------------------------------- API
+    def to_lens_table(self):
+        """The chosen lens columns as a LensTable, in the order they were taken.
+
+        Raises
+        ------
+        ParameterError
+            If nothing was selected (every candidate constant or non-finite).
+        """
+        if not self.selected:
+            raise ParameterError(
+                "The screen selected no lens: every candidate is constant or non-finite. "
+                "Check the input data or add other lenses."
+            )
+        return self.lenses.select(self.selected)
+
+    def rescore(self, *, scores=None, weights=None, count=None, ceiling=None):
+        """A new result with added score columns / weights / count / ceiling; same lenses.
+
+        Parameters
+        ----------
+        scores : dict of str -> array-like of shape (m,), optional
+            Extra score columns in [0, 1] (higher is better), e.g. a structure
+            probe; they join :attr:`scores` and the table.
+        weights : dict of str -> float, optional
+            Weights of the score columns in the merit (default: the current ones).
+        count, ceiling : optional
+            New selection limits (default: the current ones).
+
+        Returns
+        -------
+        ScreenResult
+        """
+        new_scores = dict(self.scores)
+        m = len(self.names)
+        for name, vals in (scores or {}).items():
+            v = np.asarray(vals, dtype=np.float64)
+            if v.shape != (m,):
+                raise ParameterError(
+                    f"Score column {name!r} has shape {v.shape}; expected ({m},), one value per "
+                    f"candidate in the order of ScreenResult.names."
+                )
+            finite = v[np.isfinite(v)]
+            if finite.size and (finite.min() < 0 or finite.max() > 1):
+                raise ParameterError(
+                    f"Score column {name!r} must hold values in [0, 1] (higher is better); got "
+                    f"values in [{finite.min():.3g}, {finite.max():.3g}]. Rescale it first."
+                )
+            new_scores[name] = v
+        out = ScreenResult(
+            self.lenses, new_scores, self.correlation, usable=self.usable,
+            weights=self.weights if weights is None else weights,
+            count=self.count if count is None else check_int("count", count, lo=1,
+                                                              context="rescore"),
+            ceiling=self.ceiling if ceiling is None else check_float(
+                "ceiling", ceiling, lo=0, hi=1, lo_open=True, context="rescore"),
+            bins=self.bins, reference_names=self.reference_names,
+            reference_correlation=self.reference_correlation, skipped=self.skipped,
+            status=self.status,
+        )
+        out._embedding = self._embedding
+        out.probe = self.probe
+        return out
+
+    @property
+    def cloud(self):
+        """The PointCloud the lenses were computed on."""
+        return self.lenses.cloud
+
+    @property
+    def embedding(self):
+        """First two principal coordinates of the data (n, 2), for the figure sheet.
+
+        From :func:`lenswork.pca_coordinates` (axes signed so that their
+        largest-magnitude entry is positive); a second coordinate of zeros when
+        the data has one feature.
+        """
+        if self._embedding is None:
+            X = self.cloud.X
+            out = np.zeros((X.shape[0], 2))
+            m = min(2, *X.shape)
+            if X.shape[0] >= 2:
+                with warnings.catch_warnings():  # constant data: all-zero coordinates, drawn so
+                    warnings.simplefilter("ignore", LensworkWarning)
+                    out[:, :m] = pca_coordinates(X, components=m,
+                                                 random_state=self.lenses.random_state)
+            self._embedding = out
+        return self._embedding
+
+    def partners(self):
+        """For each candidate: (name, rho) of the most correlated other candidate."""
+        m = len(self.names)
+        out = []
+        absr = np.abs(self.correlation)
+        for j in range(m):
+            row = absr[j].copy()
+            row[j] = np.nan
+            if m < 2 or not np.isfinite(row).any():
+                out.append((None, math.nan))
+                continue
+            i = int(np.nanargmax(row))
+            out.append((self.names[i], float(self.correlation[j, i])))
+        return out
+
+    def rows(self):
+        """The ranking table as a list of dicts (rank order: chosen first, in pick order)."""
+        m = len(self.names)
+        sel = list(self.selection.indices)
+        absr = np.nan_to_num(np.abs(self.correlation), nan=0.0)
+        partners = self.partners()
+        gain = np.zeros(m)
+        nearest = [(None, math.nan)] * m
+        for t, j in enumerate(sel):
+            gain[j] = self.selection.gains[t]
+            before = sel[:t]
+            if before:
+                i = before[int(np.argmax(absr[j, before]))]
+                nearest[j] = (self.names[i], float(self.correlation[j, i]))
+        rest = [j for j in range(m) if j not in sel]
+        for j in rest:
+            if sel:
+                i = sel[int(np.argmax(absr[j, sel]))]
+                nearest[j] = (self.names[i], float(self.correlation[j, i]))
+                gain[j] = self.merit[j] * (1.0 - absr[j, i])
+            else:
+                gain[j] = self.merit[j]
+
+        def category(j):
+            if not self.usable[j] or self.merit[j] <= 0:
+                return 2
+            return 1 if abs(nearest[j][1]) > self.ceiling else 0
+
+        rest.sort(key=lambda j: (category(j), -gain[j], -self.merit[j], j))
+        rows = []
+        for rank, j in enumerate(sel + rest, 1):
+            col = self.lenses.columns[j]
+            row = {
+                "rank": rank, "column": col.name, "lens": col.lens, "params": col.params,
+                "selected": j in sel, "merit": float(self.merit[j]), "gain": float(gain[j]),
+            }
+            for name, vals in self.scores.items():
+                row[name] = float(vals[j])
+            if self.probe is not None:
+                found = self.probe.get(col.name, {})
+                for key in PROBE_COUNTS:
+                    row[key] = found.get(key)
+            row["partner"] = partners[j][0]
+            row["partner_rho"] = partners[j][1]
+            row["nearest_selected"] = nearest[j][0]
+            row["nearest_selected_rho"] = nearest[j][1]
+            for k, ref in enumerate(self.reference_names):
+                row[f"rho[{ref}]"] = float(self.reference_correlation[j, k])
+            row["reason"] = self._reason(j, sel, nearest[j], gain[j])
+            rows.append(row)
+        return rows
+
+    def _reason(self, j, sel, nearest, gain):
+        if self.status[j] != "ok":
+            return f"{status_text(self.status[j])}: spread 0, never selected"
+        if j in sel:
+            t = sel.index(j)
+            if t == 0:
+                return f"selected #1: highest merit ({self.merit[j]:.2f})"
+            return (f"selected #{t + 1}: gain {gain:.2f}, |rho| {abs(nearest[1]):.2f} to "
+                    f"{nearest[0]}")
+        if self.merit[j] <= 0:
+            return "merit 0: never selected"
+        if nearest[0] is not None and abs(nearest[1]) > self.ceiling:
+            return (f"redundant: |rho| {abs(nearest[1]):.2f} with {nearest[0]} (selected) > "
+                    f"ceiling {self.ceiling:.2f}")
+        if len(sel) >= self.count:
+            return f"not needed: count {self.count} reached (gain {gain:.2f})"
+        return f"not selected (gain {gain:.2f})"
+
+    @property
+    def stop_text(self):
+        """Why the selection stopped, in words."""
+        return {
+            "count": f"count {self.count} reached",
+            "ceiling": f"every other candidate has |rho| > {self.ceiling:.2f} with a chosen lens",
+            "candidates": "no other usable candidate",
+        }[self.selection.stop]
+
+    def to_dict(self):
+        """JSON-ready description: settings, ranking, correlation matrices, provenance.
+
+        Plain JSON values only (:func:`lenswork._json.plain`): NaN and infinities
+        are None, so the document is strict JSON.
+        """
+        return plain({
+            "lenswork_version": __version__,
+            "kind": "lens screen",
+            "settings": {
+                "count": self.count, "ceiling": self.ceiling, "bins": self.bins,
+                "weights": self.weights, "references": self.reference_names,
+                "random_state": self.lenses.random_state,
+            },
+            "selected": self.selected,
+            "stop": self.selection.stop,
+            "stop_text": self.stop_text,
+            "ranking": self.rows(),
+            "correlation": {"columns": self.names, "spearman": self.correlation.tolist()},
+            "reference_correlation": {
+                "columns": self.names, "references": self.reference_names,
+                "spearman": self.reference_correlation.tolist(),
+            },
+            "skipped_lenses": self.skipped,
+            "input": self.cloud.provenance,
+            "n_rows_used": int(self.cloud.n),
+        })
+
+    def to_csv_text(self):
+        """The ranking table as CSV text (params as JSON, missing values empty)."""
+        rows = self.rows()
+        buf = io.StringIO()
+        w = csv.writer(buf, lineterminator="\n")
+        header = list(rows[0]) if rows else []
+        w.writerow(header)
+        for r in rows:
+            w.writerow([_csv_cell(r[h]) for h in header])
+        return buf.getvalue()
+
+    def format_table(self, max_rows=None):
+        """The ranking as an aligned text table for the terminal."""
+        rows = self.rows()[:max_rows]
+        refs = self.reference_names[:3]
+        probed = self.probe is not None
+        header = ["rank", "lens column", "spread", *(["structure", "L/F/B"] if probed else []),
+                  "merit", "gain", "partner (rho)", *[f"rho[{r}]" for r in refs], "status"]
+        body = []
+        for r in rows:
+            partner = "-" if r["partner"] is None else f"{r['partner']} ({r['partner_rho']:+.2f})"
+            extra = []
+            if probed:
+                counts = [r.get(key) for key in PROBE_COUNTS]
+                extra = [_num(r["structure"]),
+                         "-" if counts[0] is None else "/".join(str(c) for c in counts)]
+            body.append([
+                str(r["rank"]), r["column"], _num(r["spread"]), *extra, _num(r["merit"]),
+                _num(r["gain"]), partner, *[_num(r[f"rho[{x}]"], signed=True) for x in refs],
+                r["reason"],
+            ])
+        widths = [max(len(h), *(len(b[i]) for b in body)) if body else len(h)
+                  for i, h in enumerate(header)]
+        shift = 2 if probed else 0
+        right = {0, 2, 3, 4, *range(2, 5 + shift), *range(6 + shift, 6 + shift + len(refs))}
+
+        def line(cells):
+            out = [c.rjust(w) if i in right else c.ljust(w)
+                   for i, (c, w) in enumerate(zip(cells, widths, strict=True))]
+            return "  ".join(out).rstrip()
+
+        lines = [line(header), line(["-" * w for w in widths])]
+        lines += [line(b) for b in body]
+        return "\n".join(lines)
+
+    def summary(self):
+        """Two lines: what was screened, what was kept and why it stopped."""
+        n_use = int(self.usable.sum())
+        head = (f"Screened {len(self.names)} candidate columns ({n_use} usable) on "
+                f"{self.cloud.n} rows x {self.cloud.d} features.")
+        chosen = ", ".join(self.selected) if self.selected else "nothing"
+        return (f"{head}\nSelected: {chosen} (stopped: {self.stop_text}; "
+                f"ceiling {self.ceiling:.2f}).")
+
+    def write(self, directory, *, figures=True, lens_format="csv"):
+        """Write the ranking (CSV, JSON), the chosen lens columns and the figure sheet.
+
+        Parameters
+        ----------
+        directory : str or Path
+            Created if missing. Files: ``ranking.csv``, ``ranking.json``,
+            ``lenses.<format>`` with its ``.json`` sidecar, and with ``figures``
+            ``sheet.png`` and ``sheet.svg``.
+        figures : bool, default=True
+        lens_format : {"csv", "parquet", "npy"}, default="csv"
+
+        Returns
+        -------
+        dict of str -> Path
+
+        Notes
+        -----
+        All files are first written (each atomically) into a hidden staging
+        directory inside ``directory`` and moved into place only when every
+        one of them is complete, so a failure leaves no partial output behind
+        (a directory created for this call is removed again).
+        """
+        lens_format = check_choice("lens_format", lens_format, FORMATS, context="write")
+        table = self.to_lens_table()  # raises before anything is written
+        directory = Path(directory)
+        created = not directory.exists()
+        if directory.exists() and not directory.is_dir():
+            raise ParameterError(
+                f"Output directory {str(directory)!r} is a file; give a directory path."
+            )
+        directory.mkdir(parents=True, exist_ok=True)
+        staging = Path(tempfile.mkdtemp(prefix=".lenswork-screen-", dir=directory))
+        try:
+            with _progress.step("writing ranking and lens columns"):
+                write_text(staging / "ranking.csv", self.to_csv_text())
+                write_text(staging / "ranking.json", dumps(self.to_dict()) + "\n")
+                table.write(staging / f"lenses.{lens_format}")
+            if figures:
+                from ..plot._sheet import screen_sheet  # matplotlib on demand only
+
+                with _progress.step("figure sheet (PNG, SVG)"):
+                    screen_sheet(self, [staging / "sheet.png", staging / "sheet.svg"])
+            names = sorted(p.name for p in staging.iterdir() if not p.name.startswith("."))
+            for name in names:
+                os.replace(staging / name, directory / name)
+        except BaseException:
+            shutil.rmtree(staging, ignore_errors=True)
+            if created:
+                with contextlib.suppress(OSError):
+                    directory.rmdir()
+            raise
+        shutil.rmtree(staging, ignore_errors=True)
+        return {name: directory / name for name in names}
+
+    def __repr__(self):
+        return (f"ScreenResult({len(self.names)} candidates, selected={self.selected}, "
+                f"stop={self.selection.stop!r})")
+
+
+def _num(v, signed=False):
+    if v is None or not np.isfinite(v):
+        return "-"
+    return f"{v:+.2f}" if signed else f"{v:.2f}"
+
+
+def _csv_cell(v):
+    if v is None:
+        return ""
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, float):
+        return "" if not math.isfinite(v) else repr(v)
+    if isinstance(v, dict):
+        return dumps(v, indent=None, sort_keys=True)
+    return v
