@@ -21,7 +21,8 @@ Structure probe, stability, bootstrap, comparison
     ViewComparison, node_correspondence, induced_partition, adjusted_rand_index,
     variation_of_information, contingency_table
 Graphs
-    build_graph, Cover, LensGraph, GraphSummary, read_graph_json
+    build_graph, GraphSettings, Cover, IntervalCover, BallCover, LensGraph, GraphSummary,
+    read_graph_json
 Errors
     LensworkError, InputError, ParameterError, LensworkWarning
 """
@@ -41,7 +42,16 @@ from .compare import (
     variation_of_information,
 )
 from .data import ExcludedRow, PointCloud, load_table
-from .graph import Cover, GraphSummary, LensGraph, build_graph, read_graph_json
+from .graph import (
+    BallCover,
+    Cover,
+    GraphSettings,
+    GraphSummary,
+    IntervalCover,
+    LensGraph,
+    build_graph,
+    read_graph_json,
+)
 from .lenses import compute_lenses, get_lens, lens_names, parse_lens, register_lens
 from .lenses._column import data_column, user_lens
 from .lenses._density import (
@@ -70,7 +80,10 @@ from .screen import (
 from .table import LensColumn, LensTable
 from .workspace import NeighborGraph, Workspace, neighbor_graph
 
+from . import _graph_methods  # noqa: E402, F401  (attaches LensGraph.write_* and .draw)
+
 __all__ = [
+    "BallCover",
     "BootstrapResult",
     "Cover",
     "CoverSuggestion",
@@ -78,8 +91,10 @@ __all__ = [
     "Eccentricity",
     "ExcludedRow",
     "GaussianDensity",
+    "GraphSettings",
     "GraphSummary",
     "InputError",
+    "IntervalCover",
     "KNNDistance",
     "LaplacianLens",
     "LensColumn",

@@ -61,9 +61,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .._errors import ParameterError
-from .._validation import check_choice, check_float, check_int
+from .._validation import check_choice, check_float
 
-__all__ = ["CLUSTERERS", "FRAGMENT_RULES", "neighbor_cutoff"]
+__all__ = ["CLUSTERERS", "CUTOFF_WORDS", "FRAGMENT_RULES", "check_cutoff", "neighbor_cutoff"]
 
 #: Clusterer names accepted as strings (an object with ``fit_predict`` is accepted too).
 CLUSTERERS = ("graph", "single")
@@ -71,7 +71,8 @@ CLUSTERERS = ("graph", "single")
 FRAGMENT_RULES = ("attach", "report")
 #: Largest element the single-linkage clusterer accepts (it holds all pairwise distances).
 SINGLE_MAX_POINTS = 20_000
-_CUTOFF_WORDS = ("auto", "fence", "none")
+#: Cut-off rules by name (a non-negative number is accepted too).
+CUTOFF_WORDS = ("auto", "fence", "none")
 #: Bins of the cut-off gap rule (log distances between their median and maximum).
 CUTOFF_GAP_BINS = 10
 _SCIPY_METRIC = {"euclidean": "euclidean", "manhattan": "cityblock", "chebyshev": "chebyshev",
@@ -152,15 +153,28 @@ def neighbor_cutoff(workspace, k=15, cutoff="auto", metric="euclidean"):
     >>> neighbor_cutoff(ws, k=2, cutoff="none")
     inf
     """
-    if isinstance(cutoff, str) and cutoff.strip().lower() in _CUTOFF_WORDS:
-        word = cutoff.strip().lower()
-        if word == "none":
+    cutoff = check_cutoff(cutoff)
+    if isinstance(cutoff, str):
+        if cutoff == "none":
             return float("inf")
         graph = workspace.neighbors(k, metric)
-        rule = _CUTOFF_RULES[word]
+        rule = _CUTOFF_RULES[cutoff]
         return workspace.cached(
-            ("graph_cutoff", word, graph.metric, graph.k), lambda: rule(graph.distances)
+            ("graph_cutoff", cutoff, graph.metric, graph.k), lambda: rule(graph.distances)
         )
+    return cutoff
+
+
+def check_cutoff(cutoff):
+    """A cut-off rule name from :data:`CUTOFF_WORDS` or a non-negative float, else ParameterError.
+
+    Examples
+    --------
+    >>> check_cutoff(" Fence "), check_cutoff("0.5")
+    ('fence', 0.5)
+    """
+    if isinstance(cutoff, str) and cutoff.strip().lower() in CUTOFF_WORDS:
+        return cutoff.strip().lower()
     try:
         return check_float("cutoff", cutoff, lo=0.0, context="build_graph")
     except ParameterError:
@@ -326,9 +340,7 @@ def check_clusterer(clusterer):
     )
 
 
-def cluster_elements(workspace, rows, elements, *, clusterer="graph", cutoff="auto", k=15,
-                     metric="euclidean", min_size=10, fragments="attach", gap_bins=10,
-                     random_state=0):
+def cluster_elements(workspace, rows, elements, settings):
     """Cluster the points of every cover element.
 
     Parameters
@@ -337,18 +349,11 @@ def cluster_elements(workspace, rows, elements, *, clusterer="graph", cutoff="au
     rows, elements : ndarray of int64
         The cover's (point, element) pairs, grouped by element
         (:meth:`Cover.incidence`).
-    clusterer : {"graph", "single"} or estimator, default="graph"
-    cutoff : float, "auto" or "none", default="auto"
-        See :func:`neighbor_cutoff`.
-    k : int, default=15
-    metric : str, default="euclidean"
-    min_size : int, default=10
-        Groups with fewer points are fragments.
-    fragments : {"attach", "report"}, default="attach"
-    gap_bins : int, default=10
-        Histogram bins of the single-linkage gap rule.
-    random_state : int, default=0
-        Seed given to scikit-learn clusterers whose ``random_state`` is unset.
+    settings : GraphSettings
+        Already validated (and resolved): ``clusterer``, ``cutoff``, ``k``,
+        ``metric``, ``min_size``, ``fragments``, ``gap_bins`` and
+        ``random_state`` (the seed given to scikit-learn clusterers whose
+        ``random_state`` is unset) are read as they are.
 
     Returns
     -------
@@ -359,11 +364,9 @@ def cluster_elements(workspace, rows, elements, *, clusterer="graph", cutoff="au
     Cost with the graph clusterer: O(k P) for P (point, element) pairs, plus
     O(F k^2 d) for F fragment points when attaching.
     """
-    clusterer = check_clusterer(clusterer)
-    k = check_int("k", k, lo=1, context="build_graph")
-    min_size = check_int("min_size", min_size, lo=1, context="build_graph")
-    fragments = check_choice("fragments", fragments, FRAGMENT_RULES, context="build_graph")
-    gap_bins = check_int("gap_bins", gap_bins, lo=2, context="build_graph")
+    clusterer, cutoff, k = settings.clusterer, settings.cutoff, settings.k
+    metric, min_size, fragments = settings.metric, settings.min_size, settings.fragments
+    gap_bins, random_state = settings.gap_bins, settings.random_state
     n = workspace.n
     X = workspace.X
     by_graph = isinstance(clusterer, str) and clusterer == "graph"
