@@ -29,6 +29,7 @@ Errors
 
 from __future__ import annotations
 
+from . import _graph_methods  # noqa: F401  (attaches LensGraph.write_* and .draw)
 from ._errors import InputError, LensworkError, LensworkWarning, ParameterError
 from ._version import __version__
 from .bootstrap import BootstrapResult, CoverSuggestion, bootstrap_graph, suggest_cover
@@ -79,8 +80,6 @@ from .screen import (
 )
 from .table import LensColumn, LensTable
 from .workspace import NeighborGraph, Workspace, neighbor_graph
-
-from . import _graph_methods  # noqa: E402, F401  (attaches LensGraph.write_* and .draw)
 
 __all__ = [
     "BallCover",

@@ -250,7 +250,8 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
         }
     graph = LensGraph(
         M, cover.element_ids(result.node_element), edges, shared, stats,
-        node_levels=cover.levels(result.node_element), lens_columns=names, data_columns=list(data), row_ids=ws.cloud.ids,
+        node_levels=cover.levels(result.node_element), lens_columns=names,
+        data_columns=list(data), row_ids=ws.cloud.ids,
         id_name=ws.cloud.id_name, params=params, provenance=provenance, fragments=result.report,
     )
     lost = graph.unassigned.size

@@ -371,7 +371,8 @@ class Cover(CoverBase):
     def params(self):
         """JSON-ready description of the fitted cover."""
         return {
-            "kind": self.kind, "intervals": list(self.shape_), "overlap": list(self.overlap_), "scale": self.scale_,
+            "kind": self.kind, "intervals": list(self.shape_), "overlap": list(self.overlap_),
+            "scale": self.scale_,
             "start": self.start_.tolist(), "length": self.length_.tolist(),
             "step": self.step_.tolist(),
         }
@@ -553,7 +554,7 @@ class BallCover(CoverBase):
         return np.atleast_1d(np.asarray(flat, dtype=np.int64)).reshape(-1, 1)
 
     def labels(self, flat):
-        """``"ball 4 at (0.25, 0.5)"``-style text (1-based ball number, centre on the cover scale)."""
+        """``"ball 4 at (0.25, 0.5)"``-style text (1-based number, centre on the cover scale)."""
         out = []
         for b in self.element_ids(flat)[:, 0]:
             where = ", ".join(f"{v:.3g}" for v in self.centres_[b])

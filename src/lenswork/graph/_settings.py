@@ -211,7 +211,7 @@ class GraphSettings:
                                   scale=self.scale)
 
     def resolve(self, n_rows, n_lenses):
-        """Settings with every data-dependent value fixed for ``n_rows`` rows and ``n_lenses`` lenses.
+        """Settings with every data-dependent value fixed for ``n_rows`` rows, ``n_lenses`` lenses.
 
         Runs the rules of :data:`AUTO_RULES` (none at present, so this returns
         ``self``) and checks per-lens values against ``n_lenses``.
@@ -250,7 +250,7 @@ class GraphSettings:
 
     @classmethod
     def coerce(cls, settings=None, **overrides):
-        """``settings`` (GraphSettings, dict or None) with ``overrides`` applied; None values skipped."""
+        """``settings`` (GraphSettings, dict or None) with ``overrides`` (None values skipped)."""
         if settings is None:
             base = cls()
         elif isinstance(settings, GraphSettings):
