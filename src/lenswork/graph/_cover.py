@@ -57,6 +57,7 @@ from __future__ import annotations
 
 import numbers
 import warnings
+from abc import ABC, abstractmethod
 
 import numpy as np
 from scipy.spatial import cKDTree
@@ -97,7 +98,7 @@ def _interval_ranges(t, n_intervals, r):
     return first, last
 
 
-class CoverBase:
+class CoverBase(ABC):
     """The interface every cover follows (see the module notes).
 
     A subclass sets :attr:`kind` (its name in :data:`COVERS`), stores its
@@ -109,40 +110,49 @@ class CoverBase:
     #: Name of the cover kind in :data:`COVERS`.
     kind = ""
 
-    def fit(self, values, names=None):  # pragma: no cover - interface
+    @abstractmethod
+    def fit(self, values, names=None):
         """Lay the cover over ``values`` (n_samples, n_lenses); returns self."""
-        raise NotImplementedError
 
-    def incidence(self, order=None):  # pragma: no cover - interface
+    @abstractmethod
+    def incidence(self, order=None):
         """Every (row, element) pair, grouped by flat element number: (rows, elements)."""
-        raise NotImplementedError
 
     @property
-    def n_elements(self):  # pragma: no cover - interface
+    @abstractmethod
+    def n_elements(self):
         """Number of elements, empty ones included."""
-        raise NotImplementedError
 
-    def element_ids(self, flat):  # pragma: no cover - interface
+    @abstractmethod
+    def element_ids(self, flat):
         """Int array of shape (len(flat), width) naming each element."""
-        raise NotImplementedError
 
-    def labels(self, flat):  # pragma: no cover - interface
+    @abstractmethod
+    def labels(self, flat):
         """A short text per element, for people."""
-        raise NotImplementedError
 
-    def levels(self, flat):  # pragma: no cover - interface
+    @abstractmethod
+    def levels(self, flat):
         """Float array of shape (len(flat), n_lenses): the element's position per lens."""
-        raise NotImplementedError
 
-    def params(self):  # pragma: no cover - interface
+    @abstractmethod
+    def params(self):
         """JSON-ready description of the fitted cover, with ``"kind"``."""
-        raise NotImplementedError
 
     def get_params(self):
         """The constructor parameters, as given."""
         return {name: getattr(self, name) for name in self._param_names}
 
     _param_names = ()
+
+    def __eq__(self, other):
+        """Covers are equal when they are of one class with equal parameters (fitted or not)."""
+        if not isinstance(other, CoverBase):
+            return NotImplemented
+        return type(self) is type(other) and self.get_params() == other.get_params()
+
+    def __hash__(self):
+        return hash((type(self).__name__, repr(sorted(self.get_params().items()))))
 
     def __repr__(self):
         args = ", ".join(f"{k}={v!r}" for k, v in self.get_params().items())

@@ -6,8 +6,9 @@
     cover element form a level (levels ordered by the element's position on
     the first lens, ``LensGraph.node_levels``: the interval, or the ball
     centre); their left-to-right order is chosen by barycentre sweeps (each
-    node moves to the mean position of its neighbours in the levels already placed, downwards then upwards, keeping the order
-    with the fewest edge crossings), then the horizontal positions are
+    node moves to the mean position of its neighbours in the levels already
+    placed, downwards then upwards, keeping the order with the fewest edge
+    crossings), then the horizontal positions are
     straightened towards the neighbours' mean with a spacing of at least 1.
 ``"lens"`` (two lenses)
     The two lens means of each node are its coordinates.
