@@ -4,7 +4,10 @@ from __future__ import annotations
 
 import click
 
-from ..graph import LAYOUTS
+from ..graph import LAYOUTS, build_graph, write_graph_json, write_graphml, write_memberships
+from ..lenses import compute_lenses
+from ..table import LensTable
+from ..workspace import Workspace
 from ._common import graph_options, input_options, output_dir
 
 __all__ = ["COMMANDS"]
@@ -60,11 +63,6 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
     memberships.csv (row id -> node) and graph.png / graph.svg. Everything is
     computed before the first file is written.
     """
-    from ..graph import build_graph, write_graph_json, write_graphml, write_memberships
-    from ..lenses import compute_lenses
-    from ..table import LensTable
-    from ..workspace import Workspace
-
     if not lens_specs and not lens_file:
         raise click.UsageError("Give at least one --lens or a --lens-file.")
     if use and not lens_file:

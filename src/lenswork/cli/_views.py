@@ -4,20 +4,21 @@ from __future__ import annotations
 
 import click
 
+from ..bootstrap import bootstrap_graph
+from ..compare import compare_views
+from ..lenses import compute_lenses
+from ..probe import stability_map
+from ..workspace import Workspace
 from ._common import graph_options, input_options, output_dir
 
 __all__ = ["COMMANDS"]
 
 
 def _workspace(cloud, seed, neighbor_method):
-    from ..workspace import Workspace
-
     return Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
 
 
 def _lens(ws, spec):
-    from ..lenses import compute_lenses
-
     return compute_lenses(ws, [spec])
 
 
@@ -50,8 +51,6 @@ def stability(cloud, seed, lens, grid_intervals, grid_overlaps, out, no_figure, 
     settings inside such a region. With --cover ball a row N of the grid is a
     net spacing of 1/N.
     """
-    from ..probe import stability_map
-
     out = output_dir(out)
     ws = _workspace(cloud, seed, neighbor_method)
     smap = stability_map(_lens(ws, lens), ws, settings=settings, intervals=grid_intervals,
@@ -112,8 +111,6 @@ def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_f
     that reproduce the full-data count. bootstrap.csv holds one row per
     resample; bootstrap.json the summary, the settings and any suggestion.
     """
-    from ..bootstrap import bootstrap_graph
-
     out = output_dir(out)
     ws = _workspace(cloud, seed, neighbor_method)
     result = bootstrap_graph(
@@ -159,8 +156,6 @@ def compare(cloud, seed, lenses, partition, match, out, no_figure, settings, nei
     correspondence M_a^T M_b (rows shared by each pair of nodes); comparison.png
     draws the views side by side, each coloured by the other view's lens.
     """
-    from ..compare import compare_views
-
     if len(lenses) < 2:
         raise click.UsageError("Give at least two --lens options: one per view.")
     out = output_dir(out)
