@@ -8,7 +8,8 @@ GraphML
     Nodes ``n0, n1, ...`` carry ``size`` (long), ``element`` (string, the
     cover element id joined by commas: the interval index per lens, or the
     ball number), ``level`` (string, the element's position per lens joined
-    by commas) and ``<column>_mean``, ``<column>_min``, ``<column>_max`` (double) for every lens and data column;
+    by commas) and ``<column>_mean``, ``<column>_min``, ``<column>_max``
+    (double) for every lens and data column;
     edges carry ``shared`` (long) and ``jaccard`` (double); the graph carries
     ``lens_columns``, ``params`` and ``provenance`` as JSON strings and
     ``n_rows``, ``n_unassigned`` (long).
