@@ -1,6 +1,7 @@
 """Clustering of each cover element's points, by default on the shared neighbour graph.
 
-Three clusterers, one table (:data:`CLUSTERERS`) for validation and dispatch:
+Two named rules and any scikit-learn clusterer; one table (:data:`CLUSTERERS`, name ->
+:class:`ClusterRule`) for validation, dispatch and the CLI:
 
 ``"graph"`` (default)
     The clusters of an element are the connected components of the shared
@@ -63,10 +64,19 @@ import numpy as np
 from .._errors import ParameterError
 from .._validation import check_choice, check_float
 
-__all__ = ["CLUSTERERS", "CUTOFF_WORDS", "FRAGMENT_RULES", "check_cutoff", "neighbor_cutoff"]
+__all__ = [
+    "CLUSTERERS",
+    "CUTOFF_WORDS",
+    "FRAGMENT_RULES",
+    "ClusterRule",
+    "ElementContext",
+    "check_clusterer",
+    "check_cutoff",
+    "cluster_elements",
+    "clusterer_name",
+    "neighbor_cutoff",
+]
 
-#: Clusterer names accepted as strings (an object with ``fit_predict`` is accepted too).
-CLUSTERERS = ("graph", "single")
 #: What happens to groups smaller than ``min_size``.
 FRAGMENT_RULES = ("attach", "report")
 #: Largest element the single-linkage clusterer accepts (it holds all pairwise distances).
@@ -328,10 +338,59 @@ def _estimator_labels(estimator, Xe, seed, element):
     return np.unique(labels, return_inverse=True)[1].astype(np.int64)
 
 
+@dataclass(frozen=True)
+class ClusterRule:
+    """One named clustering rule: ``labels(pts, ctx)`` -> int64 labels 0..g-1 of the points.
+
+    ``ctx`` is a :class:`ElementContext`; ``uses_cut_graph`` asks the caller to
+    prepare ``ctx.cut_indices`` (the neighbour lists with edges above the
+    cut-off removed).
+    """
+
+    labels: object
+    uses_cut_graph: bool = False
+    summary: str = ""
+
+
+@dataclass
+class ElementContext:
+    """What a clustering rule may read about the element it labels."""
+
+    X: np.ndarray
+    loc: np.ndarray
+    cut_indices: np.ndarray | None
+    settings: object
+    element: int
+
+
+def _graph_rule(pts, ctx):
+    return _graph_labels(ctx.cut_indices, pts, ctx.loc)
+
+
+def _single_rule(pts, ctx):
+    if pts.size > SINGLE_MAX_POINTS:
+        raise ParameterError(
+            f"clusterer='single' holds every pairwise distance of an element; cover "
+            f"element {ctx.element} has {pts.size:,} points (limit {SINGLE_MAX_POINTS:,}). Use "
+            f"clusterer='graph' or more intervals."
+        )
+    return _gap_labels(ctx.X[pts], ctx.settings.metric, ctx.settings.gap_bins)
+
+
+#: Clustering rules by name: one table for validation, dispatch and the CLI's choices (an
+#: object with ``fit_predict`` is accepted too, see :func:`check_clusterer`).
+CLUSTERERS = {
+    "graph": ClusterRule(_graph_rule, uses_cut_graph=True,
+                         summary="components of the shared k-NN graph inside the element"),
+    "single": ClusterRule(_single_rule,
+                          summary="single linkage cut at the first empty histogram bin"),
+}
+
+
 def check_clusterer(clusterer):
     """Return a clusterer name from :data:`CLUSTERERS` or an object with ``fit_predict``."""
     if isinstance(clusterer, str):
-        return check_choice("clusterer", clusterer, CLUSTERERS, context="build_graph")
+        return check_choice("clusterer", clusterer, tuple(CLUSTERERS), context="build_graph")
     if callable(getattr(clusterer, "fit_predict", None)) and hasattr(clusterer, "get_params"):
         return clusterer
     raise ParameterError(
@@ -366,10 +425,11 @@ def cluster_elements(workspace, rows, elements, settings):
     """
     clusterer, cutoff, k = settings.clusterer, settings.cutoff, settings.k
     metric, min_size, fragments = settings.metric, settings.min_size, settings.fragments
-    gap_bins, random_state = settings.gap_bins, settings.random_state
+    random_state = settings.random_state
     n = workspace.n
     X = workspace.X
-    by_graph = isinstance(clusterer, str) and clusterer == "graph"
+    rule = CLUSTERERS[clusterer] if isinstance(clusterer, str) else None
+    by_graph = rule is not None and rule.uses_cut_graph
     needs_graph = by_graph or fragments == "attach"
     cut = neighbor_cutoff(workspace, k, cutoff, metric) if needs_graph else float("nan")
     cut_idx = _cut_indices(workspace, k, metric, cut) if by_graph else None
@@ -389,16 +449,8 @@ def cluster_elements(workspace, rows, elements, settings):
         report["elements"] += 1
         loc[pts] = np.arange(m, dtype=loc.dtype)
         try:
-            if by_graph:
-                lab = _graph_labels(cut_idx, pts, loc)
-            elif isinstance(clusterer, str):  # "single"
-                if m > SINGLE_MAX_POINTS:
-                    raise ParameterError(
-                        f"clusterer='single' holds every pairwise distance of an element; cover "
-                        f"element {element} has {m:,} points (limit {SINGLE_MAX_POINTS:,}). Use "
-                        f"clusterer='graph' or more intervals."
-                    )
-                lab = _gap_labels(X[pts], metric, gap_bins)
+            if rule is not None:
+                lab = rule.labels(pts, ElementContext(X, loc, cut_idx, settings, element))
             else:
                 lab = _estimator_labels(clusterer, X[pts], random_state, element)
             sizes = np.bincount(lab)

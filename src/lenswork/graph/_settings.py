@@ -135,7 +135,7 @@ class GraphSettings:
         metavar="N", kind="int"))
     clusterer: object = field(default="graph", metadata=_cli(
         "--clusterer", "graph: components of the shared k-NN graph in each element; single: "
-        "single linkage cut at the first histogram gap (small data).", choices=CLUSTERERS,
+        "single linkage cut at the first histogram gap (small data).", choices=tuple(CLUSTERERS),
         kind="choice"))
     cutoff: object = field(default="auto", metadata=_cli(
         "--cutoff", "Longest k-NN edge kept; auto cuts only at a gap in the distance tail, "
