@@ -469,6 +469,13 @@ class BallCover(CoverBase):
 
     Notes
     -----
+    Meant for two or more lenses. On one lens a net of spacing ``eps`` with
+    balls of radius ``eps / (1 - overlap)`` is an interval cover whose overlap
+    fraction is ``1 - (1 - overlap) / 2 >= 1/2``, so three balls share points
+    and the graph's cycle count ``E - V + C`` counts filled triangles; read the
+    summary's ``holes`` (the nerve with its triangles) instead, as for any
+    cover of two or more lenses.
+
     Cost: the net O(n log n + pairs within eps) (or O(n m c) for ``centres=c``),
     the assignment one KD-tree ball query per centre, O(n log n + P) for P
     (point, ball) pairs.
