@@ -106,6 +106,7 @@ __all__ = [
     "FEATURE_WEIGHTS",
     "StabilityMap",
     "StructureProbe",
+    "default_cell_setting",
     "feature_counts",
     "stability_map",
     "structure_scores",
@@ -158,6 +159,11 @@ def default_cell_setting(settings):
     Interval cover: its interval count and overlap (when both are single
     values); ball cover: ``(1 / radius, overlap)`` when ``1 / radius`` is a
     whole number (see :func:`lenswork.graph.grid_settings`).
+
+    Examples
+    --------
+    >>> default_cell_setting(GraphSettings()), default_cell_setting(GraphSettings(cover="ball"))
+    ((10, 0.3), (10, 0.3))
     """
     if settings.cover_kind == "ball":
         if settings.centres is not None:

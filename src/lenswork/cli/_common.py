@@ -13,7 +13,17 @@ from .._errors import LensworkError, LensworkWarning, ParameterError
 from ..graph import CUTOFF_WORDS, GraphSettings
 from ..workspace import METHODS
 
-__all__: list[str] = []
+__all__ = [
+    "LensworkGroup",
+    "cutoff_value",
+    "graph_option_fields",
+    "graph_options",
+    "input_options",
+    "load_input",
+    "neighbors_option",
+    "number_list",
+    "output_dir",
+]
 
 
 class LensworkGroup(click.Group):

@@ -25,7 +25,6 @@ from .._validation import check_choice, check_float, check_int
 from ..workspace import METRICS
 from ._cluster import (
     CLUSTERERS,
-    CUTOFF_WORDS,
     FRAGMENT_RULES,
     check_clusterer,
     check_cutoff,
@@ -347,6 +346,3 @@ def grid_settings(settings, intervals, overlap):
         return settings.replace(cover=cover)
     return settings.replace(intervals=intervals, overlap=overlap)
 
-
-#: The cut-off words accepted by GraphSettings (re-exported for the CLI's messages).
-CUTOFF_CHOICES = CUTOFF_WORDS
