@@ -202,7 +202,6 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
     lens_prov = [c.provenance() for c in table]
     data = _data_columns(ws.cloud, columns, names)
     settings = settings.resolve(n, len(names))
-    run = settings if settings.random_state is not None else settings.replace(random_state=seed)
     clusterer, k, metric = settings.clusterer, settings.k, settings.metric
     with _progress.step(f"graph: cover of {', '.join(names)}"):
         cover = settings.make_cover().fit(values, names)
@@ -212,7 +211,7 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
     if uses_graph:
         ws.neighbors(k, metric)  # computed (or found in the cache) outside the timed steps below
     with _progress.step(f"graph: clusters of {cover.n_elements} cover elements"):
-        result = cluster_elements(ws, rows, elements, run)
+        result = cluster_elements(ws, rows, elements, settings, seed)
     V = result.node_element.size
     with _progress.step(f"graph: nerve of {V} nodes"):
         M = membership_matrix(result.rows, result.nodes, n, V)

@@ -399,7 +399,7 @@ def check_clusterer(clusterer):
     )
 
 
-def cluster_elements(workspace, rows, elements, settings):
+def cluster_elements(workspace, rows, elements, settings, random_state=None):
     """Cluster the points of every cover element.
 
     Parameters
@@ -410,9 +410,12 @@ def cluster_elements(workspace, rows, elements, settings):
         (:meth:`Cover.incidence`).
     settings : GraphSettings
         Already validated (and resolved): ``clusterer``, ``cutoff``, ``k``,
-        ``metric``, ``min_size``, ``fragments``, ``gap_bins`` and
-        ``random_state`` (the seed given to scikit-learn clusterers whose
-        ``random_state`` is unset) are read as they are.
+        ``metric``, ``min_size``, ``fragments`` and ``gap_bins`` are read as
+        they are.
+    random_state : int or Generator, optional
+        Seed given to scikit-learn clusterers whose ``random_state`` is unset
+        (default ``settings.random_state``; build_graph passes the workspace's
+        seed when that is None).
 
     Returns
     -------
@@ -425,7 +428,7 @@ def cluster_elements(workspace, rows, elements, settings):
     """
     clusterer, cutoff, k = settings.clusterer, settings.cutoff, settings.k
     metric, min_size, fragments = settings.metric, settings.min_size, settings.fragments
-    random_state = settings.random_state
+    random_state = settings.random_state if random_state is None else random_state
     n = workspace.n
     X = workspace.X
     rule = CLUSTERERS[clusterer] if isinstance(clusterer, str) else None

@@ -139,6 +139,10 @@ class CoverBase(ABC):
     def params(self):
         """JSON-ready description of the fitted cover, with ``"kind"``."""
 
+    @abstractmethod
+    def check_params(self):
+        """Check the constructor parameters (ParameterError when one is bad); returns self."""
+
     def get_params(self):
         """The constructor parameters, as given."""
         return {name: getattr(self, name) for name in self._param_names}
@@ -237,6 +241,28 @@ class Cover(CoverBase):
         self.intervals = intervals
         self.overlap = overlap
         self.scale = scale
+
+    def check_params(self):
+        """Check the parameters that do not depend on the lens count; returns self.
+
+        Examples
+        --------
+        >>> Cover(intervals=(5, 3)).check_params().intervals
+        (5, 3)
+        """
+        m = 1
+        for value in (self.intervals, self.overlap):
+            if not isinstance(value, (str, numbers.Number)) and hasattr(value, "__len__"):
+                m = max(m, len(value))
+        for value in (self.intervals, self.overlap):  # a scalar stands for every lens
+            if not isinstance(value, (str, numbers.Number)) and hasattr(value, "__len__") \
+                    and len(value) != m:
+                raise ParameterError(
+                    f"Cover has {len(self.intervals)} interval counts and {len(self.overlap)} "
+                    f"overlaps; give one value, or one per lens column, for both."
+                )
+        self._check_params(m)
+        return self
 
     def _check_params(self, m):
         intervals = _per_lens(
@@ -504,6 +530,17 @@ class BallCover(CoverBase):
         self.centres = centres
         self.overlap = overlap
         self.scale = scale
+
+    def check_params(self):
+        """Check the parameters; returns self.
+
+        Examples
+        --------
+        >>> BallCover(radius=0.2).check_params().radius
+        0.2
+        """
+        self._check_params()
+        return self
 
     def _check_params(self):
         radius = check_float("radius", self.radius, lo=0.0, hi=1.0, lo_open=True,

@@ -167,6 +167,7 @@ class GraphSettings:
                     f"The cover {type(cover).__name__} has no entry in COVERS; register its kind "
                     f"there first."
                 )
+            cover.check_params()  # a cover object's own parameters, checked here once
         else:
             put("cover", check_choice("cover", cover, tuple(COVERS), context="GraphSettings"))
         put("intervals", _per_lens("intervals", self.intervals, _intervals))
@@ -311,13 +312,6 @@ class GraphSettings:
             if isinstance(doc.get(key), list):
                 doc[key] = tuple(doc[key])
         return cls(**doc)
-
-    @property
-    def resolution(self):
-        """The cover's resolution as the probe grids read it (see :func:`grid_settings`)."""
-        if self.cover_kind == "ball":
-            return None
-        return self.intervals if isinstance(self.intervals, int) else None
 
 
 def grid_settings(settings, intervals, overlap):
