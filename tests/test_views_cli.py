@@ -87,7 +87,9 @@ def test_command_errors(circle_csv, tmp_path):
     res = _run("stability", circle_csv, "--lens", "column:name=x", "--cutoff", "far",
                "-o", tmp_path / "s")
     assert res.exit_code == 1
-    assert "Error: The --cutoff option must be 'auto', 'none' or a non-negative" in res.output
+    # every graph command takes the same cut-off words (GraphSettings), fence included
+    assert "Error: The --cutoff option must be 'auto', 'fence', 'none' or a non-negative" \
+        in res.output
     res = _run("stability", circle_csv, "--lens", "column:name=x", "--intervals", "0,4",
                "-o", tmp_path / "s")
     assert res.exit_code == 1 and "'intervals' parameter of stability_map" in res.output

@@ -21,13 +21,15 @@ Structure probe, stability, bootstrap, comparison
     ViewComparison, node_correspondence, induced_partition, adjusted_rand_index,
     variation_of_information, contingency_table
 Graphs
-    build_graph, Cover, LensGraph, GraphSummary, read_graph_json
+    build_graph, GraphSettings, Cover, IntervalCover, BallCover, LensGraph, GraphSummary,
+    read_graph_json
 Errors
     LensworkError, InputError, ParameterError, LensworkWarning
 """
 
 from __future__ import annotations
 
+from . import _graph_methods  # noqa: F401  (attaches LensGraph.write_* and .draw)
 from ._errors import InputError, LensworkError, LensworkWarning, ParameterError
 from ._version import __version__
 from .bootstrap import BootstrapResult, CoverSuggestion, bootstrap_graph, suggest_cover
@@ -41,7 +43,16 @@ from .compare import (
     variation_of_information,
 )
 from .data import ExcludedRow, PointCloud, load_table
-from .graph import Cover, GraphSummary, LensGraph, build_graph, read_graph_json
+from .graph import (
+    BallCover,
+    Cover,
+    GraphSettings,
+    GraphSummary,
+    IntervalCover,
+    LensGraph,
+    build_graph,
+    read_graph_json,
+)
 from .lenses import (
     DistanceToMeasure,
     Eccentricity,
@@ -84,6 +95,7 @@ from .screen import (
 from .workspace import NeighborGraph, Workspace, neighbor_graph
 
 __all__ = [
+    "BallCover",
     "BootstrapResult",
     "Cover",
     "CoverSuggestion",
@@ -91,8 +103,10 @@ __all__ = [
     "Eccentricity",
     "ExcludedRow",
     "GaussianDensity",
+    "GraphSettings",
     "GraphSummary",
     "InputError",
+    "IntervalCover",
     "KNNDistance",
     "LaplacianLens",
     "LensColumn",

@@ -67,7 +67,6 @@ from __future__ import annotations
 
 import csv
 import io
-import json
 import math
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -77,18 +76,20 @@ import numpy as np
 from . import _progress
 from ._errors import InputError, ParameterError
 from ._io import write_text
+from ._json import dumps
 from ._validation import check_choice, check_float, check_int, check_random_state
+from ._version import __version__
 from .data import PointCloud
-from .probe import (
+from .graph._features import (
     FEATURES,
-    _build,
-    _build_counts,
-    _graph_defaults,
-    _label,
-    _settings,
-    _workspace,
+    as_workspace,
+    build_counts,
     feature_counts,
+    lens_label,
+    quiet_build,
 )
+from .graph._settings import GraphSettings
+from .normalize import normalize
 from .table import as_lens_table
 from .workspace import Workspace
 
@@ -144,29 +145,49 @@ class CoverSuggestion:
         return {"intervals": self.intervals, "overlap": self.overlap, "cutoff": self.cutoff,
                 "scale": self.scale}
 
+    def apply(self, settings=None):
+        """``settings`` (default ``GraphSettings()``) with the suggested interval cover.
 
-def _hausdorff_scale(X, size, batches, rng):
+        Examples
+        --------
+        >>> s = CoverSuggestion(intervals=6, overlap=0.4, cutoff=0.2, delta=0.2,
+        ...                     resolution=[0.3], subsample_size=50, batches=30, pairs=900)
+        >>> g = s.apply(GraphSettings(k=10))
+        >>> g.intervals, g.scale, g.k
+        (6, 'raw', 10)
+        """
+        intervals = self.intervals if isinstance(self.intervals, int) else tuple(self.intervals)
+        return GraphSettings.coerce(settings).replace(
+            cover="interval", intervals=intervals, overlap=self.overlap, cutoff=self.cutoff,
+            scale=self.scale)
+
+
+def _algorithm(d, metric):
+    """scikit-learn's tree for low dimension (cosine has no tree), brute force otherwise."""
+    return "kd_tree" if d <= 6 and metric != "cosine" else "brute"
+
+
+def _hausdorff_scale(X, size, batches, rng, metric="euclidean"):
     """Mean over batches of d_H(X, S) for random subsamples S of ``size`` rows."""
     from sklearn.neighbors import NearestNeighbors
 
     n, d = X.shape
-    algorithm = "kd_tree" if d <= 6 else "brute"
+    algorithm = _algorithm(d, metric)
     out = []
     for _ in range(batches):
         pick = rng.choice(n, size=size, replace=False)
-        nn = NearestNeighbors(n_neighbors=1, algorithm=algorithm).fit(X[pick])
+        nn = NearestNeighbors(n_neighbors=1, algorithm=algorithm, metric=metric).fit(X[pick])
         dist, _ = nn.kneighbors(X)
         out.append(float(dist.max()))
     return float(np.mean(out))
 
 
-def _max_lens_gap(X, F, radius, chunk=2048):
+def _max_lens_gap(X, F, radius, chunk=2048, metric="euclidean"):
     """Per column of F: max |F[a] - F[b]| over row pairs with |X[a] - X[b]| <= radius."""
     from sklearn.neighbors import NearestNeighbors
 
     n, d = X.shape
-    algorithm = "kd_tree" if d <= 6 else "brute"
-    nn = NearestNeighbors(radius=radius, algorithm=algorithm).fit(X)
+    nn = NearestNeighbors(radius=radius, algorithm=_algorithm(d, metric), metric=metric).fit(X)
     best = np.zeros(F.shape[1])
     pairs = 0
     for start in range(0, n, chunk):
@@ -191,14 +212,18 @@ def _count_for_length(length, span, gain):
     return max(1, math.floor((span / length - gain) / (1.0 - gain)))
 
 
-def suggest_cover(lenses, workspace, *, gain=0.4, batches=30, beta=0.1, scale="raw",
-                  max_intervals=100, random_state=None):
+def suggest_cover(lenses, workspace, *, settings=None, gain=0.4, batches=30, beta=0.1,
+                  scale="raw", max_intervals=100, random_state=None):
     """Suggest intervals, overlap and cut-off from the data (after [1]; see the module docstring).
 
     Parameters
     ----------
     lenses : LensTable, LensColumn(s), array-like or registry spec(s)
     workspace : Workspace
+    settings : GraphSettings or dict, optional
+        The graph settings the suggestion is for: distances (the Hausdorff
+        scale, the radius search) use its ``metric``, as the clusterer's cut-off
+        will. :meth:`CoverSuggestion.apply` puts the suggestion into them.
     gain : float in (1/3, 1/2), default=0.4
         The overlap ``g`` (the range the guarantees of [1] ask for).
     batches : int, default=30
@@ -248,15 +273,14 @@ def suggest_cover(lenses, workspace, *, gain=0.4, batches=30, beta=0.1, scale="r
     >>> s.overlap, s.intervals >= 2, s.cutoff > 0
     (0.4, True, True)
     """
-    from .normalize import normalize
-
+    settings = GraphSettings.coerce(settings)
     gain = check_float("gain", gain, lo=1 / 3, hi=0.5, lo_open=True, hi_open=True,
                        context="suggest_cover")
     batches = check_int("batches", batches, lo=1, context="suggest_cover")
     beta = check_float("beta", beta, lo=0, lo_open=True, context="suggest_cover")
     max_intervals = check_int("max_intervals", max_intervals, lo=1, context="suggest_cover")
     scale = check_choice("scale", scale, ("rank", "raw"), context="suggest_cover")
-    workspace = _workspace(workspace)
+    workspace = as_workspace(workspace)
     cols = as_lens_table(lenses, workspace, what="suggest_cover").columns
     n = workspace.n
     if n < 10:
@@ -265,11 +289,11 @@ def suggest_cover(lenses, workspace, *, gain=0.4, batches=30, beta=0.1, scale="r
     size = int(min(n - 1, max(2, math.ceil(n / math.log(n) ** (1 + beta)))))
     X = workspace.X
     with _progress.step(f"cover suggestion: Hausdorff scale over {batches} subsamples of {size}"):
-        delta = _hausdorff_scale(X, size, batches, rng)
+        delta = _hausdorff_scale(X, size, batches, rng, settings.metric)
     F = np.column_stack([normalize(c.normalized(), "rank") if scale == "rank" else c.normalized()
                          for c in cols])
     with _progress.step(f"cover suggestion: lens gaps within delta={delta:.4g}"):
-        gaps, pairs = _max_lens_gap(X, F, delta)
+        gaps, pairs = _max_lens_gap(X, F, delta, metric=settings.metric)
     resolution = (gaps / gain).tolist()
     counts = []
     for j, r in enumerate(resolution):
@@ -304,7 +328,7 @@ class BootstrapResult:
     fraction : float or None
         Share of rows per subsample (None for "bootstrap").
     settings : dict
-        Cover and graph settings used for every graph.
+        The graph settings of every graph, whole (:meth:`GraphSettings.to_dict`).
     suggestion : CoverSuggestion or None
     random_state : int or None
     n_rows : int
@@ -404,14 +428,11 @@ class BootstrapResult:
 
     def to_dict(self):
         """JSON-ready: settings, scheme, per-feature summary, suggestion, provenance."""
-        from . import __version__
-
         return {
             "lenswork_version": __version__, "kind": "graph bootstrap", "lens": self.lens_label,
             "n_rows": self.n_rows, "resamples": self.resamples, "scheme": self.scheme,
             "fraction": self.fraction, "random_state": self.random_state,
-            "settings": {k: v if isinstance(v, (int, float, str, bool, list)) else repr(v)
-                         for k, v in self.settings.items()},
+            "settings": dict(self.settings),
             "features": [
                 {**r, "distribution": {str(k): v for k, v in r["distribution"].items()}}
                 for r in self.rows()
@@ -436,21 +457,13 @@ class BootstrapResult:
         out = {"bootstrap.csv": directory / "bootstrap.csv",
                "bootstrap.json": directory / "bootstrap.json"}
         write_text(out["bootstrap.csv"], self.to_csv_text())
-        write_text(out["bootstrap.json"], json.dumps(self.to_dict(), indent=2) + "\n")
+        write_text(out["bootstrap.json"], dumps(self.to_dict()) + "\n")
         if figures:
             out["bootstrap.png"] = self.plot(directory / "bootstrap.png")[0]
         return out
 
-    def plot(self, paths=None):
-        """Bar charts of the count distributions; write to ``paths`` or return the figure."""
-        from .plot._stability import bootstrap_figure, bootstrap_sheet
-
-        if paths is None:
-            return bootstrap_figure(self)
-        from .plot._style import as_paths
-
-        paths = as_paths(paths)
-        return bootstrap_sheet(self, paths)
+    # plot(paths=None) -- bar charts of the count distributions -- is attached by
+    # lenswork._graph_methods (the plots live above this module).
 
     def __repr__(self):
         mode, share = self.mode("loops")
@@ -465,9 +478,9 @@ def _draw(rng, n, scheme, fraction, minimum):
     return np.unique(rng.integers(0, n, size=n))
 
 
-def bootstrap_graph(lenses, workspace, *, resamples=100, scheme="subsample", fraction=0.8,
-                    intervals=None, overlap=None, k=15, suggest=False, random_state=None,
-                    **settings):
+def bootstrap_graph(lenses, workspace, *, settings=None, resamples=100, scheme="subsample",
+                    fraction=0.8, intervals=None, overlap=None, k=None, suggest=False,
+                    random_state=None, **overrides):
     """Rebuild the graph on resampled rows and count how often each feature count recurs.
 
     Parameters
@@ -482,19 +495,19 @@ def bootstrap_graph(lenses, workspace, *, resamples=100, scheme="subsample", fra
         module docstring for why duplicates are dropped).
     fraction : float in (0, 1], default=0.8
         Share of rows in each subsample (``"subsample"`` only).
-    intervals, overlap : optional
-        Cover settings (default: :func:`lenswork.build_graph`'s).
-    k : int, default=15
-        Neighbours of every neighbour graph (full data and each resample).
+    settings : GraphSettings or dict, optional
+        The graph settings of every graph (default ``GraphSettings()``).
+    intervals, overlap, k : optional
+        Overrides of ``settings`` (``k``: neighbours of every neighbour graph,
+        full data and each resample).
     suggest : bool, default=False
         Take intervals, overlap and cut-off from :func:`suggest_cover` on the
-        full data's raw lens values (they override ``intervals``, ``overlap``,
-        ``cutoff`` and ``scale``, which becomes ``"raw"``).
+        full data's raw lens values (:meth:`CoverSuggestion.apply`: an interval
+        cover with ``scale="raw"``).
     random_state : int, optional
         Seed of the resampling (default: the workspace's).
-    **settings
-        Passed to :func:`lenswork.build_graph`: ``scale``, ``clusterer``,
-        ``cutoff``, ``min_size``.
+    **overrides
+        Any :class:`~lenswork.GraphSettings` field, applied to ``settings``.
 
     Returns
     -------
@@ -531,26 +544,23 @@ def bootstrap_graph(lenses, workspace, *, resamples=100, scheme="subsample", fra
     scheme = check_choice("scheme", scheme, SCHEMES, context="bootstrap_graph")
     fraction = check_float("fraction", fraction, lo=0, hi=1, lo_open=True,
                            context="bootstrap_graph")
-    k = check_int("k", k, lo=1, context="bootstrap_graph")
-    settings = _settings(dict(settings, k=k), "bootstrap_graph")
-    workspace = _workspace(workspace)
+    settings = GraphSettings.coerce(settings, **overrides, intervals=intervals, overlap=overlap,
+                                    k=k)
+    k = settings.k
+    workspace = as_workspace(workspace)
     cols = as_lens_table(lenses, workspace, what="bootstrap_graph").columns
-    d_iv, d_ov = _graph_defaults()
     suggestion = None
     if suggest:
-        suggestion = suggest_cover(cols, workspace, scale="raw", random_state=random_state)
-        intervals, overlap = suggestion.intervals, suggestion.overlap
-        settings["cutoff"] = suggestion.cutoff
-        settings["scale"] = "raw"
-    intervals = d_iv if intervals is None else intervals
-    overlap = d_ov if overlap is None else overlap
+        suggestion = suggest_cover(cols, workspace, settings=settings, scale="raw",
+                                   random_state=random_state)
+        settings = suggestion.apply(settings)
     n = workspace.n
     if scheme == "subsample" and round(fraction * n) < k + 2:
         raise InputError(
             f"A subsample of {fraction:g} x {n} rows is too small for a neighbour graph with "
             f"k={k}; use a larger fraction, more rows or a smaller k."
         )
-    full = feature_counts(_build(cols, workspace, intervals, overlap, settings))
+    full = feature_counts(quiet_build(cols, workspace, settings))
     rng = check_random_state(workspace.random_state if random_state is None else random_state)
     counts = {f: np.zeros(resamples, dtype=np.int64) for f in FEATURES}
     sizes = np.zeros(resamples, dtype=np.int64)
@@ -561,16 +571,15 @@ def bootstrap_graph(lenses, workspace, *, resamples=100, scheme="subsample", fra
                         random_state=workspace.random_state,
                         neighbor_method=workspace.neighbor_method)
         sub_cols = [replace(c, values=np.asarray(c.values)[idx]) for c in cols]
-        c = _build_counts(sub_cols, sub, intervals, overlap, settings)
+        c = build_counts(sub_cols, sub, settings)
         empty[b] = c["empty"]
         sizes[b] = idx.size
         for f in FEATURES:
             counts[f][b] = c[f]
-    settings_out = dict(settings, intervals=intervals, overlap=overlap)
     return BootstrapResult(
-        lens_label=_label(cols), features=FEATURES, full_counts={f: full[f] for f in FEATURES},
-        counts=counts, sizes=sizes, scheme=scheme,
-        fraction=fraction if scheme == "subsample" else None, settings=settings_out,
+        lens_label=lens_label(cols), features=FEATURES,
+        full_counts={f: full[f] for f in FEATURES}, counts=counts, sizes=sizes, scheme=scheme,
+        fraction=fraction if scheme == "subsample" else None, settings=settings.to_dict(),
         suggestion=suggestion, random_state=random_state, n_rows=n,
         extra={"empty_resamples": int(empty.sum())},
     )

@@ -72,12 +72,19 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
+from pathlib import Path
 
 import numpy as np
 import scipy.sparse as sp
+from scipy.sparse.csgraph import connected_components
 
 from ._errors import InputError, ParameterError
-from .table import LensColumn, LensTable
+from ._io import write_text
+from ._json import dumps
+from ._validation import check_choice, check_float
+from ._version import __version__
+from .graph import GraphSettings, build_graph
+from .table import LensColumn, LensTable, as_lens_table
 
 __all__ = [
     "FEATURE_KINDS",
@@ -287,8 +294,6 @@ PARTITIONS = ("component", "node")
 
 def node_components(graph):
     """Connected component of every node of a graph (labels 0..C-1, by smallest node)."""
-    from scipy.sparse.csgraph import connected_components
-
     _, labels = connected_components(graph.adjacency(), directed=False)
     return labels.astype(np.int64)
 
@@ -317,8 +322,6 @@ def induced_partition(graph, how="component"):
     >>> induced_partition(g).tolist(), induced_partition(g, "node").tolist()
     ([0, 0, 0, 1, -1], [0, 0, 1, 2, -1])
     """
-    from ._validation import check_choice
-
     how = check_choice("how", how, PARTITIONS, context="induced_partition")
     M = graph.membership
     counts = np.diff(M.indptr)
@@ -510,8 +513,6 @@ class ViewComparison:
 
     def agreement(self, score="ari"):
         """(V, V) matrix of one score between every pair of views (diagonal: identity value)."""
-        from ._validation import check_choice
-
         score = check_choice("score", score, ("ari", "vi", "vi_normalized"),
                              context="ViewComparison.agreement")
         V = len(self.names)
@@ -550,12 +551,15 @@ class ViewComparison:
         return "\n".join(lines)
 
     def to_dict(self):
-        """JSON-ready: views with their counts, pair scores, unmatched features, provenance."""
-        from . import __version__
+        """JSON-ready: views with their counts, pair scores, unmatched features, provenance.
 
+        Each view carries its build ``params`` and, for graphs built by
+        lenswork, its whole ``graph_settings`` (:meth:`GraphSettings.to_dict`).
+        """
         views = []
         for name, g, s in zip(self.names, self.graphs, self.summaries, strict=True):
             views.append({"name": name, "lens_columns": list(g.lens_columns), "params": g.params,
+                          "graph_settings": g.provenance.get("graph_settings"),
                           "nodes": s.n_nodes, "edges": s.n_edges, "components": s.n_components,
                           "loops": s.loops, "branch_points": len(s.branch_points),
                           "flares": s.n_flares, "unassigned": s.n_unassigned})
@@ -575,11 +579,6 @@ class ViewComparison:
         -------
         dict of str -> Path
         """
-        import json
-        from pathlib import Path
-
-        from ._io import write_text
-
         directory = Path(directory)
         if directory.exists() and not directory.is_dir():
             raise ParameterError(
@@ -587,7 +586,7 @@ class ViewComparison:
             )
         out = {}
         path = directory / "comparison.json"
-        write_text(path, json.dumps(self.to_dict(), indent=2) + "\n")
+        write_text(path, dumps(self.to_dict()) + "\n")
         out[path.name] = path
         for i in range(len(self.names)):
             for j in range(i + 1, len(self.names)):
@@ -603,16 +602,8 @@ class ViewComparison:
             out[path.name] = path
         return out
 
-    def plot(self, paths=None):
-        """Views side by side, each coloured by the next view's lens; write or return the figure."""
-        from .plot._compare import comparison_figure, comparison_sheet
-
-        if paths is None:
-            return comparison_figure(self)
-        from .plot._style import as_paths
-
-        paths = as_paths(paths)
-        return comparison_sheet(self, paths)
+    # plot(paths=None) -- the views side by side, each coloured by the next view's lens -- is
+    # attached by lenswork._graph_methods (the plots live above this module).
 
     def __repr__(self):
         p = self.pairs[0]
@@ -624,6 +615,9 @@ def _view_name(view):
     """A name for a view from what it is built from (None when nothing names it)."""
     if hasattr(view, "lens_columns") and hasattr(view, "membership"):
         return " \u00d7 ".join(view.lens_columns)
+    if isinstance(view, tuple) and len(view) == 2 and isinstance(view[1], GraphSettings):
+        base = _view_name(view[0]) or "view"
+        return f"{base} [{view[1].cover_kind} cover]"
     if isinstance(view, tuple) and len(view) == 2 and isinstance(view[1], dict):
         base = _view_name(view[0]) or "view"
         settings = ", ".join(f"{k}={v}" for k, v in view[1].items())
@@ -649,7 +643,8 @@ def _view_items(views):
     return list(zip(names, views, strict=True))
 
 
-def compare_views(views, workspace=None, *, partition="component", match=0.5, **graph_settings):
+def compare_views(views, workspace=None, *, settings=None, partition="component", match=0.5,
+                  **overrides):
     """Compare two or more views of the same rows.
 
     Parameters
@@ -657,10 +652,10 @@ def compare_views(views, workspace=None, *, partition="component", match=0.5, **
     views : list or dict of views
         Each view is a :class:`~lenswork.LensGraph` (already built), or a lens
         input that :func:`lenswork.build_graph` accepts (LensTable, LensColumn(s),
-        array, registry spec string), built on ``workspace`` with
-        ``graph_settings``, or a pair ``(lens input, dict of settings)`` to
-        compare settings. A dict names the views; otherwise names come from the
-        lens columns.
+        array, registry spec string), built on ``workspace`` with ``settings``,
+        or a pair ``(lens input, GraphSettings or dict of changes)`` to
+        compare settings (a dict is applied to ``settings`` with ``replace``).
+        A dict names the views; otherwise names come from the lens columns.
     workspace : Workspace, optional
         Needed when a view is not a built graph.
     partition : {"component", "node"}, default="component"
@@ -668,8 +663,11 @@ def compare_views(views, workspace=None, *, partition="component", match=0.5, **
     match : float in (0, 1], default=0.5
         Jaccard index of the rows at which a feature counts as present in both
         views.
-    **graph_settings
-        Passed to :func:`lenswork.build_graph` for views that are built here.
+    settings : GraphSettings or dict, optional
+        The graph settings of the views built here (default ``GraphSettings()``).
+    **overrides
+        Any :class:`~lenswork.GraphSettings` field, applied to ``settings``
+        (validated once, before any view is built).
 
     Returns
     -------
@@ -699,9 +697,8 @@ def compare_views(views, workspace=None, *, partition="component", match=0.5, **
     >>> p["ari"], p["vi"], p["only_a"]
     (1.0, 0.0, [])
     """
-    from ._validation import check_choice, check_float
-
     partition = check_choice("partition", partition, PARTITIONS, context="compare_views")
+    settings = GraphSettings.coerce(settings, **overrides)
     match = check_float("match", match, lo=0, hi=1, lo_open=True, context="compare_views")
     items = _view_items(views)
     if len(items) < 2:
@@ -720,17 +717,17 @@ def compare_views(views, workspace=None, *, partition="component", match=0.5, **
                     f"View {name!r} is not a built graph, so compare_views needs the workspace "
                     f"to build it: compare_views(views, workspace)."
                 )
-            from .graph import build_graph
-            from .table import as_lens_table
-
-            lens, settings = view, {}
-            if isinstance(view, tuple) and len(view) == 2 and isinstance(view[1], dict):
-                lens, settings = view
+            lens, view_settings = view, settings
+            if isinstance(view, tuple) and len(view) == 2 \
+                    and isinstance(view[1], (dict, GraphSettings)):
+                lens, changes = view
+                view_settings = changes if isinstance(changes, GraphSettings) \
+                    else settings.replace(**changes)
             cols = as_lens_table(lens, workspace, what="compare_views").columns
             if _bare_array(lens):  # name its columns after the view
                 cols = [replace(c, name=str(name) if len(cols) == 1 else f"{name}_{j + 1}")
                         for j, c in enumerate(cols)]
-            g = build_graph(cols, workspace, **{**graph_settings, **settings})
+            g = build_graph(cols, workspace, view_settings)
             lens_vals = np.column_stack([c.values for c in cols])
         names.append(str(name))
         graphs.append(g)

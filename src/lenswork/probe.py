@@ -76,22 +76,29 @@ References
 
 from __future__ import annotations
 
-import contextlib
 import csv
-import inspect
 import io
-import json
 import math
-import warnings
 from collections import deque
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from . import _progress
-from ._errors import LensworkWarning, ParameterError
+from ._errors import ParameterError
 from ._io import write_text
+from ._json import dumps
 from ._validation import check_float, check_int
+from ._version import __version__
+from .graph._features import (
+    FEATURES,
+    as_workspace,
+    build_counts,
+    feature_counts,
+    lens_label,
+    quiet_build,
+)
+from .graph._settings import GraphSettings, grid_settings
 from .table import as_lens_table
 
 __all__ = [
@@ -99,13 +106,12 @@ __all__ = [
     "FEATURE_WEIGHTS",
     "StabilityMap",
     "StructureProbe",
+    "default_cell_setting",
     "feature_counts",
     "stability_map",
     "structure_scores",
 ]
 
-#: Feature types counted in every graph (as the stability map shows them).
-FEATURES = ("components", "loops", "branch_points", "flares")
 #: Feature types that count as revealed structure, with their default weights in ``revealed``.
 FEATURE_WEIGHTS = {"loops": 1.0, "flares": 0.5, "branch_points": 0.25}
 #: Feature types whose agreement over the grid enters ``stability``.
@@ -116,14 +122,6 @@ PROBE_OVERLAPS = (0.25, 0.4)
 #: The stability map's default grid.
 MAP_INTERVALS = (4, 6, 8, 10, 12, 14, 16, 20)
 MAP_OVERLAPS = (0.1, 0.2, 0.3, 0.4, 0.5)
-#: Cover settings passed through to build_graph (besides intervals and overlap).
-GRAPH_SETTINGS = ("scale", "clusterer", "cutoff", "min_size", "k")
-
-
-# --------------------------------------------------------------------------- lens input
-def _label(cols):
-    """A short label for a list of columns: their names joined by ' x '."""
-    return " \u00d7 ".join(c.name for c in cols)
 
 
 # --------------------------------------------------------------------------- grid
@@ -150,23 +148,33 @@ def _check_grid(intervals, overlaps, context):
     return tuple(sorted(set(iv))), tuple(sorted(set(ov)))
 
 
-def _settings(given, context):
-    """Keyword settings passed on to build_graph (unknown names raise)."""
-    unknown = sorted(set(given) - set(GRAPH_SETTINGS))
-    if unknown:
-        raise ParameterError(
-            f"{context} has no setting {unknown[0]!r}; the graph settings it passes on are: "
-            f"{', '.join(GRAPH_SETTINGS)}."
-        )
-    return {k: v for k, v in given.items() if v is not None}
+def _graph_settings(settings, k, overrides):
+    """GraphSettings from ``settings`` (object, dict or None), then ``k`` and the overrides."""
+    return GraphSettings.coerce(settings, **overrides, k=k)
 
 
-def _graph_defaults():
-    """build_graph's default interval count and overlap (read from its signature)."""
-    from .graph import build_graph
+def default_cell_setting(settings):
+    """The (intervals, overlap) grid cell the settings themselves stand for, or None.
 
-    params = inspect.signature(build_graph).parameters
-    return int(params["intervals"].default), float(params["overlap"].default)
+    Interval cover: its interval count and overlap (when both are single
+    values); ball cover: ``(1 / radius, overlap)`` when ``1 / radius`` is a
+    whole number (see :func:`lenswork.graph.grid_settings`).
+
+    Examples
+    --------
+    >>> default_cell_setting(GraphSettings()), default_cell_setting(GraphSettings(cover="ball"))
+    ((10, 0.3), (10, 0.3))
+    """
+    if settings.cover_kind == "ball":
+        if settings.centres is not None:
+            return None
+        res = 1.0 / settings.radius
+        if not math.isclose(res, round(res)):
+            return None
+        return (int(round(res)), float(settings.overlap))
+    if isinstance(settings.intervals, int) and not isinstance(settings.overlap, tuple):
+        return (settings.intervals, float(settings.overlap))
+    return None
 
 
 def _mode(values):
@@ -195,113 +203,35 @@ def _region(grid, cell):
 
 
 # --------------------------------------------------------------------------- graphs
-def feature_counts(graph, data_components=None):
-    """The feature counts of one graph, as the probe and the stability map read them.
-
-    Parameters
-    ----------
-    graph : LensGraph
-    data_components : int, optional
-        Components of the data itself; adds ``extra_components`` =
-        max(components - data_components, 0).
-
-    Returns
-    -------
-    dict of str -> int
-        ``nodes``, ``edges``, ``components``, ``loops`` (b1 = E - V + C),
-        ``branch_points``, ``flares``, ``unassigned`` (rows in no node), and
-        ``extra_components`` when ``data_components`` is given.
-
-    Examples
-    --------
-    >>> from lenswork import Workspace
-    >>> from lenswork.graph import build_graph
-    >>> t = np.linspace(0, 2 * np.pi, 400, endpoint=False)
-    >>> ws = Workspace(np.column_stack([np.cos(t), np.sin(t)]))
-    >>> feature_counts(build_graph(np.cos(t), ws))["loops"]
-    1
-    """
-    s = graph.summary()
-    out = {
-        "nodes": int(s.n_nodes), "edges": int(s.n_edges), "components": int(s.n_components),
-        "loops": int(s.loops), "branch_points": len(s.branch_points), "flares": int(s.n_flares),
-        "unassigned": int(s.n_unassigned),
-    }
-    if data_components is not None:
-        out["extra_components"] = max(out["components"] - int(data_components), 0)
-    return out
-
-
-@contextlib.contextmanager
-def _quiet():
-    """No per-graph progress lines or warnings inside a sweep (it reports its own progress)."""
-    previous = _progress.set_reporter(False)
-    try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", LensworkWarning)
-            yield
-    finally:
-        _progress._reporter = previous
-
-
-def _build(cols, workspace, intervals, overlap, settings):
-    """build_graph without its per-graph warnings (a sweep counts unassigned rows instead)."""
-    from .graph import build_graph
-
-    with _quiet():
-        return build_graph(cols, workspace, intervals=intervals, overlap=overlap, **settings)
-
-
-def _workspace(workspace):
-    from .workspace import Workspace
-
-    return workspace if isinstance(workspace, Workspace) else Workspace(workspace)
-
-
 def _data_components(workspace, cols, settings):
     """Components of the data itself under the graph builder's clustering (cached per settings).
 
-    The graph built with one interval per lens covers the whole range, so only
-    the clustering step splits the rows: its components are the data's own.
+    The graph built with one interval on the first lens covers the whole range,
+    so only the clustering step splits the rows: its components are the data's
+    own.
     """
-    key = ("probe:data_components", tuple(sorted((k, repr(v)) for k, v in settings.items())))
+    whole = settings.replace(cover="interval", intervals=1, overlap=0.0)
+    key = ("probe:data_components", dumps(whole.to_dict(), indent=None, sort_keys=True))
 
     def compute():
-        _, overlap = _graph_defaults()
-        g = _build(cols[:1], workspace, 1, overlap, settings)
-        return int(feature_counts(g)["components"])
+        return int(feature_counts(quiet_build(cols[:1], workspace, whole))["components"])
 
     return workspace.cached(key, compute)
 
 
-def _empty_counts(n_rows):
-    """Counts of a cell where no cover element holds a group of ``min_size`` rows."""
-    return {"nodes": 0, "edges": 0, "unassigned": int(n_rows), "components": 0, "loops": 0,
-            "branch_points": 0, "flares": 0, "extra_components": 0, "empty": 1}
-
-
-def _build_counts(cols, workspace, intervals, overlap, settings, data_components=None):
-    """Feature counts of one graph; an empty graph (every group below min_size) counts as empty.
-
-    The settings were already accepted by the build for the data's own
-    components, so a ParameterError here comes from this cell's cover: the
-    graph builder refuses to return a graph with no node.
-    """
-    try:
-        g = _build(cols, workspace, intervals, overlap, settings)
-    except ParameterError:
-        return _empty_counts(workspace.n)
-    return {**feature_counts(g, data_components), "empty": 0}
-
-
 def _grid_counts(cols, workspace, intervals, overlaps, settings, data_components, label):
-    """Feature counts of the graph at every (intervals, overlap) cell: dict -> (p, q) ints."""
+    """Feature counts of the graph at every (intervals, overlap) cell: dict -> (p, q) ints.
+
+    Each cell's settings come from :func:`lenswork.graph.grid_settings`, so the
+    grid sweeps whichever cover the settings hold.
+    """
     p, q = len(intervals), len(overlaps)
     keys = ("nodes", "edges", "unassigned", *FEATURES, "extra_components", "empty")
     out = {k: np.zeros((p, q), dtype=np.int64) for k in keys}
     cells = [(i, j) for i in range(p) for j in range(q)]
     for i, j in _progress.track(cells, f"probe {label}", length=len(cells)):
-        c = _build_counts(cols, workspace, intervals[i], overlaps[j], settings, data_components)
+        cell = grid_settings(settings, intervals[i], overlaps[j])
+        c = build_counts(cols, workspace, cell, data_components)
         for k in keys:
             out[k][i, j] = c[k]
     return out
@@ -371,7 +301,7 @@ class StructureProbe(dict):
     weights : dict of str -> float
     floor : float
     settings : dict
-        The graph settings used (k, clusterer...).
+        The graph settings used, whole (:meth:`GraphSettings.to_dict`).
 
     Examples
     --------
@@ -393,7 +323,8 @@ class StructureProbe(dict):
         self.data_components = int(data_components)
         self.weights = dict(weights)
         self.floor = float(floor)
-        self.settings = dict(settings)
+        self.settings = settings.to_dict() if isinstance(settings, GraphSettings) \
+            else dict(settings)
 
     def columns(self, keys=None):
         """Score columns in name order: dict of score -> ndarray of shape (m,).
@@ -430,8 +361,8 @@ class StructureProbe(dict):
                 f"{len(self.overlaps)} grid, most structure: {best})")
 
 
-def structure_scores(lenses, workspace, *, intervals=PROBE_INTERVALS, overlaps=PROBE_OVERLAPS,
-                     k=15, weights=None, floor=0.25, **settings):
+def structure_scores(lenses, workspace, *, settings=None, intervals=PROBE_INTERVALS,
+                     overlaps=PROBE_OVERLAPS, k=None, weights=None, floor=0.25, **overrides):
     """Score the graph structure each lens column reveals over a small grid of covers.
 
     Parameters
@@ -444,16 +375,21 @@ def structure_scores(lenses, workspace, *, intervals=PROBE_INTERVALS, overlaps=P
         Interval counts of the grid.
     overlaps : sequence of float in [0, 1), default=(0.25, 0.4)
         Overlaps of the grid.
-    k : int, default=15
-        Neighbours of the shared graph the clustering step uses.
+    settings : GraphSettings or dict, optional
+        The graph settings of every build (default ``GraphSettings()``); each
+        grid cell replaces the cover's resolution and overlap
+        (:func:`lenswork.graph.grid_settings`).
+    k : int, optional
+        Neighbours of the shared graph the clustering step uses (an override
+        of ``settings.k``, 15 by default).
     weights : dict of str -> float, optional
         Weights of ``loops``, ``flares`` and ``branch_points`` in ``revealed``
         (default :data:`FEATURE_WEIGHTS`).
     floor : float in [0, 1), default=0.25
         Lowest ``structure`` score (a lens that reveals nothing).
-    **settings
-        Passed to :func:`lenswork.build_graph`: ``scale``, ``clusterer``,
-        ``cutoff``, ``min_size``.
+    **overrides
+        Any :class:`~lenswork.GraphSettings` field (``scale``, ``clusterer``,
+        ``cutoff``, ``min_size``, ``cover``...), applied to ``settings``.
 
     Returns
     -------
@@ -496,11 +432,10 @@ def structure_scores(lenses, workspace, *, intervals=PROBE_INTERVALS, overlaps=P
     (1, True)
     """
     intervals, overlaps = _check_grid(intervals, overlaps, "structure_scores")
-    k = check_int("k", k, lo=1, context="structure_scores")
     weights = _check_weights(weights)
     floor = check_float("floor", floor, lo=0, hi=1, hi_open=True, context="structure_scores")
-    settings = _settings(dict(settings, k=k), "structure_scores")
-    workspace = _workspace(workspace)
+    settings = _graph_settings(settings, k, overrides)
+    workspace = as_workspace(workspace)
     cols = as_lens_table(lenses, workspace, what="structure_scores", finite=False).columns
     good = [c for c in cols if np.isfinite(np.asarray(c.values)).all()]
     data_c = _data_components(workspace, good or cols, settings) if good else 0
@@ -518,7 +453,8 @@ def structure_scores(lenses, workspace, *, intervals=PROBE_INTERVALS, overlaps=P
         scores[col.name] = _score(grid, weights, floor)
     return StructureProbe(
         scores, names=[c.name for c in cols], intervals=intervals, overlaps=overlaps,
-        counts=counts, data_components=data_c, weights=weights, floor=floor, settings=settings,
+        counts=counts, data_components=data_c, weights=weights, floor=floor,
+        settings=settings.to_dict(),
     )
 
 
@@ -544,9 +480,10 @@ class StabilityMap:
     data_components : int
         Components of the data itself (see the module docstring).
     default : (int, float) or None
-        build_graph's default (intervals, overlap), when the grid holds it.
+        The grid cell of the settings themselves (intervals, overlap; see
+        :func:`default_cell_setting`), when the grid holds it.
     settings : dict
-        The other graph settings used.
+        The graph settings used, whole (:meth:`GraphSettings.to_dict`).
 
     Examples
     --------
@@ -626,15 +563,11 @@ class StabilityMap:
 
     def provenance(self):
         """JSON-ready description: lens, grid, settings, default, data components, version."""
-        from . import __version__
-
         return {
             "lenswork_version": __version__, "kind": "stability map", "lens": self.lens,
             "n_rows": self.n_rows, "intervals": list(self.intervals),
             "overlaps": list(self.overlaps), "default": list(self.default or []) or None,
-            "data_components": self.data_components,
-            "settings": {k: v if isinstance(v, (int, float, str, bool)) else repr(v)
-                         for k, v in self.settings.items()},
+            "data_components": self.data_components, "settings": dict(self.settings),
         }
 
     def write(self, path):
@@ -649,23 +582,15 @@ class StabilityMap:
         path = Path(path)
         write_text(path, self.to_csv_text())
         sidecar = path.with_name(path.name + ".json")
-        write_text(sidecar, json.dumps(self.provenance(), indent=2) + "\n")
+        write_text(sidecar, dumps(self.provenance()) + "\n")
         return path, sidecar
 
-    def plot(self, paths=None, features=None):
-        """Draw one heat map per feature type; write to ``paths`` or return the figure."""
-        from .plot._stability import stability_figure, stability_sheet
-
-        if paths is None:
-            return stability_figure(self, features)
-        from .plot._style import as_paths
-
-        paths = as_paths(paths)
-        return stability_sheet(self, paths, features)
+    # plot(paths=None, features=None) -- one heat map per feature type -- is attached by
+    # lenswork._graph_methods (the plots live above this module).
 
 
-def stability_map(lens, workspace, *, intervals=MAP_INTERVALS, overlaps=MAP_OVERLAPS, k=15,
-                  **settings):
+def stability_map(lens, workspace, *, settings=None, intervals=MAP_INTERVALS,
+                  overlaps=MAP_OVERLAPS, k=None, **overrides):
     """Feature counts of one lens's graph over a grid of cover settings.
 
     Parameters
@@ -676,11 +601,14 @@ def stability_map(lens, workspace, *, intervals=MAP_INTERVALS, overlaps=MAP_OVER
     workspace : Workspace
     intervals : sequence of int, default=(4, 6, 8, 10, 12, 14, 16, 20)
     overlaps : sequence of float in [0, 1), default=(0.1, 0.2, 0.3, 0.4, 0.5)
-    k : int, default=15
-        Neighbours of the shared graph used by the clustering step.
-    **settings
-        Passed to :func:`lenswork.build_graph`: ``scale``, ``clusterer``,
-        ``cutoff``, ``min_size``.
+    settings : GraphSettings or dict, optional
+        The graph settings; each cell replaces the cover's resolution and
+        overlap (:func:`lenswork.graph.grid_settings`: interval count, or
+        ball spacing ``1 / N``). The settings' own cell is the map's default.
+    k : int, optional
+        Neighbours of the shared graph (an override of ``settings.k``).
+    **overrides
+        Any :class:`~lenswork.GraphSettings` field, applied to ``settings``.
 
     Returns
     -------
@@ -708,14 +636,14 @@ def stability_map(lens, workspace, *, intervals=MAP_INTERVALS, overlaps=MAP_OVER
     [[1, 1], [1, 1]]
     """
     intervals, overlaps = _check_grid(intervals, overlaps, "stability_map")
-    k = check_int("k", k, lo=1, context="stability_map")
-    settings = _settings(dict(settings, k=k), "stability_map")
-    workspace = _workspace(workspace)
+    settings = _graph_settings(settings, k, overrides)
+    workspace = as_workspace(workspace)
     cols = as_lens_table(lens, workspace, what="stability_map").columns
     data_c = _data_components(workspace, cols, settings)
-    label = _label(cols)
+    label = lens_label(cols)
     counts = _grid_counts(cols, workspace, intervals, overlaps, settings, data_c, label)
     return StabilityMap(
         lens=label, intervals=intervals, overlaps=overlaps, counts=counts, n_rows=workspace.n,
-        data_components=data_c, default=_graph_defaults(), settings=settings,
+        data_components=data_c, default=default_cell_setting(settings),
+        settings=settings.to_dict(),
     )

@@ -26,7 +26,14 @@ import numpy as np
 from _util import measure, print_table, quick_flag, timed
 
 from lenswork import LensworkWarning, Workspace
-from lenswork.graph import Cover, build_graph, membership_matrix, neighbor_cutoff, nerve_edges
+from lenswork.graph import (
+    Cover,
+    GraphSettings,
+    build_graph,
+    membership_matrix,
+    neighbor_cutoff,
+    nerve_edges,
+)
 from lenswork.graph._build import node_statistics
 from lenswork.graph._cluster import _cut_indices, cluster_elements
 
@@ -57,7 +64,7 @@ def run_size(n, rng, intervals=20, overlap=0.3, k=15):
     _, t_cutidx = timed(_cut_indices, ws, k, "euclidean", cutoff)
     cover, t_fit = timed(Cover(intervals=intervals, overlap=overlap).fit, lens)
     (rows, elements), t_inc = timed(cover.incidence, order=cover.values_[:, 0])
-    result, t_cl = timed(cluster_elements, ws, rows, elements, k=k)
+    result, t_cl = timed(cluster_elements, ws, rows, elements, GraphSettings(k=k, random_state=0))
     V = result.node_element.size
 
     def nerve():

@@ -4,13 +4,26 @@ from __future__ import annotations
 
 import functools
 import warnings
+from dataclasses import fields
 from pathlib import Path
 
 import click
 
 from .._errors import LensworkError, LensworkWarning, ParameterError
+from ..graph import CUTOFF_WORDS, GraphSettings
+from ..workspace import METHODS
 
-__all__: list[str] = []
+__all__ = [
+    "LensworkGroup",
+    "cutoff_value",
+    "graph_option_fields",
+    "graph_options",
+    "input_options",
+    "load_input",
+    "neighbors_option",
+    "number_list",
+    "output_dir",
+]
 
 
 class LensworkGroup(click.Group):
@@ -109,7 +122,7 @@ def number_list(text, cast, option):
     return values[0] if len(values) == 1 else values
 
 
-def cutoff_value(text, words=("auto", "fence", "none")):
+def cutoff_value(text, words=CUTOFF_WORDS):
     """The --cutoff option: one of ``words`` or a number."""
     word = str(text).strip().lower()
     if word in words:
@@ -129,3 +142,76 @@ def output_dir(path):
     if path.exists() and not path.is_dir():
         raise ParameterError(f"Output directory {str(path)!r} is a file; give a directory path.")
     return path
+
+
+#: The --neighbors option, defined once for every command that builds a neighbour graph.
+neighbors_option = click.option(
+    "--neighbors", "neighbor_method", type=click.Choice(METHODS), default="auto",
+    show_default=True, help="Neighbour-graph back end: exact (scikit-learn), approximate "
+    "(pynndescent) or auto (exact for small or low-dimensional data).",
+)
+
+
+def _parser(f):
+    """Text of the option -> the value GraphSettings checks (lists and cut-off words parsed)."""
+    meta = f.metadata["cli"]
+    flag = meta["flag"]
+    if meta["kind"] == "list":
+        cast = int if f.name == "intervals" else float
+        return lambda text: number_list(text, cast, flag)
+    if f.name == "cutoff":
+        return cutoff_value
+    return lambda text: text
+
+
+def graph_option_fields(exclude=()):
+    """The GraphSettings fields that have a command-line option, minus ``exclude``."""
+    return [f for f in fields(GraphSettings) if "cli" in f.metadata and f.name not in exclude]
+
+
+def graph_options(exclude=()):
+    """Command-line options generated from :class:`GraphSettings`, plus ``--neighbors``.
+
+    One option per field with ``cli`` metadata (flag, help, kind, choices),
+    its default taken from the dataclass, so the graph commands cannot drift
+    apart. The wrapped command receives ``settings`` (a validated
+    GraphSettings) and ``neighbor_method`` instead of the separate options.
+    ``exclude`` leaves fields to the command (the stability map's grid sets
+    ``intervals`` and ``overlap`` itself).
+    """
+    chosen = graph_option_fields(exclude)
+
+    def decorator(func):
+        @functools.wraps(func)
+        def wrapper(*args, **kwargs):
+            changes = {}
+            for f in chosen:
+                text = kwargs.pop(f"graph_{f.name}")
+                if text is not None:
+                    changes[f.name] = _parser(f)(text)
+            kwargs["settings"] = GraphSettings(**changes)
+            return func(*args, **kwargs)
+
+        for f in reversed(chosen):
+            meta = f.metadata["cli"]
+            default = f.default
+            if isinstance(default, tuple):
+                default = ",".join(map(str, default))
+            kind = meta["kind"]
+            if kind == "choice":
+                ctype = click.Choice(meta["choices"])
+            elif kind == "int":
+                ctype = int
+            elif kind == "float":
+                ctype = float
+            else:
+                ctype = str
+            if kind == "list" and default is not None:
+                default = str(default)
+            wrapper = click.option(
+                meta["flag"], f"graph_{f.name}", type=ctype, default=default,
+                show_default=default is not None, metavar=meta["metavar"], help=meta["help"],
+            )(wrapper)
+        return neighbors_option(wrapper)
+
+    return decorator

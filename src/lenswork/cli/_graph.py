@@ -4,8 +4,11 @@ from __future__ import annotations
 
 import click
 
-from ..graph import CLUSTERERS, COVER_SCALES, FRAGMENT_RULES, LAYOUTS
-from ._common import cutoff_value, input_options, number_list, output_dir
+from ..graph import LAYOUTS, build_graph, write_graph_json, write_graphml, write_memberships
+from ..lenses import compute_lenses
+from ..table import LensTable
+from ..workspace import Workspace
+from ._common import graph_options, input_options, output_dir
 
 __all__ = ["COMMANDS"]
 
@@ -34,26 +37,6 @@ def _names(text):
               "Parquet with its .json sidecar), matched to TABLE by row id.")
 @click.option("--use", "use", default=None, metavar="COLS",
               help="Columns to take from --lens-file, comma-separated (default: all of them).")
-@click.option("--intervals", default="10", show_default=True, metavar="N[,N...]",
-              help="Intervals per lens: one value, or one per lens column.")
-@click.option("--overlap", default="0.3", show_default=True, metavar="P[,P...]",
-              help="Overlap fraction in [0, 1): one value, or one per lens column.")
-@click.option("--cover-scale", type=click.Choice(COVER_SCALES), default="rank",
-              show_default=True,
-              help="Lay the intervals on ranks (equal counts) or on raw lens values.")
-@click.option("--clusterer", type=click.Choice(CLUSTERERS), default="graph", show_default=True,
-              help="graph: components of the shared k-NN graph in each element; single: "
-              "single linkage cut at the first histogram gap (small data).")
-@click.option("--cutoff", default="auto", show_default=True, metavar="auto|fence|none|FLOAT",
-              help="Longest k-NN edge kept; auto cuts only at a gap in the distance tail.")
-@click.option("--min-size", default=10, show_default=True, type=int,
-              help="Groups with fewer rows are fragments.")
-@click.option("--fragments", type=click.Choice(FRAGMENT_RULES), default="attach",
-              show_default=True,
-              help="attach: join the nearest kept cluster within two k-NN hops and the "
-              "cut-off; report: leave them out (rows in no node are listed).")
-@click.option("-k", "k", default=15, show_default=True, type=int,
-              help="Neighbours of the shared k-NN graph.")
 @click.option("--stats", "stat_columns", default=None, metavar="COLS|all",
               help="Data columns whose node mean, min and max go into the files.")
 @click.option("--color", default=None, metavar="COL",
@@ -61,32 +44,25 @@ def _names(text):
               "first lens).")
 @click.option("--layout", type=click.Choice(LAYOUTS), default="auto", show_default=True,
               help="auto: levels for one lens, lens coordinates for two, spring above.")
-@click.option("--neighbors", "neighbor_method",
-              type=click.Choice(["auto", "exact", "approximate"]), default="auto",
-              show_default=True, help="Neighbour-graph back end.")
 @click.option("-o", "--out", "out_dir", default="lenswork-graph", show_default=True,
               type=click.Path(file_okay=False),
               help="Output directory (created if missing; its graph files are replaced).")
 @click.option("--no-figure", is_flag=True, help="Skip the drawing (PNG and SVG).")
-def graph_command(cloud, seed, lens_specs, lens_file, use, intervals, overlap, cover_scale,
-                  clusterer, cutoff, min_size, fragments, k, stat_columns, color, layout,
-                  neighbor_method, out_dir, no_figure):
+@graph_options()
+def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, layout, out_dir,
+                  no_figure, settings, neighbor_method):
     """Build a Mapper graph of TABLE (or --demo) over lens columns and summarise it.
 
     The lenses come from --lens (computed here on the shared neighbour graph) or
     --lens-file (for example the selection of `lenswork screen`), or both. The
-    cover lays --intervals intervals with --overlap over each lens; each cover
+    cover lays --intervals intervals with --overlap over each lens (or, with
+    --cover ball, balls around a greedy net of the lens values); each cover
     element is clustered on the shared k-NN graph; nodes that share rows are
     joined. Prints the summary (components, loops b1 = E - V + C, branch points,
     flares, rows in no node) and writes to OUT: graph.graphml, graph.json,
     memberships.csv (row id -> node) and graph.png / graph.svg. Everything is
     computed before the first file is written.
     """
-    from ..graph import build_graph
-    from ..lenses import compute_lenses
-    from ..table import LensTable
-    from ..workspace import Workspace
-
     if not lens_specs and not lens_file:
         raise click.UsageError("Give at least one --lens or a --lens-file.")
     if use and not lens_file:
@@ -99,12 +75,7 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, intervals, overlap, c
     if lens_specs:
         columns += list(compute_lenses(ws, list(lens_specs)))
     table = LensTable(columns, cloud, random_state=seed)
-    graph = build_graph(
-        table, ws, intervals=number_list(intervals, int, "--intervals"),
-        overlap=number_list(overlap, float, "--overlap"), scale=cover_scale, clusterer=clusterer,
-        cutoff=cutoff_value(cutoff), min_size=min_size, k=k, columns=_names(stat_columns),
-        fragments=fragments,
-    )
+    graph = build_graph(table, ws, settings, columns=_names(stat_columns))
     if color is not None:
         graph.node_values(color)  # a wrong name fails here, before any file is written
     figures = {}
@@ -115,9 +86,9 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, intervals, overlap, c
                    for key in ("png", "svg")}
     click.echo(graph.summary().text())
     written = [
-        graph.write_graphml(out / OUTPUTS["graphml"]),
-        graph.write_json(out / OUTPUTS["json"]),
-        graph.write_memberships(out / OUTPUTS["members"]),
+        write_graphml(graph, out / OUTPUTS["graphml"]),
+        write_graph_json(graph, out / OUTPUTS["json"]),
+        write_memberships(graph, out / OUTPUTS["members"]),
     ]
     if figures:
         from ..plot._style import save

@@ -4,59 +4,21 @@ from __future__ import annotations
 
 import click
 
-from ._common import cutoff_value, input_options, number_list, output_dir
+from ..bootstrap import bootstrap_graph
+from ..compare import compare_views
+from ..lenses import compute_lenses
+from ..probe import stability_map
+from ..workspace import Workspace
+from ._common import graph_options, input_options, output_dir
 
 __all__ = ["COMMANDS"]
 
 
-def _graph_options(grid=False):
-    """Cover and clustering options shared by the three commands (``grid``: no single cover)."""
-    options = [
-        click.option("-k", "k", default=15, show_default=True, type=int,
-                     help="Neighbours of the shared k-NN graph used to cluster."),
-        click.option("--cutoff", default="auto", show_default=True, metavar="auto|none|FLOAT",
-                     help="Edge-length cut-off of the graph clusterer."),
-        click.option("--min-size", default=None, type=int, metavar="N",
-                     help="Smallest cluster kept as a node (default: the graph builder's)."),
-        click.option("--cover-scale", "cover_scale", type=click.Choice(["rank", "raw"]),
-                     default="rank", show_default=True,
-                     help="Lay the intervals on ranks (equal counts) or raw lens values."),
-        click.option("--neighbors", "neighbor_method",
-                     type=click.Choice(["auto", "exact", "approximate"]), default="auto",
-                     show_default=True, help="Neighbour-graph back end."),
-    ]
-    if not grid:
-        options += [
-            click.option("--intervals", default=None, metavar="N[,N...]",
-                         help="Intervals per lens column (default: the graph builder's, 10)."),
-            click.option("--overlap", default=None, metavar="P[,P...]",
-                         help="Overlap fraction in [0, 1) (default: the graph builder's, 0.3)."),
-        ]
-
-    def decorator(func):
-        for option in reversed(options):
-            func = option(func)
-        return func
-
-    return decorator
-
-
-def _settings(k, cutoff, min_size, cover_scale):
-    out = {"k": k, "cutoff": cutoff_value(cutoff, ("auto", "none")), "scale": cover_scale}
-    if min_size is not None:
-        out["min_size"] = min_size
-    return out
-
-
 def _workspace(cloud, seed, neighbor_method):
-    from ..workspace import Workspace
-
     return Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
 
 
 def _lens(ws, spec):
-    from ..lenses import compute_lenses
-
     return compute_lenses(ws, [spec])
 
 
@@ -76,9 +38,9 @@ _LENS_HELP = ("A lens as name or name:key=value,... (`lenswork lenses` lists the
               type=click.Path(file_okay=False),
               help="Output directory: stability.csv (+ .json provenance), stability.png.")
 @click.option("--no-figure", is_flag=True, help="Write the CSV table only.")
-@_graph_options(grid=True)
-def stability(cloud, seed, lens, grid_intervals, grid_overlaps, out, no_figure, k, cutoff,
-              min_size, cover_scale, neighbor_method):
+@graph_options(exclude=("intervals", "overlap"))
+def stability(cloud, seed, lens, grid_intervals, grid_overlaps, out, no_figure, settings,
+              neighbor_method):
     """Map the graph's feature counts over a grid of cover settings for one lens.
 
     For every (intervals, overlap) cell the Mapper graph of the lens is built on
@@ -86,14 +48,13 @@ def stability(cloud, seed, lens, grid_intervals, grid_overlaps, out, no_figure, 
     flares are counted. The table (one row per cell) goes to stability.csv, the
     heat maps to stability.png; the region of cells around the default setting
     (10 intervals, overlap 0.3) with the same count is outlined. Pick cover
-    settings inside such a region.
+    settings inside such a region. With --cover ball a row N of the grid is a
+    net spacing of 1/N.
     """
-    from ..probe import stability_map
-
     out = output_dir(out)
     ws = _workspace(cloud, seed, neighbor_method)
-    smap = stability_map(_lens(ws, lens), ws, intervals=grid_intervals, overlaps=grid_overlaps,
-                         **_settings(k, cutoff, min_size, cover_scale))
+    smap = stability_map(_lens(ws, lens), ws, settings=settings, intervals=grid_intervals,
+                         overlaps=grid_overlaps)
     csv_path, sidecar = smap.write(out / "stability.csv")
     click.echo(f"Stability map of {smap.lens} on {ws.n} rows "
                f"({len(smap.intervals)} x {len(smap.overlaps)} cover settings).")
@@ -139,9 +100,9 @@ def _grid_text(smap, feature):
               type=click.Path(file_okay=False),
               help="Output directory: bootstrap.csv, bootstrap.json, bootstrap.png.")
 @click.option("--no-figure", is_flag=True, help="Write the tables only.")
-@_graph_options()
-def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_figure, k, cutoff,
-              min_size, cover_scale, neighbor_method, intervals, overlap):
+@graph_options()
+def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_figure, settings,
+              neighbor_method):
     """Rebuild the graph of a lens on resampled rows; report how often each feature recurs.
 
     Each resample gets a neighbour graph of its own. For components, loops (b1),
@@ -150,15 +111,11 @@ def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_f
     that reproduce the full-data count. bootstrap.csv holds one row per
     resample; bootstrap.json the summary, the settings and any suggestion.
     """
-    from ..bootstrap import bootstrap_graph
-
     out = output_dir(out)
     ws = _workspace(cloud, seed, neighbor_method)
     result = bootstrap_graph(
-        _lens(ws, lens), ws, resamples=resamples, scheme=scheme, fraction=fraction,
-        intervals=number_list(intervals, int, "--intervals"),
-        overlap=number_list(overlap, float, "--overlap"), suggest=suggest, random_state=seed,
-        **_settings(k, cutoff, min_size, cover_scale),
+        _lens(ws, lens), ws, settings=settings, resamples=resamples, scheme=scheme,
+        fraction=fraction, suggest=suggest, random_state=seed,
     )
     if result.suggestion is not None:
         s = result.suggestion
@@ -188,9 +145,8 @@ def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_f
               type=click.Path(file_okay=False),
               help="Output directory: comparison.json, correspondence CSVs, comparison.png.")
 @click.option("--no-figure", is_flag=True, help="Write the tables only.")
-@_graph_options()
-def compare(cloud, seed, lenses, partition, match, out, no_figure, k, cutoff, min_size,
-            cover_scale, neighbor_method, intervals, overlap):
+@graph_options()
+def compare(cloud, seed, lenses, partition, match, out, no_figure, settings, neighbor_method):
     """Compare the Mapper graphs of two or more lenses over the same rows.
 
     For every pair of views it prints the adjusted Rand index and the variation
@@ -200,21 +156,12 @@ def compare(cloud, seed, lenses, partition, match, out, no_figure, k, cutoff, mi
     correspondence M_a^T M_b (rows shared by each pair of nodes); comparison.png
     draws the views side by side, each coloured by the other view's lens.
     """
-    from ..compare import compare_views
-
     if len(lenses) < 2:
         raise click.UsageError("Give at least two --lens options: one per view.")
     out = output_dir(out)
     ws = _workspace(cloud, seed, neighbor_method)
-    settings = _settings(k, cutoff, min_size, cover_scale)
-    iv = number_list(intervals, int, "--intervals")
-    ov = number_list(overlap, float, "--overlap")
-    if iv is not None:
-        settings["intervals"] = iv
-    if ov is not None:
-        settings["overlap"] = ov
     views = {spec: _lens(ws, spec) for spec in lenses}
-    result = compare_views(views, ws, partition=partition, match=match, **settings)
+    result = compare_views(views, ws, settings=settings, partition=partition, match=match)
     click.echo(result.format_text())
     written = result.write(out, figures=not no_figure)
     click.echo("wrote " + ", ".join(str(p) for p in written.values()))

@@ -3,9 +3,11 @@
 Public surface
 --------------
 Building
-    build_graph, Cover, neighbor_cutoff, node_statistics
+    build_graph, GraphSettings, grid_settings, neighbor_cutoff, node_statistics
+Covers (one table, :data:`COVERS`)
+    CoverBase, Cover (= IntervalCover), BallCover
 The graph
-    LensGraph, GraphNode, GraphEdge, GraphSummary, GraphFeature, graph_layout
+    LensGraph, GraphNode, GraphEdge, GraphSummary, GraphFeature, graph_layout, auto_layout
 Nerve
     membership_matrix, nerve_edges, nerve_triangles
 Files (:mod:`lenswork.graph.io`)
@@ -14,7 +16,8 @@ Files (:mod:`lenswork.graph.io`)
 =============  ==========================================================
 module         concept
 =============  ==========================================================
-``_cover``     overlapping intervals per lens and their product
+``_settings``  GraphSettings: every build setting, validated once
+``_cover``     the cover interface, the interval product cover, the ball cover
 ``_cluster``   clusters of each cover element; cut-off and fragment rules
 ``_nerve``     membership matrix, edges from ``M^T M``, triangles
 ``_lensgraph`` the LensGraph object
@@ -28,11 +31,12 @@ module         concept
 from __future__ import annotations
 
 from ._build import build_graph, node_statistics
-from ._cluster import CLUSTERERS, FRAGMENT_RULES, neighbor_cutoff
-from ._cover import COVER_SCALES, Cover
-from ._layout import LAYOUTS, graph_layout
+from ._cluster import CLUSTERERS, CUTOFF_WORDS, FRAGMENT_RULES, neighbor_cutoff
+from ._cover import COVER_SCALES, COVERS, BallCover, Cover, CoverBase, IntervalCover
+from ._layout import LAYOUTS, auto_layout, graph_layout
 from ._lensgraph import GraphEdge, GraphNode, LensGraph
 from ._nerve import membership_matrix, nerve_edges, nerve_triangles
+from ._settings import GraphSettings, grid_settings
 from ._summary import GraphFeature, GraphSummary
 from .io import (
     read_graph_json,
@@ -44,17 +48,25 @@ from .io import (
 
 __all__ = [
     "CLUSTERERS",
+    "COVERS",
     "COVER_SCALES",
+    "CUTOFF_WORDS",
     "FRAGMENT_RULES",
     "LAYOUTS",
+    "BallCover",
     "Cover",
+    "CoverBase",
     "GraphEdge",
     "GraphFeature",
     "GraphNode",
+    "GraphSettings",
     "GraphSummary",
+    "IntervalCover",
     "LensGraph",
+    "auto_layout",
     "build_graph",
     "graph_layout",
+    "grid_settings",
     "membership_matrix",
     "neighbor_cutoff",
     "nerve_edges",

@@ -6,13 +6,13 @@ import numpy as np
 
 from .. import _progress
 from .._errors import ParameterError
-from .._validation import check_choice, check_int
+from .._version import __version__
 from ..table import as_lens_table
-from ..workspace import METRICS, Workspace
-from ._cluster import FRAGMENT_RULES, check_clusterer, cluster_elements, clusterer_name
-from ._cover import Cover
+from ..workspace import Workspace
+from ._cluster import cluster_elements, clusterer_name
 from ._lensgraph import LensGraph
 from ._nerve import membership_matrix, nerve_edges
+from ._settings import GraphSettings
 
 __all__ = ["build_graph", "node_statistics"]
 
@@ -95,9 +95,7 @@ def node_statistics(membership, columns):
     return out
 
 
-def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", clusterer="graph",
-                cutoff="auto", min_size=10, k=15, columns=None, metric="euclidean",
-                fragments="attach", gap_bins=10, random_state=None):
+def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
     """Build a Mapper graph (Mapper, 2007) from lens columns on the shared neighbour graph.
 
     Parameters
@@ -111,6 +109,16 @@ def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", c
     workspace : Workspace or array-like of shape (n_samples, n_features)
         The rows; its shared neighbour graph ``workspace.neighbors(k)`` does
         the clustering.
+    settings : GraphSettings or dict, optional
+        Every graph setting (default ``GraphSettings()``); the keywords below
+        are overrides applied with ``settings.replace(...)``.
+    columns : list of str or "all", optional
+        Data columns (features or numeric passthrough) whose node mean, min and
+        max are kept beside the lenses'.
+    **overrides
+        Any :class:`GraphSettings` field, for example:
+    cover : {"interval", "ball"} or cover object, default="interval"
+        See :class:`GraphSettings` and :data:`lenswork.graph.COVERS`.
     intervals : int or sequence of int, default=10
         Intervals per lens (see :class:`Cover`).
     overlap : float or sequence of float, default=0.3
@@ -130,9 +138,6 @@ def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", c
         (measured on Gaussian samples; with min_size = 5 they add false loops).
     k : int, default=15
         Neighbours per row of the shared graph.
-    columns : list of str or "all", optional
-        Data columns (features or numeric passthrough) whose node mean, min and
-        max are kept beside the lenses'.
     metric : {"euclidean", "manhattan", "chebyshev", "cosine"}, default="euclidean"
     fragments : {"attach", "report"}, default="attach"
         Attach each fragment to the nearest kept cluster of its element within
@@ -159,7 +164,8 @@ def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", c
     Steps and cost, for n rows, P (point, element) pairs and V nodes:
 
     1. cover: ``first = floor(t - r) + 1, last = floor(t)`` per point and lens,
-       O(n m) (O(n log n) for ranks);
+       O(n m) (O(n log n) for ranks); the ball cover: a greedy net and one
+       KD-tree ball query per centre, O(n log n + P);
     2. clusters: per element, connected components of the shared neighbour
        graph restricted to the element and to edges <= cut-off, O(k P);
     3. nerve: edges from the one sparse product ``M^T M``, O(sum of squared
@@ -185,48 +191,43 @@ def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", c
     >>> s.n_components, s.loops
     (1, 1)
     """
+    base = GraphSettings.coerce(settings)
+    settings = base.replace(**overrides) if overrides else base
     ws = workspace if isinstance(workspace, Workspace) else Workspace(workspace)
     n = ws.n
-    seed = ws.random_state if random_state is None else random_state
-    metric = check_choice("metric", metric, METRICS, context="build_graph")
-    k = check_int("k", k, lo=1, context="build_graph")
-    clusterer = check_clusterer(clusterer)
-    fragments = check_choice("fragments", fragments, FRAGMENT_RULES, context="build_graph")
-    min_size = check_int("min_size", min_size, lo=1, context="build_graph")
-    gap_bins = check_int("gap_bins", gap_bins, lo=2, context="build_graph")
+    seed = ws.random_state if settings.random_state is None else settings.random_state
     table = as_lens_table(lenses, ws, what="build_graph")
     names = table.names
     values = np.asarray(table.values(), dtype=np.float64)
     lens_prov = [c.provenance() for c in table]
     data = _data_columns(ws.cloud, columns, names)
+    settings = settings.resolve(n, len(names))
+    clusterer, k, metric = settings.clusterer, settings.k, settings.metric
     with _progress.step(f"graph: cover of {', '.join(names)}"):
-        cover = Cover(intervals=intervals, overlap=overlap, scale=scale).fit(values, names)
+        cover = settings.make_cover().fit(values, names)
         rows, elements = cover.incidence(order=cover.values_[:, 0])
-    uses_graph = (isinstance(clusterer, str) and clusterer == "graph") or fragments == "attach"
+    uses_graph = (isinstance(clusterer, str) and clusterer == "graph") \
+        or settings.fragments == "attach"
     if uses_graph:
         ws.neighbors(k, metric)  # computed (or found in the cache) outside the timed steps below
     with _progress.step(f"graph: clusters of {cover.n_elements} cover elements"):
-        result = cluster_elements(
-            ws, rows, elements, clusterer=clusterer, cutoff=cutoff, k=k, metric=metric,
-            min_size=min_size, fragments=fragments, gap_bins=gap_bins, random_state=seed,
-        )
+        result = cluster_elements(ws, rows, elements, settings, seed)
     V = result.node_element.size
     with _progress.step(f"graph: nerve of {V} nodes"):
         M = membership_matrix(result.rows, result.nodes, n, V)
         edges, shared = nerve_edges(M)
         stats = node_statistics(M, {**dict(zip(names, values.T)), **data})
     used = result.cutoff
+    cutoff, min_size = settings.cutoff, settings.min_size
     params = {
         "lens_columns": names,
         "cover": cover.params(),
         "clusterer": clusterer_name(clusterer),
         "cutoff": cutoff if isinstance(cutoff, str) else float(cutoff),
         "cutoff_used": None if (not np.isfinite(used)) else float(used),
-        "min_size": min_size, "k": k, "metric": metric, "fragments": fragments,
-        "gap_bins": gap_bins, "random_state": seed, "columns": list(data),
+        "min_size": min_size, "k": k, "metric": metric, "fragments": settings.fragments,
+        "gap_bins": settings.gap_bins, "random_state": seed, "columns": list(data),
     }
-    from .. import __version__
-
     provenance = {
         "lenswork_version": __version__,
         "input": ws.cloud.provenance,
@@ -238,6 +239,7 @@ def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", c
         ],
         "random_state": seed,
         "lenses": lens_prov,
+        "graph_settings": settings.to_dict(),
     }
     if uses_graph:
         g = ws.neighbors(k, metric)
@@ -246,8 +248,9 @@ def build_graph(lenses, workspace, *, intervals=10, overlap=0.3, scale="rank", c
             "info": {key: v for key, v in g.info.items() if key != "seconds"},
         }
     graph = LensGraph(
-        M, cover.element_index(result.node_element).reshape(V, -1), edges, shared, stats,
-        lens_columns=names, data_columns=list(data), row_ids=ws.cloud.ids,
+        M, cover.element_ids(result.node_element), edges, shared, stats,
+        node_levels=cover.levels(result.node_element), lens_columns=names,
+        data_columns=list(data), row_ids=ws.cloud.ids,
         id_name=ws.cloud.id_name, params=params, provenance=provenance, fragments=result.report,
     )
     lost = graph.unassigned.size

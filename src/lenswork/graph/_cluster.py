@@ -1,6 +1,7 @@
 """Clustering of each cover element's points, by default on the shared neighbour graph.
 
-Three clusterers, one table (:data:`CLUSTERERS`) for validation and dispatch:
+Two named rules and any scikit-learn clusterer; one table (:data:`CLUSTERERS`, name ->
+:class:`ClusterRule`) for validation, dispatch and the CLI:
 
 ``"graph"`` (default)
     The clusters of an element are the connected components of the shared
@@ -61,17 +62,27 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .._errors import ParameterError
-from .._validation import check_choice, check_float, check_int
+from .._validation import check_choice, check_float
 
-__all__ = ["CLUSTERERS", "FRAGMENT_RULES", "neighbor_cutoff"]
+__all__ = [
+    "CLUSTERERS",
+    "CUTOFF_WORDS",
+    "FRAGMENT_RULES",
+    "ClusterRule",
+    "ElementContext",
+    "check_clusterer",
+    "check_cutoff",
+    "cluster_elements",
+    "clusterer_name",
+    "neighbor_cutoff",
+]
 
-#: Clusterer names accepted as strings (an object with ``fit_predict`` is accepted too).
-CLUSTERERS = ("graph", "single")
 #: What happens to groups smaller than ``min_size``.
 FRAGMENT_RULES = ("attach", "report")
 #: Largest element the single-linkage clusterer accepts (it holds all pairwise distances).
 SINGLE_MAX_POINTS = 20_000
-_CUTOFF_WORDS = ("auto", "fence", "none")
+#: Cut-off rules by name (a non-negative number is accepted too).
+CUTOFF_WORDS = ("auto", "fence", "none")
 #: Bins of the cut-off gap rule (log distances between their median and maximum).
 CUTOFF_GAP_BINS = 10
 _SCIPY_METRIC = {"euclidean": "euclidean", "manhattan": "cityblock", "chebyshev": "chebyshev",
@@ -152,15 +163,28 @@ def neighbor_cutoff(workspace, k=15, cutoff="auto", metric="euclidean"):
     >>> neighbor_cutoff(ws, k=2, cutoff="none")
     inf
     """
-    if isinstance(cutoff, str) and cutoff.strip().lower() in _CUTOFF_WORDS:
-        word = cutoff.strip().lower()
-        if word == "none":
+    cutoff = check_cutoff(cutoff)
+    if isinstance(cutoff, str):
+        if cutoff == "none":
             return float("inf")
         graph = workspace.neighbors(k, metric)
-        rule = _CUTOFF_RULES[word]
+        rule = _CUTOFF_RULES[cutoff]
         return workspace.cached(
-            ("graph_cutoff", word, graph.metric, graph.k), lambda: rule(graph.distances)
+            ("graph_cutoff", cutoff, graph.metric, graph.k), lambda: rule(graph.distances)
         )
+    return cutoff
+
+
+def check_cutoff(cutoff):
+    """A cut-off rule name from :data:`CUTOFF_WORDS` or a non-negative float, else ParameterError.
+
+    Examples
+    --------
+    >>> check_cutoff(" Fence "), check_cutoff("0.5")
+    ('fence', 0.5)
+    """
+    if isinstance(cutoff, str) and cutoff.strip().lower() in CUTOFF_WORDS:
+        return cutoff.strip().lower()
     try:
         return check_float("cutoff", cutoff, lo=0.0, context="build_graph")
     except ParameterError:
@@ -314,10 +338,59 @@ def _estimator_labels(estimator, Xe, seed, element):
     return np.unique(labels, return_inverse=True)[1].astype(np.int64)
 
 
+@dataclass(frozen=True)
+class ClusterRule:
+    """One named clustering rule: ``labels(pts, ctx)`` -> int64 labels 0..g-1 of the points.
+
+    ``ctx`` is a :class:`ElementContext`; ``uses_cut_graph`` asks the caller to
+    prepare ``ctx.cut_indices`` (the neighbour lists with edges above the
+    cut-off removed).
+    """
+
+    labels: object
+    uses_cut_graph: bool = False
+    summary: str = ""
+
+
+@dataclass
+class ElementContext:
+    """What a clustering rule may read about the element it labels."""
+
+    X: np.ndarray
+    loc: np.ndarray
+    cut_indices: np.ndarray | None
+    settings: object
+    element: int
+
+
+def _graph_rule(pts, ctx):
+    return _graph_labels(ctx.cut_indices, pts, ctx.loc)
+
+
+def _single_rule(pts, ctx):
+    if pts.size > SINGLE_MAX_POINTS:
+        raise ParameterError(
+            f"clusterer='single' holds every pairwise distance of an element; cover "
+            f"element {ctx.element} has {pts.size:,} points (limit {SINGLE_MAX_POINTS:,}). Use "
+            f"clusterer='graph' or more intervals."
+        )
+    return _gap_labels(ctx.X[pts], ctx.settings.metric, ctx.settings.gap_bins)
+
+
+#: Clustering rules by name: one table for validation, dispatch and the CLI's choices (an
+#: object with ``fit_predict`` is accepted too, see :func:`check_clusterer`).
+CLUSTERERS = {
+    "graph": ClusterRule(_graph_rule, uses_cut_graph=True,
+                         summary="components of the shared k-NN graph inside the element"),
+    "single": ClusterRule(_single_rule,
+                          summary="single linkage cut at the first empty histogram bin"),
+}
+
+
 def check_clusterer(clusterer):
     """Return a clusterer name from :data:`CLUSTERERS` or an object with ``fit_predict``."""
     if isinstance(clusterer, str):
-        return check_choice("clusterer", clusterer, CLUSTERERS, context="build_graph")
+        return check_choice("clusterer", clusterer, tuple(CLUSTERERS), context="build_graph")
     if callable(getattr(clusterer, "fit_predict", None)) and hasattr(clusterer, "get_params"):
         return clusterer
     raise ParameterError(
@@ -326,9 +399,7 @@ def check_clusterer(clusterer):
     )
 
 
-def cluster_elements(workspace, rows, elements, *, clusterer="graph", cutoff="auto", k=15,
-                     metric="euclidean", min_size=10, fragments="attach", gap_bins=10,
-                     random_state=0):
+def cluster_elements(workspace, rows, elements, settings, random_state=None):
     """Cluster the points of every cover element.
 
     Parameters
@@ -337,18 +408,14 @@ def cluster_elements(workspace, rows, elements, *, clusterer="graph", cutoff="au
     rows, elements : ndarray of int64
         The cover's (point, element) pairs, grouped by element
         (:meth:`Cover.incidence`).
-    clusterer : {"graph", "single"} or estimator, default="graph"
-    cutoff : float, "auto" or "none", default="auto"
-        See :func:`neighbor_cutoff`.
-    k : int, default=15
-    metric : str, default="euclidean"
-    min_size : int, default=10
-        Groups with fewer points are fragments.
-    fragments : {"attach", "report"}, default="attach"
-    gap_bins : int, default=10
-        Histogram bins of the single-linkage gap rule.
-    random_state : int, default=0
-        Seed given to scikit-learn clusterers whose ``random_state`` is unset.
+    settings : GraphSettings
+        Already validated (and resolved): ``clusterer``, ``cutoff``, ``k``,
+        ``metric``, ``min_size``, ``fragments`` and ``gap_bins`` are read as
+        they are.
+    random_state : int or Generator, optional
+        Seed given to scikit-learn clusterers whose ``random_state`` is unset
+        (default ``settings.random_state``; build_graph passes the workspace's
+        seed when that is None).
 
     Returns
     -------
@@ -359,14 +426,13 @@ def cluster_elements(workspace, rows, elements, *, clusterer="graph", cutoff="au
     Cost with the graph clusterer: O(k P) for P (point, element) pairs, plus
     O(F k^2 d) for F fragment points when attaching.
     """
-    clusterer = check_clusterer(clusterer)
-    k = check_int("k", k, lo=1, context="build_graph")
-    min_size = check_int("min_size", min_size, lo=1, context="build_graph")
-    fragments = check_choice("fragments", fragments, FRAGMENT_RULES, context="build_graph")
-    gap_bins = check_int("gap_bins", gap_bins, lo=2, context="build_graph")
+    clusterer, cutoff, k = settings.clusterer, settings.cutoff, settings.k
+    metric, min_size, fragments = settings.metric, settings.min_size, settings.fragments
+    random_state = settings.random_state if random_state is None else random_state
     n = workspace.n
     X = workspace.X
-    by_graph = isinstance(clusterer, str) and clusterer == "graph"
+    rule = CLUSTERERS[clusterer] if isinstance(clusterer, str) else None
+    by_graph = rule is not None and rule.uses_cut_graph
     needs_graph = by_graph or fragments == "attach"
     cut = neighbor_cutoff(workspace, k, cutoff, metric) if needs_graph else float("nan")
     cut_idx = _cut_indices(workspace, k, metric, cut) if by_graph else None
@@ -386,16 +452,8 @@ def cluster_elements(workspace, rows, elements, *, clusterer="graph", cutoff="au
         report["elements"] += 1
         loc[pts] = np.arange(m, dtype=loc.dtype)
         try:
-            if by_graph:
-                lab = _graph_labels(cut_idx, pts, loc)
-            elif isinstance(clusterer, str):  # "single"
-                if m > SINGLE_MAX_POINTS:
-                    raise ParameterError(
-                        f"clusterer='single' holds every pairwise distance of an element; cover "
-                        f"element {element} has {m:,} points (limit {SINGLE_MAX_POINTS:,}). Use "
-                        f"clusterer='graph' or more intervals."
-                    )
-                lab = _gap_labels(X[pts], metric, gap_bins)
+            if rule is not None:
+                lab = rule.labels(pts, ElementContext(X, loc, cut_idx, settings, element))
             else:
                 lab = _estimator_labels(clusterer, X[pts], random_state, element)
             sizes = np.bincount(lab)

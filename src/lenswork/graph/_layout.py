@@ -3,10 +3,12 @@
 ``"level"`` (one lens)
     The vertical position of a node is its mean lens value, so the drawing
     reads like the Reeb graph the Mapper graph approximates. Nodes of one
-    cover interval form a level; their left-to-right order is chosen by
-    barycentre sweeps (each node moves to the mean position of its neighbours
-    in the levels already placed, downwards then upwards, keeping the order
-    with the fewest edge crossings), then the horizontal positions are
+    cover element form a level (levels ordered by the element's position on
+    the first lens, ``LensGraph.node_levels``: the interval, or the ball
+    centre); their left-to-right order is chosen by barycentre sweeps (each
+    node moves to the mean position of its neighbours in the levels already
+    placed, downwards then upwards, keeping the order with the fewest edge
+    crossings), then the horizontal positions are
     straightened towards the neighbours' mean with a spacing of at least 1.
 ``"lens"`` (two lenses)
     The two lens means of each node are its coordinates.
@@ -28,14 +30,32 @@ import numpy as np
 from scipy.sparse.csgraph import connected_components
 
 from .._validation import check_choice
-from ._summary import _neighbours
+from ._summary import neighbour_lists
 
-__all__ = ["LAYOUTS", "graph_layout"]
+__all__ = ["LAYOUTS", "auto_layout", "graph_layout"]
 
 LAYOUTS = ("auto", "level", "lens", "spring", "spectral")
 _SPRING_MAX_NODES = 1500
 _DENSE_MAX_NODES = 2000
 _SWEEPS = 8
+
+
+def auto_layout(n_lenses, n_nodes):
+    """The layout ``"auto"`` stands for: the one rule, used by graph_layout and the plots.
+
+    ``"level"`` for one lens, ``"lens"`` for two, ``"spring"`` above (``"spectral"``
+    beyond 1,500 nodes, where the spring forces' O(V^2) steps get slow).
+
+    Examples
+    --------
+    >>> auto_layout(1, 10), auto_layout(2, 10), auto_layout(3, 10), auto_layout(3, 5000)
+    ('level', 'lens', 'spring', 'spectral')
+    """
+    if n_lenses == 1:
+        return "level"
+    if n_lenses == 2:
+        return "lens"
+    return "spring" if n_nodes <= _SPRING_MAX_NODES else "spectral"
 
 
 def graph_layout(graph, method="auto", random_state=0):
@@ -73,12 +93,7 @@ def graph_layout(graph, method="auto", random_state=0):
     method = check_choice("method", method, LAYOUTS, context="graph_layout")
     m = len(graph.lens_columns)
     if method == "auto":
-        if m == 1:
-            method = "level"
-        elif m == 2:
-            method = "lens"
-        else:
-            method = "spring" if graph.n_nodes <= _SPRING_MAX_NODES else "spectral"
+        method = auto_layout(m, graph.n_nodes)
     V = graph.n_nodes
     if V == 0:
         return np.zeros((0, 2))
@@ -86,14 +101,16 @@ def graph_layout(graph, method="auto", random_state=0):
         x = graph.node_stats[graph.lens_columns[0]][:, 0]
         y = graph.node_stats[graph.lens_columns[1]][:, 0] if m >= 2 else np.zeros(V)
         return np.column_stack([x, y])
-    nb = _neighbours(V, graph.edge_index)
+    nb = neighbour_lists(V, graph.edge_index)
     A = graph.adjacency()
     n_comp, labels = connected_components(A, directed=False)
     comps = [np.flatnonzero(labels == c) for c in range(n_comp)]
     comps.sort(key=lambda c: (-c.size, c[0]))
     pos = np.zeros((V, 2))
     if method == "level":
-        level = graph.node_elements[:, 0]
+        # the discrete level of a node: the rank of its element's first-lens position
+        # (interval index, or ball centre), so nodes of one element share a level
+        level = np.unique(graph.node_levels[:, 0], return_inverse=True)[1].ravel()
         y = graph.node_stats[graph.lens_columns[0]][:, 0]
         offset = 0.0
         for nodes in comps:

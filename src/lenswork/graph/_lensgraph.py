@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass
 from functools import cached_property
 
@@ -10,7 +9,10 @@ import numpy as np
 import scipy.sparse as sp
 
 from .._errors import ParameterError
+from .._json import dumps, plain
+from ._layout import graph_layout
 from ._nerve import jaccard_weights, nerve_triangles
+from ._summary import summarize
 
 __all__ = ["GraphEdge", "GraphNode", "LensGraph"]
 
@@ -26,7 +28,8 @@ class GraphNode:
     ----------
     id : int
     element : tuple of int
-        Interval index per lens of the cover element the node came from.
+        Id of the cover element the node came from (the cover's own: interval
+        index per lens for the interval cover, the ball number for the ball cover).
     size : int
         Number of member rows.
     members : ndarray of int64
@@ -53,21 +56,6 @@ class GraphEdge:
     jaccard: float
 
 
-def _plain(value):
-    """Plain JSON types: tuples to lists, numpy scalars to Python, NaN and inf to None."""
-    if isinstance(value, dict):
-        return {str(k): _plain(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_plain(v) for v in value]
-    if isinstance(value, np.ndarray):
-        return _plain(value.tolist())
-    if isinstance(value, np.generic):
-        value = value.item()
-    if isinstance(value, float) and not np.isfinite(value):
-        return None
-    return value
-
-
 class LensGraph:
     """A Mapper-style graph (Mapper, 2007) built over the rows of one point cloud.
 
@@ -77,8 +65,9 @@ class LensGraph:
     ----------
     membership : scipy.sparse matrix of shape (n_rows, n_nodes)
         ``1`` where a row belongs to a node.
-    node_elements : array-like of shape (n_nodes, n_lenses), int
-        Cover element (interval index per lens) of each node.
+    node_elements : array-like of shape (n_nodes, width), int
+        Cover element id of each node (``Cover.element_ids``; the width is the
+        cover's: one interval index per lens, or one ball number).
     edges : array-like of shape (n_edges, 2), int
         Node pairs ``a < b``.
     edge_shared : array-like of shape (n_edges,), int
@@ -91,6 +80,10 @@ class LensGraph:
     id_name : str, default="row"
     params, provenance, fragments : dict, optional
         How the graph was built; stored as plain JSON types.
+    node_levels : array-like of shape (n_nodes, n_lenses), optional
+        Position of each node's cover element per lens (``Cover.levels``):
+        the level layout orders nodes by the first column. Default: the
+        element ids themselves (interval indices).
 
     Attributes
     ----------
@@ -122,7 +115,7 @@ class LensGraph:
 
     def __init__(self, membership, node_elements, edges, edge_shared, node_stats, *,
                  lens_columns, data_columns=(), row_ids=None, id_name="row", params=None,
-                 provenance=None, fragments=None):
+                 provenance=None, fragments=None, node_levels=None):
         M = sp.csr_matrix(membership, dtype=np.int8)
         M.sort_indices()
         self.membership = M
@@ -154,9 +147,11 @@ class LensGraph:
                 f"for {n_rows} rows."
             )
         self.id_name = str(id_name)
-        self.params = _plain(dict(params or {}))
-        self.provenance = _plain(dict(provenance or {}))
-        self.fragments = _plain(dict(fragments or {}))
+        self.params = plain(dict(params or {}))
+        self.provenance = plain(dict(provenance or {}))
+        self.fragments = plain(dict(fragments or {}))
+        self._levels = None if node_levels is None else \
+            np.asarray(node_levels, dtype=np.float64).reshape(n_nodes, -1)
         self.node_sizes = np.asarray(M.sum(axis=0)).ravel().astype(np.int64)
         self.edge_jaccard = jaccard_weights(self.edge_index, self.edge_shared, self.node_sizes)
         self._summary = None
@@ -174,6 +169,13 @@ class LensGraph:
     @property
     def n_edges(self):
         return self.edge_index.shape[0]
+
+    @property
+    def node_levels(self):
+        """Position per lens of each node's cover element, shape (n_nodes, n_lenses) or the ids."""
+        if self._levels is not None:
+            return self._levels
+        return self.node_elements.astype(np.float64)
 
     @cached_property
     def _csc(self):
@@ -264,8 +266,6 @@ class LensGraph:
         GraphSummary
         """
         if self._summary is None:
-            from ._summary import summarize
-
             self._summary = summarize(self)
         return self._summary
 
@@ -275,34 +275,10 @@ class LensGraph:
 
     def layout(self, method="auto", random_state=0):
         """Node positions, shape (n_nodes, 2); see :func:`lenswork.graph.graph_layout`."""
-        from ._layout import graph_layout
-
         return graph_layout(self, method=method, random_state=random_state)
 
-    def draw(self, path=None, **kwargs):
-        """Draw the graph (see :func:`lenswork.plot.draw_graph`)."""
-        from ..plot._graph import draw_graph
-
-        return draw_graph(self, path=path, **kwargs)
-
-    # ---------------------------------------------------------------- output
-    def write_graphml(self, path):
-        """Write GraphML (typed node and edge attributes) atomically."""
-        from .io import write_graphml
-
-        return write_graphml(self, path)
-
-    def write_json(self, path):
-        """Write the JSON form (nodes, edges, membership, params, provenance) atomically."""
-        from .io import write_graph_json
-
-        return write_graph_json(self, path)
-
-    def write_memberships(self, path):
-        """Write a CSV of row id -> node, one line per membership, atomically."""
-        from .io import write_memberships
-
-        return write_memberships(self, path)
+    # Writers (write_graphml, write_json, write_memberships) and draw are attached by
+    # lenswork._graph_methods, a module above both this one and its writers and plots.
 
     # ---------------------------------------------------------------- identity
     def __eq__(self, other):
@@ -315,19 +291,18 @@ class LensGraph:
             and np.array_equal(a.indptr, b.indptr)
             and np.array_equal(a.indices, b.indices)
             and np.array_equal(self.node_elements, other.node_elements)
+            and np.array_equal(self.node_levels, other.node_levels)
             and np.array_equal(self.edge_index, other.edge_index)
             and np.array_equal(self.edge_shared, other.edge_shared)
             and self.lens_columns == other.lens_columns
             and self.data_columns == other.data_columns
             and self.node_stats.keys() == other.node_stats.keys()
             and all(np.array_equal(v, other.node_stats[k]) for k, v in self.node_stats.items())
-            and _plain(list(self.row_ids)) == _plain(list(other.row_ids))
+            and plain(list(self.row_ids)) == plain(list(other.row_ids))
             and self.id_name == other.id_name
-            and json.dumps(self.params, sort_keys=True) == json.dumps(other.params, sort_keys=True)
-            and json.dumps(self.provenance, sort_keys=True)
-            == json.dumps(other.provenance, sort_keys=True)
-            and json.dumps(self.fragments, sort_keys=True)
-            == json.dumps(other.fragments, sort_keys=True)
+            and dumps(self.params, sort_keys=True) == dumps(other.params, sort_keys=True)
+            and dumps(self.provenance, sort_keys=True) == dumps(other.provenance, sort_keys=True)
+            and dumps(self.fragments, sort_keys=True) == dumps(other.fragments, sort_keys=True)
         )
 
     __hash__ = None

@@ -36,7 +36,9 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
-__all__ = ["GraphFeature", "GraphSummary", "summarize"]
+from ._nerve import nerve_triangles
+
+__all__ = ["GraphFeature", "GraphSummary", "neighbour_lists", "summarize"]
 
 
 @dataclass(frozen=True)
@@ -157,7 +159,8 @@ class GraphSummary:
         return self.text()
 
 
-def _neighbours(n_nodes, edges):
+def neighbour_lists(n_nodes, edges):
+    """The neighbours of every node as lists, from an (n_edges, 2) edge array."""
     nb = [[] for _ in range(n_nodes)]
     for a, b in edges.tolist():
         nb[a].append(b)
@@ -228,7 +231,7 @@ def _structure(graph):
     """Components, degrees and neighbour lists (shared by the counts and the features)."""
     A = graph.adjacency()
     n_comp, labels = connected_components(A, directed=False)
-    return int(n_comp), labels, graph.degrees, _neighbours(graph.n_nodes, graph.edge_index)
+    return int(n_comp), labels, graph.degrees, neighbour_lists(graph.n_nodes, graph.edge_index)
 
 
 def _row_counter(graph):
@@ -285,8 +288,6 @@ _MAX_BOUNDARY = 4_000_000
 
 def _holes(graph, loops):
     """b1 of the nerve's 2-skeleton: loops minus the rank of the triangle boundary map."""
-    from ._nerve import nerve_triangles
-
     if loops == 0:
         return 0
     tri, _ = nerve_triangles(graph.membership)

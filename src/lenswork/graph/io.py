@@ -6,14 +6,16 @@ success (:mod:`lenswork._io`), so a failure never leaves a half-written file.
 GraphML
     The open GraphML standard, written with :mod:`xml.etree.ElementTree`.
     Nodes ``n0, n1, ...`` carry ``size`` (long), ``element`` (string, the
-    interval index per lens joined by commas) and ``<column>_mean``,
-    ``<column>_min``, ``<column>_max`` (double) for every lens and data column;
+    cover element id joined by commas: the interval index per lens, or the
+    ball number), ``level`` (string, the element's position per lens joined
+    by commas) and ``<column>_mean``, ``<column>_min``, ``<column>_max``
+    (double) for every lens and data column;
     edges carry ``shared`` (long) and ``jaccard`` (double); the graph carries
     ``lens_columns``, ``params`` and ``provenance`` as JSON strings and
     ``n_rows``, ``n_unassigned`` (long).
 JSON
     ``{"format": "lenswork-graph", "format_version": 1, "id_name", "row_ids",
-    "lens_columns", "data_columns", "nodes": [{"id", "element", "size", "stats"}],
+    "lens_columns", "data_columns", "nodes": [{"id", "element", "level", "size", "stats"}],
     "edges": [{"source", "target", "shared", "jaccard"}], "membership": [rows of
     node 0, rows of node 1, ...], "unassigned", "fragments", "params",
     "provenance"}``; rows are 0-based positions, ``row_ids[row]`` is the id.
@@ -41,7 +43,9 @@ import numpy as np
 
 from .._errors import InputError
 from .._io import atomic_path, write_text
-from ._lensgraph import STATS, LensGraph, _plain
+from .._json import dumps, plain
+from ..table import LensTable
+from ._lensgraph import STATS, LensGraph
 
 __all__ = [
     "read_graph_json",
@@ -56,10 +60,6 @@ FORMAT_VERSION = 1
 _GRAPHML_NS = "http://graphml.graphdrawing.org/xmlns"
 _XSI_NS = "http://www.w3.org/2001/XMLSchema-instance"
 _SCHEMA = f"{_GRAPHML_NS} {_GRAPHML_NS}/1.0/graphml.xsd"
-
-
-def _num(x):
-    return repr(float(x))
 
 
 def write_graphml(graph, path):
@@ -101,6 +101,7 @@ def write_graphml(graph, path):
         key("graph", name, kind)
     key("node", "size", "long")
     key("node", "element", "string")
+    key("node", "level", "string")
     names = (*graph.lens_columns, *graph.data_columns)
     for name in names:
         for stat in STATS:
@@ -113,23 +114,25 @@ def write_graphml(graph, path):
     def data(parent, domain, name, text):
         ET.SubElement(parent, "data", {"key": keys[(domain, name)]}).text = text
 
-    data(g, "graph", "lens_columns", json.dumps(list(graph.lens_columns)))
-    data(g, "graph", "params", json.dumps(graph.params, sort_keys=True))
-    data(g, "graph", "provenance", json.dumps(graph.provenance, sort_keys=True))
+    data(g, "graph", "lens_columns", dumps(list(graph.lens_columns), indent=None))
+    data(g, "graph", "params", dumps(graph.params, indent=None, sort_keys=True))
+    data(g, "graph", "provenance", dumps(graph.provenance, indent=None, sort_keys=True))
+    levels = graph.node_levels
     data(g, "graph", "n_rows", str(graph.n_rows))
     data(g, "graph", "n_unassigned", str(int(graph.unassigned.size)))
     for a in range(graph.n_nodes):
         node = ET.SubElement(g, "node", {"id": f"n{a}"})
         data(node, "node", "size", str(int(graph.node_sizes[a])))
         data(node, "node", "element", ",".join(str(int(i)) for i in graph.node_elements[a]))
+        data(node, "node", "level", ",".join(repr(float(v)) for v in levels[a]))
         for name in names:
             for j, stat in enumerate(STATS):
-                data(node, "node", f"{name}_{stat}", _num(graph.node_stats[name][a, j]))
+                data(node, "node", f"{name}_{stat}", repr(float(graph.node_stats[name][a, j])))
     for e, ((a, b), s, w) in enumerate(zip(graph.edge_index, graph.edge_shared,
                                            graph.edge_jaccard)):
         edge = ET.SubElement(g, "edge", {"id": f"e{e}", "source": f"n{a}", "target": f"n{b}"})
         data(edge, "edge", "shared", str(int(s)))
-        data(edge, "edge", "jaccard", _num(w))
+        data(edge, "edge", "jaccard", repr(float(w)))
     tree = ET.ElementTree(root)
     ET.indent(tree, space=" ")
     path = Path(path)
@@ -143,10 +146,12 @@ def graph_to_dict(graph):
     csc = graph.membership.tocsc()
     csc.sort_indices()
     names = (*graph.lens_columns, *graph.data_columns)
+    levels = graph.node_levels
     nodes = [
         {
             "id": a,
             "element": [int(i) for i in graph.node_elements[a]],
+            "level": [float(v) for v in levels[a]],
             "size": int(graph.node_sizes[a]),
             "stats": {
                 name: dict(zip(STATS, (float(x) for x in graph.node_stats[name][a])))
@@ -162,7 +167,7 @@ def graph_to_dict(graph):
     return {
         "format": FORMAT, "format_version": FORMAT_VERSION,
         "n_rows": graph.n_rows, "id_name": graph.id_name,
-        "row_ids": _plain(list(graph.row_ids)),
+        "row_ids": plain(list(graph.row_ids)),
         "lens_columns": list(graph.lens_columns), "data_columns": list(graph.data_columns),
         "nodes": nodes, "edges": edges,
         "membership": [csc.indices[csc.indptr[a]:csc.indptr[a + 1]].tolist()
@@ -185,7 +190,7 @@ def write_graph_json(graph, path):
     >>> doc["format"], doc["membership"]
     ('lenswork-graph', [[0], [1]])
     """
-    text = json.dumps(graph_to_dict(graph), separators=(",", ":"), allow_nan=False)
+    text = dumps(graph_to_dict(graph), indent=None)
     path = Path(path)
     write_text(path, text + "\n")
     return path
@@ -220,8 +225,12 @@ def graph_from_dict(doc, source="the document"):
                            dtype=np.float64).reshape(V, 3)
             for name in names
         }
-        m = len(doc["lens_columns"])
-        elements = np.array([nd["element"] for nd in nodes], dtype=np.int64).reshape(V, m)
+        width = len(nodes[0]["element"]) if V else len(doc["lens_columns"])
+        elements = np.array([nd["element"] for nd in nodes], dtype=np.int64).reshape(V, width)
+        levels = None
+        if V and all("level" in nd for nd in nodes):  # files before the cover seam have none
+            levels = np.array([[np.nan if v is None else v for v in nd["level"]]
+                               for nd in nodes], dtype=np.float64).reshape(V, -1)
         edges = np.array([[e["source"], e["target"]] for e in doc["edges"]],
                          dtype=np.int64).reshape(-1, 2)
         shared = np.array([e["shared"] for e in doc["edges"]], dtype=np.int64)
@@ -234,6 +243,7 @@ def graph_from_dict(doc, source="the document"):
             M, elements, edges, shared, stats, lens_columns=doc["lens_columns"],
             data_columns=doc["data_columns"], row_ids=ids, id_name=doc["id_name"],
             params=doc["params"], provenance=doc["provenance"], fragments=doc["fragments"],
+            node_levels=levels,
         )
     except (KeyError, TypeError, ValueError, IndexError) as err:
         raise InputError(
@@ -295,7 +305,7 @@ def write_memberships(graph, path):
     ['row,node', '1,0', '2,0', '2,1', '3,']
     """
     M = graph.membership
-    ids = [_plain(x) for x in graph.row_ids]
+    ids = [plain(x) for x in graph.row_ids]
     path = Path(path)
     with atomic_path(path) as tmp, open(tmp, "w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
@@ -332,6 +342,4 @@ def read_lens_file(path, cloud, columns=None):
     >>> back.names, back["v"].values.tolist()
     (['v'], [6.0, 5.0, 4.0])
     """
-    from ..table import LensTable
-
     return LensTable.read(path, cloud, columns=columns)

@@ -7,6 +7,7 @@ from pathlib import Path
 import numpy as np
 
 from .._errors import ParameterError
+from ..graph import auto_layout, graph_layout
 from ._style import ACCENT, GRID, INK, LENS_CMAP, MUTED, PAPER, figure, save, style
 
 __all__ = ["draw_graph"]
@@ -65,11 +66,8 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
     values = graph.node_values(color, stat)
     method = layout if isinstance(layout, str) else "given"
     if isinstance(layout, str):
-        from ..graph._layout import graph_layout
-
         if layout == "auto":
-            m = len(graph.lens_columns)
-            method = "level" if m == 1 else ("lens" if m == 2 else "spring")
+            method = auto_layout(len(graph.lens_columns), graph.n_nodes)
         pos = graph_layout(graph, method=method, random_state=random_state)
     else:
         pos = np.asarray(layout, dtype=np.float64)
