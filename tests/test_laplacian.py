@@ -480,3 +480,145 @@ def test_nystrom_extension_equals_the_formula(weights):
     assert_allclose(lens.transform(Y), ref, rtol=1e-8, atol=1e-10)
     # The fitted rows themselves come back unchanged (the scikit-learn contract).
     assert np.array_equal(lens.transform(X), E)
+
+
+# ---------------------------------------------------------------- sample mode
+def _strip(rng, n, length=3.5):
+    """Uniform points on a flat length x 1 rectangle (Neumann eigenfunctions in closed form)."""
+    return np.c_[rng.uniform(0, length, n), rng.uniform(0, 1.0, n)]
+
+
+def test_sample_mode_agrees_with_the_exact_mode_and_the_closed_form():
+    # Closed form: the Neumann Laplacian of a 3.5 x 1 rectangle has eigenfunctions
+    # cos(j pi u / 3.5), eigenvalues (j pi / 3.5)^2 = 0.81, 3.2, 7.3 for j = 1, 2, 3, well
+    # apart from the next, cos(pi v) at 9.9 (separation of variables; e.g. Courant and
+    # Hilbert, vol. 1, ch. V). Graph Laplacians of uniform samples converge to it
+    # (Belkin and Niyogi 2003), so both modes must find these functions.
+    rng = np.random.default_rng(4201)
+    X = _strip(rng, 6000)
+    exact, e_info = laplacian_eigenmaps(X, 3, k=10, mode="exact", return_info=True)
+    sample, s_info = laplacian_eigenmaps(X, 3, k=10, mode="sample", landmarks=3000,
+                                         return_info=True)
+    assert e_info["mode"] == "exact" and e_info["extension_error"] == 0.0
+    assert s_info["mode"] == "sample" and s_info["landmarks"] == 3000
+    for j in range(3):
+        ref = np.cos((j + 1) * np.pi * X[:, 0] / 3.5)
+        # The k-NN graph's own discretisation error on 6,000 points: measured |corr|
+        # 0.9907-0.9997 over four seeds, so 0.99 (exact mode).
+        assert abs(np.corrcoef(exact[:, j], ref)[0, 1]) >= 0.99
+        if j < 2:  # 3,000 landmarks: measured 0.9950-0.9994 over four seeds
+            assert abs(np.corrcoef(sample[:, j], ref)[0, 1]) >= 0.99
+        # Against the exact mode: the reported estimate of 1 - |corr| (from held-out
+        # landmarks, see _scaled_error). Over 4 seeds x 2 sample sizes x 3 vectors the
+        # true value was 0.29-1.83 times the estimate (one random split of 600 held-out
+        # rows is a noisy measurement), hence the factor 3.
+        gap = 1.0 - abs(np.corrcoef(exact[:, j], sample[:, j])[0, 1])
+        assert gap <= 3.0 * s_info["extension_errors"][j] + 1e-4, (j, gap)
+    assert s_info["extension_error"] == max(s_info["extension_errors"]) < 0.05
+    assert len(s_info["extension_r2"]) == 3 and min(s_info["extension_r2"]) > 0.98
+
+
+def test_sample_mode_is_deterministic_under_a_seed():
+    rng = np.random.default_rng(4202)
+    X = _strip(rng, 3000)
+    a, ia = laplacian_eigenmaps(X, 2, k=10, mode="sample", landmarks=800, random_state=7,
+                                return_info=True)
+    b, ib = laplacian_eigenmaps(X.copy(), 2, k=10, mode="sample", landmarks=800,
+                                random_state=7, return_info=True)
+    assert np.array_equal(a, b)
+    assert ia["extension_errors"] == ib["extension_errors"]
+    c, ic = laplacian_eigenmaps(X, 2, k=10, mode="sample", landmarks=800, random_state=8,
+                                return_info=True)
+    assert not np.array_equal(a, c)  # other landmarks ...
+    for j in range(2):  # ... the same functions, within both runs' estimated errors
+        # (two independent sample errors add; factor 3 as in the test above).
+        gap = 1.0 - abs(np.corrcoef(a[:, j], c[:, j])[0, 1])
+        assert gap <= 3.0 * (ia["extension_errors"][j] + ic["extension_errors"][j]), (j, gap)
+
+
+def test_auto_mode_follows_the_row_threshold(monkeypatch):
+    rng = np.random.default_rng(4203)
+    X = _strip(rng, 1200)
+    _, info = laplacian_eigenmaps(X, 2, k=10, return_info=True)
+    assert info["mode"] == "exact" and info["mode_rule"].startswith("auto: exact up to")
+    monkeypatch.setattr(_laplacian, "EXACT_MAX_ROWS", 1000)
+    _, info = laplacian_eigenmaps(X, 2, k=10, landmarks=600, return_info=True)
+    assert info["mode"] == "sample" and info["mode_rule"].startswith("auto: sample above 1,000")
+    # As many landmarks as rows: the sample mode is the exact mode.
+    _, info = laplacian_eigenmaps(X, 2, k=10, mode="sample", landmarks=1200, return_info=True)
+    assert info["mode"] == "exact" and "every row is solved" in info["mode_rule"]
+
+
+def test_sample_mode_lens_reports_its_error_and_leaves_the_shared_graph_alone():
+    rng = np.random.default_rng(4204)
+    X = _strip(rng, 2500)
+    ws = Workspace(X, random_state=1)
+    table = compute_lenses(ws, ["laplacian:k=10,mode=sample,landmarks=700"])
+    assert table.names == [f"laplacian_{j}[k=10;mode=sample;landmarks=700]" for j in (1, 2)]
+    for j, col in enumerate(table.columns):
+        info = col.info
+        assert info["mode"] == "sample" and info["landmarks"] == 700
+        assert info["extension_holdout"] == 140 and "random_state" in info["landmark_rule"]
+        # Its own column's estimate, from the held-out |corr| (scaled as _scaled_error says:
+        # (1 - h) / h * (1 - landmarks / n) with h = 1/5).
+        expect = 4.0 * (1.0 - info["extension_holdout_abs_corr"][j]) * (1.0 - 700 / 2500)
+        assert_allclose(info["extension_error"], expect, rtol=1e-12)
+        # Sanity only: 700 landmarks, measured 0.004 and 0.06.
+        assert info["extension_error"] == info["extension_errors"][j] < 0.2
+    # The landmarks' graph is the lens's own: no all-rows graph was built.
+    assert not any(key[0] == "knn" for key in ws._cache)
+    same = laplacian_eigenmaps(X, 2, k=10, mode="sample", landmarks=700, random_state=1)
+    assert np.array_equal(np.c_[[c.values for c in table.columns]].T, same)
+
+
+def test_sample_mode_transformer_gives_back_its_fit():
+    rng = np.random.default_rng(4205)
+    X = _strip(rng, 2000)
+    lens = LaplacianLens(components=2, k=10, mode="sample", landmarks=600).fit(X)
+    assert lens.info_["mode"] == "sample" and lens.embedding_.shape == (2000, 2)
+    # Landmarks come back exactly, the other rows as the same extension (rounding only).
+    assert_allclose(lens.transform(X), lens.embedding_, rtol=1e-12, atol=1e-12)
+
+
+def test_too_few_landmarks_for_k_is_a_clear_error():
+    X = _strip(np.random.default_rng(4206), 1000)
+    with pytest.raises(ParameterError, match=r"needs landmarks >= 126 .* got landmarks=120"):
+        laplacian_eigenmaps(X, 2, k=100, mode="sample", landmarks=120)
+    with pytest.raises(ParameterError, match=r"The 'landmarks' parameter of laplacian_eigenmaps"):
+        laplacian_eigenmaps(X, 2, mode="sample", landmarks=10)
+    with pytest.raises(ParameterError, match=r"The 'mode' parameter of LaplacianLens"):
+        LaplacianLens(mode="fast").fit(X)
+
+
+def test_extension_on_a_disconnected_fit_uses_each_component_eigenvalue():
+    # Bengio et al. (NIPS 2004) formula per component: f(y) = mean_w f(x_j) / (1 - lambda_c),
+    # lambda_c the eigenvalue of the column on the component of y's nearest fitted row,
+    # written here with scipy's cdist. Two far blobs: no weight crosses the gap.
+    from scipy.spatial.distance import cdist
+
+    rng = np.random.default_rng(4207)
+    a = _strip(rng, 300)
+    b = _strip(rng, 200) * 0.5 + 50.0
+    X = np.vstack([a, b])
+    with pytest.warns(LensworkWarning, match="not connected"):
+        lens = LaplacianLens(components=2, k=8, weights="self_tuning").fit(X)
+    E = lens.embedding_
+    Y = b[:5] + 0.01 * rng.normal(size=(5, 2))
+    D = cdist(Y, X)
+    near = np.argsort(D, axis=1)[:, :8]
+    d = np.take_along_axis(D, near, axis=1)
+    dist_fit = np.sort(cdist(X, X), axis=1)[:, 1:9]
+    s = dist_fit[:, 6]
+    w = np.exp(-(d**2) / (d[:, 6][:, None] * s[near]))
+    Wb = lens._solved[2] == lens._solved[2][300]  # rows of blob b's component
+    assert Wb[300:].all() and not Wb[:300].any()
+    Eb = E[300:]
+    # lambda of each column on blob b: the Rayleigh quotient of its coordinates there.
+    from lenswork import neighbor_graph as ng
+
+    W, _ = _affinity(ng(b, 8), "self_tuning")
+    deg = np.asarray(W.sum(axis=1)).ravel()
+    lam = np.array([Eb[:, j] @ (deg * Eb[:, j] - W @ Eb[:, j]) / (deg @ Eb[:, j] ** 2)
+                    for j in range(2)])
+    ref = np.einsum("ij,ijm->im", w, E[near]) / w.sum(axis=1)[:, None] / (1.0 - lam)
+    assert_allclose(lens.transform(Y), ref, rtol=1e-8, atol=1e-10)

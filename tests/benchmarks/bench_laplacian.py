@@ -22,6 +22,18 @@ What it measures
    iterations, largest residual ||S u - mu u||, eigenvalues, peak traced memory of
    the solve (tracemalloc) and the peak resident size of the process. Each case
    runs in a fresh process, so peaks do not mix.
+3. Modes (``--modes``): the exact mode against the sample mode (20,000
+   landmarks, Nystrom extension) on the swiss roll and the torus at 1e5 and 2e5
+   rows (``--mode-sizes``; 1e6 is opt-in): the all-rows graph seconds, the exact
+   solve after it, the sample mode in all (its own landmark graph, the solve,
+   the extension, the held-out error estimate), their ratio, and the agreement:
+   |corr| per vector and the R^2 of each exact vector on all sample vectors
+   (the torus has pairs of near-equal eigenvalues, within which vectors may
+   rotate), next to the sample mode's own error estimate. This sets the row
+   threshold of ``mode="auto"``.
+
+       flock /tmp/lenswork-bench.lock /work/venv/bin/python tests/benchmarks/bench_laplacian.py \\
+           --modes --mode-sizes 100000 200000 1000000
 """
 
 from __future__ import annotations
@@ -94,6 +106,70 @@ def _child(kind, n):
     }
 
 
+def _modes_child(kind, n):
+    """Exact against sample mode on one data set (in a fresh process)."""
+    import warnings
+
+    from lenswork import Workspace, get_lens
+
+    X = _data(kind, n)
+    ws = Workspace(X, random_state=0)
+    lens = get_lens("laplacian")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        start = time.perf_counter()
+        ws.neighbors(K)
+        graph_s = time.perf_counter() - start
+        start = time.perf_counter()
+        exact = lens(ws, components=M, k=K, mode="exact")
+        exact_s = time.perf_counter() - start
+        tracemalloc.start()
+        start = time.perf_counter()
+        sample = lens(ws, components=M, k=K, mode="sample")
+        sample_s = time.perf_counter() - start
+        _, peak = tracemalloc.get_traced_memory()
+        tracemalloc.stop()
+    E = np.column_stack([c.values for c in exact])
+    S = np.column_stack([c.values for c in sample])
+    corr = [float(abs(np.corrcoef(E[:, j], S[:, j])[0, 1])) for j in range(M)]
+    A = np.c_[np.ones(n), S]
+    coef, *_ = np.linalg.lstsq(A, E, rcond=None)
+    resid = ((E - A @ coef) ** 2).sum(axis=0)
+    r2 = (1.0 - resid / ((E - E.mean(axis=0)) ** 2).sum(axis=0)).tolist()
+    info = sample[0].info
+    return {
+        "case": f"modes_{kind}", "n": n, "graph_s": round(graph_s, 2),
+        "exact_s": round(exact_s, 2), "sample_s": round(sample_s, 2),
+        "landmark_solve_s": info["landmark_solve_seconds"],
+        "extension_s": info["extension_seconds"], "estimate_s": info["error_estimate_seconds"],
+        "landmarks": info["landmarks"], "abs_corr": corr, "r2": r2,
+        "estimated_error": info["extension_errors"],
+        "exact_eigenvalues": exact[0].info["eigenvalues"],
+        "sample_eigenvalues": info["eigenvalues"],
+        "sample_peak_mb": round(peak / 2**20, 1), "process_peak_rss_mb": _peak_rss_mb(),
+    }
+
+
+def _print_modes(rows):
+    print(f"\nexact against sample mode, {M} vectors, k={K}, heat weights "
+          f"(seconds; exact = solve after the shared graph; sample = everything)")
+    print(f"{'case':12s} {'n':>8s} {'graph':>7s} {'exact':>7s} {'sample':>7s} "
+          f"{'ratio*':>7s} {'ext':>6s}  1-|corr| per vector / estimate / 1-R^2")
+    for r in rows:
+        if "error" in r:
+            print(f"{r['case']:12s} {r['n']:8d}  error: {r['error']}")
+            continue
+        ratio = (r["graph_s"] + r["exact_s"]) / r["sample_s"]
+        gap = " ".join(f"{1 - c:.1e}" for c in r["abs_corr"])
+        est = " ".join(f"{e:.1e}" for e in r["estimated_error"])
+        r2 = " ".join(f"{1 - v:.1e}" for v in r["r2"])
+        print(f"{r['case']:12s} {r['n']:8d} {r['graph_s']:7.2f} {r['exact_s']:7.2f} "
+              f"{r['sample_s']:7.2f} {ratio:7.1f} {r['extension_s']:6.2f}  [{gap}] / [{est}] "
+              f"/ [{r2}]  rss {r['process_peak_rss_mb']:.0f} MB")
+    print("  * ratio = (graph + exact) / sample: the exact mode's cost when no other lens "
+          "needs the all-rows graph")
+
+
 def _peak_rss_mb():
     """Peak resident size of this process (VmHWM; ru_maxrss would carry the parent's over exec)."""
     try:
@@ -106,9 +182,9 @@ def _peak_rss_mb():
     return round(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024, 1)
 
 
-def _run_child(kind, n, timeout=900):
+def _run_child(kind, n, timeout=900, flag="--child"):
     out = subprocess.run(
-        [sys.executable, __file__, "--child", kind, str(n)], capture_output=True, text=True,
+        [sys.executable, __file__, flag, kind, str(n)], capture_output=True, text=True,
         timeout=timeout, check=False,
     )
     if out.returncode != 0:
@@ -220,10 +296,25 @@ def main(argv=None):
     parser.add_argument("--sizes", nargs="+", type=int, default=None)
     parser.add_argument("--versus-n", type=int, default=None,
                         help="rows for the sklearn comparison (default 5000; quick 2000)")
+    parser.add_argument("--modes", action="store_true",
+                        help="only the exact-against-sample comparison (roll, torus)")
+    parser.add_argument("--mode-sizes", nargs="+", type=int, default=[100_000, 200_000])
     parser.add_argument("--child", nargs=2, metavar=("CASE", "N"), help=argparse.SUPPRESS)
+    parser.add_argument("--modes-child", nargs=2, metavar=("CASE", "N"), help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.child:
         print(json.dumps(_child(args.child[0], int(args.child[1]))))
+        return
+    if args.modes_child:
+        print(json.dumps(_modes_child(args.modes_child[0], int(args.modes_child[1]))))
+        return
+    if args.modes:
+        rows = []
+        for n in args.mode_sizes:
+            for kind in ("roll", "torus"):
+                rows.append(_run_child(kind, n, timeout=1800, flag="--modes-child"))
+                print(json.dumps(rows[-1]), flush=True)
+        _print_modes(rows)
         return
     results = run(args.quick, cases=args.cases, sizes=args.sizes, versus_n=args.versus_n)
     _print(results)

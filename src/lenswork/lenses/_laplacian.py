@@ -102,7 +102,7 @@ import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components, dijkstra, reverse_cuthill_mckee
 from sklearn.base import BaseEstimator, TransformerMixin
 
-from .._errors import InputError, LensworkWarning
+from .._errors import InputError, LensworkWarning, ParameterError
 from .._validation import (
     check_array,
     check_choice,
@@ -111,8 +111,9 @@ from .._validation import (
     check_random_state,
     seed_of,
 )
-from ..workspace import knn_matrix
+from ..workspace import knn_matrix, neighbor_graph
 from ._common import LensOutputMixin, check_input
+from ._extend import nystrom_extend
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["LaplacianLens", "laplacian_eigenmaps"]
@@ -123,8 +124,16 @@ WEIGHTS = ("heat", "self_tuning")
 _SELF_TUNING_NEIGHBOR = 7
 #: Edge weights below this are dropped (detached rather than numerically singular).
 _MIN_WEIGHT = 1e-10
-# Rows per block of the Nystrom extension (k x m floats per row).
-_NYSTROM_BLOCK = 65536
+#: Modes: all rows, or a landmark sample with the Nystrom extension.
+MODES = ("auto", "exact", "sample")
+#: "auto" solves every row up to this many rows, and samples above.
+EXACT_MAX_ROWS = 200_000
+#: Default number of landmarks of the sample mode.
+LANDMARKS = 20_000
+#: Fewest landmarks accepted.
+MIN_LANDMARKS = 100
+#: One landmark in this many is held out to estimate the extension error.
+HOLDOUT = 5
 #: Components up to this many vertices are solved densely.
 _DENSE_MAX = 1000
 #: Coarsening stops once a level has at most this many vertices.
@@ -690,20 +699,22 @@ def _eigs_per_component(W, m, mass, rng, tol, max_iter, warn):
 
 
 def _embed(graph, m, weights, rng, tol, max_iter, warn=_warn):
-    """Affinity of a NeighborGraph, then its Laplacian eigenvectors: (coords, info)."""
+    """Affinity of a NeighborGraph, then its Laplacian eigenvectors: (coords, info, W)."""
     W, winfo = _affinity(graph, weights)
     coords, info = _laplacian_eigs(W, m, rng=rng, tol=tol, max_iter=max_iter, warn=warn)
     info = dict(info, weights=weights, k=int(graph.k), **winfo)
-    return coords, info
+    return coords, info, W
 
 
-def _check_params(components, k, weights, tol, max_iter, context):
+def _check_params(components, k, weights, tol, max_iter, mode, landmarks, context):
     components = check_int("components", components, lo=1, context=context)
     k = check_int("k", k, lo=1, context=context)
     weights = check_choice("weights", weights, WEIGHTS, context=context)
     tol = check_float("tol", tol, lo=0, hi=1, lo_open=True, hi_open=True, context=context)
     max_iter = check_int("max_iter", max_iter, lo=1, context=context)
-    return components, k, weights, tol, max_iter
+    mode = check_choice("mode", mode, MODES, context=context)
+    landmarks = check_int("landmarks", landmarks, lo=MIN_LANDMARKS, context=context)
+    return components, k, weights, tol, max_iter, mode, landmarks
 
 
 def _require_rows(n, components, k, context):
@@ -715,10 +726,177 @@ def _require_rows(n, components, k, context):
         )
 
 
+def _resolve_mode(mode, n, landmarks):
+    """The mode that runs for ``n`` rows, and the rule that chose it (a sentence)."""
+    if mode == "auto":
+        if n <= EXACT_MAX_ROWS:
+            return "exact", f"auto: exact up to {EXACT_MAX_ROWS:,} rows (n = {n:,})"
+        mode, rule = "sample", f"auto: sample above {EXACT_MAX_ROWS:,} rows (n = {n:,})"
+    else:
+        rule = f"mode={mode}"
+    if mode == "sample" and landmarks >= n:
+        return "exact", rule + f"; landmarks={landmarks:,} >= n, so every row is solved"
+    return mode, rule
+
+
+# ------------------------------------------------------------------ the Nystrom extension
+def _nearest(fit_X, Z):
+    """Index of the nearest row of ``fit_X`` for each row of ``Z`` (exact, scikit-learn)."""
+    from sklearn.neighbors import NearestNeighbors
+
+    return NearestNeighbors(n_neighbors=1).fit(fit_X).kneighbors(Z)[1][:, 0]
+
+
+def _extend(fit_X, coords, labels, lambdas, Z, *, k, weights, sigma, nearest=None):
+    """Nystrom extension of ``coords`` (on ``fit_X``) to the rows ``Z``.
+
+    :func:`~lenswork.lenses._extend.nystrom_extend` takes one eigenvalue per
+    column; on a graph of several components each component has its own, so
+    there the weighted means come from ``nystrom_extend`` with eigenvalue 0 and
+    are divided by ``1 - lambda`` of the component of each row's nearest fitted
+    row (``nearest``, found here when not given).
+    """
+    lam = np.clip(lambdas, 0.0, None)
+    if lam.shape[0] == 1 and np.all(lam < 1.0):
+        return nystrom_extend(fit_X, coords, lam[0], Z, k=k, weights=weights, sigma=sigma)
+    mean = nystrom_extend(
+        fit_X, coords, np.zeros(coords.shape[1]), Z, k=k, weights=weights, sigma=sigma
+    )
+    if nearest is None:
+        nearest = _nearest(fit_X, Z)
+    mu = 1.0 - lam[labels[nearest]]
+    mu[mu == 0.0] = 1.0  # lambda = 1 exactly: no finite extension; keep the weighted mean
+    return mean / mu
+
+
+def _agreement(ext, ref):
+    """Per column: |corr(ext_j, ref_j)| and the R^2 of ref_j on all columns of ext (+ 1)."""
+    m = ref.shape[1]
+    corr = []
+    for j in range(m):
+        a, b = ext[:, j] - ext[:, j].mean(), ref[:, j] - ref[:, j].mean()
+        den = np.linalg.norm(a) * np.linalg.norm(b)
+        corr.append(float(abs(a @ b) / den) if den > 0 else 0.0)
+    A = np.c_[np.ones(ext.shape[0]), ext]
+    coef, *_ = np.linalg.lstsq(A, ref, rcond=None)
+    resid = ((ref - A @ coef) ** 2).sum(axis=0)
+    total = ((ref - ref.mean(axis=0)) ** 2).sum(axis=0)
+    r2 = [float(1.0 - r / t) if t > 0 else 0.0 for r, t in zip(resid, total)]
+    return corr, r2
+
+
+def _scaled_error(corr, h, share):
+    """Estimated ``1 - |corr|`` of a sample-mode vector with the exact one, from the held-out one.
+
+    To first order an eigenvector's sampling error is a mean of one influence
+    term per landmark. Then the solve on the kept share ``1 - h`` differs from
+    the solve on all landmarks by ``h`` times (mean over kept - mean over
+    held-out), of variance ``h / (1 - h)`` times that of the landmark solve's
+    own error; and the landmark solve differs from the all-rows solve by a
+    variance ``1 - share`` times its own (``share`` = landmarks / rows). As
+    ``1 - |corr|`` is half a squared distance, the held-out figure is scaled by
+    ``(1 - h) / h * (1 - share)`` (4 (1 - share) for h = 1/5), at most 1.
+    """
+    return float(min(1.0, (1.0 - corr) * (1.0 - h) / h * (1.0 - share)))
+
+
+# ------------------------------------------------------------------ exact and sample fits
+def _solve_rows(X, m, k, weights, tol, max_iter, rng, seed, warn, graph=None):
+    """Eigenvectors of the k-NN graph of the rows X; returns (coords, info, state).
+
+    ``state = (X, coords, labels, lambdas)`` is what the Nystrom extension needs.
+    """
+    if graph is None:
+        graph = neighbor_graph(X, k, random_state=seed)
+    coords, info, W = _embed(graph, m, weights, rng, tol, max_iter, warn)
+    info["neighbor_seconds"] = graph.info.get("seconds")
+    info["neighbor_method"] = graph.method
+    labels, lambdas = _component_eigenvalues(W, coords)
+    return coords, info, (X, coords, labels, lambdas)
+
+
+def _sample_fit(X, m, k, weights, tol, max_iter, rng, seed, landmarks, warn):
+    """Sample mode: solve on ``landmarks`` seeded rows, extend to the rest (module notes)."""
+    start = time.perf_counter()
+    n = X.shape[0]
+    held = landmarks // HOLDOUT
+    needed = max(m + 2, k + 1)
+    if landmarks - held < needed:
+        least = needed
+        while least - least // HOLDOUT < needed:
+            least += 1
+        raise ParameterError(
+            f"The sample mode of the Laplacian lens with components={m} and k={k} needs "
+            f"landmarks >= {least} (a fifth is held out to estimate the extension error); "
+            f"got landmarks={landmarks}."
+        )
+    rows = np.sort(rng.choice(n, size=landmarks, replace=False))
+    XL = X[rows]
+    coords_l, info, state = _solve_rows(XL, m, k, weights, tol, max_iter, rng, seed, warn)
+    solved = time.perf_counter()
+    rest = np.ones(n, dtype=bool)
+    rest[rows] = False
+    coords = np.empty((n, m))
+    coords[rows] = coords_l
+    sigma = info.get("sigma")
+    coords[rest] = _extend(*state, X[rest], k=k, weights=weights, sigma=sigma)
+    extended = time.perf_counter()
+    # Extension error: solve again on four fifths of the landmarks, extend to the held-out
+    # fifth and compare with the values the full landmark solve gave those rows.
+    order = rng.permutation(landmarks)
+    hold, keep = np.sort(order[:held]), np.sort(order[held:])
+    _, sub_info, sub_state = _solve_rows(
+        XL[keep], m, k, weights, tol, max_iter, rng, seed, warn=lambda message: None
+    )
+    ext = _extend(*sub_state, XL[hold], k=k, weights=weights, sigma=sub_info.get("sigma"))
+    corr, r2 = _agreement(ext, coords_l[hold])
+    errors = [_scaled_error(c, held / landmarks, landmarks / n) for c in corr]
+    info.update(
+        mode="sample",
+        landmarks=int(landmarks),
+        landmark_rule=f"min(n, landmarks) = {landmarks:,} of {n:,} rows, drawn uniformly "
+                      f"without replacement with random_state",
+        extension_holdout=int(held),
+        extension_holdout_abs_corr=corr,
+        extension_r2=r2,
+        extension_errors=errors,
+        extension_error=max(errors),
+        landmark_solve_seconds=round(solved - start, 3),
+        extension_seconds=round(extended - solved, 3),
+        error_estimate_seconds=round(time.perf_counter() - extended, 3),
+    )
+    return coords, info, state
+
+
+def _fit(X, components, k, weights, tol, max_iter, mode, landmarks, random_state, context,
+         warn=_warn, graph_of=None):
+    """Exact or sample fit of the rows X: (coords, info, state for the extension).
+
+    ``graph_of(k)`` gives the neighbour graph of all rows (a Workspace's shared
+    one) for the exact mode; by default it is built here.
+    """
+    _require_rows(X.shape[0], components, k, context)
+    rng = check_random_state(random_state)
+    seed = seed_of(random_state)
+    resolved, rule = _resolve_mode(mode, X.shape[0], landmarks)
+    if resolved == "exact":
+        graph = graph_of(k) if graph_of is not None else None
+        coords, info, state = _solve_rows(
+            X, components, k, weights, tol, max_iter, rng, seed, warn, graph=graph
+        )
+        info.update(mode="exact", landmarks=int(X.shape[0]), extension_error=0.0)
+    else:
+        coords, info, state = _sample_fit(
+            X, components, k, weights, tol, max_iter, rng, seed, landmarks, warn
+        )
+    info["mode_rule"] = rule
+    return coords, info, state
+
+
 # ------------------------------------------------------------------ public surface
 def laplacian_eigenmaps(
-    X, components=2, *, k=15, weights="heat", tol=1e-3, max_iter=200, random_state=0,
-    return_info=False,
+    X, components=2, *, k=15, weights="heat", tol=1e-3, max_iter=200, mode="auto",
+    landmarks=LANDMARKS, random_state=0, return_info=False,
 ):
     """Laplacian-eigenmap coordinates of the rows of ``X``.
 
@@ -737,25 +915,37 @@ def laplacian_eigenmaps(
         eigenvalue ``lambda = 1 - mu``.
     max_iter : int, default=200
         LOBPCG iterations at most (a warning says when they ran out).
+    mode : {"auto", "exact", "sample"}, default="auto"
+        ``"exact"`` solves on the graph of all rows; ``"sample"`` solves on
+        ``landmarks`` seeded rows and extends to the others by the Nystrom
+        formula (Bengio et al. 2004); ``"auto"`` is exact up to 200,000 rows,
+        sample above. With ``landmarks >= n_samples`` sample is exact.
+    landmarks : int, default=20000
+        Rows of the sample mode (at least 100).
     random_state : int, default=0
-        Seed of the aggregation (and of the approximate neighbour graph).
+        Seed of the landmarks, of the aggregation and of the approximate
+        neighbour graph.
     return_info : bool, default=False
         Also return a dict with ``eigenvalues`` (of ``I - S``), ``residuals``,
-        ``iterations``, ``method``, ``levels``, ``sigma``, ``graph_components``...
+        ``iterations``, ``method``, ``levels``, ``sigma``, ``graph_components``,
+        ``mode``, ``mode_rule``, ``landmarks``, ``extension_error`` (0 in exact
+        mode); in sample mode also ``extension_errors`` (per vector),
+        ``extension_holdout_abs_corr``, ``extension_r2`` and ``landmark_rule``.
 
     Returns
     -------
     coords : ndarray of shape (n_samples, components)
         Random-walk coordinates ``D^-1/2 u``, scaled to a degree-weighted mean
         square of 1 (``sum_i d_i x_i^2 = sum_i d_i``) with degree-weighted mean 0;
-        the largest-magnitude entry of each column is positive.
+        the largest-magnitude entry of each column is positive. In sample mode
+        these hold on the landmarks; the other rows carry their extension.
     info : dict
         Only with ``return_info=True``.
 
     Raises
     ------
     ParameterError
-        For a parameter out of range.
+        For a parameter out of range, or too few landmarks for ``k``.
     InputError
         For non-finite data or fewer than ``max(components + 2, k + 1)`` rows.
 
@@ -768,6 +958,7 @@ def laplacian_eigenmaps(
     block product and one V-cycle, O(n k b), plus O(n b^2) dense work for a
     block of b = m + 4 or more vectors (1e6 rows in 27-35 s on 2-D manifolds,
     see the module notes). A disconnected graph is embedded per component.
+    The sample mode, its cost and its error estimate: see the module notes.
 
     References
     ----------
@@ -781,6 +972,9 @@ def laplacian_eigenmaps(
     .. [4] P. Vanek, J. Mandel and M. Brezina, "Algebraic multigrid by smoothed
        aggregation for second and fourth order elliptic problems",
        Computing 56, 1996.
+    .. [5] Y. Bengio, J.-F. Paiement, P. Vincent, O. Delalleau, N. Le Roux and
+       M. Ouimet, "Out-of-sample extensions for LLE, Isomap, MDS, Eigenmaps,
+       and spectral clustering", NIPS 2004.
 
     Examples
     --------
@@ -788,30 +982,28 @@ def laplacian_eigenmaps(
     >>> t = np.linspace(0.0, 1.0, 300)
     >>> X = np.c_[t, np.sin(3 * t)]
     >>> coords, info = laplacian_eigenmaps(X, components=2, k=10, return_info=True)
-    >>> coords.shape, info["graph_components"]
-    ((300, 2), 1)
+    >>> coords.shape, info["graph_components"], info["mode"]
+    ((300, 2), 1, 'exact')
     >>> bool(np.all(np.diff(coords[:, 0]) < 0) or np.all(np.diff(coords[:, 0]) > 0))
+    True
+
+    The sample mode on 4,000 points of a 3 x 1 rectangle, solved on 1,000 of
+    them; its first vector is close to cos(pi u / 3):
+
+    >>> rng = np.random.default_rng(0)
+    >>> X = np.c_[rng.uniform(0, 3, 4000), rng.uniform(0, 1, 4000)]
+    >>> coords, info = laplacian_eigenmaps(X, 1, k=10, mode="sample", landmarks=1000,
+    ...                                    return_info=True)
+    >>> coords.shape, info["mode"], info["landmarks"], bool(info["extension_error"] < 0.01)
+    ((4000, 1), 'sample', 1000, True)
+    >>> bool(abs(np.corrcoef(coords[:, 0], np.cos(np.pi * X[:, 0] / 3))[0, 1]) > 0.99)
     True
     """
     context = "laplacian_eigenmaps"
-    components, k, weights, tol, max_iter = _check_params(
-        components, k, weights, tol, max_iter, context
-    )
-    coords, info, _ = _fit(X, components, k, weights, tol, max_iter, random_state, context)
-    return (coords, info) if return_info else coords
-
-
-def _fit(X, components, k, weights, tol, max_iter, random_state, context):
-    from ..workspace import neighbor_graph
-
+    params = _check_params(components, k, weights, tol, max_iter, mode, landmarks, context)
     X = check_array(X, context)
-    _require_rows(X.shape[0], components, k, context)
-    rng = check_random_state(random_state)
-    graph = neighbor_graph(X, k, random_state=seed_of(random_state))
-    coords, info = _embed(graph, components, weights, rng, tol, max_iter)
-    info["neighbor_seconds"] = graph.info.get("seconds")
-    info["neighbor_method"] = graph.method
-    return coords, info, graph
+    coords, info, _ = _fit(X, *params, random_state, context)
+    return (coords, info) if return_info else coords
 
 
 def _one_blas_thread():
@@ -857,6 +1049,10 @@ class LaplacianLens(LensOutputMixin, TransformerMixin, BaseEstimator):
     weights : {"heat", "self_tuning"}, default="heat"
     tol : float, default=1e-3
     max_iter : int, default=200
+    mode : {"auto", "exact", "sample"}, default="auto"
+        Solve on all rows, or on ``landmarks`` seeded rows with the Nystrom
+        extension to the rest; ``"auto"``: exact up to 200,000 rows.
+    landmarks : int, default=20000
     random_state : int, default=0
         See :func:`laplacian_eigenmaps`.
 
@@ -869,7 +1065,8 @@ class LaplacianLens(LensOutputMixin, TransformerMixin, BaseEstimator):
     residuals_ : ndarray of shape (components,)
         ``||S u - mu u||`` of each unit eigenvector.
     info_ : dict
-        Solver details (see :func:`laplacian_eigenmaps`).
+        Solver details (see :func:`laplacian_eigenmaps`): ``mode`` says which
+        mode ran, ``extension_error`` the estimated error of the sample mode.
     n_iter_ : int
         LOBPCG iterations on the largest graph component; 1 when it was small
         enough (at most 1,000 points) to be solved directly in one dense solve.
@@ -880,24 +1077,26 @@ class LaplacianLens(LensOutputMixin, TransformerMixin, BaseEstimator):
     Notes
     -----
     ``fit_transform(X)`` equals :func:`laplacian_eigenmaps` on ``X``.
-    ``transform(Y)`` extends the coordinates to new rows by the Nystrom
-    formula for Laplacian eigenmaps (Bengio et al. 2004): with the k nearest
-    fitted rows ``x_j`` of ``y`` and the fit's edge weights ``w_j`` (heat:
+    ``transform(Y)`` extends the coordinates of the solved rows (all fitted
+    rows in exact mode, the landmarks in sample mode) to new rows by the
+    Nystrom formula for Laplacian eigenmaps (Bengio et al. 2004), with
+    :func:`~lenswork.lenses._extend.nystrom_extend`: with the k nearest solved
+    rows ``x_j`` of ``y`` and the fit's edge weights ``w_j`` (heat:
     ``exp(-d_j^2 / sigma^2)``; self-tuning: ``exp(-d_j^2 / (sigma_y sigma_j))``,
-    ``sigma_y`` the distance from ``y`` to its 7th nearest fitted row),
+    ``sigma_y`` the distance from ``y`` to its 7th nearest solved row),
 
     ``f(y) = sum_j w_j f(x_j) / ((1 - lambda) sum_j w_j)``,
 
     ``lambda`` the eigenvalue of the column on the graph component of the
-    nearest fitted row. This is the eigen-equation ``P f = (1 - lambda) f`` of
+    nearest solved row. This is the eigen-equation ``P f = (1 - lambda) f`` of
     the random walk ``P = D^-1 W`` read at a new point. A row of ``Y``
-    identical to a fitted row is that row and gets its fitted coordinates, so
-    ``transform(X) == fit_transform(X)`` on the fitted rows. Weights are taken
-    relative to the nearest one, so a point far from the data gets (about)
-    its nearest fitted row's coordinates over ``1 - lambda`` rather than 0 / 0.
-    Cost of ``transform``: one exact k-neighbour search per row plus O(k m).
-    The output columns are named ``laplacian_1, laplacian_2, ...``
-    (``get_feature_names_out``), as the ``laplacian`` lens names them.
+    identical to a solved row gets its solved coordinates, so
+    ``transform(X)`` gives back ``fit_transform(X)`` on the fitted rows
+    (exactly in exact mode; to rounding in sample mode, where the other rows
+    are themselves extensions). Cost of ``transform``: exact k-neighbour
+    searches over the solved rows plus O(k m) per row. The output columns are
+    named ``laplacian_1, laplacian_2, ...`` (``get_feature_names_out``), as the
+    ``laplacian`` lens names them.
 
     References
     ----------
@@ -928,13 +1127,16 @@ class LaplacianLens(LensOutputMixin, TransformerMixin, BaseEstimator):
     """
 
     def __init__(
-        self, *, components=2, k=15, weights="heat", tol=1e-3, max_iter=200, random_state=0
+        self, *, components=2, k=15, weights="heat", tol=1e-3, max_iter=200, mode="auto",
+        landmarks=LANDMARKS, random_state=0,
     ):
         self.components = components
         self.k = k
         self.weights = weights
         self.tol = tol
         self.max_iter = max_iter
+        self.mode = mode
+        self.landmarks = landmarks
         self.random_state = random_state
 
     def fit(self, X, y=None):
@@ -943,27 +1145,24 @@ class LaplacianLens(LensOutputMixin, TransformerMixin, BaseEstimator):
 
         context = type(self).__name__
         params = _check_params(
-            self.components, self.k, self.weights, self.tol, self.max_iter, context
+            self.components, self.k, self.weights, self.tol, self.max_iter, self.mode,
+            self.landmarks, context,
         )
-        components, k, weights = params[0], params[1], params[2]
+        components, k = params[0], params[1]
         X = check_input(
             self, X, reset=True, min_rows=max(components + 2, k + 1),
             why=f"components + 2 and k + 1, with components={components}, k={k}",
         )
-        coords, info, graph = _fit(X, *params, self.random_state, context)
+        coords, info, state = _fit(X, *params, self.random_state, context)
         self.embedding_ = coords
         self.eigenvalues_ = np.asarray(info["eigenvalues"])
         self.residuals_ = np.asarray(info["residuals"])
         self.info_ = info
         self.n_iter_ = max(int(info["iterations"]), 1)
-        # What the Nystrom extension needs: the fitted rows, their scales, the eigenvalue
-        # of each column on each graph component.
-        W, _ = _affinity(graph, weights)
-        self._labels, self._lambdas = _component_eigenvalues(W, coords)
-        if weights == "self_tuning":
-            self._sigma, self._sigma_floor = _local_sigma(np.asarray(graph.distances, float))
-        self._fit_X = X
-        self._nn = NearestNeighbors(n_neighbors=k).fit(X)
+        # What the Nystrom extension needs: the solved rows and their coordinates, the
+        # eigenvalue of each column on each graph component.
+        self._solved = state
+        self._nn = NearestNeighbors(n_neighbors=1).fit(state[0])
         return self
 
     def _output_names(self):
@@ -972,24 +1171,14 @@ class LaplacianLens(LensOutputMixin, TransformerMixin, BaseEstimator):
     def transform(self, X):
         """Coordinates of the rows of ``X`` by the Nystrom extension, shape (n, components)."""
         X = check_input(self, X, reset=False)
-        k = self._nn.n_neighbors
-        coords = self.embedding_
-        out = np.empty((X.shape[0], coords.shape[1]))
-        for i0 in range(0, X.shape[0], _NYSTROM_BLOCK):
-            Q = X[i0:i0 + _NYSTROM_BLOCK]
-            dist, idx = self._nn.kneighbors(Q, n_neighbors=k)
-            if self.info_["weights"] == "heat":
-                logw = -((dist / self.info_["sigma"]) ** 2)
-            else:
-                s_q, _ = _local_sigma(dist, self._sigma_floor)
-                logw = -(dist**2) / (s_q[:, None] * self._sigma[idx])
-            w = np.exp(logw - logw.max(axis=1, keepdims=True))  # relative: never 0 / 0
-            mean = np.einsum("ij,ijm->im", w, coords[idx]) / w.sum(axis=1)[:, None]
-            lam = self._lambdas[self._labels[idx[:, 0]]]
-            block = mean / (1.0 - lam)
-            on_sample = np.all(self._fit_X[idx[:, 0]] == Q, axis=1)
-            block[on_sample] = coords[idx[on_sample, 0]]
-            out[i0:i0 + _NYSTROM_BLOCK] = block
+        fit_X, coords, labels, lambdas = self._solved
+        nearest = self._nn.kneighbors(X)[1][:, 0]
+        out = _extend(
+            fit_X, coords, labels, lambdas, X, k=self.info_["k"], weights=self.info_["weights"],
+            sigma=self.info_.get("sigma"), nearest=nearest,
+        )
+        same = np.all(fit_X[nearest] == X, axis=1)
+        out[same] = coords[nearest[same]]
         return out
 
     def fit_transform(self, X, y=None):
@@ -1001,7 +1190,9 @@ class LaplacianLens(LensOutputMixin, TransformerMixin, BaseEstimator):
     "laplacian",
     summary="Laplacian eigenmaps: first non-trivial eigenvectors of the normalised k-NN "
     "graph Laplacian",
-    cost="O(n k) per LOBPCG iteration (about 10-30) once the neighbour graph exists",
+    cost="exact: O(n k) per LOBPCG iteration (about 10-30) once the neighbour graph exists; "
+    "sample (auto above 200,000 rows): a solve on 20,000 landmarks, then an O(k) Nystrom "
+    "extension per row",
     params=[
         Param("components", 2, partial(check_int, lo=1),
               "number of eigenvectors (columns laplacian_1, ...; laplacian_j does not depend on "
@@ -1011,19 +1202,26 @@ class LaplacianLens(LensOutputMixin, TransformerMixin, BaseEstimator):
             "weights", "heat", partial(check_choice, choices=WEIGHTS),
             "edge weights: heat (one global sigma) or self_tuning (local sigma_i)",
         ),
+        Param("mode", "auto", partial(check_choice, choices=MODES),
+              "exact (all rows), sample (landmarks + Nystrom extension, with its error "
+              "estimated), or auto by size"),
+        Param("landmarks", LANDMARKS, partial(check_int, lo=MIN_LANDMARKS),
+              "rows solved in sample mode"),
     ],
     family="laplacian",
 )
-def _laplacian_lens(ws, *, components, k, weights):
-    _require_rows(ws.n, components, k, "The laplacian lens")
-    graph = ws.neighbors(k)
-    rng = check_random_state(ws.random_state)
-    coords, info = _embed(graph, components, weights, rng, 1e-3, 200, warn=ws.warn)
+def _laplacian_lens(ws, *, components, k, weights, mode, landmarks):
+    coords, info, _ = _fit(
+        ws.X, components, k, weights, 1e-3, 200, mode, landmarks, ws.random_state,
+        "The laplacian lens", warn=ws.warn, graph_of=ws.neighbors,
+    )
     parts = []
     for j in range(components):
         part_info = dict(info, component=j + 1)
         if j < len(info["eigenvalues"]):
             part_info["eigenvalue"] = info["eigenvalues"][j]
             part_info["residual"] = info["residuals"][j]
+        if info["mode"] == "sample":  # this column's own estimate
+            part_info["extension_error"] = info["extension_errors"][j]
         parts.append(LensPart(coords[:, j], str(j + 1), part_info))
     return parts
