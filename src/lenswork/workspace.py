@@ -307,6 +307,17 @@ class Workspace:
     def d(self):
         return self.cloud.X.shape[1]
 
+    @property
+    def shared_k(self):
+        """Neighbours the shared graph holds at least: ``min(min_neighbors, n - 1)``.
+
+        A lens that asks :meth:`neighbors` for at most this many neighbours
+        reads a slice of the one shared graph; more means a second build. The
+        value depends on the settings only, not on what was computed before,
+        so a lens capped by it gives the same result in any order.
+        """
+        return max(1, min(self.min_neighbors, self.n - 1))
+
     def require_rows(self, needed, what):
         """Raise InputError when the data has fewer than ``needed`` rows for ``what``."""
         if self.n < needed:
