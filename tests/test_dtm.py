@@ -35,7 +35,7 @@ def _brute_dtm(X, k, Q=None):
 
 
 def _dtm_lens(X, **params):
-    ws = Workspace(X, random_state=0)
+    ws = Workspace(X, random_state=0, min_neighbors=MAX_K)  # k up to MAX_K from one graph
     (col,) = get_lens("dtm")(ws, **params)
     return col
 
@@ -110,13 +110,29 @@ def test_mass_to_k_convention():
 def test_k_cap_warns_and_records_the_mass_used():
     rng = np.random.default_rng(123)
     X = rng.normal(size=(12_000, 2))
+    ws = Workspace(X, random_state=0, min_neighbors=MAX_K)  # the shared graph holds >= 99
     with pytest.warns(LensworkWarning, match=r"asks for k=120 .* capped at 100"):
-        col = _dtm_lens(X)  # default mass 0.01: k = 120 > cap
+        (col,) = get_lens("dtm")(ws, mass=0.01)  # k = 120 > cap
     assert col.info["k"] == MAX_K and col.info["capped"] is True
     assert col.info["mass_used"] == pytest.approx(MAX_K / 12_000)
     rows = rng.choice(12_000, size=100, replace=False)
     ref = _brute_dtm(X, MAX_K, Q=X[rows])  # reference: brute force with k = 100
     assert_allclose(col.values[rows], ref, rtol=1e-12)
+
+
+def test_k_is_capped_by_the_shared_graph_so_no_second_build():
+    rng = np.random.default_rng(124)
+    X = rng.normal(size=(5_000, 3))
+    ws = Workspace(X, random_state=0)  # min_neighbors = 30: the shared graph holds 30
+    with pytest.warns(LensworkWarning, match=r"asks for k=50 .* capped at 31 .*shared neighbour"):
+        (col,) = get_lens("dtm")(ws, mass=0.01)  # ceil(0.01 * 5000) = 50 > 30 + 1
+    assert col.info["k"] == 31 and col.info["k_requested"] == 50 and col.info["k_cap"] == 31
+    assert col.info["mass"] == 0.01 and col.info["mass_used"] == pytest.approx(31 / 5_000)
+    graphs = [key for key in ws._cache if key[0] == "knn"]
+    assert max(key[2] for key in graphs) == 30  # one build of 30 neighbours, then slices
+    rows = rng.choice(5_000, size=50, replace=False)
+    # reference: brute force from the definition with the k actually used
+    assert_allclose(col.values[rows], _brute_dtm(X, 31, Q=X[rows]), rtol=1e-12)
 
 
 def test_precomputed_graph_and_its_errors():

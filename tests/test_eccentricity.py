@@ -174,6 +174,24 @@ def test_geodesic_landmark_standard_error_holds():
     assert np.all(lower <= true * (1 + 1e-12)) and np.all(true <= (lower + info["gap"]) + 1e-12)
 
 
+def test_geodesic_auto_landmarks_follow_n():
+    rng = np.random.default_rng(77)
+    X = rng.uniform(size=(150, 2))
+    values, info = geodesic_eccentricity(X, k=8, return_info=True)  # landmarks="auto"
+    assert info["mode"] == "exact" and info["landmarks"] == 150  # all rows up to 200
+    # scipy shortest_path on scikit-learn's kneighbors_graph as reference (float64 sums)
+    assert_allclose(values, _brute_geodesic(X, 8, 2.0), rtol=1e-10)
+    X = rng.uniform(size=(1500, 2))
+    values, info = geodesic_eccentricity(X, p=1, k=10, return_info=True)
+    assert info["mode"] == "landmark" and info["landmarks"] == 200  # clip(1e7 / 1500) = 200
+    assert info["landmarks_rule"].startswith("auto") and info["cost_node_visits"] == 200 * 1500
+    err = np.abs(values - _brute_geodesic(X, 10, 1.0))
+    # normal approximation for a mean over 200 shared landmarks: 3 se covers >= 95 %
+    assert np.mean(err <= 3 * info["se"]) >= 0.95
+    with pytest.raises(ParameterError, match=r"'landmarks' parameter .* or 'auto'"):
+        geodesic_eccentricity(X, landmarks="many")
+
+
 def test_geodesic_lens_uses_shared_graph():
     rng = np.random.default_rng(8)
     X = rng.normal(size=(300, 3))

@@ -4,6 +4,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose, assert_array_equal
 from sklearn.datasets import load_iris
+from sklearn.metrics import pairwise_distances
 from sklearn.neighbors import NearestNeighbors
 
 from lenswork import InputError, ParameterError, Workspace, neighbor_graph
@@ -49,6 +50,50 @@ def test_approximate_graph_recall_and_determinism(pynndescent_ready):
     assert np.all(np.diff(a.distances, axis=1) >= 0)
     # recall against exact search (scikit-learn brute force as reference)
     assert a.recall(X, sample=500) >= 0.95
+
+
+@pytest.mark.parametrize("metric", ["euclidean", "cosine"])
+def test_hnsw_graph_recall_against_exact_and_determinism(metric):
+    pytest.importorskip("faiss")  # optional extra lenswork[hnsw]
+    rng = np.random.default_rng(31337)
+    X = rng.normal(size=(3000, 12))
+    a = neighbor_graph(X, k=15, metric=metric, method="hnsw")
+    b = neighbor_graph(X, k=15, metric=metric, method="hnsw")
+    assert a.method == "hnsw" and a.info["algorithm"] == "hnsw"
+    assert_array_equal(a.indices, b.indices)  # one-thread insertion: the same graph every run
+    assert not (a.indices == np.arange(len(X))[:, None]).any()
+    assert np.all(np.diff(a.distances, axis=1) >= 0)
+    # Reference: scikit-learn NearestNeighbors (brute force). tests/benchmarks/bench_backends.py
+    # measured recall@15 0.984 for these settings on 1e5 x 20 Gaussian data, the hardest case
+    # there; 0.95 leaves room for the smaller sample's noise.
+    nn = NearestNeighbors(n_neighbors=16, metric=metric, algorithm="brute").fit(X)
+    dist, idx = nn.kneighbors(X)
+    hits = np.mean([len(set(a.indices[i]) & set(idx[i, 1:])) / 15 for i in range(len(X))])
+    assert hits >= 0.95
+    # found distances recomputed in float64: they equal scikit-learn's for the same pairs
+    D = pairwise_distances(X[:50], X, metric=metric)  # scikit-learn as reference
+    assert_allclose(a.distances[:50], np.take_along_axis(D, a.indices[:50], axis=1),
+                    rtol=1e-10, atol=1e-12)
+
+
+def test_hnsw_errors_name_the_fix(monkeypatch):
+    X = np.random.default_rng(2).normal(size=(100, 3))
+    if __import__("importlib").util.find_spec("faiss") is not None:
+        with pytest.raises(ParameterError, match="supports metric 'euclidean' or 'cosine'"):
+            neighbor_graph(X, k=5, metric="manhattan", method="hnsw")
+    import sys
+
+    monkeypatch.setitem(sys.modules, "faiss", None)  # as if the extra were not installed
+    with pytest.raises(ParameterError, match=r"needs the optional package faiss-cpu"):
+        neighbor_graph(X, k=5, method="hnsw")
+
+
+def test_shared_k_caps_follow_the_settings():
+    rng = np.random.default_rng(3)
+    assert Workspace(rng.normal(size=(500, 3))).shared_k == 30
+    assert Workspace(rng.normal(size=(20, 3))).shared_k == 19  # n - 1 when n is small
+    ws = Workspace(rng.normal(size=(500, 3)), min_neighbors=50)
+    assert ws.shared_k == 50 and ws.neighbors(ws.shared_k).k == 50
 
 
 def test_auto_method_depends_on_size_and_dimension():

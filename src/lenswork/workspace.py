@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import _progress
-from ._errors import InputError, LensworkWarning
+from ._errors import InputError, LensworkWarning, ParameterError
 from ._validation import check_choice, check_int, seed_of
 from .data import PointCloud
 
@@ -24,7 +24,6 @@ __all__ = ["NeighborGraph", "Workspace", "neighbor_graph"]
 
 #: Metrics both back ends (scikit-learn and pynndescent) support under these names.
 METRICS = ("euclidean", "manhattan", "chebyshev", "cosine")
-METHODS = ("auto", "exact", "approximate")
 
 # Crossover between exact scikit-learn and pynndescent, measured on this
 # project's reference machine (2 cores) by tests/benchmarks/bench_neighbors.py;
@@ -47,7 +46,7 @@ class NeighborGraph:
     distances : ndarray of shape (n_samples, k), float64, ascending along each row
     k : int
     metric : str
-    method : {"exact", "approximate"}
+    method : {"exact", "approximate", "hnsw"}
     info : dict
         Back-end details (algorithm, build settings, seconds, recall when measured).
 
@@ -176,6 +175,103 @@ def _choose_method(n, d, metric):
     return "approximate"
 
 
+# ---------------------------------------------------------------- back ends
+# Each back end: (X float64 C-contiguous, k, metric, seed) -> (indices, distances, info) with
+# k + 1 columns per row, the row itself usually first; neighbor_graph drops self and, for the
+# float32 back ends, recomputes the distances in float64.
+
+
+def _exact_backend(X, k, metric, seed):
+    from sklearn.neighbors import NearestNeighbors
+
+    n, d = X.shape
+    algorithm = "kd_tree" if (d <= EXACT_MAX_DIM_TREE and metric != "cosine") else "brute"
+    with _progress.step(f"neighbour graph: exact {algorithm}, n={n}, k={k}"):
+        nn = NearestNeighbors(n_neighbors=k + 1, metric=metric, algorithm=algorithm)
+        nn.fit(X)
+        dist, idx = nn.kneighbors(X)
+    return idx, dist, {"backend": "scikit-learn", "algorithm": algorithm}
+
+
+def _pynndescent_backend(X, k, metric, seed):
+    import pynndescent
+
+    n = X.shape[0]
+    build_k = max(k + 1, _NND_MIN_BUILD_K)
+    with _progress.step(
+        f"neighbour graph: pynndescent, n={n}, k={k} (first call in a process compiles, ~50 s)"
+    ):
+        index = pynndescent.NNDescent(
+            X, n_neighbors=build_k, metric=metric, random_state=seed,
+            low_memory=True, compressed=False, n_jobs=-1, verbose=False,
+        )
+        idx, dist = index.neighbor_graph
+    return (idx[:, : k + 1], dist[:, : k + 1],
+            {"backend": "pynndescent", "build_k": build_k, "random_state": seed})
+
+
+#: HNSW settings (faiss IndexHNSWFlat): links per node, candidate list while building and
+#: while searching (as a multiple of the k + 1 asked for). Measured by
+#: tests/benchmarks/bench_backends.py; see DEVELOPERS.md, "Neighbour back ends".
+HNSW_M = 16
+HNSW_EF_CONSTRUCTION = 200
+HNSW_EF_SEARCH_FACTOR = 2
+
+
+def _hnsw_backend(X, k, metric, seed):
+    try:
+        import faiss
+    except ImportError:
+        raise ParameterError(
+            "method='hnsw' needs the optional package faiss-cpu, which is not installed. "
+            "Install it with `pip install faiss-cpu` (or lenswork's extra: "
+            "`pip install lenswork[hnsw]`), or use method='approximate'."
+        ) from None
+    if metric not in ("euclidean", "cosine"):
+        raise ParameterError(
+            f"method='hnsw' supports metric 'euclidean' or 'cosine'; got {metric!r}. "
+            f"Use method='approximate' (pynndescent) or 'exact' for {metric!r}."
+        )
+    n, d = X.shape
+    X32 = np.ascontiguousarray(X, dtype=np.float32)
+    if metric == "cosine":  # on unit vectors, squared L2 = 2 (1 - cos): the same order
+        X32 /= np.maximum(np.linalg.norm(X32, axis=1, keepdims=True), np.float32(1e-30))
+    with _progress.step(f"neighbour graph: hnsw (faiss), n={n}, k={k}"):
+        index = faiss.IndexHNSWFlat(d, HNSW_M)
+        index.hnsw.efConstruction = HNSW_EF_CONSTRUCTION
+        # Insertion order decides the graph; one thread while adding keeps it the same from
+        # run to run (several threads insert in a schedule-dependent order). Searching is
+        # read-only and uses every thread.
+        threads = faiss.omp_get_max_threads()
+        faiss.omp_set_num_threads(1)
+        try:
+            index.add(X32)
+        finally:
+            faiss.omp_set_num_threads(threads)
+        index.hnsw.efSearch = HNSW_EF_SEARCH_FACTOR * (k + 1)
+        dist, idx = index.search(X32, k + 1)
+    if np.any(idx < 0):
+        raise InputError(
+            f"The HNSW search found fewer than {k + 1} neighbours for some rows (n={n}). "
+            f"Use method='approximate' or 'exact'."
+        )
+    return (idx.astype(np.int64), dist, {
+        "backend": "faiss-cpu " + getattr(faiss, "__version__", "?"), "algorithm": "hnsw",
+        "M": HNSW_M, "ef_construction": HNSW_EF_CONSTRUCTION,
+        "ef_search": HNSW_EF_SEARCH_FACTOR * (k + 1)})
+
+
+#: The neighbour back ends, one table: validation (METHODS), dispatch, and whether the
+#: back end is exact (its distances kept as returned) or approximate in float32 (found
+#: distances recomputed in float64).
+BACKENDS = {
+    "exact": (_exact_backend, True),
+    "approximate": (_pynndescent_backend, False),
+    "hnsw": (_hnsw_backend, False),
+}
+METHODS = ("auto", *BACKENDS)
+
+
 def neighbor_graph(X, k=15, *, metric="euclidean", method="auto", random_state=0):
     """Compute the k-nearest-neighbour graph of ``X`` (self excluded).
 
@@ -185,16 +281,20 @@ def neighbor_graph(X, k=15, *, metric="euclidean", method="auto", random_state=0
     k : int, default=15
         Neighbours per row; needs ``n_samples >= k + 1``.
     metric : {"euclidean", "manhattan", "chebyshev", "cosine"}, default="euclidean"
-    method : {"auto", "exact", "approximate"}, default="auto"
+    method : {"auto", "exact", "approximate", "hnsw"}, default="auto"
         ``"exact"`` uses scikit-learn (kd-tree for d <= 6, brute force above);
         ``"approximate"`` uses pynndescent with a fixed seed, built with
         ``max(k + 1, 24)`` neighbours of which the first k are kept (this lifts
-        recall), its float32 distances recomputed in float64. ``"auto"`` is
-        exact below 50,000 rows, and at any size when d <= 6 (kd-trees stay
-        fast in low dimension), else approximate.
+        recall), its float32 distances recomputed in float64. ``"hnsw"`` uses
+        faiss-cpu's HNSW index (optional extra ``lenswork[hnsw]``; euclidean
+        and cosine), inserted by one thread so the graph is the same on every
+        run, searched by all. ``"auto"`` is exact below 50,000 rows, and at any
+        size when d <= 6 (kd-trees stay fast in low dimension), else
+        approximate.
     random_state : int, default=0
         Seed for pynndescent; the same seed (and the same number of threads)
-        gives the same graph, bit for bit.
+        gives the same graph, bit for bit. The HNSW build has no random choice
+        left to seed (faiss draws node levels from its own fixed seed).
 
     Returns
     -------
@@ -203,8 +303,10 @@ def neighbor_graph(X, k=15, *, metric="euclidean", method="auto", random_state=0
     Notes
     -----
     Cost: exact brute force O(n^2 d); kd-tree about O(n log n) for small d;
-    pynndescent about O(n^1.14 d) plus a one-off numba compilation of 40-55 s
-    in every fresh process.
+    pynndescent about O(n^1.14 d) plus a one-off numba compilation of 25-55 s
+    in every fresh process (numba's on-disk cache does not remove it: the
+    descent's own functions are not cached); HNSW about O(n log n d), no
+    compilation.
 
     Examples
     --------
@@ -227,34 +329,13 @@ def neighbor_graph(X, k=15, *, metric="euclidean", method="auto", random_state=0
         method = _choose_method(n, d, metric)
     import time
 
+    build, exact = BACKENDS[method]
     start = time.perf_counter()
-    if method == "exact":
-        from sklearn.neighbors import NearestNeighbors
-
-        algorithm = "kd_tree" if (d <= EXACT_MAX_DIM_TREE and metric != "cosine") else "brute"
-        with _progress.step(f"neighbour graph: exact {algorithm}, n={n}, k={k}"):
-            nn = NearestNeighbors(n_neighbors=k + 1, metric=metric, algorithm=algorithm)
-            nn.fit(X)
-            dist, idx = nn.kneighbors(X)
-        info = {"backend": "scikit-learn", "algorithm": algorithm}
-    else:
-        import pynndescent
-
-        build_k = max(k + 1, _NND_MIN_BUILD_K)
-        with _progress.step(
-            f"neighbour graph: pynndescent, n={n}, k={k} (first call in a process compiles, ~50 s)"
-        ):
-            index = pynndescent.NNDescent(
-                X, n_neighbors=build_k, metric=metric, random_state=seed_of(random_state),
-                low_memory=True, compressed=False, n_jobs=-1, verbose=False,
-            )
-            idx, dist = index.neighbor_graph
-        idx, dist = idx[:, : k + 1], dist[:, : k + 1]
-        info = {"backend": "pynndescent", "build_k": build_k, "random_state": seed_of(random_state)}
+    idx, dist, info = build(X, k, metric, seed_of(random_state))
     idx, dist = _drop_self(np.asarray(idx), np.asarray(dist, dtype=np.float64), k)
-    if method == "approximate":
-        # pynndescent works in float32: recompute the found distances in float64 so both
-        # back ends report the same numbers for the same pair, and re-sort each row.
+    if not exact:
+        # The approximate back ends work in float32: recompute the found distances in float64
+        # so every back end reports the same numbers for the same pair, and re-sort each row.
         idx, dist = _exact_distances(X, idx, metric)
     info["seconds"] = round(time.perf_counter() - start, 3)
     return NeighborGraph(idx, dist, k, metric, method, info)
@@ -268,7 +349,7 @@ class Workspace:
     data : PointCloud or array-like of shape (n_samples, n_features)
     random_state : int, default=0
         The one seed every lens and the graph builder use.
-    neighbor_method : {"auto", "exact", "approximate"}, default="auto"
+    neighbor_method : {"auto", "exact", "approximate", "hnsw"}, default="auto"
     min_neighbors : int, default=30
         The first neighbour graph is built with at least this many neighbours,
         so later requests for a smaller or slightly larger k (DTM, k-NN distance,
@@ -306,6 +387,17 @@ class Workspace:
     @property
     def d(self):
         return self.cloud.X.shape[1]
+
+    @property
+    def shared_k(self):
+        """Neighbours the shared graph holds at least: ``min(min_neighbors, n - 1)``.
+
+        A lens that asks :meth:`neighbors` for at most this many neighbours
+        reads a slice of the one shared graph; more means a second build. The
+        value depends on the settings only, not on what was computed before,
+        so a lens capped by it gives the same result in any order.
+        """
+        return max(1, min(self.min_neighbors, self.n - 1))
 
     def require_rows(self, needed, what):
         """Raise InputError when the data has fewer than ``needed`` rows for ``what``."""

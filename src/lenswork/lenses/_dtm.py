@@ -59,12 +59,11 @@ def _dtm_from_distances(distances, k):
     return np.sqrt(np.einsum("ij,ij->i", D, D) / k)
 
 
-def _dtm_messages(mass, n, k, wanted, context, warn):
+def _dtm_messages(mass, n, k, wanted, context, warn, why="to keep the neighbour graph small"):
     if wanted > k:
         warn(
             f"{context}: mass={mass:g} asks for k={wanted} nearest points at n={n}; k is capped "
-            f"at {k} (mass {k / n:.3g}) to keep the neighbour graph small. Pass mass <= "
-            f"{k / n:.3g} to silence this."
+            f"at {k} (mass {k / n:.3g}) {why}. Pass mass <= {k / n:.3g} to silence this."
         )
     if k == 1:
         warn(
@@ -269,20 +268,30 @@ class DistanceToMeasure(LensOutputMixin, TransformerMixin, BaseEstimator):
 @register_lens(
     "dtm",
     summary="Distance to a measure: root mean squared distance to the nearest share of points",
-    cost="O(n k), k = ceil(mass n) <= 100, once the neighbour graph exists",
+    cost="O(n k), k = ceil(mass n) <= shared graph k + 1 (31 by default), once the graph exists",
     params=[
         Param(
             "mass", 0.01, partial(check_float, lo=0.0, hi=1.0, lo_open=True),
-            "share of the points in the local average, in (0, 1]; k = ceil(mass n), capped at 100",
+            "share of the points in the local average, in (0, 1]; k = ceil(mass n), capped at "
+            "the shared neighbour graph's k + 1",
         )
     ],
     family="dtm",
 )
 def _dtm_lens(ws, *, mass):
+    # The lens reads the workspace's one shared graph: k - 1 other points may not exceed
+    # the neighbours that graph holds (Workspace.shared_k; min_neighbors = 30 gives k <= 31),
+    # so no setting of mass starts a second, larger neighbour search. More points need
+    # Workspace(min_neighbors=...), still at most MAX_K.
     n = ws.n
-    k, wanted = _dtm_k(mass, n, MAX_K)
-    _dtm_messages(mass, n, k, wanted, "dtm", ws.warn)
-    info = {"k": k, "k_requested": wanted, "mass_used": k / n, "capped": wanted > k,
+    cap = min(MAX_K, ws.shared_k + 1)
+    k, wanted = _dtm_k(mass, n, cap)
+    why = (f"by the shared neighbour graph (k={ws.shared_k}; a larger Workspace(min_neighbors=...)"
+           f" lifts it, up to {MAX_K})")
+    _dtm_messages(mass, n, k, wanted, "dtm", ws.warn, why=why)
+    info = {"k": k, "k_requested": wanted, "mass": mass, "mass_used": k / n,
+            "capped": wanted > k, "k_cap": cap,
+            "k_rule": f"k = min(ceil(mass n), shared graph k + 1 = {ws.shared_k + 1}, {MAX_K})",
             "convention": _CONVENTION}
     if k == 1:
         return [LensPart(np.zeros(n), "", dict(info, graph=None))]

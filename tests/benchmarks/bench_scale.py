@@ -1,0 +1,259 @@
+"""Benchmark: `lenswork screen` and `lenswork graph` end to end at 1e5 and 1e6 rows.
+
+Generates a seeded 1e6 x 20 table (or smaller): a noisy loop with a flare (a
+segment leaving the loop at one point), embedded by a random orthonormal map
+in 6 of the 20 dimensions, plus noise of sd 0.1 in all 20 (14 of them pure
+noise). Saved as .npy so that reading the table costs little. Then, each in a
+FRESH process (so numba compilation and imports are included):
+
+1. ``lenswork screen TABLE`` with default options: wall time, peak RSS of the
+   child (VmHWM of its own address space, read at exit: getrusage would carry
+   the parent's high-water mark over), and per-step seconds parsed from its
+   progress output on stderr ("label ... 1.23 s" lines, nested steps kept
+   apart); whatever the steps do not cover (reading, probe, figures) is
+   "other".
+2. ``lenswork graph TABLE --lens-file OUT/lenses.csv`` on the chosen lenses at
+   the largest size.
+3. Per-lens costs: each default candidate (``lenswork.default_candidates``)
+   computed by ``lenswork.compute_lenses`` on a Workspace, the shared
+   neighbour graph timed first (as the screen builds it: k = 30), with each
+   lens's mode and error read from its LensColumn info.
+
+The machine is shared (2 cores, other work running): quote ratios and
+scaling, not absolute seconds. ``--src DIR`` runs another checkout's
+``src`` (e.g. the code before a change) for a before/after comparison.
+
+Run:  flock /tmp/lenswork-bench.lock python tests/benchmarks/bench_scale.py [--quick]
+      [--sizes 1e5,1e6] [--lens-sizes 1e4,1e5] [--src DIR]
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import re
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+SEED = 20261203
+HERE = Path(__file__).resolve().parent
+SRC = HERE.parents[1] / "src"
+
+# Run in the child: the CLI, then this process's peak RSS (VmHWM) written to a file at exit.
+_LAUNCH = """
+import atexit, sys
+def _peak(path=sys.argv.pop(1)):
+    for line in open('/proc/self/status'):
+        if line.startswith('VmHWM:'):
+            open(path, 'w').write(line.split()[1])
+atexit.register(_peak)
+sys.argv[0] = 'lenswork'
+from lenswork.cli import main
+main()
+"""
+
+
+def make_table(n, rng):
+    """n x 20: a noisy loop with a flare in 6 dimensions, noise in all 20; seeded."""
+    n_flare = n // 7
+    t = rng.uniform(0, 2 * np.pi, n - n_flare)
+    loop = np.column_stack([np.cos(t), np.sin(t), np.zeros_like(t)])
+    s = rng.uniform(0, 1.5, n_flare)  # the flare leaves the loop at (1, 0, 0)
+    flare = np.column_stack([1 + s, 0.3 * s, 0.6 * s])
+    Z = np.vstack([loop, flare])[rng.permutation(n)]
+    Q, _ = np.linalg.qr(rng.normal(size=(6, 3)))  # orthonormal 3 -> 6 map
+    X = rng.normal(scale=0.1, size=(n, 20))
+    X[:, :6] += Z @ Q.T
+    return X
+
+
+def run_cli(args, src, workdir):
+    """Run the CLI in a fresh process; (wall seconds, peak MiB, stderr, stdout, exit code)."""
+    peak_file = Path(workdir) / "peak.txt"
+    env = dict(os.environ, PYTHONPATH=str(src), MPLBACKEND="Agg")
+    cmd = [sys.executable, "-c", _LAUNCH, str(peak_file), *args]
+    start = time.perf_counter()
+    proc = subprocess.run(cmd, capture_output=True, text=True, env=env)
+    wall = time.perf_counter() - start
+    peak = int(peak_file.read_text()) / 1024 if peak_file.exists() else float("nan")
+    peak_file.unlink(missing_ok=True)
+    return wall, peak, proc.stderr, proc.stdout, proc.returncode
+
+
+_TOKEN = re.compile(r"  (?P<label>[^\n]+?) \.\.\.(?!\.)|(?P<secs>\d+\.\d+) s$|(?P<fail> failed)$",
+                    re.MULTILINE)
+
+
+def parse_steps(stderr):
+    """Top-level and nested steps from the progress output: [(depth, label, seconds)]."""
+    stack, steps = [], []
+    for m in _TOKEN.finditer(stderr):
+        if m.group("label") is not None:
+            stack.append(m.group("label").strip())
+        elif stack:
+            label = stack.pop()
+            secs = float(m.group("secs")) if m.group("secs") else float("nan")
+            steps.append((len(stack), label, secs))
+    return steps
+
+
+def summarise_steps(steps):
+    """Seconds per kind of top-level step (lens names kept), nested steps listed apart."""
+    rows = []
+    for depth, label, secs in steps:
+        name = re.sub(r"^lens \d+/\d+: ", "", label)
+        rows.append({"depth": depth, "step": name, "seconds": secs})
+    return rows
+
+
+def bench_screen(n, src, tmp, keep=False):
+    rng = np.random.default_rng([SEED, n])
+    table = Path(tmp) / f"table_{n}.npy"
+    np.save(table, make_table(n, rng))
+    out = Path(tmp) / f"screen_{n}"
+    wall, peak, err, stdout, code = run_cli(["screen", str(table), "-o", str(out)], src, tmp)
+    if code != 0:
+        print(f"screen n={n} failed (exit {code}):\n{err[-2000:]}", flush=True)
+        return None
+    steps = summarise_steps(parse_steps(err))
+    top = sum(r["seconds"] for r in steps if r["depth"] == 0)
+    selected = re.search(r"^Selected: (.*?) \(", stdout, re.MULTILINE)
+    print(f"\n== lenswork screen, n={n:,} x 20, fresh process: wall {wall:.1f} s, peak RSS "
+          f"{peak:,.0f} MiB; selected: {selected.group(1) if selected else '?'}", flush=True)
+    for r in steps:
+        print(f"  {'  ' * r['depth']}{r['step'][:78]:<80} {r['seconds']:8.2f} s")
+    print(f"  {'other (start-up, reading, probe, figures, writing outside steps)':<80} "
+          f"{wall - top:8.2f} s", flush=True)
+    return {"n": n, "table": table, "out": out, "wall": wall, "peak": peak}
+
+
+def bench_graph(run, src, tmp):
+    lens_file = run["out"] / "lenses.csv"
+    gout = Path(tmp) / f"graph_{run['n']}"
+    wall, peak, err, stdout, code = run_cli(
+        ["graph", str(run["table"]), "--lens-file", str(lens_file), "-o", str(gout)], src, tmp)
+    if code != 0:
+        print(f"graph n={run['n']} failed (exit {code}):\n{err[-2000:]}", flush=True)
+        return
+    steps = summarise_steps(parse_steps(err))
+    top = sum(r["seconds"] for r in steps if r["depth"] == 0)
+    print(f"\n== lenswork graph --lens-file, n={run['n']:,}: wall {wall:.1f} s, peak RSS "
+          f"{peak:,.0f} MiB", flush=True)
+    for r in steps:
+        print(f"  {'  ' * r['depth']}{r['step'][:78]:<80} {r['seconds']:8.2f} s")
+    print(f"  {'other (start-up, reading table and lens file, outside steps)':<80} "
+          f"{wall - top:8.2f} s")
+    summary = [line for line in stdout.splitlines() if line.strip()][:6]
+    print("  " + "\n  ".join(summary), flush=True)
+
+
+# ---------------------------------------------------------------- per-lens costs (child)
+def _error_of(info):
+    for key in ("rel_se_median", "rel_gap_median", "max_residual", "rel_hard_width_median"):
+        if key in info and info[key] is not None:
+            return f"{key}={info[key]:.2g}"
+    if "error" in info:
+        return str(info["error"])[:40]
+    if "capped" in info:
+        return f"k={info['k']} (asked {info['k_requested']}), exact on the graph"
+    return "exact on the graph" if "k" in info else "exact"
+
+
+def lens_costs_child(n):
+    import warnings
+
+    import lenswork as lw
+
+    X = make_table(n, np.random.default_rng([SEED, n]))
+    ws = lw.Workspace(X, random_state=0)
+    rows = []
+    start = time.perf_counter()
+    g = ws.neighbors(ws.min_neighbors)
+    rows.append({"lens": f"neighbour graph k={g.k}", "seconds": time.perf_counter() - start,
+                 "mode": g.method + " " + g.info.get("backend", ""), "error": "-"})
+    for name, params in lw.default_candidates(ws):
+        start = time.perf_counter()
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            table = lw.compute_lenses(ws, [(name, params)])
+        secs = time.perf_counter() - start
+        info = table.columns[0].info
+        mode = info.get("mode") or info.get("method") or info.get("solver") or ""
+        spec = name + (":" + ",".join(f"{k}={v}" for k, v in params.items()) if params else "")
+        graphs = sorted({key[2] for key in ws._cache if key[0] == "knn"})
+        rows.append({"lens": spec, "seconds": secs, "mode": str(mode), "error": _error_of(info),
+                     "warned": len(caught), "graphs_k": graphs[-1] if graphs else None,
+                     "landmarks": info.get("landmarks")})
+    peak = next(int(line.split()[1]) / 1024
+                for line in Path("/proc/self/status").read_text().splitlines()
+                if line.startswith("VmHWM:"))
+    print(json.dumps({"rows": rows, "peak": peak}))
+
+
+def bench_lens_costs(sizes, src):
+    env = dict(os.environ, PYTHONPATH=f"{src}{os.pathsep}{HERE}", MPLBACKEND="Agg")
+    table = {}
+    for n in sizes:
+        proc = subprocess.run([sys.executable, __file__, "--lens-child", str(n)],
+                              capture_output=True, text=True, env=env)
+        if proc.returncode != 0:
+            print(f"per-lens n={n} failed:\n{proc.stderr[-2000:]}")
+            continue
+        rec = json.loads(proc.stdout.strip().splitlines()[-1])
+        table[n] = rec
+        print(f"  per-lens n={n:,}: peak RSS {rec['peak']:,.0f} MiB", flush=True)
+    if not table:
+        return
+    print("\n== per-lens cost (seconds; mode; error from LensColumn info), fresh process per n")
+    names = [r["lens"] for r in next(iter(table.values()))["rows"]]
+    header = f"{'lens':<36}" + "".join(f"{f'n={n:.0e}':>10}" for n in table) + "   mode / error"
+    print(header)
+    for i, name in enumerate(names):
+        cells = "".join(f"{table[n]['rows'][i]['seconds']:10.2f}" for n in table)
+        last = table[max(table)]["rows"][i]
+        extra = f"   {last['mode']} / {last['error']}"
+        if last.get("landmarks"):
+            extra += f" / landmarks {last['landmarks']}"
+        if last.get("graphs_k") and name != names[0]:
+            extra += f" / largest graph k={last['graphs_k']}"
+        print(f"{name[:36]:<36}{cells}{extra}")
+
+
+def main():
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--quick", action="store_true", help="screen and per-lens at 1e4 only")
+    parser.add_argument("--sizes", default="1e5,1e6", help="screen sizes (default 1e5,1e6)")
+    parser.add_argument("--lens-sizes", default="1e4,1e5,1e6", help="per-lens table sizes")
+    parser.add_argument("--graph-size", default=None,
+                        help="run `lenswork graph --lens-file` at this screen size "
+                             "(default: the largest)")
+    parser.add_argument("--src", default=str(SRC), help="lenswork src directory to run")
+    parser.add_argument("--lens-child", type=int, help=argparse.SUPPRESS)
+    args = parser.parse_args()
+    if args.lens_child:
+        lens_costs_child(args.lens_child)
+        return
+    sizes = [10_000] if args.quick else [int(float(s)) for s in args.sizes.split(",") if s]
+    lens_sizes = [10_000] if args.quick else [int(float(s)) for s in args.lens_sizes.split(",")
+                                              if s]
+    src = Path(args.src).resolve()
+    print(f"lenswork from {src}; machine: {os.cpu_count()} cores, shared", flush=True)
+    with tempfile.TemporaryDirectory(prefix="lenswork-scale-") as tmp:
+        runs = [r for r in (bench_screen(n, src, tmp) for n in sizes) if r]
+        if runs:
+            gsize = int(float(args.graph_size)) if args.graph_size else max(r["n"] for r in runs)
+            for r in runs:
+                if r["n"] == gsize:
+                    bench_graph(r, src, tmp)
+        if lens_sizes:
+            bench_lens_costs(lens_sizes, src)
+
+
+if __name__ == "__main__":
+    main()
