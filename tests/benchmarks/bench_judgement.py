@@ -110,7 +110,10 @@ def proposed_ranking(result, ws):
         structure[j] = structure_significance(diagrams) if diagrams else 0.25
     merit = proposed_merit(spread, smooth, structure)
     merit[~result.usable] = 0.0
-    nb = ws.neighbors(15)
+    nb = ws.neighbors(30)  # the workspace's shared graph size (Workspace.min_neighbors)
+    # the pair for a two-lens cover: the best R_NX(pair) x sqrt(merit_i merit_j) among pairs under
+    # the redundancy ceiling; the single-lens ranking (its top lens for a one-lens graph) is by
+    # merit alone
     best, chosen = -1.0, ()
     absr = np.nan_to_num(np.abs(result.correlation), nan=1.0)
     for i, j in combinations(range(len(names)), 2):
@@ -119,9 +122,9 @@ def proposed_ranking(result, ws):
         score = max(neighbour_preservation(V[:, [i, j]], nb), 0.0) * np.sqrt(merit[i] * merit[j])
         if score > best + 1e-12:
             best, chosen = score, (i, j) if merit[i] >= merit[j] else (j, i)
-    rest = sorted((j for j in range(len(names)) if j not in chosen),
-                  key=lambda j: (-merit[j], j))
-    return {"selected": list(chosen), "order": list(chosen) + rest, "merit": merit,
+    top = int(np.argmax(merit))
+    order = sorted(range(len(names)), key=lambda j: (-merit[j], j))
+    return {"selected": list(chosen), "top": top, "order": order, "merit": merit,
             "spread": spread, "smooth": smooth, "structure": structure}
 
 
@@ -142,21 +145,21 @@ def evaluate(case, cloud, proposed):
     V = np.column_stack([np.asarray(c.values, dtype=np.float64) for c in result.lenses.columns])
     R = np.column_stack([rankdata(V[:, j]) / V.shape[0] for j in range(m)])
     acc = pair_table(R, case.labels, m) if case.labelled else None
-    rows = {"current": (result.selected, [r["rank"] - 1 for r in result.rows()])}
     order_cur = [names.index(r["column"]) for r in result.rows()]
-    rows["current"] = (result.selected, order_cur)
+    rows = {"current": (result.selected, order_cur, result.selected[0])}
     if proposed:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             prop = proposed_ranking(result, ws)
-        rows["proposed"] = ([names[j] for j in prop["selected"]], prop["order"])
+        rows["proposed"] = ([names[j] for j in prop["selected"]], prop["order"],
+                            names[prop["top"]])
         if VERBOSE:
             for j in prop["order"]:
                 print(f"    {names[j]:<28} merit {prop['merit'][j]:.3f} spread "
                       f"{prop['spread'][j]:.2f} smooth {prop['smooth'][j]:.2f} structure "
                       f"{prop['structure'][j]:.2f}")
     out = {}
-    for label, (chosen, order) in rows.items():
+    for label, (chosen, order, top) in rows.items():
         rec = {"chosen": chosen, "noise_rank": noise_rank(order, names), "m": m,
                "seconds": seconds}
         if acc is not None:
@@ -171,13 +174,15 @@ def evaluate(case, cloud, proposed):
         if case.b1 is not None:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
-                rec.update(shape_features(result, ws, chosen[0]))
+                rec.update(shape_features(result, ws, top))
+        rec["top"] = top
         out[label] = rec
     return out
 
 
 def fmt_table(title, records):
-    head = (f"{'dataset':<15} {'n x d':>10}  {'chosen pair':<44} {'acc':>5} {'rank':>7} "
+    head = (f"{'dataset':<15} {'n x d':>10}  {'chosen pair':<44} {'top lens':<22} "
+            f"{'acc':>5} {'rank':>7} "
             f"{'pca12':>5} {'rank':>7}  {'b1/known':>8} {'flr/known':>9} {'sigL':>4} "
             f"{'sigB':>4}  {'noise':>6}")
     lines = [title, head, "-" * len(head)]
@@ -197,7 +202,8 @@ def fmt_table(title, records):
         else:
             b1 = fl = sl = sb = "-"
         nd = f"{case.X.shape[0]}x{case.X.shape[1]}"
-        lines.append(f"{case.name:<15} {nd:>10}  {chosen:<44} {acc:>5} {rank:>7} {pca:>5} "
+        lines.append(f"{case.name:<15} {nd:>10}  {chosen:<44} {rec['top']:<22} "
+                     f"{acc:>5} {rank:>7} {pca:>5} "
                      f"{prank:>7}  {b1:>8} {fl:>9} {sl:>4} {sb:>4}  "
                      f"{rec['noise_rank']:>2}/{rec['m']:<3}")
     return "\n".join(lines)
@@ -254,7 +260,8 @@ def main(argv=None):
                         records["proposed"]))
         print(verdict(records["proposed"], "proposed"))
     print("\nacc: balanced accuracy, 15-NN, 5-fold stratified CV on the pair's ranks; rank among "
-          "all candidate pairs (1 = best). b1 / flr: loops / flares of the top lens's default "
+          "all candidate pairs (1 = best). top lens: rank 1 of the single-lens ranking (current: "
+          "the first lens selected). b1 / flr: loops / flares of the top lens's default "
           "graph; sigL / sigB: significant loops / branches (persistence > 2 interval lengths). "
           "noise: rank of the pure-noise lens.")
 
