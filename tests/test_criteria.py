@@ -122,3 +122,41 @@ def test_errors():
         robust_spread([1.0, np.inf, 2.0])
     with pytest.raises(ParameterError, match="at least 2 values"):
         robust_spread([1.0])
+
+
+def _rnx_brute(F, ind, k):
+    """Q_NX(k) from explicit neighbour sets (Lee and Verleysen 2009, eq. 9), rescaled to R_NX."""
+    from sklearn.neighbors import NearestNeighbors
+
+    n = F.shape[0]
+    U = np.column_stack([(rankdata(F[:, j]) - 0.5) / n for j in range(F.shape[1])])
+    lens_nb = NearestNeighbors(n_neighbors=k + 1).fit(U).kneighbors(U, return_distance=False)
+    q = np.mean([len(set(lens_nb[i][lens_nb[i] != i][:k]) & set(ind[i, :k])) / k
+                 for i in range(n)])
+    return ((n - 1) * q - k) / (n - 1 - k)
+
+
+def test_neighbour_preservation_matches_explicit_sets():
+    from lenswork.criteria import neighbour_preservation
+
+    rng = np.random.default_rng(48)
+    X = rng.normal(size=(300, 3))
+    nb = Workspace(X).neighbors(12)
+    F = X[:, :2] + 0.3 * rng.normal(size=(300, 2))
+    # ranks sit on a lattice, so distances tie; scikit-learn and scipy's k-d tree break ties
+    # differently, which moves a few neighbours at the k-th place: 0.005 allows for that
+    assert neighbour_preservation(F, nb, scale="k") == pytest.approx(
+        _rnx_brute(F, nb.indices, 12), abs=0.005)
+    # log-scale area: sum_k R_NX(k) / k over sum_k 1 / k (Lee, Peluffo-Ordonez and Verleysen 2015)
+    ks = np.arange(1, 13)
+    auc = sum(_rnx_brute(F, nb.indices, k) / k for k in ks) / (1.0 / ks).sum()
+    assert neighbour_preservation(F, nb) == pytest.approx(auc, abs=0.005)
+    # random lens space: R_NX is 0 in expectation (the rescaling's purpose)
+    assert abs(neighbour_preservation(rng.normal(size=(300, 2)), nb)) < 0.05
+
+
+def test_proposed_merit_vanishes_with_any_score():
+    from lenswork.criteria import proposed_merit
+
+    m = proposed_merit([0.9, 0.9, 0.0], [0.8, 0.0, 0.8], [0.5, 0.5, 0.5])
+    assert m[0] == pytest.approx((0.9 * 0.8 * 0.5) ** (1 / 3)) and m[1] == 0 and m[2] == 0

@@ -267,3 +267,19 @@ def test_errors():
     g = build_graph(X[:, 0], X, intervals=4)
     with pytest.raises(ParameterError, match="no lens 'nope'"):
         lens_persistence(g, "nope")
+
+
+def test_structure_significance_counts_significant_features_only():
+    from lenswork.graph._persistence import structure_significance
+
+    ring = extended_persistence([[i, (i + 1) % 6] for i in range(6)],
+                                [0.0, 1, 2, 3, 2, 1], threshold=0.3)
+    # one loop of significance 1: T = 1, floor + (1 - floor)(1 - 1/2) = 0.625 (closed form)
+    assert structure_significance(ring) == pytest.approx(0.625)
+    # a bump of significance 0.25 below the threshold 0.3 counts for nothing: the floor
+    bump = extended_persistence([[0, 1], [1, 2], [2, 3]], [0.0, 2.0, 1.0, 4.0], threshold=0.3)
+    assert structure_significance(bump) == pytest.approx(0.25)
+    # the median over cover settings: two of three diagrams without the loop
+    assert structure_significance([ring, bump, bump]) == pytest.approx(0.25)
+    with pytest.raises(ParameterError, match="No diagram point kind 'hole'"):
+        structure_significance(ring, weights={"hole": 1.0})
