@@ -49,6 +49,22 @@ separates groups: a bimodal lens is carried by all its rows. The measure:
 histogram entropy it does not depend on a bin count and does not mark down a
 lens whose values sit in two or three groups.
 
+Neighbour preservation of a pair
+--------------------------------
+Two lenses make a two-dimensional cover space; :func:`neighbour_preservation`
+measures how many of each row's data neighbours stay its neighbours there
+(``R_NX``, Lee and Verleysen 2009), the pair-level analogue of the Laplacian
+score.
+
+A merit proposal
+----------------
+:func:`proposed_merit` combines, per lens, robust spread, smoothness and a
+significance-based structure score
+(``lenswork.graph._persistence.structure_significance``) by a geometric mean.
+Measured in tests/benchmarks/bench_judgement.py: the single-lens ranking by
+this merit, and the pair with the largest ``R_NX(pair) * sqrt(merit_i
+merit_j)`` under the redundancy ceiling.
+
 References
 ----------
 .. [1] X. He, D. Cai and P. Niyogi, "Laplacian Score for Feature Selection",
