@@ -160,3 +160,21 @@ def test_proposed_merit_vanishes_with_any_score():
 
     m = proposed_merit([0.9, 0.9, 0.0], [0.8, 0.0, 0.8], [0.5, 0.5, 0.5])
     assert m[0] == pytest.approx((0.9 * 0.8 * 0.5) ** (1 / 3)) and m[1] == 0 and m[2] == 0
+
+
+def test_neighbour_jitter_is_the_laplacian_score_in_cover_units():
+    # He et al. 2005: f~^T L f~ = 1/2 sum_ij S_ij (f_i - f_j)^2, so
+    # delta^2 = sum_ij S_ij (u_i - u_j)^2 / sum_ij S_ij = 2 L_r (f~^T D f~) / (1^T D 1)
+    from lenswork.criteria import neighbour_jitter
+
+    rng = np.random.default_rng(49)
+    X = rng.normal(size=(150, 3))
+    S = heat_kernel_affinity(X, k=10)
+    f = X[:, 0] + 0.2 * rng.normal(size=150)
+    Sd = S.toarray()
+    d = Sd.sum(axis=1)
+    ft = f - (f @ d) / d.sum()
+    lr = laplacian_score(f, S, scale="raw")
+    expected = np.sqrt(2 * lr * (ft @ (d * ft)) / d.sum()) / np.ptp(f)
+    assert neighbour_jitter(f, S, scale="raw") == pytest.approx(expected, rel=1e-10)
+    assert neighbour_jitter(np.ones(150), S) == 0.0

@@ -22,9 +22,14 @@ from _judgement_data import (
     y_shape,
 )
 
-from lenswork import LensworkWarning, Workspace, build_graph
-from lenswork.criteria import heat_kernel_affinity, laplacian_score, smoothness
-from lenswork.graph._persistence import lens_persistence
+from lenswork import LensworkWarning, Workspace, build_graph, compute_lenses
+from lenswork.criteria import (
+    heat_kernel_affinity,
+    laplacian_score,
+    neighbour_jitter,
+    smoothness,
+)
+from lenswork.graph._persistence import lens_persistence, resolution_threshold
 
 
 def _diagram(builder, lens):
@@ -82,3 +87,27 @@ def test_pure_noise_lens_has_no_smoothness():
     height, noise = smoothness(laplacian_score(
         np.c_[case.X[:, 0], cloud.passthrough["noise"]], S))
     assert height > 0.9 and noise < 0.1
+
+
+def test_jitter_rule_drops_the_loops_of_a_jittery_lens_on_a_sphere():
+    # The sphere is simply connected: the Reeb graph of any lens on it is a tree (b1 = 0). A
+    # kernel density lens on a uniform sphere is sampling noise smoothed by the kernel: it
+    # jitters between data neighbours by about one interval length, its slices are ragged, and
+    # the clustering makes long loops. With the neighbour jitter in the threshold they do not
+    # count; a smooth lens (the first principal coordinate) keeps its threshold near 2 L.
+    case, cloud = build(sphere, seed=0)
+    ws = Workspace(cloud, random_state=0)
+    S = heat_kernel_affinity(ws, k=15)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", LensworkWarning)
+        table = compute_lenses(ws, ["density", "pca:components=1"])
+        for col in table.columns:
+            v = np.asarray(col.values)
+            g = build_graph(v, ws)
+            jitter = neighbour_jitter(v, S)
+            d = lens_persistence(g, jitter=jitter)
+            assert d.threshold == pytest.approx(resolution_threshold(10, 0.3, jitter))
+            assert d.count("loop", significant=True) == case.b1, col.name
+    # the density lens is the jittery one: delta of the order of an interval length L = 1 / 7.3
+    v = np.asarray(table["density"].values)
+    assert neighbour_jitter(v, S) > 0.5 / 7.3

@@ -44,6 +44,7 @@ import lenswork as lw  # noqa: E402
 from lenswork.criteria import (  # noqa: E402
     heat_kernel_affinity,
     laplacian_score,
+    neighbour_jitter,
     neighbour_preservation,
     proposed_merit,
     robust_spread,
@@ -74,11 +75,17 @@ def rank_of(acc, pair):
     return 1 + sum(1 for v in acc.values() if v > acc[key] + 1e-12)
 
 
+def jitter_of(result, ws, name):
+    """The lens's neighbour jitter on the rank scale (the cover's default)."""
+    v = np.asarray(result.lenses[name].values, dtype=np.float64)
+    return neighbour_jitter(v, heat_kernel_affinity(ws, k=15))
+
+
 def shape_features(result, ws, top):
     """Default graph of the top lens: summary counts and significant features."""
     g = lw.build_graph(result.lenses.select([top]), ws)
     s = g.summary()
-    d = lens_persistence(g)
+    d = lens_persistence(g, jitter=jitter_of(result, ws, top))
     sig_b = d.count("down", significant=True) + d.count("up", significant=True)
     return {"b1": s.loops, "flares": s.n_flares, "sig_loops": d.count("loop", significant=True),
             "sig_branches": sig_b, "nodes": s.n_nodes}
@@ -99,6 +106,7 @@ def proposed_ranking(result, ws):
     for j, name in enumerate(names):
         if not result.usable[j]:
             continue
+        jitter = neighbour_jitter(V[:, j], S)
         col = result.lenses.select([name])
         diagrams = []
         for intervals, overlap in GRID:
@@ -106,7 +114,7 @@ def proposed_ranking(result, ws):
                 g = lw.build_graph(col, ws, intervals=intervals, overlap=overlap)
             except lw.ParameterError:  # no node at this cover: nothing revealed there
                 continue
-            diagrams.append(lens_persistence(g))
+            diagrams.append(lens_persistence(g, jitter=jitter))
         structure[j] = structure_significance(diagrams) if diagrams else 0.25
     merit = proposed_merit(spread, smooth, structure)
     merit[~result.usable] = 0.0
@@ -262,7 +270,8 @@ def main(argv=None):
     print("\nacc: balanced accuracy, 15-NN, 5-fold stratified CV on the pair's ranks; rank among "
           "all candidate pairs (1 = best). top lens: rank 1 of the single-lens ranking (current: "
           "the first lens selected). b1 / flr: loops / flares of the top lens's default "
-          "graph; sigL / sigB: significant loops / branches (persistence > 2 interval lengths). "
+          "graph; sigL / sigB: significant loops / branches (persistence > 2 (L + delta): interval "
+          "length L, neighbour jitter delta). "
           "noise: rank of the pure-noise lens.")
 
 

@@ -59,9 +59,15 @@ length ``L`` and overlap ``p`` (step ``s = L (1 - p)``), :func:`lens_persistence
 takes as node function the midpoint of the node's interval on the cover scale
 (a discretisation of the lens at the cover's resolution, as in [1]_), so the
 range is the span of the midpoints, ``(N - 1) s``, and 1 means "spans every
-interval". A feature is *significant* when its persistence exceeds ``2 L``,
-i.e. its significance exceeds ``2 / ((N - 1)(1 - p))`` (0.32 at 10 intervals
-and overlap 0.3). The reasons:
+interval". A feature is *significant* when its persistence exceeds
+``2 (L + delta)``, i.e. its significance exceeds
+``2 (1 + delta / L) / ((N - 1)(1 - p))`` (0.32 at 10 intervals and overlap 0.3
+for a lens with ``delta = 0``), where ``delta`` is the lens's own jitter at the
+data's resolution: the root-mean-square difference of the lens (on the cover
+scale, as a share of its range) between neighbours of the heat-kernel k-NN
+graph, ``delta^2 = sum_ij S_ij (u_i - u_j)^2 / sum_ij S_ij`` (which is
+``2 L_r var_D(u)`` with ``L_r`` the Laplacian score of He, Cai and Niyogi 2005;
+``lenswork.criteria.neighbour_jitter``). The reasons:
 
 1. Resolution (Carrière and Oudot [1]_): the Mapper's diagram is the Reeb
    graph's with the points inside the cover's staircases removed, i.e. a
@@ -69,22 +75,27 @@ and overlap 0.3). The reasons:
    no trace, and one that shows carries the cover's discretisation. Whether a
    feature shorter than ``L`` exists is a property of the cover, not of the
    data.
-2. Discretisation error: every member of a node lies within ``L / 2`` of its
-   interval's midpoint, so a feature measured at persistence ``P`` between
-   two nodes spans between ``P - L`` and ``P + L`` of the lens in the data.
-   Requiring ``P - L > L`` certifies that even after the largest error is
-   taken off, the feature spans more than the resolution.
+2. Uncertainty of the two ends: every member of a node lies within ``L / 2``
+   of its interval's midpoint, and where the clustering puts the boundary of
+   a node depends on rows that are neighbours in the data but differ in the
+   lens by about ``delta``. So each end of a feature is known to within
+   ``L / 2 + delta``, and a feature measured at persistence ``P`` spans at
+   least ``P - L - 2 delta`` of the lens in the data. Requiring that to exceed
+   ``L`` certifies a feature the cover resolves.
 3. What it rejects: a clustering split inside one cover element that
    rejoins in the next (a four-node cycle over three intervals, the commonest
    noise loop), and a spur of one or two nodes, measure ``2 s`` and ``s``,
-   both below ``2 L`` for any overlap; a loop or branch across at least four
-   consecutive intervals (at ``p <= 1/3``) passes. Splits that persist over
-   several elements are not told from structure by the cover alone: that is
-   what resampling is for (recurrence under the bootstrap, Carrière, Michel
-   and Oudot [3]_, whose confidence region for the diagram is likewise a band
-   of a given width along the diagonal).
+   both below ``2 L`` for any overlap; a lens that jitters between neighbours
+   by about an interval (``delta ~ L``: a noisy density or eccentricity) makes
+   ragged interval preimages whose clusters split and rejoin over several
+   intervals, and its threshold doubles accordingly. Splits that persist over
+   several elements for a smooth lens are not told from structure by the
+   cover alone: that is what resampling is for (recurrence under the
+   bootstrap, Carrière, Michel and Oudot [3]_, whose confidence region for
+   the diagram is likewise a band of a given width along the diagonal).
 
-The rule has no constant tuned to any data: it is fixed by the cover.
+The rule has no constant tuned to any data: it is fixed by the cover and by the
+lens's own Laplacian score.
 
 References
 ----------
@@ -425,8 +436,8 @@ def extended_persistence(edges, values, *, n_nodes=None, threshold=0.0):
     return _diagram(E, f, rng, threshold)
 
 
-def resolution_threshold(intervals, overlap):
-    """The significance threshold of a one-lens cover: ``2 L`` over the midpoint span.
+def resolution_threshold(intervals, overlap, jitter=0.0):
+    """The significance threshold of a one-lens cover: ``2 (L + delta)`` over the midpoint span.
 
     Parameters
     ----------
@@ -434,33 +445,43 @@ def resolution_threshold(intervals, overlap):
         Interval count ``N``.
     overlap : float in [0, 1)
         Overlap fraction ``p``.
+    jitter : float >= 0, default=0.0
+        ``delta``: the lens's root-mean-square difference between data
+        neighbours, as a share of the cover scale's range
+        (``lenswork.criteria.neighbour_jitter``).
 
     Returns
     -------
     float
-        ``2 / ((N - 1)(1 - p))``; ``inf`` for one interval (nothing can be
-        certified).
+        ``2 (L + delta) / ((N - 1) s)`` with ``L = 1 / (1 + (N - 1)(1 - p))`` and
+        ``s = L (1 - p)`` (range 1), i.e. ``2 (1 + delta / L) / ((N - 1)(1 - p))``;
+        ``inf`` for one interval (nothing can be certified).
 
     Notes
     -----
-    A feature must span more than twice the interval length ``L``: one ``L``
-    for the cover's resolution, one for the discretisation error of its two
-    end nodes (module notes; Carrière and Oudot 2018). Relative to the span
-    ``(N - 1) L (1 - p)`` of the interval midpoints.
+    A feature must span more than the resolution ``L`` after the uncertainty of
+    both its ends is taken off; each end is a node whose level is known to
+    ``L / 2`` (its interval) plus ``delta`` (where the lens puts the rows the
+    clustering joins as neighbours). See the module notes; Carrière and Oudot
+    2018.
 
     Examples
     --------
     >>> round(resolution_threshold(10, 0.3), 3), resolution_threshold(1, 0.3)
     (0.317, inf)
+    >>> round(resolution_threshold(10, 0.3, jitter=1 / 7.3), 3)   # delta = L doubles it
+    0.635
     """
     N = check_int("intervals", intervals, lo=1, context="resolution_threshold")
     p = check_float("overlap", overlap, lo=0, hi=1, hi_open=True, context="resolution_threshold")
+    jitter = check_float("jitter", jitter, lo=0, context="resolution_threshold")
     if N == 1:
         return math.inf
-    return 2.0 / ((N - 1) * (1.0 - p))
+    L = 1.0 / (1.0 + (N - 1) * (1.0 - p))
+    return 2.0 * (1.0 + jitter / L) / ((N - 1) * (1.0 - p))
 
 
-def lens_persistence(graph, lens=0):
+def lens_persistence(graph, lens=0, *, jitter=0.0):
     """Extended persistence of one lens on a LensGraph, with the cover's significance rule.
 
     Parameters
@@ -469,6 +490,10 @@ def lens_persistence(graph, lens=0):
         Built by :func:`~lenswork.build_graph` (its parameters record the cover).
     lens : int or str, default=0
         Which lens of the cover (index or column name).
+    jitter : float >= 0, default=0.0
+        The lens's neighbour jitter ``delta`` on the cover scale, as a share of
+        its range (``lenswork.criteria.neighbour_jitter``); it widens the
+        threshold (see :func:`resolution_threshold`).
 
     Returns
     -------
@@ -511,7 +536,7 @@ def lens_persistence(graph, lens=0):
     p = float(cover["overlap"][j])
     level = graph.node_elements[:, j].astype(np.float64)
     E = np.asarray(graph.edge_index, dtype=np.int64).reshape(-1, 2)
-    return _diagram(E, level, float(N - 1), resolution_threshold(N, p))
+    return _diagram(E, level, float(N - 1), resolution_threshold(N, p, jitter))
 
 
 #: Weights of the feature kinds in :func:`structure_significance` (those of the structure
