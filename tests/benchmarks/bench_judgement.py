@@ -54,6 +54,7 @@ from lenswork.graph._persistence import lens_persistence, structure_significance
 
 NOISE_SPEC = f"column:name={NOISE_COLUMN}"
 VERBOSE = False
+ABLATE = ""
 
 
 def separation(R, labels, cols):
@@ -116,7 +117,12 @@ def proposed_ranking(result, ws):
                 continue
             diagrams.append(lens_persistence(g, jitter=jitter))
         structure[j] = structure_significance(diagrams) if diagrams else 0.25
-    merit = proposed_merit(spread, smooth, structure)
+    if ABLATE:  # merit without one of its three factors (set to 1), to see what each does
+        parts = {"spread": spread, "smooth": smooth, "structure": structure}
+        parts[ABLATE] = np.ones(len(names))
+        merit = proposed_merit(parts["spread"], parts["smooth"], parts["structure"])
+    else:
+        merit = proposed_merit(spread, smooth, structure)
     merit[~result.usable] = 0.0
     nb = ws.neighbors(30)  # the workspace's shared graph size (Workspace.min_neighbors)
     # the pair for a two-lens cover: the best R_NX(pair) x sqrt(merit_i merit_j) among pairs under
@@ -241,9 +247,11 @@ def main(argv=None):
     ap.add_argument("--no-proposed", action="store_true", help="the current screen only")
     ap.add_argument("--verbose", action="store_true", help="print the proposed scores")
     ap.add_argument("--only", default="", help="comma-separated dataset names")
+    ap.add_argument("--ablate", default="", choices=["", "spread", "smooth", "structure"],
+                    help="leave one factor out of the proposed merit")
     args = ap.parse_args(argv)
-    global VERBOSE
-    VERBOSE = args.verbose
+    global VERBOSE, ABLATE
+    VERBOSE, ABLATE = args.verbose, args.ablate
     builders = BUILDERS[:2] + BUILDERS[8:10] if args.quick else BUILDERS
     if args.only:
         keep = set(args.only.split(","))
