@@ -365,7 +365,7 @@ def _diagram(E, f, rng, threshold):
         nodes.append((bv, dv))
 
     down_pairs, roots_min = _h0(up, nb, f)
-    _, roots_max = _h0(down, nb, f)
+    up_pairs, roots_max = _h0(down, nb, f)
     comps = {}
     for v in range(V):
         comps.setdefault(roots_min[v], roots_max[v])
@@ -377,7 +377,6 @@ def _diagram(E, f, rng, threshold):
     for bv, dv in down_pairs:
         if f[dv] > f[bv]:
             add("down", bv, dv)
-    up_pairs, _ = _h0(down, nb, f)
     for bv, dv in up_pairs:
         if f[bv] > f[dv]:
             add("up", bv, dv)
