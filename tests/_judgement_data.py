@@ -1,0 +1,181 @@
+"""Datasets with known structure from outside the project, for judging the screen's choice.
+
+Shared by tests/benchmarks/bench_judgement.py and tests/test_judgement.py (not collected as
+tests). Each builder returns a :class:`Case`: the data, class labels where the source has them,
+and the known first Betti number / flares of the shape's Reeb graph where it is known.
+
+Sources: scikit-learn's bundled datasets (wine, breast cancer, iris, digits) and generators
+(make_circles, make_moons, make_swiss_roll, make_s_curve); closed-form shapes whose Reeb graph
+is known for any generic lens (a closed curve: b1 = 1; an orientable surface of genus g:
+b1 = g; a tree: b1 = 0; Carrière and Oudot, FoCM 2018, section 2; Edelsbrunner and Harer,
+"Computational Topology", 2010, section VI.4); sliding windows of a periodic signal lie on a
+closed curve (Perea and Harer, "Sliding windows and persistence", FoCM 2015: b1 = 1).
+
+Every case also carries a column of pure noise (a passthrough column named ``noise``, not a
+feature, so the geometry is unchanged): screened as the lens ``column:name=noise`` it must rank
+last.
+"""
+
+from dataclasses import dataclass
+
+import numpy as np
+
+NOISE_COLUMN = "noise"
+
+
+@dataclass
+class Case:
+    """One dataset of the suite."""
+
+    name: str
+    X: np.ndarray
+    labels: np.ndarray | None = None
+    b1: int | None = None
+    flares: int | None = None
+    source: str = ""
+
+    @property
+    def labelled(self):
+        return self.labels is not None
+
+
+def _zscore(X):
+    sd = X.std(axis=0)
+    return (X - X.mean(axis=0)) / np.where(sd > 0, sd, 1.0)
+
+
+def _pad(X, rng, dims, sd):
+    """Append ``dims`` Gaussian noise coordinates of sd ``sd`` (the shape stays the same)."""
+    return np.column_stack([X, rng.normal(0, sd, (X.shape[0], dims))]) if dims else X
+
+
+# --------------------------------------------------------------------------- labelled
+def wine(rng):
+    from sklearn.datasets import load_wine
+
+    d = load_wine()
+    return Case("wine", _zscore(d.data), d.target, source="sklearn load_wine (z-scored)")
+
+
+def breast_cancer(rng):
+    from sklearn.datasets import load_breast_cancer
+
+    d = load_breast_cancer()
+    return Case("breast_cancer", _zscore(d.data), d.target,
+                source="sklearn load_breast_cancer (z-scored)")
+
+
+def iris(rng):
+    from sklearn.datasets import load_iris
+
+    d = load_iris()
+    return Case("iris", d.data.astype(float), d.target, source="sklearn load_iris")
+
+
+def digits(rng):
+    from sklearn.datasets import load_digits
+
+    d = load_digits()
+    return Case("digits", d.data.astype(float), d.target, source="sklearn load_digits")
+
+
+def circles(rng, n=800):
+    from sklearn.datasets import make_circles
+
+    X, y = make_circles(n, noise=0.04, factor=0.5, random_state=int(rng.integers(1 << 30)))
+    return Case("circles", X, y, b1=2, flares=0, source="sklearn make_circles: two loops")
+
+
+def moons(rng, n=800):
+    from sklearn.datasets import make_moons
+
+    X, y = make_moons(n, noise=0.06, random_state=int(rng.integers(1 << 30)))
+    return Case("moons", X, y, b1=0, source="sklearn make_moons: two arcs")
+
+
+# --------------------------------------------------------------------------- shapes
+def swiss_roll(rng, n=1200):
+    from sklearn.datasets import make_swiss_roll
+
+    X, _ = make_swiss_roll(n, noise=0.05, random_state=int(rng.integers(1 << 30)))
+    return Case("swiss_roll", X, b1=0, flares=0, source="sklearn make_swiss_roll: a sheet")
+
+
+def s_curve(rng, n=1200):
+    from sklearn.datasets import make_s_curve
+
+    X, _ = make_s_curve(n, noise=0.05, random_state=int(rng.integers(1 << 30)))
+    return Case("s_curve", X, b1=0, flares=0, source="sklearn make_s_curve: a sheet")
+
+
+def circle_highd(rng, n=800, dims=8):
+    t = rng.uniform(0, 2 * np.pi, n)
+    X = np.column_stack([np.cos(t), np.sin(t)]) + rng.normal(0, 0.03, (n, 2))
+    return Case("circle_10d", _pad(X, rng, dims, 0.05), b1=1, flares=0,
+                source="unit circle + 8 noise dims (sd 0.05)")
+
+
+def torus(rng, n=1500, R=3.0, r=1.0):
+    # uniform in area by rejection on R + r cos v (as tests/_shapes.py)
+    out, m = [], 0
+    while m < n:
+        u = rng.uniform(0, 2 * np.pi, 2 * n)
+        v = rng.uniform(0, 2 * np.pi, 2 * n)
+        keep = rng.uniform(0, R + r, 2 * n) < R + r * np.cos(v)
+        u, v = u[keep], v[keep]
+        out.append(np.column_stack([(R + r * np.cos(v)) * np.cos(u),
+                                    (R + r * np.cos(v)) * np.sin(u), r * np.sin(v)]))
+        m += u.size
+    X = np.vstack(out)[:n] + rng.normal(0, 0.03, (n, 3))
+    return Case("torus", X, b1=1, flares=0, source="torus R=3 r=1: Reeb graph b1 = genus = 1")
+
+
+def figure_eight(rng, n=1000, dims=3):
+    t = rng.uniform(0, 2 * np.pi, n)
+    side = rng.integers(0, 2, n) * 2 - 1  # two unit circles touching at the origin
+    X = np.column_stack([side * (1 - np.cos(t)), np.sin(t)]) + rng.normal(0, 0.03, (n, 2))
+    return Case("figure_eight", _pad(X, rng, dims, 0.03), b1=2, flares=0,
+                source="two touching circles + 3 noise dims")
+
+
+def y_shape(rng, n=900, dims=3):
+    arm = rng.integers(0, 3, n)
+    s = rng.uniform(0, 1, n)
+    ang = arm * 2 * np.pi / 3 + np.pi / 2
+    X = np.column_stack([s * np.cos(ang), s * np.sin(ang)]) + rng.normal(0, 0.02, (n, 2))
+    return Case("y_tree", _pad(X, rng, dims, 0.02), b1=0, flares=3,
+                source="three unit arms at 120 degrees + 3 noise dims: a tree")
+
+
+def sphere(rng, n=1200):
+    X = rng.normal(size=(n, 3))
+    X /= np.linalg.norm(X, axis=1, keepdims=True)
+    return Case("sphere", X + rng.normal(0, 0.02, X.shape), b1=0, flares=0,
+                source="unit 2-sphere: Reeb graph a tree (genus 0)")
+
+
+def sliding_windows(rng, n=800, window=20):
+    # f(t) = cos(t) + 0.5 cos(3 t), 120 samples a period; windows of 20 values 6 samples apart
+    # span one period, so they lie on a closed curve in R^20 (Perea and Harer 2015).
+    step = 2 * np.pi / 120  # 120 samples a period
+    tau = 6  # window spans 20 * 6 = 120 samples, one period
+    t = np.arange(n + window * tau) * step
+    sig = np.cos(t) + 0.5 * np.cos(3 * t) + rng.normal(0, 0.05, t.size)
+    idx = np.arange(n)[:, None] + tau * np.arange(window)[None, :]
+    return Case("sliding_window", sig[idx], b1=1, flares=0,
+                source="sliding windows (d=20, one period) of cos t + cos(3t)/2 + noise")
+
+
+BUILDERS = (wine, breast_cancer, iris, digits, circles, moons, swiss_roll, s_curve,
+            circle_highd, torus, figure_eight, y_shape, sphere, sliding_windows)
+
+
+def build(builder, seed=0):
+    """The case with a noise column: ``(case, PointCloud)``."""
+    from lenswork import PointCloud
+
+    rng = np.random.default_rng(seed)
+    case = builder(rng)
+    noise = np.random.default_rng(seed + 1).normal(size=case.X.shape[0])
+    cloud = PointCloud.from_array(case.X, passthrough={NOISE_COLUMN: noise})
+    return case, cloud

@@ -1,0 +1,287 @@
+"""The screen's judgement on data nobody here made: class separation, known loops, noise last.
+
+For each dataset of tests/_judgement_data.py (scikit-learn's bundled and generated datasets,
+shapes whose Reeb graph is known), run ``lenswork.screen`` with its defaults (plus a lens of
+pure noise, ``column:name=noise``) and print:
+
+- the chosen lenses;
+- class separation (labelled data): balanced accuracy of a 15-nearest-neighbour classifier,
+  5-fold StratifiedKFold (shuffled, seed 0), on the ranks of the chosen pair; the chosen pair's
+  rank among all candidate pairs by that measure; pca_1 + pca_2's accuracy and rank;
+- shapes: the top lens's default graph (build_graph defaults): its loops b1 and flares, and the
+  significant loops and branches by the cover-resolution rule of
+  lenswork.graph._persistence, against the known b1 / flares;
+- the noise lens's rank among the candidates.
+
+With ``--proposed`` (default on) a second table re-ranks the same candidate columns by the
+proposed merit (lenswork.criteria.proposed_merit: robust spread x Laplacian smoothness x
+significance-based structure, geometric mean) with the screen's own greedy selection rule.
+
+Run: ``flock /tmp/lenswork-bench.lock python tests/benchmarks/bench_judgement.py [--quick]``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+import warnings
+from itertools import combinations
+from pathlib import Path
+
+import numpy as np
+from scipy.stats import rankdata
+from sklearn.model_selection import StratifiedKFold, cross_val_score
+from sklearn.neighbors import KNeighborsClassifier
+
+_TESTS = str(Path(__file__).resolve().parents[1])
+if _TESTS not in sys.path:
+    sys.path.insert(0, _TESTS)
+
+from _judgement_data import BUILDERS, NOISE_COLUMN, build  # noqa: E402
+
+import lenswork as lw  # noqa: E402
+from lenswork.criteria import (  # noqa: E402
+    heat_kernel_affinity,
+    laplacian_score,
+    neighbour_jitter,
+    neighbour_preservation,
+    proposed_merit,
+    robust_spread,
+    smoothness,
+)
+from lenswork.graph._persistence import lens_persistence, structure_significance  # noqa: E402
+
+NOISE_SPEC = f"column:name={NOISE_COLUMN}"
+VERBOSE = False
+ABLATE = ""
+
+
+def separation(R, labels, cols):
+    """Balanced accuracy of 15-NN, 5-fold stratified CV (seeded), on rank columns ``cols``."""
+    cv = StratifiedKFold(5, shuffle=True, random_state=0)
+    clf = KNeighborsClassifier(15)
+    return float(cross_val_score(clf, R[:, list(cols)], labels, cv=cv,
+                                 scoring="balanced_accuracy").mean())
+
+
+def pair_table(R, labels, m):
+    """Accuracy of every candidate pair (i < j)."""
+    return {(i, j): separation(R, labels, (i, j)) for i, j in combinations(range(m), 2)}
+
+
+def rank_of(acc, pair):
+    """1 + number of pairs strictly better (ties share the better rank)."""
+    key = tuple(sorted(pair))
+    return 1 + sum(1 for v in acc.values() if v > acc[key] + 1e-12)
+
+
+def jitter_of(result, ws, name):
+    """The lens's neighbour jitter on the rank scale (the cover's default)."""
+    v = np.asarray(result.lenses[name].values, dtype=np.float64)
+    return neighbour_jitter(v, heat_kernel_affinity(ws, k=15))
+
+
+def shape_features(result, ws, top):
+    """Default graph of the top lens: summary counts and significant features."""
+    g = lw.build_graph(result.lenses.select([top]), ws)
+    s = g.summary()
+    d = lens_persistence(g, jitter=jitter_of(result, ws, top))
+    sig_b = d.count("down", significant=True) + d.count("up", significant=True)
+    return {"b1": s.loops, "flares": s.n_flares, "sig_loops": d.count("loop", significant=True),
+            "sig_branches": sig_b, "nodes": s.n_nodes}
+
+
+#: The structure probe's default grid (lenswork.probe.PROBE_INTERVALS / PROBE_OVERLAPS).
+GRID = [(6, 0.25), (6, 0.4), (10, 0.25), (10, 0.4), (14, 0.25), (14, 0.4)]
+
+
+def proposed_ranking(result, ws):
+    """Re-rank the screen's candidates by the proposed merit; the screen's greedy selection."""
+    names = result.names
+    V = np.column_stack([np.asarray(c.values, dtype=np.float64) for c in result.lenses.columns])
+    S = heat_kernel_affinity(ws, k=15)
+    smooth = smoothness(laplacian_score(V, S))
+    spread = np.array([robust_spread(V[:, j]).robust_spread for j in range(len(names))])
+    structure = np.zeros(len(names))
+    for j, name in enumerate(names):
+        if not result.usable[j]:
+            continue
+        jitter = neighbour_jitter(V[:, j], S)
+        col = result.lenses.select([name])
+        diagrams = []
+        for intervals, overlap in GRID:
+            try:
+                g = lw.build_graph(col, ws, intervals=intervals, overlap=overlap)
+            except lw.ParameterError:  # no node at this cover: nothing revealed there
+                continue
+            diagrams.append(lens_persistence(g, jitter=jitter))
+        structure[j] = structure_significance(diagrams) if diagrams else 0.25
+    if ABLATE:  # merit without one of its three factors (set to 1), to see what each does
+        parts = {"spread": spread, "smooth": smooth, "structure": structure}
+        parts[ABLATE] = np.ones(len(names))
+        merit = proposed_merit(parts["spread"], parts["smooth"], parts["structure"])
+    else:
+        merit = proposed_merit(spread, smooth, structure)
+    merit[~result.usable] = 0.0
+    nb = ws.neighbors(30)  # the workspace's shared graph size (Workspace.min_neighbors)
+    # the pair for a two-lens cover: the best R_NX(pair) x sqrt(merit_i merit_j) among pairs under
+    # the redundancy ceiling; the single-lens ranking (its top lens for a one-lens graph) is by
+    # merit alone
+    best, chosen = -1.0, ()
+    absr = np.nan_to_num(np.abs(result.correlation), nan=1.0)
+    for i, j in combinations(range(len(names)), 2):
+        if merit[i] <= 0 or merit[j] <= 0 or absr[i, j] > 0.8:
+            continue
+        score = max(neighbour_preservation(V[:, [i, j]], nb), 0.0) * np.sqrt(merit[i] * merit[j])
+        if score > best + 1e-12:
+            best, chosen = score, (i, j) if merit[i] >= merit[j] else (j, i)
+    top = int(np.argmax(merit))
+    order = sorted(range(len(names)), key=lambda j: (-merit[j], j))
+    return {"selected": list(chosen), "top": top, "order": order, "merit": merit,
+            "spread": spread, "smooth": smooth, "structure": structure}
+
+
+def noise_rank(order, names):
+    j = next(i for i, nm in enumerate(names) if NOISE_COLUMN in nm)
+    return order.index(j) + 1
+
+
+def evaluate(case, cloud, proposed):
+    ws = lw.Workspace(cloud, random_state=0)
+    t0 = time.perf_counter()
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        result = lw.screen(ws, extra=[NOISE_SPEC])
+    seconds = time.perf_counter() - t0
+    names = result.names
+    m = len(names)
+    V = np.column_stack([np.asarray(c.values, dtype=np.float64) for c in result.lenses.columns])
+    R = np.column_stack([rankdata(V[:, j]) / V.shape[0] for j in range(m)])
+    acc = pair_table(R, case.labels, m) if case.labelled else None
+    order_cur = [names.index(r["column"]) for r in result.rows()]
+    rows = {"current": (result.selected, order_cur, result.selected[0])}
+    if proposed:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            prop = proposed_ranking(result, ws)
+        rows["proposed"] = ([names[j] for j in prop["selected"]], prop["order"],
+                            names[prop["top"]])
+        if VERBOSE:
+            for j in prop["order"]:
+                print(f"    {names[j]:<28} merit {prop['merit'][j]:.3f} spread "
+                      f"{prop['spread'][j]:.2f} smooth {prop['smooth'][j]:.2f} structure "
+                      f"{prop['structure'][j]:.2f}")
+    out = {}
+    for label, (chosen, order, top) in rows.items():
+        rec = {"chosen": chosen, "noise_rank": noise_rank(order, names), "m": m,
+               "seconds": seconds}
+        if acc is not None:
+            idx = [names.index(c) for c in chosen[:2]]
+            rec["acc"] = acc[tuple(sorted(idx))] if len(idx) == 2 else float("nan")
+            rec["rank"] = rank_of(acc, idx) if len(idx) == 2 else None
+            p = (names.index("pca_1"), names.index("pca_2"))
+            rec["pca_acc"], rec["pca_rank"] = acc[p], rank_of(acc, p)
+            rec["pairs"] = len(acc)
+            best = max(acc, key=acc.get)
+            rec["best"] = (names[best[0]], names[best[1]], acc[best])
+        if case.b1 is not None:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                rec.update(shape_features(result, ws, top))
+        rec["top"] = top
+        out[label] = rec
+    return out
+
+
+def fmt_table(title, records):
+    head = (f"{'dataset':<15} {'n x d':>10}  {'chosen pair':<44} {'top lens':<22} "
+            f"{'acc':>5} {'rank':>7} "
+            f"{'pca12':>5} {'rank':>7}  {'b1/known':>8} {'flr/known':>9} {'sigL':>4} "
+            f"{'sigB':>4}  {'noise':>6}")
+    lines = [title, head, "-" * len(head)]
+    for case, rec in records:
+        chosen = " + ".join(rec["chosen"])
+        if case.labelled:
+            acc = f"{rec['acc']:.3f}"
+            rank = f"{rec['rank']}/{rec['pairs']}"
+            pca = f"{rec['pca_acc']:.3f}"
+            prank = f"{rec['pca_rank']}/{rec['pairs']}"
+        else:
+            acc = rank = pca = prank = "-"
+        if case.b1 is not None:
+            b1 = f"{rec['b1']}/{case.b1}"
+            fl = f"{rec['flares']}/{case.flares if case.flares is not None else '?'}"
+            sl, sb = str(rec["sig_loops"]), str(rec["sig_branches"])
+        else:
+            b1 = fl = sl = sb = "-"
+        nd = f"{case.X.shape[0]}x{case.X.shape[1]}"
+        lines.append(f"{case.name:<15} {nd:>10}  {chosen:<44} {rec['top']:<22} "
+                     f"{acc:>5} {rank:>7} {pca:>5} "
+                     f"{prank:>7}  {b1:>8} {fl:>9} {sl:>4} {sb:>4}  "
+                     f"{rec['noise_rank']:>2}/{rec['m']:<3}")
+    return "\n".join(lines)
+
+
+def verdict(records, label):
+    """The issue's must-show, checked per dataset."""
+    bad = []
+    for case, rec in records:
+        if case.labelled:
+            top_quarter = rec["rank"] is not None and rec["rank"] <= max(1, rec["pairs"] // 4)
+            if not top_quarter:
+                bad.append(f"{case.name}: pair rank {rec['rank']}/{rec['pairs']} not top quarter")
+            if not rec["acc"] >= rec["pca_acc"] - 1e-12:
+                bad.append(f"{case.name}: acc {rec['acc']:.3f} < pca12 {rec['pca_acc']:.3f}")
+        if case.b1 is not None and rec["sig_loops"] != case.b1:
+            bad.append(f"{case.name}: significant loops {rec['sig_loops']} != b1 {case.b1}")
+        if rec["noise_rank"] != rec["m"]:
+            bad.append(f"{case.name}: noise ranks {rec['noise_rank']}/{rec['m']}")
+    head = f"{label}: {'all must-show checks pass' if not bad else f'{len(bad)} failures'}"
+    return "\n".join([head, *("  " + b for b in bad)])
+
+
+def main(argv=None):
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--quick", action="store_true", help="four datasets only (smoke run)")
+    ap.add_argument("--no-proposed", action="store_true", help="the current screen only")
+    ap.add_argument("--verbose", action="store_true", help="print the proposed scores")
+    ap.add_argument("--only", default="", help="comma-separated dataset names")
+    ap.add_argument("--ablate", default="", choices=["", "spread", "smooth", "structure"],
+                    help="leave one factor out of the proposed merit")
+    args = ap.parse_args(argv)
+    global VERBOSE, ABLATE
+    VERBOSE, ABLATE = args.verbose, args.ablate
+    builders = BUILDERS[:2] + BUILDERS[8:10] if args.quick else BUILDERS
+    if args.only:
+        keep = set(args.only.split(","))
+        builders = [b for b in BUILDERS if b.__name__ in keep]
+    proposed = not args.no_proposed
+    records = {"current": [], "proposed": []}
+    for b in builders:
+        case, cloud = build(b, seed=0)
+        out = evaluate(case, cloud, proposed)
+        for label, rec in out.items():
+            records[label].append((case, rec))
+        cur = out["current"]
+        best = cur.get("best")
+        extra = f"; best pair {best[0]} + {best[1]} {best[2]:.3f}" if best else ""
+        print(f"# {case.name}: {case.source}; screen {cur['seconds']:.1f} s{extra}", flush=True)
+    print()
+    print(fmt_table("CURRENT screen (lenswork.screen defaults)", records["current"]))
+    print(verdict(records["current"], "current"))
+    if proposed:
+        print()
+        print(fmt_table("PROPOSED merit (robust spread x smoothness x significant structure)",
+                        records["proposed"]))
+        print(verdict(records["proposed"], "proposed"))
+    print("\nacc: balanced accuracy, 15-NN, 5-fold stratified CV on the pair's ranks; rank among "
+          "all candidate pairs (1 = best). top lens: rank 1 of the single-lens ranking (current: "
+          "the first lens selected). b1 / flr: loops / flares of the top lens's default "
+          "graph; sigL / sigB: significant loops / branches (persistence > 2 (L + delta): interval "
+          "length L, neighbour jitter delta). "
+          "noise: rank of the pure-noise lens.")
+
+
+if __name__ == "__main__":
+    main()
