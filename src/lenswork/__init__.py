@@ -22,6 +22,8 @@ Structure probe, stability, bootstrap, comparison
     variation_of_information, contingency_table
 Graphs
     build_graph, Cover, LensGraph, GraphSummary, read_graph_json
+Which columns set a feature apart
+    contrast_columns, ContrastResult, ColumnContrast, benjamini_hochberg, node_column_values
 Errors
     LensworkError, InputError, ParameterError, LensworkWarning
 """
@@ -39,6 +41,13 @@ from .compare import (
     induced_partition,
     node_correspondence,
     variation_of_information,
+)
+from .contrast import (
+    ColumnContrast,
+    ContrastResult,
+    benjamini_hochberg,
+    contrast_columns,
+    node_column_values,
 )
 from .data import ExcludedRow, PointCloud, load_table
 from .graph import Cover, GraphSummary, LensGraph, build_graph, read_graph_json
@@ -72,6 +81,8 @@ from .workspace import NeighborGraph, Workspace, neighbor_graph
 
 __all__ = [
     "BootstrapResult",
+    "ColumnContrast",
+    "ContrastResult",
     "Cover",
     "CoverSuggestion",
     "DistanceToMeasure",
@@ -100,11 +111,13 @@ __all__ = [
     "Workspace",
     "__version__",
     "adjusted_rand_index",
+    "benjamini_hochberg",
     "bootstrap_graph",
     "build_graph",
     "compare_views",
     "compute_lenses",
     "contingency_table",
+    "contrast_columns",
     "data_column",
     "default_candidates",
     "distance_to_measure",
@@ -120,6 +133,7 @@ __all__ = [
     "lens_names",
     "load_table",
     "neighbor_graph",
+    "node_column_values",
     "node_correspondence",
     "normalize",
     "parse_lens",

@@ -512,6 +512,17 @@ class ColumnContrast:
         ``""`` (no order along the feature).
     along_peak_node : int or None
         Loop only: the loop node nearest to where the column peaks.
+
+    Examples
+    --------
+    >>> from lenswork import PointCloud, build_graph
+    >>> rng = np.random.default_rng(0)
+    >>> X = rng.normal(size=(300, 2))
+    >>> cloud = PointCloud.from_array(X, feature_names=["a", "b"])
+    >>> g = build_graph(X[:, 0], cloud, intervals=4)
+    >>> row = contrast_columns(g, cloud, nodes=[0]).rows[0]
+    >>> row.column, row.test, row.rank
+    ('a', 'ks', 1)
     """
 
     feature: str
@@ -557,6 +568,17 @@ class ContrastResult:
         Soft remarks (pooled levels, missing values dropped).
     params : dict
         ``against, hops, alpha, max_levels``, library version.
+
+    Examples
+    --------
+    >>> from lenswork import PointCloud, build_graph
+    >>> rng = np.random.default_rng(0)
+    >>> X = rng.normal(size=(300, 2))
+    >>> cloud = PointCloud.from_array(X, feature_names=["a", "b"])
+    >>> g = build_graph(X[:, 0], cloud, intervals=4)
+    >>> res = contrast_columns(g, cloud, nodes=[0])
+    >>> len(res.rows), res.top("nodes", 1), res.significant_features()
+    (2, ['a'], ['nodes'])
     """
 
     rows: tuple

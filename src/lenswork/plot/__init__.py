@@ -5,6 +5,8 @@ The drawing functions are imported on first use, so ``import lenswork`` (and
 
 Graphs
     draw_graph            a LensGraph in the house style (PNG or SVG by the file ending)
+    column_multiples      small multiples: the graph coloured by each of several data columns
+    contrast_sheet        small multiples of a feature's top columns from a ContrastResult
 Stability and bootstrap
     stability_figure      a StabilityMap as one heat map per feature type
     stability_sheet       the same, written to one or more files
@@ -30,6 +32,8 @@ import importlib
 #: public name -> private module that defines it
 _HOMES = {
     "draw_graph": "_graph",
+    "column_multiples": "_columns",
+    "contrast_sheet": "_columns",
     "stability_figure": "_stability",
     "stability_sheet": "_stability",
     "bootstrap_figure": "_stability",
