@@ -223,6 +223,35 @@ def test_clogging_flare_is_flow_and_valve_opening_against_its_neighbours(demo):
     assert "tank_level_m" not in top4
 
 
+def test_neighbours_are_the_rows_within_hops(demo):
+    # reference: networkx shortest-path lengths on the graph's edge list
+    import networkx as nx
+
+    cloud, ws, _, graph = demo
+    G = nx.Graph()
+    G.add_nodes_from(range(graph.n_nodes))
+    G.add_edges_from(graph.edge_index.tolist())
+    label, flare = _flare_of(demo, "clogging")
+    for hops in (1, 2, 3):
+        near = set()
+        for v in flare.nodes:
+            near |= set(nx.single_source_shortest_path_length(G, v, cutoff=hops))
+        near -= set(flare.nodes)
+        expect = np.setdiff1d(_rows(graph, sorted(near)), _rows(graph, flare.nodes))
+        res = contrast_columns(graph, ws, label, against="neighbours", hops=hops)
+        assert res.features[0]["n_against"] == expect.size
+    # a set of rows: the other rows of its own nodes are neighbours too
+    node = flare.attached_to
+    half = graph.members(node)[::2]
+    res = contrast_columns(graph, ws, rows=half, against="neighbours", hops=1)
+    touched = [v for v in range(graph.n_nodes) if np.intersect1d(graph.members(v), half).size]
+    near = set()
+    for v in touched:
+        near |= set(nx.single_source_shortest_path_length(G, v, cutoff=1))
+    expect = np.setdiff1d(_rows(graph, sorted(near)), half)
+    assert res.features[0]["n_against"] == expect.size
+
+
 def test_random_rows_of_the_same_size_show_no_column(demo):
     # permutation check: a random set of rows has no column that sets it apart
     cloud, ws, lenses, graph = demo

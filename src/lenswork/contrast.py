@@ -426,7 +426,8 @@ def _against_rows(graph, feat, against, hops):
         return np.zeros(graph.n_rows, dtype=bool)
     dist = dijkstra(graph.adjacency(), directed=False, indices=list(feat.nodes),
                     unweighted=True, limit=hops + 0.5, min_only=True)
-    near = [v for v in np.flatnonzero(np.isfinite(dist)) if v not in set(feat.nodes)]
+    own = set() if feat.kind == "rows" else set(feat.nodes)  # a row set: its nodes' other rows
+    near = [v for v in np.flatnonzero(np.isfinite(dist)) if v not in own]
     return _rows_of_nodes(graph, near) & ~feat.inside
 
 
@@ -744,7 +745,8 @@ def contrast_columns(graph, data, feature=None, *, nodes=None, rows=None, agains
         A set of rows (0-based positions) to contrast (labelled ``rows``).
     against : {"rest", "neighbours"}, default="rest"
         Every other row, or the rows of the nodes within ``hops`` hops of the
-        feature that are not in it.
+        feature that are not in it (for a set of rows, the other rows of the
+        nodes they lie in count too).
     hops : int, default=2
     columns : list of str, optional
         Data columns to test (features and passthrough); default all.
