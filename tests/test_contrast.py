@@ -182,6 +182,28 @@ def test_numeric_and_categorical_values_against_scipy(demo):
                     rtol=1e-9, atol=1e-300)
 
 
+def test_large_groups_use_the_asymptotic_ks_law_of_scipy():
+    # above 10,000 rows a side scipy's ks_2samp switches to Smirnov's asymptotic law; the
+    # sorted-once walk must give its distance and p-value, and Mann-Whitney's U
+    rng = np.random.default_rng(4414)
+    n = 24_000
+    X = np.column_stack([rng.uniform(0, 1, n), np.round(rng.normal(0, 1, n), 2)])
+    X[:, 1] += 0.05 * (X[:, 0] > 0.5)  # a small shift in half the rows; ties from rounding
+    cloud = PointCloud.from_array(X, feature_names=["t", "w"])
+    graph = build_graph(X[:, 0], cloud, intervals=2, overlap=0.1, scale="raw")
+    res = contrast_columns(graph, cloud, nodes=[graph.n_nodes - 1], columns=["w"])
+    row = res.rows[0]
+    inside = np.zeros(n, dtype=bool)
+    inside[graph.members(graph.n_nodes - 1)] = True
+    x, y = X[inside, 1], X[~inside, 1]
+    assert min(x.size, y.size) > 10_000
+    for method in ("asymp", "auto"):
+        ks = stats.ks_2samp(x, y, method=method)  # reference: scipy.stats.ks_2samp
+        assert_allclose([row.statistic, row.pvalue], [ks.statistic, ks.pvalue], rtol=1e-9)
+    u = stats.mannwhitneyu(x, y).statistic
+    assert_allclose(row.cliffs_delta, 2 * u / (x.size * y.size) - 1, rtol=1e-10)
+
+
 # ---------------------------------------------------------------- the demo's ground truth
 @pytest.mark.parametrize("against", ["rest", "neighbours"])
 def test_bearing_wear_flare_is_vibration_and_bearing_temperature(demo, against):

@@ -236,6 +236,7 @@ class _Column:
     values: np.ndarray  # float64 (NaN missing) or int codes (-1 missing)
     levels: tuple = ()
     note: str = ""
+    sorted: object = None  # _SortedColumn, made on first use
 
 
 def _numeric_or_none(col):
@@ -714,15 +715,60 @@ def _cloud_of(data, graph):
     return cloud
 
 
-def _numeric_stats(x_in, x_out):
-    delta = cliffs_delta(x_in, x_out)
-    n1, n2 = x_in.size, x_out.size
+#: Above this many rows on the larger side, ks_2samp's p-value is its asymptotic one
+#: (scipy's own switch, ``MAX_AUTO_N`` in scipy.stats.ks_2samp's "auto" mode).
+KS_EXACT_MAX = 10_000
+
+
+class _SortedColumn:
+    """One numeric column sorted once; every comparison walks the sorted order in O(n).
+
+    For rows ``inside`` and ``other`` (disjoint masks), the comparison keeps the
+    sorted positions of their union (still sorted), so the Mann-Whitney U (sum of
+    average ranks of the inside rows) and the Kolmogorov-Smirnov distance
+    (largest gap between the two empirical distribution functions, read at the
+    end of each block of tied values) need no further sort.
+    """
+
+    def __init__(self, values):
+        self.values = values
+        finite = np.flatnonzero(np.isfinite(values))
+        self.order = finite[np.argsort(values[finite], kind="stable")]
+        self.sorted = values[self.order]
+
+    def compare(self, inside, other):
+        keep = (inside | other)[self.order]
+        v = self.sorted[keep]
+        lab = inside[self.order][keep]
+        n = v.size
+        n1 = int(lab.sum())
+        n2 = n - n1
+        ends = np.flatnonzero(np.append(v[1:] != v[:-1], True))  # last index of each tie block
+        starts = np.append(0, ends[:-1] + 1)
+        block_rank = (starts + ends + 2) / 2.0  # average 1-based rank of each block
+        block_of = np.repeat(np.arange(ends.size), ends - starts + 1)
+        u1 = block_rank[block_of][lab].sum() - n1 * (n1 + 1) / 2.0
+        cum = np.cumsum(lab)[ends]
+        d = float(np.max(np.abs(cum / n1 - (ends + 1 - cum) / n2)))
+        return n1, n2, 2.0 * u1 / (n1 * n2) - 1.0, d
+
+
+def _numeric_stats(col, inside, other):
+    """(n_in, n_out, Cliff's delta, SMD, KS distance, KS p-value, mean_in, mean_out)."""
+    n1, n2, delta, d = col.compare(inside, other)
+    x_in, x_out = col.values[inside], col.values[other]
+    x_in, x_out = x_in[np.isfinite(x_in)], x_out[np.isfinite(x_out)]
     pooled = math.sqrt(((n1 - 1) * x_in.var(ddof=1) + (n2 - 1) * x_out.var(ddof=1)) /
                        max(n1 + n2 - 2, 1))
     diff = float(x_in.mean() - x_out.mean())
     smd = diff / pooled if pooled > 0 else (math.copysign(math.inf, diff) if diff else 0.0)
-    ks = stats.ks_2samp(x_in, x_out)
-    return delta, smd, float(ks.statistic), float(ks.pvalue)
+    if max(n1, n2) <= KS_EXACT_MAX:
+        ks = stats.ks_2samp(x_in, x_out)  # exact p-value, as scipy's "auto" mode gives
+        d, p = float(ks.statistic), float(ks.pvalue)
+    else:  # Smirnov's asymptotic law, the formula of ks_2samp(method="asymp")
+        en = n1 * n2 / (n1 + n2)
+        p = float(np.clip(stats.kstwo.sf(d, np.round(en)), 0.0, 1.0))
+    return n1, n2, delta, smd, d, p, float(x_in.mean()), float(x_out.mean())
 
 
 def contrast_columns(graph, data, feature=None, *, nodes=None, rows=None, against="rest", hops=2,
@@ -891,17 +937,19 @@ def _test_column(c, feat, other, in_rows, kind_pos, pos):
     base = {"feature": feat.label, "kind": feat.kind, "column": c.name, "role": c.role,
             "type": c.kind}
     if c.kind == "numeric":
-        x_in, x_out = c.values[feat.inside], c.values[other]
-        x_in, x_out = x_in[np.isfinite(x_in)], x_out[np.isfinite(x_out)]
-        if x_in.size < 2 or x_out.size < 2:
-            return f"fewer than two values on one side ({x_in.size} in, {x_out.size} against)"
-        if np.ptp(np.concatenate([x_in, x_out])) == 0:
+        finite = np.isfinite(c.values)
+        n1, n2 = int((feat.inside & finite).sum()), int((other & finite).sum())
+        if n1 < 2 or n2 < 2:
+            return f"fewer than two values on one side ({n1} in, {n2} against)"
+        both = c.values[(feat.inside | other) & finite]
+        if both.min() == both.max():
             return "constant on the rows compared"
-        delta, smd, ks, p = _numeric_stats(x_in, x_out)
-        rec = dict(base, effect=abs(delta), cliffs_delta=delta, smd=smd,
-                   mean_in=float(x_in.mean()), mean_out=float(x_out.mean()), level="",
-                   share_in=nan, share_out=nan, test="ks", statistic=ks, pvalue=p,
-                   n_in=int(x_in.size), n_out=int(x_out.size))
+        if c.sorted is None:
+            c.sorted = _SortedColumn(c.values)
+        n1, n2, delta, smd, ks, p, m_in, m_out = _numeric_stats(c.sorted, feat.inside, other)
+        rec = dict(base, effect=abs(delta), cliffs_delta=delta, smd=smd, mean_in=m_in,
+                   mean_out=m_out, level="", share_in=nan, share_out=nan, test="ks",
+                   statistic=ks, pvalue=p, n_in=n1, n_out=n2)
         rec.update(_along(c.values[in_rows], kind_pos, pos, feat))
         return rec
     k_in, k_out = c.values[feat.inside], c.values[other]
