@@ -704,9 +704,11 @@ def _cloud_of(data, graph):
             f"The graph was built on {graph.n_rows:,} rows but the data has {cloud.n:,}; give the "
             f"point cloud the graph was built from."
         )
+    if np.array_equal(np.asarray(graph.row_ids), np.asarray(cloud.ids)):
+        return cloud
     ids_a = [str(x) for x in np.asarray(graph.row_ids).tolist()]
     ids_b = [str(x) for x in np.asarray(cloud.ids).tolist()]
-    if ids_a != ids_b:
+    if ids_a != ids_b:  # ints read back as text still match
         first = next(i for i, (a, b) in enumerate(zip(ids_a, ids_b)) if a != b)
         raise InputError(
             f"The graph's row ids differ from the data's at row {first + 1} ({ids_a[first]!r} vs "
