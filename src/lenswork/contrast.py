@@ -11,7 +11,9 @@ column             what is reported
 numeric            Cliff's delta (the rank-biserial correlation, ``2 U / (n1
                    n2) - 1`` from the Mann-Whitney U; robust to scale), the
                    standardised mean difference (Cohen's d, pooled SD), the
-                   two-sample Kolmogorov-Smirnov test (``scipy.stats.ks_2samp``)
+                   two-sample Kolmogorov-Smirnov test (exact p-value of
+                   ``scipy.stats.ks_2samp`` up to ``n1 n2 = 1e6``, Smirnov's
+                   asymptotic law above)
 categorical        Cramér's V and the chi-square test of the 2 x levels table
                    (``scipy.stats.chi2_contingency``, no continuity
                    correction); the level most over-represented in the feature
@@ -72,6 +74,7 @@ from .graph import GraphFeature, LensGraph
 __all__ = [
     "AGAINST",
     "FEATURE_KINDS",
+    "KS_EXACT_MAX",
     "ColumnContrast",
     "ContrastResult",
     "benjamini_hochberg",
@@ -717,9 +720,11 @@ def _cloud_of(data, graph):
     return cloud
 
 
-#: Above this many rows on the larger side, ks_2samp's p-value is its asymptotic one
-#: (scipy's own switch, ``MAX_AUTO_N`` in scipy.stats.ks_2samp's "auto" mode).
-KS_EXACT_MAX = 10_000
+#: Largest ``n_in * n_out`` whose KS p-value is exact (``ks_2samp(method="exact")``); above it
+#: Smirnov's asymptotic law (``method="asymp"``). The exact law costs up to 0.2 s a call at
+#: 5,000 x 5,000 rows (measured, scipy 1.17) and differs from the asymptotic one by a few per
+#: cent of p at 1,000 x 1,000.
+KS_EXACT_MAX = 1_000_000
 
 
 class _SortedColumn:
@@ -764,8 +769,8 @@ def _numeric_stats(col, inside, other):
                        max(n1 + n2 - 2, 1))
     diff = float(x_in.mean() - x_out.mean())
     smd = diff / pooled if pooled > 0 else (math.copysign(math.inf, diff) if diff else 0.0)
-    if max(n1, n2) <= KS_EXACT_MAX:
-        ks = stats.ks_2samp(x_in, x_out)  # exact p-value, as scipy's "auto" mode gives
+    if n1 * n2 <= KS_EXACT_MAX:
+        ks = stats.ks_2samp(x_in, x_out, method="exact")
         d, p = float(ks.statistic), float(ks.pvalue)
     else:  # Smirnov's asymptotic law, the formula of ks_2samp(method="asymp")
         en = n1 * n2 / (n1 + n2)
