@@ -75,6 +75,7 @@ __all__ = [
     "AGAINST",
     "FEATURE_KINDS",
     "KS_EXACT_MAX",
+    "MISSING_TEXT",
     "ColumnContrast",
     "ContrastResult",
     "benjamini_hochberg",
@@ -221,12 +222,16 @@ def circular_rank_correlation(angle, x):
 
 
 # ---------------------------------------------------------------- columns
+#: Text cells read as missing (the tokens lenswork.data reads as missing in a table, and "nan").
+MISSING_TEXT = frozenset({"", "na", "n/a", "null", "none", "#n/a", "nan"})
+
+
 def _is_missing(value):
     if value is None:
         return True
     if isinstance(value, float) and math.isnan(value):
         return True
-    if isinstance(value, str) and not value.strip():
+    if isinstance(value, str) and value.strip().lower() in MISSING_TEXT:
         return True
     return type(value).__name__ in ("NAType", "NaTType")
 
