@@ -23,6 +23,8 @@ Structure probe, stability, bootstrap, comparison
 Graphs
     build_graph, GraphSettings, Cover, IntervalCover, BallCover, LensGraph, GraphSummary,
     read_graph_json
+Which columns set a feature apart
+    contrast_columns, ContrastResult, ColumnContrast, benjamini_hochberg, node_column_values
 Errors
     LensworkError, InputError, ParameterError, LensworkWarning
 """
@@ -41,6 +43,13 @@ from .compare import (
     induced_partition,
     node_correspondence,
     variation_of_information,
+)
+from .contrast import (
+    ColumnContrast,
+    ContrastResult,
+    benjamini_hochberg,
+    contrast_columns,
+    node_column_values,
 )
 from .data import ExcludedRow, PointCloud, load_table
 from .graph import (
@@ -97,6 +106,8 @@ from .workspace import NeighborGraph, Workspace, neighbor_graph
 __all__ = [
     "BallCover",
     "BootstrapResult",
+    "ColumnContrast",
+    "ContrastResult",
     "Cover",
     "CoverSuggestion",
     "DistanceToMeasure",
@@ -127,11 +138,13 @@ __all__ = [
     "Workspace",
     "__version__",
     "adjusted_rand_index",
+    "benjamini_hochberg",
     "bootstrap_graph",
     "build_graph",
     "compare_views",
     "compute_lenses",
     "contingency_table",
+    "contrast_columns",
     "data_column",
     "default_candidates",
     "distance_to_measure",
@@ -147,6 +160,7 @@ __all__ = [
     "lens_names",
     "load_table",
     "neighbor_graph",
+    "node_column_values",
     "node_correspondence",
     "normalize",
     "parse_lens",

@@ -7,6 +7,8 @@ Graphs
     draw_graph            a LensGraph in the house style (PNG or SVG by the file ending)
 Screening
     screen_sheet          a ScreenResult as one sheet: a card per lens, the correlation map
+    column_multiples      small multiples: the graph coloured by each of several data columns
+    contrast_sheet        small multiples of a feature's top columns from a ContrastResult
 Stability and bootstrap
     stability_figure      a StabilityMap as one heat map per feature type
     stability_sheet       the same, written to one or more files
@@ -33,6 +35,8 @@ import importlib
 _HOMES = {
     "draw_graph": "_graph",
     "screen_sheet": "_sheet",
+    "column_multiples": "_columns",
+    "contrast_sheet": "_columns",
     "stability_figure": "_stability",
     "stability_sheet": "_stability",
     "bootstrap_figure": "_stability",

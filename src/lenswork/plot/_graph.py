@@ -8,7 +8,7 @@ import numpy as np
 
 from .._errors import ParameterError
 from ..graph import auto_layout, graph_layout
-from ._style import ACCENT, GRID, INK, LENS_CMAP, MUTED, PAPER, figure, save, style
+from ._style import ACCENT, ACCENT_2, GRID, INK, LENS_CMAP, MUTED, PAPER, figure, save, style
 
 __all__ = ["draw_graph"]
 
@@ -18,7 +18,8 @@ _NODE_AREA_SPAN = 340.0
 
 
 def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=None, title=None,
-               node_scale=1.0, labels=False, branches=True, random_state=0):
+               node_scale=1.0, labels=False, branches=True, random_state=0, data=None,
+               level=None, values=None, highlight=None, counts=True):
     """Draw a LensGraph in the house style; PNG or SVG by the file ending.
 
     Parameters
@@ -28,8 +29,12 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
         Write the figure here (``.png`` or ``.svg``, atomically) and close it.
     color : str, optional
         Lens or data column whose node ``stat`` colours the nodes, or
-        ``"size"``. Default: the first lens.
+        ``"size"``. Default: the first lens. With ``data``, any column of the
+        point cloud (feature or passthrough, numeric or categorical).
     stat : {"mean", "min", "max"}, default="mean"
+        With ``data`` also ``"median"``, ``"std"`` and ``"share"`` (the share of
+        each node's rows whose value is ``level``; the default for a
+        categorical column). See :func:`lenswork.contrast.node_column_values`.
     layout : {"auto", "level", "lens", "spring", "spectral"} or ndarray, default="auto"
         A layout name (see :func:`lenswork.graph.graph_layout`) or an array of
         shape (n_nodes, 2).
@@ -44,6 +49,18 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
         Ring branch points (degree >= 3) in the accent colour.
     random_state : int, default=0
         Passed to the layout.
+    data : PointCloud or Workspace, optional
+        The rows the graph was built on: ``color`` may then name any of its
+        columns, the node statistic computed from the memberships.
+    level : str, optional
+        The level whose share colours the nodes (categorical ``color``).
+    values : array-like of shape (n_nodes,), optional
+        Per-node values to colour by (``color`` then only labels the colour
+        bar); NaN nodes are drawn grey.
+    highlight : sequence of int, optional
+        Nodes to ring in the second accent colour (a feature's nodes).
+    counts : bool, default=True
+        Write the node, edge, loop and flare counts under the title.
 
     Returns
     -------
@@ -59,11 +76,22 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
     >>> fig = draw_graph(g)
     >>> len(fig.axes)  # the graph and its colourbar
     2
+    >>> from lenswork import PointCloud
+    >>> cloud = PointCloud.from_array(np.array([[1.0], [2.0], [3.0]]), feature_names=["v"],
+    ...                               passthrough={"kind": np.array(["a", "b", "b"], dtype=object)})
+    >>> fig = draw_graph(g, color="kind", data=cloud, level="b", highlight=[2])
+    >>> fig.axes[1].get_ylabel()
+    'share of kind = b'
     """
     from matplotlib.collections import LineCollection
 
-    color = color or graph.lens_columns[0]
-    values = graph.node_values(color, stat)
+    values, bar_label, color = _colour_values(graph, color, stat, data, level, values)
+    hl = np.asarray([int(v) for v in (() if highlight is None else highlight)], dtype=np.int64)
+    bad = hl[(hl < 0) | (hl >= graph.n_nodes)]
+    if bad.size:
+        raise ParameterError(
+            f"The 'highlight' nodes must lie in 0..{graph.n_nodes - 1}; got {int(bad[0])}."
+        )
     method = layout if isinstance(layout, str) else "given"
     if isinstance(layout, str):
         if layout == "auto":
@@ -93,11 +121,21 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
         finite = np.isfinite(values)
         lo = values[finite].min() if finite.any() else 0.0
         hi = values[finite].max() if finite.any() else 1.0
+        if bar_label.startswith("share of "):
+            lo, hi = 0.0, 1.0
         if hi <= lo:
             lo, hi = lo - 0.5, hi + 0.5
+        order = order[finite[order]]
+        gone = np.flatnonzero(~finite)
+        if gone.size:  # nodes with no value of the column: grey
+            ax.scatter(pos[gone, 0], pos[gone, 1], s=area[gone], c=GRID, edgecolors=MUTED,
+                       linewidths=0.5, zorder=2)
         points = ax.scatter(pos[order, 0], pos[order, 1], s=area[order], c=values[order],
                             cmap=LENS_CMAP, vmin=lo, vmax=hi, edgecolors=INK, linewidths=0.5,
                             zorder=2)
+        if hl.size:
+            ax.scatter(pos[hl, 0], pos[hl, 1], s=area[hl] * 2.4, facecolors="none",
+                       edgecolors=ACCENT_2, linewidths=1.6, zorder=3)
         if branches:
             bp = np.flatnonzero(graph.degrees >= 3)
             if bp.size:
@@ -114,11 +152,12 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
                 ax.annotate(str(a), pos[a], xytext=(4, 3), textcoords="offset points",
                             fontsize=6, color=INK, zorder=4)
         bar = fig.colorbar(points, ax=ax, fraction=0.045, pad=0.02)
-        bar.set_label(f"{color}" if color == "size" else f"{color} (node {stat})")
+        bar.set_label(bar_label)
         bar.outline.set_edgecolor(GRID)
         ax.margins(0.08)
         ax.autoscale_view()
         _axes_for(ax, graph, method)
+        show_counts = counts
         summary = graph.summary()
         counts = " · ".join([
             _count(summary.n_nodes, "node"), _count(summary.n_edges, "edge"),
@@ -127,13 +166,41 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
             f"{summary.n_unassigned:,} rows in no node",
         ])
         ax.set_title(title or f"Mapper graph of {', '.join(graph.lens_columns)}", loc="left",
-                     pad=16)
-        ax.text(0.0, 1.012, counts, transform=ax.transAxes, ha="left", va="bottom", fontsize=7,
-                color=MUTED)
+                     pad=16 if show_counts else 6)
+        if show_counts:
+            ax.text(0.0, 1.012, counts, transform=ax.transAxes, ha="left", va="bottom",
+                    fontsize=7, color=MUTED)
         ax.set_facecolor(PAPER)
     if path is not None:
         return save(fig, Path(path))
     return fig
+
+
+def _colour_values(graph, color, stat, data, level, values):
+    """(per-node values, colour-bar label, colour name) for draw_graph."""
+    if values is not None:
+        values = np.asarray(values, dtype=np.float64).ravel()
+        if values.shape != (graph.n_nodes,):
+            raise ParameterError(
+                f"The 'values' to colour by need one value per node ({graph.n_nodes}); got "
+                f"{values.size}."
+            )
+        return values, str(color or "value"), color
+    color = color or graph.lens_columns[0]
+    in_graph = color == "size" or color in graph.node_stats
+    if data is not None and (not in_graph or stat not in ("mean", "min", "max")
+                             or level is not None):
+        from ..contrast import node_column_values
+
+        values, label = node_column_values(graph, data, color, stat, level=level)
+        return values, label, color
+    if level is not None or stat not in ("mean", "min", "max"):
+        raise ParameterError(
+            f"Colouring by {stat!r} or by the share of a level needs the rows: pass data= (the "
+            f"PointCloud or Workspace the graph was built on)."
+        )
+    values = graph.node_values(color, stat)
+    return values, (f"{color}" if color == "size" else f"{color} (node {stat})"), color
 
 
 def _count(n, word):
