@@ -38,7 +38,7 @@ import numpy as np
 from ._errors import InputError, LensworkWarning, ParameterError
 from ._validation import check_array, check_choice, check_finite, check_int
 
-__all__ = ["ExcludedRow", "PointCloud", "load_table"]
+__all__ = ["ExcludedRow", "PointCloud", "load_block", "load_table"]
 
 #: Rows parsed per block of a text table (bounded memory for the Python strings).
 _CHUNK_ROWS = 65_536
@@ -339,6 +339,56 @@ def load_table(
                 f"{type(source).__name__}. Convert it to a numpy array first."
             )
     return _finish(raw, features, id_column, scale, invalid, min_rows)
+
+
+def load_block(block, *, label, first_row=1, features=None, id_column=None, invalid="error",
+               min_rows=1):
+    """Validate one block of rows (a partition) with the messages of :func:`load_table`.
+
+    A partitioned reader calls this once per partition, so a bad cell is
+    reported with the partition's ``label`` and the row number it has in the
+    whole table, exactly as :func:`load_table` reports it for one table.
+
+    Parameters
+    ----------
+    block : ndarray or DataFrame
+        The partition's rows (a 2-D numeric array, a structured array, or a
+        pandas DataFrame).
+    label : str
+        How messages name the block, e.g. ``"partition 3 of the dask DataFrame"``.
+    first_row : int, default=1
+        Row number (1-based) of the block's first row in the whole table.
+    features, id_column, invalid, min_rows
+        As in :func:`load_table`. No scaling here: a partitioned reader scales
+        with statistics of all partitions.
+
+    Returns
+    -------
+    PointCloud
+        Rows numbered from ``first_row``.
+
+    Examples
+    --------
+    >>> block = np.array([[1.0, 2.0], [3.0, np.nan]])
+    >>> try:
+    ...     load_block(block, label="partition 2 of the array", first_row=11)
+    ... except InputError as err:
+    ...     print(str(err)[:63])
+    Column 'x1' in partition 2 of the array has NaN at row 12; feat
+    """
+    invalid = check_choice("invalid", invalid, ("error", "exclude"), context="load_block")
+    min_rows = check_int("min_rows", min_rows, lo=1, context="load_block")
+    first_row = check_int("first_row", first_row, lo=1, context="load_block")
+    features = _check_features_arg(features)
+    if _is_frame(block):
+        raw = _raw_from_frame(block)
+    else:
+        arr = np.asarray(block)
+        raw = _raw_from_array(arr, str(label), {"source": str(label), "format": "array"})
+    raw.label = str(label)
+    raw.provenance["source"] = str(label)
+    raw.row_numbers = raw.row_numbers - raw.row_numbers[0] + first_row
+    return _finish(raw, features, id_column, None, invalid, min_rows)
 
 
 # ---------------------------------------------------------------- argument checks

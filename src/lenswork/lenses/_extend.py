@@ -1,0 +1,177 @@
+"""The Nyström extension of Laplacian-eigenmap coordinates to new points.
+
+A landmark solution ``x`` of ``W x = mu D x`` (random-walk coordinates,
+``mu = 1 - lambda`` with ``lambda`` an eigenvalue of the normalised Laplacian
+``I - D^-1/2 W D^-1/2``, as :func:`lenswork.laplacian_eigenmaps` returns) holds
+at every landmark ``i``::
+
+    x_i = (1 / mu) * sum_j P_ij x_j,        P_ij = w_ij / sum_l w_il,
+
+so a new point ``z`` gets the value the same equation gives it, with the
+weights ``w(z, l_j)`` to its ``k`` nearest landmarks under the rule the
+landmark graph used (Bengio et al. 2004, the out-of-sample formula for
+Laplacian eigenmaps and spectral clustering)::
+
+    x(z) = (1 / mu) * sum_j w(z, l_j) x_j / sum_j w(z, l_j).
+
+A landmark given as a new point gets back (up to the solver's residual) its own
+value when its k nearest landmarks are its graph neighbours.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .._errors import InputError, ParameterError
+from .._validation import check_array, check_choice, check_float, check_int
+
+__all__ = ["nystrom_extend"]
+
+#: Weight rules, as in :mod:`lenswork.lenses._laplacian`.
+WEIGHT_RULES = ("heat", "self_tuning")
+#: Self-tuning scale: the distance to this neighbour (Zelnik-Manor and Perona 2004).
+SELF_TUNING_NEIGHBOR = 7
+#: Weights below this are dropped, as in the Laplacian lens.
+MIN_WEIGHT = 1e-10
+_BLOCK = 4096
+
+
+def _knn(landmarks, Z, k, exclude_self=False):
+    from sklearn.neighbors import NearestNeighbors
+
+    kk = k + 1 if exclude_self else k
+    nn = NearestNeighbors(n_neighbors=kk).fit(landmarks)
+    dist, idx = nn.kneighbors(Z)
+    if exclude_self:
+        dist, idx = dist[:, 1:], idx[:, 1:]
+    return dist, idx
+
+
+def nystrom_extend(landmarks_X, vectors, eigenvalues, X_new, *, k=15, weights="heat",
+                   sigma=None, metric="euclidean"):
+    """Extend Laplacian-eigenmap coordinates from landmarks to new points.
+
+    Parameters
+    ----------
+    landmarks_X : array-like of shape (n_landmarks, n_features)
+        The rows the eigenvectors were computed on.
+    vectors : array-like of shape (n_landmarks, m)
+        Random-walk coordinates ``D^-1/2 u`` of the landmarks (the output of
+        :func:`lenswork.laplacian_eigenmaps` on ``landmarks_X``).
+    eigenvalues : array-like of shape (m,)
+        Their eigenvalues ``lambda`` of ``I - D^-1/2 W D^-1/2`` (``info["eigenvalues"]``),
+        each in [0, 1).
+    X_new : array-like of shape (n_new, n_features)
+        Points to extend to.
+    k : int, default=15
+        Landmarks each new point is linked to (the k of the landmark graph).
+    weights : {"heat", "self_tuning"}, default="heat"
+        ``"heat"``: ``exp(-d^2 / sigma^2)`` with the landmark graph's ``sigma``
+        (``info["sigma"]``; required); ``"self_tuning"``:
+        ``exp(-d^2 / (sigma_z sigma_j))`` with ``sigma_z`` the distance from the
+        new point to its 7th nearest landmark and ``sigma_j`` that from landmark
+        ``j`` to its 7th nearest other landmark (k-th when k < 7).
+    sigma : float, optional
+        The heat-kernel scale; needed with ``weights="heat"``.
+    metric : {"euclidean"}, default="euclidean"
+
+    Returns
+    -------
+    ndarray of shape (n_new, m)
+
+    Raises
+    ------
+    ParameterError
+        Bad ``k``, ``weights``, ``sigma`` or eigenvalues.
+    InputError
+        Arrays of mismatched shapes or non-finite values.
+
+    Notes
+    -----
+    ``x(z) = (1 / (1 - lambda)) sum_j w(z, l_j) x_j / sum_j w(z, l_j)`` over the
+    k nearest landmarks ``l_j``. A point whose weights all fall under 1e-10
+    (far from every landmark) gets the weighted mean of its k nearest landmarks
+    with equal weights. Cost O(n_new k m) after the neighbour search (a tree or
+    brute force over the landmarks, O(n_new n_landmarks d) at worst).
+
+    References
+    ----------
+    .. [1] Y. Bengio, J.-F. Paiement, P. Vincent, O. Delalleau, N. Le Roux and
+       M. Ouimet, "Out-of-sample extensions for LLE, Isomap, MDS, Eigenmaps, and
+       Spectral Clustering", NIPS 2004.
+    .. [2] L. Zelnik-Manor and P. Perona, "Self-tuning spectral clustering", NIPS 2004.
+
+    Examples
+    --------
+    >>> from lenswork import laplacian_eigenmaps
+    >>> t = np.linspace(0, 1, 400)
+    >>> X = np.column_stack([t, 0.1 * np.sin(6 * t)])
+    >>> L = X[::2]
+    >>> vec, info = laplacian_eigenmaps(L, 1, k=10, return_info=True)
+    >>> ext = nystrom_extend(L, vec, info["eigenvalues"], X[1::2], k=10, sigma=info["sigma"])
+    >>> ext.shape, bool(abs(np.corrcoef(ext[:, 0], vec[:, 0])[0, 1]) > 0.99)
+    ((200, 1), True)
+    """
+    context = "nystrom_extend"
+    L = check_array(landmarks_X, context, label="the landmarks")
+    V = np.asarray(vectors, dtype=np.float64)
+    if V.ndim == 1:
+        V = V[:, None]
+    if V.shape[0] != L.shape[0]:
+        raise InputError(
+            f"nystrom_extend got {V.shape[0]} rows of vectors for {L.shape[0]} landmarks; give "
+            f"one row of coordinates per landmark."
+        )
+    lam = np.atleast_1d(np.asarray(eigenvalues, dtype=np.float64))
+    if lam.shape != (V.shape[1],):
+        raise ParameterError(
+            f"nystrom_extend got {lam.size} eigenvalues for {V.shape[1]} vectors; give one each."
+        )
+    if not np.all((lam >= 0) & (lam < 1)):
+        raise ParameterError(
+            "The eigenvalues given to nystrom_extend must lie in [0, 1) (eigenvalues of the "
+            "normalised Laplacian below 1); got " + ", ".join(f"{v:.3g}" for v in lam) + "."
+        )
+    Z = check_array(X_new, context, label="the new points")
+    if Z.shape[1] != L.shape[1]:
+        raise InputError(
+            f"nystrom_extend: the new points have {Z.shape[1]} features, the landmarks "
+            f"{L.shape[1]}. Pass rows with the same columns."
+        )
+    k = check_int("k", k, lo=1, hi=L.shape[0], context=context)
+    weights = check_choice("weights", weights, WEIGHT_RULES, context=context)
+    check_choice("metric", metric, ("euclidean",), context=context)
+    if weights == "heat":
+        if sigma is None:
+            raise ParameterError(
+                "nystrom_extend with weights='heat' needs sigma, the landmark graph's heat "
+                "scale (info['sigma'] of laplacian_eigenmaps)."
+            )
+        sigma = check_float("sigma", sigma, lo=0.0, lo_open=True, context=context)
+        s_land = None
+    else:
+        j = min(SELF_TUNING_NEIGHBOR, k) - 1
+        d_land, _ = _knn(L, L, min(k, L.shape[0] - 1), exclude_self=True)
+        s_land = d_land[:, min(j, d_land.shape[1] - 1)].copy()
+        good = s_land > 0
+        s_land[~good] = s_land[good].min() if good.any() else 1.0
+    scale = 1.0 / (1.0 - lam)
+    out = np.empty((Z.shape[0], V.shape[1]))
+    for start in range(0, Z.shape[0], _BLOCK):
+        block = Z[start:start + _BLOCK]
+        dist, idx = _knn(L, block, k)
+        if weights == "heat":
+            w = np.exp(-((dist / sigma) ** 2))
+        else:
+            j = min(SELF_TUNING_NEIGHBOR, k) - 1
+            s_new = dist[:, j].copy()
+            s_new[s_new <= 0] = s_land.min()
+            w = np.exp(-(dist**2) / (s_new[:, None] * s_land[idx]))
+        w[w < MIN_WEIGHT] = 0.0
+        total = w.sum(axis=1)
+        far = total <= 0
+        if far.any():
+            w[far] = 1.0
+            total[far] = k
+        out[start:start + _BLOCK] = np.einsum("ij,ijm->im", w / total[:, None], V[idx]) * scale
+    return out
