@@ -87,7 +87,7 @@ def cluster_element(X_element, rows, *, k=15, cutoff="auto", min_size=10, fragme
 
     Examples
     --------
-    >>> X = np.concatenate([np.zeros((12, 1)), np.ones((12, 1)) * 5]) + np.arange(24)[:, None] * 1e-3
+    >>> X = np.concatenate([np.zeros((12, 1)), np.full((12, 1), 5.0)]) + np.arange(24)[:, None] / 1e3
     >>> labels, report = cluster_element(X, np.arange(24), k=3)
     >>> np.bincount(labels).tolist(), report["groups"]
     ([12, 12], 2)

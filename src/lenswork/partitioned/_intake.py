@@ -45,8 +45,8 @@ _FILE_SUFFIXES = (".parquet", ".pq", ".csv", ".tsv", ".txt")
 def require_dask():
     try:
         import dask
-        import dask.array  # noqa: F401
-        import dask.dataframe  # noqa: F401
+        import dask.array
+        import dask.dataframe
     except ImportError:
         raise ParameterError(
             "Partitioned data needs dask, an optional extra: install it with "
@@ -400,6 +400,7 @@ def open_partitioned(source, *, features=None, id_column=None, scale=None, inval
         uniq, first_pos, counts = np.unique(ids, return_index=True, return_counts=True)
         if (counts > 1).any():
             dup = uniq[counts > 1][0]
+            dup = dup.item() if isinstance(dup, np.generic) else dup
             where = [i + 1 for i, s in enumerate(summaries) if np.isin(dup, s["ids"])]
             raise InputError(
                 f"Id {dup!r} appears in more than one row across partitions (partitions "
