@@ -233,3 +233,24 @@ def test_duplicate_ids_across_partitions(client, tmp_path):
     (tmp_path / "b.csv").write_text("id,v\n3,2\n1,4\n")
     with pytest.raises(InputError, match=r"Id 1 appears .*\(partitions 1, 2\)"):
         open_partitioned(tmp_path, id_column="id")
+
+
+def test_cli_commands_on_a_local_cluster(tmp_path):
+    from click.testing import CliRunner
+
+    from lenswork.cli import cli
+
+    rng = np.random.default_rng(31)
+    a = rng.uniform(0, 2 * np.pi, 900)
+    X = np.column_stack([np.cos(a), np.sin(a)]) + rng.normal(0, 0.02, (900, 2))
+    (tmp_path / "d").mkdir()
+    data = _parquet_dir(tmp_path / "d", X, 3)
+    common = ["--scheduler", "local", "--workers", "1", "--lens", "column:name=f0"]
+    r = CliRunner().invoke(cli, ["--quiet", "cluster-lenses", str(data), *common, "-o",
+                                 str(tmp_path / "lens")])
+    assert r.exit_code == 0, r.output
+    assert (tmp_path / "lens" / "lenses.json").exists()
+    r = CliRunner().invoke(cli, ["--quiet", "cluster-graph", str(data), *common,
+                                 "--intervals", "8", "-o", str(tmp_path / "g.json")])
+    assert r.exit_code == 0, r.output
+    assert "1 loops" in r.output  # a noisy circle (Mapper, 2007)

@@ -42,7 +42,7 @@ def cli(ctx, quiet):
 def _register_commands():
     from importlib import import_module
 
-    for module in ("_data", "_lenses", "_screen", "_graph", "_views"):
+    for module in ("_data", "_lenses", "_screen", "_graph", "_views", "_partitioned"):
         try:
             mod = import_module(f"{__name__}.{module}")
         except ModuleNotFoundError as err:  # a topic not yet present in this checkout

@@ -87,7 +87,8 @@ def cluster_element(X_element, rows, *, k=15, cutoff="auto", min_size=10, fragme
 
     Examples
     --------
-    >>> X = np.concatenate([np.zeros((12, 1)), np.full((12, 1), 5.0)]) + np.arange(24)[:, None] / 1e3
+    >>> X = np.concatenate([np.zeros((12, 1)), np.full((12, 1), 5.0)])
+    >>> X = X + np.arange(24)[:, None] / 1e3
     >>> labels, report = cluster_element(X, np.arange(24), k=3)
     >>> np.bincount(labels).tolist(), report["groups"]
     ([12, 12], 2)
@@ -232,7 +233,7 @@ def _minmax(part):
 
 
 def partitioned_graph(lenses, *, intervals=10, overlap=0.3, k=15, cutoff="auto", min_size=10,
-                      fragments="attach", columns=None):
+                      fragments="attach", compute=None):
     """Build the Mapper graph (Mapper, 2007) of lens columns on partitions.
 
     Parameters
@@ -244,8 +245,9 @@ def partitioned_graph(lenses, *, intervals=10, overlap=0.3, k=15, cutoff="auto",
         offered here).
     k, cutoff, min_size, fragments
         As in :func:`cluster_element`.
-    columns : None
-        Reserved; node statistics are kept for the lens columns.
+    compute : callable, optional
+        ``compute(list of delayed) -> list of results`` for the main step (the
+        CLI passes one that shows Dask's progress); default ``dask.compute``.
 
     Returns
     -------
@@ -306,8 +308,10 @@ def partitioned_graph(lenses, *, intervals=10, overlap=0.3, k=15, cutoff="auto",
     tasks = [task(e, k, cutoff, min_size, fragments, *[piece(r, e) for r in routed])
              for e in range(n_el)]
     get_ids = dask.delayed(_ids, pure=True)
-    results, lens_values, ids = dask.compute(tasks, lenses.parts,
-                                             [get_ids(dp) for dp in data_parts])
+    compute = compute or (lambda items: list(dask.compute(*items)))
+    np_ = len(data_parts)
+    out = compute([*tasks, *lenses.parts, *[get_ids(dp) for dp in data_parts]])
+    results, lens_values, ids = out[:n_el], out[n_el:n_el + np_], out[n_el + np_:]
     values = np.concatenate([lv[0] for lv in lens_values])
     n = cloud.n
     out_rows, out_nodes, node_element = [], [], []

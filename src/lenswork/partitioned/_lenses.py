@@ -243,11 +243,17 @@ class PartitionedLenses:
         out = dask.compute(*self.parts)
         return np.concatenate([o[0] for o in out]), np.concatenate([o[1] for o in out])
 
-    def write(self, directory):
+    def write(self, directory, compute=None):
         """Write one Parquet file per partition (ids + lens columns) and ``lenses.json``.
 
         Each file goes to a temporary name and is renamed; ``lenses.json``
         (strict JSON) is written last, so a directory with it is complete.
+
+        Parameters
+        ----------
+        directory : path
+        compute : callable, optional
+            ``compute(list of delayed) -> list of results``; default ``dask.compute``.
 
         Returns
         -------
@@ -265,7 +271,8 @@ class PartitionedLenses:
                   str(directory / f"part-{i:05d}.parquet"))
             for i, part in enumerate(self.parts)
         ]
-        files = list(dask.compute(*tasks))
+        compute = compute or (lambda items: list(dask.compute(*items)))
+        files = list(compute(tasks))
         sidecar = {
             "lenswork_version": __version__, "input": self.cloud.provenance,
             "columns": dict(zip(self.names, self.provenance)), "files": [Path(f).name
