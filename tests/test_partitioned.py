@@ -254,3 +254,21 @@ def test_cli_commands_on_a_local_cluster(tmp_path):
                                  "--intervals", "8", "-o", str(tmp_path / "g.json")])
     assert r.exit_code == 0, r.output
     assert "1 loops" in r.output  # a noisy circle (Mapper, 2007)
+
+
+def test_screen_on_a_sample_then_lenses_on_all_partitions(client):
+    from lenswork import screen
+
+    rng = np.random.default_rng(6060)
+    X = rng.normal(size=(4000, 3)) * [4.0, 1.0, 0.3]
+    cloud = open_partitioned(da.from_array(X, chunks=(1000, 3)))
+    sample = sample_cloud(cloud, 600, random_state=2)
+    result = screen(sample, ["pca:components=2", "eccentricity"], probe=False)
+    assert result.selected and set(result.selected) <= {"pca_1", "pca_2", "eccentricity"}
+    lens = partitioned_lenses(cloud, ["pca:components=2", "eccentricity"])
+    values, _ = lens.compute()
+    # the chosen columns on every partition equal lenswork's one-machine ones on all rows
+    ref = dict(zip(["pca_1", "pca_2"], pca_coordinates(X, components=2).T))
+    ref["eccentricity"] = eccentricity(X)
+    for name in result.selected:
+        np.testing.assert_allclose(values[:, lens.names.index(name)], ref[name], atol=1e-12)
