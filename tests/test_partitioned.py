@@ -147,14 +147,32 @@ def _reference_graph(X, values, lo, hi, intervals, overlap, **kw):
     """Single machine: the same per-element clustering on every element in one process."""
     first, last = element_ranges(values, lo, hi, intervals, overlap)
     nodes = []
-    for e in range(intervals[0]):
-        rows = np.flatnonzero((first[:, 0] <= e) & (last[:, 0] >= e))
+    for element in np.ndindex(*intervals):
+        inside = np.ones(X.shape[0], dtype=bool)
+        for j, e in enumerate(element):
+            inside &= (first[:, j] <= e) & (last[:, j] >= e)
+        rows = np.flatnonzero(inside)
         if rows.size == 0:
             continue
         labels, _ = cluster_element(X[rows], rows, **kw)
         for c in range(labels.max() + 1):
             nodes.append(frozenset(rows[labels == c].tolist()))
     return nodes
+
+
+def _node_and_edge_sets(g):
+    nodes = {frozenset(nd.members.tolist()) for nd in g.nodes}
+    edges = {frozenset((frozenset(g.nodes[e.source].members.tolist()),
+                        frozenset(g.nodes[e.target].members.tolist()))) for e in g.edges}
+    return nodes, edges
+
+
+def _reference_edges(ref, n):
+    idx = {s: i for i, s in enumerate(ref)}
+    rows = np.concatenate([sorted(s) for s in ref])
+    cols = np.concatenate([[idx[s]] * len(s) for s in ref])
+    edges, _ = nerve_edges(membership_matrix(rows, cols, n, len(ref)))
+    return {frozenset((ref[a], ref[b])) for a, b in edges}
 
 
 def test_graph_equals_single_machine_graph(client):
@@ -166,18 +184,59 @@ def test_graph_equals_single_machine_graph(client):
     g = partitioned_graph(lens, intervals=6, overlap=0.3, k=10, min_size=5)
     ref = _reference_graph(X, X[:, [0]], [X[:, 0].min()], [X[:, 0].max()], [6], [0.3], k=10,
                            min_size=5)
-    got = {frozenset(nd.members.tolist()) for nd in g.nodes}
-    assert got == set(ref)
-    # edges: nodes sharing rows (networkx-free: pairs from the reference membership)
-    idx = {s: i for i, s in enumerate(ref)}
-    rows = np.concatenate([list(s) for s in ref])
-    cols = np.concatenate([[idx[s]] * len(s) for s in ref])
-    edges, _ = nerve_edges(membership_matrix(rows, cols, 2000, len(ref)))
-    ref_edges = {frozenset((ref[a], ref[b])) for a, b in edges}
-    got_edges = {frozenset((frozenset(g.nodes[e.source].members.tolist()),
-                            frozenset(g.nodes[e.target].members.tolist()))) for e in g.edges}
-    assert got_edges == ref_edges
+    nodes, edges = _node_and_edge_sets(g)
+    # compared as sets of frozensets of rows (as networkx's component tests compare)
+    assert nodes == set(ref) and len(nodes) == len(ref)
+    assert edges == _reference_edges(ref, 2000)
     assert g.summary().loops == 1  # a circle's nerve has one loop (Mapper, 2007)
+
+
+def test_product_cover_graph_equals_single_machine_graph(client):
+    rng = np.random.default_rng(77)
+    X = rng.normal(size=(1500, 3))
+    cloud = open_partitioned(da.from_array(X, chunks=(400, 3)))
+    lens = partitioned_lenses(cloud, ["column:name=x0", "column:name=x1"])
+    g = partitioned_graph(lens, intervals=[3, 4], overlap=[0.2, 0.4], k=8, min_size=4,
+                          fragments="report")
+    V = X[:, :2]
+    ref = _reference_graph(X, V, V.min(axis=0), V.max(axis=0), [3, 4], [0.2, 0.4], k=8,
+                           min_size=4, fragments="report")
+    nodes, edges = _node_and_edge_sets(g)
+    assert nodes == set(ref) and len(nodes) == len(ref)
+    assert edges == _reference_edges(ref, 1500)
+
+
+def test_interval_ranges_equal_the_cover():
+    # lenswork.Cover (raw scale) as the reference for the floor formula
+    from lenswork import Cover
+
+    rng = np.random.default_rng(3)
+    v = rng.normal(size=(500, 2))
+    cover = Cover(intervals=[5, 7], overlap=[0.3, 0.6], scale="raw").fit(v)
+    first, last = element_ranges(v, v.min(axis=0), v.max(axis=0), [5, 7], [0.3, 0.6])
+    np.testing.assert_array_equal(first, cover.first_)
+    np.testing.assert_array_equal(last, cover.last_)
+
+
+def test_eccentricity_p_inf_refused(client):
+    cloud = open_partitioned(da.from_array(np.arange(20.0).reshape(10, 2), chunks=(5, 2)))
+    from lenswork import ParameterError
+
+    with pytest.raises(ParameterError, match="p = inf is not offered"):
+        partitioned_lenses(cloud, ["eccentricity:p=inf"])
+
+
+def test_csv_glob_and_dataframe_ids(client, tmp_path):
+    (tmp_path / "a.csv").write_text("id,u,v\nr1,1,2\nr2,3,4\n")
+    (tmp_path / "b.csv").write_text("id,u,v\nr3,5,7\n")
+    cloud = open_partitioned(str(tmp_path / "*.csv"), id_column="id")
+    pc = cloud.to_point_cloud()
+    assert pc.ids.tolist() == ["r1", "r2", "r3"] and pc.row_numbers.tolist() == [2, 3, 2]
+    frame = pd.DataFrame({"key": [10, 11, 12, 13], "w": [0.5, 1.5, 2.5, 4.0]})
+    cloud = open_partitioned(dd.from_pandas(frame, npartitions=2), id_column="key")
+    assert cloud.to_point_cloud().ids.tolist() == [10, 11, 12, 13]
+    assert cloud.provenance["sha256"] == open_partitioned(
+        dd.from_pandas(frame, npartitions=2), id_column="key").provenance["sha256"]
 
 
 def test_cluster_element_matches_scipy_components():

@@ -196,6 +196,12 @@ def _parse(item, cloud):
         spec["names"] = [f"pca_{j + 1}" for j in range(p["components"])]
     elif name == "eccentricity":
         p["p"] = check_float("p", p["p"], lo=1.0, context=ctx)
+        if not math.isfinite(p["p"]):
+            raise ParameterError(
+                "Eccentricity with p = inf is not offered on partitions (its landmark bound "
+                "needs every landmark's exact eccentricity, a pass over all pairs); use a finite "
+                "p such as 2 or 8."
+            )
         spec["names"] = ["eccentricity" if p["p"] == 2.0 else f"eccentricity_p{p['p']:g}"]
     elif name == "column":
         if p["name"] not in cloud.feature_names:
