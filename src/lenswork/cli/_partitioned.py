@@ -26,12 +26,15 @@ def _cluster_options(func):
                         "laplacian:components=2,k=15.")(func)
     func = click.option("--landmarks", default=2000, show_default=True, type=int,
                         help="Broadcast sample size of the estimated lenses.")(func)
-    func = click.option("--seed", default=0, show_default=True, type=int)(func)
+    func = click.option("--seed", default=0, show_default=True, type=int,
+                        help="Seed of the landmark sample.")(func)
     func = click.option("-f", "--features", default=None, metavar="COLS",
                         help="Feature columns, comma-separated names.")(func)
-    func = click.option("--id-column", default=None, metavar="COL")(func)
+    func = click.option("--id-column", default=None, metavar="COL",
+                        help="Column of row ids (unique across partitions).")(func)
     func = click.option("--scale", type=click.Choice(["none", "zscore"]), default="none",
-                        show_default=True)(func)
+                        show_default=True,
+                        help="z-score each feature with the mean and sd of all rows.")(func)
     func = click.argument("source")(func)
     return func
 
@@ -96,11 +99,14 @@ def cluster_lenses(ctx, source, features, id_column, scale, lenses, landmarks, s
 
 @click.command("cluster-graph")
 @_cluster_options
-@click.option("--intervals", default=10, show_default=True, type=int)
-@click.option("--overlap", default=0.3, show_default=True, type=float)
+@click.option("--intervals", default=10, show_default=True, type=int,
+              help="Intervals per lens (on the raw lens values).")
+@click.option("--overlap", default=0.3, show_default=True, type=float,
+              help="Overlap fraction of neighbouring intervals, in [0, 1).")
 @click.option("-k", "--neighbors", "k", default=15, show_default=True, type=int,
               help="Neighbours inside each cover element.")
-@click.option("--min-size", default=10, show_default=True, type=int)
+@click.option("--min-size", default=10, show_default=True, type=int,
+              help="Groups with fewer points are fragments (attached to the nearest kept one).")
 @click.option("-o", "--out", required=True, type=click.Path(dir_okay=False),
               help="Graph JSON file.")
 @click.pass_context
