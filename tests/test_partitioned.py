@@ -331,3 +331,8 @@ def test_screen_on_a_sample_then_lenses_on_all_partitions(client):
     ref["eccentricity"] = eccentricity(X)
     for name in result.selected:
         np.testing.assert_allclose(values[:, lens.names.index(name)], ref[name], atol=1e-12)
+
+
+def test_too_few_rows(client):
+    with pytest.raises(InputError, match="1 usable row in 1 partition; at least 2"):
+        open_partitioned(da.from_array(np.ones((1, 2)), chunks=(1, 2)))

@@ -25,7 +25,7 @@ from pathlib import Path
 import numpy as np
 
 from .._errors import InputError, ParameterError
-from .._validation import check_choice, check_int
+from .._validation import check_choice
 from ..data import PointCloud, load_block, load_table
 
 __all__ = [
@@ -291,13 +291,11 @@ def _parts_of(source):
         lengths = source.map_partitions(len).compute()
         starts = np.concatenate([[1], 1 + np.cumsum(lengths)[:-1]]).astype(int)
         blocks = source.to_delayed()
-        n_parts = len(blocks)
         parts = [
             Part("frame", b, f"partition {i + 1} of the dask DataFrame (rows {s}-{s + m - 1})",
                  int(s))
             for i, (b, s, m) in enumerate(zip(blocks, starts, lengths))
         ]
-        del n_parts
         return parts, "dask-dataframe", "dask DataFrame"
     if isinstance(source, da.Array):
         if source.ndim == 1:
@@ -394,7 +392,11 @@ def open_partitioned(source, *, features=None, id_column=None, scale=None, inval
                 f"1 has {names}; every partition must hold the same columns."
             )
     n, mean, M2 = tree_reduce([s["moments"] for s in summaries], combine_moments)
-    check_int("rows", n, lo=2, context="open_partitioned")
+    if n < 2:
+        raise InputError(
+            f"{label} has {n} usable row{'s' if n != 1 else ''} in {n_parts} partition"
+            f"{'s' if n_parts != 1 else ''}; at least 2 are needed. Add rows."
+        )
     if id_column is not None:
         ids = np.concatenate([s["ids"] for s in summaries])
         uniq, first_pos, counts = np.unique(ids, return_index=True, return_counts=True)
