@@ -107,7 +107,8 @@ def test_estimated_lenses_within_stated_error(client):
     exact_e = eccentricity(X, p=1, mode="exact")
     z = (values[:, 1] - exact_e) / errors[:, 1]
     assert np.mean(np.abs(z) > 4) < 0.005 and 0.4 < np.median(np.abs(z)) < 1.0
-    # DTM: hard bound of Chazal, Cohen-Steiner and Mérigot 2011, Theorem 3.5
+    # DTM: hard bound of Chazal, Cohen-Steiner and Mérigot 2011, Theorem 3.5 (from memory):
+    # sup |d_mu,m - d_nu,m| <= W2(mu, nu) / sqrt(m)
     exact_d = distance_to_measure(X, mass=0.05, max_k=k)
     bound = lens.provenance[2]["error_bound"]
     assert np.max(np.abs(values[:, 2] - exact_d)) <= bound

@@ -19,7 +19,7 @@ Estimated against a broadcast seeded uniform sample of ``landmarks`` rows
     ``sup |d_{mu,m} - d_{nu,m}| <= W_2(mu, nu) / sqrt(m) <= Q / sqrt(m)``,
     ``Q^2 = (1/N) sum_x ||x - q(x)||^2`` (q: nearest landmark; the map x -> q(x)
     is a transport plan from mu to nu), by the stability theorem of Chazal,
-    Cohen-Steiner and Mérigot (2011, Theorem 3.5); ``laplacian`` -- the
+    Cohen-Steiner and Mérigot (2011, Theorem 3.5; theorem number from memory); ``laplacian`` -- the
     landmark solution extended by :func:`lenswork.lenses._extend.nystrom_extend`,
     its error measured on held-out landmarks.
 """
