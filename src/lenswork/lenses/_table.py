@@ -189,7 +189,7 @@ class LensTable:
         >>> cloud = PointCloud.from_array(np.zeros((3, 1)), ids=["a", "b", "c"])
         >>> table = LensTable([LensColumn("h", np.array([3.0, 1.0, 2.0]))], cloud)
         >>> frame = table.to_frame()
-        >>> frame.shape, frame.index.name, frame.loc["b", "h"]
+        >>> frame.shape, frame.index.name, float(frame.loc["b", "h"])
         ((3, 1), 'row', 1.0)
         """
         columns = {}

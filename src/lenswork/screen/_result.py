@@ -368,7 +368,7 @@ class ScreenResult:
         >>> table = LensTable([LensColumn("a", cloud.X[:, 0]), LensColumn("b", cloud.X[:, 1])],
         ...                   cloud)
         >>> frame = screen(table, count=1, probe=False).to_frame()
-        >>> frame.shape[0], int(frame["selected"].sum()), frame["order"].iloc[0]
+        >>> frame.shape[0], int(frame["selected"].sum()), int(frame["order"].iloc[0])
         (2, 1, 1)
         """
         rows = self.rows()
