@@ -20,6 +20,7 @@ from pathlib import Path
 import numpy as np
 
 from .._errors import InputError, ParameterError
+from .._frame import data_frame
 from .._io import atomic_path, write_text
 from .._json import dumps, plain
 from .._validation import check_choice
@@ -157,6 +158,55 @@ class LensTable:
         })
 
     # ------------------------------------------------------------------ output
+    def to_frame(self, *, normalized=False, passthrough=False):
+        """The lens columns as a pandas DataFrame, one row per row used.
+
+        Parameters
+        ----------
+        normalized : bool, default=False
+            Normalised values (where a column records a normalisation) instead
+            of raw ones, as in :meth:`values`.
+        passthrough : bool, default=False
+            Put the cloud's passthrough columns first, as :meth:`write` does.
+
+        Returns
+        -------
+        pandas.DataFrame of shape (n_samples, n_columns [+ n_passthrough])
+            Indexed by the row ids (index name: the id column); rows in the
+            cloud's order. Excluded rows are not in it (see :meth:`write` for
+            a file with every input row).
+
+        Raises
+        ------
+        LensworkError
+            pandas is not installed.
+        ParameterError
+            With ``passthrough``: a passthrough column has a lens column's name.
+
+        Examples
+        --------
+        >>> from lenswork import PointCloud
+        >>> cloud = PointCloud.from_array(np.zeros((3, 1)), ids=["a", "b", "c"])
+        >>> table = LensTable([LensColumn("h", np.array([3.0, 1.0, 2.0]))], cloud)
+        >>> frame = table.to_frame()
+        >>> frame.shape, frame.index.name, float(frame.loc["b", "h"])
+        ((3, 1), 'row', 1.0)
+        """
+        columns = {}
+        if passthrough:
+            clash = [name for name in self.cloud.passthrough if name in self.names]
+            if clash:
+                raise ParameterError(
+                    f"The passthrough column {clash[0]!r} has the name of a lens column; "
+                    f"call to_frame(passthrough=False) or rename one of them."
+                )
+            columns.update({name: np.asarray(col) for name, col in self.cloud.passthrough.items()})
+        lens = self.values(normalized=normalized)
+        columns.update({name: lens[:, j] for j, name in enumerate(self.names)})
+        frame = data_frame(columns, index=np.asarray(self.cloud.ids), what="a LensTable")
+        frame.index.name = self.cloud.id_name
+        return frame
+
     def _full_rows(self, normalized):
         """ids, passthrough and lens values over every input row, excluded rows as missing."""
         cloud = self.cloud

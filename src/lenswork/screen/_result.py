@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import contextlib
 import csv
+import html
 import io
 import math
 import os
@@ -24,6 +25,7 @@ import numpy as np
 
 from .. import _progress
 from .._errors import LensworkWarning, ParameterError
+from .._frame import data_frame
 from .._io import write_text
 from .._json import dumps, plain
 from .._validation import check_choice, check_float, check_int
@@ -336,6 +338,97 @@ class ScreenResult:
         for r in rows:
             w.writerow([_csv_cell(r[h]) for h in header])
         return buf.getvalue()
+
+    def to_frame(self):
+        """The ranking table as a pandas DataFrame, one row per candidate.
+
+        Returns
+        -------
+        pandas.DataFrame
+            Indexed by the candidate column name (index name ``"column"``), in
+            rank order (chosen first, in the order taken). Columns: ``rank``,
+            ``lens``, ``params`` (JSON text), ``selected`` (bool), ``order``
+            (1-based pick order; missing for candidates not chosen), ``merit``,
+            ``gain``, every score column of :attr:`scores`, the probe counts
+            when the screen ran the probe, ``partner`` and ``partner_rho``,
+            ``nearest_selected`` and ``nearest_selected_rho``, ``rho[<ref>]``
+            per reference column, and ``reason``: the columns of
+            :meth:`rows` and of ``ranking.csv``.
+
+        Raises
+        ------
+        LensworkError
+            pandas is not installed.
+
+        Examples
+        --------
+        >>> from lenswork import LensColumn, LensTable, PointCloud, screen
+        >>> rng = np.random.default_rng(1)
+        >>> cloud = PointCloud.from_array(rng.normal(size=(200, 2)))
+        >>> table = LensTable([LensColumn("a", cloud.X[:, 0]), LensColumn("b", cloud.X[:, 1])],
+        ...                   cloud)
+        >>> frame = screen(table, count=1, probe=False).to_frame()
+        >>> frame.shape[0], int(frame["selected"].sum()), int(frame["order"].iloc[0])
+        (2, 1, 1)
+        """
+        rows = self.rows()
+        header = [h for h in (rows[0] if rows else {"column": None}) if h != "column"]
+        at = header.index("selected") + 1 if "selected" in header else len(header)
+        header.insert(at, "order")
+        picked = {name: t + 1 for t, name in enumerate(self.selected)}
+        columns = {h: [] for h in header}
+        for r in rows:
+            for h in header:
+                if h == "order":
+                    value = picked.get(r["column"])
+                elif h == "params":
+                    value = dumps(r[h], indent=None, sort_keys=True)
+                else:
+                    value = r[h]
+                columns[h].append(value)
+        frame = data_frame(columns, index=[r["column"] for r in rows], what="a ScreenResult")
+        frame.index.name = "column"
+        for h in ("rank", "order", *(PROBE_COUNTS if self.probe is not None else ())):
+            if h in frame:
+                frame[h] = frame[h].astype("Int64")  # nullable: missing stays missing
+        return frame
+
+    def _repr_html_(self):
+        """The ranking table as HTML for a notebook; chosen lenses marked, names escaped."""
+        rows = self.rows()
+        refs = self.reference_names[:3]
+        probed = self.probe is not None
+        picked = {name: t + 1 for t, name in enumerate(self.selected)}
+        header = ["rank", "lens column", "chosen", "spread",
+                  *(["structure", "L/F/B"] if probed else []), "merit", "gain",
+                  "partner (rho)", *[f"rho[{r}]" for r in refs], "reason"]
+        numeric = {"rank", "spread", "structure", "merit", "gain", *(f"rho[{r}]" for r in refs)}
+        body = []
+        for r in rows:
+            order = picked.get(r["column"])
+            partner = "-" if r["partner"] is None else f"{r['partner']} ({r['partner_rho']:+.2f})"
+            cells = [str(r["rank"]), r["column"], "" if order is None else f"\u2713 #{order}",
+                     _num(r["spread"])]
+            if probed:
+                counts = [r.get(key) for key in PROBE_COUNTS]
+                cells += [_num(r["structure"]),
+                          "-" if counts[0] is None else "/".join(str(c) for c in counts)]
+            cells += [_num(r["merit"]), _num(r["gain"]), partner,
+                      *[_num(r[f"rho[{x}]"], signed=True) for x in refs], r["reason"]]
+            style = ' style="font-weight:bold"' if order is not None else ""
+            tds = "".join(
+                f'<td style="text-align:{"right" if h in numeric else "left"}">'
+                f"{html.escape(c)}</td>"
+                for h, c in zip(header, cells, strict=True)
+            )
+            kind = "chosen" if order is not None else "candidate"
+            body.append(f'<tr class="{kind}"{style}>{tds}</tr>')
+        chosen = ", ".join(self.selected) if self.selected else "nothing"
+        caption = (f"lenswork screen: {self.cloud.n:,} rows, {len(self.names)} candidates, "
+                   f"chosen {len(self.selected)}: {chosen} (stopped: {self.stop_text})")
+        head = "".join(f"<th>{html.escape(h)}</th>" for h in header)
+        return (f'<table class="lenswork-screen"><caption>{html.escape(caption)}</caption>'
+                f"<thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>")
 
     def format_table(self, max_rows=None):
         """The ranking as an aligned text table for the terminal."""
