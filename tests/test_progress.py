@@ -137,7 +137,7 @@ def test_silent_when_stderr_is_not_a_terminal_unless_asked():
 
 def test_quiet_wins_in_a_pseudo_terminal(tmp_path):
     args = [sys.executable, "-c", "from lenswork.cli import main; main()", "compute", "--demo",
-            "--lens", "dtm:mass=0.03", "-o", str(tmp_path / "l.csv")]
+            "--lens", "dtm:mass=0.01", "-o", str(tmp_path / "l.csv")]
     raw, stdout = _run_with_stderr_on_a_pty(args, _env())
     assert "neighbour graph" in raw  # a terminal: progress shown
     assert "wrote" in stdout
@@ -147,7 +147,7 @@ def test_quiet_wins_in_a_pseudo_terminal(tmp_path):
 
 def test_cli_progress_option_and_quiet(capsys, tmp_path):
     runner = CliRunner()
-    base = ["compute", "--demo", "--lens", "dtm:mass=0.03", "-o", str(tmp_path / "l.csv")]
+    base = ["compute", "--demo", "--lens", "dtm:mass=0.01", "-o", str(tmp_path / "l.csv")]
     res = runner.invoke(cli, base)
     assert res.exit_code == 0 and "neighbour graph" not in res.stderr  # not a terminal
     res = runner.invoke(cli, ["--progress", *base])

@@ -50,9 +50,10 @@ def default_candidates(data):
       (``2 n^(-1/(d+4)) sigma``, sigma the root-mean feature variance): a local
       and a smoother view;
     - ``eccentricity`` with p = 1, 2 and inf;
-    - ``dtm`` at two masses: k about 1 % of the rows (5 to 30 points) and 5 %
-      (at least twice as many, at most 100 points): mass 0.01 and 0.05 from
-      500 to 2,000 rows, 0.01 and 0.0333 at 3,000;
+    - ``dtm`` at two neighbour counts k = ceil(mass n): about 1 % of the rows
+      (5 to 10 points) and 5 % (at least twice as many), at most the 31 points
+      the shared neighbour graph holds, so no second graph is built: k = 5 and
+      25 at 500 rows, 10 and 31 from 620 rows up;
     - ``knn_distance``, k = 10;
     - ``geodesic_eccentricity``, p = 2 (distances along the neighbour graph).
 
@@ -72,19 +73,15 @@ def default_candidates(data):
         X = X[:, None] if X.ndim == 1 else X
     n, d = X.shape
     broad = float(f"{2.0 * _scott_scale(X):.3g}")
-    # DTM: k = ceil(mass n) points; the local one about 1 % of the rows (5 to 30 points), the
-    # broad one 5 % (at least twice the local mass, at most 100 points, the dtm lens's cap).
-    # Masses are rounded (3 significant digits) in the direction that keeps k inside.
-    if 0.01 * n < 5:
-        local = min(1.0, _round_up(5 / n))
-    else:
-        local = 0.01 if 0.01 * n <= 30 else _round_down(30 / n)
-    wide = min(1.0, max(0.05, 2 * local))
-    if wide * n > 100:
-        wide = _round_down(100 / n)
-    dtm = [("dtm", {} if local == 0.01 else {"mass": local})]
-    if wide > local:
-        dtm.append(("dtm", {"mass": wide}))
+    # DTM by its neighbour count k = ceil(mass n): a local one of about 1 % of the rows (5 to 10
+    # points) and a broad one of 5 % (at least twice as many), never more than the shared
+    # neighbour graph holds (Workspace(min_neighbors=30) keeps 30 neighbours plus the row
+    # itself), so the screen builds one neighbour graph per run.
+    k_local = int(min(max(math.ceil(0.01 * n), 5), 10, n))
+    k_wide = int(min(max(2 * k_local, math.ceil(0.05 * n)), SHARED_POINTS, n))
+    dtm = [("dtm", {"mass": _mass_for(k_local, n)})]
+    if k_wide > k_local:
+        dtm.append(("dtm", {"mass": _mass_for(k_wide, n)}))
     return [
         ("pca", {"components": min(3, d)}),
         ("laplacian", {"components": 3}),
@@ -97,6 +94,16 @@ def default_candidates(data):
         ("knn_distance", {}),
         ("geodesic_eccentricity", {}),
     ]
+
+
+#: Points (the row and its neighbours) in the shared graph the Workspace builds by default.
+SHARED_POINTS = 31
+
+
+def _mass_for(k, n):
+    """A mass with 3 significant digits whose ``ceil(mass n)`` is exactly ``k``."""
+    mass = float(f"{(k - 0.5) / n:.3g}")
+    return mass if math.ceil(mass * n) == k else (k - 0.5) / n
 
 
 def _round_down(x, digits=3):
