@@ -172,3 +172,26 @@ def test_figure_results_render_to_png(circle):
         assert image.shape[:2] == (height, width) and width > 100 and height > 100
         assert np.ptp(image[..., :3]) > 0.2  # something is drawn, not a blank page
     assert set(plt.get_fignums()) == before  # every figure closed: a notebook shows it once
+
+
+def test_the_readme_notebook_example_runs():
+    # The README's "In a notebook" block, run as written (bare expressions are what a
+    # notebook would display: their HTML / PNG forms are rendered here too).
+    import re
+    from pathlib import Path
+
+    text = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    section = text.split("## In a notebook", 1)[1].split("\n## ", 1)[0]
+    code = re.search(r"```python\n(.*?)```", section, re.S).group(1)
+    ns = {}
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        exec(compile(code, "README.md", "exec"), ns)  # noqa: S102
+    result, graph = ns["result"], ns["graph"]
+    assert ns["ranking"].shape[0] == len(result.names)
+    assert len(ns["nodes"]) == graph.n_nodes == ns["G"].number_of_nodes()
+    assert len(ns["edges"]) == graph.n_edges == ns["G"].number_of_edges()
+    assert len(ns["cells"]) == 4 * 3
+    assert list(ns["coords"].columns) == ["pca_1", "pca_2"]
+    assert Tree(graph._repr_html_()).count("svg") == 1
+    assert _png_size(ns["smap"]._repr_png_())[0] > 100
