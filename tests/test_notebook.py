@@ -186,7 +186,7 @@ def test_the_readme_notebook_example_runs():
     ns = {}
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        exec(compile(code, "README.md", "exec"), ns)  # noqa: S102
+        exec(compile(code, "README.md", "exec"), ns)
     result, graph = ns["result"], ns["graph"]
     assert ns["ranking"].shape[0] == len(result.names)
     assert len(ns["nodes"]) == graph.n_nodes == ns["G"].number_of_nodes()

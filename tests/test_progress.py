@@ -15,6 +15,7 @@ import subprocess
 import sys
 from pathlib import Path
 
+import numpy as np
 import pytest
 from click.testing import CliRunner
 
@@ -296,3 +297,28 @@ def test_a_message_during_a_bar_or_a_step_gets_its_own_line():
     assert re.search(r"\s4/4\s", shown[2]) and "Warning" not in lines[2]
     assert shown[3] == "  after ..." and shown[4] == "Warning: inside a step"
     assert re.fullmatch(r"  after \.\.\. \d+\.\d\d s", shown[5])
+
+
+def test_cluster_command_counts_partitions_on_the_progress_line(tmp_path):
+    # The cluster commands count finished partitions on lenswork's progress line (not a
+    # second progress display of their own): nothing off a terminal, a count with -q off
+    # and --progress, nothing with -q.
+    pytest.importorskip("distributed")
+    pd = pytest.importorskip("pandas")
+    pytest.importorskip("pyarrow")
+    rng = np.random.default_rng(1404)
+    for i in range(3):
+        pd.DataFrame({"f0": rng.normal(size=50), "f1": rng.normal(size=50)}).to_parquet(
+            tmp_path / f"part-{i}.parquet")
+    base = ["cluster-lenses", str(tmp_path), "--scheduler", "local", "--workers", "1",
+            "--lens", "column:name=f0"]
+    runner = CliRunner()
+    res = runner.invoke(cli, [*base, "-o", str(tmp_path / "a")])
+    assert res.exit_code == 0, res.output
+    assert "partitions computed" not in res.stderr and "wrote" in res.stdout
+    res = runner.invoke(cli, ["--progress", *base, "-o", str(tmp_path / "b")])
+    assert res.exit_code == 0, res.output
+    assert re.search(r"^  dask: partitions computed: 3/3 in \S+ s \(\S+/s\)$", res.stderr,
+                     re.M), res.stderr
+    res = runner.invoke(cli, ["-q", "--progress", *base, "-o", str(tmp_path / "c")])
+    assert res.exit_code == 0 and "partitions computed" not in res.stderr
