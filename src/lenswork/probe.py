@@ -588,6 +588,16 @@ class StabilityMap:
     # plot(paths=None, features=None) -- one heat map per feature type -- is attached by
     # lenswork._graph_methods (the plots live above this module).
 
+    def to_frame(self):
+        """The map as a pandas DataFrame, one row per grid cell: the columns of the CSV file.
+
+        ``intervals``, ``overlap`` and every count of :attr:`counts`, as
+        :meth:`to_csv_text` writes them. Needs pandas (a clear error without it).
+        """
+        from ._frame import records_frame
+
+        return records_frame(self.rows(), what="a StabilityMap")
+
 
 def stability_map(lens, workspace, *, settings=None, intervals=MAP_INTERVALS,
                   overlaps=MAP_OVERLAPS, k=None, **overrides):
