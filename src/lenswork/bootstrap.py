@@ -328,7 +328,8 @@ class BootstrapResult:
     fraction : float or None
         Share of rows per subsample (None for "bootstrap").
     settings : dict
-        The graph settings of every graph, whole (:meth:`GraphSettings.to_dict`).
+        The graph settings of every graph, whole (:meth:`GraphSettings.to_dict`),
+        with ``"auto"`` values resolved on all rows (every resample uses them).
     suggestion : CoverSuggestion or None
     random_state : int or None
     n_rows : int
@@ -555,6 +556,9 @@ def bootstrap_graph(lenses, workspace, *, settings=None, resamples=100, scheme="
                                    random_state=random_state)
         settings = suggestion.apply(settings)
     n = workspace.n
+    # "auto" values are fixed once on all rows: every resample uses the same cover
+    # resolution and min_size, as the parameters are fixed in [1].
+    settings = settings.resolve(n, len(cols))
     if scheme == "subsample" and round(fraction * n) < k + 2:
         raise InputError(
             f"A subsample of {fraction:g} x {n} rows is too small for a neighbour graph with "

@@ -47,13 +47,17 @@ def stability(cloud, seed, lens, grid_intervals, grid_overlaps, out, no_figure, 
     the shared neighbour graph and its components, loops (b1), branch points and
     flares are counted. The table (one row per cell) goes to stability.csv, the
     heat maps to stability.png; the region of cells around the default setting
-    (10 intervals, overlap 0.3) with the same count is outlined. Pick cover
+    (the default graph's: intervals and min_size from the rows, overlap 0.3)
+    with the same count is outlined. Pick cover
     settings inside such a region. With --cover ball a row N of the grid is a
     net spacing of 1/N.
     """
     out = output_dir(out)
     ws = _workspace(cloud, seed, neighbor_method)
-    smap = stability_map(_lens(ws, lens), ws, settings=settings, intervals=grid_intervals,
+    table = _lens(ws, lens)
+    # "auto" settings fixed on these rows: the map's default cell is the default graph's
+    settings = settings.resolve(ws.n, len(table.names))
+    smap = stability_map(table, ws, settings=settings, intervals=grid_intervals,
                          overlaps=grid_overlaps)
     csv_path, sidecar = smap.write(out / "stability.csv")
     click.echo(f"Stability map of {smap.lens} on {ws.n} rows "

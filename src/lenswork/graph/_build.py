@@ -119,8 +119,9 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
         Any :class:`GraphSettings` field, for example:
     cover : {"interval", "ball"} or cover object, default="interval"
         See :class:`GraphSettings` and :data:`lenswork.graph.COVERS`.
-    intervals : int or sequence of int, default=10
-        Intervals per lens (see :class:`Cover`).
+    intervals : int, sequence of int or "auto", default="auto"
+        Intervals per lens (see :class:`Cover`); ``"auto"`` follows the rows
+        and the lens columns (see :class:`GraphSettings`).
     overlap : float or sequence of float, default=0.3
         Overlap fraction in [0, 1).
     scale : {"rank", "raw"}, default="rank"
@@ -131,11 +132,13 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
         Longest neighbour edge the graph clusterer keeps; ``"auto"`` cuts only
         at a gap in the tail of the neighbour distances (see
         :func:`neighbor_cutoff`).
-    min_size : int, default=10
-        Groups with fewer points are fragments. The default sits below the
-        neighbourhood size k = 15 and above the chance groups of 5-6 points
-        that restricting a 10-20-dimensional neighbour graph to a slice leaves
-        (measured on Gaussian samples; with min_size = 5 they add false loops).
+    min_size : int or "auto", default="auto"
+        Groups with fewer points are fragments. ``"auto"``: ``round((ln n) ** 1.1)``
+        in [3, 10] (see :class:`GraphSettings`), 10 from about 3,000 rows on:
+        below the neighbourhood size k = 15 and above the chance groups of 5-6
+        points that restricting a 10-20-dimensional neighbour graph to a slice
+        leaves (measured on Gaussian samples; with min_size = 5 they add false
+        loops). Small tables get smaller values, so their elements keep nodes.
     k : int, default=15
         Neighbours per row of the shared graph.
     metric : {"euclidean", "manhattan", "chebyshev", "cosine"}, default="euclidean"
@@ -201,6 +204,7 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
     values = np.asarray(table.values(), dtype=np.float64)
     lens_prov = [c.provenance() for c in table]
     data = _data_columns(ws.cloud, columns, names)
+    auto = settings.auto_fields()
     settings = settings.resolve(n, len(names))
     clusterer, k, metric = settings.clusterer, settings.k, settings.metric
     with _progress.step(f"graph: cover of {', '.join(names)}"):
@@ -240,6 +244,7 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
         "random_state": seed,
         "lenses": lens_prov,
         "graph_settings": settings.to_dict(),
+        "auto_settings": {name: settings.to_dict()[name] for name in auto},
     }
     if uses_graph:
         g = ws.neighbors(k, metric)

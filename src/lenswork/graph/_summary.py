@@ -38,7 +38,8 @@ from scipy.sparse.csgraph import connected_components
 
 from ._nerve import nerve_triangles
 
-__all__ = ["GraphFeature", "GraphSummary", "neighbour_lists", "summarize"]
+__all__ = ["GraphFeature", "GraphSummary", "cover_settings", "neighbour_lists", "settings_text",
+           "summarize"]
 
 
 @dataclass(frozen=True)
@@ -102,6 +103,7 @@ class GraphSummary:
     n_flares: int
     n_unassigned: int
     component_sizes: tuple
+    settings: dict = field(default_factory=dict, compare=False)
     _graph: object = field(default=None, repr=False, compare=False)
 
     @cached_property
@@ -125,6 +127,7 @@ class GraphSummary:
             "n_components": self.n_components, "loops": self.loops, "holes": self.holes,
             "branch_points": list(self.branch_points), "n_flares": self.n_flares,
             "n_unassigned": self.n_unassigned, "component_sizes": list(self.component_sizes),
+            "settings": dict(self.settings),
             "features": [f.to_dict() for f in self.features],
         }
 
@@ -136,6 +139,8 @@ class GraphSummary:
             f"  components {self.n_components}, loops {self.loops} (b1 = E - V + C), "
             f"branch points {len(self.branch_points)}, flares {self.n_flares}",
         ]
+        if self.settings:
+            lines.append("  " + settings_text(self.settings))
         if self.holes != self.loops:
             holes = "not computed (nerve too large)" if self.holes is None else self.holes
             lines.append(
@@ -157,6 +162,37 @@ class GraphSummary:
 
     def __str__(self):
         return self.text()
+
+
+def cover_settings(graph):
+    """The cover settings a graph was built with, and which of them were ``"auto"``."""
+    params = getattr(graph, "params", None) or {}
+    prov = getattr(graph, "provenance", None) or {}
+    cover = params.get("cover") or {}
+    out = {key: cover[key] for key in ("kind", "intervals", "overlap", "radius", "centres")
+           if key in cover and cover[key] is not None}
+    if "min_size" in params:
+        out["min_size"] = params["min_size"]
+    auto = sorted(prov.get("auto_settings") or {})
+    if auto:
+        out["auto"] = auto
+    return out
+
+
+def settings_text(settings):
+    """One line: the cover resolution and min_size, marking the values resolved from the data."""
+    auto = set(settings.get("auto", ()))
+
+    def shown(key, value):
+        if isinstance(value, (list, tuple)):
+            value = " x ".join(f"{v:g}" if isinstance(v, float) else str(v) for v in value)
+        elif isinstance(value, float):
+            value = f"{value:g}"
+        return f"{key} {value}" + (" (auto)" if key in auto else "")
+
+    parts = [shown(k, settings[k]) for k in ("intervals", "overlap", "radius", "centres",
+                                             "min_size") if k in settings]
+    return "settings: " + ", ".join(parts)
 
 
 def neighbour_lists(n_nodes, edges):
@@ -328,5 +364,5 @@ def summarize(graph):
         branch_points=tuple(int(v) for v in np.flatnonzero(deg >= 3)),
         n_flares=len(flares), n_unassigned=int(graph.unassigned.size),
         component_sizes=tuple(rows_of(nodes) for nodes in _components(labels, n_comp)),
-        _graph=graph,
+        settings=cover_settings(graph), _graph=graph,
     )
