@@ -54,7 +54,11 @@ def test_bootstrap_command(circle_csv, tmp_path):
     loops = next(line for line in res.output.splitlines() if line.startswith("loops"))
     assert loops.split()[1:5] == ["1", "1", "100%", "100%"]
     meta = json.loads((out / "bootstrap.json").read_text())
-    assert meta["resamples"] == 12 and meta["settings"]["intervals"] == 10
+    assert meta["resamples"] == 12 and meta["settings"]["intervals"] == 10  # auto, resolved
+    # the circle's one loop is significant and recurs (Carrière, Michel and Oudot 2018)
+    line = next(x for x in res.output.splitlines() if x.startswith("loop "))
+    assert line.split()[2] == "100%"
+    assert [f["kind"] for f in meta["significant_features"]].count("loop") == 1
     assert len((out / "bootstrap.csv").read_text().splitlines()) == 13
     assert not (out / "bootstrap.png").exists()
 

@@ -112,8 +112,11 @@ def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_f
     Each resample gets a neighbour graph of its own. For components, loops (b1),
     branch points and flares the command prints the full-data count, the most
     frequent count over the resamples and its share, and the share of resamples
-    that reproduce the full-data count. bootstrap.csv holds one row per
-    resample; bootstrap.json the summary, the settings and any suggestion.
+    that reproduce the full-data count; then every significant loop, branch,
+    flare and branch point of the full-data graph with the share of resamples
+    where a significant feature of the same kind over the same lens range
+    recurs. bootstrap.csv holds one row per resample; bootstrap.json the
+    summary, the settings and any suggestion.
     """
     out = output_dir(out)
     ws = _workspace(cloud, seed, neighbor_method)
@@ -129,6 +132,9 @@ def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_f
     click.echo(f"Bootstrap of {result.lens_label}: {result.resamples} resamples "
                f"({result.scheme_text}), {ws.n} rows.")
     click.echo(result.format_table())
+    click.echo("Significant features of the full-data graph (lens span above the cover's "
+               "resolution) and how often each recurs:")
+    click.echo(result.format_features())
     written = result.write(out, figures=not no_figure)
     click.echo("wrote " + ", ".join(str(p) for p in written.values()))
 
