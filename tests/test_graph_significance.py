@@ -139,3 +139,64 @@ def test_bootstrap_reports_how_often_each_significant_feature_recurs():
     assert len(loops) == 1 and loops[0]["recurrence"] >= 0.75
     assert res.significant_counts["loops"].shape == (8,)
     assert "recurs" in res.format_features()
+
+
+# --------------------------------------------------------------------------- multi-lens holes
+def _torus(seed, n=1500):
+    from _shapes import torus
+
+    return torus(n, np.random.default_rng(seed), noise=0.03)
+
+
+@pytest.mark.parametrize("seed", [0, 1])
+def test_torus_in_plane_coordinates_give_one_significant_hole(seed):
+    # (x, y) maps the torus (R = 3, r = 1) onto the annulus 2 <= |(x, y)| <= 4; a cover of it
+    # by elements up to twice the resolution has a nerve with one hole (nerve theorem,
+    # Hatcher 2002, Cor. 4G.3). At the finest scale the two sheets (z > 0, z < 0) split the
+    # cells and leave more holes; they fill in at the coarser scales.
+    X = _torus(seed)
+    g = build_graph(X[:, :2], Workspace(X))
+    s = g.summary()
+    scales = g.params["holes_over_scales"]
+    assert s.significant_holes == 1 == min(scales["holes"])
+    assert scales["holes"][0] == s.holes and len(scales["holes"]) == 4
+    assert "significant holes 1" in s.text() and s.to_dict()["significant_holes"] == 1
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_three_armed_tree_has_no_significant_hole(seed):
+    # a Y is contractible, so is every cover of it by convex pieces (nerve theorem): no hole
+    X = y_tree(900, np.random.default_rng(seed))
+    X = np.column_stack([X, np.random.default_rng(seed + 10).normal(0, 0.02, (900, 3))])
+    g = build_graph(X[:, :2], Workspace(X))
+    assert g.summary().significant_holes == 0
+
+
+def test_two_circles_keep_both_holes_at_every_scale():
+    # scikit-learn's make_circles: two circles, each with one hole at every cover scale
+    from sklearn.datasets import make_circles
+
+    X = make_circles(1000, noise=0.05, factor=0.5, random_state=0)[0]
+    g = build_graph(X, Workspace(X))
+    assert g.params["holes_over_scales"]["holes"] == [2, 2, 2, 2]
+    assert g.summary().significant_holes == 2
+
+
+def test_hole_scales_are_the_stated_rule():
+    from lenswork import GraphSettings
+    from lenswork.graph import hole_scale_settings
+
+    for N, k in ((10, 4), (8, 5), (3, 4), (20, 3)):
+        expected = []
+        for c in np.linspace(1, 0.5, k)[1:]:  # N down to N / 2, repeats dropped
+            v = max(1, int(round(N * c)))
+            if v != N and v not in expected:
+                expected.append(v)
+        got = [c.intervals for c in hole_scale_settings(GraphSettings(intervals=N,
+                                                                      hole_scales=k), 2)]
+        assert got == expected
+    assert hole_scale_settings(GraphSettings(intervals=10), 1) == []
+    assert hole_scale_settings(GraphSettings(intervals=10, hole_scales=1), 2) == []
+    X = _torus(0, 600)
+    g = build_graph(X[:, :2], Workspace(X), hole_scales=1)
+    assert "holes_over_scales" not in g.params and g.summary().significant_holes is None

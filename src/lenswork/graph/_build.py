@@ -2,19 +2,22 @@
 
 from __future__ import annotations
 
+import warnings
+
 import numpy as np
 
 from .. import _progress
-from .._errors import ParameterError
+from .._errors import LensworkWarning, ParameterError
 from .._version import __version__
 from ..table import as_lens_table
 from ..workspace import Workspace
 from ._cluster import cluster_elements, clusterer_name
+from ._cover import CoverBase
 from ._lensgraph import LensGraph
 from ._nerve import membership_matrix, nerve_edges
-from ._settings import GraphSettings
+from ._settings import GraphSettings, is_auto
 
-__all__ = ["build_graph", "lens_jitter", "node_statistics"]
+__all__ = ["build_graph", "hole_scale_settings", "lens_jitter", "node_statistics"]
 
 
 def lens_jitter(values, neighbours):
@@ -191,6 +194,14 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
         Histogram bins of the single-linkage gap rule.
     random_state : int, optional
         Seed for scikit-learn clusterers; default: the workspace's.
+    hole_scales : int, default=4
+        With two or more lenses and an interval cover, the graph is also built
+        at ``hole_scales - 1`` coarser interval counts, evenly from ``N`` down to
+        ``N / 2`` (:func:`hole_scale_settings`), and the holes of each are
+        recorded in ``params["holes_over_scales"]``; the fewest is the number
+        of significant holes (:attr:`GraphSummary.significant_holes`): a hole
+        of one missing cell fills in at a coarser scale, a hole of the data
+        does not. 1 builds this cover alone.
 
     Returns
     -------
@@ -238,15 +249,73 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
     base = GraphSettings.coerce(settings)
     settings = base.replace(**overrides) if overrides else base
     ws = workspace if isinstance(workspace, Workspace) else Workspace(workspace)
+    table = as_lens_table(lenses, ws, what="build_graph")
+    auto = settings.auto_fields()
+    settings = settings.resolve(ws.n, len(table.names))
+    graph = _build(table, ws, settings, columns, auto)
+    scales = hole_scale_settings(settings, len(table.names))
+    if scales:
+        holes = []
+        with _progress.step(f"graph: holes over {len(scales) + 1} cover scales"):
+            previous = _progress.set_reporter(False)  # the scale builds report nothing
+            try:
+                for cell in scales:
+                    try:
+                        with warnings.catch_warnings():
+                            warnings.simplefilter("ignore", LensworkWarning)
+                            holes.append(_build(table, ws, cell, None, ()).summary().holes)
+                    except ParameterError:  # no group reaches min_size here: no hole
+                        holes.append(0)
+            finally:
+                _progress.restore(previous)
+        own = graph.summary().holes
+        counts = [own, *holes]
+        graph.params["holes_over_scales"] = {
+            "intervals": [list(iv) if isinstance(iv, tuple) else iv
+                          for iv in (settings.intervals, *(c.intervals for c in scales))],
+            "holes": counts,
+            "significant": None if any(h is None for h in counts) else int(min(counts)),
+        }
+    return graph
+
+
+def hole_scale_settings(settings, n_lenses):
+    """The coarser covers a multi-lens graph's holes are checked against (see build_graph).
+
+    ``settings.hole_scales - 1`` interval counts evenly from the cover's ``N``
+    down to ``N / 2`` (per lens, rounded, at least 1, repeats dropped); empty
+    for one lens, a ball cover or ``hole_scales = 1``.
+
+    Examples
+    --------
+    >>> [c.intervals for c in hole_scale_settings(GraphSettings(intervals=10, min_size=5), 2)]
+    [8, 7, 5]
+    """
+    if n_lenses < 2 or settings.hole_scales < 2 or settings.cover_kind != "interval" \
+            or isinstance(settings.cover, CoverBase) or is_auto(settings.intervals):
+        return []
+    own = settings.intervals if isinstance(settings.intervals, tuple) \
+        else (settings.intervals,) * n_lenses
+    seen = {tuple(own)}
+    out = []
+    for c in np.linspace(1.0, 0.5, settings.hole_scales)[1:]:
+        counts = tuple(max(1, int(round(N * c))) for N in own)
+        if counts in seen:
+            continue
+        seen.add(counts)
+        value = counts[0] if len(set(counts)) == 1 else counts
+        out.append(settings.replace(intervals=value))
+    return out
+
+
+def _build(table, ws, settings, columns, auto):
+    """One graph of resolved ``settings`` (build_graph without the hole scales)."""
     n = ws.n
     seed = ws.random_state if settings.random_state is None else settings.random_state
-    table = as_lens_table(lenses, ws, what="build_graph")
     names = table.names
     values = np.asarray(table.values(), dtype=np.float64)
     lens_prov = [c.provenance() for c in table]
     data = _data_columns(ws.cloud, columns, names)
-    auto = settings.auto_fields()
-    settings = settings.resolve(n, len(names))
     clusterer, k, metric = settings.clusterer, settings.k, settings.metric
     with _progress.step(f"graph: cover of {', '.join(names)}"):
         cover = settings.make_cover().fit(values, names)

@@ -73,6 +73,7 @@ __all__ = [
     "auto_min_size",
     "ball_rows",
     "grid_settings",
+    "is_auto",
 ]
 
 #: Exponent beta of the subsample size n / (ln n) ** (1 + beta) (Carrière, Michel and Oudot 2018).
@@ -151,8 +152,18 @@ AUTO_RULES: dict = {
 }
 
 
-def _auto(value):
+def is_auto(value):
+    """Whether a setting's value is the word ``"auto"`` (resolved from the data at build time).
+
+    Examples
+    --------
+    >>> is_auto("Auto"), is_auto(10)
+    (True, False)
+    """
     return isinstance(value, str) and value.strip().lower() == "auto"
+
+
+_auto = is_auto
 
 
 def _cli(flag, help, *, metavar=None, choices=None, kind="text"):
@@ -223,6 +234,11 @@ class GraphSettings:
     fragments : {"attach", "report"}, default="attach"
     gap_bins : int, default=10
         Histogram bins of the single-linkage gap rule.
+    hole_scales : int, default=4
+        Multi-lens interval covers: graphs at this many interval counts from the
+        cover's own down to half of it are built, and a hole counts as
+        significant only when every one of them has it (see
+        :func:`lenswork.build_graph`); 1 counts the holes of this cover alone.
     random_state : int, optional
         Seed of scikit-learn clusterers (default: the workspace's).
 
@@ -280,6 +296,10 @@ class GraphSettings:
     gap_bins: int = field(default=10, metadata=_cli(
         "--gap-bins", "Histogram bins of the single-linkage gap rule.", metavar="N",
         kind="int"))
+    hole_scales: int = field(default=4, metadata=_cli(
+        "--hole-scales", "Multi-lens interval covers: a hole counts as significant when the "
+        "graphs at this many interval counts, from the cover's down to half of it, all have "
+        "it (1: this cover alone).", metavar="N", kind="int"))
     random_state: object = None
 
     def __post_init__(self):
@@ -317,6 +337,8 @@ class GraphSettings:
         put("fragments", check_choice("fragments", self.fragments, FRAGMENT_RULES,
                                       context="build_graph"))
         put("gap_bins", check_int("gap_bins", self.gap_bins, lo=2, context="build_graph"))
+        put("hole_scales", check_int("hole_scales", self.hole_scales, lo=1,
+                                     context="build_graph"))
         if self.random_state is not None:
             put("random_state", check_int("random_state", self.random_state, lo=0,
                                           context="build_graph"))

@@ -55,6 +55,17 @@ than one interval once both ends' uncertainty is taken off):
 With several lenses each feature takes the largest value over the lenses
 (a feature is significant when one lens certifies it). Graphs of a ball
 cover have no lens levels: no significance.
+
+Holes of a multi-lens graph have no single lens to be measured along, so they
+are held to the cover's scale instead: :func:`~lenswork.build_graph` also
+builds the graphs of the same lenses with coarser covers -- interval counts
+from the cover's ``N`` down to ``N / 2`` (``hole_scales`` of them) -- and a
+hole counts as significant only when every one of those graphs has at least
+as many holes (:attr:`GraphSummary.significant_holes` is the fewest holes
+over the scales). A hole that is one missing cell, or a split of the rows
+that one cell size makes, fills in once the elements are up to twice as
+long; a hole of the data, wider than two elements, stays. The match is by
+count, not by place: the k-th hole counts when every scale has k holes.
  Loops are reported as the fundamental cycles of
 a breadth-first spanning tree (one per non-tree edge), so their number is
 ``b1``. A component that is one chain from leaf to leaf is also listed as a
@@ -163,6 +174,25 @@ class GraphSummary:
         """
         return _features(self._graph) if self._graph is not None else ()
 
+    @property
+    def significant_holes(self):
+        """Holes that count (module notes): over cover scales for several lenses.
+
+        One lens: the significant loops (its holes are its loops). Several
+        lenses with an interval cover: the fewest holes over the graphs at the
+        coarser scales that :func:`~lenswork.build_graph` built
+        (``params["holes_over_scales"]``). None when not known (a ball cover,
+        a nerve too large for its holes, or a graph built without the scales).
+        """
+        g = self._graph
+        if g is None:
+            return None
+        if len(g.lens_columns) == 1:
+            sig = self.significance
+            return None if sig is None else sig["loops"][0]
+        scales = (g.params or {}).get("holes_over_scales")
+        return None if not scales else scales.get("significant")
+
     @cached_property
     def significance(self):
         """``{kind: (significant, all)}`` for loops, limbs, flares and branch points.
@@ -214,6 +244,7 @@ class GraphSummary:
             "branch_points": list(self.branch_points), "n_flares": self.n_flares,
             "n_unassigned": self.n_unassigned, "component_sizes": list(self.component_sizes),
             "settings": dict(self.settings),
+            "significant_holes": self.significant_holes,
             "significance": None if self.significance is None else {
                 k: {"significant": a, "small": b - a} for k, (a, b) in self.significance.items()},
             "features": [f.to_dict() for f in self.features],
@@ -250,6 +281,15 @@ class GraphSummary:
                 f"  holes {holes} (b1 of the nerve with its triangles: most graph cycles of a "
                 f"multi-lens cover are filled triangles)"
             )
+        scales = (self._graph.params or {}).get("holes_over_scales") \
+            if self._graph is not None else None
+        if scales:
+            shown = ", ".join(
+                f"{'x'.join(map(str, iv)) if isinstance(iv, (list, tuple)) else iv}: {h}"
+                for iv, h in zip(scales["intervals"], scales["holes"]))
+            sig = "unknown" if scales["significant"] is None else scales["significant"]
+            lines.append(f"  significant holes {sig}: present at every cover scale down to "
+                         f"half the intervals (intervals: holes  {shown})")
         sig = self.significance
         if sig is not None:
             words = {"loops": "loops", "limbs": "branches (limbs)", "flares": "flares",
