@@ -78,7 +78,12 @@ def test_compare_command(circle_csv, tmp_path):
                "--lens", "column:name=y", "--intervals", 8, "-o", out)
     assert res.exit_code == 0, res.output
     assert "column:name=x vs column:name=y (component partition, 400 rows): ARI 1.000" in res.output
+    # both views are one component: the ARI of 1 is flagged trivial, and the co-membership of
+    # row pairs (checked against sklearn and a pair count in test_compare) is printed
+    assert "trivial: both component partitions are one block" in res.output
     meta = json.loads((out / "comparison.json").read_text())
+    co = next(x for x in res.output.splitlines() if "co-membership" in x)
+    assert f"ARI {meta['pairs'][0]['co_ari']:.3f}" in co and meta["pairs"][0]["trivial"]
     assert [v["loops"] for v in meta["views"]] == [1, 1]
     assert meta["views"][0]["params"]["cover"]["intervals"] == [8]
     assert (out / "correspondence_1_2.csv").read_text().startswith("node_a,node_b,shared_rows")

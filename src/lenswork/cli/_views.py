@@ -160,7 +160,10 @@ def compare(cloud, seed, lenses, partition, match, out, no_figure, settings, nei
     """Compare the Mapper graphs of two or more lenses over the same rows.
 
     For every pair of views it prints the adjusted Rand index and the variation
-    of information of the row partitions the views induce, and the features
+    of information of the row partitions the views induce (flagged trivial when
+    both are one block, as for any two connected graphs), the co-membership
+    agreement of row pairs (the pairs of rows sharing a node in one view and in
+    the other: a weighted adjusted Rand index and a pair Jaccard), and the features
     (loops, flares, branch points, components) found in one view and not the
     other. comparison.json holds all of it; correspondence_A_B.csv the node
     correspondence M_a^T M_b (rows shared by each pair of nodes); comparison.png
