@@ -82,7 +82,7 @@ def test_compare_command(circle_csv, tmp_path):
     # row pairs (checked against sklearn and a pair count in test_compare) is printed
     assert "trivial: both component partitions are one block" in res.output
     meta = json.loads((out / "comparison.json").read_text())
-    co = next(x for x in res.output.splitlines() if "co-membership" in x)
+    co = next(x for x in res.output.splitlines() if x.startswith("  co-membership"))
     assert f"ARI {meta['pairs'][0]['co_ari']:.3f}" in co and meta["pairs"][0]["trivial"]
     assert [v["loops"] for v in meta["views"]] == [1, 1]
     assert meta["views"][0]["params"]["cover"]["intervals"] == [8]
