@@ -56,14 +56,14 @@ measures how many of each row's data neighbours stay its neighbours there
 (``R_NX``, Lee and Verleysen 2009), the pair-level analogue of the Laplacian
 score.
 
-A merit proposal
-----------------
-:func:`proposed_merit` combines, per lens, robust spread, smoothness and a
-significance-based structure score
-(``lenswork.graph._persistence.structure_significance``) by a geometric mean.
-Measured in tests/benchmarks/bench_judgement.py: the single-lens ranking by
-this merit, and the pair with the largest ``R_NX(pair) * sqrt(merit_i
-merit_j)`` under the redundancy ceiling.
+The screen's merit
+------------------
+The screen (:mod:`lenswork.screen`) ranks candidates by the geometric mean of
+robust spread, smoothness and the probe's significance-based structure score
+(:func:`lenswork.probe.structure_scores`), :func:`proposed_merit` with equal
+weights, and picks the pair with the largest ``R_NX(pair) * sqrt(merit_i
+merit_j)`` under the redundancy ceiling (``lenswork.screen._select`` says
+why). Measured in tests/benchmarks/bench_judgement.py.
 
 References
 ----------
@@ -97,7 +97,9 @@ __all__ = [
     "neighbour_preservation",
     "proposed_merit",
     "robust_spread",
+    "robust_spread_sorted",
     "smoothness",
+    "unit_rank_criteria",
 ]
 
 #: Share of the most extreme rows whose part of the second moment is ``tail_share``.
@@ -351,23 +353,113 @@ def robust_spread(values, *, tail=TAIL):
         )
     tail = check_float("tail", tail, lo=0, hi=1, lo_open=True, hi_open=True,
                        context="robust_spread")
-    n = v.size
-    s = np.sort(v)
-    new = np.r_[True, s[1:] != s[:-1]]
-    counts = np.diff(np.r_[np.flatnonzero(new), n])
-    largest = int(counts.max())
+    return robust_spread_sorted(np.sort(v), tail=tail)
+
+
+def robust_spread_sorted(s, counts=None, *, tail=TAIL):
+    """:func:`robust_spread` of a column from its sorted values (and tie-group sizes), O(n).
+
+    Parameters
+    ----------
+    s : ndarray of shape (n_samples,)
+        The finite values, sorted ascending.
+    counts : ndarray of int, optional
+        Sizes of the groups of equal values in ``s`` (computed when omitted).
+    tail : float in (0, 1), default=0.01
+
+    Returns
+    -------
+    RobustSpread
+
+    Notes
+    -----
+    The most extreme ``ceil(tail n)`` squared deviations from the median lie
+    among the ``ceil(tail n)`` smallest and largest values, so one merge of
+    the two ends replaces a second sort (the screen's one sort per column).
+
+    Examples
+    --------
+    >>> round(robust_spread_sorted(np.arange(100.0)).robust_spread, 3)   # top 1 of 100 rows
+    0.971
+    """
+    s = np.asarray(s, dtype=np.float64)
+    n = s.size
+    if counts is None:
+        new = np.r_[True, s[1:] != s[:-1]]
+        counts = np.diff(np.r_[np.flatnonzero(new), n])
+    largest = int(np.max(counts))
     largest_tie = largest / n if largest > 1 else 0.0
-    dev = np.sort((v - np.median(v)) ** 2)
+    med = float(np.median(s)) if n % 2 else 0.5 * float(s[n // 2 - 1] + s[n // 2])
+    dev = (s - med) ** 2
     total = float(dev.sum())
     if total <= 0:
         return RobustSpread(0.0, float(largest_tie), 1.0)
-    top = max(1, math.ceil(tail * n))
-    share = float(dev[-top:].sum()) / total
+    top = min(n, max(1, math.ceil(tail * n)))
+    ends = np.r_[dev[:top], dev[max(top, n - top):]]
+    share = float(np.sort(ends)[-top:].sum()) / total
     return RobustSpread((1.0 - largest_tie) * (1.0 - share), float(largest_tie), share)
 
 
+def unit_rank_criteria(Z, affinity):
+    """Laplacian score and neighbour jitter of many columns from centred rank rows, at once.
+
+    Parameters
+    ----------
+    Z : ndarray of shape (m, n_samples)
+        One row per lens column: any affine image of its average ranks (the
+        screen's centred unit rank rows); rows holding NaN are skipped.
+    affinity : sparse matrix of shape (n_samples, n_samples)
+        Symmetric non-negative weights (:func:`heat_kernel_affinity`).
+
+    Returns
+    -------
+    (ndarray, ndarray) of shape (m,)
+        ``L_r`` on the rank scale (:func:`laplacian_score`) and the jitter
+        ``delta`` (:func:`neighbour_jitter`), NaN for skipped rows. Both are
+        invariant under ``f -> a f + b``, so the screen's rank rows give the
+        values of the ranks themselves.
+
+    Notes
+    -----
+    One sparse product ``S Z^T``: O(nnz(S) m).
+
+    Examples
+    --------
+    >>> x = np.linspace(0, 1, 200)
+    >>> S = heat_kernel_affinity(x[:, None], k=5)
+    >>> Lr, delta = unit_rank_criteria(x[None, :] - 0.5, S)
+    >>> bool(np.isclose(Lr[0], laplacian_score(x, S))), bool(np.isclose(delta[0],
+    ...     neighbour_jitter(x, S)))
+    (True, True)
+    """
+    Z = np.asarray(Z, dtype=np.float64)
+    S = sp.csr_matrix(affinity, dtype=np.float64)
+    m = Z.shape[0]
+    Lr = np.full(m, np.nan)
+    delta = np.full(m, np.nan)
+    ok = np.flatnonzero(np.isfinite(Z).all(axis=1))
+    if not ok.size:
+        return Lr, delta
+    d = np.asarray(S.sum(axis=1)).ravel()
+    total = float(d.sum())
+    F = Z[ok]
+    if total > 0:
+        F = F - (F @ d)[:, None] / total
+    SF = (S @ F.T).T
+    den = np.einsum("ij,ij->i", F * d, F)
+    num = den - np.einsum("ij,ij->i", F, SF)
+    span = F.max(axis=1) - F.min(axis=1)
+    good = (den > 0) & (span > 0)
+    Lr[ok[good]] = np.maximum(0.0, num[good] / den[good])
+    jit = np.zeros(ok.size)
+    if total > 0:
+        jit[good] = np.sqrt(np.maximum(0.0, 2.0 * num[good]) / total) / span[good]
+    delta[ok] = jit
+    return Lr, delta
+
+
 def proposed_merit(spread, smooth, structure):
-    """Proposed merit of lens candidates: the geometric mean of three [0, 1] scores.
+    """The screen's default merit: the geometric mean of three [0, 1] scores.
 
     Parameters
     ----------
@@ -376,8 +468,8 @@ def proposed_merit(spread, smooth, structure):
     smooth : array-like of shape (m,)
         :func:`smoothness` of the Laplacian score (the lens follows the neighbours).
     structure : array-like of shape (m,)
-        A significance-based structure score
-        (``lenswork.graph._persistence.structure_significance``).
+        A significance-based structure score (:func:`lenswork.probe.structure_scores`,
+        or ``lenswork.graph._persistence.structure_significance`` of given diagrams).
 
     Returns
     -------
@@ -390,9 +482,9 @@ def proposed_merit(spread, smooth, structure):
     ignores the neighbour graph, or one whose graph shows nothing beyond the
     cover's resolution is a poor lens however good the others are. A geometric
     mean makes the merit vanish when any one does, and with equal weights a
-    fixed relative change of any score changes the merit alike (the form of the
-    screen's own merit, a weighted geometric mean; equal weights for want of
-    evidence for others).
+    fixed relative change of any score changes the merit alike (the screen's
+    merit is this weighted geometric mean; equal weights for want of evidence
+    for others).
 
     Examples
     --------
