@@ -23,7 +23,9 @@ by default, on the ranks of the lens ``(rank - 1/2) / n``: the cover is laid
 on ranks by default, so the ordering is what the graph uses; on ranks the
 score is the same for every monotone transform of the lens, as Spearman's
 rho in the redundancy check. ``smoothness = 1 - min(L_r, 1)`` turns it into a
-score in [0, 1], higher better (0 for noise).
+score in [0, 1], higher better; a score no better than a random ordering of
+the values at two standard errors (:func:`laplacian_null_sd`, the permutation
+null of Cliff and Ord 1981) gives 0, so a lens of noise gets exactly 0.
 
 Robust spread
 -------------
@@ -92,6 +94,7 @@ __all__ = [
     "RobustSpread",
     "TAIL",
     "heat_kernel_affinity",
+    "laplacian_null_sd",
     "laplacian_score",
     "neighbour_jitter",
     "neighbour_preservation",
@@ -266,20 +269,74 @@ def neighbour_jitter(values, affinity, *, scale="rank"):
     return math.sqrt(d2) / span
 
 
-def smoothness(score):
+def smoothness(score, *, null_sd=0.0):
     """``1 - min(L_r, 1)``: a Laplacian score as a [0, 1] score, higher better (NaN -> 0).
 
     A lens unrelated to the geometry has ``L_r`` about 1 and gets 0; one constant
     on every component of the graph gets 1.
 
+    Parameters
+    ----------
+    score : float or array-like
+        Laplacian scores ``L_r``.
+    null_sd : float, default=0.0
+        Standard deviation of ``1 - L_r`` for values unrelated to the graph
+        (:func:`laplacian_null_sd`). A score with ``1 - L_r <= 2 null_sd`` (no
+        smoother than chance at two standard errors, common practice) gives 0:
+        the sampling wobble of a noise lens must not count as smoothness.
+
     Examples
     --------
     >>> smoothness(np.array([0.1, 1.3, np.nan])).round(2).tolist()
     [0.9, 0.0, 0.0]
+    >>> smoothness(np.array([0.1, 0.97]), null_sd=0.02).round(2).tolist()
+    [0.9, 0.0]
     """
     s = np.asarray(score, dtype=np.float64)
     out = 1.0 - np.clip(np.nan_to_num(s, nan=1.0), 0.0, 1.0)
+    null_sd = check_float("null_sd", null_sd, lo=0, context="smoothness")
+    out = np.where(out > 2.0 * null_sd, out, 0.0)
     return float(out) if out.ndim == 0 else out
+
+
+def laplacian_null_sd(affinity):
+    """Standard deviation of ``1 - L_r`` when the values are unrelated to the graph.
+
+    Parameters
+    ----------
+    affinity : sparse or dense matrix of shape (n_samples, n_samples)
+        Symmetric non-negative weights without diagonal.
+
+    Returns
+    -------
+    float
+        ``sqrt(2 sum_ij S_ij^2) / sum_ij S_ij``.
+
+    Notes
+    -----
+    ``1 - L_r = f~^T S f~ / f~^T D f~``. For values exchangeable over the rows
+    (a random ordering of any lens: the permutation null of Moran's I and
+    Geary's c, Cliff and Ord, "Spatial Processes", 1981) the numerator
+    ``sum_(i != j) S_ij f~_i f~_j`` has mean about 0 and variance about
+    ``2 v^2 sum_ij S_ij^2`` (v the variance of the values; each pair enters
+    twice), the denominator is about ``v sum_ij S_ij``; the leading term of
+    Cliff and Ord's randomisation variance, exact up to O(1/n).
+
+    Examples
+    --------
+    >>> rng = np.random.default_rng(0)
+    >>> X = rng.normal(size=(2000, 3))
+    >>> S = heat_kernel_affinity(X, k=10)
+    >>> sd = laplacian_null_sd(S)
+    >>> draws = 1 - laplacian_score(rng.normal(size=(2000, 200)), S)
+    >>> bool(0.8 < draws.std() / sd < 1.2), bool(abs(draws.mean()) < sd)
+    (True, True)
+    """
+    S = sp.csr_matrix(affinity, dtype=np.float64)
+    total = float(S.sum())
+    if total <= 0:
+        return 0.0
+    return math.sqrt(2.0 * float(S.multiply(S).sum())) / total
 
 
 @dataclass(frozen=True)

@@ -105,7 +105,8 @@ def evaluate(case, cloud, baseline):
     R = np.column_stack([rankdata(V[:, j]) / V.shape[0] for j in range(m)])
     acc = pair_table(R, case.labels, m) if case.labelled else None
     # the single-lens ranking: by merit (the top lens is what a one-lens graph would use)
-    order = sorted(range(m), key=lambda j: (-result.merit[j], j))
+    follows = np.nan_to_num(result.scores["smoothness"], nan=0.0)  # as the screen's table
+    order = sorted(range(m), key=lambda j: (-result.merit[j], -follows[j], j))
     rows = {"screen": (result.selected, order, names[order[0]])}
     if VERBOSE:
         for j in order:

@@ -311,7 +311,9 @@ class ScreenResult:
                 return 2
             return 1 if abs(nearest[j][1]) > self.ceiling else 0
 
-        rest.sort(key=lambda j: (category(j), -gain[j], -self.merit[j], j))
+        follows = np.nan_to_num(self.scores.get("smoothness", np.zeros(m)), nan=0.0)
+        # merit 0 last; among those, lenses that follow the data's neighbours first
+        rest.sort(key=lambda j: (category(j), -gain[j], -self.merit[j], -follows[j], j))
         rows = []
         for rank, j in enumerate(sel + rest, 1):
             col = self.lenses.columns[j]

@@ -34,6 +34,7 @@ from .._validation import check_choice, check_float, check_int
 from ..criteria import (
     RobustSpread,
     heat_kernel_affinity,
+    laplacian_null_sd,
     robust_spread_sorted,
     smoothness,
     unit_rank_criteria,
@@ -98,7 +99,8 @@ def _smoothness(Z, ws, usable):
     k = min(SMOOTHNESS_K, ws.n - 1)
     S = heat_kernel_affinity(ws, k=k)
     Lr, jitter = unit_rank_criteria(np.where(usable[:, None], Z, np.nan), S)
-    return {"smoothness": smoothness(Lr), "laplacian_score": Lr, "jitter": jitter}
+    return {"smoothness": smoothness(Lr, null_sd=laplacian_null_sd(S)), "laplacian_score": Lr,
+            "jitter": jitter}
 
 
 def _preservation(table, ws, random_state):
