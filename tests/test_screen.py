@@ -224,6 +224,51 @@ def test_selection_never_exceeds_ceiling(seed, m, ceiling, count):
     assert idx == _greedy_reference(R, merit, count, ceiling, usable)
 
 
+@settings(max_examples=60, deadline=None)
+@given(seed=st.integers(0, 2**31 - 1), m=st.integers(2, 9), ceiling=st.floats(0.05, 1.0),
+       count=st.integers(2, 4))
+def test_preservation_rule_equals_the_exhaustive_search(seed, m, ceiling, count):
+    # brute force over every pair (then every extension), written for this test: the pruned
+    # search of select_by_preservation must find the same set
+    from itertools import combinations
+
+    from lenswork.screen import select_by_preservation
+
+    rng = np.random.default_rng(seed)
+    R = spearman_matrix(rng.normal(size=(60, 3)) @ rng.normal(size=(3, m))
+                        + rng.normal(size=(60, m)))
+    merit = np.where(rng.uniform(size=m) < 0.15, 0.0, rng.uniform(0.05, 1, m))
+    table = {}
+
+    def rnx(idx):
+        key = tuple(sorted(idx))
+        if key not in table:
+            table[key] = float(rng.uniform(-0.1, 1))
+        return table[key]
+
+    def score(idx):
+        return max(rnx(idx), 0.0) * float(np.prod(merit[list(idx)]) ** (1 / len(idx)))
+
+    sel = select_by_preservation(R, merit, rnx, count=count, ceiling=ceiling)
+    ok = [j for j in range(m) if merit[j] > 0]
+    pairs = [p for p in combinations(ok, 2) if abs(R[p[0], p[1]]) <= ceiling]
+    if not pairs:
+        assert len(sel.indices) <= 1
+        return
+    best = max(score(p) for p in pairs)
+    assert set(sel.indices[:2]) in [set(p) for p in pairs if score(p) >= best - 1e-12]
+    chosen = list(sel.indices[:2])
+    while len(chosen) < count:
+        nxt = [j for j in ok if j not in chosen and all(abs(R[i, j]) <= ceiling for i in chosen)]
+        if not nxt:
+            break
+        top = max(score([*chosen, j]) for j in nxt)
+        j = sel.indices[len(chosen)]
+        assert score([*chosen, j]) >= top - 1e-12
+        chosen.append(j)
+    assert list(sel.indices) == chosen
+
+
 def test_selection_stop_reasons():
     R = np.array([[1.0, 0.99], [0.99, 1.0]])
     assert select_lenses(R, [0.9, 0.8], count=2, ceiling=0.5).stop == "ceiling"

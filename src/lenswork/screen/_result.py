@@ -423,7 +423,7 @@ class ScreenResult:
             rank order (chosen first, in the order taken). Columns: ``rank``,
             ``lens``, ``params`` (JSON text), ``selected`` (bool), ``order``
             (1-based pick order; missing for candidates not chosen), ``merit``,
-            ``gain``, every score column of :attr:`scores`, the probe counts
+            ``preservation``, ``gain``, every score column of :attr:`scores`, the probe counts
             when the screen ran the probe, ``partner`` and ``partner_rho``,
             ``nearest_selected`` and ``nearest_selected_rho``, ``rho[<ref>]``
             per reference column, and ``reason``: the columns of
