@@ -206,6 +206,8 @@ def main(argv=None):
                     help="also the earlier default (entropy spread x count structure, greedy)")
     ap.add_argument("--verbose", action="store_true", help="print every candidate's scores")
     ap.add_argument("--only", default="", help="comma-separated dataset names")
+    ap.add_argument("--seed", type=int, default=0,
+                    help="seed of the generated shapes and of the noise column (default 0)")
     args = ap.parse_args(argv)
     global VERBOSE
     VERBOSE = args.verbose
@@ -215,7 +217,7 @@ def main(argv=None):
         builders = [b for b in BUILDERS if b.__name__ in keep]
     records = {"screen": [], "baseline": []}
     for b in builders:
-        case, cloud = build(b, seed=0)
+        case, cloud = build(b, seed=args.seed)
         out = evaluate(case, cloud, args.baseline)
         for label, rec in out.items():
             records[label].append((case, rec))

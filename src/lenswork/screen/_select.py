@@ -227,8 +227,14 @@ def weighted_merit(scores, weights):
 
 
 def check_weights(weights, scores):
-    """The merit weights, checked against the score columns (default: ``DEFAULT_WEIGHTS``)."""
-    weights = dict(DEFAULT_WEIGHTS if weights is None else weights)
+    """The merit weights, checked against the score columns.
+
+    The default is :data:`DEFAULT_WEIGHTS` when every one of its columns is there
+    (the probe ran), else :data:`NO_PROBE_WEIGHTS`.
+    """
+    if weights is None:
+        weights = DEFAULT_WEIGHTS if set(DEFAULT_WEIGHTS) <= set(scores) else NO_PROBE_WEIGHTS
+    weights = dict(weights)
     if not weights:
         raise ParameterError(
             "The 'weights' parameter of screen is empty; expected at least one score column, "
