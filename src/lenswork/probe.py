@@ -576,7 +576,8 @@ def structure_scores(lenses, workspace, *, settings=None, intervals=None,
     workspace = as_workspace(workspace)
     if intervals is None:
         _, overlaps = _check_grid(PROBE_INTERVALS, overlaps, "structure_scores")
-        intervals = probe_intervals(workspace.n, settings.min_size, min(overlaps))
+        intervals = probe_intervals(workspace.n, _min_size(settings, workspace.n),
+                                    min(overlaps))
     intervals, overlaps = _check_grid(intervals, overlaps, "structure_scores")
     cols = as_lens_table(lenses, workspace, what="structure_scores", finite=False).columns
     good = [c for c in cols if np.isfinite(np.asarray(c.values)).all()]
@@ -599,6 +600,13 @@ def structure_scores(lenses, workspace, *, settings=None, intervals=None,
         counts=counts, data_components=data_c, weights=weights, floor=floor,
         settings=settings.to_dict(),
     )
+
+
+def _min_size(settings, n_rows):
+    """The settings' minimum group size for ``n_rows`` rows (a data-dependent value resolved)."""
+    if isinstance(settings.min_size, str):  # e.g. "auto": resolved by the graph settings' rule
+        return settings.replace(intervals=1, overlap=0.0).resolve(n_rows, 1).min_size
+    return settings.min_size
 
 
 def _jitter(col, workspace, settings):
