@@ -23,6 +23,7 @@ from lenswork import (
     node_correspondence,
     variation_of_information,
 )
+from lenswork.compare import co_membership
 from lenswork.graph import build_graph
 
 # a few rows of the noisy test shapes end in no node; the graph builder warns about it
@@ -335,3 +336,95 @@ def test_a_small_loop_does_not_match_a_large_one():
     # component partitions: a = one block, b = two blocks (rows 0..19 | 20..99);
     # ARI against scikit-learn on the same labels
     assert_allclose(pair["ari"], adjusted_rand_score(cmp.labels[0], cmp.labels[1]), atol=1e-12)
+
+
+# --------------------------------------------------------------------------- co-membership
+def _brute_co_membership(A, B):
+    """Weights w(r, s) = nodes shared, by a loop over all row pairs; then the stated forms."""
+    A, B = np.asarray(A, dtype=np.int64), np.asarray(B, dtype=np.int64)
+    n = A.shape[0]
+    wa = [int(A[r] @ A[s]) for r in range(n) for s in range(r + 1, n)]
+    wb = [int(B[r] @ B[s]) for r in range(n) for s in range(r + 1, n)]
+    wa, wb = np.array(wa, dtype=float), np.array(wb, dtype=float)
+    P = n * (n - 1) / 2
+    E = wa.sum() * wb.sum() / P
+    ari = (wa @ wb - E) / ((wa @ wa + wb @ wb) / 2 - E)
+    jac = (wa @ wb) / (wa @ wa + wb @ wb - wa @ wb)
+    return ari, jac
+
+
+def _one_hot(labels):
+    labels = np.asarray(labels)
+    return (labels[:, None] == np.unique(labels)[None, :]).astype(int)
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_co_membership_of_partitions_is_the_sklearn_ari(seed):
+    # one node per row in each view: the weights are 0/1 pair indicators and the
+    # co-membership ARI is the ARI of Hubert and Arabie 1985 (scikit-learn as reference)
+    rng = np.random.default_rng(seed)
+    a, b = rng.integers(0, 4, 60), rng.integers(0, 6, 60)
+    b[:30] = a[:30]  # some agreement
+    co = co_membership(_one_hot(a), _one_hot(b))
+    assert_allclose(co["ari"], adjusted_rand_score(a, b), rtol=0, atol=1e-12)
+    # pair Jaccard: together-pairs in both over together-pairs in either, counted directly
+    same_a = a[:, None] == a[None, :]
+    same_b = b[:, None] == b[None, :]
+    upper = np.triu(np.ones((60, 60), bool), 1)
+    both = (same_a & same_b & upper).sum()
+    either = ((same_a | same_b) & upper).sum()
+    assert_allclose(co["jaccard"], both / either, rtol=0, atol=1e-12)
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_co_membership_of_overlapping_covers_matches_a_pair_count(seed):
+    # overlapping nodes and rows in no node: against the loop over all row pairs
+    rng = np.random.default_rng(10 + seed)
+    A = (rng.uniform(size=(40, 7)) < 0.25).astype(int)
+    B = (rng.uniform(size=(40, 5)) < 0.35).astype(int)
+    ari, jac = _brute_co_membership(A, B)
+    co = co_membership(sp.csr_matrix(A), B)
+    assert_allclose([co["ari"], co["jaccard"]], [ari, jac], rtol=0, atol=1e-12)
+    assert co["shared"] == sum(int(A[r] @ A[s]) * int(B[r] @ B[s])
+                               for r in range(40) for s in range(r + 1, 40))
+    same = co_membership(A, A)
+    assert same["ari"] == 1.0 and same["jaccard"] == 1.0
+
+
+def test_co_membership_trivial_case_and_errors():
+    one = np.ones((5, 1), dtype=int)
+    co = co_membership(one, one)
+    assert co["trivial"] and co["ari"] == 1.0
+    assert not co_membership(one, _one_hot([0, 0, 1, 1, 2]))["trivial"]
+    with pytest.raises(InputError, match="different numbers of rows"):
+        co_membership(one, np.ones((4, 1)))
+    with pytest.raises(InputError, match="at least two rows"):
+        co_membership(np.ones((1, 1)), np.ones((1, 1)))
+
+
+def test_connected_views_are_flagged_trivial_and_told_apart_by_co_membership():
+    # a noisy circle under x, y and cos(3 t): every graph is one component (the circle is
+    # connected), so the component ARI is 1 for every pair -- trivially. The co-membership
+    # tells them apart: the nodes of cos(3 t) are arcs a third as long as those of x and y
+    rng = np.random.default_rng(77)
+    t = rng.uniform(0, 2 * np.pi, 900)
+    X = np.column_stack([np.cos(t), np.sin(t)]) + rng.normal(0, 0.03, (900, 2))
+    ws = Workspace(X)
+    cmp = compare_views({"x": X[:, 0], "x again": X[:, 0].copy(), "y": X[:, 1],
+                         "cos3": np.cos(3 * t)}, ws)
+    assert [s.n_components for s in cmp.summaries] == [1, 1, 1, 1]
+    same, near, far = cmp.pair("x", "x again"), cmp.pair("x", "y"), cmp.pair("x", "cos3")
+    assert all(p["ari"] == 1.0 and p["trivial"] for p in (same, near, far))
+    assert same["co_ari"] == 1.0 and same["co_jaccard"] == 1.0
+    assert far["co_ari"] < near["co_ari"] < 1.0 and far["co_jaccard"] < near["co_jaccard"]
+    text = cmp.format_text()
+    assert "trivial: both component partitions are one block" in text
+    assert "co-membership" in text
+    A = cmp.agreement("co_ari")
+    assert_allclose(A, A.T, rtol=0) and np.all(np.diag(A) == 1.0)
+    # the score from the graphs equals co_membership on the rows both views hold
+    rows = (cmp.labels[0] >= 0) & (cmp.labels[3] >= 0)
+    ref = co_membership(cmp.graphs[0].membership[rows], cmp.graphs[3].membership[rows])
+    assert far["co_ari"] == ref["ari"]
+    meta = cmp.to_dict()["pairs"]
+    assert {"trivial", "co_ari", "co_jaccard"} <= set(meta[0])

@@ -1,6 +1,7 @@
 """Tests of the `lenswork graph` command (click.testing.CliRunner on lenswork.cli.cli)."""
 
 import csv
+import math
 
 import networkx as nx
 import numpy as np
@@ -102,3 +103,21 @@ def test_help_lists_the_options():
     for option in ("--lens", "--lens-file", "--intervals", "--overlap", "--cover-scale",
                    "--cutoff", "--min-size", "--fragments", "--layout", "--no-figure"):
         assert option in res.output
+
+
+def test_graph_prints_resolved_settings_and_significance(torus_csv, tmp_path):
+    # the height across the hole of a torus: one loop over the whole range (Cole-McLaughlin et
+    # al. 2004), which the summary reports as significant; the auto settings are shown resolved
+    res = run("graph", torus_csv, "--id-column", "sample", "--lens", "column:name=x",
+              "--no-figure", "-o", tmp_path / "o")
+    assert res.exit_code == 0, res.output
+    min_size = round(math.log(1500) ** 1.1)  # (ln n)^1.1 (Carrière, Michel and Oudot 2018)
+    assert f"settings: intervals 10 (auto), overlap 0.3, min_size {min_size} (auto)" \
+        in res.output
+    assert "significant: loops 1," in res.output
+    res = run("graph", torus_csv, "--id-column", "sample", "--lens", "column:name=x",
+              "--intervals", "8", "--min-size", "5", "--no-figure", "-o", tmp_path / "p")
+    assert "settings: intervals 8, overlap 0.3, min_size 5\n" in res.output
+    res = run("graph", torus_csv, "--id-column", "sample", "--lens", "column:name=x",
+              "--intervals", "auto", "--min-size", "auto", "--no-figure", "-o", tmp_path / "q")
+    assert "intervals 10 (auto)" in res.output

@@ -40,7 +40,8 @@ def test_defaults_are_those_of_build_graph():
     s = GraphSettings()
     assert (s.cover, s.intervals, s.overlap, s.scale, s.clusterer, s.cutoff, s.min_size, s.k,
             s.metric, s.fragments, s.gap_bins, s.random_state) == (
-        "interval", 10, 0.3, "rank", "graph", "auto", 10, 15, "euclidean", "attach", 10, None)
+        "interval", "auto", 0.3, "rank", "graph", "auto", "auto", 15, "euclidean", "attach", 10,
+        None)
 
 
 @pytest.mark.parametrize(
@@ -75,7 +76,7 @@ def test_frozen_replace_and_unknown_names():
     with pytest.raises(FrozenInstanceError):
         s.k = 3
     sweep = [s.replace(intervals=n) for n in (6, 10, 14)]
-    assert [x.intervals for x in sweep] == [6, 10, 14] and s.intervals == 10
+    assert [x.intervals for x in sweep] == [6, 10, 14] and s.intervals == "auto"
     with pytest.raises(ParameterError, match="'k' parameter of build_graph"):
         s.replace(k=-1)  # replace validates again
     with pytest.raises(ParameterError, match="has no setting 'colour'"):
@@ -107,8 +108,8 @@ def test_from_dict_errors():
 
 
 def test_resolve_checks_per_lens_values():
-    s = GraphSettings(intervals=(5, 3))
-    assert s.resolve(100, 2) is s
+    s = GraphSettings(intervals=(5, 3), min_size=4)
+    assert s.resolve(100, 2) is s  # nothing "auto" is left: unchanged
     with pytest.raises(ParameterError, match="has 2 values for 3 lens column"):
         s.resolve(100, 3)
 
@@ -129,7 +130,7 @@ def test_build_graph_with_settings_equals_keywords():
     c = build_graph(X[:, 0], ws, GraphSettings(intervals=8), overlap=0.35, cutoff="fence")
     assert a == b == c
     assert a.provenance["graph_settings"] == GraphSettings(
-        intervals=8, overlap=0.35, cutoff="fence").to_dict()
+        intervals=8, overlap=0.35, cutoff="fence").resolve(ws.n, 1).to_dict()
 
 
 # --------------------------------------------------------------------------- the CLI
@@ -240,8 +241,91 @@ def test_result_writers_are_strict(tmp_path):
     assert meta["settings"] == GraphSettings().to_dict()
     out = bootstrap_graph(lens, ws, resamples=2).write(tmp_path / "b", figures=False)
     meta = strict_loads(out["bootstrap.json"].read_text())
-    assert meta["settings"] == GraphSettings().to_dict()
+    assert meta["settings"] == GraphSettings().resolve(ws.n, 1).to_dict()  # fixed on all rows
     out = compare_views({"x": X[:, 0], "y": X[:, 1]}, ws, intervals=8).write(
         tmp_path / "c", figures=False)
     meta = strict_loads(out["comparison.json"].read_text())
-    assert meta["views"][0]["graph_settings"] == GraphSettings(intervals=8).to_dict()
+    assert meta["views"][0]["graph_settings"] == GraphSettings(intervals=8).resolve(
+        ws.n, 1).to_dict()
+
+
+# --------------------------------------------------------------------------- "auto" defaults
+def _closed_form(n, m, g=0.3, beta=0.1):
+    """Carrière, Michel and Oudot (JMLR 2018) on the rank scale, written out by hand.
+
+    A delta-ball holds q = n / s = (ln n) ** (1 + beta) rows (s = n / (ln n) ** (1 + beta) is
+    their subsample size); intervals of the resolution r = omega(delta) / g then hold q / g
+    rows, and a product element of m lenses L ** m * n rows, with L = 1 / (N - (N - 1) g) the
+    length of N intervals of overlap g on [0, 1].
+    """
+    q = math.log(n) ** (1 + beta)
+    best = 1
+    for N in range(1, 11):  # former fixed default 10 as the cap
+        length = 1.0 / (N - (N - 1) * g)
+        if n * length ** m >= q / g - 1e-9:
+            best = N
+    return best, min(10, max(3, round(q)))
+
+
+@pytest.mark.parametrize("n", [150, 178, 300, 569, 1000, 5000])
+@pytest.mark.parametrize("m", [1, 2, 3])
+def test_auto_rule_is_the_closed_form(n, m):
+    intervals, min_size = _closed_form(n, m)
+    r = GraphSettings().resolve(n, m)
+    assert r.intervals == intervals and r.min_size == min_size
+    assert r.auto_fields() == () and GraphSettings().auto_fields() == ("intervals", "min_size")
+    # every element of the resolved product cover keeps q / g rows on average
+    length = 1.0 / (intervals - (intervals - 1) * 0.3)
+    q = math.log(n) ** 1.1
+    assert n * length ** m >= q / 0.3 or intervals == 1
+
+
+def test_auto_rule_follows_the_overlap_and_respects_given_values():
+    # a larger gain g asks for fewer rows per element (q / g): never fewer intervals
+    assert GraphSettings(overlap=0.45).resolve(300, 2).intervals >= \
+        GraphSettings(overlap=0.3).resolve(300, 2).intervals
+    r = GraphSettings(overlap=(0.3, 0.4)).resolve(300, 2)
+    assert isinstance(r.intervals, tuple) and len(r.intervals) == 2
+    r = GraphSettings(intervals=7, min_size=12).resolve(150, 2)
+    assert (r.intervals, r.min_size) == (7, 12)
+    assert GraphSettings(intervals="AUTO", min_size="auto").intervals == "auto"
+    with pytest.raises(ParameterError, match="'min_size' parameter of build_graph"):
+        GraphSettings(min_size="most")
+
+
+def _bundled(name):
+    from sklearn.datasets import load_iris, load_wine, make_circles
+    from sklearn.preprocessing import StandardScaler
+
+    if name == "iris":
+        return load_iris().data
+    if name == "wine":
+        return StandardScaler().fit_transform(load_wine().data)
+    return make_circles(300, noise=0.05, factor=0.5, random_state=0)[0]
+
+
+@pytest.mark.parametrize("name", ["iris", "wine", "circles"])
+@pytest.mark.parametrize("lenses", ["pca", "laplacian", ["eccentricity", "density"]])
+def test_default_graphs_of_small_bundled_tables_keep_their_rows(name, lenses):
+    # scikit-learn's bundled iris (150 rows) and wine (178), make_circles at 300: with the
+    # former fixed 10 x 10 cover and min_size 10, iris under pca_1 x pca_2 kept 10 of 150 rows
+    ws = Workspace(_bundled(name), random_state=0)
+    g = build_graph(lenses, ws)
+    assert g.unassigned.size <= 0.05 * ws.n
+    expected = GraphSettings().resolve(ws.n, 2)
+    assert g.provenance["graph_settings"] == expected.to_dict()
+    assert g.provenance["auto_settings"] == {"intervals": expected.intervals,
+                                             "min_size": expected.min_size}
+    assert "(auto)" in g.summary().text()
+    assert g.summary().to_dict()["settings"]["auto"] == ["intervals", "min_size"]
+
+
+def test_resolved_settings_reach_the_graph_files(tmp_path):
+    ws = Workspace(_bundled("iris"), random_state=0)
+    g = build_graph("pca", ws)
+    doc = strict_loads(write_graph_json(g, tmp_path / "g.json").read_text())
+    assert doc["provenance"]["auto_settings"]["intervals"] == 3
+    root = ET.parse(write_graphml(g, tmp_path / "g.graphml")).getroot()
+    texts = [d.text for d in root.iter("{http://graphml.graphdrawing.org/xmlns}data")
+             if d.text and '"auto_settings"' in d.text]
+    assert strict_loads(texts[0])["auto_settings"]["min_size"] == 6

@@ -54,7 +54,11 @@ def test_bootstrap_command(circle_csv, tmp_path):
     loops = next(line for line in res.output.splitlines() if line.startswith("loops"))
     assert loops.split()[1:5] == ["1", "1", "100%", "100%"]
     meta = json.loads((out / "bootstrap.json").read_text())
-    assert meta["resamples"] == 12 and meta["settings"]["intervals"] == 10
+    assert meta["resamples"] == 12 and meta["settings"]["intervals"] == 10  # auto, resolved
+    # the circle's one loop is significant and recurs (Carrière, Michel and Oudot 2018)
+    line = next(x for x in res.output.splitlines() if x.startswith("loop "))
+    assert line.split()[2] == "100%"
+    assert [f["kind"] for f in meta["significant_features"]].count("loop") == 1
     assert len((out / "bootstrap.csv").read_text().splitlines()) == 13
     assert not (out / "bootstrap.png").exists()
 
@@ -74,7 +78,12 @@ def test_compare_command(circle_csv, tmp_path):
                "--lens", "column:name=y", "--intervals", 8, "-o", out)
     assert res.exit_code == 0, res.output
     assert "column:name=x vs column:name=y (component partition, 400 rows): ARI 1.000" in res.output
+    # both views are one component: the ARI of 1 is flagged trivial, and the co-membership of
+    # row pairs (checked against sklearn and a pair count in test_compare) is printed
+    assert "trivial: both component partitions are one block" in res.output
     meta = json.loads((out / "comparison.json").read_text())
+    co = next(x for x in res.output.splitlines() if x.startswith("  co-membership"))
+    assert f"ARI {meta['pairs'][0]['co_ari']:.3f}" in co and meta["pairs"][0]["trivial"]
     assert [v["loops"] for v in meta["views"]] == [1, 1]
     assert meta["views"][0]["params"]["cover"]["intervals"] == [8]
     assert (out / "correspondence_1_2.csv").read_text().startswith("node_a,node_b,shared_rows")

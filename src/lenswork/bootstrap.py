@@ -8,7 +8,11 @@ the graph on the drawn rows alone (with a neighbour graph of its own), and
 count how often each feature count (components, loops b1, branch points,
 flares) recurs. :func:`bootstrap_graph` reports, for each feature type, the
 distribution of counts over the resamples, its most frequent value and how
-often the full-data count recurs.
+often the full-data count recurs; and, for each *significant* feature of the
+full-data graph (a loop, limb, flare or branch point whose lens span exceeds
+the cover's resolution, :class:`lenswork.graph.GraphSummary`), how often a
+significant feature of the same kind over the same lens range (interval
+Jaccard >= 1/2 on every lens) recurs in the resampled graphs.
 
 What is implemented, and where it differs from [1]
 ~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~~
@@ -83,7 +87,7 @@ from .data import PointCloud
 from .graph._features import (
     FEATURES,
     as_workspace,
-    build_counts,
+    empty_counts,
     feature_counts,
     lens_label,
     quiet_build,
@@ -93,7 +97,7 @@ from .normalize import normalize
 from .table import as_lens_table
 from .workspace import Workspace
 
-__all__ = ["BootstrapResult", "CoverSuggestion", "bootstrap_graph", "suggest_cover"]
+__all__ = ["SIGNIFICANT", "BootstrapResult", "CoverSuggestion", "bootstrap_graph", "suggest_cover"]
 
 SCHEMES = ("subsample", "bootstrap")
 
@@ -328,13 +332,23 @@ class BootstrapResult:
     fraction : float or None
         Share of rows per subsample (None for "bootstrap").
     settings : dict
-        The graph settings of every graph, whole (:meth:`GraphSettings.to_dict`).
+        The graph settings of every graph, whole (:meth:`GraphSettings.to_dict`),
+        with ``"auto"`` values resolved on all rows (every resample uses them).
     suggestion : CoverSuggestion or None
     random_state : int or None
     n_rows : int
     extra : dict
         ``empty_resamples``: resamples whose graph had no node (every group
         below ``min_size``); their counts are all 0.
+    significant_counts : dict of str -> ndarray of shape (resamples,), int
+        Significant loops, limbs, flares and branch points of each resampled
+        graph (:attr:`lenswork.graph.GraphSummary.significance`).
+    full_features : list of dict
+        The significant features of the full-data graph: kind, significance,
+        lens range.
+    recurs : ndarray of shape (len(full_features), resamples), bool
+        Whether each of them recurs in each resample (see
+        :meth:`feature_recurrence`).
 
     Examples
     --------
@@ -359,6 +373,9 @@ class BootstrapResult:
     random_state: object = None
     n_rows: int = 0
     extra: dict = field(default_factory=dict)
+    significant_counts: dict = field(default_factory=dict)
+    full_features: list = field(default_factory=list)
+    recurs: np.ndarray = None
 
     @property
     def resamples(self):
@@ -407,6 +424,39 @@ class BootstrapResult:
             })
         return out
 
+    def feature_recurrence(self):
+        """How often each significant feature of the full-data graph recurs.
+
+        A feature recurs in a resample when that graph has a significant
+        feature of the same kind whose range overlaps it on every lens by at
+        least half of their union (interval Jaccard >= 1/2); the ranges are in
+        lens units, so they compare across resamples.
+
+        Returns
+        -------
+        list of dict
+            ``kind``, ``significance`` (full data), ``lens_range``, ``recurrence``
+            (share of resamples), by kind then decreasing significance.
+        """
+        out = []
+        for i, f in enumerate(self.full_features):
+            rec = float(self.recurs[i].mean()) if self.recurs is not None and \
+                self.recurs.shape[1] else 0.0
+            out.append({**f, "recurrence": rec})
+        return out
+
+    def format_features(self):
+        """The significant features of the full-data graph and how often each recurs."""
+        rows = self.feature_recurrence()
+        if not rows:
+            return "no significant feature in the full-data graph"
+        lines = [f"{'feature':<8} {'signif.':>7} {'recurs':>7}  lens range"]
+        for r in rows:
+            spans = ", ".join(f"{k} {a:.4g}..{b:.4g}" for k, (a, b) in r["lens_range"].items())
+            lines.append(f"{r['kind']:<8} {r['significance']:>7.2f} {r['recurrence']:>7.0%}  "
+                         f"{spans}")
+        return "\n".join(lines)
+
     def format_table(self):
         """The per-feature summary as aligned text."""
         lines = [f"{'feature':<14} {'full':>5} {'mode':>5} {'share':>6} {'recurs':>7}  counts"]
@@ -439,6 +489,14 @@ class BootstrapResult:
             ],
             "suggestion": None if self.suggestion is None else {
                 k: getattr(self.suggestion, k) for k in self.suggestion.__dataclass_fields__
+            },
+            "significant_features": [
+                {**r, "lens_range": {k: list(v) for k, v in r["lens_range"].items()}}
+                for r in self.feature_recurrence()
+            ],
+            "significant_counts": {
+                k: {str(c): float(share) for c, share in zip(*np.unique(v, return_counts=True))}
+                for k, v in self.significant_counts.items()
             },
         }
 
@@ -555,14 +613,21 @@ def bootstrap_graph(lenses, workspace, *, settings=None, resamples=100, scheme="
                                    random_state=random_state)
         settings = suggestion.apply(settings)
     n = workspace.n
+    # "auto" values are fixed once on all rows: every resample uses the same cover
+    # resolution and min_size, as the parameters are fixed in [1].
+    settings = settings.resolve(n, len(cols))
     if scheme == "subsample" and round(fraction * n) < k + 2:
         raise InputError(
             f"A subsample of {fraction:g} x {n} rows is too small for a neighbour graph with "
             f"k={k}; use a larger fraction, more rows or a smaller k."
         )
-    full = feature_counts(quiet_build(cols, workspace, settings))
+    full_graph = quiet_build(cols, workspace, settings)
+    full = feature_counts(full_graph)
+    full_feats = _significant(full_graph)
     rng = check_random_state(workspace.random_state if random_state is None else random_state)
     counts = {f: np.zeros(resamples, dtype=np.int64) for f in FEATURES}
+    sig_counts = {f: np.zeros(resamples, dtype=np.int64) for f in SIGNIFICANT}
+    recurs = np.zeros((len(full_feats), resamples), dtype=bool)
     sizes = np.zeros(resamples, dtype=np.int64)
     empty = np.zeros(resamples, dtype=np.int64)
     for b in _progress.track(range(resamples), "bootstrap", length=resamples):
@@ -571,15 +636,59 @@ def bootstrap_graph(lenses, workspace, *, settings=None, resamples=100, scheme="
                         random_state=workspace.random_state,
                         neighbor_method=workspace.neighbor_method)
         sub_cols = [replace(c, values=np.asarray(c.values)[idx]) for c in cols]
-        c = build_counts(sub_cols, sub, settings)
+        try:
+            g = quiet_build(sub_cols, sub, settings)
+        except ParameterError:  # every group below min_size: an empty graph
+            c = empty_counts(idx.size)
+            g = None
+        else:
+            c = {**feature_counts(g), "empty": 0}
         empty[b] = c["empty"]
         sizes[b] = idx.size
         for f in FEATURES:
             counts[f][b] = c[f]
+        if g is not None:
+            sig = g.summary().significance or {}
+            for f in SIGNIFICANT:
+                sig_counts[f][b] = sig.get(f, (0, 0))[0]
+            feats = _significant(g)
+            for i, f in enumerate(full_feats):
+                recurs[i, b] = any(_same_feature(f, h) for h in feats)
     return BootstrapResult(
         lens_label=lens_label(cols), features=FEATURES,
         full_counts={f: full[f] for f in FEATURES}, counts=counts, sizes=sizes, scheme=scheme,
         fraction=fraction if scheme == "subsample" else None, settings=settings.to_dict(),
         suggestion=suggestion, random_state=random_state, n_rows=n,
-        extra={"empty_resamples": int(empty.sum())},
+        extra={"empty_resamples": int(empty.sum())}, significant_counts=sig_counts,
+        full_features=full_feats, recurs=recurs,
     )
+
+
+#: Kinds of significant features counted per resample (keys of GraphSummary.significance).
+SIGNIFICANT = ("loops", "limbs", "flares", "branch_points")
+_KIND_ORDER = {"loop": 0, "limb": 1, "flare": 2, "branch": 3}
+
+
+def _significant(graph):
+    """Significant features of a graph as plain records, by kind then significance."""
+    out = [{"kind": f.kind, "significance": float(f.significance),
+            "lens_range": {k: (float(a), float(b)) for k, (a, b) in f.lens_range.items()}}
+           for f in graph.summary().significant_features()]
+    return sorted(out, key=lambda r: (_KIND_ORDER.get(r["kind"], 9), -r["significance"]))
+
+
+def _same_feature(a, b):
+    """Same kind, and lens ranges overlapping by at least half their union on every lens."""
+    if a["kind"] != b["kind"]:
+        return False
+    for name, (lo, hi) in a["lens_range"].items():
+        if name not in b["lens_range"]:
+            return False
+        lo2, hi2 = b["lens_range"][name]
+        inter = min(hi, hi2) - max(lo, lo2)
+        union = max(hi, hi2) - min(lo, lo2)
+        if union > 0 and inter / union < 0.5:
+            return False
+        if union <= 0 and inter < 0:
+            return False
+    return True

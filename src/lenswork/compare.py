@@ -50,6 +50,36 @@ Both are computed here from the contingency table ``n_ij`` (rows with label
   with ``H`` the Shannon entropy of the label shares. 0 for identical
   partitions, at most ``log n``; a metric on partitions.
 
+Row co-membership (views as covers, not partitions)
+---------------------------------------------------
+Two connected graphs both induce the one-block component partition, so the
+two scores above call them identical (ARI 1, VI 0) however different they
+are; such pairs are flagged ``trivial``. The co-membership scores compare
+what the nodes say instead: two rows are *together* in a view when they share
+a node, with weight ``w(r, s)`` = the number of nodes they share (the entry of
+``M M^T``). With ``C = M_a^T M_b`` (the node correspondence), ``G_a = M_a^T
+M_a`` and ``G_b = M_b^T M_b``, every sum over the ``C(n, 2)`` row pairs comes
+from node-level tables, never an ``n x n`` matrix::
+
+    sum_{r<s} w_a w_b = sum_ij C(C_ij, 2)
+    sum_{r<s} w_a     = sum_i  C(|node_i|, 2)
+    sum_{r<s} w_a^2   = sum_ii' C(G_a[i, i'], 2)
+
+(expand ``w_a(r, s) w_b(r, s) = sum_ij [r, s in node i of a][r, s in node j
+of b]``). From these:
+
+* co-membership ARI: the adjusted Rand index with the pair indicators
+  replaced by the weights, ``(sum w_a w_b - E) / ((sum w_a^2 + sum w_b^2) / 2
+  - E)`` with ``E = sum w_a sum w_b / C(n, 2)``; when every row is in one node
+  of each view (partitions) the weights are 0/1 and this is exactly the ARI of
+  the node partitions (Hubert and Arabie 1985);
+* pair Jaccard: ``sum w_a w_b / (sum w_a^2 + sum w_b^2 - sum w_a w_b)`` (the
+  Tanimoto form), for 0/1 weights the Jaccard index of the two sets of
+  together pairs.
+
+Both are computed over the rows assigned in both views of the pair, in exact
+integer arithmetic.
+
 Features in one view and not the other
 --------------------------------------
 Each feature the graph summary lists (a loop, a flare, a branch point, a
@@ -89,8 +119,10 @@ from .table import LensColumn, LensTable, as_lens_table
 __all__ = [
     "FEATURE_KINDS",
     "PARTITIONS",
+    "SCORES",
     "ViewComparison",
     "adjusted_rand_index",
+    "co_membership",
     "compare_views",
     "contingency_table",
     "induced_partition",
@@ -288,8 +320,82 @@ def variation_of_information(labels_a, labels_b, *, normalized=False):
     return vi
 
 
+def _pair_sum(matrix):
+    """sum over the entries c of a sparse integer matrix of C(c, 2)."""
+    return _pairs(sp.csr_matrix(matrix).data)
+
+
+def co_membership(membership_a, membership_b):
+    """Agreement of two covers of the same rows on which row pairs share a node.
+
+    Parameters
+    ----------
+    membership_a, membership_b : sparse or dense 0/1 matrix of shape (n_rows, nodes)
+        Row-node memberships of two views over the same rows (rows may be in
+        several nodes, or in none).
+
+    Returns
+    -------
+    dict
+        ``ari``: the co-membership adjusted Rand index; ``jaccard``: the pair
+        Jaccard (Tanimoto) index; ``together_a`` / ``together_b``: ``sum w``,
+        the row pairs sharing a node, each counted once per node they share;
+        ``shared``: ``sum w_a w_b``; ``trivial``: each cover puts every pair
+        together exactly once (one node holding every row) or no pair
+        together, so the score says nothing. See the module notes.
+
+    Raises
+    ------
+    InputError
+        Memberships over different numbers of rows, or fewer than two rows.
+
+    Notes
+    -----
+    Three sparse products of node-level size (``M_a^T M_b``, ``M_a^T M_a``,
+    ``M_b^T M_b``); cost O(sum over rows of the products of their node counts),
+    no ``n x n`` matrix.
+
+    Examples
+    --------
+    >>> a = np.array([[1, 0], [1, 0], [0, 1], [0, 1]])     # partitions {01}{23} and {01}{23}
+    >>> co_membership(a, a[:, ::-1])["ari"], co_membership(a, a)["jaccard"]
+    (1.0, 1.0)
+    >>> b = np.array([[1, 0], [0, 1], [1, 0], [0, 1]])     # {02}{13}
+    >>> co_membership(a, b)["ari"], co_membership(a, b)["jaccard"]
+    (-0.5, 0.0)
+    """
+    A = sp.csr_matrix(membership_a, dtype=np.int64)
+    B = sp.csr_matrix(membership_b, dtype=np.int64)
+    if A.shape[0] != B.shape[0]:
+        raise InputError(
+            f"The two covers hold different numbers of rows ({A.shape[0]} and {B.shape[0]}); "
+            f"expected memberships of the same rows."
+        )
+    n = A.shape[0]
+    if n < 2:
+        raise InputError("Co-membership needs at least two rows; it compares row pairs.")
+    shared = _pair_sum(A.T @ B)
+    wa = _pairs(np.asarray(A.sum(axis=0)).ravel())
+    wb = _pairs(np.asarray(B.sum(axis=0)).ravel())
+    wa2 = _pair_sum(A.T @ A)
+    wb2 = _pair_sum(B.T @ B)
+    cn = n * (n - 1) // 2
+    # ARI with weights, times 2 C(n, 2): numerator 2 (shared cn - wa wb),
+    # denominator (wa2 + wb2) cn - 2 wa wb
+    numerator = 2 * (shared * cn - wa * wb)
+    denominator = (wa2 + wb2) * cn - 2 * wa * wb
+    ari = 1.0 if denominator == 0 else numerator / denominator
+    union = wa2 + wb2 - shared
+    jaccard = 1.0 if union == 0 else shared / union
+    trivial = all(w in (0, cn) and w2 == w for w, w2 in ((wa, wa2), (wb, wb2)))
+    return {"ari": float(ari), "jaccard": float(jaccard), "together_a": wa, "together_b": wb,
+            "shared": shared, "trivial": bool(trivial)}
+
+
 # --------------------------------------------------------------------------- graphs
 PARTITIONS = ("component", "node")
+#: Scores of :meth:`ViewComparison.agreement`.
+SCORES = ("ari", "vi", "vi_normalized", "co_ari", "co_jaccard")
 
 
 def node_components(graph):
@@ -444,8 +550,12 @@ class ViewComparison:
         Rows assigned in every view; the agreement scores use these.
     pairs : list of dict
         One per pair of views (a < b): ``a``, ``b``, ``ari``, ``vi``,
-        ``vi_normalized``, ``rows_compared``, ``only_a`` / ``only_b`` (features
-        of one view not matched in the other) and ``matched`` counts.
+        ``vi_normalized``, ``rows_compared``, ``trivial`` (both induced
+        partitions one block, or both all singletons: ARI and VI say nothing),
+        ``co_ari`` and ``co_jaccard`` (row co-membership, over the ``co_rows``
+        rows assigned in both views), ``co_trivial``, ``only_a`` / ``only_b``
+        (features of one view not matched in the other) and ``matched``
+        counts.
     match : float
     summaries : list of GraphSummary
 
@@ -479,6 +589,12 @@ class ViewComparison:
                 la, lb = self.labels[a][rows], self.labels[b][rows]
                 only_a = _unmatched(feats[a], feats[b], self.match)
                 only_b = _unmatched(feats[b], feats[a], self.match)
+                both = (self.labels[a] >= 0) & (self.labels[b] >= 0)
+                co = co_membership(self.graphs[a].membership[both],
+                                   self.graphs[b].membership[both]) if both.sum() >= 2 \
+                    else {"ari": float("nan"), "jaccard": float("nan"), "trivial": False}
+                blocks = (np.unique(la).size, np.unique(lb).size)
+                trivial = bool(la.size) and (blocks == (1, 1) or blocks == (la.size, la.size))
                 self.pairs.append({
                     "a": self.names[a], "b": self.names[b],
                     "ari": adjusted_rand_index(la, lb) if la.size else float("nan"),
@@ -487,6 +603,10 @@ class ViewComparison:
                                       if la.size else float("nan")),
                     "rows_compared": int(la.size),
                     "rows_left_out": int(rows.size - la.size),
+                    "trivial": trivial,
+                    "co_ari": co["ari"], "co_jaccard": co["jaccard"],
+                    "co_trivial": co["trivial"],
+                    "co_rows": int(both.sum()),
                     "only_a": only_a, "only_b": only_b,
                     "matched_a": len(feats[a]) - len(only_a),
                     "matched_b": len(feats[b]) - len(only_b),
@@ -512,11 +632,14 @@ class ViewComparison:
         raise ParameterError("Compare two different views.")
 
     def agreement(self, score="ari"):
-        """(V, V) matrix of one score between every pair of views (diagonal: identity value)."""
-        score = check_choice("score", score, ("ari", "vi", "vi_normalized"),
-                             context="ViewComparison.agreement")
+        """(V, V) matrix of one score between every pair of views (diagonal: identity value).
+
+        ``score``: ``"ari"``, ``"vi"``, ``"vi_normalized"`` (of the induced
+        partitions), ``"co_ari"`` or ``"co_jaccard"`` (row co-membership).
+        """
+        score = check_choice("score", score, SCORES, context="ViewComparison.agreement")
         V = len(self.names)
-        out = np.full((V, V), 1.0 if score == "ari" else 0.0)
+        out = np.full((V, V), 0.0 if score.startswith("vi") else 1.0)
         for p in self.pairs:
             i, j = self.names.index(p["a"]), self.names.index(p["b"])
             out[i, j] = out[j, i] = p[score]
@@ -538,6 +661,15 @@ class ViewComparison:
             lines.append(
                 f"{p['a']} vs {p['b']} ({self.partition} partition, {p['rows_compared']:,} rows): "
                 f"ARI {p['ari']:.3f}, VI {p['vi']:.3f} nats ({p['vi_normalized']:.3f} of log n)")
+            if p["trivial"]:
+                lines.append(
+                    f"  trivial: both {self.partition} partitions are "
+                    f"{'one block' if p['rows_compared'] > 1 else 'one row'} (or all singletons),"
+                    f" so ARI and VI cannot tell the views apart; see the co-membership")
+            lines.append(
+                f"  co-membership ({p['co_rows']:,} rows; pairs of rows sharing a node): "
+                f"ARI {p['co_ari']:.3f}, pair Jaccard {p['co_jaccard']:.3f}"
+                + (" (trivial: each view keeps every pair together)" if p["co_trivial"] else ""))
             for side, key in ((p["a"], "only_a"), (p["b"], "only_b")):
                 if p[key]:
                     items = ", ".join(f"{f['kind']} {f['index'] + 1} ({f['rows']} rows)"

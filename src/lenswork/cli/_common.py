@@ -158,7 +158,8 @@ def _parser(f):
     flag = meta["flag"]
     if meta["kind"] == "list":
         cast = int if f.name == "intervals" else float
-        return lambda text: number_list(text, cast, flag)
+        return lambda text: "auto" if text.strip().lower() == "auto" \
+            else number_list(text, cast, flag)
     if f.name == "cutoff":
         return cutoff_value
     return lambda text: text

@@ -58,8 +58,12 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
     cover lays --intervals intervals with --overlap over each lens (or, with
     --cover ball, balls around a greedy net of the lens values); each cover
     element is clustered on the shared k-NN graph; nodes that share rows are
-    joined. Prints the summary (components, loops b1 = E - V + C, branch points,
-    flares, rows in no node) and writes to OUT: graph.graphml, graph.json,
+    joined. By default the interval count and --min-size follow the rows and
+    lens columns (auto; the resolved values are printed and recorded). Prints
+    the summary (components, loops b1 = E - V + C, branch points, flares, rows
+    in no node; the significant loops, branches, flares and branch points --
+    lens span above the cover's resolution -- apart from the small ones) and
+    writes to OUT: graph.graphml, graph.json,
     memberships.csv (row id -> node) and graph.png / graph.svg. Everything is
     computed before the first file is written.
     """

@@ -47,13 +47,17 @@ def stability(cloud, seed, lens, grid_intervals, grid_overlaps, out, no_figure, 
     the shared neighbour graph and its components, loops (b1), branch points and
     flares are counted. The table (one row per cell) goes to stability.csv, the
     heat maps to stability.png; the region of cells around the default setting
-    (10 intervals, overlap 0.3) with the same count is outlined. Pick cover
+    (the default graph's: intervals and min_size from the rows, overlap 0.3)
+    with the same count is outlined. Pick cover
     settings inside such a region. With --cover ball a row N of the grid is a
     net spacing of 1/N.
     """
     out = output_dir(out)
     ws = _workspace(cloud, seed, neighbor_method)
-    smap = stability_map(_lens(ws, lens), ws, settings=settings, intervals=grid_intervals,
+    table = _lens(ws, lens)
+    # "auto" settings fixed on these rows: the map's default cell is the default graph's
+    settings = settings.resolve(ws.n, len(table.names))
+    smap = stability_map(table, ws, settings=settings, intervals=grid_intervals,
                          overlaps=grid_overlaps)
     csv_path, sidecar = smap.write(out / "stability.csv")
     click.echo(f"Stability map of {smap.lens} on {ws.n} rows "
@@ -108,8 +112,11 @@ def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_f
     Each resample gets a neighbour graph of its own. For components, loops (b1),
     branch points and flares the command prints the full-data count, the most
     frequent count over the resamples and its share, and the share of resamples
-    that reproduce the full-data count. bootstrap.csv holds one row per
-    resample; bootstrap.json the summary, the settings and any suggestion.
+    that reproduce the full-data count; then every significant loop, branch,
+    flare and branch point of the full-data graph with the share of resamples
+    where a significant feature of the same kind over the same lens range
+    recurs. bootstrap.csv holds one row per resample; bootstrap.json the
+    summary, the settings and any suggestion.
     """
     out = output_dir(out)
     ws = _workspace(cloud, seed, neighbor_method)
@@ -125,6 +132,9 @@ def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_f
     click.echo(f"Bootstrap of {result.lens_label}: {result.resamples} resamples "
                f"({result.scheme_text}), {ws.n} rows.")
     click.echo(result.format_table())
+    click.echo("Significant features of the full-data graph (lens span above the cover's "
+               "resolution) and how often each recurs:")
+    click.echo(result.format_features())
     written = result.write(out, figures=not no_figure)
     click.echo("wrote " + ", ".join(str(p) for p in written.values()))
 
@@ -150,7 +160,10 @@ def compare(cloud, seed, lenses, partition, match, out, no_figure, settings, nei
     """Compare the Mapper graphs of two or more lenses over the same rows.
 
     For every pair of views it prints the adjusted Rand index and the variation
-    of information of the row partitions the views induce, and the features
+    of information of the row partitions the views induce (flagged trivial when
+    both are one block, as for any two connected graphs), the co-membership
+    agreement of row pairs (the pairs of rows sharing a node in one view and in
+    the other: a weighted adjusted Rand index and a pair Jaccard), and the features
     (loops, flares, branch points, components) found in one view and not the
     other. comparison.json holds all of it; correspondence_A_B.csv the node
     correspondence M_a^T M_b (rows shared by each pair of nodes); comparison.png

@@ -30,7 +30,7 @@ module         concept
 
 from __future__ import annotations
 
-from ._build import build_graph, node_statistics
+from ._build import build_graph, hole_scale_settings, node_statistics
 from ._cluster import CLUSTERERS, CUTOFF_WORDS, FRAGMENT_RULES, neighbor_cutoff
 from ._cover import COVER_SCALES, COVERS, BallCover, Cover, CoverBase, IntervalCover
 from ._layout import LAYOUTS, auto_layout, graph_layout
@@ -67,6 +67,7 @@ __all__ = [
     "build_graph",
     "graph_layout",
     "grid_settings",
+    "hole_scale_settings",
     "membership_matrix",
     "neighbor_cutoff",
     "nerve_edges",

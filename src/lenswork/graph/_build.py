@@ -2,19 +2,63 @@
 
 from __future__ import annotations
 
+import warnings
+
 import numpy as np
 
 from .. import _progress
-from .._errors import ParameterError
+from .._errors import LensworkWarning, ParameterError
 from .._version import __version__
 from ..table import as_lens_table
 from ..workspace import Workspace
 from ._cluster import cluster_elements, clusterer_name
+from ._cover import CoverBase
 from ._lensgraph import LensGraph
 from ._nerve import membership_matrix, nerve_edges
-from ._settings import GraphSettings
+from ._settings import GraphSettings, is_auto
 
-__all__ = ["build_graph", "node_statistics"]
+__all__ = ["build_graph", "hole_scale_settings", "lens_jitter", "node_statistics"]
+
+
+def lens_jitter(values, neighbours):
+    """Root-mean-square lens difference between k-NN neighbours, per lens, as a share of its span.
+
+    Parameters
+    ----------
+    values : ndarray of shape (n_rows, n_lenses)
+        The lens values on the cover scale.
+    neighbours : ndarray of int of shape (n_rows, k)
+        Each row's k nearest neighbours.
+
+    Returns
+    -------
+    list of float
+        ``delta_j = sqrt(mean over (i, its neighbours l) of (u_ij - u_lj)^2) / span_j``
+        (0 for a constant lens): the lens's jitter at the data's resolution,
+        which widens the significance threshold of
+        :func:`lenswork.graph._persistence.resolution_threshold`. Unit weights
+        over the shared k-NN graph (the heat-kernel version of the screen
+        weighs close neighbours more).
+
+    Examples
+    --------
+    >>> x = np.linspace(0, 1, 101)[:, None]
+    >>> nn = np.column_stack([np.r_[1:101, 99], np.r_[1, 0:100]])   # the two neighbours
+    >>> round(lens_jitter(x, nn)[0], 4)
+    0.01
+    """
+    U = np.asarray(values, dtype=np.float64)
+    idx = np.asarray(neighbours, dtype=np.int64)
+    out = []
+    for j in range(U.shape[1]):
+        u = U[:, j]
+        span = float(u.max() - u.min()) if u.size else 0.0
+        if span <= 0 or idx.size == 0:
+            out.append(0.0)
+            continue
+        d2 = float(np.mean((u[:, None] - u[idx]) ** 2))
+        out.append(float(np.sqrt(d2) / span))
+    return out
 
 
 def _data_columns(cloud, columns, lens_names):
@@ -119,8 +163,9 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
         Any :class:`GraphSettings` field, for example:
     cover : {"interval", "ball"} or cover object, default="interval"
         See :class:`GraphSettings` and :data:`lenswork.graph.COVERS`.
-    intervals : int or sequence of int, default=10
-        Intervals per lens (see :class:`Cover`).
+    intervals : int, sequence of int or "auto", default="auto"
+        Intervals per lens (see :class:`Cover`); ``"auto"`` follows the rows
+        and the lens columns (see :class:`GraphSettings`).
     overlap : float or sequence of float, default=0.3
         Overlap fraction in [0, 1).
     scale : {"rank", "raw"}, default="rank"
@@ -131,11 +176,13 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
         Longest neighbour edge the graph clusterer keeps; ``"auto"`` cuts only
         at a gap in the tail of the neighbour distances (see
         :func:`neighbor_cutoff`).
-    min_size : int, default=10
-        Groups with fewer points are fragments. The default sits below the
-        neighbourhood size k = 15 and above the chance groups of 5-6 points
-        that restricting a 10-20-dimensional neighbour graph to a slice leaves
-        (measured on Gaussian samples; with min_size = 5 they add false loops).
+    min_size : int or "auto", default="auto"
+        Groups with fewer points are fragments. ``"auto"``: ``round((ln n) ** 1.1)``
+        in [3, 10] (see :class:`GraphSettings`), 10 from about 3,000 rows on:
+        below the neighbourhood size k = 15 and above the chance groups of 5-6
+        points that restricting a 10-20-dimensional neighbour graph to a slice
+        leaves (measured on Gaussian samples; with min_size = 5 they add false
+        loops). Small tables get smaller values, so their elements keep nodes.
     k : int, default=15
         Neighbours per row of the shared graph.
     metric : {"euclidean", "manhattan", "chebyshev", "cosine"}, default="euclidean"
@@ -147,6 +194,14 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
         Histogram bins of the single-linkage gap rule.
     random_state : int, optional
         Seed for scikit-learn clusterers; default: the workspace's.
+    hole_scales : int, default=4
+        With two or more lenses and an interval cover, the graph is also built
+        at ``hole_scales - 1`` coarser interval counts, evenly from ``N`` down to
+        ``N / 2`` (:func:`hole_scale_settings`), and the holes of each are
+        recorded in ``params["holes_over_scales"]``; the fewest is the number
+        of significant holes (:attr:`GraphSummary.significant_holes`): a hole
+        of one missing cell fills in at a coarser scale, a hole of the data
+        does not. 1 builds this cover alone.
 
     Returns
     -------
@@ -194,14 +249,73 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
     base = GraphSettings.coerce(settings)
     settings = base.replace(**overrides) if overrides else base
     ws = workspace if isinstance(workspace, Workspace) else Workspace(workspace)
+    table = as_lens_table(lenses, ws, what="build_graph")
+    auto = settings.auto_fields()
+    settings = settings.resolve(ws.n, len(table.names))
+    graph = _build(table, ws, settings, columns, auto)
+    scales = hole_scale_settings(settings, len(table.names))
+    if scales:
+        holes = []
+        with _progress.step(f"graph: holes over {len(scales) + 1} cover scales"):
+            previous = _progress.set_reporter(False)  # the scale builds report nothing
+            try:
+                for cell in scales:
+                    try:
+                        with warnings.catch_warnings():
+                            warnings.simplefilter("ignore", LensworkWarning)
+                            holes.append(_build(table, ws, cell, None, ()).summary().holes)
+                    except ParameterError:  # no group reaches min_size here: no hole
+                        holes.append(0)
+            finally:
+                _progress.restore(previous)
+        own = graph.summary().holes
+        counts = [own, *holes]
+        graph.params["holes_over_scales"] = {
+            "intervals": [list(iv) if isinstance(iv, tuple) else iv
+                          for iv in (settings.intervals, *(c.intervals for c in scales))],
+            "holes": counts,
+            "significant": None if any(h is None for h in counts) else int(min(counts)),
+        }
+    return graph
+
+
+def hole_scale_settings(settings, n_lenses):
+    """The coarser covers a multi-lens graph's holes are checked against (see build_graph).
+
+    ``settings.hole_scales - 1`` interval counts evenly from the cover's ``N``
+    down to ``N / 2`` (per lens, rounded, at least 1, repeats dropped); empty
+    for one lens, a ball cover or ``hole_scales = 1``.
+
+    Examples
+    --------
+    >>> [c.intervals for c in hole_scale_settings(GraphSettings(intervals=10, min_size=5), 2)]
+    [8, 7, 5]
+    """
+    if n_lenses < 2 or settings.hole_scales < 2 or settings.cover_kind != "interval" \
+            or isinstance(settings.cover, CoverBase) or is_auto(settings.intervals):
+        return []
+    own = settings.intervals if isinstance(settings.intervals, tuple) \
+        else (settings.intervals,) * n_lenses
+    seen = {tuple(own)}
+    out = []
+    for c in np.linspace(1.0, 0.5, settings.hole_scales)[1:]:
+        counts = tuple(max(1, int(round(N * c))) for N in own)
+        if counts in seen:
+            continue
+        seen.add(counts)
+        value = counts[0] if len(set(counts)) == 1 else counts
+        out.append(settings.replace(intervals=value))
+    return out
+
+
+def _build(table, ws, settings, columns, auto):
+    """One graph of resolved ``settings`` (build_graph without the hole scales)."""
     n = ws.n
     seed = ws.random_state if settings.random_state is None else settings.random_state
-    table = as_lens_table(lenses, ws, what="build_graph")
     names = table.names
     values = np.asarray(table.values(), dtype=np.float64)
     lens_prov = [c.provenance() for c in table]
     data = _data_columns(ws.cloud, columns, names)
-    settings = settings.resolve(n, len(names))
     clusterer, k, metric = settings.clusterer, settings.k, settings.metric
     with _progress.step(f"graph: cover of {', '.join(names)}"):
         cover = settings.make_cover().fit(values, names)
@@ -240,9 +354,11 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
         "random_state": seed,
         "lenses": lens_prov,
         "graph_settings": settings.to_dict(),
+        "auto_settings": {name: settings.to_dict()[name] for name in auto},
     }
     if uses_graph:
         g = ws.neighbors(k, metric)
+        params["lens_jitter"] = lens_jitter(cover.values_, g.indices)
         provenance["neighbor_graph"] = {
             "k": g.k, "metric": g.metric, "method": g.method,
             "info": {key: v for key, v in g.info.items() if key != "seconds"},

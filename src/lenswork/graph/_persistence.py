@@ -122,7 +122,9 @@ __all__ = [
     "PERSISTENCE_KINDS",
     "STRUCTURE_WEIGHTS",
     "PersistenceDiagram",
+    "ascending_edge_order",
     "extended_persistence",
+    "graph_diagrams",
     "lens_persistence",
     "resolution_threshold",
     "structure_significance",
@@ -156,6 +158,11 @@ class PersistenceDiagram:
         Span the significance is relative to.
     threshold : float
         Significance above which a point is significant (``inf``: none is).
+    edge : ndarray of int64, shape (k,), optional
+        For a ``"loop"`` point: the edge whose arrival in the ascending
+        filtration (:func:`ascending_edge_order`) closed the cycle; -1 for the
+        other kinds. Its fundamental cycle in the spanning forest grown in that
+        order represents the loop.
 
     Examples
     --------
@@ -172,6 +179,7 @@ class PersistenceDiagram:
     significance: np.ndarray
     range: float
     threshold: float
+    edge: np.ndarray = None
 
     @property
     def significant(self):
@@ -316,9 +324,7 @@ def _cone_reduction(E, f, up_order):
     # ordinary part: edges ascending by (max f, then by their top vertex's rank in up_order)
     rank_up = np.empty(V, dtype=np.int64)
     rank_up[up_order] = np.arange(V)
-    top = np.where(rank_up[E[:, 0]] > rank_up[E[:, 1]], E[:, 0], E[:, 1])
-    low = np.where(top == E[:, 0], E[:, 1], E[:, 0])
-    asc = np.lexsort((rank_up[low], rank_up[top]))
+    asc, top, low = _ascending(E, rank_up)
     asc_pos = np.empty(m, dtype=np.int64)
     asc_pos[asc] = np.arange(m)
     # relative part: cone edges w*v in decreasing order (the reverse of up_order); cone
@@ -350,19 +356,49 @@ def _cone_reduction(E, f, up_order):
     return loops, ups
 
 
+def _ascending(E, rank_up):
+    top = np.where(rank_up[E[:, 0]] > rank_up[E[:, 1]], E[:, 0], E[:, 1])
+    low = np.where(top == E[:, 0], E[:, 1], E[:, 0])
+    return np.lexsort((rank_up[low], rank_up[top])), top, low
+
+
+def ascending_edge_order(edges, values):
+    """Edge indices in the order the ascending filtration adds them (ties as in the diagram).
+
+    An edge arrives at the larger value of its ends; ties are broken by the
+    vertices' ranks in ascending ``(value, index)`` order, top vertex first.
+    The edges that close a cycle in this order (the non-tree edges of the
+    spanning forest grown in it) are exactly the ``edge`` entries of the
+    diagram's loops (Cohen-Steiner, Edelsbrunner and Harer 2009: a positive
+    edge of the sublevel filtration).
+
+    Examples
+    --------
+    >>> ascending_edge_order([[0, 1], [1, 2], [0, 2]], [0.0, 2.0, 1.0]).tolist()
+    [2, 0, 1]
+    """
+    E = np.asarray(edges, dtype=np.int64).reshape(-1, 2)
+    f = np.asarray(values, dtype=np.float64).reshape(-1)
+    up = np.lexsort((np.arange(f.size), f))
+    rank_up = np.empty(f.size, dtype=np.int64)
+    rank_up[up] = np.arange(f.size)
+    return _ascending(E, rank_up)[0]
+
+
 # --------------------------------------------------------------------------- diagram
 def _diagram(E, f, rng, threshold):
     V = f.size
     nb = _neighbour_lists(E, V)
     up = np.lexsort((np.arange(V), f))  # ascending (f, index)
     down = up[::-1].copy()
-    kinds, births, deaths, nodes = [], [], [], []
+    kinds, births, deaths, nodes, edges = [], [], [], [], []
 
-    def add(kind, bv, dv):
+    def add(kind, bv, dv, edge=-1):
         kinds.append(kind)
         births.append(f[bv])
         deaths.append(f[dv])
         nodes.append((bv, dv))
+        edges.append(edge)
 
     down_pairs, roots_min = _h0(up, nb, f)
     up_pairs, roots_max = _h0(down, nb, f)
@@ -372,8 +408,8 @@ def _diagram(E, f, rng, threshold):
     for lo_v, hi_v in sorted(comps.items(), key=lambda t: (f[t[0]], t[0])):
         add("component", lo_v, hi_v)
     loops, _ = _cone_reduction(E, f, up)
-    for bv, dv, _ in sorted(loops, key=lambda t: (f[t[1]] - f[t[0]], t[0])):
-        add("loop", bv, dv)
+    for bv, dv, e in sorted(loops, key=lambda t: (f[t[1]] - f[t[0]], t[0])):
+        add("loop", bv, dv, e)
     for bv, dv in down_pairs:
         if f[dv] > f[bv]:
             add("down", bv, dv)
@@ -389,6 +425,7 @@ def _diagram(E, f, rng, threshold):
         birth=birth, death=death,
         nodes=np.asarray(nodes, dtype=np.int64).reshape(-1, 2),
         persistence=pers, significance=sig, range=float(rng), threshold=float(threshold),
+        edge=np.asarray(edges, dtype=np.int64),
     )
 
 
@@ -536,6 +573,41 @@ def lens_persistence(graph, lens=0, *, jitter=0.0):
     level = graph.node_elements[:, j].astype(np.float64)
     E = np.asarray(graph.edge_index, dtype=np.int64).reshape(-1, 2)
     return _diagram(E, level, float(N - 1), resolution_threshold(N, p, jitter))
+
+
+def graph_diagrams(graph, jitter=None):
+    """:func:`lens_persistence` of every lens of an interval-cover graph (None otherwise).
+
+    Parameters
+    ----------
+    graph : LensGraph
+    jitter : float or sequence of float, optional
+        The neighbour jitter of each lens (one value for all); default: the
+        graph's own ``params["lens_jitter"]`` (recorded by
+        :func:`~lenswork.build_graph` from the shared k-NN graph), else 0.
+
+    Returns
+    -------
+    list of PersistenceDiagram, one per lens column, or None
+        None for a graph whose cover has no interval counts (a ball cover),
+        which has no lens levels to compare.
+
+    Examples
+    --------
+    >>> from lenswork import build_graph
+    >>> t = np.linspace(0, 2 * np.pi, 500, endpoint=False)
+    >>> X = np.column_stack([np.cos(t), np.sin(t)])
+    >>> [d.count("loop", significant=True) for d in graph_diagrams(build_graph(X, X))]
+    [1, 1]
+    """
+    cover = graph.params.get("cover") if isinstance(graph.params, dict) else None
+    if not cover or "intervals" not in cover or "overlap" not in cover:
+        return None
+    m = len(graph.lens_columns)
+    if jitter is None:
+        jitter = graph.params.get("lens_jitter") or 0.0
+    jit = [float(jitter)] * m if np.ndim(jitter) == 0 else [float(j) for j in jitter]
+    return [lens_persistence(graph, j, jitter=jit[j]) for j in range(m)]
 
 
 #: Weights of the feature kinds in :func:`structure_significance` (those of the structure

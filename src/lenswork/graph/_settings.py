@@ -7,15 +7,45 @@ Everything that builds graphs -- :func:`~lenswork.build_graph`, the structure
 probe, the stability map, the bootstrap and the comparison of views -- takes a
 ``GraphSettings``; a parameter sweep is a list of ``settings.replace(...)``.
 
-Values that depend on the data (a future ``"auto"`` interval count that
-follows the number of rows, say) are resolved by :meth:`GraphSettings.resolve`
-from ``(n_rows, n_lenses)`` just before a build; add such a rule to
-:data:`AUTO_RULES` (field name -> function of ``(settings, n_rows, n_lenses)``)
-and allow the word ``"auto"`` in the field's checker.
+Defaults that follow the data
+-----------------------------
+``intervals`` and ``min_size`` default to ``"auto"``: :meth:`GraphSettings.resolve`
+fixes them from the number of rows ``n`` and of lens columns ``m`` just before
+a build, by the rules of :data:`AUTO_RULES` (field name -> function of
+``(settings, n_rows, n_lenses)``). The rules read the parameter selection of
+Carrière, Michel and Oudot (JMLR 2018), also behind ``bootstrap --suggest``, on
+the rank scale, in closed form:
+
+* their scale ``delta`` is the Hausdorff distance between the rows and a
+  subsample of ``s = n / (ln n) ** (1 + beta)`` rows (``beta = 0.1``), so a
+  ``delta``-ball holds about ``q = n / s = (ln n) ** 1.1`` rows;
+* their resolution is ``r = omega(delta) / g`` for the lens oscillation
+  ``omega`` over a ``delta``-ball and the gain (overlap) ``g``. On the rank
+  scale ``q`` distinct rows span at least ``q / n`` of the range, so the
+  finest resolution the rule can give holds ``q / g`` rows per interval
+  (``g`` taken as at least 1/4: smaller overlaps would ask for huge elements);
+* ``intervals = "auto"``: with ``m`` lenses the product cover's elements
+  must keep ``q / g`` rows, so each lens gets intervals of length
+  ``L = (q / (g n)) ** (1 / m)`` (lens columns taken as independent; on ranks
+  an element of length ``L`` per lens then holds ``n L ** m`` rows), that is
+  ``N = floor((1 / L - g) / (1 - g))`` intervals (the interval cover's length
+  is ``1 / (N - (N - 1) g)``), clipped to ``[1, 10]`` -- 10, the former fixed
+  default, is kept for large data, the rule only coarsens covers that the
+  rows cannot fill;
+* ``min_size = "auto"``: ``round(q)`` clipped to ``[3, 10]`` -- a group
+  smaller than one ``delta``-ball's share of rows is a fragment (10, the former
+  default, from about 3,000 rows on).
+
+With ``overlap = 0.3``: one lens keeps 10 intervals from about 150 rows on;
+two lenses on 150 rows get 3 x 3 and ``min_size`` 6 (a 10 x 10 cover with
+``min_size`` 10 left 117 of iris's 150 rows in no node). The resolved values
+are what the graph records (``provenance["graph_settings"]``, with
+``provenance["auto_settings"]`` naming the fields that were ``"auto"``).
 """
 
 from __future__ import annotations
 
+import math
 import numbers
 from dataclasses import dataclass, field, fields
 from dataclasses import replace as _dc_replace
@@ -32,10 +62,108 @@ from ._cluster import (
 )
 from ._cover import COVER_SCALES, COVERS, CoverBase
 
-__all__ = ["AUTO_RULES", "GraphSettings", "grid_settings"]
+__all__ = [
+    "AUTO_BETA",
+    "AUTO_MAX_INTERVALS",
+    "AUTO_MAX_MIN_SIZE",
+    "AUTO_MIN_GAIN",
+    "AUTO_RULES",
+    "GraphSettings",
+    "auto_intervals",
+    "auto_min_size",
+    "ball_rows",
+    "grid_settings",
+    "is_auto",
+]
 
-#: Field -> rule resolving a data-dependent value from (settings, n_rows, n_lenses). None yet.
-AUTO_RULES: dict = {}
+#: Exponent beta of the subsample size n / (ln n) ** (1 + beta) (Carrière, Michel and Oudot 2018).
+AUTO_BETA = 0.1
+#: Largest interval count per lens the "auto" rule gives (the former fixed default).
+AUTO_MAX_INTERVALS = 10
+#: Smallest gain in the element size q / g (a small overlap would ask for huge elements).
+AUTO_MIN_GAIN = 0.25
+#: Largest "auto" min_size (the former fixed default).
+AUTO_MAX_MIN_SIZE = 10
+
+
+def ball_rows(n_rows):
+    """Rows per ``delta``-ball, ``q = (ln n) ** (1 + beta)``: n over the subsample size s.
+
+    Examples
+    --------
+    >>> round(ball_rows(150), 2)
+    5.89
+    """
+    n = max(int(n_rows), 2)
+    return math.log(n) ** (1.0 + AUTO_BETA)
+
+
+def _mean_overlap(overlap):
+    return float(sum(overlap) / len(overlap)) if isinstance(overlap, tuple) else float(overlap)
+
+
+def auto_intervals(n_rows, n_lenses, overlap=0.3):
+    """Intervals per lens so each product-cover element holds ``q / g`` rows (module notes).
+
+    Parameters
+    ----------
+    n_rows, n_lenses : int
+    overlap : float or tuple of float, default=0.3
+        The gain ``g`` (one per lens: one count per lens).
+
+    Returns
+    -------
+    int or tuple of int
+
+    Examples
+    --------
+    >>> auto_intervals(150, 1), auto_intervals(150, 2), auto_intervals(1000, 2)
+    (10, 3, 8)
+    """
+    n, m = int(n_rows), max(int(n_lenses), 1)
+    gains = overlap if isinstance(overlap, tuple) else (overlap,)
+    gain = max(_mean_overlap(overlap), AUTO_MIN_GAIN)
+    length = min(1.0, (ball_rows(n) / (gain * max(n, 1))) ** (1.0 / m))
+    counts = []
+    for g in gains:
+        g = float(g)
+        c = math.floor((1.0 / length - g) / (1.0 - g) + 1e-9)
+        counts.append(int(min(AUTO_MAX_INTERVALS, max(1, c))))
+    return counts[0] if len(counts) == 1 else tuple(counts)
+
+
+def auto_min_size(n_rows):
+    """``round((ln n) ** 1.1)`` clipped to [3, 10]: a group smaller than a delta-ball is a fragment.
+
+    Examples
+    --------
+    >>> auto_min_size(150), auto_min_size(1000), auto_min_size(100_000)
+    (6, 8, 10)
+    """
+    return int(min(AUTO_MAX_MIN_SIZE, max(3, round(ball_rows(n_rows)))))
+
+
+#: Field -> rule resolving a data-dependent value from (settings, n_rows, n_lenses).
+AUTO_RULES: dict = {
+    "intervals": lambda s, n, m: auto_intervals(
+        n, m, s.overlap if not (isinstance(s.overlap, tuple) and len(s.overlap) != m)
+        else _mean_overlap(s.overlap)),
+    "min_size": lambda s, n, m: auto_min_size(n),
+}
+
+
+def is_auto(value):
+    """Whether a setting's value is the word ``"auto"`` (resolved from the data at build time).
+
+    Examples
+    --------
+    >>> is_auto("Auto"), is_auto(10)
+    (True, False)
+    """
+    return isinstance(value, str) and value.strip().lower() == "auto"
+
+
+_auto = is_auto
 
 
 def _cli(flag, help, *, metavar=None, choices=None, kind="text"):
@@ -62,6 +190,8 @@ def _per_lens(name, value, check):
 
 
 def _intervals(name, value):
+    if _auto(value):
+        return "auto"
     return check_int(name, value, lo=1, context="Cover")
 
 
@@ -79,8 +209,9 @@ class GraphSettings:
         The cover kind (:data:`lenswork.graph.COVERS`), or a cover object
         (then its own parameters rule and the fields below that belong to
         covers are not used).
-    intervals : int or tuple of int, default=10
-        Interval cover: intervals per lens (one value, or one per lens).
+    intervals : int, tuple of int or "auto", default="auto"
+        Interval cover: intervals per lens (one value, or one per lens);
+        ``"auto"`` follows the rows and lens columns (module notes).
     overlap : float or tuple of float, default=0.3
         Overlap fraction in [0, 1). Interval cover: the share of each interval
         shared with the next; ball cover: balls of radius ``eps / (1 - overlap)``
@@ -94,14 +225,20 @@ class GraphSettings:
     clusterer : {"graph", "single"} or scikit-learn clusterer, default="graph"
     cutoff : float or {"auto", "fence", "none"}, default="auto"
         Longest neighbour edge the graph clusterer keeps.
-    min_size : int, default=10
-        Groups with fewer rows are fragments.
+    min_size : int or "auto", default="auto"
+        Groups with fewer rows are fragments; ``"auto"``: ``round((ln n) ** 1.1)``
+        in [3, 10] (module notes).
     k : int, default=15
         Neighbours of the shared graph.
     metric : {"euclidean", "manhattan", "chebyshev", "cosine"}, default="euclidean"
     fragments : {"attach", "report"}, default="attach"
     gap_bins : int, default=10
         Histogram bins of the single-linkage gap rule.
+    hole_scales : int, default=4
+        Multi-lens interval covers: graphs at this many interval counts from the
+        cover's own down to half of it are built, and a hole counts as
+        significant only when every one of them has it (see
+        :func:`lenswork.build_graph`); 1 counts the holes of this cover alone.
     random_state : int, optional
         Seed of scikit-learn clusterers (default: the workspace's).
 
@@ -110,6 +247,9 @@ class GraphSettings:
     >>> s = GraphSettings(intervals=8)
     >>> s.intervals, s.replace(cover="ball", radius=0.2).cover_kind
     (8, 'ball')
+    >>> r = GraphSettings().resolve(150, 2)
+    >>> r.intervals, r.min_size
+    (3, 6)
     >>> GraphSettings.from_dict(s.to_dict()) == s
     True
     """
@@ -117,8 +257,9 @@ class GraphSettings:
     cover: object = field(default="interval", metadata=_cli(
         "--cover", "Cover kind: interval (product of intervals) or ball (balls around a greedy "
         "net of the lens values).", choices=tuple(COVERS), kind="choice"))
-    intervals: object = field(default=10, metadata=_cli(
-        "--intervals", "Interval cover: intervals per lens, one value or one per lens column.",
+    intervals: object = field(default="auto", metadata=_cli(
+        "--intervals", "Interval cover: intervals per lens, one value or one per lens column; "
+        "auto: from the rows and lens columns (elements keep enough rows).",
         metavar="N[,N...]", kind="list"))
     overlap: object = field(default=0.3, metadata=_cli(
         "--overlap", "Overlap fraction in [0, 1): one value, or one per lens column (interval "
@@ -140,8 +281,9 @@ class GraphSettings:
         "--cutoff", "Longest k-NN edge kept; auto cuts only at a gap in the distance tail, "
         "fence at Tukey's upper fence, none keeps every edge.",
         metavar="auto|fence|none|FLOAT", kind="text"))
-    min_size: int = field(default=10, metadata=_cli(
-        "--min-size", "Groups with fewer rows are fragments.", metavar="N", kind="int"))
+    min_size: object = field(default="auto", metadata=_cli(
+        "--min-size", "Groups with fewer rows are fragments; auto: (ln n)^1.1 rows, 3 to 10.",
+        metavar="N|auto", kind="text"))
     k: int = field(default=15, metadata=_cli(
         "-k", "Neighbours of the shared k-NN graph.", metavar="K", kind="int"))
     metric: str = field(default="euclidean", metadata=_cli(
@@ -154,6 +296,10 @@ class GraphSettings:
     gap_bins: int = field(default=10, metadata=_cli(
         "--gap-bins", "Histogram bins of the single-linkage gap rule.", metavar="N",
         kind="int"))
+    hole_scales: int = field(default=4, metadata=_cli(
+        "--hole-scales", "Multi-lens interval covers: a hole counts as significant when the "
+        "graphs at this many interval counts, from the cover's down to half of it, all have "
+        "it (1: this cover alone).", metavar="N", kind="int"))
     random_state: object = None
 
     def __post_init__(self):
@@ -184,12 +330,15 @@ class GraphSettings:
             )
         put("clusterer", check_clusterer(self.clusterer))
         put("cutoff", check_cutoff(self.cutoff))
-        put("min_size", check_int("min_size", self.min_size, lo=1, context="build_graph"))
+        put("min_size", "auto" if _auto(self.min_size)
+            else check_int("min_size", self.min_size, lo=1, context="build_graph"))
         put("k", check_int("k", self.k, lo=1, context="build_graph"))
         put("metric", check_choice("metric", self.metric, METRICS, context="build_graph"))
         put("fragments", check_choice("fragments", self.fragments, FRAGMENT_RULES,
                                       context="build_graph"))
         put("gap_bins", check_int("gap_bins", self.gap_bins, lo=2, context="build_graph"))
+        put("hole_scales", check_int("hole_scales", self.hole_scales, lo=1,
+                                     context="build_graph"))
         if self.random_state is not None:
             put("random_state", check_int("random_state", self.random_state, lo=0,
                                           context="build_graph"))
@@ -213,8 +362,16 @@ class GraphSettings:
     def resolve(self, n_rows, n_lenses):
         """Settings with every data-dependent value fixed for ``n_rows`` rows, ``n_lenses`` lenses.
 
-        Runs the rules of :data:`AUTO_RULES` (none at present, so this returns
-        ``self``) and checks per-lens values against ``n_lenses``.
+        Runs the rules of :data:`AUTO_RULES` on the fields set to ``"auto"``
+        (see the module notes) and checks per-lens values against ``n_lenses``.
+        Settings with no ``"auto"`` left come back unchanged.
+
+        Examples
+        --------
+        >>> GraphSettings().resolve(1000, 1).intervals
+        10
+        >>> GraphSettings(min_size=4).resolve(150, 1).min_size
+        4
         """
         for name, value in (("intervals", self.intervals), ("overlap", self.overlap)):
             if self.cover_kind == "interval" and isinstance(value, tuple) \
@@ -224,8 +381,12 @@ class GraphSettings:
                     f"lens column(s). Give one value, or one per lens column."
                 )
         changes = {name: rule(self, n_rows, n_lenses) for name, rule in AUTO_RULES.items()
-                   if getattr(self, name) == "auto"}
+                   if _auto(getattr(self, name))}
         return self.replace(**changes) if changes else self
+
+    def auto_fields(self):
+        """Names of the fields still set to ``"auto"`` (resolved at build time)."""
+        return tuple(name for name in AUTO_RULES if _auto(getattr(self, name)))
 
     def replace(self, **changes):
         """A copy with ``changes`` applied (and validated again).

@@ -20,7 +20,53 @@ flares             chains that start at a leaf (degree 1) and run through
 
 Features are listed with the nodes they hold, the number of distinct rows
 in them, and the range of every lens they span (the least node minimum to
-the largest node maximum). Loops are reported as the fundamental cycles of
+the largest node maximum).
+
+Significance
+------------
+Every loop, branch, flare and branch point of an interval-cover graph gets a
+*significance*: how much of the lens range it spans, read from the extended
+persistence diagram of each lens on the graph (Carrière and Oudot, FoCM 2018;
+:func:`lenswork.graph._persistence.lens_persistence`), as a share of the
+range, and is *significant* when that share exceeds the cover's resolution
+threshold (:func:`~lenswork.graph._persistence.resolution_threshold`: more
+than one interval once both ends' uncertainty is taken off):
+
+* loops: the diagram's loop points (extended H1), each represented by the
+  fundamental cycle of the edge that closed it in the ascending filtration;
+  with several lenses, the lens certifying the most loops gives the list;
+* branches: the diagram's ``down`` and ``up`` points -- a part of the graph
+  hanging below or reaching above the rest, from its extreme node to the
+  node where it joins (a bump of height h on a path is one of each, of
+  persistence h);
+* flares: the limb born at the flare's leaf; a flare whose leaf is the
+  component's lowest or highest node (a trunk: the component's own extreme,
+  which the diagram records as the component, not as a limb) gets 0 -- a Y
+  under the height has one limb, its shorter upper arm;
+* branch points: the third-largest lens span (as a share of the range) of the
+  node's arms -- the parts of the graph reached from each of its neighbours
+  without passing through it -- so a node is a significant branching when at
+  least three directions from it span more than the resolution -- and at most
+  the largest significance of the limbs and loops with an end at the node, so
+  that the nodes of a mesh of small loops (where every direction reaches
+  everything) stay small: the fork of a Y, the junctions of a theta count;
+  a loop node with a one-node spur does not.
+
+With several lenses each feature takes the largest value over the lenses
+(a feature is significant when one lens certifies it). Graphs of a ball
+cover have no lens levels: no significance.
+
+Holes of a multi-lens graph have no single lens to be measured along, so they
+are held to the cover's scale instead: :func:`~lenswork.build_graph` also
+builds the graphs of the same lenses with coarser covers -- interval counts
+from the cover's ``N`` down to ``N / 2`` (``hole_scales`` of them) -- and a
+hole counts as significant only when every one of those graphs has at least
+as many holes (:attr:`GraphSummary.significant_holes` is the fewest holes
+over the scales). A hole that is one missing cell, or a split of the rows
+that one cell size makes, fills in once the elements are up to twice as
+long; a hole of the data, wider than two elements, stays. The match is by
+count, not by place: the k-th hole counts when every scale has k holes.
+ Loops are reported as the fundamental cycles of
 a breadth-first spanning tree (one per non-tree edge), so their number is
 ``b1``. A component that is one chain from leaf to leaf is also listed as a
 ``path``.
@@ -29,16 +75,19 @@ a breadth-first spanning tree (one per non-tree edge), so their number is
 from __future__ import annotations
 
 from collections import deque
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import cached_property
 
 import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
+from .._errors import ParameterError
 from ._nerve import nerve_triangles
+from ._persistence import ascending_edge_order, graph_diagrams
 
-__all__ = ["GraphFeature", "GraphSummary", "neighbour_lists", "summarize"]
+__all__ = ["GraphFeature", "GraphSummary", "cover_settings", "neighbour_lists", "settings_text",
+           "summarize"]
 
 
 @dataclass(frozen=True)
@@ -55,6 +104,11 @@ class GraphFeature:
         Range of each lens spanned by the feature's nodes.
     attached_to : int or None
         For a flare: the branch point it leads to.
+    significance : float or None
+        Share of the lens range the feature spans (module notes); None for
+        components, paths and graphs without lens levels.
+    significant : bool or None
+        Significance above the cover's resolution threshold.
     """
 
     kind: str
@@ -62,6 +116,8 @@ class GraphFeature:
     rows: int
     lens_range: dict
     attached_to: int | None = None
+    significance: float | None = None
+    significant: bool | None = None
 
     def to_dict(self):
         """JSON-ready form."""
@@ -69,6 +125,8 @@ class GraphFeature:
             "kind": self.kind, "nodes": list(self.nodes), "rows": self.rows,
             "lens_range": {k: [float(a), float(b)] for k, (a, b) in self.lens_range.items()},
             "attached_to": self.attached_to,
+            "significance": None if self.significance is None else float(self.significance),
+            "significant": self.significant,
         }
 
 
@@ -102,12 +160,72 @@ class GraphSummary:
     n_flares: int
     n_unassigned: int
     component_sizes: tuple
+    settings: dict = field(default_factory=dict, compare=False)
     _graph: object = field(default=None, repr=False, compare=False)
 
     @cached_property
     def features(self):
-        """Every feature (components, loops, branch points, flares, paths) as GraphFeature."""
+        """Every feature (components, loops, branches, branch points, flares, paths).
+
+        ``branch`` features are the branch *points* (nodes of degree >= 3);
+        ``limb`` features are the diagram's branches (``down`` / ``up`` points:
+        from an extreme node to where it joins). Loops, limbs, flares and branch
+        points carry their significance (module notes).
+        """
         return _features(self._graph) if self._graph is not None else ()
+
+    @property
+    def significant_holes(self):
+        """Holes that count (module notes): over cover scales for several lenses.
+
+        One lens: the significant loops (its holes are its loops). Several
+        lenses with an interval cover: the fewest holes over the graphs at the
+        coarser scales that :func:`~lenswork.build_graph` built
+        (``params["holes_over_scales"]``). None when not known (a ball cover,
+        a nerve too large for its holes, or a graph built without the scales).
+        """
+        g = self._graph
+        if g is None:
+            return None
+        if len(g.lens_columns) == 1:
+            sig = self.significance
+            return None if sig is None else sig["loops"][0]
+        scales = (g.params or {}).get("holes_over_scales")
+        return None if not scales else scales.get("significant")
+
+    @cached_property
+    def significance(self):
+        """``{kind: (significant, all)}`` for loops, limbs, flares and branch points.
+
+        None for a graph without lens levels (ball cover). Computed on first
+        use: the extended persistence of every lens on the graph.
+
+        Examples
+        --------
+        >>> from lenswork import build_graph
+        >>> t = np.linspace(0, 2 * np.pi, 500, endpoint=False)
+        >>> X = np.column_stack([np.cos(t), np.sin(t)])
+        >>> build_graph(X[:, 1], X).summary().significance["loops"]
+        (1, 1)
+        """
+        if self._graph is None or _significance(self._graph) is None:
+            return None
+        out = {}
+        for key, kind in (("loops", "loop"), ("limbs", "limb"), ("flares", "flare"),
+                          ("branch_points", "branch")):
+            feats = self.features_of(kind)
+            out[key] = (sum(1 for f in feats if f.significant), len(feats))
+        return out
+
+    def significant_features(self, kind=None):
+        """Significant loops, limbs, flares and branch points (of one ``kind``)."""
+        return tuple(f for f in self.features if f.significant
+                     and (kind is None or f.kind == kind))
+
+    def small_features(self, kind=None):
+        """Loops, limbs, flares and branch points below the significance threshold."""
+        return tuple(f for f in self.features if f.significant is False
+                     and (kind is None or f.kind == kind))
 
     @property
     def flares(self):
@@ -125,8 +243,27 @@ class GraphSummary:
             "n_components": self.n_components, "loops": self.loops, "holes": self.holes,
             "branch_points": list(self.branch_points), "n_flares": self.n_flares,
             "n_unassigned": self.n_unassigned, "component_sizes": list(self.component_sizes),
+            "settings": dict(self.settings),
+            "significant_holes": self.significant_holes,
+            "significance": None if self.significance is None else {
+                k: {"significant": a, "small": b - a} for k, (a, b) in self.significance.items()},
             "features": [f.to_dict() for f in self.features],
         }
+
+    def record(self):
+        """The counts, settings and features, the significant apart from the small ones.
+
+        What the graph files carry (JSON ``"summary"``, the GraphML graph
+        attribute ``summary``): ``significant_features`` and ``small_features``
+        list loops, limbs, flares and branch points above and below the
+        resolution threshold; ``other_features`` the components and paths.
+        """
+        doc = self.to_dict()
+        feats = doc.pop("features")
+        doc["significant_features"] = [f for f in feats if f["significant"] is True]
+        doc["small_features"] = [f for f in feats if f["significant"] is False]
+        doc["other_features"] = [f for f in feats if f["significant"] is None]
+        return doc
 
     def text(self, max_features=20):
         """A few lines for a terminal."""
@@ -136,27 +273,87 @@ class GraphSummary:
             f"  components {self.n_components}, loops {self.loops} (b1 = E - V + C), "
             f"branch points {len(self.branch_points)}, flares {self.n_flares}",
         ]
+        if self.settings:
+            lines.append("  " + settings_text(self.settings))
         if self.holes != self.loops:
             holes = "not computed (nerve too large)" if self.holes is None else self.holes
             lines.append(
                 f"  holes {holes} (b1 of the nerve with its triangles: most graph cycles of a "
                 f"multi-lens cover are filled triangles)"
             )
-        for f in self.features[:max_features]:
-            spans = ", ".join(f"{k} {a:.4g}..{b:.4g}" for k, (a, b) in f.lens_range.items())
-            extra = f" -> node {f.attached_to}" if f.attached_to is not None else ""
-            shown = f.nodes if len(f.nodes) <= 8 else (*f.nodes[:8], "...")
-            node_text = ",".join(str(x) for x in shown)
-            lines.append(
-                f"  {f.kind:<9} {len(f.nodes):>4} nodes {f.rows:>8,} rows  {spans}{extra}  "
-                f"[{node_text}]"
-            )
-        if len(self.features) > max_features:
-            lines.append(f"  ... {len(self.features) - max_features} more features")
+        scales = (self._graph.params or {}).get("holes_over_scales") \
+            if self._graph is not None else None
+        if scales:
+            shown = ", ".join(
+                f"{'x'.join(map(str, iv)) if isinstance(iv, (list, tuple)) else iv}: {h}"
+                for iv, h in zip(scales["intervals"], scales["holes"]))
+            sig = "unknown" if scales["significant"] is None else scales["significant"]
+            lines.append(f"  significant holes {sig}: present at every cover scale down to "
+                         f"half the intervals (intervals: holes  {shown})")
+        sig = self.significance
+        if sig is not None:
+            words = {"loops": "loops", "limbs": "branches (limbs)", "flares": "flares",
+                     "branch_points": "branch points"}
+            parts = [f"{words[k]} {a}" + (f" (+{b - a} small)" if b > a else "")
+                     for k, (a, b) in sig.items()]
+            lines.append("  significant: " + ", ".join(parts))
+        listed = [f for f in self.features if f.significant is not False]
+        small = [f for f in self.features if f.significant is False]
+        for f in listed[:max_features]:
+            lines.append(_feature_line(f))
+        if len(listed) > max_features:
+            lines.append(f"  ... {len(listed) - max_features} more features")
+        if small:
+            shown = sorted(small, key=lambda f: -f.significance)[:max(0, max_features // 4)]
+            lines.append(f"  small features (below the resolution threshold): {len(small)}")
+            lines.extend(_feature_line(f) for f in shown)
+            if len(small) > len(shown):
+                lines.append(f"  ... {len(small) - len(shown)} more small features")
         return "\n".join(lines)
 
     def __str__(self):
         return self.text()
+
+
+def _feature_line(f):
+    spans = ", ".join(f"{k} {a:.4g}..{b:.4g}" for k, (a, b) in f.lens_range.items())
+    extra = f" -> node {f.attached_to}" if f.attached_to is not None else ""
+    shown = f.nodes if len(f.nodes) <= 8 else (*f.nodes[:8], "...")
+    node_text = ",".join(str(x) for x in shown)
+    sig = "" if f.significance is None else f"  significance {f.significance:.2f}"
+    return (f"  {f.kind:<9} {len(f.nodes):>4} nodes {f.rows:>8,} rows  {spans}{extra}{sig}  "
+            f"[{node_text}]")
+
+
+def cover_settings(graph):
+    """The cover settings a graph was built with, and which of them were ``"auto"``."""
+    params = getattr(graph, "params", None) or {}
+    prov = getattr(graph, "provenance", None) or {}
+    cover = params.get("cover") or {}
+    out = {key: cover[key] for key in ("kind", "intervals", "overlap", "radius", "centres")
+           if key in cover and cover[key] is not None}
+    if "min_size" in params:
+        out["min_size"] = params["min_size"]
+    auto = sorted(prov.get("auto_settings") or {})
+    if auto:
+        out["auto"] = auto
+    return out
+
+
+def settings_text(settings):
+    """One line: the cover resolution and min_size, marking the values resolved from the data."""
+    auto = set(settings.get("auto", ()))
+
+    def shown(key, value):
+        if isinstance(value, (list, tuple)):
+            value = " x ".join(f"{v:g}" if isinstance(v, float) else str(v) for v in value)
+        elif isinstance(value, float):
+            value = f"{value:g}"
+        return f"{key} {value}" + (" (auto)" if key in auto else "")
+
+    parts = [shown(k, settings[k]) for k in ("intervals", "overlap", "radius", "centres",
+                                             "min_size") if k in settings]
+    return "settings: " + ", ".join(parts)
 
 
 def neighbour_lists(n_nodes, edges):
@@ -273,13 +470,178 @@ def _features(graph):
         nodes = tuple(int(x) for x in nodes)
         return GraphFeature(kind, nodes, rows_of(nodes), lens_range(nodes), attached_to)
 
+    sig = _significance(graph)
     features = [feature("component", nodes) for nodes in _components(labels, n_comp)]
-    features += [feature("loop", cycle) for cycle in _fundamental_cycles(nb, labels, n_comp)]
-    features += [feature("branch", (int(v),)) for v in np.flatnonzero(deg >= 3)]
     flares, paths = _chains(nb, deg)
-    features += [feature("flare", chain, attached_to=int(end)) for chain, end in flares]
+    if sig is None:
+        features += [feature("loop", cycle) for cycle in _fundamental_cycles(nb, labels, n_comp)]
+        features += [feature("branch", (int(v),)) for v in np.flatnonzero(deg >= 3)]
+        features += [feature("flare", chain, attached_to=int(end)) for chain, end in flares]
+    else:
+        for cycle, value, ok in sig.loops(nb):
+            features.append(replace(feature("loop", cycle), significance=value, significant=ok))
+        for nodes, value, ok in sig.limbs():
+            features.append(replace(feature("limb", nodes), significance=value, significant=ok))
+        for v in np.flatnonzero(deg >= 3):
+            value, ok = sig.branch(int(v), nb)
+            features.append(replace(feature("branch", (int(v),)), significance=value,
+                                    significant=ok))
+        for chain, end in flares:
+            value, ok = sig.flare(chain, int(end))
+            features.append(replace(feature("flare", chain, attached_to=int(end)),
+                                    significance=value, significant=ok))
     features += [feature("path", chain) for chain in paths]
     return tuple(features)
+
+
+class _Significance:
+    """The per-lens diagrams of a graph and the significance of its features (module notes)."""
+
+    def __init__(self, graph, diagrams):
+        self.graph = graph
+        self.diagrams = diagrams
+        self.levels = graph.node_elements.astype(np.float64)
+
+    def _best(self, values):
+        """(largest significance, significant in some lens) over per-lens (value, ok) pairs."""
+        values = list(values)
+        if not values:
+            return 0.0, False
+        return max(v for v, _ in values), any(ok for _, ok in values)
+
+    def loops(self, nb):
+        """(cycle, significance, significant) per loop, from the lens certifying the most."""
+        best = max(range(len(self.diagrams)),
+                   key=lambda j: (self.diagrams[j].count("loop", significant=True), -j))
+        d = self.diagrams[best]
+        E = np.asarray(self.graph.edge_index, dtype=np.int64).reshape(-1, 2)
+        level = self.levels[:, best]
+        order = ascending_edge_order(E, level)
+        tree = _spanning_forest(E, order, self.graph.n_nodes)
+        keep = d.kind == "loop"
+        out = []
+        for i in np.flatnonzero(keep)[np.argsort(-d.significance[keep], kind="stable")]:
+            a, b = (int(x) for x in E[int(d.edge[i])])
+            out.append((_tree_path(tree, a, b), float(d.significance[i]),
+                        bool(d.significant[i])))
+        return out
+
+    def limbs(self):
+        """(birth node, death node), significance, significant for every branch of every lens."""
+        out = []
+        for d in self.diagrams:
+            for i in np.flatnonzero((d.kind == "down") | (d.kind == "up")):
+                out.append((tuple(int(x) for x in d.nodes[i]), float(d.significance[i]),
+                            bool(d.significant[i])))
+        # the same limb seen by two lenses is listed once, at its larger significance
+        merged = {}
+        for nodes, value, ok in out:
+            old = merged.get(nodes)
+            merged[nodes] = (max(value, old[0]), ok or old[1]) if old else (value, ok)
+        return sorted(((k, v, ok) for k, (v, ok) in merged.items()), key=lambda t: -t[1])
+
+    def at_node(self, v, nb):
+        """Third-largest lens span of the arms at node ``v`` (module notes)."""
+        vals = []
+        blocked = {v}
+        for j, d in enumerate(self.diagrams):
+            lv = self.levels[:, j]
+            spans = []
+            for w in nb[v]:
+                seen = {w}
+                queue = deque([w])
+                while queue:
+                    u = queue.popleft()
+                    for x in nb[u]:
+                        if x not in seen and x not in blocked:
+                            seen.add(x)
+                            queue.append(x)
+                idx = np.fromiter(seen, dtype=np.int64, count=len(seen))
+                reach = lv[idx]
+                spans.append(max(reach.max(), lv[v]) - min(reach.min(), lv[v]))
+            spans.sort(reverse=True)
+            value = float(spans[2]) / d.range if len(spans) >= 3 and d.range > 0 else 0.0
+            vals.append((value, value > d.threshold))
+        return self._best(vals)
+
+    def ends_at(self, v):
+        """Largest significance of the limbs and loops with an end at node ``v``."""
+        vals = []
+        for d in self.diagrams:
+            hit = ((d.nodes[:, 0] == v) | (d.nodes[:, 1] == v)) & (d.kind != "component")
+            vals += [(float(d.significance[i]), bool(d.significant[i]))
+                     for i in np.flatnonzero(hit)]
+        return self._best(vals)
+
+    def branch(self, v, nb):
+        """Smaller of the arm span and the largest feature ending at ``v`` (module notes)."""
+        arm, arm_ok = self.at_node(v, nb)
+        end, end_ok = self.ends_at(v)
+        return min(arm, end), arm_ok and end_ok
+
+    def flare(self, chain, end):
+        """Significance of the limb born at the flare's leaf (0 for a trunk: no limb)."""
+        leaf = chain[0]
+        vals = []
+        for d in self.diagrams:
+            born = np.flatnonzero(((d.kind == "down") | (d.kind == "up")) & (d.nodes[:, 0] == leaf))
+            if born.size:
+                i = int(born[np.argmax(d.significance[born])])
+                vals.append((float(d.significance[i]), bool(d.significant[i])))
+        return self._best(vals)
+
+
+def _spanning_forest(E, order, V):
+    """Neighbour lists of the spanning forest grown by adding edges in ``order`` (Kruskal)."""
+    parent = list(range(V))
+
+    def find(a):
+        while parent[a] != a:
+            parent[a] = parent[parent[a]]
+            a = parent[a]
+        return a
+
+    tree = [[] for _ in range(V)]
+    for e in order.tolist():
+        a, b = int(E[e, 0]), int(E[e, 1])
+        ra, rb = find(a), find(b)
+        if ra != rb:
+            parent[ra] = rb
+            tree[a].append(b)
+            tree[b].append(a)
+    return tree
+
+
+def _tree_path(tree, a, b):
+    """Nodes of the forest path from ``a`` to ``b`` (the cycle closed by the edge a-b)."""
+    prev = {a: None}
+    queue = deque([a])
+    while queue:
+        u = queue.popleft()
+        if u == b:
+            break
+        for w in tree[u]:
+            if w not in prev:
+                prev[w] = u
+                queue.append(w)
+    path = [b]
+    while prev[path[-1]] is not None:
+        path.append(prev[path[-1]])
+    return tuple(path[::-1])
+
+
+def _significance(graph):
+    """The graph's _Significance (cached on the graph), or None without lens levels."""
+    cached = getattr(graph, "_significance_cache", None)
+    if cached is not None:
+        return cached or None
+    try:
+        diagrams = graph_diagrams(graph)
+    except (ParameterError, KeyError, IndexError, TypeError, ValueError):
+        diagrams = None  # a hand-made graph whose parameters do not describe its cover
+    result = _Significance(graph, diagrams) if diagrams else False
+    graph._significance_cache = result
+    return result or None
 
 
 #: Largest boundary matrix (edges x triangles) whose rank is computed densely.
@@ -328,5 +690,5 @@ def summarize(graph):
         branch_points=tuple(int(v) for v in np.flatnonzero(deg >= 3)),
         n_flares=len(flares), n_unassigned=int(graph.unassigned.size),
         component_sizes=tuple(rows_of(nodes) for nodes in _components(labels, n_comp)),
-        _graph=graph,
+        settings=cover_settings(graph), _graph=graph,
     )

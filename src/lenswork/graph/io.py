@@ -11,14 +11,18 @@ GraphML
     by commas) and ``<column>_mean``, ``<column>_min``, ``<column>_max``
     (double) for every lens and data column;
     edges carry ``shared`` (long) and ``jaccard`` (double); the graph carries
-    ``lens_columns``, ``params`` and ``provenance`` as JSON strings and
-    ``n_rows``, ``n_unassigned`` (long).
+    ``lens_columns``, ``params``, ``provenance`` and ``summary`` as JSON
+    strings and ``n_rows``, ``n_unassigned`` (long).
 JSON
     ``{"format": "lenswork-graph", "format_version": 1, "id_name", "row_ids",
     "lens_columns", "data_columns", "nodes": [{"id", "element", "level", "size", "stats"}],
     "edges": [{"source", "target", "shared", "jaccard"}], "membership": [rows of
     node 0, rows of node 1, ...], "unassigned", "fragments", "params",
-    "provenance"}``; rows are 0-based positions, ``row_ids[row]`` is the id.
+    "provenance", "summary"}``; rows are 0-based positions, ``row_ids[row]`` is
+    the id. ``summary`` (:meth:`GraphSummary.record`) is written for readers:
+    the counts, the resolved settings and the features with their significance,
+    the significant ones apart from the small ones; reading ignores it (the
+    graph recomputes its summary).
     :func:`read_graph_json` gives back an equal LensGraph.
 CSV
     Header ``<id column>,node``; one line per (row, node) membership in row
@@ -97,7 +101,8 @@ def write_graphml(graph, path):
         return kid
 
     for name, kind in (("lens_columns", "string"), ("params", "string"),
-                       ("provenance", "string"), ("n_rows", "long"), ("n_unassigned", "long")):
+                       ("provenance", "string"), ("summary", "string"), ("n_rows", "long"),
+                       ("n_unassigned", "long")):
         key("graph", name, kind)
     key("node", "size", "long")
     key("node", "element", "string")
@@ -117,6 +122,7 @@ def write_graphml(graph, path):
     data(g, "graph", "lens_columns", dumps(list(graph.lens_columns), indent=None))
     data(g, "graph", "params", dumps(graph.params, indent=None, sort_keys=True))
     data(g, "graph", "provenance", dumps(graph.provenance, indent=None, sort_keys=True))
+    data(g, "graph", "summary", dumps(graph.summary().record(), indent=None, sort_keys=True))
     levels = graph.node_levels
     data(g, "graph", "n_rows", str(graph.n_rows))
     data(g, "graph", "n_unassigned", str(int(graph.unassigned.size)))
@@ -174,6 +180,7 @@ def graph_to_dict(graph):
                        for a in range(graph.n_nodes)],
         "unassigned": graph.unassigned.tolist(),
         "fragments": graph.fragments, "params": graph.params, "provenance": graph.provenance,
+        "summary": graph.summary().record(),
     }
 
 
