@@ -70,8 +70,9 @@ The grid
 The default overlaps are 0.25 and 0.4; the interval counts are 6, 10 and 14,
 each capped by :func:`probe_intervals` at the finest count whose average
 cover element can hold two groups of ``min_size`` rows (every loop or branch
-passes through an element with two nodes). On 150 rows with the default
-``min_size`` of 10 that gives (6, 9); from about 300 rows on, the full grid.
+passes through an element with two nodes). On 150 rows with ``min_size`` 10
+that gives (6, 9), from about 300 rows on the full grid; a data-dependent
+``min_size`` (``"auto"``) is resolved for the number of rows first.
 
 Stability map
 -------------
@@ -247,18 +248,27 @@ def _graph_settings(settings, k, overrides):
     return GraphSettings.coerce(settings, **overrides, k=k)
 
 
-def default_cell_setting(settings):
+def default_cell_setting(settings, n_rows=None, n_lenses=1):
     """The (intervals, overlap) grid cell the settings themselves stand for, or None.
 
     Interval cover: its interval count and overlap (when both are single
     values); ball cover: ``(1 / radius, overlap)`` when ``1 / radius`` is a
-    whole number (see :func:`lenswork.graph.grid_settings`).
+    whole number (see :func:`lenswork.graph.grid_settings`). A data-dependent
+    value (``"auto"``) is resolved for ``n_rows`` rows and ``n_lenses`` lens
+    columns first (None without ``n_rows``).
 
     Examples
     --------
-    >>> default_cell_setting(GraphSettings()), default_cell_setting(GraphSettings(cover="ball"))
+    >>> s = GraphSettings(intervals=10)
+    >>> default_cell_setting(s), default_cell_setting(GraphSettings(cover="ball"))
     ((10, 0.3), (10, 0.3))
     """
+    if n_rows is not None and any(isinstance(getattr(settings, f), str)
+                                  for f in ("intervals", "min_size")):
+        try:
+            settings = settings.resolve(int(n_rows), int(n_lenses))
+        except ParameterError:
+            return None
     if settings.cover_kind == "ball":
         if settings.centres is not None:
             return None
@@ -802,6 +812,7 @@ def stability_map(lens, workspace, *, settings=None, intervals=MAP_INTERVALS,
     counts = _grid_counts(cols, workspace, intervals, overlaps, settings, data_c, label)
     return StabilityMap(
         lens=label, intervals=intervals, overlaps=overlaps, counts=counts, n_rows=workspace.n,
-        data_components=data_c, default=default_cell_setting(settings),
+        data_components=data_c,
+        default=default_cell_setting(settings, workspace.n, len(cols)),
         settings=settings.to_dict(),
     )
