@@ -848,7 +848,7 @@ def contrast_columns(graph, data, feature=None, *, nodes=None, rows=None, agains
     >>> t = rng.uniform(0, 1, 400)
     >>> X = np.column_stack([t, rng.normal(0, 0.05, 400), (t > 0.8) * 2.0])
     >>> cloud = PointCloud.from_array(X, feature_names=["t", "noise", "step"])
-    >>> g = build_graph(X[:, 0], cloud, intervals=5, overlap=0.3)
+    >>> g = build_graph(X[:, 0], cloud, intervals=5, overlap=0.3, min_size=10)
     >>> res = contrast_columns(g, cloud, nodes=[g.n_nodes - 1])
     >>> sorted(res.top("nodes", 2)), bool(res.for_feature("nodes")[0].qvalue < 1e-6)
     (['step', 't'], True)

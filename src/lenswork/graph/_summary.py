@@ -96,7 +96,7 @@ class GraphFeature:
 
     Attributes
     ----------
-    kind : {"component", "loop", "branch", "flare", "path"}
+    kind : {"component", "loop", "branch", "flare", "path", "limb"}
     nodes : tuple of int
     rows : int
         Distinct rows in the feature's nodes.
@@ -165,14 +165,30 @@ class GraphSummary:
 
     @cached_property
     def features(self):
-        """Every feature (components, loops, branches, branch points, flares, paths).
+        """Every feature (components, loops, branch points, flares, paths) as GraphFeature.
 
-        ``branch`` features are the branch *points* (nodes of degree >= 3);
-        ``limb`` features are the diagram's branches (``down`` / ``up`` points:
-        from an extreme node to where it joins). Loops, limbs, flares and branch
-        points carry their significance (module notes).
+        ``branch`` features are the branch *points* (nodes of degree >= 3).
+        Loops, flares and branch points carry their significance (module
+        notes); the diagram's branches are in :attr:`limbs`.
         """
         return _features(self._graph) if self._graph is not None else ()
+
+    @cached_property
+    def limbs(self):
+        """The diagram's branches as ``limb`` features (module notes), by significance.
+
+        A limb is a ``down`` or ``up`` point of a lens's extended persistence:
+        a part of the graph hanging below or reaching above the rest, from its
+        extreme node to the node where it joins (its two ``nodes``). Empty for a
+        graph without lens levels.
+        """
+        if self._graph is None:
+            return ()
+        sig = _significance(self._graph)
+        return _limbs(self._graph, sig) if sig is not None else ()
+
+    def _all(self):
+        return (*self.features, *self.limbs)
 
     @property
     def significant_holes(self):
@@ -219,12 +235,12 @@ class GraphSummary:
 
     def significant_features(self, kind=None):
         """Significant loops, limbs, flares and branch points (of one ``kind``)."""
-        return tuple(f for f in self.features if f.significant
+        return tuple(f for f in self._all() if f.significant
                      and (kind is None or f.kind == kind))
 
     def small_features(self, kind=None):
         """Loops, limbs, flares and branch points below the significance threshold."""
-        return tuple(f for f in self.features if f.significant is False
+        return tuple(f for f in self._all() if f.significant is False
                      and (kind is None or f.kind == kind))
 
     @property
@@ -233,8 +249,9 @@ class GraphSummary:
         return tuple(f for f in self.features if f.kind == "flare")
 
     def features_of(self, kind):
-        """Features of one kind."""
-        return tuple(f for f in self.features if f.kind == kind)
+        """Features of one kind (``"limb"``: :attr:`limbs`)."""
+        return self.limbs if kind == "limb" else \
+            tuple(f for f in self.features if f.kind == kind)
 
     def to_dict(self):
         """JSON-ready form."""
@@ -248,6 +265,7 @@ class GraphSummary:
             "significance": None if self.significance is None else {
                 k: {"significant": a, "small": b - a} for k, (a, b) in self.significance.items()},
             "features": [f.to_dict() for f in self.features],
+            "limbs": [f.to_dict() for f in self.limbs],
         }
 
     def record(self):
@@ -259,7 +277,7 @@ class GraphSummary:
         resolution threshold; ``other_features`` the components and paths.
         """
         doc = self.to_dict()
-        feats = doc.pop("features")
+        feats = doc.pop("features") + doc.pop("limbs")
         doc["significant_features"] = [f for f in feats if f["significant"] is True]
         doc["small_features"] = [f for f in feats if f["significant"] is False]
         doc["other_features"] = [f for f in feats if f["significant"] is None]
@@ -297,8 +315,8 @@ class GraphSummary:
             parts = [f"{words[k]} {a}" + (f" (+{b - a} small)" if b > a else "")
                      for k, (a, b) in sig.items()]
             lines.append("  significant: " + ", ".join(parts))
-        listed = [f for f in self.features if f.significant is not False]
-        small = [f for f in self.features if f.significant is False]
+        listed = [f for f in self._all() if f.significant is not False]
+        small = [f for f in self._all() if f.significant is False]
         for f in listed[:max_features]:
             lines.append(_feature_line(f))
         if len(listed) > max_features:
@@ -480,8 +498,6 @@ def _features(graph):
     else:
         for cycle, value, ok in sig.loops(nb):
             features.append(replace(feature("loop", cycle), significance=value, significant=ok))
-        for nodes, value, ok in sig.limbs():
-            features.append(replace(feature("limb", nodes), significance=value, significant=ok))
         for v in np.flatnonzero(deg >= 3):
             value, ok = sig.branch(int(v), nb)
             features.append(replace(feature("branch", (int(v),)), significance=value,
@@ -492,6 +508,19 @@ def _features(graph):
                                     significance=value, significant=ok))
     features += [feature("path", chain) for chain in paths]
     return tuple(features)
+
+
+def _limbs(graph, sig):
+    rows_of = _row_counter(graph)
+    out = []
+    for nodes, value, ok in sig.limbs():
+        idx = np.asarray(nodes, dtype=np.int64)
+        spans = {name: (float(graph.node_stats[name][idx, 1].min()),
+                        float(graph.node_stats[name][idx, 2].max()))
+                 for name in graph.lens_columns}
+        out.append(GraphFeature("limb", tuple(int(x) for x in nodes), rows_of(nodes), spans,
+                                significance=value, significant=ok))
+    return tuple(out)
 
 
 class _Significance:

@@ -120,9 +120,13 @@ def comparison_figure(cmp):
         _draw_correspondence(fig, fig.add_subplot(grid[0, V + 2]),
                              fig.add_subplot(grid[0, V + 3]), cmp)
         p = cmp.pairs[0]
+        trivial = " (trivial: one block each)" if p.get("trivial") else ""
+        co = (f"  \u00b7  co-membership ARI {p['co_ari']:.2f}, pair Jaccard "
+              f"{p['co_jaccard']:.2f}") if "co_ari" in p else ""
         fig.suptitle(
             f"{_short(p['a'], 30)} vs {_short(p['b'], 30)}:  ARI {p['ari']:.2f}  \u00b7  "
-            f"VI {p['vi']:.2f} nats  ({cmp.partition} partition, {p['rows_compared']:,} rows)",
+            f"VI {p['vi']:.2f} nats  ({cmp.partition} partition{trivial}, "
+            f"{p['rows_compared']:,} rows){co}",
             x=0.01, ha="left", fontsize=10, fontweight="bold", color=INK)
         only = [f"{f['kind']} only in {p['a']}" for f in p["only_a"]]
         only += [f"{f['kind']} only in {p['b']}" for f in p["only_b"]]
