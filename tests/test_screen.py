@@ -334,6 +334,24 @@ def test_constant_and_nan_lenses_never_selected():
     assert np.isnan(result.correlation[0]).all()
 
 
+def test_lenses_unrelated_to_the_data_get_merit_zero_and_a_warning():
+    # He, Cai and Niyogi 2005: values independent of the neighbour graph have a Laplacian
+    # score of about 1; within two standard errors of the permutation null (Cliff and Ord
+    # 1981) the smoothness is 0, so the merit (a geometric mean) is 0 and nothing is chosen
+    rng = np.random.default_rng(29)
+    n = 1500
+    cloud = PointCloud.from_array(rng.normal(size=(n, 2)))
+    table = LensTable([LensColumn(f"noise{j}", rng.normal(size=n)) for j in range(3)]
+                      + [LensColumn("x", cloud.X[:, 0])], cloud)
+    result = screen(table, count=2, probe=False)
+    assert result.selected == ["x"]  # the one lens that follows the data
+    assert (result.scores["smoothness"][:3] == 0).all() and (result.merit[:3] == 0).all()
+    assert result.rows()[-1]["reason"] == "merit 0: never selected"
+    with pytest.warns(LensworkWarning, match="every candidate has smoothness 0"):
+        none = screen(table.select(["noise0", "noise1"]), probe=False)
+    assert none.selected == []
+
+
 def test_count_larger_than_candidates_warns():
     rng = np.random.default_rng(31)
     table = _table({"a": rng.normal(size=200), "b": rng.normal(size=200)}, rng=rng)

@@ -184,7 +184,9 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
     LensworkWarning
         A constant or non-finite candidate (spread 0, never selected); a default
         lens that could not be computed (skipped); ``count`` larger than the
-        number of usable candidates (all usable ones are selected).
+        number of usable candidates (all usable ones are selected); no lens
+        selected because every candidate has merit 0 (e.g. lens columns that
+        do not follow the data's neighbours: smoothness 0).
 
     Notes
     -----
@@ -312,6 +314,18 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
         result = _with_structure(result, ws, weights)
     elif probe:
         result = result.rescore(weights=weights or NO_PROBE_WEIGHTS)
+    if n_ok and not result.selected:
+        zero = [k for k in result.weights if not np.any(np.nan_to_num(result.scores[k]) > 0)]
+        why = (f"every candidate has {' and '.join(zero)} 0" if zero else
+               "no candidate has every weighted score above 0")
+        if "smoothness" in zero:
+            why += (" (no lens follows the data's neighbours better than a random ordering "
+                    "of its values)")
+        warnings.warn(
+            f"The screen selected no lens: {why}. Check that the lenses were computed on "
+            f"these rows, or pass weights= without that score.",
+            LensworkWarning, stacklevel=2,
+        )
     return result
 
 
