@@ -19,6 +19,7 @@ last.
 from dataclasses import dataclass
 
 import numpy as np
+from _shapes import torus as sample_torus
 
 NOISE_COLUMN = "noise"
 
@@ -116,17 +117,7 @@ def circle_highd(rng, n=800, dims=8):
 
 
 def torus(rng, n=1500, R=3.0, r=1.0):
-    # uniform in area by rejection on R + r cos v (as tests/_shapes.py)
-    out, m = [], 0
-    while m < n:
-        u = rng.uniform(0, 2 * np.pi, 2 * n)
-        v = rng.uniform(0, 2 * np.pi, 2 * n)
-        keep = rng.uniform(0, R + r, 2 * n) < R + r * np.cos(v)
-        u, v = u[keep], v[keep]
-        out.append(np.column_stack([(R + r * np.cos(v)) * np.cos(u),
-                                    (R + r * np.cos(v)) * np.sin(u), r * np.sin(v)]))
-        m += u.size
-    X = np.vstack(out)[:n] + rng.normal(0, 0.03, (n, 3))
+    X = sample_torus(n, rng, R=R, r=r, noise=0.03)  # uniform in area (tests/_shapes.py)
     return Case("torus", X, b1=1, flares=0, source="torus R=3 r=1: Reeb graph b1 = genus = 1")
 
 
