@@ -25,7 +25,6 @@ from the sources, not from lenswork.
 from __future__ import annotations
 
 import numpy as np
-
 from _judgement_data import Case, _zscore
 
 

@@ -1,10 +1,10 @@
 """Tests of the `lenswork contrast` command (click.testing.CliRunner on lenswork.cli.cli)."""
 
 import csv
-import json
 
 import numpy as np
 import pytest
+from _strict_json import strict_loads
 from click.testing import CliRunner
 from numpy.testing import assert_allclose
 
@@ -36,10 +36,7 @@ def test_demo_run_prints_writes_and_draws(demo_run):
     sheets = [n for n in names if n.startswith("columns_flare-")]
     assert sheets and all((out / n).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" for n in sheets)
 
-    def refuse(name):
-        raise AssertionError(f"non-strict JSON constant {name}")
-
-    doc = json.loads((out / "contrast.json").read_text(), parse_constant=refuse)  # RFC 8259
+    doc = strict_loads((out / "contrast.json").read_text())  # RFC 8259
     assert doc["contrast"]["params"]["against"] == "neighbours"
     assert doc["lenses"][0]["name"].startswith("laplacian")
 

@@ -16,6 +16,7 @@ import warnings
 
 import numpy as np
 import pytest
+from _strict_json import strict_loads
 from click.testing import CliRunner
 
 from lenswork import (
@@ -30,14 +31,6 @@ from lenswork import (
 from lenswork.cli import cli
 from lenswork.lenses import LensPart
 from lenswork.lenses._registry import REGISTRY
-
-
-def _refuse(name):
-    raise ValueError(f"non-standard JSON constant {name}")
-
-
-def strict_loads(text):
-    return json.loads(text, parse_constant=_refuse)
 
 
 def _strict_file(path):

@@ -68,7 +68,7 @@ def run(quick=False, full_reference=False, m=40, repeat=3):
         table = table_of(cols, latent)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", LensworkWarning)
-            screen(table_of([c[:1000] for c in cols], latent[:1000]))  # warm-up (imports, BLAS threads)
+            screen(table_of([c[:1000] for c in cols], latent[:1000]))  # warm-up: imports, BLAS
             result, _, peak, rss = measure(screen, table, count=5)  # memory (tracemalloc on)
             times = []
             for _ in range(repeat):  # timing without tracemalloc; best of `repeat`
