@@ -178,3 +178,42 @@ def test_neighbour_jitter_is_the_laplacian_score_in_cover_units():
     expected = np.sqrt(2 * lr * (ft @ (d * ft)) / d.sum()) / np.ptp(f)
     assert neighbour_jitter(f, S, scale="raw") == pytest.approx(expected, rel=1e-10)
     assert neighbour_jitter(np.ones(150), S) == 0.0
+
+
+def test_robust_spread_matches_a_brute_force_tail_share():
+    # the definition written directly: numpy's median, a full sort of (v - median)^2, the
+    # largest ceil(n / 100) of them over the total; ties by collections.Counter
+    from collections import Counter
+
+    rng = np.random.default_rng(48)
+    for v in (rng.normal(size=1001), rng.integers(0, 7, 640).astype(float),
+              np.r_[rng.exponential(size=499), 50.0], rng.uniform(size=2)):
+        dev = np.sort((v - np.median(v)) ** 2)
+        top = int(np.ceil(v.size / 100))
+        share = dev[-top:].sum() / dev.sum()
+        most = max(Counter(v.tolist()).values())
+        tie = most / v.size if most > 1 else 0.0
+        got = robust_spread(v)
+        assert got.tail_share == pytest.approx(share, rel=1e-12)
+        assert got.largest_tie == tie
+        assert got.robust_spread == pytest.approx((1 - tie) * (1 - share), rel=1e-12)
+
+
+def test_batch_criteria_match_the_dense_formula():
+    # unit_rank_criteria on centred rank rows = He et al. 2005 eq. 4 on the ranks (the score
+    # is invariant under f -> a f + b), and delta^2 = 2 f~^T L f~ / 1^T S 1 / range^2
+    from lenswork.criteria import neighbour_jitter, unit_rank_criteria
+
+    rng = np.random.default_rng(49)
+    X = rng.normal(size=(150, 3))
+    S = heat_kernel_affinity(Workspace(X), k=6)
+    F = np.c_[X[:, 0], np.exp(X[:, 1]), rng.normal(size=150)]
+    R = np.array([rankdata(F[:, j]) for j in range(3)])
+    Z = (R - R.mean(axis=1, keepdims=True)) / 17.0
+    Z = np.r_[Z, np.full((1, 150), np.nan)]
+    Lr, delta = unit_rank_criteria(Z, S)
+    ref = [_dense_score((rankdata(F[:, j]) - 0.5) / 150, S) for j in range(3)]
+    np.testing.assert_allclose(Lr[:3], ref, rtol=1e-10)
+    np.testing.assert_allclose(delta[:3], [neighbour_jitter(F[:, j], S) for j in range(3)],
+                               rtol=1e-10)
+    assert np.isnan(Lr[3]) and np.isnan(delta[3])

@@ -16,7 +16,7 @@ from hypothesis import strategies as st
 from hypothesis.extra import numpy as hnp
 from numpy.testing import assert_allclose, assert_array_equal
 
-import lenswork.data as data_module
+import lenswork.data._files as data_module
 from lenswork import (
     ExcludedRow,
     InputError,

@@ -187,3 +187,36 @@ def test_every_public_transformer_is_checked():
         if isinstance(obj := getattr(lenswork, name), type) and issubclass(obj, TransformerMixin)
     }
     assert public == {type(e) for e in ESTIMATORS}
+
+
+def test_feature_union_remainder_and_grid_search_over_a_lens_parameter():
+    # scikit-learn's composition tools as the reference: FeatureUnion prefixes the lens
+    # names with the step names, ColumnTransformer passes the remainder through untouched,
+    # and GridSearchCV can tune a lens parameter through the step path.
+    from sklearn.linear_model import LinearRegression
+    from sklearn.model_selection import GridSearchCV
+    from sklearn.pipeline import make_union
+
+    rng = np.random.default_rng(3306)
+    X = rng.normal(size=(120, 3)) * [3.0, 1.0, 0.3]
+    frame = pd.DataFrame(X, columns=["a", "b", "c"])
+    union = make_union(Eccentricity(), KNNDistance(k=3)).set_output(transform="pandas")
+    out = union.fit_transform(frame)
+    assert list(out.columns) == ["eccentricity__eccentricity", "knndistance__knn_distance"]
+    ref = NearestNeighbors(n_neighbors=3).fit(X).kneighbors()[0][:, 2]
+    assert_allclose(out["knndistance__knn_distance"], ref, rtol=1e-12)
+    ct = ColumnTransformer([("dens", GaussianDensity(), ["a", "b"])], remainder="passthrough",
+                           verbose_feature_names_out=False).set_output(transform="pandas")
+    out = ct.fit_transform(frame)
+    assert list(out.columns) == ["density", "c"] and out["c"].tolist() == frame["c"].tolist()
+    # y is linear in X; PCA with all 3 components is an invertible linear map of the
+    # centred data, so a linear model on it fits exactly (R^2 = 1) and 1 or 2 components
+    # cannot (the dropped directions carry part of y): the search must pick 3.
+    y = frame["a"] - 2.0 * frame["c"]
+    pipe = make_pipeline(ColumnTransformer([("pca", PCALens(components=1), ["a", "b", "c"])]),
+                         LinearRegression())
+    search = GridSearchCV(pipe, {"columntransformer__pca__components": [1, 2, 3]}, cv=3)
+    search.fit(frame, y)
+    assert search.best_params_ == {"columntransformer__pca__components": 3}
+    assert search.best_score_ == pytest.approx(1.0, abs=1e-10)
+    assert max(search.cv_results_["mean_test_score"][:2]) < 0.99

@@ -71,9 +71,10 @@ def test_score_formula():
     grid = {
         "loops": np.array([[1, 1], [1, 0]]), "flares": np.array([[2, 2], [2, 2]]),
         "branch_points": np.array([[0, 1], [1, 1]]), "extra_components": np.zeros((2, 2)),
-        "empty": np.zeros((2, 2)),
+        "empty": np.zeros((2, 2)), "unassigned": np.zeros((2, 2)),
+        "significance_total": np.array([[0.5, 1.0], [0.8, 0.2]]),
     }
-    row = _score(grid, FEATURE_WEIGHTS, 0.25)
+    row = _score(grid, FEATURE_WEIGHTS, 0.25, n_rows=100)
     # The module docstring's formulas, evaluated by hand: modes 1, 2, 1, 0;
     # agreements 3/4, 1, 3/4, 1; weighted count 1 + 0.5*2 + 0.25*1 = 2.25
     revealed = 1 - 2 ** -2.25
@@ -81,16 +82,39 @@ def test_score_formula():
     assert (row["loops"], row["flares"], row["branch_points"]) == (1, 2, 1)
     assert_allclose(row["revealed"], revealed, rtol=1e-15)
     assert_allclose(row["stability"], stability, rtol=1e-15)
-    assert_allclose(row["structure"], 0.25 + 0.75 * revealed * stability, rtol=1e-15)
+    assert_allclose(row["count_structure"], 0.25 + 0.75 * revealed * stability, rtol=1e-15)
+    # significance: T = median(0.5, 1.0, 0.8, 0.2) = 0.65 (numpy.median of an even count:
+    # the mean of the middle two), every row kept and no extra component: coherence 1
+    significance = 1 - 2 ** -0.65
+    assert_allclose(row["significance"], significance, rtol=1e-15)
+    assert row["coherence"] == 1.0
+    assert_allclose(row["structure"], 0.25 + 0.75 * significance, rtol=1e-15)
     grid["extra_components"] = np.full((2, 2), 3)
-    # coherence 1 / (1 + 3) divides the revealed structure
-    assert_allclose(_score(grid, FEATURE_WEIGHTS, 0.25)["structure"],
-                    0.25 + 0.75 * revealed * stability / 4, rtol=1e-15)
+    # coherence 1 / (1 + 3) divides both structure scores
+    row = _score(grid, FEATURE_WEIGHTS, 0.25, n_rows=100)
+    assert_allclose(row["count_structure"], 0.25 + 0.75 * revealed * stability / 4, rtol=1e-15)
+    assert_allclose(row["structure"], (0.25 + 0.75 * significance) / 4, rtol=1e-15)
     grid["extra_components"] = np.array([[3, 1], [0, 0]])
     grid["empty"] = np.array([[0, 0], [0, 1]])
-    # one empty cell of four; mean extra over the three others = 4 / 3
-    assert_allclose(_score(grid, FEATURE_WEIGHTS, 0.25)["coherence"], 0.75 / (1 + 4 / 3),
-                    rtol=1e-15)
+    grid["unassigned"] = np.array([[10, 0], [30, 100]])
+    # one empty cell of four (all 100 rows in no node); mean extra over the three others
+    # = 4 / 3; rows kept: 1 - (0.1 + 0 + 0.3 + 1) / 4 = 0.65
+    assert_allclose(_score(grid, FEATURE_WEIGHTS, 0.25, n_rows=100)["coherence"],
+                    0.65 / (1 + 4 / 3), rtol=1e-15)
+
+
+def test_probe_grid_follows_the_rows():
+    # interval length L = 1 / (1 + (N - 1)(1 - p)) (N intervals, consecutive ones L (1 - p)
+    # apart, span [0, 1]); the rule keeps N while n L^d >= 2 min_size
+    from lenswork.probe import interval_length, probe_intervals
+
+    for n, d in [(150, 1), (178, 1), (569, 1), (400, 2), (3000, 2)]:
+        got = probe_intervals(n, 10, 0.25, columns=d)
+        brute = max([N for N in range(2, 15) if n * interval_length(N, 0.25) ** d >= 20],
+                    default=2)
+        assert got == tuple(sorted({min(N, brute) for N in (6, 10, 14)}))
+    assert probe_intervals(150, 10, 0.25) == (6, 9)
+    assert probe_intervals(10_000, 10, 0.25) == (6, 10, 14)
 
 
 # --------------------------------------------------------------------------- counts
@@ -128,8 +152,12 @@ def test_probe_prefers_the_loop_lens_on_a_circle():
     assert probe["noise"]["coherence"] < 0.5 and probe["x"]["coherence"] == 1.0
     assert probe["x"]["structure"] > probe["noise"]["structure"]
     assert probe.data_components == 1
+    # the circle under a coordinate: one loop over the whole range (Cohen-Steiner,
+    # Edelsbrunner and Harer 2009), significant at every cell
+    assert probe["x"]["significant_loops"] == 1 and probe["noise"]["significant_loops"] == 0
     for scores in probe.values():
-        assert probe.floor <= scores["structure"] < 1
+        assert 0 <= scores["structure"] <= scores["coherence"] * 1
+        assert scores["structure"] >= probe.floor * scores["coherence"]
 
 
 def test_probe_ranks_the_loop_lens_above_density_on_the_demo(demo_cloud):

@@ -15,6 +15,7 @@ import subprocess
 import sys
 from pathlib import Path
 
+import numpy as np
 import pytest
 from click.testing import CliRunner
 
@@ -223,3 +224,101 @@ def test_nested_steps_without_output_between_stay_on_one_line_each():
     shape = [re.sub(r"\d+\.\d\d s|[^ (]+/s", "T", line) for line in out.getvalue().splitlines()]
     assert shape == ["  a ...", "    b ...", "      c ... T", "    b ... T",
                      "    loop: 2/2 in T (T)", "  a ... T"]
+
+
+def test_screen_command_in_a_pseudo_terminal(tmp_path):
+    # The CLI as a user runs it, stderr on a terminal: two candidate lenses (the first one
+    # warns inside its step, and needs the neighbour graph: a nested step), the ranking,
+    # then the structure probe of each candidate column as a bar.
+    from lenswork.probe import PROBE_INTERVALS, PROBE_OVERLAPS
+
+    cells = len(PROBE_INTERVALS) * len(PROBE_OVERLAPS)
+    args = [sys.executable, "-c", "from lenswork.cli import main; main()", "screen", "--demo",
+            "--no-defaults", "--lens", "dtm:mass=0.9", "--lens", "pca:components=2",
+            "--no-figures", "-o", str(tmp_path / "out")]
+    raw, stdout = _run_with_stderr_on_a_pty(args, _env())
+    assert "Selected:" in stdout
+    lines = _lines(raw)
+    shown = [_shown(line) for line in lines]
+    t = r"\d+(\.\d\d)? s"
+    expected = [
+        r"  lens 1/2: dtm:mass=0\.9 \.\.\.",
+        r"Warning: dtm: mass=0\.9 asks for k=2700 .*",  # its own line, not the step's end
+        rf"    neighbour graph: exact \w+, n=3000, k=30 \.\.\. {t}",
+        rf"  lens 1/2: dtm:mass=0\.9 \.\.\. {t}",
+        rf"  lens 2/2: pca:components=2 \.\.\. {t}",
+        rf"  ranking 3 columns: spread and rank correlation \.\.\. {t}",
+        rf"  selection \.\.\. {t}",
+        *(rf"  probe {re.escape(c)}\s+\[#+\]\s+{cells}/{cells}\s+100%\s+\S+/s\s+in {t}"
+          for c in ("dtm[mass=0.9]", "pca_1", "pca_2")),
+        rf"  writing ranking and lens columns \.\.\. {t}",
+    ]
+    assert len(shown) == len(expected), shown
+    for got, pattern in zip(shown, expected, strict=True):
+        assert re.fullmatch(pattern, got), (got, pattern)
+    # No interleaving: every raw line (all its redraws) carries one label only.
+    labels = ["lens 1/2", "Warning", "neighbour graph:", "lens 2/2", "ranking 3", "selection",
+              "probe dtm", "probe pca_1", "probe pca_2", "writing"]
+    for line in lines:
+        assert sum(label in line for label in labels) == 1, line
+    # Each bar counts 0, 1, ..., cells in order, redrawn in place on its one line.
+    for line in lines[7:10]:
+        counts = [int(m.group(1)) for p in line.split("\r")
+                  if (m := re.search(rf"\s(\d+)/{cells}\s", p))]
+        assert counts == sorted(counts) and set(counts) == set(range(cells + 1)), counts
+
+
+CHILD_NOTE = """
+import importlib.util, sys
+spec = importlib.util.spec_from_file_location("progress", sys.argv[1])
+_progress = importlib.util.module_from_spec(spec)
+spec.loader.exec_module(_progress)
+_progress.configure()
+for i in _progress.track(range(4), "cells", length=4):
+    if i == 2:  # a message from outside the reporter, as the CLI's warnings
+        _progress.interrupt()
+        print("Warning: a note", file=sys.stderr, flush=True)
+with _progress.step("after"):
+    _progress.interrupt()
+    print("Warning: inside a step", file=sys.stderr, flush=True)
+"""
+
+
+def test_a_message_during_a_bar_or_a_step_gets_its_own_line():
+    raw, _ = _run_with_stderr_on_a_pty([sys.executable, "-c", CHILD_NOTE, PROGRESS_FILE],
+                                       _env())
+    lines = _lines(raw)
+    shown = [_shown(line) for line in lines]
+    assert len(shown) == 6, shown
+    # The bar stops at its count so far, the note follows on its own line, and the bar
+    # goes on below it up to 4/4; a step's open line is ended the same way.
+    assert re.search(r"\s2/4\s", shown[0]) and "Warning" not in lines[0]
+    assert shown[1] == "Warning: a note"
+    assert re.search(r"\s4/4\s", shown[2]) and "Warning" not in lines[2]
+    assert shown[3] == "  after ..." and shown[4] == "Warning: inside a step"
+    assert re.fullmatch(r"  after \.\.\. \d+\.\d\d s", shown[5])
+
+
+def test_cluster_command_counts_partitions_on_the_progress_line(tmp_path):
+    # The cluster commands count finished partitions on lenswork's progress line (not a
+    # second progress display of their own): nothing off a terminal, a count with -q off
+    # and --progress, nothing with -q.
+    pytest.importorskip("distributed")
+    pd = pytest.importorskip("pandas")
+    pytest.importorskip("pyarrow")
+    rng = np.random.default_rng(1404)
+    for i in range(3):
+        pd.DataFrame({"f0": rng.normal(size=50), "f1": rng.normal(size=50)}).to_parquet(
+            tmp_path / f"part-{i}.parquet")
+    base = ["cluster-lenses", str(tmp_path), "--scheduler", "local", "--workers", "1",
+            "--lens", "column:name=f0"]
+    runner = CliRunner()
+    res = runner.invoke(cli, [*base, "-o", str(tmp_path / "a")])
+    assert res.exit_code == 0, res.output
+    assert "partitions computed" not in res.stderr and "wrote" in res.stdout
+    res = runner.invoke(cli, ["--progress", *base, "-o", str(tmp_path / "b")])
+    assert res.exit_code == 0, res.output
+    assert re.search(r"^  dask: partitions computed: 3/3 in \S+ s \(\S+/s\)$", res.stderr,
+                     re.M), res.stderr
+    res = runner.invoke(cli, ["-q", "--progress", *base, "-o", str(tmp_path / "c")])
+    assert res.exit_code == 0 and "partitions computed" not in res.stderr

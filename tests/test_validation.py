@@ -1,11 +1,13 @@
 """check_array / check_finite: the one reading of data arrays, checked against numpy itself."""
 
+import math
+
 import numpy as np
 import pytest
 from numpy.testing import assert_array_equal
 
-from lenswork import InputError
-from lenswork._validation import check_array, check_finite
+from lenswork import InputError, ParameterError
+from lenswork._validation import check_array, check_finite, check_float, check_float_or_choice
 
 
 def test_values_and_layout_match_numpy():
@@ -58,3 +60,18 @@ def test_first_bad_entry_is_named_in_row_major_order():
         check_finite(X, "f")
     check_finite(X[:2], "f")  # finite rows pass
     assert check_array(X, "f", finite=False).shape == (5, 4)
+
+
+@pytest.mark.parametrize("value", [float("inf"), "inf", -math.inf])
+def test_check_float_refuses_infinity(value):
+    # check_float promises a finite float (its docstring); an unbounded side of the
+    # interval does not admit infinity itself (common practice: [0, inf) excludes inf).
+    with pytest.raises(ParameterError, match="must be a float in"):
+        check_float("width", value, lo=0, context="a test")
+
+
+def test_float_or_choice_maps_infinity_to_its_text_choice():
+    # Eccentricity's p accepts 'inf'; the float infinity means the same choice.
+    assert check_float_or_choice("p", math.inf, ("inf",), lo=1.0, lo_open=False) == "inf"
+    with pytest.raises(ParameterError, match="'bandwidth'"):
+        check_float_or_choice("bandwidth", math.inf, ("scott",), lo=0.0)

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from ._errors import LensworkError
 
-__all__ = ["data_frame"]
+__all__ = ["data_frame", "records_frame"]
 
 
 def data_frame(columns, index=None, *, what="this result"):
@@ -32,3 +32,38 @@ def data_frame(columns, index=None, *, what="this result"):
             f"Install it with 'pip install pandas'."
         ) from None
     return pd.DataFrame(dict(columns), index=None if index is None else pd.Index(index))
+
+
+def records_frame(records, *, what="this result", columns=None):
+    """A pandas DataFrame with one row per record (dict), nested values as JSON text.
+
+    The columns are the keys of the first record, in order (or ``columns``);
+    a dict, list or tuple value becomes its JSON text (as the JSON writers
+    write it, keys in their order), so every cell is a scalar. This is the shape of a
+    result's CSV or of a list in its JSON file.
+
+    Parameters
+    ----------
+    records : sequence of dict
+    what : str
+        What is being converted, for the error message when pandas is missing.
+    columns : sequence of str, optional
+        Column names (default: the first record's keys); needed for no records.
+
+    Examples
+    --------
+    >>> frame = records_frame([{"a": 1, "b": {"x": 2}}, {"a": 3, "b": [1, 2]}])
+    >>> frame.shape, frame["b"].tolist()
+    ((2, 2), ['{"x": 2}', '[1, 2]'])
+    """
+    from ._json import dumps
+
+    records = list(records)
+    names = list(columns if columns is not None else (records[0] if records else ()))
+
+    def cell(value):
+        if isinstance(value, (dict, list, tuple)):
+            return dumps(value, indent=None)
+        return value
+
+    return data_frame({name: [cell(r.get(name)) for r in records] for name in names}, what=what)

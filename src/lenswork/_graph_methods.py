@@ -9,6 +9,14 @@ is a free function over the graph). ``graph.write_graphml(path)`` and
 ``plot`` methods of StabilityMap, BootstrapResult and ViewComparison: the
 result objects never import :mod:`lenswork.plot`; matplotlib is imported on
 the first call.
+
+Notebook and ecosystem methods attached here too: ``LensGraph.to_frame``
+(:func:`lenswork.graph._tables.graph_frame`), ``LensGraph.to_networkx``
+(:func:`lenswork.graph._networkx.to_networkx`), ``LensGraph._repr_html_``
+(:func:`lenswork.graph._svg.graph_html`: a summary table and an inline SVG
+drawing) and ``_repr_png_`` of StabilityMap, BootstrapResult and
+ViewComparison (their ``plot()`` figure rendered to PNG bytes by matplotlib's
+Agg canvas). pandas, networkx and matplotlib are imported on the first call.
 """
 
 from __future__ import annotations
@@ -16,6 +24,9 @@ from __future__ import annotations
 from .bootstrap import BootstrapResult
 from .compare import ViewComparison
 from .graph import LensGraph, write_graph_json, write_graphml, write_memberships
+from .graph._networkx import to_networkx
+from .graph._svg import graph_html
+from .graph._tables import graph_frame
 from .probe import StabilityMap
 
 __all__: list[str] = []
@@ -43,10 +54,53 @@ def _draw(self, path=None, **kwargs):
     return draw_graph(self, path=path, **kwargs)
 
 
+def _to_frame(self, what="nodes"):
+    """The nodes (or edges) as a pandas DataFrame with the GraphML attributes as columns.
+
+    Parameters
+    ----------
+    what : {"nodes", "edges"}, default="nodes"
+        ``"nodes"``: index ``node``; ``size``, ``element``, ``level`` and
+        ``<column>_mean`` / ``_min`` / ``_max`` for every lens and data column.
+        ``"edges"``: index ``edge``; ``source``, ``target``, ``shared``,
+        ``jaccard``. The names and text forms of :meth:`write_graphml`.
+
+    Returns
+    -------
+    pandas.DataFrame
+
+    Raises
+    ------
+    LensworkError
+        pandas is not installed.
+    ParameterError
+        ``what`` is neither "nodes" nor "edges".
+    """
+    return graph_frame(self, what)
+
+
+def _to_networkx(self):
+    """The graph as a ``networkx.Graph`` with the node, edge and graph attributes of its GraphML.
+
+    Nodes ``0 .. n_nodes - 1``; equal to ``networkx.read_graphml`` of
+    :meth:`write_graphml`'s file with the nodes ``n<i>`` renamed ``i``. Needs
+    networkx (a clear error when it is missing).
+    """
+    return to_networkx(self)
+
+
+def _graph_repr_html(self):
+    """Summary table and a small inline SVG drawing, for notebooks."""
+    return graph_html(self)
+
+
 LensGraph.write_graphml = _write_graphml
 LensGraph.write_json = _write_json
 LensGraph.write_memberships = _write_memberships
 LensGraph.draw = _draw
+LensGraph.to_frame = _to_frame
+LensGraph.to_networkx = _to_networkx
+LensGraph._repr_html_ = _graph_repr_html
 
 
 def _stability_plot(self, paths=None, features=None):
@@ -82,3 +136,15 @@ def _comparison_plot(self, paths=None):
 StabilityMap.plot = _stability_plot
 BootstrapResult.plot = _bootstrap_plot
 ViewComparison.plot = _comparison_plot
+
+
+def _png(self):
+    """The ``plot()`` figure as PNG bytes (a notebook shows it); matplotlib's Agg canvas."""
+    from .plot._style import png_bytes
+
+    return png_bytes(self.plot())
+
+
+StabilityMap._repr_png_ = _png
+BootstrapResult._repr_png_ = _png
+ViewComparison._repr_png_ = _png

@@ -18,7 +18,10 @@ What the printing reporter writes to stderr:
   the count (``3/10``), the rate (``4.2/s``) and the time left; otherwise
   (forced on, e.g. into a log file) a line every ``interval`` seconds and a
   closing line with the count, rate and time. Inside a loop the bar is the
-  one line: steps and loops nested in it run unreported.
+  one line: steps and loops nested in it run unreported;
+* anything else written to the same stream (the CLI's warnings) calls
+  :func:`interrupt` first, which ends a step's open ``label ...`` line or the
+  loop's bar line, so the message gets a line of its own.
 
 Examples
 --------
@@ -46,7 +49,10 @@ import os
 import sys
 import time
 
-__all__ = ["ENV_VAR", "configure", "progress_wanted", "restore", "set_reporter", "step", "track"]
+__all__ = [
+    "ENV_VAR", "configure", "interrupt", "progress_wanted", "restore", "set_reporter", "step",
+    "track",
+]
 
 #: Environment variable that forces progress on (1, yes, on, always) or off (0, no, off, never).
 ENV_VAR = "LENSWORK_PROGRESS"
@@ -56,6 +62,9 @@ _OFF = {"0", "no", "off", "false", "never"}
 
 
 class _Silent:
+    def interrupt(self):
+        pass
+
     def step(self, label):
         return contextlib.nullcontext()
 
@@ -128,6 +137,13 @@ class _Printing:
         if self._open is not None:
             self._write("\n")
             self._open = None
+
+    def interrupt(self):
+        """End the line on screen (an open step or a live bar) before an outside message."""
+        if self._open is not None:
+            self._end_open_line()
+        elif self._loops and self.live:
+            self._write("\n")  # the bar redraws itself on the next line
 
     @contextlib.contextmanager
     def step(self, label):
@@ -268,6 +284,27 @@ def progress_wanted(*, quiet=False, force=None, stream=None):
 def configure(*, quiet=False, force=None, stream=None):
     """Install the reporter :func:`progress_wanted` asks for; returns the previous one."""
     return set_reporter(progress_wanted(quiet=quiet, force=force, stream=stream), stream)
+
+
+def interrupt():
+    """End the progress line on screen, if any, before a message is written to stderr.
+
+    A no-op when reporting is off. The CLI calls it before every warning, so a
+    warning raised inside a step never lands on the step's ``label ...`` line.
+
+    Examples
+    --------
+    >>> import io
+    >>> out = io.StringIO()
+    >>> previous = set_reporter(True, out)
+    >>> with step("reading"):
+    ...     interrupt()
+    ...     _ = out.write("Warning: a message\\n")
+    >>> restore(previous)
+    >>> [line.split(" ... ")[0] for line in out.getvalue().splitlines()]
+    ['  reading ...', 'Warning: a message', '  reading']
+    """
+    _reporter.interrupt()
 
 
 def step(label):

@@ -80,7 +80,7 @@ def check_float(name, value, *, lo=None, hi=None, lo_open=False, hi_open=False, 
     if isinstance(value, bool) or not isinstance(value, numbers.Real):
         _fail(name, context, expected, value)
     value = float(value)
-    bad = math.isnan(value)
+    bad = not math.isfinite(value)
     if lo is not None:
         bad |= value <= lo if lo_open else value < lo
     if hi is not None:
@@ -143,6 +143,8 @@ def check_float_or_choice(name, value, choices, *, lo=None, lo_open=True, contex
     choices = tuple(choices)
     if isinstance(value, str) and value.strip().lower() in choices:
         return value.strip().lower()
+    if "inf" in choices and isinstance(value, numbers.Real) and value == math.inf:
+        return "inf"  # float('inf') where the text 'inf' is a valid choice
     try:
         return check_float(name, value, lo=lo, lo_open=lo_open, context=context)
     except ParameterError:

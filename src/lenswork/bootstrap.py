@@ -528,6 +528,26 @@ class BootstrapResult:
         return (f"BootstrapResult({self.resamples} resamples of {self.lens_label}, "
                 f"loops: {mode} in {share:.0%})")
 
+    def to_frame(self, what="resamples"):
+        """A pandas DataFrame: one row per resample, or per feature type.
+
+        ``what="resamples"``: ``resample`` (1-based), ``rows`` and every feature
+        count, the columns of ``bootstrap.csv``. ``what="features"``: the
+        ``features`` list of ``bootstrap.json`` (``distribution`` as JSON text).
+        Needs pandas (a clear error without it).
+        """
+        from ._frame import records_frame
+        from ._validation import check_choice
+
+        if check_choice("what", what, ("resamples", "features"),
+                        context="BootstrapResult.to_frame") == "features":
+            return records_frame(self.to_dict()["features"], what="a BootstrapResult")
+        rows = [{"resample": b + 1, "rows": int(self.sizes[b]),
+                 **{f: int(self.counts[f][b]) for f in self.features}}
+                for b in range(self.resamples)]
+        return records_frame(rows, what="a BootstrapResult",
+                             columns=["resample", "rows", *self.features])
+
 
 def _draw(rng, n, scheme, fraction, minimum):
     if scheme == "subsample":

@@ -742,6 +742,19 @@ class ViewComparison:
         return (f"ViewComparison({len(self.names)} views, {self.partition} partition, "
                 f"ARI[{p['a']}, {p['b']}] = {p['ari']:.3f})")
 
+    def to_frame(self, what="pairs"):
+        """A pandas DataFrame: one row per pair of views, or per view.
+
+        The ``pairs`` (or ``views``) list of ``comparison.json``, one column per
+        key; lists and dicts (``only_a``, ``only_b``, ``params``,
+        ``graph_settings``) as JSON text. Needs pandas (a clear error without it).
+        """
+        from ._frame import records_frame
+        from ._validation import check_choice
+
+        what = check_choice("what", what, ("pairs", "views"), context="ViewComparison.to_frame")
+        return records_frame(self.to_dict()[what], what="a ViewComparison")
+
 
 def _view_name(view):
     """A name for a view from what it is built from (None when nothing names it)."""

@@ -68,6 +68,7 @@ from ._io import write_text
 from ._json import dumps
 from ._validation import check_choice, check_float, check_int
 from ._version import __version__
+from .data import MISSING_TEXT as DATA_MISSING_TEXT
 from .data import PointCloud
 from .graph import GraphFeature, LensGraph
 
@@ -222,8 +223,8 @@ def circular_rank_correlation(angle, x):
 
 
 # ---------------------------------------------------------------- columns
-#: Text cells read as missing (the tokens lenswork.data reads as missing in a table, and "nan").
-MISSING_TEXT = frozenset({"", "na", "n/a", "null", "none", "#n/a", "nan"})
+#: Text cells read as missing: the tokens lenswork.data reads as missing in a table, and "nan".
+MISSING_TEXT = DATA_MISSING_TEXT | {"nan"}
 
 
 def _is_missing(value):

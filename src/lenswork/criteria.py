@@ -23,7 +23,9 @@ by default, on the ranks of the lens ``(rank - 1/2) / n``: the cover is laid
 on ranks by default, so the ordering is what the graph uses; on ranks the
 score is the same for every monotone transform of the lens, as Spearman's
 rho in the redundancy check. ``smoothness = 1 - min(L_r, 1)`` turns it into a
-score in [0, 1], higher better (0 for noise).
+score in [0, 1], higher better; a score no better than a random ordering of
+the values at two standard errors (:func:`laplacian_null_sd`, the permutation
+null of Cliff and Ord 1981) gives 0, so a lens of noise gets exactly 0.
 
 Robust spread
 -------------
@@ -56,14 +58,14 @@ measures how many of each row's data neighbours stay its neighbours there
 (``R_NX``, Lee and Verleysen 2009), the pair-level analogue of the Laplacian
 score.
 
-A merit proposal
-----------------
-:func:`proposed_merit` combines, per lens, robust spread, smoothness and a
-significance-based structure score
-(``lenswork.graph._persistence.structure_significance``) by a geometric mean.
-Measured in tests/benchmarks/bench_judgement.py: the single-lens ranking by
-this merit, and the pair with the largest ``R_NX(pair) * sqrt(merit_i
-merit_j)`` under the redundancy ceiling.
+The screen's merit
+------------------
+The screen (:mod:`lenswork.screen`) ranks candidates by the geometric mean of
+robust spread, smoothness and the probe's significance-based structure score
+(:func:`lenswork.probe.structure_scores`), :func:`proposed_merit` with equal
+weights, and picks the pair with the largest ``R_NX(pair) * sqrt(merit_i
+merit_j)`` under the redundancy ceiling (``lenswork.screen._select`` says
+why). Measured in tests/benchmarks/bench_judgement.py.
 
 References
 ----------
@@ -92,12 +94,15 @@ __all__ = [
     "RobustSpread",
     "TAIL",
     "heat_kernel_affinity",
+    "laplacian_null_sd",
     "laplacian_score",
     "neighbour_jitter",
     "neighbour_preservation",
     "proposed_merit",
     "robust_spread",
+    "robust_spread_sorted",
     "smoothness",
+    "unit_rank_criteria",
 ]
 
 #: Share of the most extreme rows whose part of the second moment is ``tail_share``.
@@ -264,20 +269,74 @@ def neighbour_jitter(values, affinity, *, scale="rank"):
     return math.sqrt(d2) / span
 
 
-def smoothness(score):
+def smoothness(score, *, null_sd=0.0):
     """``1 - min(L_r, 1)``: a Laplacian score as a [0, 1] score, higher better (NaN -> 0).
 
     A lens unrelated to the geometry has ``L_r`` about 1 and gets 0; one constant
     on every component of the graph gets 1.
 
+    Parameters
+    ----------
+    score : float or array-like
+        Laplacian scores ``L_r``.
+    null_sd : float, default=0.0
+        Standard deviation of ``1 - L_r`` for values unrelated to the graph
+        (:func:`laplacian_null_sd`). A score with ``1 - L_r <= 2 null_sd`` (no
+        smoother than chance at two standard errors, common practice) gives 0:
+        the sampling wobble of a noise lens must not count as smoothness.
+
     Examples
     --------
     >>> smoothness(np.array([0.1, 1.3, np.nan])).round(2).tolist()
     [0.9, 0.0, 0.0]
+    >>> smoothness(np.array([0.1, 0.97]), null_sd=0.02).round(2).tolist()
+    [0.9, 0.0]
     """
     s = np.asarray(score, dtype=np.float64)
     out = 1.0 - np.clip(np.nan_to_num(s, nan=1.0), 0.0, 1.0)
+    null_sd = check_float("null_sd", null_sd, lo=0, context="smoothness")
+    out = np.where(out > 2.0 * null_sd, out, 0.0)
     return float(out) if out.ndim == 0 else out
+
+
+def laplacian_null_sd(affinity):
+    """Standard deviation of ``1 - L_r`` when the values are unrelated to the graph.
+
+    Parameters
+    ----------
+    affinity : sparse or dense matrix of shape (n_samples, n_samples)
+        Symmetric non-negative weights without diagonal.
+
+    Returns
+    -------
+    float
+        ``sqrt(2 sum_ij S_ij^2) / sum_ij S_ij``.
+
+    Notes
+    -----
+    ``1 - L_r = f~^T S f~ / f~^T D f~``. For values exchangeable over the rows
+    (a random ordering of any lens: the permutation null of Moran's I and
+    Geary's c, Cliff and Ord, "Spatial Processes", 1981) the numerator
+    ``sum_(i != j) S_ij f~_i f~_j`` has mean about 0 and variance about
+    ``2 v^2 sum_ij S_ij^2`` (v the variance of the values; each pair enters
+    twice), the denominator is about ``v sum_ij S_ij``; the leading term of
+    Cliff and Ord's randomisation variance, exact up to O(1/n).
+
+    Examples
+    --------
+    >>> rng = np.random.default_rng(0)
+    >>> X = rng.normal(size=(2000, 3))
+    >>> S = heat_kernel_affinity(X, k=10)
+    >>> sd = laplacian_null_sd(S)
+    >>> draws = 1 - laplacian_score(rng.normal(size=(2000, 200)), S)
+    >>> bool(0.8 < draws.std() / sd < 1.2), bool(abs(draws.mean()) < sd)
+    (True, True)
+    """
+    S = sp.csr_matrix(affinity, dtype=np.float64)
+    total = float(S.sum())
+    if total <= 0:
+        return 0.0
+    return math.sqrt(2.0 * float(S.multiply(S).sum())) / total
 
 
 @dataclass(frozen=True)
@@ -351,23 +410,113 @@ def robust_spread(values, *, tail=TAIL):
         )
     tail = check_float("tail", tail, lo=0, hi=1, lo_open=True, hi_open=True,
                        context="robust_spread")
-    n = v.size
-    s = np.sort(v)
-    new = np.r_[True, s[1:] != s[:-1]]
-    counts = np.diff(np.r_[np.flatnonzero(new), n])
-    largest = int(counts.max())
+    return robust_spread_sorted(np.sort(v), tail=tail)
+
+
+def robust_spread_sorted(s, counts=None, *, tail=TAIL):
+    """:func:`robust_spread` of a column from its sorted values (and tie-group sizes), O(n).
+
+    Parameters
+    ----------
+    s : ndarray of shape (n_samples,)
+        The finite values, sorted ascending.
+    counts : ndarray of int, optional
+        Sizes of the groups of equal values in ``s`` (computed when omitted).
+    tail : float in (0, 1), default=0.01
+
+    Returns
+    -------
+    RobustSpread
+
+    Notes
+    -----
+    The most extreme ``ceil(tail n)`` squared deviations from the median lie
+    among the ``ceil(tail n)`` smallest and largest values, so one merge of
+    the two ends replaces a second sort (the screen's one sort per column).
+
+    Examples
+    --------
+    >>> round(robust_spread_sorted(np.arange(100.0)).robust_spread, 3)   # top 1 of 100 rows
+    0.971
+    """
+    s = np.asarray(s, dtype=np.float64)
+    n = s.size
+    if counts is None:
+        new = np.r_[True, s[1:] != s[:-1]]
+        counts = np.diff(np.r_[np.flatnonzero(new), n])
+    largest = int(np.max(counts))
     largest_tie = largest / n if largest > 1 else 0.0
-    dev = np.sort((v - np.median(v)) ** 2)
+    med = float(np.median(s)) if n % 2 else 0.5 * float(s[n // 2 - 1] + s[n // 2])
+    dev = (s - med) ** 2
     total = float(dev.sum())
     if total <= 0:
         return RobustSpread(0.0, float(largest_tie), 1.0)
-    top = max(1, math.ceil(tail * n))
-    share = float(dev[-top:].sum()) / total
+    top = min(n, max(1, math.ceil(tail * n)))
+    ends = np.r_[dev[:top], dev[max(top, n - top):]]
+    share = float(np.sort(ends)[-top:].sum()) / total
     return RobustSpread((1.0 - largest_tie) * (1.0 - share), float(largest_tie), share)
 
 
+def unit_rank_criteria(Z, affinity):
+    """Laplacian score and neighbour jitter of many columns from centred rank rows, at once.
+
+    Parameters
+    ----------
+    Z : ndarray of shape (m, n_samples)
+        One row per lens column: any affine image of its average ranks (the
+        screen's centred unit rank rows); rows holding NaN are skipped.
+    affinity : sparse matrix of shape (n_samples, n_samples)
+        Symmetric non-negative weights (:func:`heat_kernel_affinity`).
+
+    Returns
+    -------
+    (ndarray, ndarray) of shape (m,)
+        ``L_r`` on the rank scale (:func:`laplacian_score`) and the jitter
+        ``delta`` (:func:`neighbour_jitter`), NaN for skipped rows. Both are
+        invariant under ``f -> a f + b``, so the screen's rank rows give the
+        values of the ranks themselves.
+
+    Notes
+    -----
+    One sparse product ``S Z^T``: O(nnz(S) m).
+
+    Examples
+    --------
+    >>> x = np.linspace(0, 1, 200)
+    >>> S = heat_kernel_affinity(x[:, None], k=5)
+    >>> Lr, delta = unit_rank_criteria(x[None, :] - 0.5, S)
+    >>> bool(np.isclose(Lr[0], laplacian_score(x, S))), bool(np.isclose(delta[0],
+    ...     neighbour_jitter(x, S)))
+    (True, True)
+    """
+    Z = np.asarray(Z, dtype=np.float64)
+    S = sp.csr_matrix(affinity, dtype=np.float64)
+    m = Z.shape[0]
+    Lr = np.full(m, np.nan)
+    delta = np.full(m, np.nan)
+    ok = np.flatnonzero(np.isfinite(Z).all(axis=1))
+    if not ok.size:
+        return Lr, delta
+    d = np.asarray(S.sum(axis=1)).ravel()
+    total = float(d.sum())
+    F = Z[ok]
+    if total > 0:
+        F = F - (F @ d)[:, None] / total
+    SF = (S @ F.T).T
+    den = np.einsum("ij,ij->i", F * d, F)
+    num = den - np.einsum("ij,ij->i", F, SF)
+    span = F.max(axis=1) - F.min(axis=1)
+    good = (den > 0) & (span > 0)
+    Lr[ok[good]] = np.maximum(0.0, num[good] / den[good])
+    jit = np.zeros(ok.size)
+    if total > 0:
+        jit[good] = np.sqrt(np.maximum(0.0, 2.0 * num[good]) / total) / span[good]
+    delta[ok] = jit
+    return Lr, delta
+
+
 def proposed_merit(spread, smooth, structure):
-    """Proposed merit of lens candidates: the geometric mean of three [0, 1] scores.
+    """The screen's default merit: the geometric mean of three [0, 1] scores.
 
     Parameters
     ----------
@@ -376,8 +525,8 @@ def proposed_merit(spread, smooth, structure):
     smooth : array-like of shape (m,)
         :func:`smoothness` of the Laplacian score (the lens follows the neighbours).
     structure : array-like of shape (m,)
-        A significance-based structure score
-        (``lenswork.graph._persistence.structure_significance``).
+        A significance-based structure score (:func:`lenswork.probe.structure_scores`,
+        or ``lenswork.graph._persistence.structure_significance`` of given diagrams).
 
     Returns
     -------
@@ -390,9 +539,9 @@ def proposed_merit(spread, smooth, structure):
     ignores the neighbour graph, or one whose graph shows nothing beyond the
     cover's resolution is a poor lens however good the others are. A geometric
     mean makes the merit vanish when any one does, and with equal weights a
-    fixed relative change of any score changes the merit alike (the form of the
-    screen's own merit, a weighted geometric mean; equal weights for want of
-    evidence for others).
+    fixed relative change of any score changes the merit alike (the screen's
+    merit is this weighted geometric mean; equal weights for want of evidence
+    for others).
 
     Examples
     --------
@@ -438,7 +587,7 @@ def neighbour_preservation(columns, neighbors, *, scale="log-auc"):
     element) and linked in the data; when the lenses scatter data neighbours
     over the cover space, nodes split and merge rows that the data do not
     join. Cost: one k-d tree query in the m-dimensional rank space,
-    O(n K log n), and an (n, K, K) comparison in blocks.
+    O(n K log n), and a sort of each row's 2K neighbours, O(n K log K).
 
     Examples
     --------
@@ -474,12 +623,17 @@ def neighbour_preservation(columns, neighbors, *, scale="log-auc"):
     keep = np.ones_like(found, dtype=bool)
     keep[np.arange(n), drop] = False
     found = found[keep].reshape(n, K)
-    # a common neighbour at lens rank a and data rank b counts in Q_NX(k) for k >= max(a, b)
+    # a common neighbour at lens rank a and data rank b counts in Q_NX(k) for k >= max(a, b):
+    # sort each row's two lists together; a common neighbour is a pair of equal neighbours
     hist = np.zeros(K + 1, dtype=np.int64)
-    for start in range(0, n, 2048):
-        a, b = found[start:start + 2048], ind[start:start + 2048]
-        _, ra, rb = np.nonzero(a[:, :, None] == b[:, None, :])
-        hist += np.bincount(np.maximum(ra, rb) + 1, minlength=K + 1)
+    rank = np.tile(np.arange(K), 2)
+    for start in range(0, n, 8192):
+        both = np.concatenate([found[start:start + 8192], ind[start:start + 8192]], axis=1)
+        order = np.argsort(both, axis=1, kind="stable")
+        srt = np.take_along_axis(both, order, axis=1)
+        pos = rank[order]
+        same = srt[:, 1:] == srt[:, :-1]
+        hist += np.bincount(np.maximum(pos[:, 1:], pos[:, :-1])[same] + 1, minlength=K + 1)
     k = np.arange(1, K + 1)
     q = np.cumsum(hist[1:]) / (n * k)
     r = ((n - 1) * q - k) / (n - 1 - k)

@@ -1,8 +1,8 @@
-"""The structure probe: what graph structure a lens reveals, and how stable it is.
+"""The structure probe: what graph structure a lens reveals, and how significant it is.
 
 A lens is worth covering when its Mapper graph (Mapper, 2007) shows
-structure (loops, branch points, flares, components beyond the data's own)
-and when that structure does not hinge on the exact cover. The probe builds
+structure (loops and branches that span much of the lens's range) and when
+that structure does not hinge on the exact cover. The probe builds
 the graph of each lens over a small grid of cover settings (interval counts x
 overlaps) with :func:`lenswork.build_graph`, on the one shared neighbour graph
 of the workspace, and reads the feature counts of each graph's summary.
@@ -16,41 +16,63 @@ components of the data itself: the components of the graph built with a
 single interval (the cover is the whole range, so only the clustering step
 acts; same clusterer, cut-off and minimum size).
 
+Significance of one graph
+-------------------------
+Each graph of one lens also gets the extended persistence diagram of the lens
+on it (``lenswork.graph._persistence.lens_persistence``; Carrière and Oudot,
+"Structure and stability of the one-dimensional Mapper", FoCM 2018): every
+loop and branch is a pair of lens levels, and its *significance* is the share
+of the lens range it spans. A feature is *significant* when it spans more than
+the cover can make on its own, ``2 (L + delta)`` (interval length ``L``, the
+lens's neighbour jitter ``delta``; see ``lenswork.graph._persistence``). The
+cell's total is ``T = sum w_kind * significance`` over the significant points
+(:data:`SIGNIFICANCE_WEIGHTS`: loops 1, branches 0.5): a tangle of short
+noise loops adds 0, one loop over the whole range adds 1.
+
 Scores of one lens over the grid
 --------------------------------
-For each feature type f (loops, flares, branch points, extra components)
-take over the p x q grid cells
+::
 
-* ``mode_f``: the most frequent count (ties go to the smaller count);
-* ``agree_f``: the share of cells whose count equals ``mode_f``.
+    significance = 1 - 2 ** -median(T over the cells)          in [0, 1)
+    coherence    = kept / (1 + mean extra components)           in [0, 1]
+    structure    = coherence * (floor + (1 - floor) * significance)
 
-Then, with feature weights ``w`` (default loops 1, flares 0.5, branch points
-0.25)::
+``kept`` is the mean share of rows in a node over the cells (an empty cell
+keeps none); the mean of the extra components is taken over the non-empty
+cells. The median keeps a feature that only some settings make significant
+from counting (stability over the cover settings). ``significance`` is 0.5
+for one loop over the whole range at most settings. Components beyond the
+data's own divide the score: when the data hang together at the clusterer's
+scale and a lens's graphs still fall apart, or drop rows into no node, the
+lens is not continuous along the data there (a lens of pure noise on a circle
+gives dozens of extra components and no loop). ``structure`` (higher is
+better) is the column the screen's merit uses; the floor (default 0.25) keeps
+a lens that reveals no feature but keeps the data whole from merit 0 in the
+screen's geometric mean, where it can still be the right second lens.
 
-    revealed   = 1 - 2 ** -(sum_f w_f mode_f)                  in [0, 1)
-    stability  = mean of agree_f over the four types            in (0, 1]
-    coherence  = (1 - empty share) / (1 + mean extra components) in [0, 1]
-    structure  = floor + (1 - floor) * revealed * stability * coherence
+The feature counts of the earlier probe stay in the table as diagnoses. For
+``f`` in loops, flares, branch points, extra components: ``mode_f``, the most
+frequent count over the grid (ties to the smaller) and ``agree_f``, the share
+of cells with that count; ``significant_loops`` and ``significant_branches``
+are the most frequent significant counts. With feature weights ``w`` (loops 1,
+flares 0.5, branch points 0.25)::
 
-``revealed`` is 0 for a lens whose graph is a plain path at most settings,
-0.5 for one stable loop, 0.75 for one loop and two flares (1 + 2 x 0.5).
-``stability`` is 1 when every cell agrees on every count.
+    revealed        = 1 - 2 ** -(sum_f w_f mode_f)
+    stability       = mean of agree_f over the four types
+    count_structure = floor + (1 - floor) * revealed * stability
+                      * (1 - empty share) / (1 + mean extra components)
 
-Components beyond the data's own are counted and reported, but they divide
-the score rather than add to it: when the data hang together at the
-clusterer's scale and a lens's graphs still fall apart, the lens is not
-continuous along the data there (a lens of pure noise on a circle gives
-dozens of extra components and no loop). A cell where no cover element
-holds a group of ``min_size`` rows has an *empty* graph (every count 0, every
-row unassigned); the share of empty cells lowers ``coherence`` too. The mean
-of the extra components is taken over the non-empty cells (a mean, not the
-mode: a lens that falls apart differently at every setting has no typical
-count, but on average many pieces).
+``count_structure`` is the score the screen used before significance (it
+rewards counts, so noise loops raise it): kept for comparison only.
 
-``structure`` (higher is better, in [floor, 1)) is the column meant for the
-screen's merit: the floor (default 0.25) keeps a lens that reveals nothing
-from getting merit 0 in the screen's geometric mean, where it could still be
-the right second lens.
+The grid
+--------
+The default overlaps are 0.25 and 0.4; the interval counts are 6, 10 and 14,
+each capped by :func:`probe_intervals` at the finest count whose average
+cover element can hold two groups of ``min_size`` rows (every loop or branch
+passes through an element with two nodes). On 150 rows with ``min_size`` 10
+that gives (6, 9), from about 300 rows on the full grid; a data-dependent
+``min_size`` (``"auto"``) is resolved for the number of rows first.
 
 Stability map
 -------------
@@ -72,6 +94,8 @@ References
 ----------
 .. [1] M. Carriere, B. Michel and S. Oudot, "Statistical analysis and
    parameter selection for Mapper", JMLR 19, 2018.
+.. [2] M. Carriere and S. Oudot, "Structure and stability of the
+   one-dimensional Mapper", Foundations of Computational Mathematics 18, 2018.
 """
 
 from __future__ import annotations
@@ -90,14 +114,17 @@ from ._io import write_text
 from ._json import dumps
 from ._validation import check_float, check_int
 from ._version import __version__
+from .criteria import heat_kernel_affinity, neighbour_jitter
 from .graph._features import (
     FEATURES,
     as_workspace,
     build_counts,
+    empty_counts,
     feature_counts,
     lens_label,
     quiet_build,
 )
+from .graph._persistence import lens_persistence
 from .graph._settings import GraphSettings, grid_settings
 from .table import as_lens_table
 
@@ -108,6 +135,7 @@ __all__ = [
     "StructureProbe",
     "default_cell_setting",
     "feature_counts",
+    "probe_intervals",
     "stability_map",
     "structure_scores",
 ]
@@ -116,9 +144,13 @@ __all__ = [
 FEATURE_WEIGHTS = {"loops": 1.0, "flares": 0.5, "branch_points": 0.25}
 #: Feature types whose agreement over the grid enters ``stability``.
 SCORED_FEATURES = ("loops", "flares", "branch_points", "extra_components")
-#: The probe's small default grid (cheap enough for the screen).
+#: The probe's small default grid (cheap enough for the screen); the interval counts are
+#: capped by :func:`probe_intervals` on small data.
 PROBE_INTERVALS = (6, 10, 14)
 PROBE_OVERLAPS = (0.25, 0.4)
+#: Weights of the diagram point kinds in the significance total ``T`` (a loop counts as
+#: much as two branches, as ``FEATURE_WEIGHTS`` weighs loops against flares).
+SIGNIFICANCE_WEIGHTS = {"loop": 1.0, "down": 0.5, "up": 0.5}
 #: The stability map's default grid.
 MAP_INTERVALS = (4, 6, 8, 10, 12, 14, 16, 20)
 MAP_OVERLAPS = (0.1, 0.2, 0.3, 0.4, 0.5)
@@ -148,23 +180,95 @@ def _check_grid(intervals, overlaps, context):
     return tuple(sorted(set(iv))), tuple(sorted(set(ov)))
 
 
+def interval_length(intervals, overlap):
+    """Length of one interval of an ``intervals``-interval cover of [0, 1] with this overlap.
+
+    ``L = 1 / (1 + (N - 1)(1 - p))``: N intervals of length L, consecutive ones
+    ``L (1 - p)`` apart, span the range.
+
+    Examples
+    --------
+    >>> round(interval_length(10, 0.3), 4)
+    0.137
+    """
+    return 1.0 / (1.0 + (intervals - 1) * (1.0 - overlap))
+
+
+def probe_intervals(n_rows, min_size, overlap, columns=1, intervals=PROBE_INTERVALS):
+    """The interval counts the data afford: ``intervals`` capped at ``N_max(n, min_size, d)``.
+
+    Parameters
+    ----------
+    n_rows : int
+    min_size : int
+        The graph builder's minimum group size.
+    overlap : float
+        The smallest overlap of the grid (the shortest intervals).
+    columns : int, default=1
+        Lens columns of the cover (a product cover of ``d`` columns has ``N^d`` elements).
+    intervals : sequence of int, default=(6, 10, 14)
+        The counts to cap.
+
+    Returns
+    -------
+    tuple of int
+        ``sorted({min(N, N_max) for N in intervals})``, where ``N_max`` is the
+        largest count (at least 2) whose average cover element, ``n L^d`` rows
+        with ``L = interval_length(N, overlap)``, holds two groups of
+        ``min_size`` rows.
+
+    Notes
+    -----
+    Every loop or branch of a Mapper graph passes through a cover element with
+    two nodes, so an element that cannot hold two groups of ``min_size`` rows
+    cannot show a feature: it only drops rows into no node (on 150 rows with
+    14 intervals most rows end up there). The resolution idea is that of
+    Carrière, Michel and Oudot (JMLR 2018): the finest cover the sample
+    supports, here counted in rows per element on the rank scale. The count
+    grows like ``n^(1/d)`` and stops at the default grid's 14 for large data.
+
+    Examples
+    --------
+    >>> probe_intervals(150, 10, 0.25), probe_intervals(3000, 10, 0.25)
+    ((6, 9), (6, 10, 14))
+    """
+    n_rows = int(n_rows)
+    need = 2.0 * int(min_size)
+    best = 2
+    limit = max(intervals)
+    N = 2
+    while limit >= N and n_rows * interval_length(N, overlap) ** columns >= need:
+        best = N
+        N += 1
+    return tuple(sorted({min(int(v), best) for v in intervals}))
+
+
 def _graph_settings(settings, k, overrides):
     """GraphSettings from ``settings`` (object, dict or None), then ``k`` and the overrides."""
     return GraphSettings.coerce(settings, **overrides, k=k)
 
 
-def default_cell_setting(settings):
+def default_cell_setting(settings, n_rows=None, n_lenses=1):
     """The (intervals, overlap) grid cell the settings themselves stand for, or None.
 
     Interval cover: its interval count and overlap (when both are single
     values); ball cover: ``(1 / radius, overlap)`` when ``1 / radius`` is a
-    whole number (see :func:`lenswork.graph.grid_settings`).
+    whole number (see :func:`lenswork.graph.grid_settings`). A data-dependent
+    value (``"auto"``) is resolved for ``n_rows`` rows and ``n_lenses`` lens
+    columns first (None without ``n_rows``).
 
     Examples
     --------
-    >>> default_cell_setting(GraphSettings()), default_cell_setting(GraphSettings(cover="ball"))
+    >>> s = GraphSettings(intervals=10)
+    >>> default_cell_setting(s), default_cell_setting(GraphSettings(cover="ball"))
     ((10, 0.3), (10, 0.3))
     """
+    if n_rows is not None and any(isinstance(getattr(settings, f), str)
+                                  for f in ("intervals", "min_size")):
+        try:
+            settings = settings.resolve(int(n_rows), int(n_lenses))
+        except ParameterError:
+            return None
     if settings.cover_kind == "ball":
         if settings.centres is not None:
             return None
@@ -219,21 +323,47 @@ def _data_components(workspace, cols, settings):
     return workspace.cached(key, compute)
 
 
-def _grid_counts(cols, workspace, intervals, overlaps, settings, data_components, label):
-    """Feature counts of the graph at every (intervals, overlap) cell: dict -> (p, q) ints.
+def _grid_counts(cols, workspace, intervals, overlaps, settings, data_components, label,
+                 jitter=None):
+    """Feature counts of the graph at every (intervals, overlap) cell: dict -> (p, q) arrays.
 
     Each cell's settings come from :func:`lenswork.graph.grid_settings`, so the
-    grid sweeps whichever cover the settings hold.
+    grid sweeps whichever cover the settings hold. With ``jitter`` (one lens
+    column, interval cover) each cell's graph also gets its extended persistence
+    diagram (``lenswork.graph._persistence.lens_persistence``): the counts of significant
+    loops and branches and the significance total ``T`` of the module notes.
     """
     p, q = len(intervals), len(overlaps)
     keys = ("nodes", "edges", "unassigned", *FEATURES, "extra_components", "empty")
     out = {k: np.zeros((p, q), dtype=np.int64) for k in keys}
+    diagrams = jitter is not None and settings.cover_kind == "interval"
+    if diagrams:
+        for k in ("significant_loops", "significant_branches"):
+            out[k] = np.zeros((p, q), dtype=np.int64)
+        out["significance_total"] = np.zeros((p, q), dtype=np.float64)
     cells = [(i, j) for i in range(p) for j in range(q)]
     for i, j in _progress.track(cells, f"probe {label}", length=len(cells)):
         cell = grid_settings(settings, intervals[i], overlaps[j])
-        c = build_counts(cols, workspace, cell, data_components)
-        for k in keys:
-            out[k][i, j] = c[k]
+        if not diagrams:
+            c = build_counts(cols, workspace, cell, data_components)
+        else:
+            try:
+                g = quiet_build(cols, workspace, cell)
+            except ParameterError:  # no node at this cover: an empty cell
+                c = empty_counts(workspace.n)
+            else:
+                c = {**feature_counts(g, data_components), "empty": 0}
+                d = lens_persistence(g, jitter=jitter)
+                sig = d.significant
+                c["significant_loops"] = int(np.count_nonzero(sig & (d.kind == "loop")))
+                c["significant_branches"] = int(np.count_nonzero(
+                    sig & ((d.kind == "down") | (d.kind == "up"))))
+                out["significance_total"][i, j] = sum(
+                    w * float(d.significance[sig & (d.kind == kind)].sum())
+                    for kind, w in SIGNIFICANCE_WEIGHTS.items())
+        for k in out:
+            if k in c:
+                out[k][i, j] = c[k]
     return out
 
 
@@ -255,24 +385,36 @@ def _check_weights(weights):
     return out
 
 
-def _score(counts, weights, floor):
+def _score(counts, weights, floor, n_rows=None):
     """The scores of one lens from its grid of feature counts (see the module docstring)."""
     row = {}
     for f in SCORED_FEATURES:
         mode, share = _mode(counts[f])
         row[f] = mode
         row[f"{f}_agreement"] = share
+    for f in ("significant_loops", "significant_branches"):
+        row[f] = _mode(counts[f])[0] if f in counts else 0
     total = sum(w * row[f] for f, w in weights.items())
     revealed = 1.0 - 2.0 ** (-total)
     stability = float(np.mean([row[f"{f}_agreement"] for f in SCORED_FEATURES]))
     empty = np.asarray(counts["empty"], dtype=bool)
     extra = np.asarray(counts["extra_components"], dtype=np.float64)[~empty]
     mean_extra = float(extra.mean()) if extra.size else 0.0
-    coherence = (1.0 - float(empty.mean())) / (1.0 + mean_extra)
+    if n_rows:
+        kept = 1.0 - float(np.mean(np.asarray(counts["unassigned"]) / n_rows))
+    else:
+        kept = 1.0 - float(empty.mean())
+    coherence = kept / (1.0 + mean_extra)
+    T = float(np.median(counts["significance_total"])) if "significance_total" in counts \
+        else 0.0
+    significance = 1.0 - 2.0 ** (-T)
     row["revealed"] = revealed
     row["stability"] = stability
+    row["significance"] = significance
     row["coherence"] = coherence
-    row["structure"] = floor + (1.0 - floor) * revealed * stability * coherence
+    row["count_structure"] = floor + (1.0 - floor) * revealed * stability * (
+        (1.0 - float(empty.mean())) / (1.0 + mean_extra))
+    row["structure"] = coherence * (floor + (1.0 - floor) * significance)
     return row
 
 
@@ -280,7 +422,8 @@ def _score_keys():
     keys = []
     for f in SCORED_FEATURES:
         keys += [f, f"{f}_agreement"]
-    return [*keys, "revealed", "stability", "coherence", "structure"]
+    return [*keys, "significant_loops", "significant_branches", "revealed", "stability",
+            "significance", "coherence", "count_structure", "structure"]
 
 
 class StructureProbe(dict):
@@ -361,7 +504,7 @@ class StructureProbe(dict):
                 f"{len(self.overlaps)} grid, most structure: {best})")
 
 
-def structure_scores(lenses, workspace, *, settings=None, intervals=PROBE_INTERVALS,
+def structure_scores(lenses, workspace, *, settings=None, intervals=None,
                      overlaps=PROBE_OVERLAPS, k=None, weights=None, floor=0.25, **overrides):
     """Score the graph structure each lens column reveals over a small grid of covers.
 
@@ -371,8 +514,9 @@ def structure_scores(lenses, workspace, *, settings=None, intervals=PROBE_INTERV
         Candidate lens columns; each column is probed on its own (a 1-D cover).
     workspace : Workspace or array-like of shape (n_samples, n_features)
         Supplies the shared neighbour graph (computed once, used by every build).
-    intervals : sequence of int, default=(6, 10, 14)
-        Interval counts of the grid.
+    intervals : sequence of int, optional
+        Interval counts of the grid (default: (6, 10, 14) capped by
+        :func:`probe_intervals` for the number of rows and ``min_size``).
     overlaps : sequence of float in [0, 1), default=(0.25, 0.4)
         Overlaps of the grid.
     settings : GraphSettings or dict, optional
@@ -386,7 +530,8 @@ def structure_scores(lenses, workspace, *, settings=None, intervals=PROBE_INTERV
         Weights of ``loops``, ``flares`` and ``branch_points`` in ``revealed``
         (default :data:`FEATURE_WEIGHTS`).
     floor : float in [0, 1), default=0.25
-        Lowest ``structure`` score (a lens that reveals nothing).
+        ``structure`` of a lens that reveals no significant feature and keeps
+        the data whole (lower when its graphs drop rows or fall apart).
     **overrides
         Any :class:`~lenswork.GraphSettings` field (``scale``, ``clusterer``,
         ``cutoff``, ``min_size``, ``cover``...), applied to ``settings``.
@@ -397,8 +542,10 @@ def structure_scores(lenses, workspace, *, settings=None, intervals=PROBE_INTERV
         A dict: lens column name -> scores. Each scores dict holds, for
         ``f`` in loops, flares, branch_points, extra_components, ``f`` (its most
         frequent count over the grid) and ``f_agreement`` (the share of cells
-        with that count), then ``revealed``, ``stability``, ``coherence`` and
-        ``structure`` (see the module docstring for the formulas).
+        with that count), ``significant_loops``, ``significant_branches``, then
+        ``revealed``, ``stability``, ``significance``, ``coherence``,
+        ``count_structure`` and ``structure`` (see the module docstring for
+        the formulas).
         ``.columns(["structure"])`` gives arrays in input order for
         :meth:`ScreenResult.rescore`.
 
@@ -418,7 +565,9 @@ def structure_scores(lenses, workspace, *, settings=None, intervals=PROBE_INTERV
     Notes
     -----
     Cost: ``len(intervals) * len(overlaps) * m`` graph builds, each O(n k) on
-    the shared neighbour graph, plus one build for the data's own components.
+    the shared neighbour graph, plus one build for the data's own components,
+    and one extended persistence diagram per graph (milliseconds for graphs
+    of tens to hundreds of nodes).
 
     Examples
     --------
@@ -431,11 +580,15 @@ def structure_scores(lenses, workspace, *, settings=None, intervals=PROBE_INTERV
     >>> probe["x"]["loops"], probe["x"]["structure"] > probe["radius"]["structure"]
     (1, True)
     """
-    intervals, overlaps = _check_grid(intervals, overlaps, "structure_scores")
     weights = _check_weights(weights)
     floor = check_float("floor", floor, lo=0, hi=1, hi_open=True, context="structure_scores")
     settings = _graph_settings(settings, k, overrides)
     workspace = as_workspace(workspace)
+    if intervals is None:
+        _, overlaps = _check_grid(PROBE_INTERVALS, overlaps, "structure_scores")
+        intervals = probe_intervals(workspace.n, _min_size(settings, workspace.n),
+                                    min(overlaps))
+    intervals, overlaps = _check_grid(intervals, overlaps, "structure_scores")
     cols = as_lens_table(lenses, workspace, what="structure_scores", finite=False).columns
     good = [c for c in cols if np.isfinite(np.asarray(c.values)).all()]
     data_c = _data_components(workspace, good or cols, settings) if good else 0
@@ -448,14 +601,29 @@ def structure_scores(lenses, workspace, *, settings=None, intervals=PROBE_INTERV
             )
             scores[col.name] = {k: math.nan for k in _score_keys()}
             continue
-        grid = _grid_counts([col], workspace, intervals, overlaps, settings, data_c, col.name)
+        grid = _grid_counts([col], workspace, intervals, overlaps, settings, data_c, col.name,
+                            jitter=_jitter(col, workspace, settings))
         counts[col.name] = grid
-        scores[col.name] = _score(grid, weights, floor)
+        scores[col.name] = _score(grid, weights, floor, workspace.n)
     return StructureProbe(
         scores, names=[c.name for c in cols], intervals=intervals, overlaps=overlaps,
         counts=counts, data_components=data_c, weights=weights, floor=floor,
         settings=settings.to_dict(),
     )
+
+
+def _min_size(settings, n_rows):
+    """The settings' minimum group size for ``n_rows`` rows (a data-dependent value resolved)."""
+    if isinstance(settings.min_size, str):  # e.g. "auto": resolved by the graph settings' rule
+        return settings.replace(intervals=1, overlap=0.0).resolve(n_rows, 1).min_size
+    return settings.min_size
+
+
+def _jitter(col, workspace, settings):
+    """The lens's neighbour jitter on the cover scale (lenswork.criteria.neighbour_jitter)."""
+    k = min(settings.k, workspace.n - 1)
+    S = workspace.cached(("probe:heat_kernel", k), lambda: heat_kernel_affinity(workspace, k=k))
+    return neighbour_jitter(np.asarray(col.values, dtype=np.float64), S, scale=settings.scale)
 
 
 # --------------------------------------------------------------------------- stability map
@@ -588,6 +756,16 @@ class StabilityMap:
     # plot(paths=None, features=None) -- one heat map per feature type -- is attached by
     # lenswork._graph_methods (the plots live above this module).
 
+    def to_frame(self):
+        """The map as a pandas DataFrame, one row per grid cell: the columns of the CSV file.
+
+        ``intervals``, ``overlap`` and every count of :attr:`counts`, as
+        :meth:`to_csv_text` writes them. Needs pandas (a clear error without it).
+        """
+        from ._frame import records_frame
+
+        return records_frame(self.rows(), what="a StabilityMap")
+
 
 def stability_map(lens, workspace, *, settings=None, intervals=MAP_INTERVALS,
                   overlaps=MAP_OVERLAPS, k=None, **overrides):
@@ -644,6 +822,7 @@ def stability_map(lens, workspace, *, settings=None, intervals=MAP_INTERVALS,
     counts = _grid_counts(cols, workspace, intervals, overlaps, settings, data_c, label)
     return StabilityMap(
         lens=label, intervals=intervals, overlaps=overlaps, counts=counts, n_rows=workspace.n,
-        data_components=data_c, default=default_cell_setting(settings),
+        data_components=data_c,
+        default=default_cell_setting(settings, workspace.n, len(cols)),
         settings=settings.to_dict(),
     )

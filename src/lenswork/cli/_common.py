@@ -9,6 +9,7 @@ from pathlib import Path
 
 import click
 
+from .. import _progress
 from .._errors import LensworkError, LensworkWarning, ParameterError
 from ..graph import CUTOFF_WORDS, GraphSettings
 from ..workspace import METHODS
@@ -45,6 +46,7 @@ class LensworkGroup(click.Group):
 
 def _show_warning(message, category, filename, lineno, file=None, line=None):
     prefix = "Warning" if issubclass(category, LensworkWarning) else category.__name__
+    _progress.interrupt()  # a line of its own, never the end of a step's "label ..." line
     click.echo(f"{prefix}: {message}", err=True)
 
 

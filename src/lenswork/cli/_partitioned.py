@@ -51,15 +51,18 @@ def _session(scheduler, workers, memory_limit):
 
 
 def _computer(client, quiet):
-    """compute(list of delayed) on the client, with Dask's progress bar unless quiet."""
+    """compute(list of delayed) on the client, counting finished tasks on lenswork's progress."""
 
     def compute(items):
         futures = client.compute(items)
-        if not quiet:
-            from distributed import progress
+        if not quiet:  # one line on stderr, silent off a terminal unless asked (_progress)
+            from distributed import as_completed
 
-            progress(futures)
-            click.echo("", err=True)
+            from .. import _progress
+
+            for _ in _progress.track(as_completed(futures), "dask: partitions computed",
+                                     length=len(futures)):
+                pass
         return client.gather(futures)
 
     return compute

@@ -38,7 +38,11 @@ def _names(values):
 @click.option("--no-defaults", is_flag=True,
               help="Screen only the --lens candidates, not the default set.")
 @click.option("--bins", default=20, show_default=True, type=int,
-              help="Histogram bins of the spread score.")
+              help="Histogram bins of the histogram-entropy spread column (a diagnosis).")
+@click.option("--pairing", type=click.Choice(["preservation", "greedy"]), default="preservation",
+              show_default=True,
+              help="preservation: the pair (set) that best keeps each row's data neighbours "
+              "(R_NX) weighted by merit; greedy: merit x (1 - |rho|) one lens at a time.")
 @click.option("--lens-format", type=click.Choice(FORMATS), default="csv", show_default=True,
               help="File format of the chosen lens columns.")
 @click.option("--neighbors", "neighbor_method",
@@ -46,20 +50,23 @@ def _names(values):
               show_default=True, help="Neighbour-graph back end.")
 @click.option("--no-figures", is_flag=True, help="Skip the figure sheet (PNG and SVG).")
 @click.option("--no-probe", is_flag=True,
-              help="Rank by spread alone: skip the structure probe (graphs over a cover grid).")
+              help="Merit from robust spread and smoothness alone: skip the structure probe "
+              "(graphs over a cover grid).")
 def screen_command(cloud, seed, out_dir, count, ceiling, refs, extra, no_defaults, bins,
-                   lens_format, neighbor_method, no_figures, no_probe):
+                   pairing, lens_format, neighbor_method, no_figures, no_probe):
     """Rank candidate lenses for TABLE (or --demo) and keep a small non-redundant set.
 
     Computes the default candidate set (PCA and Laplacian coordinates, density at
     two bandwidths, eccentricity p = 1, 2, inf, distance to a measure at two
-    masses, k-NN distance, geodesic eccentricity) plus any --lens, scores each by
-    spread (histogram entropy over its range, less the largest tie), measures
-    redundancy by Spearman rank correlation, probes the graph structure each one
-    reveals (loops / flares / branch points over a small grid of covers, column
-    L/F/B, and how stable those counts are: the structure score), and greedily
-    keeps up to --count lenses by spread x structure, never two with |rho| above
-    --ceiling.
+    masses, k-NN distance, geodesic eccentricity) plus any --lens and scores
+    each by three criteria: robust spread (many rows carry it: no big ties, no
+    few far rows owning its variation), smoothness (its Laplacian score on the
+    neighbour graph) and structure (loops and branches of its graphs over a
+    small cover grid that span more of its range than the cover can make:
+    extended persistence; column sig L/B, all features in L/F/B). The merit is
+    their geometric mean. It keeps the pair of lenses whose two-dimensional
+    cover space best keeps each row's data neighbours (R_NX) times their
+    merits, never two with |Spearman rho| above --ceiling.
 
     Writes to OUT: ranking.csv and ranking.json (scores, correlations, the
     reason for every decision), lenses.<format> with the chosen columns and a
@@ -72,6 +79,7 @@ def screen_command(cloud, seed, out_dir, count, ceiling, refs, extra, no_default
     result = screen(
         ws, lenses=[] if no_defaults else None, extra=list(extra), count=count,
         ceiling=ceiling, references=_names(refs), bins=bins, probe=not no_probe,
+        pairing=pairing,
     )
     click.echo(result.format_table())
     click.echo("")

@@ -78,6 +78,27 @@ def as_paths(paths):
     return [paths] if isinstance(paths, (str, bytes)) or hasattr(paths, "suffix") else list(paths)
 
 
+def png_bytes(fig, *, dpi=100):
+    """``fig`` as PNG bytes, rendered by the Agg canvas whatever the backend; close it.
+
+    This is what the ``_repr_png_`` methods return: closing the figure keeps a
+    notebook's inline backend from showing it a second time.
+    """
+    import io
+
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    buf = io.BytesIO()
+    try:
+        with plt.rc_context(RC):
+            FigureCanvasAgg(fig).print_figure(buf, format="png", dpi=dpi,
+                                              metadata={"Software": "lenswork"},
+                                              bbox_inches="tight")
+    finally:
+        plt.close(fig)
+    return buf.getvalue()
+
+
 def save(fig, path, *, dpi=150):
     """Write ``fig`` to ``path`` (.png or .svg, from the ending) atomically; close it."""
     path = Path(path)

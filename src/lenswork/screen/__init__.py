@@ -1,9 +1,14 @@
-"""Screening: rank candidate lenses by spread and redundancy, keep a small non-redundant set.
+"""Screening: rank candidate lenses by merit, keep a small set that keeps the neighbours.
 
-A lens is worth covering when it *spreads* the points over its range and when
-it says something the other chosen lenses do not. The screen measures both
-and picks greedily; with the structure probe it also weighs the graph
-features each lens reveals.
+A lens is worth covering when many rows carry it (robust spread), when it
+follows the data's neighbour graph (smoothness: the Laplacian score of He,
+Cai and Niyogi, NIPS 2005) and when its graphs show significant structure
+(loops and branches spanning more of its range than the cover can make,
+by extended persistence: Carrière and Oudot, FoCM 2018; the structure
+probe). The merit is their geometric mean. The chosen pair is the one whose
+two-dimensional cover space best keeps each row's data neighbours (``R_NX``,
+Lee and Verleysen 2009) weighted by the merits, never two lenses with
+``|rho|`` above the redundancy ceiling.
 
 Public surface
 --------------
@@ -11,21 +16,23 @@ Entry point
     screen                  compute candidates, score, select (and probe) -> ScreenResult
     ScreenResult            scores, correlations, selection; rows, CSV, JSON, table, write()
 Spread (``_spread``)
-    spread_score, SpreadScore, histogram_entropy
+    spread_score, SpreadScore, histogram_entropy (a diagnosis column, ``spread``)
 Redundancy (``_redundancy``)
     spearman_matrix
 Selection (``_select``)
-    select_lenses, Selection, weighted_merit, DEFAULT_WEIGHTS
+    select_by_preservation, select_lenses, PairPreservation, Selection, weighted_merit,
+    DEFAULT_WEIGHTS
 Candidates (``_candidates``)
     default_candidates
 Probe columns in the ranking (``_result``)
     PROBE_SCORES, PROBE_COUNTS
 
-Each module's docstring holds its part of the method: the spread score and
-why it is ``entropy * (1 - largest_tie)`` (``_spread``), Spearman's rho from
-one matrix product (``_redundancy``), the merit and the greedy rule
-(``_select``), the default lens set (``_candidates``), and what the screen
-does with bad input (``_screen``).
+Each module's docstring holds its part of the method: the criteria
+(:mod:`lenswork.criteria`), the merit, why it is a geometric mean, and the
+pair rule (``_select``), the histogram-entropy spread kept as a diagnosis
+(``_spread``), Spearman's rho from one matrix product (``_redundancy``), the
+default lens set (``_candidates``), and what the screen does with bad input
+(``_screen``).
 
 References
 ----------
@@ -35,6 +42,12 @@ References
    things", American Journal of Psychology 15, 1904.
 .. [3] M. Carriere, B. Michel and S. Oudot, "Statistical analysis and
    parameter selection for Mapper", JMLR 19, 2018.
+.. [4] X. He, D. Cai and P. Niyogi, "Laplacian Score for Feature Selection",
+   NIPS 2005.
+.. [5] J. A. Lee and M. Verleysen, "Quality assessment of dimensionality
+   reduction: rank-based criteria", Neurocomputing 72, 2009.
+.. [6] M. Carriere and S. Oudot, "Structure and stability of the
+   one-dimensional Mapper", Foundations of Computational Mathematics 18, 2018.
 
 Examples
 --------
@@ -51,12 +64,20 @@ from ._candidates import default_candidates
 from ._redundancy import spearman_matrix
 from ._result import PROBE_COUNTS, PROBE_SCORES, ScreenResult
 from ._screen import screen
-from ._select import DEFAULT_WEIGHTS, Selection, select_lenses, weighted_merit
+from ._select import (
+    DEFAULT_WEIGHTS,
+    PairPreservation,
+    Selection,
+    select_by_preservation,
+    select_lenses,
+    weighted_merit,
+)
 from ._spread import SpreadScore, histogram_entropy, spread_score
 
 __all__ = [
     "DEFAULT_WEIGHTS",
     "PROBE_COUNTS",
+    "PairPreservation",
     "PROBE_SCORES",
     "ScreenResult",
     "Selection",
@@ -64,6 +85,7 @@ __all__ = [
     "default_candidates",
     "histogram_entropy",
     "screen",
+    "select_by_preservation",
     "select_lenses",
     "spearman_matrix",
     "spread_score",

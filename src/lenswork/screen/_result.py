@@ -31,14 +31,23 @@ from .._json import dumps, plain
 from .._validation import check_choice, check_float, check_int
 from .._version import __version__
 from ..lenses import FORMATS, pca_coordinates
-from ._select import check_weights, select_lenses, weighted_merit
+from ._select import (
+    PAIRINGS,
+    Selection,
+    check_weights,
+    select_by_preservation,
+    select_lenses,
+    weighted_merit,
+)
 from ._spread import status_text
 
 __all__ = ["PROBE_COUNTS", "PROBE_SCORES", "ScreenResult"]
 
 #: Probe scores added to the screen's table (all in [0, 1]) and the counts shown beside them.
-PROBE_SCORES = ("structure", "revealed", "stability")
-PROBE_COUNTS = ("loops", "flares", "branch_points")
+PROBE_SCORES = ("structure", "significance", "coherence", "count_structure", "revealed",
+                "stability")
+PROBE_COUNTS = ("significant_loops", "significant_branches", "loops", "flares",
+                "branch_points")
 
 
 class ScreenResult:
@@ -54,8 +63,18 @@ class ScreenResult:
     names : list of str
         Candidate column names.
     scores : dict of str -> ndarray of shape (m,)
-        Score and diagnosis columns: ``spread``, ``entropy``, ``tied``,
-        ``largest_tie``, ``outliers`` (and any added by :meth:`rescore`).
+        Score and diagnosis columns: the merit's criteria ``robust_spread``,
+        ``smoothness`` (and ``structure`` with the probe), their parts
+        ``tail_share``, ``laplacian_score``, ``jitter``, the histogram-entropy
+        ``spread`` with ``entropy``, ``tied``, ``largest_tie``, ``outliers``,
+        the probe's other scores and counts (:data:`PROBE_SCORES`,
+        :data:`PROBE_COUNTS`) and any added by :meth:`rescore`.
+    pairing : {"preservation", "greedy"}
+        The rule that picked the set (see :mod:`lenswork.screen._select`).
+    preservation : ndarray of shape (m,)
+        Neighbour preservation ``R_NX`` of each candidate together with the
+        first chosen lens (for the first chosen lens: of the chosen set); NaN
+        where not measured (greedy pairing, unusable candidates).
     weights : dict of str -> float
         Score columns entering the merit and their weights.
     merit : ndarray of shape (m,)
@@ -91,7 +110,8 @@ class ScreenResult:
     """
 
     def __init__(self, lenses, scores, correlation, *, usable, weights, count, ceiling, bins,
-                 reference_names=(), reference_correlation=None, skipped=(), status=None):
+                 reference_names=(), reference_correlation=None, skipped=(), status=None,
+                 pairing="greedy", preservation=None, defer=False):
         self.lenses = lenses
         self.names = lenses.names
         self.scores = {k: np.asarray(v, dtype=np.float64) for k, v in scores.items()}
@@ -110,10 +130,28 @@ class ScreenResult:
         self.skipped = list(skipped)
         self.merit = weighted_merit(self.scores, self.weights)
         self.merit[~self.usable] = 0.0
-        self.selection = select_lenses(
-            correlation, self.merit, count=count, ceiling=ceiling, usable=self.usable
-        )
+        if pairing not in PAIRINGS:
+            raise ParameterError(
+                f"The 'pairing' parameter of screen must be one of {', '.join(PAIRINGS)}; got "
+                f"{pairing!r}."
+            )
+        if pairing == "preservation" and preservation is None:
+            pairing = "greedy"  # too few rows for a neighbour graph of the cover space
+        self.pairing = pairing
+        self._preservation = preservation
+        if defer:  # the probe's scores come next: select once they are in
+            self.selection = Selection((), (), "candidates")
+        elif pairing == "preservation":
+            self.selection = select_by_preservation(
+                correlation, self.merit, preservation, count=count, ceiling=ceiling,
+                usable=self.usable,
+            )
+        else:
+            self.selection = select_lenses(
+                correlation, self.merit, count=count, ceiling=ceiling, usable=self.usable
+            )
         self.selected = [self.names[j] for j in self.selection.indices]
+        self._pres = None
         self._embedding = None
         self.probe = None  # a StructureProbe when the screen ran one
 
@@ -175,7 +213,7 @@ class ScreenResult:
                 "ceiling", ceiling, lo=0, hi=1, lo_open=True, context="rescore"),
             bins=self.bins, reference_names=self.reference_names,
             reference_correlation=self.reference_correlation, skipped=self.skipped,
-            status=self.status,
+            status=self.status, pairing=self.pairing, preservation=self._preservation,
         )
         out._embedding = self._embedding
         out.probe = self.probe
@@ -205,6 +243,23 @@ class ScreenResult:
                                                  random_state=self.lenses.random_state)
             self._embedding = out
         return self._embedding
+
+    @property
+    def preservation(self):
+        """``R_NX`` of each candidate with the first chosen lens (see the class notes)."""
+        if self._pres is None:
+            m = len(self.names)
+            out = np.full(m, np.nan)
+            sel = list(self.selection.indices)
+            if self._preservation is not None and sel:
+                first = sel[0]
+                for j in range(m):
+                    if j == first:
+                        out[j] = self._preservation(sel) if len(sel) > 1 else math.nan
+                    elif self.usable[j] and self.merit[j] > 0:
+                        out[j] = self._preservation((first, j))
+            self._pres = out
+        return self._pres
 
     def partners(self):
         """For each candidate: (name, rho) of the most correlated other candidate."""
@@ -236,11 +291,18 @@ class ScreenResult:
                 i = before[int(np.argmax(absr[j, before]))]
                 nearest[j] = (self.names[i], float(self.correlation[j, i]))
         rest = [j for j in range(m) if j not in sel]
+        pres = self.preservation
         for j in rest:
             if sel:
                 i = sel[int(np.argmax(absr[j, sel]))]
                 nearest[j] = (self.names[i], float(self.correlation[j, i]))
-                gain[j] = self.merit[j] * (1.0 - absr[j, i])
+                if self.pairing == "preservation" and np.isfinite(pres[j]):
+                    # as the partner of the first chosen lens: R_NX x sqrt(merit merit)
+                    gain[j] = max(pres[j], 0.0) * math.sqrt(self.merit[j] * self.merit[sel[0]])
+                elif self.pairing == "preservation":
+                    gain[j] = 0.0
+                else:
+                    gain[j] = self.merit[j] * (1.0 - absr[j, i])
             else:
                 gain[j] = self.merit[j]
 
@@ -249,20 +311,24 @@ class ScreenResult:
                 return 2
             return 1 if abs(nearest[j][1]) > self.ceiling else 0
 
-        rest.sort(key=lambda j: (category(j), -gain[j], -self.merit[j], j))
+        follows = np.nan_to_num(self.scores.get("smoothness", np.zeros(m)), nan=0.0)
+        # merit 0 last; among those, lenses that follow the data's neighbours first
+        rest.sort(key=lambda j: (category(j), -gain[j], -self.merit[j], -follows[j], j))
         rows = []
         for rank, j in enumerate(sel + rest, 1):
             col = self.lenses.columns[j]
             row = {
                 "rank": rank, "column": col.name, "lens": col.lens, "params": col.params,
-                "selected": j in sel, "merit": float(self.merit[j]), "gain": float(gain[j]),
+                "selected": j in sel, "merit": float(self.merit[j]),
+                "preservation": float(pres[j]), "gain": float(gain[j]),
             }
             for name, vals in self.scores.items():
                 row[name] = float(vals[j])
             if self.probe is not None:
                 found = self.probe.get(col.name, {})
                 for key in PROBE_COUNTS:
-                    row[key] = found.get(key)
+                    value = found.get(key)
+                    row[key] = None if value is None or not np.isfinite(value) else int(value)
             row["partner"] = partners[j][0]
             row["partner_rho"] = partners[j][1]
             row["nearest_selected"] = nearest[j][0]
@@ -278,6 +344,13 @@ class ScreenResult:
             return f"{status_text(self.status[j])}: spread 0, never selected"
         if j in sel:
             t = sel.index(j)
+            if self.pairing == "preservation" and len(sel) > 1:
+                what = "pair" if len(sel) == 2 else "set"
+                if t == 0:
+                    return (f"selected #1: best {what} score {gain:.2f} (R_NX x geometric mean "
+                            f"of merits), its higher merit ({self.merit[j]:.2f})")
+                return (f"selected #{t + 1}: {what} score {gain:.2f}, |rho| "
+                        f"{abs(nearest[1]):.2f} to {nearest[0]}")
             if t == 0:
                 return f"selected #1: highest merit ({self.merit[j]:.2f})"
             return (f"selected #{t + 1}: gain {gain:.2f}, |rho| {abs(nearest[1]):.2f} to "
@@ -311,7 +384,8 @@ class ScreenResult:
             "kind": "lens screen",
             "settings": {
                 "count": self.count, "ceiling": self.ceiling, "bins": self.bins,
-                "weights": self.weights, "references": self.reference_names,
+                "weights": self.weights, "pairing": self.pairing,
+                "references": self.reference_names,
                 "random_state": self.lenses.random_state,
             },
             "selected": self.selected,
@@ -349,7 +423,7 @@ class ScreenResult:
             rank order (chosen first, in the order taken). Columns: ``rank``,
             ``lens``, ``params`` (JSON text), ``selected`` (bool), ``order``
             (1-based pick order; missing for candidates not chosen), ``merit``,
-            ``gain``, every score column of :attr:`scores`, the probe counts
+            ``preservation``, ``gain``, every score column of :attr:`scores`, the probe counts
             when the screen ran the probe, ``partner`` and ``partner_rho``,
             ``nearest_selected`` and ``nearest_selected_rho``, ``rho[<ref>]``
             per reference column, and ``reason``: the columns of
@@ -393,70 +467,78 @@ class ScreenResult:
                 frame[h] = frame[h].astype("Int64")  # nullable: missing stays missing
         return frame
 
+    def _cells(self, r, refs, probed):
+        """(header, text, numeric) of one ranking row in the printed and HTML tables."""
+        partner = "-" if r["partner"] is None else f"{r['partner']} ({r['partner_rho']:+.2f})"
+        cells = [("rank", str(r["rank"]), True), ("lens column", r["column"], False),
+                 ("r.spread", _num(r.get("robust_spread")), True),
+                 ("smooth", _num(r.get("smoothness")), True)]
+        if probed:
+            sig = [r.get("significant_loops"), r.get("significant_branches")]
+            every = [r.get(key) for key in ("loops", "flares", "branch_points")]
+            cells += [("structure", _num(r.get("structure")), True),
+                      ("sig L/B", "-" if sig[0] is None else "/".join(map(str, sig)), True),
+                      ("L/F/B", "-" if every[0] is None else "/".join(map(str, every)), True)]
+        cells += [("merit", _num(r["merit"]), True), ("R_NX", _num(r["preservation"]), True),
+                  ("gain", _num(r["gain"]), True), ("partner (rho)", partner, False),
+                  *[(f"rho[{x}]", _num(r[f"rho[{x}]"], signed=True), True) for x in refs]]
+        return cells
+
     def _repr_html_(self):
         """The ranking table as HTML for a notebook; chosen lenses marked, names escaped."""
         rows = self.rows()
         refs = self.reference_names[:3]
         probed = self.probe is not None
         picked = {name: t + 1 for t, name in enumerate(self.selected)}
-        header = ["rank", "lens column", "chosen", "spread",
-                  *(["structure", "L/F/B"] if probed else []), "merit", "gain",
-                  "partner (rho)", *[f"rho[{r}]" for r in refs], "reason"]
-        numeric = {"rank", "spread", "structure", "merit", "gain", *(f"rho[{r}]" for r in refs)}
+        header = None
         body = []
         for r in rows:
             order = picked.get(r["column"])
-            partner = "-" if r["partner"] is None else f"{r['partner']} ({r['partner_rho']:+.2f})"
-            cells = [str(r["rank"]), r["column"], "" if order is None else f"\u2713 #{order}",
-                     _num(r["spread"])]
-            if probed:
-                counts = [r.get(key) for key in PROBE_COUNTS]
-                cells += [_num(r["structure"]),
-                          "-" if counts[0] is None else "/".join(str(c) for c in counts)]
-            cells += [_num(r["merit"]), _num(r["gain"]), partner,
-                      *[_num(r[f"rho[{x}]"], signed=True) for x in refs], r["reason"]]
+            cells = self._cells(r, refs, probed)
+            cells.insert(2, ("chosen", "" if order is None else f"\u2713 #{order}", False))
+            cells.append(("reason", r["reason"], False))
+            header = header or [h for h, _, _ in cells]
             style = ' style="font-weight:bold"' if order is not None else ""
             tds = "".join(
-                f'<td style="text-align:{"right" if h in numeric else "left"}">'
-                f"{html.escape(c)}</td>"
-                for h, c in zip(header, cells, strict=True)
+                f'<td style="text-align:{"right" if num else "left"}">{html.escape(c)}</td>'
+                for _, c, num in cells
             )
             kind = "chosen" if order is not None else "candidate"
             body.append(f'<tr class="{kind}"{style}>{tds}</tr>')
         chosen = ", ".join(self.selected) if self.selected else "nothing"
         caption = (f"lenswork screen: {self.cloud.n:,} rows, {len(self.names)} candidates, "
                    f"chosen {len(self.selected)}: {chosen} (stopped: {self.stop_text})")
-        head = "".join(f"<th>{html.escape(h)}</th>" for h in header)
+        head = "".join(f"<th>{html.escape(h)}</th>" for h in header or [])
         return (f'<table class="lenswork-screen"><caption>{html.escape(caption)}</caption>'
                 f"<thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>")
 
     def format_table(self, max_rows=None):
-        """The ranking as an aligned text table for the terminal."""
+        """The ranking as an aligned text table for the terminal.
+
+        Columns: rank, lens column, the merit's criteria (``r.spread``: robust
+        spread, ``smooth``: smoothness, ``structure`` with the probe, beside the
+        probe's significant loops / branches ``sig L/B`` and all loops / flares /
+        branch points ``L/F/B``), merit, ``R_NX`` with the first chosen lens,
+        gain, the most correlated other candidate, the reference correlations
+        and the reason for the decision.
+        """
         rows = self.rows()[:max_rows]
         refs = self.reference_names[:3]
         probed = self.probe is not None
-        header = ["rank", "lens column", "spread", *(["structure", "L/F/B"] if probed else []),
-                  "merit", "gain", "partner (rho)", *[f"rho[{r}]" for r in refs], "status"]
-        body = []
+        table = []
         for r in rows:
-            partner = "-" if r["partner"] is None else f"{r['partner']} ({r['partner_rho']:+.2f})"
-            extra = []
-            if probed:
-                counts = [r.get(key) for key in PROBE_COUNTS]
-                extra = [_num(r["structure"]),
-                         "-" if counts[0] is None else "/".join(str(c) for c in counts)]
-            body.append([
-                str(r["rank"]), r["column"], _num(r["spread"]), *extra, _num(r["merit"]),
-                _num(r["gain"]), partner, *[_num(r[f"rho[{x}]"], signed=True) for x in refs],
-                r["reason"],
-            ])
-        widths = [max(len(h), *(len(b[i]) for b in body)) if body else len(h)
-                  for i, h in enumerate(header)]
-        shift = 2 if probed else 0
-        right = {0, 2, 3, 4, *range(2, 5 + shift), *range(6 + shift, 6 + shift + len(refs))}
+            cells = self._cells(r, refs, probed)
+            cells.append(("status", r["reason"], False))
+            table.append(cells)
+        if not table:
+            return ""
+        header = [h for h, _, _ in table[0]]
+        right = [num for _, _, num in table[0]]
+        body = [[c for _, c, _ in cells] for cells in table]
+        widths = [max(len(h), *(len(b[i]) for b in body)) for i, h in enumerate(header)]
 
         def line(cells):
-            out = [c.rjust(w) if i in right else c.ljust(w)
+            out = [c.rjust(w) if right[i] else c.ljust(w)
                    for i, (c, w) in enumerate(zip(cells, widths, strict=True))]
             return "  ".join(out).rstrip()
 

@@ -1,14 +1,58 @@
-"""Selection: merit from the score columns, then greedy non-redundant picks.
+"""Selection: merit from the score columns, then the lenses that keep the neighbours.
 
+Merit
+-----
 Each candidate gets a ``merit``: the weighted geometric mean of named score
-columns (by default ``spread`` alone, ``weights={"spread": 1.0}``); a zero in
-any weighted score gives merit 0. Greedy selection then repeatedly takes the
-candidate with the largest ``gain = merit * (1 - max |rho| to the lenses
-already taken)`` among those whose ``max |rho|`` is at most the ceiling, and
-stops at ``count`` lenses, or when every remaining candidate is above the
-ceiling, or when none is left with merit > 0. A later score column (for
-example one from probing the graph each lens gives) enters by adding it to
-:attr:`ScreenResult.scores` and to the weights, see :meth:`ScreenResult.rescore`.
+columns, by default three equally weighted criteria (``DEFAULT_WEIGHTS``)::
+
+    merit = (robust_spread * smoothness * structure) ** (1/3)
+
+* ``robust_spread`` (:func:`lenswork.criteria.robust_spread`) rewards a lens
+  that many rows carry: it is marked down for ties (no cover splits rows that
+  share a value) and for a few far rows that own its variation (Hampel et
+  al. 1986: the variance has an unbounded influence function), but not for
+  values sitting in two or three groups -- a lens that separates groups.
+* ``smoothness`` = ``1 - min(L_r, 1)`` with ``L_r`` the Laplacian score (He,
+  Cai and Niyogi, NIPS 2005) on the lens's ranks: it rewards a lens that
+  changes little between data neighbours, i.e. one whose cover elements
+  gather rows the data join. A lens of pure noise has ``L_r`` about 1 and
+  smoothness about 0.
+* ``structure`` (:func:`lenswork.probe.structure_scores`) rewards a lens whose
+  graphs show loops and branches that span more of its range than the cover
+  can make on its own: the extended persistence of the lens on its graph,
+  above the cover's resolution (Carrière and Oudot, FoCM 2018), times the
+  share of rows the graphs keep in nodes. A tangle of short noise loops adds
+  nothing; one loop over the whole range adds the most.
+
+Why a geometric mean: each criterion is a necessary condition (a lens that
+few rows carry, one that ignores the neighbour graph, or one whose graphs
+fall apart is a poor lens however good the others are), and the geometric
+mean vanishes when any one does; a fixed relative change of any criterion
+moves the merit alike. The weights are equal for want of evidence for
+others; ``weights=`` changes them or names other score columns (a zero in
+any weighted score gives merit 0). Without the structure probe the merit is
+the geometric mean of the first two.
+
+Pairs and sets
+--------------
+A two-lens cover makes a two-dimensional cover space, and a Mapper node
+gathers rows that are close there and linked in the data. The pair is the
+one with the largest ``R_NX(pair) * sqrt(merit_i merit_j)`` among the pairs
+with ``|rho| <= ceiling`` (``pairing="preservation"``, the default), where
+``R_NX`` is the neighbour preservation of the pair's rank space (Lee and
+Verleysen, Neurocomputing 2009; :func:`lenswork.criteria.neighbour_preservation`):
+how many of each row's data neighbours stay its neighbours in the cover
+space, 0 for a random pair. Two smooth lenses can still be one direction of
+the data twice; ``R_NX`` asks whether the pair together keeps the
+neighbourhoods, the merit whether each lens is worth covering. With more
+than two lenses each further one maximises ``R_NX(set) * geometric mean of
+the merits``; with one, the best merit wins. Since ``R_NX <= 1``, pairs are
+tried in decreasing ``sqrt(merit_i merit_j)`` and the search stops when that
+bound falls below the best score found: the result is the exhaustive one.
+
+``pairing="greedy"`` keeps the earlier rule: repeatedly take the candidate
+with the largest ``gain = merit * (1 - max |rho| to the lenses already
+taken)`` under the ceiling (:func:`select_lenses`).
 """
 
 from __future__ import annotations
@@ -19,11 +63,26 @@ import numpy as np
 
 from .._errors import ParameterError
 from .._validation import check_float, check_int
+from ..criteria import neighbour_preservation
+from ..normalize import normalize
 
-__all__ = ["DEFAULT_WEIGHTS", "Selection", "check_weights", "select_lenses", "weighted_merit"]
+__all__ = [
+    "DEFAULT_WEIGHTS",
+    "PAIRINGS",
+    "PairPreservation",
+    "Selection",
+    "check_weights",
+    "select_by_preservation",
+    "select_lenses",
+    "weighted_merit",
+]
 
 #: Score columns that enter the merit, and their weights (weighted geometric mean).
-DEFAULT_WEIGHTS = {"spread": 1.0}
+DEFAULT_WEIGHTS = {"robust_spread": 1.0, "smoothness": 1.0, "structure": 1.0}
+#: The merit without the structure probe.
+NO_PROBE_WEIGHTS = {"robust_spread": 1.0, "smoothness": 1.0}
+#: Rules that pick the lens set from the merits (see the module notes).
+PAIRINGS = ("preservation", "greedy")
 
 
 @dataclass(frozen=True)
@@ -35,7 +94,10 @@ class Selection:
     indices : tuple of int
         Chosen candidates, in the order they were taken.
     gains : tuple of float
-        ``merit * (1 - max |rho| to those taken before)`` at the moment each was taken.
+        The score at the moment each was taken: ``merit * (1 - max |rho| to those
+        taken before)`` for the greedy rule; for the preservation rule the merit
+        of a single lens, then ``R_NX(set) * geometric mean of the merits`` of the
+        set it completes (both lenses of the pair share the pair's score).
     stop : {"count", "ceiling", "candidates"}
         Why selection stopped: the count was reached; every remaining usable
         candidate has ``|rho|`` above the ceiling with a chosen one; or no
@@ -165,8 +227,14 @@ def weighted_merit(scores, weights):
 
 
 def check_weights(weights, scores):
-    """The merit weights, checked against the score columns (default: ``DEFAULT_WEIGHTS``)."""
-    weights = dict(DEFAULT_WEIGHTS if weights is None else weights)
+    """The merit weights, checked against the score columns.
+
+    The default is :data:`DEFAULT_WEIGHTS` when every one of its columns is there
+    (the probe ran), else :data:`NO_PROBE_WEIGHTS`.
+    """
+    if weights is None:
+        weights = DEFAULT_WEIGHTS if set(DEFAULT_WEIGHTS) <= set(scores) else NO_PROBE_WEIGHTS
+    weights = dict(weights)
     if not weights:
         raise ParameterError(
             "The 'weights' parameter of screen is empty; expected at least one score column, "
@@ -182,3 +250,140 @@ def check_weights(weights, scores):
     if sum(weights.values()) <= 0:
         raise ParameterError("The 'weights' of screen sum to 0; give one a positive weight.")
     return {k: float(v) for k, v in weights.items()}
+
+
+class PairPreservation:
+    """Neighbour preservation ``R_NX`` of sets of lens columns, cached per set.
+
+    Parameters
+    ----------
+    columns : array-like of shape (n_rows, m)
+        The lens values on the rows used (every row, or a sample of them).
+    neighbors : array-like of shape (n_rows, K), int
+        The data's K nearest neighbours among those rows.
+
+    Examples
+    --------
+    >>> from lenswork import Workspace
+    >>> X = np.random.default_rng(0).uniform(size=(300, 2))
+    >>> rnx = PairPreservation(X, Workspace(X).neighbors(10).indices)
+    >>> round(rnx((0, 1)), 1)
+    0.9
+    """
+
+    def __init__(self, columns, neighbors):
+        V = np.asarray(columns, dtype=np.float64)
+        ok = np.isfinite(V).all(axis=0)
+        self.U = np.column_stack([normalize(V[:, j], "rank") if ok[j] else np.zeros(len(V))
+                                  for j in range(V.shape[1])])
+        self.neighbors = np.asarray(neighbors, dtype=np.int64)
+        self._cache = {}
+
+    def __call__(self, indices):
+        key = tuple(sorted(int(j) for j in indices))
+        if key not in self._cache:
+            self._cache[key] = neighbour_preservation(self.U[:, list(key)], self.neighbors)
+        return self._cache[key]
+
+
+def _geomean(merit, idx):
+    return float(np.exp(np.mean(np.log(merit[list(idx)]))))
+
+
+def select_by_preservation(correlation, merit, preservation, *, count=2, ceiling=0.8,
+                           usable=None):
+    """The lens set that keeps the data's neighbours, weighted by merit, under the ceiling.
+
+    Parameters
+    ----------
+    correlation : array-like of shape (m, m)
+        Rank correlations between the candidates (NaN counts as 1: never paired).
+    merit : array-like of shape (m,)
+        Non-negative merits; candidates with merit 0 are never taken.
+    preservation : callable
+        ``preservation(indices) -> R_NX`` of a set of candidates
+        (:class:`PairPreservation`).
+    count : int, default=2
+    ceiling : float in (0, 1], default=0.8
+    usable : array-like of bool, shape (m,), optional
+
+    Returns
+    -------
+    Selection
+        For ``count == 1`` the best merit. Otherwise the pair with the largest
+        ``max(R_NX, 0) * sqrt(merit_i merit_j)`` with ``|rho_ij| <= ceiling``
+        (higher merit first), then, one at a time, the candidate ``j`` with the
+        largest ``max(R_NX(S + j), 0) * geomean(merit over S + j)`` under the
+        ceiling with every member of S. Equal scores go to the earlier
+        candidate (pair), so the result is deterministic.
+
+    Examples
+    --------
+    >>> rho = np.array([[1.0, 0.9, 0.1], [0.9, 1.0, 0.2], [0.1, 0.2, 1.0]])
+    >>> table = {(0, 1): 0.3, (0, 2): 0.5, (1, 2): 0.6}
+    >>> sel = select_by_preservation(rho, [0.9, 0.8, 0.5], lambda s: table[tuple(s)])
+    >>> sel.indices, sel.stop
+    ((1, 2), 'count')
+    """
+    merit = np.asarray(merit, dtype=np.float64)
+    m = merit.shape[0]
+    R = np.asarray(correlation, dtype=np.float64)
+    if R.shape != (m, m):
+        raise ParameterError(
+            f"select_by_preservation got a correlation matrix of shape {R.shape} for {m} "
+            f"merits; expected ({m}, {m})."
+        )
+    if merit.ndim != 1 or (np.isfinite(merit) & (merit >= 0)).sum() != m:
+        raise ParameterError(
+            "select_by_preservation expects merits as a 1-D array of finite numbers >= 0."
+        )
+    count = check_int("count", count, lo=1, context="select_by_preservation")
+    ceiling = check_float("ceiling", ceiling, lo=0, hi=1, lo_open=True,
+                          context="select_by_preservation")
+    ok = np.ones(m, dtype=bool) if usable is None else np.asarray(usable, dtype=bool).copy()
+    ok &= merit > 0
+    idx = np.flatnonzero(ok)
+    if not idx.size:
+        return Selection((), (), "candidates")
+    first = int(idx[np.argmax(merit[idx])])
+    if count == 1:
+        return Selection((first,), (float(merit[first]),), "count")
+    absr = np.nan_to_num(np.abs(R), nan=1.0)
+    pairs = [(float(np.sqrt(merit[i] * merit[j])), int(i), int(j))
+             for a, i in enumerate(idx) for j in idx[a + 1:] if absr[i, j] <= ceiling]
+    if not pairs:
+        return Selection((first,), (float(merit[first]),),
+                         "ceiling" if idx.size > 1 else "candidates")
+    pairs.sort(key=lambda t: (-t[0], t[1], t[2]))
+    best, chosen = -1.0, None
+    for bound, i, j in pairs:
+        if bound <= best:
+            break
+        score = max(float(preservation((i, j))), 0.0) * bound
+        if score > best + 1e-12:
+            best, chosen = score, (i, j) if merit[i] >= merit[j] else (j, i)
+    chosen = list(chosen)
+    gains = [best, best]
+    stop = "count"
+    while len(chosen) < count:
+        worst = absr[:, chosen].max(axis=1)
+        open_ = ok & (worst <= ceiling)
+        open_[chosen] = False
+        cand = np.flatnonzero(open_)
+        if not cand.size:
+            rest = ok.copy()
+            rest[chosen] = False
+            stop = "ceiling" if rest.any() else "candidates"
+            break
+        bounds = sorted(((_geomean(merit, [*chosen, int(j)]), int(j)) for j in cand),
+                        key=lambda t: (-t[0], t[1]))
+        top, pick = -1.0, None
+        for bound, j in bounds:
+            if bound <= top:
+                break
+            score = max(float(preservation([*chosen, j])), 0.0) * bound
+            if score > top + 1e-12:
+                top, pick = score, j
+        chosen.append(pick)
+        gains.append(top)
+    return Selection(tuple(chosen), tuple(gains), stop)

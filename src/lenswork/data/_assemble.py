@@ -1,0 +1,304 @@
+"""A raw table becomes a PointCloud: features chosen, ids, invalid rows, scaling."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ._checks import check_magnitude, check_unique_ids
+from ._cloud import ExcludedRow, PointCloud
+from ._files import DELIMITER_LIKE, DELIMITER_NAMES
+from ._messages import (
+    as_python,
+    describe_bad,
+    input_error,
+    names_list,
+    not_number_error,
+    rows_list,
+    short,
+    warn_user,
+)
+from ._raw import (
+    DECIMAL_COMMA,
+    NotNumber,
+    check_duplicate_names,
+    column_numbers,
+    is_missing_object,
+    mostly_numbers,
+    resolve_selection,
+)
+
+__all__ = ["SCALINGS", "assemble"]
+
+
+SCALINGS = ("zscore", "robust")
+
+
+
+def _clean_ids(raw, j):
+    name = raw.names[j]
+    col = raw.columns[j]
+    what = f"the id column {name!r}"
+    kind = col.dtype.kind
+    if kind in "f":
+        bad = ~np.isfinite(col)
+        if bad.any():
+            i = int(np.argmax(bad))
+            raise input_error(
+                f"{what[0].upper()}{what[1:]} of {raw.label} has no id (a missing or non-finite "
+                f"value) at row {raw.row_numbers[i]}. Give every row an id."
+            )
+        if np.all(col == np.round(col)) and np.all(np.abs(col) < 2**53):
+            col = col.astype(np.int64)
+    elif kind == "O":
+        values = col.tolist()
+        for i, v in enumerate(values):
+            if is_missing_object(v) or (isinstance(v, str) and not v.strip()) or (
+                isinstance(v, float) and math.isnan(v)
+            ):
+                raise input_error(
+                    f"{what[0].upper()}{what[1:]} of {raw.label} has no id at row "
+                    f"{raw.row_numbers[i]}. Give every row an id."
+                )
+        if raw.is_text:
+            col = _int_ids(values, col)
+    check_unique_ids(col, raw.row_numbers, what, raw.label)
+    return col
+
+
+
+def _int_ids(values, col):
+    """Text ids that are all plain integers ("12", "-3", not "007") become int64."""
+    try:
+        ints = [int(v) for v in values]
+        if all(str(i) == v for i, v in zip(ints, values, strict=True)):
+            return np.array(ints, dtype=np.int64)
+    except (ValueError, OverflowError):
+        pass
+    return col
+
+
+
+def assemble(raw, features, id_column, scale, invalid, min_rows):
+    names, label, n_read = raw.names, raw.label, raw.n
+    check_duplicate_names(names, label)
+    selection = getattr(raw, "selection", None)
+    feats, id_j = selection or resolve_selection(names, features, id_column, label)
+    numbers_of = {}
+    if feats is None:
+        feats, first_text = [], None
+        for j in range(len(names)):
+            if j == id_j:
+                continue
+            try:
+                values, miss = column_numbers(raw, j)
+            except NotNumber as err:
+                first_text = first_text or (j, err)
+                if j in raw.text and err.mostly_numbers or (
+                    j not in raw.text and mostly_numbers(raw.columns[j])
+                ):
+                    comma = (
+                        " (decimal commas are not read: write 1.5, not 1,5)"
+                        if isinstance(err.value, str) and DECIMAL_COMMA.match(err.value) else ""
+                    )
+                    warn_user(
+                        f"Column {names[j]!r} in {label} is left out of the features: row "
+                        f"{raw.row_numbers[err.index]} holds {short(err.value)}, which is not a "
+                        f"number{comma}, though other cells are. Fix the cell, or choose the "
+                        f"features (features=[...]; CLI: --features)."
+                    )
+                continue
+            if len(miss) == n_read:
+                continue  # every cell missing: passthrough
+            feats.append(j)
+            numbers_of[j] = (values, miss)
+        if not feats:
+            raise _no_features(raw, id_j, first_text)
+    else:
+        for j in feats:
+            try:
+                numbers_of[j] = column_numbers(raw, j)
+            except NotNumber as err:
+                raise not_number_error(
+                    label, names[j], err.value, raw.row_numbers[err.index]
+                ) from None
+    feature_names = tuple(names[j] for j in feats)
+    d = len(feats)
+    X = np.empty((n_read, d), dtype=np.float64)
+    missing_masks = {}
+    for k, j in enumerate(feats):
+        values, miss = numbers_of.pop(j)
+        X[:, k] = values
+        if len(miss):
+            mask = np.zeros(n_read, dtype=bool)
+            mask[miss] = True
+            missing_masks[k] = mask
+    ids_all = np.arange(1, n_read + 1) if id_j is None else _clean_ids(raw, id_j)
+    pass_js = [j for j in range(len(names)) if j != id_j and j not in feats]
+    finite = np.isfinite(X)
+    bad_rows = ~finite.all(axis=1)
+    excluded = ()
+    if bad_rows.any():
+        bad_idx = np.flatnonzero(bad_rows)
+
+        def reason(i):
+            parts = []
+            for k in np.flatnonzero(~finite[i]):
+                missing = k in missing_masks and missing_masks[k][i]
+                what = "missing value" if missing else describe_bad(X[i, k], False)
+                parts.append(f"{what} in column {feature_names[k]!r}")
+            return "; ".join(parts)
+
+        if invalid == "error":
+            i = int(bad_idx[0])
+            k = int(np.flatnonzero(~finite[i])[0])
+            missing = k in missing_masks and missing_masks[k][i]
+            more = (
+                f" ({len(bad_idx)} rows in all have missing, NaN or infinite feature values.)"
+                if len(bad_idx) > 1 else ""
+            )
+            raise input_error(
+                f"Column {feature_names[k]!r} in {label} has {describe_bad(X[i, k], missing)} "
+                f"at row {raw.row_numbers[i]}; features must be finite numbers.{more} Fill in or "
+                f"remove such rows, or pass invalid='exclude' (CLI: --skip-invalid) to report "
+                f"them and keep them out."
+            )
+        excluded = tuple(
+            ExcludedRow(
+                row=int(raw.row_numbers[i]),
+                id=as_python(ids_all[i]),
+                reason=reason(i),
+                passthrough={names[j]: as_python(raw.columns[j][i]) for j in pass_js},
+            )
+            for i in bad_idx
+        )
+        warn_user(
+            f"Kept {len(excluded)} of {n_read} rows of {label} out: they hold missing, NaN or "
+            f"infinite feature values (rows {rows_list(raw.row_numbers[bad_idx])}). They are "
+            f"listed in PointCloud.excluded and written to outputs with missing lens values."
+        )
+        keep = ~bad_rows
+        X = np.ascontiguousarray(X[keep])
+    else:
+        keep = np.ones(n_read, dtype=bool)
+    n = X.shape[0]
+    if n < min_rows:
+        kept_out = f", {len(excluded)} more kept out as invalid" if excluded else ""
+        raise input_error(
+            f"{label} has {n} usable row{'s' if n != 1 else ''} ({n_read} read{kept_out}); at "
+            f"least {min_rows} are needed (min_rows={min_rows}). Add rows"
+            f"{' or fix the rows kept out' if excluded else ''}."
+        )
+    rows = raw.row_numbers[keep]
+    lo, hi = X.min(axis=0), X.max(axis=0)
+    constant = lo == hi
+    if constant.any() and n > 1:
+        warn_user(
+            f"Feature column{'s' if constant.sum() > 1 else ''} "
+            f"{names_list([feature_names[k] for k in np.flatnonzero(constant)])} in {label} "
+            f"{'are' if constant.sum() > 1 else 'is'} constant (one value in every row used): "
+            f"such columns add nothing to distances. Leave them out of the features."
+        )
+    scaling = None
+    if scale is not None:
+        X, scaling = _standardise(X, scale, feature_names, label)
+    check_magnitude(X, feature_names, rows, label, scale)
+    id_name = names[id_j] if id_j is not None else (
+        "row" if "row" not in names else "row_number"
+    )
+    provenance = dict(raw.provenance)
+    provenance.setdefault("delimiter", None)
+    provenance.update(
+        n_rows_read=int(n_read), n_rows_used=int(n), n_rows_excluded=len(excluded),
+        features=list(feature_names), id_column=None if id_j is None else names[id_j],
+        passthrough=[names[j] for j in pass_js], scaling=scaling, invalid=invalid,
+    )
+    return PointCloud(
+        X=X,
+        feature_names=feature_names,
+        ids=ids_all[keep],
+        id_name=id_name,
+        passthrough={names[j]: raw.columns[j][keep] for j in pass_js},
+        row_numbers=rows,
+        excluded=excluded,
+        provenance=provenance,
+    )
+
+
+
+def _no_features(raw, id_j, first_text):
+    names, label = raw.names, raw.label
+    if len(names) == 1 and id_j == 0:
+        return input_error(
+            f"{label} has no feature columns: its only column, {names[0]!r}, is the id column. "
+            f"Add numeric feature columns, or leave id_column out to use it as a feature."
+        )
+    example = ""
+    if first_text is not None:
+        j, err = first_text
+        example = (
+            f" (e.g. column {names[j]!r} holds {short(err.value)} at row "
+            f"{raw.row_numbers[err.index]})"
+        )
+    if len(names) == 1 and raw.is_text:
+        used = raw.provenance.get("delimiter")
+        found = [c for c in DELIMITER_LIKE if c in names[0] and c != used]
+        if found:
+            c = found[0]
+            return input_error(
+                f"{label} has no feature columns: it was read as a single column named "
+                f"{short(names[0])} holding text{example}. The header holds "
+                f"{DELIMITER_NAMES[c]}s ({c!r}), so the columns may be separated by them: pass "
+                f"delimiter={c!r}, or save the file comma-separated."
+            )
+    besides = " besides the id column" if id_j is not None else ""
+    return input_error(
+        f"{label} has no feature columns: no column{besides} holds only numbers{example}. "
+        f"Choose the feature columns (features=[...]; CLI: --features), or fix the cells."
+    )
+
+
+
+def _standardise(X, method, names, label):
+    """Per-column z-score or median/IQR scaling, computed without overflow."""
+    out = np.empty_like(X)
+    record = {}
+    notes = []
+    for k, name in enumerate(names):
+        col = X[:, k]
+        m = float(np.max(np.abs(col)))
+        if m == 0.0:  # all zeros: nothing to centre or scale
+            out[:, k] = 0.0
+            record[name] = {"centre": 0.0, "scale": 1.0}
+            continue
+        u = col / m  # in [-1, 1]: sums and squares cannot overflow
+        if method == "zscore":
+            c, s = float(u.mean()), float(u.std())
+        else:
+            q1, c, q3 = (float(v) for v in np.percentile(u, [25, 50, 75]))
+            s = q3 - q1
+            if s == 0.0 and u.std() > 0:
+                s = float(u.std())
+                notes.append(name)
+        if s == 0.0:  # constant column: centred only
+            out[:, k] = 0.0
+            record[name] = {"centre": c * m, "scale": 1.0}
+            continue
+        out[:, k] = (u - c) / s
+        with np.errstate(over="ignore"):
+            record[name] = {"centre": c * m, "scale": float(np.float64(s) * m)}
+    info = {"method": method, "columns": record}
+    if method == "robust":
+        info["formula"] = "(x - median) / (q75 - q25)"
+        if notes:
+            info["std_fallback"] = notes
+            warn_user(
+                f"Robust scaling: column{'s' if len(notes) > 1 else ''} {names_list(notes)} in "
+                f"{label} {'have' if len(notes) > 1 else 'has'} an interquartile range of 0 (more "
+                f"than half the values are equal) and {'were' if len(notes) > 1 else 'was'} "
+                f"scaled by the standard deviation instead."
+            )
+    else:
+        info["formula"] = "(x - mean) / std (ddof=0)"
+    return out, info

