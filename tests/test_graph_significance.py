@@ -16,6 +16,7 @@ from _shapes import noisy_circle
 
 from lenswork import Workspace, bootstrap_graph, build_graph
 from lenswork.graph import write_graph_json
+from lenswork.graph._persistence import graph_diagrams
 
 
 def y_tree(n, rng, noise=0.03):
@@ -200,3 +201,50 @@ def test_hole_scales_are_the_stated_rule():
     X = _torus(0, 600)
     g = build_graph(X[:, :2], Workspace(X), hole_scales=1)
     assert "holes_over_scales" not in g.params and g.summary().significant_holes is None
+
+
+def test_articulation_points_match_networkx():
+    import networkx as nx
+
+    from lenswork.graph._summary import articulation_points, neighbour_lists
+
+    for seed in range(6):
+        G = nx.gnp_random_graph(40, 0.06, seed=seed)
+        E = np.array(list(G.edges()), dtype=np.int64).reshape(-1, 2)
+        assert articulation_points(neighbour_lists(40, E)) == set(nx.articulation_points(G))
+
+
+def _arm_reference(graph, v):
+    """Third-largest arm span at v by a breadth-first search per neighbour (networkx)."""
+    import networkx as nx
+
+    G = nx.Graph(graph.edge_index.tolist())
+    G.add_nodes_from(range(graph.n_nodes))
+    H = G.copy()
+    H.remove_node(v)
+    lv = graph.node_elements[:, 0].astype(float)
+    spans = []
+    for w in G[v]:
+        reach = list(nx.node_connected_component(H, w)) + [v]
+        spans.append(lv[reach].max() - lv[reach].min())
+    spans.sort(reverse=True)
+    return spans[2] / (graph.params["cover"]["intervals"][0] - 1)
+
+
+@pytest.mark.filterwarnings("ignore:.*rows are in no node")
+def test_branch_point_arms_match_a_search_per_neighbour():
+    rng = np.random.default_rng(5)
+    t = rng.uniform(0, 4, 1000)
+    X = np.column_stack([t, rng.normal(0, 0.3, (1000, 2))])
+    g = build_graph(t + rng.normal(0, 0.3, 1000), Workspace(X), intervals=20, k=10, min_size=3)
+    s = g.summary()
+    branches = s.features_of("branch")
+    assert len(branches) >= 5
+    d = graph_diagrams(g)[0]
+    for f in branches:
+        v = f.nodes[0]
+        hit = ((d.nodes[:, 0] == v) | (d.nodes[:, 1] == v)) & (d.kind != "component")
+        end = float(d.significance[hit].max()) if hit.any() else 0.0
+        # the stated rule: the smaller of the third-largest arm span and the largest
+        # diagram point (loop or limb) with an end at the node
+        assert f.significance == pytest.approx(min(_arm_reference(g, v), end), abs=1e-12)

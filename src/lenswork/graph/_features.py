@@ -17,6 +17,7 @@ from .. import _progress
 from .._errors import LensworkWarning, ParameterError
 from ..workspace import Workspace
 from ._build import build_graph
+from ._settings import GraphSettings
 
 __all__ = [
     "FEATURES",
@@ -92,9 +93,14 @@ def _quiet():
 
 
 def quiet_build(cols, workspace, settings):
-    """build_graph without its per-graph warnings (a sweep counts unassigned rows instead)."""
+    """build_graph without its per-graph warnings (a sweep counts unassigned rows instead).
+
+    A sweep reads feature counts, not holes, so the coarser covers that
+    multi-lens holes are checked against are not built (``hole_scales=1``).
+    """
+    settings = GraphSettings.coerce(settings)
     with _quiet():
-        return build_graph(cols, workspace, settings)
+        return build_graph(cols, workspace, settings.replace(hole_scales=1))
 
 
 def empty_counts(n_rows):

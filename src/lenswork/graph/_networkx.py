@@ -13,9 +13,10 @@ nodes
 edges
     ``shared`` (int) and ``jaccard`` (float).
 graph
-    ``lens_columns``, ``params`` and ``provenance`` as JSON text (so that
-    ``networkx.write_graphml`` can write the graph again: GraphML has no dict
-    type) and ``n_rows``, ``n_unassigned`` (int).
+    ``lens_columns``, ``params``, ``provenance`` and ``summary`` (the counts
+    and the significant and small features, as in the GraphML file) as JSON
+    text (so that ``networkx.write_graphml`` can write the graph again: GraphML
+    has no dict type) and ``n_rows``, ``n_unassigned`` (int).
 
 The graph is read duck-typed, through its public attributes only, so this
 module imports nothing of the graph package and networkx is imported on the
@@ -97,6 +98,7 @@ def to_networkx(graph):
         "lens_columns": dumps(list(graph.lens_columns), indent=None),
         "params": dumps(graph.params, indent=None, sort_keys=True),
         "provenance": dumps(graph.provenance, indent=None, sort_keys=True),
+        "summary": dumps(graph.summary().record(), indent=None, sort_keys=True),
         "n_rows": int(graph.n_rows),
         "n_unassigned": int(np.asarray(graph.unassigned).size),
     })

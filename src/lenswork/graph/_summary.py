@@ -86,8 +86,8 @@ from .._errors import ParameterError
 from ._nerve import nerve_triangles
 from ._persistence import ascending_edge_order, graph_diagrams
 
-__all__ = ["GraphFeature", "GraphSummary", "cover_settings", "neighbour_lists", "settings_text",
-           "summarize"]
+__all__ = ["GraphFeature", "GraphSummary", "articulation_points", "cover_settings",
+           "neighbour_lists", "settings_text", "summarize"]
 
 
 @dataclass(frozen=True)
@@ -530,6 +530,8 @@ class _Significance:
         self.graph = graph
         self.diagrams = diagrams
         self.levels = graph.node_elements.astype(np.float64)
+        self._cut = None
+        self._comp = None
 
     def _best(self, values):
         """(largest significance, significant in some lens) over per-lens (value, ok) pairs."""
@@ -570,28 +572,48 @@ class _Significance:
         return sorted(((k, v, ok) for k, (v, ok) in merged.items()), key=lambda t: -t[1])
 
     def at_node(self, v, nb):
-        """Third-largest lens span of the arms at node ``v`` (module notes)."""
+        """Third-largest lens span of the arms at node ``v`` (module notes).
+
+        An arm is the part of the graph reached from one neighbour without
+        passing through ``v``: the component of ``G - v`` holding that
+        neighbour. Unless ``v`` is an articulation point, ``G - v`` keeps the
+        component whole and every arm spans it.
+        """
+        if len(nb[v]) < 3:
+            return 0.0, False
+        arms = self._arms(v, nb)
         vals = []
-        blocked = {v}
         for j, d in enumerate(self.diagrams):
             lv = self.levels[:, j]
-            spans = []
-            for w in nb[v]:
-                seen = {w}
-                queue = deque([w])
-                while queue:
-                    u = queue.popleft()
-                    for x in nb[u]:
-                        if x not in seen and x not in blocked:
-                            seen.add(x)
-                            queue.append(x)
-                idx = np.fromiter(seen, dtype=np.int64, count=len(seen))
-                reach = lv[idx]
-                spans.append(max(reach.max(), lv[v]) - min(reach.min(), lv[v]))
-            spans.sort(reverse=True)
-            value = float(spans[2]) / d.range if len(spans) >= 3 and d.range > 0 else 0.0
+            spans = sorted((max(hi[j], lv[v]) - min(lo[j], lv[v]) for lo, hi in arms),
+                           reverse=True)
+            value = float(spans[2]) / d.range if d.range > 0 else 0.0
             vals.append((value, value > d.threshold))
         return self._best(vals)
+
+    def _arms(self, v, nb):
+        """(per-lens minimum, per-lens maximum) of the levels of each arm at ``v``."""
+        if self._cut is None:
+            self._cut, self._comp = articulation_points(nb), None
+        if v not in self._cut:
+            if self._comp is None:
+                A = self.graph.adjacency()
+                _, self._comp = connected_components(A, directed=False)
+            mask = self._comp == self._comp[v]
+            lo, hi = self.levels[mask].min(axis=0), self.levels[mask].max(axis=0)
+            return [(lo, hi)] * len(nb[v])
+        A = sp.csr_matrix(self.graph.adjacency())
+        keep = np.ones(A.shape[0], dtype=bool)
+        keep[v] = False
+        idx = np.flatnonzero(keep)
+        _, lab = connected_components(A[idx][:, idx], directed=False)
+        labels = np.full(A.shape[0], -1, dtype=np.int64)
+        labels[idx] = lab
+        out = []
+        for w in nb[v]:
+            mask = labels == labels[w]
+            out.append((self.levels[mask].min(axis=0), self.levels[mask].max(axis=0)))
+        return out
 
     def ends_at(self, v):
         """Largest significance of the limbs and loops with an end at node ``v``."""
@@ -620,8 +642,66 @@ class _Significance:
         return self._best(vals)
 
 
+def articulation_points(nb):
+    """Nodes whose removal disconnects their component (Tarjan 1972), iteratively, O(V + E).
+
+    Parameters
+    ----------
+    nb : list of lists of int
+        Neighbours of every node (:func:`neighbour_lists`).
+
+    Returns
+    -------
+    set of int
+
+    Examples
+    --------
+    >>> sorted(articulation_points([[1], [0, 2], [1, 3, 4], [2], [2]]))
+    [1, 2]
+    """
+    V = len(nb)
+    disc = [-1] * V
+    low = [0] * V
+    cut = set()
+    timer = 0
+    for root in range(V):
+        if disc[root] >= 0:
+            continue
+        disc[root] = low[root] = timer
+        timer += 1
+        children = 0
+        stack = [(root, -1, iter(nb[root]))]
+        while stack:
+            u, parent, it = stack[-1]
+            for w in it:
+                if w == parent:
+                    continue
+                if disc[w] < 0:
+                    disc[w] = low[w] = timer
+                    timer += 1
+                    if u == root:
+                        children += 1
+                    stack.append((w, u, iter(nb[w])))
+                    break
+                low[u] = min(low[u], disc[w])
+            else:
+                stack.pop()
+                if stack:
+                    p = stack[-1][0]
+                    low[p] = min(low[p], low[u])
+                    if p != root and low[u] >= disc[p]:
+                        cut.add(p)
+        if children > 1:
+            cut.add(root)
+    return cut
+
+
 def _spanning_forest(E, order, V):
-    """Neighbour lists of the spanning forest grown by adding edges in ``order`` (Kruskal)."""
+    """Parent and depth of every node in the spanning forest grown by adding edges in ``order``.
+
+    Kruskal's rule: an edge joins the forest when its ends are in different
+    trees; the forest is then rooted (breadth first, smallest node first).
+    """
     parent = list(range(V))
 
     def find(a):
@@ -638,25 +718,37 @@ def _spanning_forest(E, order, V):
             parent[ra] = rb
             tree[a].append(b)
             tree[b].append(a)
-    return tree
+    up = [-1] * V
+    depth = [-1] * V
+    for root in range(V):
+        if depth[root] >= 0:
+            continue
+        depth[root] = 0
+        queue = deque([root])
+        while queue:
+            u = queue.popleft()
+            for w in tree[u]:
+                if depth[w] < 0:
+                    depth[w], up[w] = depth[u] + 1, u
+                    queue.append(w)
+    return up, depth
 
 
-def _tree_path(tree, a, b):
+def _tree_path(forest, a, b):
     """Nodes of the forest path from ``a`` to ``b`` (the cycle closed by the edge a-b)."""
-    prev = {a: None}
-    queue = deque([a])
-    while queue:
-        u = queue.popleft()
-        if u == b:
-            break
-        for w in tree[u]:
-            if w not in prev:
-                prev[w] = u
-                queue.append(w)
-    path = [b]
-    while prev[path[-1]] is not None:
-        path.append(prev[path[-1]])
-    return tuple(path[::-1])
+    up, depth = forest
+    left, right = [a], [b]
+    while depth[a] > depth[b]:
+        a = up[a]
+        left.append(a)
+    while depth[b] > depth[a]:
+        b = up[b]
+        right.append(b)
+    while a != b:
+        a, b = up[a], up[b]
+        left.append(a)
+        right.append(b)
+    return tuple(left + right[-2::-1])
 
 
 def _significance(graph):
