@@ -248,6 +248,7 @@ def test_screen_command_in_a_pseudo_terminal(tmp_path):
         rf"  lens 1/2: dtm:mass=0\.9 \.\.\. {t}",
         rf"  lens 2/2: pca:components=2 \.\.\. {t}",
         rf"  ranking 3 columns: spread and rank correlation \.\.\. {t}",
+        rf"  smoothness: Laplacian score on the neighbour graph \.\.\. {t}",
         rf"  selection \.\.\. {t}",
         *(rf"  probe {re.escape(c)}\s+\[#+\]\s+{cells}/{cells}\s+100%\s+\S+/s\s+in {t}"
           for c in ("dtm[mass=0.9]", "pca_1", "pca_2")),
@@ -257,12 +258,12 @@ def test_screen_command_in_a_pseudo_terminal(tmp_path):
     for got, pattern in zip(shown, expected, strict=True):
         assert re.fullmatch(pattern, got), (got, pattern)
     # No interleaving: every raw line (all its redraws) carries one label only.
-    labels = ["lens 1/2", "Warning", "neighbour graph:", "lens 2/2", "ranking 3", "selection",
-              "probe dtm", "probe pca_1", "probe pca_2", "writing"]
+    labels = ["lens 1/2", "Warning", "neighbour graph:", "lens 2/2", "ranking 3", "smoothness:",
+              "selection", "probe dtm", "probe pca_1", "probe pca_2", "writing"]
     for line in lines:
         assert sum(label in line for label in labels) == 1, line
     # Each bar counts 0, 1, ..., cells in order, redrawn in place on its one line.
-    for line in lines[7:10]:
+    for line in lines[8:11]:
         counts = [int(m.group(1)) for p in line.split("\r")
                   if (m := re.search(rf"\s(\d+)/{cells}\s", p))]
         assert counts == sorted(counts) and set(counts) == set(range(cells + 1)), counts
