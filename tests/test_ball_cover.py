@@ -1,12 +1,12 @@
 """Tests of the ball cover: net properties, assignment against brute force, known shapes, files."""
 
-import json
 import warnings
 
 import networkx as nx
 import numpy as np
 import pytest
 from _shapes import noisy_circle, torus
+from _strict_json import strict_loads
 from scipy.spatial.distance import cdist
 from scipy.stats import rankdata
 from sklearn.datasets import make_circles
@@ -33,14 +33,6 @@ from lenswork.graph import (
     write_graphml,
     write_memberships,
 )
-
-
-def _strict(text):
-    """json.loads that refuses NaN and Infinity (RFC 8259 has neither)."""
-    def refuse(word):
-        raise ValueError(f"non-standard JSON constant {word}")
-
-    return json.loads(text, parse_constant=refuse)
 
 
 def b1_with_triangles(graph, nodes):
@@ -194,7 +186,7 @@ def test_ball_graph_files_round_trip(tmp_path):
     g = build_graph(X, Workspace(X), cover="ball", radius=0.15)
     back = read_graph_json(write_graph_json(g, tmp_path / "g.json"))
     assert back == g and np.array_equal(back.node_levels, g.node_levels)
-    doc = _strict((tmp_path / "g.json").read_text())
+    doc = strict_loads((tmp_path / "g.json").read_text())
     assert doc["provenance"]["graph_settings"]["cover"] == "ball"
     assert doc["params"]["cover"]["kind"] == "ball"
     G = nx.read_graphml(write_graphml(g, tmp_path / "g.graphml"))  # networkx as reader

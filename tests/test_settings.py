@@ -8,6 +8,7 @@ from dataclasses import FrozenInstanceError, fields
 import numpy as np
 import pytest
 from _shapes import noisy_circle
+from _strict_json import strict_loads
 from click.testing import CliRunner
 
 from lenswork import (
@@ -24,15 +25,6 @@ from lenswork import (
 )
 from lenswork.cli import cli
 from lenswork.graph import grid_settings, write_graph_json, write_graphml
-
-
-def _refuse(word):
-    raise ValueError(f"non-standard JSON constant {word}")
-
-
-def strict_loads(text):
-    """json.loads that raises on NaN / Infinity (not JSON: RFC 8259, section 6)."""
-    return json.loads(text, parse_constant=_refuse)
 
 
 # --------------------------------------------------------------------------- the object
