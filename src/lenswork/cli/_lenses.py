@@ -65,7 +65,8 @@ def compute(cloud, seed, lenses, out, normalization, neighbor_method, cluster=No
 
     With --scheduler, TABLE is a directory of Parquet or CSV partitions (or a
     glob) and the columns are computed on a Dask cluster and written to the
-    directory OUT (one Parquet file per partition and lenses.json).
+    directory OUT (one Parquet file per partition and lenses.json; default
+    lenses/).
     """
     if cluster is not None:  # the partitioned path (lenswork.partitioned)
         refuse_with_scheduler(normalize=normalization, neighbors=neighbor_method != "auto")

@@ -67,7 +67,7 @@ def _computer(client, show):
             from distributed import progress
 
             with contextlib.redirect_stdout(sys.stderr):  # the bar writes to stdout
-                progress(futures)
+                progress(futures, scheduler=client.scheduler.address)
             click.echo("", err=True)
         return client.gather(futures)
 
@@ -89,6 +89,7 @@ class ClusterRun:
         self.scheduler, self.workers, self.memory_limit = scheduler, workers, memory_limit
         self.show_progress = show_progress
         self.client = None
+        self._current = None
         self.cloud = None
 
     def __enter__(self):
@@ -97,10 +98,14 @@ class ClusterRun:
         with _progress.step(f"cluster: connect to {self.scheduler}"):
             self.client = start_client(self.scheduler, workers=self.workers,
                                        memory_limit=self.memory_limit)
+        # every dask.compute of the run goes to this client, whatever other clients exist
+        self._current = self.client.as_current()
+        self._current.__enter__()
         return self
 
     def __exit__(self, *exc):
         if self.client is not None:
+            self._current.__exit__(None, None, None)
             self.client.close()
             self.client = None
 
