@@ -16,15 +16,16 @@ import dask.array as da  # noqa: E402
 import dask.dataframe as dd  # noqa: E402
 
 from lenswork import (  # noqa: E402
+    GraphSettings,
     InputError,
-    distance_to_measure,
+    ParameterError,
+    build_graph,
     eccentricity,
-    gaussian_density,
     laplacian_eigenmaps,
     load_table,
     pca_coordinates,
 )
-from lenswork.graph import membership_matrix, nerve_edges  # noqa: E402
+from lenswork.graph import CLUSTERERS  # noqa: E402
 from lenswork.lenses._extend import nystrom_extend  # noqa: E402
 from lenswork.partitioned import (  # noqa: E402
     cluster_element,
@@ -53,20 +54,32 @@ def _parquet_dir(tmp_path, X, n_parts):
 
 
 def test_exact_lenses_equal_single_machine(client, tmp_path):
+    from scipy.spatial.distance import cdist
+    from sklearn.decomposition import PCA
+
     rng = np.random.default_rng(8765678)
     X = rng.normal(size=(3000, 4)) * [3.0, 2.0, 1.0, 0.5] + [10.0, -2.0, 0.0, 1.0]
     cloud = open_partitioned(_parquet_dir(tmp_path, X, 5))
     assert cloud.n == 3000 and cloud.n_partitions == 5
     lens = partitioned_lenses(cloud, ["pca:components=3", "eccentricity", "column:name=f2"])
     values, errors = lens.compute()
-    # references: lenswork's own single-machine functions (PCA via eigh of the covariance,
-    # Jolliffe 2002; eccentricity closed form, Carrière, Michel and Oudot 2018)
-    np.testing.assert_allclose(values[:, :3], pca_coordinates(X, components=3), atol=1e-12)
-    np.testing.assert_allclose(values[:, 3], eccentricity(X), rtol=1e-12)
+    # PCA: scikit-learn's PCA (full SVD of the centred data) as the reference; a component's
+    # sign is arbitrary (Jolliffe 2002), so each column is compared up to its sign
+    ref = PCA(n_components=3, svd_solver="full").fit_transform(X)
+    for j in range(3):
+        sign = np.sign(ref[:, j] @ values[:, j])
+        np.testing.assert_allclose(values[:, j], sign * ref[:, j], rtol=0, atol=1e-12)
+    # eccentricity p = 2 from its definition E_2(x) = (mean_y ||x - y||^2)^(1/2) (Mapper, 2007),
+    # every pair summed by scipy's cdist (the partitioned lens uses the closed form)
+    np.testing.assert_allclose(values[:, 3], np.sqrt(cdist(X, X, "sqeuclidean").mean(1)),
+                               rtol=1e-12, atol=0)
     np.testing.assert_array_equal(values[:, 4], X[:, 2])
-    assert np.isnan(errors).all()
+    assert np.isnan(errors).all() and all(p["exact"] for p in lens.provenance)
     # numpy's covariance as an outside reference for the tree reduction
     np.testing.assert_allclose(cloud.scatter / (cloud.n - 1), np.cov(X.T), rtol=1e-12)
+    # and the same columns as the single-machine lenses
+    np.testing.assert_allclose(values[:, :3], pca_coordinates(X, components=3), atol=1e-12)
+    np.testing.assert_allclose(values[:, 3], eccentricity(X), rtol=1e-12)
 
 
 def test_zscore_and_written_columns(client, tmp_path):
@@ -88,6 +101,10 @@ def test_zscore_and_written_columns(client, tmp_path):
 
 
 def test_estimated_lenses_within_stated_error(client):
+    from scipy.spatial.distance import cdist
+    from scipy.stats import gaussian_kde
+    from sklearn.neighbors import NearestNeighbors
+
     rng = np.random.default_rng(424242)
     X = rng.normal(size=(3000, 2))
     cloud = open_partitioned(da.from_array(X, chunks=(1000, 2)))
@@ -97,22 +114,27 @@ def test_estimated_lenses_within_stated_error(client):
         random_state=3,
     )
     values, errors = lens.compute()
-    # density: exact Gaussian KDE with Scott's bandwidth (scipy.stats.gaussian_kde's rule)
-    exact = gaussian_density(X, mode="exact")
+    # density: scipy.stats.gaussian_kde (Scott's rule, full covariance; Scott 1992) on all rows
+    exact = gaussian_kde(X.T).logpdf(X.T)
     z = (values[:, 0] - exact) / errors[:, 0]  # errors: se of log density (delta method)
     # the se is itself estimated from the sample: in the far tails, where a few landmarks
     # carry the sum, it understates the error (common practice: a looser tail allowance)
     # half of a normal's mass lies within 0.674 sd (standard normal table)
     assert np.mean(np.abs(z) > 4) < 0.02 and 0.4 < np.median(np.abs(z)) < 1.0
-    exact_e = eccentricity(X, p=1, mode="exact")
+    # eccentricity p = 1: mean distance to every row, from scipy's cdist
+    exact_e = cdist(X, X).mean(1)
     z = (values[:, 1] - exact_e) / errors[:, 1]
     assert np.mean(np.abs(z) > 4) < 0.005 and 0.4 < np.median(np.abs(z)) < 1.0
-    # DTM: hard bound of Chazal, Cohen-Steiner and Mérigot 2011, Theorem 3.5 (from memory):
+    # DTM of the empirical measure, d^2(x) = mean of the k smallest ||x - X_i||^2 (the row
+    # itself included), from scikit-learn's exact neighbours; the hard bound of Chazal,
+    # Cohen-Steiner and Mérigot 2011, Theorem 3.5 (from memory):
     # sup |d_mu,m - d_nu,m| <= W2(mu, nu) / sqrt(m)
-    exact_d = distance_to_measure(X, mass=0.05, max_k=k)
+    dist, _ = NearestNeighbors(n_neighbors=k).fit(X).kneighbors(X)
+    exact_d = np.sqrt(np.mean(dist**2, axis=1))
     bound = lens.provenance[2]["error_bound"]
-    assert np.max(np.abs(values[:, 2] - exact_d)) <= bound
-    assert lens.provenance[2]["exact"] is False
+    gap = np.max(np.abs(values[:, 2] - exact_d))
+    assert gap <= bound and lens.provenance[2]["exact"] is False
+    assert gap > 0  # an estimate, not the exact values
 
 
 def test_nystrom_extension_matches_full_solution():
@@ -144,36 +166,21 @@ def test_laplacian_on_partitions_states_held_out_error(client):
     assert lens.provenance[0]["held_out_abs_corr"] > 0.95
 
 
-def _reference_graph(X, values, lo, hi, intervals, overlap, **kw):
-    """Single machine: the same per-element clustering on every element in one process."""
-    first, last = element_ranges(values, lo, hi, intervals, overlap)
-    nodes = []
-    for element in np.ndindex(*intervals):
-        inside = np.ones(X.shape[0], dtype=bool)
-        for j, e in enumerate(element):
-            inside &= (first[:, j] <= e) & (last[:, j] >= e)
-        rows = np.flatnonzero(inside)
-        if rows.size == 0:
-            continue
-        labels, _ = cluster_element(X[rows], rows, **kw)
-        for c in range(labels.max() + 1):
-            nodes.append(frozenset(rows[labels == c].tolist()))
-    return nodes
-
-
 def _node_and_edge_sets(g):
+    """Nodes as frozensets of rows, edges as frozensets of two such nodes."""
     nodes = {frozenset(nd.members.tolist()) for nd in g.nodes}
     edges = {frozenset((frozenset(g.nodes[e.source].members.tolist()),
                         frozenset(g.nodes[e.target].members.tolist()))) for e in g.edges}
     return nodes, edges
 
 
-def _reference_edges(ref, n):
-    idx = {s: i for i, s in enumerate(ref)}
-    rows = np.concatenate([sorted(s) for s in ref])
-    cols = np.concatenate([[idx[s]] * len(s) for s in ref])
-    edges, _ = nerve_edges(membership_matrix(rows, cols, n, len(ref)))
-    return {frozenset((ref[a], ref[b])) for a, b in edges}
+def _assert_same_graph(g, ref):
+    # compared as sets of frozensets of rows (as networkx's component tests compare)
+    nodes, edges = _node_and_edge_sets(g)
+    ref_nodes, ref_edges = _node_and_edge_sets(ref)
+    assert len(nodes) == g.n_nodes == ref.n_nodes and nodes == ref_nodes
+    assert len(edges) == g.n_edges == ref.n_edges and edges == ref_edges
+    assert g.fragments == ref.fragments
 
 
 def test_graph_equals_single_machine_graph(client):
@@ -183,13 +190,35 @@ def test_graph_equals_single_machine_graph(client):
     cloud = open_partitioned(da.from_array(X, chunks=(500, 3)))
     lens = partitioned_lenses(cloud, ["column:name=x0"])
     g = partitioned_graph(lens, intervals=6, overlap=0.3, k=10, min_size=5)
-    ref = _reference_graph(X, X[:, [0]], [X[:, 0].min()], [X[:, 0].max()], [6], [0.3], k=10,
-                           min_size=5)
-    nodes, edges = _node_and_edge_sets(g)
-    # compared as sets of frozensets of rows (as networkx's component tests compare)
-    assert nodes == set(ref) and len(nodes) == len(ref)
-    assert edges == _reference_edges(ref, 2000)
+    # reference: build_graph on one machine with the same named clustering rule
+    ref = build_graph(X[:, 0], X, intervals=6, overlap=0.3, k=10, min_size=5, scale="raw",
+                      clusterer="element-knn")
+    _assert_same_graph(g, ref)
     assert g.summary().loops == 1  # a circle's nerve has one loop (Mapper, 2007)
+
+
+def test_graph_with_fragments_equals_single_machine_graph(client):
+    # two noisy circles and scattered background rows: fragments to attach, a fence cut-off
+    rng = np.random.default_rng(515)
+    a = rng.uniform(0, 2 * np.pi, 2400)
+    X = np.column_stack([np.cos(a), np.sin(a)]) * np.where(a < np.pi, 1.0, 1.6)[:, None]
+    X = np.concatenate([X + rng.normal(0, 0.04, X.shape), rng.uniform(-2, 2, (150, 2))])
+    X = np.column_stack([X, rng.normal(0, 0.05, X.shape[0])])
+    cloud = open_partitioned(da.from_array(X, chunks=(700, 3)))
+    lens = partitioned_lenses(cloud, ["column:name=x0", "column:name=x1"])
+    for cutoff in ("auto", "fence"):
+        settings = GraphSettings(intervals=[5, 4], overlap=0.25, k=4, min_size=12,
+                                 cutoff=cutoff, scale="raw", clusterer="element-knn")
+        g = partitioned_graph(lens, settings)
+        with pytest.warns(UserWarning, match="rows are in no node"):
+            ref = build_graph(X[:, :2], X, settings)
+        _assert_same_graph(g, ref)
+        assert ref.params["clusterer"] == g.params["clusterer"] == "element-knn"
+        # both paths attach some fragments and leave out others (corner elements hold only
+        # background rows, so no kept group there)
+        assert g.fragments["left_out_points"] > 0
+        if cutoff == "auto":
+            assert g.fragments["attached_groups"] > 0
 
 
 def test_product_cover_graph_equals_single_machine_graph(client):
@@ -198,13 +227,20 @@ def test_product_cover_graph_equals_single_machine_graph(client):
     cloud = open_partitioned(da.from_array(X, chunks=(400, 3)))
     lens = partitioned_lenses(cloud, ["column:name=x0", "column:name=x1"])
     g = partitioned_graph(lens, intervals=[3, 4], overlap=[0.2, 0.4], k=8, min_size=4,
-                          fragments="report")
-    V = X[:, :2]
-    ref = _reference_graph(X, V, V.min(axis=0), V.max(axis=0), [3, 4], [0.2, 0.4], k=8,
-                           min_size=4, fragments="report")
-    nodes, edges = _node_and_edge_sets(g)
-    assert nodes == set(ref) and len(nodes) == len(ref)
-    assert edges == _reference_edges(ref, 1500)
+                          fragments="report", blocks=5)
+    ref = build_graph(X[:, :2], X, intervals=[3, 4], overlap=[0.2, 0.4], k=8, min_size=4,
+                      fragments="report", scale="raw", clusterer="element-knn")
+    _assert_same_graph(g, ref)
+
+
+def test_element_knn_rule_is_registered_and_refused_settings():
+    assert CLUSTERERS["element-knn"].whole_element
+    cloud = open_partitioned(da.from_array(np.arange(40.0).reshape(20, 2), chunks=(10, 2)))
+    lens = partitioned_lenses(cloud, ["column:name=x0"])
+    with pytest.raises(ParameterError, match="raw lens values .* scale='raw'"):
+        partitioned_graph(lens, GraphSettings(clusterer="element-knn"))
+    with pytest.raises(ParameterError, match="clusterer='element-knn'"):
+        partitioned_graph(lens, GraphSettings(scale="raw"))
 
 
 def test_interval_ranges_equal_the_cover():
@@ -295,7 +331,7 @@ def test_duplicate_ids_across_partitions(client, tmp_path):
         open_partitioned(tmp_path, id_column="id")
 
 
-def test_cli_commands_on_a_local_cluster(tmp_path):
+def test_cli_scheduler_option_on_a_local_cluster(tmp_path):
     from click.testing import CliRunner
 
     from lenswork.cli import cli
@@ -304,16 +340,63 @@ def test_cli_commands_on_a_local_cluster(tmp_path):
     a = rng.uniform(0, 2 * np.pi, 900)
     X = np.column_stack([np.cos(a), np.sin(a)]) + rng.normal(0, 0.02, (900, 2))
     (tmp_path / "d").mkdir()
-    data = _parquet_dir(tmp_path / "d", X, 3)
-    common = ["--scheduler", "local", "--workers", "1", "--lens", "column:name=f0"]
-    r = CliRunner().invoke(cli, ["--quiet", "cluster-lenses", str(data), *common, "-o",
-                                 str(tmp_path / "lens")])
+    data = str(_parquet_dir(tmp_path / "d", X, 3))
+    run = CliRunner().invoke
+    # the partitioned `compute` on a LocalCluster of one worker, with Dask's progress bar
+    r = run(cli, ["--progress", "compute", data, "--scheduler", "local", "--workers", "1",
+                  "--memory-limit", "1GB", "--lens", "column:name=f0", "--lens", "eccentricity",
+                  "-o", str(tmp_path / "lens")])
+    assert r.exit_code == 0, r.output
+    assert "Completed" in r.stderr and "eccentricity: exact" in r.stdout
+    back = pd.concat([pd.read_parquet(tmp_path / "lens" / f"part-{i:05d}.parquet")
+                      for i in range(3)])
+    np.testing.assert_allclose(back["eccentricity"], eccentricity(X), rtol=1e-12)
+    # a directory without --scheduler: a clear message, no traceback
+    r = run(cli, ["compute", data, "--lens", "pca"])
+    assert r.exit_code == 2 and "add --scheduler local" in r.output
+
+
+def test_cli_graph_and_aliases_on_a_scheduler_address(client, tmp_path):
+    from click.testing import CliRunner
+
+    from lenswork.cli import cli
+
+    rng = np.random.default_rng(31)
+    a = rng.uniform(0, 2 * np.pi, 900)
+    X = np.column_stack([np.cos(a), np.sin(a)]) + rng.normal(0, 0.02, (900, 2))
+    (tmp_path / "d").mkdir()
+    data = str(_parquet_dir(tmp_path / "d", X, 3))
+    address = ["--scheduler", client.scheduler.address]
+    run = CliRunner().invoke
+    r = run(cli, ["--quiet", "graph", data, *address, "--lens", "column:name=f0",
+                  "--intervals", "8", "-o", str(tmp_path / "g")])
+    assert r.exit_code == 0, r.output
+    assert "loops 1" in r.output  # a noisy circle (Mapper, 2007)
+    files = {p.name for p in (tmp_path / "g").iterdir()}
+    assert {"graph.json", "graph.graphml", "memberships.csv", "graph.png", "graph.svg"} <= files
+    # the same graph as the one-machine command on the same rows with the same rule
+    np.save(tmp_path / "t.npy", X)
+    r1 = run(cli, ["--quiet", "graph", str(tmp_path / "t.npy"), "--lens", "column:name=x0",
+                   "--intervals", "8", "--cover-scale", "raw", "--clusterer", "element-knn",
+                   "--no-figure", "-o", str(tmp_path / "g1")])
+    assert r1.exit_code == 0, r1.output
+    assert r.output.splitlines()[:2] == r1.output.splitlines()[:2]  # nodes, edges, loops
+    m = pd.read_csv(tmp_path / "g" / "memberships.csv")
+    m1 = pd.read_csv(tmp_path / "g1" / "memberships.csv")
+    assert len(m) == len(m1) and m.iloc[:, 1].nunique() == m1.iloc[:, 1].nunique()
+    # a rank cover or another clusterer asked for explicitly is refused with the reason
+    r = run(cli, ["graph", data, *address, "--lens", "column:name=f0", "--cover-scale",
+                  "rank", "-o", str(tmp_path / "g2")])
+    assert r.exit_code == 1 and "scale='raw'" in r.output
+    # the earlier command names run the same code
+    common = [*address, "--lens", "column:name=f0"]
+    r = run(cli, ["--quiet", "cluster-lenses", data, *common, "-o", str(tmp_path / "lens")])
     assert r.exit_code == 0, r.output
     assert (tmp_path / "lens" / "lenses.json").exists()
-    r = CliRunner().invoke(cli, ["--quiet", "cluster-graph", str(data), *common,
-                                 "--intervals", "8", "-o", str(tmp_path / "g.json")])
+    r = run(cli, ["--quiet", "cluster-graph", data, *common, "--intervals", "8", "-o",
+                  str(tmp_path / "g.json")])
     assert r.exit_code == 0, r.output
-    assert "1 loops" in r.output  # a noisy circle (Mapper, 2007)
+    assert "1 loops" in r.output
 
 
 def test_screen_on_a_sample_then_lenses_on_all_partitions(client):

@@ -8,7 +8,8 @@ from ..graph import LAYOUTS, build_graph, write_graph_json, write_graphml, write
 from ..lenses import compute_lenses
 from ..table import LensTable
 from ..workspace import Workspace
-from ._common import graph_options, input_options, output_dir
+from ._common import graph_options, output_dir
+from ._partitioned import cluster_input_options, partitioned_settings, refuse_with_scheduler
 
 __all__ = ["COMMANDS"]
 
@@ -28,7 +29,7 @@ def _names(text):
 
 
 @click.command("graph")
-@input_options
+@cluster_input_options
 @click.option("-l", "--lens", "lens_specs", multiple=True, metavar="SPEC",
               help="A lens as name or name:key=value,... (repeatable; `lenswork lenses` lists "
               "them). Two or more lens columns give a product cover.")
@@ -50,7 +51,7 @@ def _names(text):
 @click.option("--no-figure", is_flag=True, help="Skip the drawing (PNG and SVG).")
 @graph_options()
 def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, layout, out_dir,
-                  no_figure, settings, neighbor_method):
+                  no_figure, settings, neighbor_method, cluster=None):
     """Build a Mapper graph of TABLE (or --demo) over lens columns and summarise it.
 
     The lenses come from --lens (computed here on the shared neighbour graph) or
@@ -66,20 +67,30 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
     writes to OUT: graph.graphml, graph.json,
     memberships.csv (row id -> node) and graph.png / graph.svg. Everything is
     computed before the first file is written.
+
+    With --scheduler, TABLE is a directory of Parquet or CSV partitions (or a
+    glob): the --lens columns and the graph are computed on a Dask cluster, on
+    raw-value intervals with the element-knn clusterer (the same graph as
+    --cover-scale raw --clusterer element-knn on one machine).
     """
     if not lens_specs and not lens_file:
         raise click.UsageError("Give at least one --lens or a --lens-file.")
     if use and not lens_file:
         raise click.UsageError("--use picks columns of a --lens-file; give the --lens-file too.")
     out = output_dir(out_dir)
-    ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
-    columns = []
-    if lens_file:
-        columns += list(LensTable.read(lens_file, cloud, columns=_names(use)))
-    if lens_specs:
-        columns += list(compute_lenses(ws, list(lens_specs)))
-    table = LensTable(columns, cloud, random_state=seed)
-    graph = build_graph(table, ws, settings, columns=_names(stat_columns))
+    if cluster is not None:  # --scheduler: lenses and graph on partitions (element-knn rule)
+        refuse_with_scheduler(lens_file=lens_file, stats=stat_columns,
+                              neighbors=neighbor_method != "auto")
+        graph = cluster.graph(lens_specs, partitioned_settings(settings))
+    else:
+        ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
+        columns = []
+        if lens_file:
+            columns += list(LensTable.read(lens_file, cloud, columns=_names(use)))
+        if lens_specs:
+            columns += list(compute_lenses(ws, list(lens_specs)))
+        table = LensTable(columns, cloud, random_state=seed)
+        graph = build_graph(table, ws, settings, columns=_names(stat_columns))
     if color is not None:
         graph.node_values(color)  # a wrong name fails here, before any file is written
     figures = {}

@@ -9,7 +9,12 @@ import click
 from ..lenses import ENDINGS, compute_lenses, get_lens, lens_names
 from ..normalize import NORMALIZATIONS
 from ..workspace import Workspace
-from ._common import input_options
+from ._partitioned import (
+    cluster_input_options,
+    lens_out_dir,
+    print_lens_run,
+    refuse_with_scheduler,
+)
 
 __all__ = ["COMMANDS"]
 
@@ -37,7 +42,7 @@ def list_lenses(only):
 
 
 @click.command("compute")
-@input_options
+@cluster_input_options
 @click.option(
     "-l", "--lens", "lenses", multiple=True, required=True, metavar="SPEC",
     help="A lens as name or name:key=value,... (repeatable). `lenswork lenses` lists them.",
@@ -50,14 +55,25 @@ def list_lenses(only):
               help="Write normalised values (recorded in the sidecar) instead of raw ones.")
 @click.option("--neighbors", "neighbor_method", type=click.Choice(["auto", "exact", "approximate"]),
               default="auto", show_default=True, help="Neighbour-graph back end.")
-def compute(cloud, seed, lenses, out, normalization, neighbor_method):
+def compute(cloud, seed, lenses, out, normalization, neighbor_method, cluster=None):
     """Compute lens columns for TABLE (or --demo) and write them beside the row ids.
 
     The output holds the id column, the passthrough columns and one column per lens
     output, in input order; rows kept out with --skip-invalid are written with
     empty lens values. OUT.json records each lens's parameters, mode and error
     estimate, the library version, the input checksum and the seed.
+
+    With --scheduler, TABLE is a directory of Parquet or CSV partitions (or a
+    glob) and the columns are computed on a Dask cluster and written to the
+    directory OUT (one Parquet file per partition and lenses.json; default
+    lenses/).
     """
+    if cluster is not None:  # the partitioned path (lenswork.partitioned)
+        refuse_with_scheduler(normalize=normalization, neighbors=neighbor_method != "auto")
+        ctx = click.get_current_context()
+        out = lens_out_dir(out, ctx.get_parameter_source("out").name == "DEFAULT")
+        lens, files = cluster.write_lenses(lenses, out)
+        return print_lens_run(cluster.cloud, lens, files, out)
     ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
     table = compute_lenses(ws, list(lenses))
     if normalization:

@@ -1,31 +1,284 @@
-"""CLI: lens columns and graphs of partitioned data on a Dask cluster (the ``dask`` extra)."""
+"""CLI: the partitioned path of ``compute`` and ``graph`` (``--scheduler``), on Dask.
+
+``lenswork compute DATA --scheduler ADDRESS|local`` and ``lenswork graph DATA
+--scheduler ...`` run on a Dask cluster: DATA is then a directory of Parquet or
+CSV partitions (or a glob), read by partition. :func:`cluster_input_options`
+replaces the commands' ``input_options`` and hands them a :class:`ClusterRun`
+(``cluster=``) instead of a loaded table; the commands ``cluster-lenses`` and
+``cluster-graph`` are the same two code paths under their earlier names.
+"""
 
 from __future__ import annotations
 
 import contextlib
+import functools
+import sys
 from pathlib import Path
 
 import click
 
-__all__ = ["COMMANDS"]
+from .. import _progress
+from ._common import input_options
+
+__all__ = [
+    "COMMANDS",
+    "ClusterRun",
+    "cluster_input_options",
+    "lens_out_dir",
+    "partitioned_settings",
+    "print_lens_run",
+    "refuse_with_scheduler",
+]
+
+#: Endings of a single-file table: with --scheduler the lens columns go to a directory.
+_FILE_ENDINGS = (".csv", ".tsv", ".txt", ".npy", ".json")
 
 
-def _cluster_options(func):
+def _scheduler_options(func, default=None):
     func = click.option(
-        "--scheduler", default="local", show_default=True, metavar="ADDRESS|local",
-        help="A Dask scheduler address (tcp://host:8786) or 'local' for a LocalCluster.",
+        "--scheduler", default=default, show_default=default is not None,
+        metavar="ADDRESS|local",
+        help="Run on a Dask cluster: a scheduler address (tcp://host:8786) or 'local' for a "
+        "LocalCluster on this machine. TABLE is then a directory of Parquet or CSV partitions "
+        "(or a glob), read by partition.",
     )(func)
     func = click.option("--workers", default=2, show_default=True, type=int,
-                        help="Workers of the local cluster.")(func)
-    func = click.option("--memory-limit", default="auto", show_default=True,
-                        help="Memory limit per local worker (e.g. 2GB); workers spill above "
-                        "60% of it.")(func)
+                        help="With --scheduler local: number of workers (one thread each).")(func)
+    func = click.option("--memory-limit", default="auto", show_default=True, metavar="SIZE",
+                        help="With --scheduler local: memory limit per worker (e.g. 600MB); "
+                        "workers spill to disk above 60% of it.")(func)
+    func = click.option("--landmarks", default=2000, show_default=True, type=int,
+                        help="With --scheduler: size of the seeded sample the estimated "
+                        "lenses (density, dtm, eccentricity p != 2, laplacian) use.")(func)
+    return func
+
+
+def _root_params():
+    ctx = click.get_current_context(silent=True)
+    return ctx.find_root().params if ctx is not None else {}
+
+
+def _computer(client, show):
+    """compute(list of delayed) on the client, with Dask's progress bar (on stderr) if ``show``."""
+
+    def compute(items):
+        futures = client.compute(items)
+        if show:
+            from distributed import progress
+
+            with contextlib.redirect_stdout(sys.stderr):  # the bar writes to stdout
+                progress(futures, scheduler=client.scheduler.address)
+            click.echo("", err=True)
+        return client.gather(futures)
+
+    return compute
+
+
+class ClusterRun:
+    """One command's run on a Dask scheduler: the client, the source and its options.
+
+    A context manager: entering connects to ``scheduler`` (or starts a
+    LocalCluster), leaving closes the client (and a local cluster with it).
+    """
+
+    def __init__(self, source, *, features=None, id_column=None, scale=None, invalid="error",
+                 seed=0, landmarks=2000, scheduler="local", workers=2, memory_limit="auto",
+                 show_progress=False):
+        self.source, self.features, self.id_column = source, features, id_column
+        self.scale, self.invalid, self.seed, self.landmarks = scale, invalid, seed, landmarks
+        self.scheduler, self.workers, self.memory_limit = scheduler, workers, memory_limit
+        self.show_progress = show_progress
+        self.client = None
+        self._current = None
+        self.cloud = None
+
+    def __enter__(self):
+        from ..partitioned import start_client
+
+        with _progress.step(f"cluster: connect to {self.scheduler}"):
+            self.client = start_client(self.scheduler, workers=self.workers,
+                                       memory_limit=self.memory_limit)
+        # every dask.compute of the run goes to this client, whatever other clients exist
+        self._current = self.client.as_current()
+        self._current.__enter__()
+        return self
+
+    def __exit__(self, *exc):
+        if self.client is not None:
+            self._current.__exit__(None, None, None)
+            self.client.close()
+            self.client = None
+
+    @property
+    def compute(self):
+        """``compute(list of delayed) -> results`` on this run's client, with progress."""
+        return _computer(self.client, self.show_progress)
+
+    def open(self):
+        """The PartitionedCloud of the source (read and validated once)."""
+        from ..partitioned import open_partitioned
+
+        if self.cloud is None:
+            with _progress.step(f"cluster: read and check the partitions of {self.source}"):
+                self.cloud = open_partitioned(self.source, features=self.features,
+                                              id_column=self.id_column, scale=self.scale,
+                                              invalid=self.invalid)
+        return self.cloud
+
+    def lenses(self, specs):
+        """PartitionedLenses of ``specs`` on the source."""
+        from ..partitioned import partitioned_lenses
+
+        return partitioned_lenses(self.open(), list(specs), landmarks=self.landmarks,
+                                  random_state=self.seed)
+
+    def write_lenses(self, specs, out):
+        """Lens columns as one Parquet file per partition plus lenses.json in ``out``."""
+        lens = self.lenses(specs)
+        return lens, lens.write(out, compute=self.compute)
+
+    def graph(self, specs, settings):
+        """The LensGraph of ``specs`` (partitioned_graph with these GraphSettings)."""
+        from ..partitioned import partitioned_graph
+
+        return partitioned_graph(self.lenses(specs), settings, compute=self.compute)
+
+
+def refuse_with_scheduler(**given):
+    """UsageError naming the first option given (``--name=value`` pairs that are set)."""
+    for flag, value in given.items():
+        if value:
+            raise click.UsageError(
+                f"--{flag.replace('_', '-')} is not offered with --scheduler (the partitioned "
+                f"path); drop it, or run on one machine without --scheduler."
+            )
+
+
+def partitioned_settings(settings):
+    """The graph command's GraphSettings for the partitioned path.
+
+    The cover scale and the clusterer left at their defaults become ``raw``
+    and ``element-knn`` (the only ones the partitioned graph lays); values
+    given on the command line are kept, so a rank cover or another clusterer
+    is refused by :func:`lenswork.partitioned.partitioned_graph` with its
+    message.
+    """
+    changes = {}
+    if not _explicit("graph_scale"):
+        changes["scale"] = "raw"
+    if not _explicit("graph_clusterer"):
+        changes["clusterer"] = "element-knn"
+    return settings.replace(**changes)
+
+
+def _explicit(name):
+    from click.core import ParameterSource
+
+    ctx = click.get_current_context()
+    return ctx.get_parameter_source(name) not in (ParameterSource.DEFAULT, None)
+
+
+def cluster_input_options(func):
+    """``input_options`` plus ``--scheduler``, ``--workers``, ``--memory-limit``, ``--landmarks``.
+
+    Without ``--scheduler`` the command runs as before (``cloud`` is the
+    loaded table, ``cluster=None``). With it, the command receives
+    ``cloud=None`` and ``cluster`` (an open :class:`ClusterRun`) and must take
+    its data from there.
+    """
+    inner = input_options(func)
+
+    @functools.wraps(inner)
+    def wrapper(*args, scheduler, workers, memory_limit, landmarks, **kwargs):
+        if scheduler is None:
+            for name in ("workers", "memory_limit", "landmarks"):
+                if _explicit(name):
+                    raise click.UsageError(
+                        f"--{name.replace('_', '-')} sets up the Dask run; give --scheduler "
+                        f"ADDRESS|local too."
+                    )
+            table = kwargs.get("table")
+            if table is not None and Path(table).is_dir():
+                raise click.UsageError(
+                    f"TABLE {table!r} is a directory. A directory of partitions is read on a Dask "
+                    f"cluster: add --scheduler local (or a scheduler address)."
+                )
+            return inner(*args, cluster=None, **kwargs)
+        table, demo = kwargs.pop("table"), kwargs.pop("demo")
+        features, id_column = kwargs.pop("features"), kwargs.pop("id_column")
+        scale, skip_invalid = kwargs.pop("scale"), kwargs.pop("skip_invalid")
+        delimiter, seed = kwargs.pop("delimiter"), kwargs.pop("seed")
+        if demo or table is None:
+            raise click.UsageError(
+                "With --scheduler give TABLE as a directory of Parquet or CSV partitions or a "
+                "glob (the demo data runs on one machine: drop --scheduler)."
+            )
+        if scale == "robust":
+            raise click.UsageError(
+                "--scale robust needs global medians, which partitions do not give exactly; use "
+                "--scale zscore or none with --scheduler."
+            )
+        if delimiter is not None:
+            raise click.UsageError(
+                "--delimiter is not read with --scheduler; CSV partitions are comma-separated "
+                "(.csv) or tab-separated (.tsv) by their ending."
+            )
+        feats = None
+        if features:
+            feats = [f.strip() for f in features.split(",") if f.strip()]
+            if any(f.isdigit() for f in feats):
+                raise click.UsageError(
+                    "With --scheduler give --features as column names (partitions may order "
+                    "their columns differently)."
+                )
+        root = _root_params()
+        show = _progress.progress_wanted(quiet=bool(root.get("quiet")), force=root.get("progress"))
+        run = ClusterRun(
+            table, features=feats, id_column=id_column,
+            scale=None if scale in (None, "none") else scale,
+            invalid="exclude" if skip_invalid else "error", seed=seed,
+            landmarks=landmarks, scheduler=scheduler, workers=workers, memory_limit=memory_limit,
+            show_progress=show,
+        )
+        with run:
+            return func(*args, cloud=None, seed=seed, cluster=run, **kwargs)
+
+    for param in wrapper.__click_params__:
+        if param.name == "table":  # a directory of partitions (or a glob) is a TABLE here
+            param.type = click.Path()
+    return _scheduler_options(wrapper)
+
+
+def lens_out_dir(out, default_used):
+    """The directory the partitioned lens columns go to, from ``compute``'s ``-o``."""
+    path = Path(out)
+    if default_used:
+        return path.with_suffix("")
+    if path.suffix.lower() in _FILE_ENDINGS:
+        raise click.UsageError(
+            f"With --scheduler the lens columns are written as one Parquet file per partition "
+            f"into a directory; give -o DIR (or DIR.parquet), not {out!r}."
+        )
+    if path.exists() and not path.is_dir():
+        raise click.UsageError(f"Output {out!r} is a file; give a directory path.")
+    return path
+
+
+def print_lens_run(cloud, lens, files, out):
+    """The closing lines of a partitioned lens run."""
+    for name, prov in zip(lens.names, lens.provenance):
+        how = "exact" if prov.get("exact") else "estimated"
+        extra = f", error bound {prov['error_bound']:.4g}" if "error_bound" in prov else ""
+        click.echo(f"{name}: {how}{extra}")
+    click.echo(f"{cloud.n:,} rows in {cloud.n_partitions} partitions; wrote {len(files)} files "
+               f"to {out}")
+
+
+def _alias_options(func):
     func = click.option("-l", "--lens", "lenses", multiple=True, required=True,
                         help="Lens spec, repeatable: pca:components=2, eccentricity, "
                         "eccentricity:p=1, column:name=COL, density, dtm:mass=0.05, "
                         "laplacian:components=2,k=15.")(func)
-    func = click.option("--landmarks", default=2000, show_default=True, type=int,
-                        help="Broadcast sample size of the estimated lenses.")(func)
     func = click.option("--seed", default=0, show_default=True, type=int,
                         help="Seed of the landmark sample.")(func)
     func = click.option("-f", "--features", default=None, metavar="COLS",
@@ -36,72 +289,41 @@ def _cluster_options(func):
                         show_default=True,
                         help="z-score each feature with the mean and sd of all rows.")(func)
     func = click.argument("source")(func)
-    return func
+    return _scheduler_options(func, default="local")
 
 
-@contextlib.contextmanager
-def _session(scheduler, workers, memory_limit):
-    from ..partitioned import start_client
-
-    client = start_client(scheduler, workers=workers, memory_limit=memory_limit)
-    try:
-        yield client
-    finally:
-        client.close()
-
-
-def _computer(client, quiet):
-    """compute(list of delayed) on the client, counting finished tasks on lenswork's progress."""
-
-    def compute(items):
-        futures = client.compute(items)
-        if not quiet:  # one line on stderr, silent off a terminal unless asked (_progress)
-            from distributed import as_completed
-
-            from .. import _progress
-
-            for _ in _progress.track(as_completed(futures), "dask: partitions computed",
-                                     length=len(futures)):
-                pass
-        return client.gather(futures)
-
-    return compute
-
-
-def _open(source, features, id_column, scale, lenses, landmarks, seed):
-    from ..partitioned import open_partitioned, partitioned_lenses
-
+def _alias_run(source, features, id_column, scale, seed, landmarks, scheduler, workers,
+               memory_limit):
+    root = _root_params()
+    show = _progress.progress_wanted(quiet=bool(root.get("quiet")), force=root.get("progress"))
     feats = [f.strip() for f in features.split(",")] if features else None
-    cloud = open_partitioned(source, features=feats, id_column=id_column,
-                             scale=None if scale == "none" else scale)
-    return cloud, partitioned_lenses(cloud, list(lenses), landmarks=landmarks,
-                                     random_state=seed)
+    return ClusterRun(source, features=feats, id_column=id_column,
+                      scale=None if scale == "none" else scale, seed=seed, landmarks=landmarks,
+                      scheduler=scheduler, workers=workers, memory_limit=memory_limit,
+                      show_progress=show)
 
 
 @click.command("cluster-lenses")
-@_cluster_options
+@_alias_options
 @click.option("-o", "--out", required=True, type=click.Path(file_okay=False),
               help="Directory for one Parquet file of lens columns per partition and "
               "lenses.json.")
-@click.pass_context
-def cluster_lenses(ctx, source, features, id_column, scale, lenses, landmarks, seed, scheduler,
-                   workers, memory_limit, out):
-    """Compute lens columns on every partition of SOURCE on a Dask cluster.
+def cluster_lenses(source, features, id_column, scale, lenses, seed, scheduler, workers,
+                   memory_limit, landmarks, out):
+    """Lens columns of SOURCE on a Dask cluster: `lenswork compute SOURCE --scheduler ...`.
 
     SOURCE is a directory of Parquet or CSV files (one partition each) or a glob.
     Exact lenses (pca, eccentricity with p = 2, column) equal the single-machine
     ones; the others state their error in lenses.json.
     """
-    quiet = (ctx.obj or {}).get("quiet", False)
-    with _session(scheduler, workers, memory_limit) as client:
-        cloud, lens = _open(source, features, id_column, scale, lenses, landmarks, seed)
-        files = lens.write(out, compute=_computer(client, quiet))
-    click.echo(f"{cloud.n:,} rows in {cloud.n_partitions} partitions; columns "
-               f"{', '.join(lens.names)}; wrote {len(files)} files to {out}")
+    with _alias_run(source, features, id_column, scale, seed, landmarks, scheduler, workers,
+                    memory_limit) as run:
+        lens, files = run.write_lenses(lenses, out)
+        print_lens_run(run.cloud, lens, files, out)
 
 
 @click.command("cluster-graph")
-@_cluster_options
+@_alias_options
 @click.option("--intervals", default=10, show_default=True, type=int,
               help="Intervals per lens (on the raw lens values).")
 @click.option("--overlap", default=0.3, show_default=True, type=float,
@@ -112,23 +334,21 @@ def cluster_lenses(ctx, source, features, id_column, scale, lenses, landmarks, s
               help="Groups with fewer points are fragments (attached to the nearest kept one).")
 @click.option("-o", "--out", required=True, type=click.Path(dir_okay=False),
               help="Graph JSON file.")
-@click.pass_context
-def cluster_graph(ctx, source, features, id_column, scale, lenses, landmarks, seed, scheduler,
-                  workers, memory_limit, intervals, overlap, k, min_size, out):
-    """Build the Mapper graph (Mapper, 2007) of SOURCE's lens columns on a Dask cluster.
+def cluster_graph(source, features, id_column, scale, lenses, seed, scheduler, workers,
+                  memory_limit, landmarks, intervals, overlap, k, min_size, out):
+    """The graph of SOURCE on a Dask cluster as one JSON file (see `lenswork graph --scheduler`).
 
     Rows are routed to cover elements (raw-value intervals), each element is
-    clustered on a worker by a neighbour graph inside it, and the nerve comes
-    from the membership lists; the graph is written as JSON.
+    clustered on a worker by a neighbour graph inside it (the element-knn rule),
+    and the nerve comes from the membership lists.
     """
-    from ..graph import write_graph_json
-    from ..partitioned import partitioned_graph
+    from ..graph import GraphSettings, write_graph_json
 
-    quiet = (ctx.obj or {}).get("quiet", False)
-    with _session(scheduler, workers, memory_limit) as client:
-        _, lens = _open(source, features, id_column, scale, lenses, landmarks, seed)
-        graph = partitioned_graph(lens, intervals=intervals, overlap=overlap, k=k,
-                                  min_size=min_size, compute=_computer(client, quiet))
+    settings = GraphSettings(intervals=intervals, overlap=overlap, k=k, min_size=min_size,
+                             scale="raw", clusterer="element-knn")
+    with _alias_run(source, features, id_column, scale, seed, landmarks, scheduler, workers,
+                    memory_limit) as run:
+        graph = run.graph(lenses, settings)
     write_graph_json(graph, Path(out))
     s = graph.summary()
     click.echo(f"{graph.n_nodes} nodes, {graph.n_edges} edges, {s.n_components} components, "

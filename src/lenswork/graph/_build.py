@@ -11,7 +11,7 @@ from .._errors import LensworkWarning, ParameterError
 from .._version import __version__
 from ..table import as_lens_table
 from ..workspace import Workspace
-from ._cluster import cluster_elements, clusterer_name
+from ._cluster import CLUSTERERS, cluster_elements, clusterer_name
 from ._cover import CoverBase
 from ._lensgraph import LensGraph
 from ._nerve import membership_matrix, nerve_edges
@@ -320,8 +320,9 @@ def _build(table, ws, settings, columns, auto):
     with _progress.step(f"graph: cover of {', '.join(names)}"):
         cover = settings.make_cover().fit(values, names)
         rows, elements = cover.incidence(order=cover.values_[:, 0])
+    own = isinstance(clusterer, str) and CLUSTERERS[clusterer].whole_element  # no shared graph
     uses_graph = (isinstance(clusterer, str) and clusterer == "graph") \
-        or settings.fragments == "attach"
+        or (settings.fragments == "attach" and not own)
     if uses_graph:
         ws.neighbors(k, metric)  # computed (or found in the cache) outside the timed steps below
     with _progress.step(f"graph: clusters of {cover.n_elements} cover elements"):

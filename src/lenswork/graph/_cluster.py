@@ -13,6 +13,14 @@ Two named rules and any scikit-learn clusterer; one table (:data:`CLUSTERERS`, n
     Single linkage on the element's points (``scipy.cluster.hierarchy``), cut
     at the first gap of the histogram of merge distances, the rule proposed
     with Mapper (2007). O(m^2) memory per element: small data only.
+``"element-knn"``
+    A neighbour graph built inside each element from the element's points
+    alone (:func:`cluster_element`): components of its k-NN graph, the
+    cut-off rule applied to the element's own neighbour distances, each
+    fragment attached to the kept group of the exactly nearest kept point.
+    It reads nothing outside the element, so the partitioned graph
+    (:mod:`lenswork.partitioned`), which clusters each element on a worker,
+    gives the same nodes with it as :func:`lenswork.build_graph` does here.
 any object with ``fit_predict``
     A scikit-learn clusterer, cloned for each element; label -1 means noise.
 
@@ -71,6 +79,7 @@ __all__ = [
     "ClusterRule",
     "ElementContext",
     "check_clusterer",
+    "cluster_element",
     "check_cutoff",
     "cluster_elements",
     "clusterer_name",
@@ -121,6 +130,125 @@ def _fence_cutoff(distances):
 
 
 _CUTOFF_RULES = {"auto": _gap_cutoff, "fence": _fence_cutoff}
+
+#: Rows of a distance block of the element clusterer's neighbour search (scikit-learn's
+#: ``working_memory`` in MiB): keeps a worker's memory small whatever the element's size.
+ELEMENT_WORKING_MEMORY = 64
+
+
+def cluster_element(X_element, rows, *, k=15, cutoff="auto", min_size=10, fragments="attach",
+                    metric="euclidean"):
+    """Cluster the points of one cover element on a neighbour graph inside the element.
+
+    Parameters
+    ----------
+    X_element : ndarray of shape (m, n_features)
+        The element's points.
+    rows : ndarray of shape (m,), int
+        Their row positions in the whole data (they order the clusters).
+    k : int, default=15
+        Neighbours per point, among the element's points.
+    cutoff : float or {"auto", "fence", "none"}, default="auto"
+        Longest edge kept; the rules of :func:`neighbor_cutoff` applied to this
+        element's own ``m k`` neighbour distances.
+    min_size : int, default=10
+        Groups with fewer points are fragments.
+    fragments : {"attach", "report"}, default="attach"
+        ``"attach"``: each fragment joins the kept group holding the point
+        nearest to it (exactly, over all kept points of the element; ties to
+        the smaller group label), when that point lies within the cut-off;
+        ``"report"``: fragments stay out.
+    metric : {"euclidean", "manhattan", "chebyshev", "cosine"}, default="euclidean"
+
+    Returns
+    -------
+    labels : ndarray of shape (m,), int64
+        Cluster of each point, numbered 0.. in the order of their smallest
+        row; -1 for points left out.
+    report : dict
+        ``groups``, ``fragment_groups``, ``attached_groups``,
+        ``attached_points``, ``left_out_points``, ``cutoff`` (None when
+        infinite).
+
+    Notes
+    -----
+    The weakly connected components of the directed k-NN graph of the element
+    (``scipy.sparse.csgraph.connected_components``), edges longer than the
+    cut-off removed. The neighbour search is scikit-learn's exact one, brute
+    force in blocks of :data:`ELEMENT_WORKING_MEMORY` MiB in high dimension
+    (O(m^2 d) time), a tree in low dimension (O(m k log m)). A plain function
+    of the element alone: the same points in the same order give the same
+    labels on a worker and in one process.
+
+    Examples
+    --------
+    >>> X = np.concatenate([np.zeros((12, 1)), np.full((12, 1), 5.0)])
+    >>> X = X + np.arange(24)[:, None] / 1e3
+    >>> labels, report = cluster_element(X, np.arange(24), k=3)
+    >>> np.bincount(labels).tolist(), report["groups"]
+    ([12, 12], 2)
+    """
+    import scipy.sparse as sp
+    from scipy.sparse.csgraph import connected_components
+    from sklearn import config_context
+    from sklearn.neighbors import NearestNeighbors
+
+    X = np.asarray(X_element, dtype=np.float64)
+    rows = np.asarray(rows, dtype=np.int64)
+    m = X.shape[0]
+    report = {"groups": 0, "fragment_groups": 0, "attached_groups": 0, "attached_points": 0,
+              "left_out_points": 0, "cutoff": None}
+    if m == 0:
+        return np.zeros(0, dtype=np.int64), report
+    cutoff = check_cutoff(cutoff)
+    kk = min(k, m - 1)
+    with config_context(working_memory=ELEMENT_WORKING_MEMORY):
+        if kk >= 1:
+            dist, idx = NearestNeighbors(n_neighbors=kk + 1, metric=metric).fit(X).kneighbors(X)
+            dist, idx = dist[:, 1:], idx[:, 1:]
+            if isinstance(cutoff, str):
+                cut = _CUTOFF_RULES[cutoff](dist) if cutoff != "none" else float("inf")
+            else:
+                cut = float(cutoff)
+            keep = (dist <= cut).ravel()
+            r = np.repeat(np.arange(m), kk)[keep]
+            A = sp.csr_matrix((np.ones(r.size), (r, idx.ravel()[keep])), shape=(m, m))
+            _, lab = connected_components(A, directed=True, connection="weak")
+        else:
+            cut = float(cutoff) if not isinstance(cutoff, str) else float("inf")
+            lab = np.zeros(m, dtype=np.int64)
+        report["cutoff"] = None if np.isinf(cut) else float(cut)
+        lab = lab.astype(np.int64)
+        sizes = np.bincount(lab)
+        kept = sizes >= min_size
+        report["groups"] = int(sizes.size)
+        report["fragment_groups"] = int((~kept).sum())
+        if fragments == "attach" and kept.any() and not kept.all():
+            kp = np.flatnonzero(kept[lab])
+            fp = np.flatnonzero(~kept[lab])
+            d1, i1 = NearestNeighbors(n_neighbors=1, metric=metric).fit(X[kp]).kneighbors(X[fp])
+            d1, target = d1[:, 0], lab[kp[i1[:, 0]]]
+            groups = lab[fp]
+            # per fragment group: the nearest kept point of any of its points (ties: smaller label)
+            order = np.lexsort((target, d1, groups))
+            first = np.ones(order.size, dtype=bool)
+            first[1:] = groups[order][1:] != groups[order][:-1]
+            pick = order[first]
+            ok = d1[pick] <= cut
+            remap = np.arange(sizes.size)
+            remap[groups[pick][ok]] = target[pick][ok]
+            report["attached_groups"] = int(ok.sum())
+            lab = remap[lab]
+    in_node = kept[lab]
+    report["left_out_points"] = int(m - in_node.sum())
+    report["attached_points"] = int(in_node.sum() - sizes[kept].sum())
+    first_row = np.full(sizes.size, np.iinfo(np.int64).max)
+    np.minimum.at(first_row, lab[in_node], rows[in_node])
+    kept_labels = np.flatnonzero(kept)
+    order = kept_labels[np.argsort(first_row[kept_labels], kind="stable")]
+    new = np.full(sizes.size, -1, dtype=np.int64)
+    new[order] = np.arange(order.size)
+    return np.where(in_node, new[lab], -1), report
 
 
 def neighbor_cutoff(workspace, k=15, cutoff="auto", metric="euclidean"):
@@ -344,12 +472,16 @@ class ClusterRule:
 
     ``ctx`` is a :class:`ElementContext`; ``uses_cut_graph`` asks the caller to
     prepare ``ctx.cut_indices`` (the neighbour lists with edges above the
-    cut-off removed).
+    cut-off removed). A ``whole_element`` rule needs neither the shared graph
+    nor the caller's fragment rule (see the field).
     """
 
     labels: object
     uses_cut_graph: bool = False
     summary: str = ""
+    #: ``labels`` applies ``min_size`` and the fragment rule itself and returns
+    #: ``(labels with -1 for points left out, numbered by smallest row; report)``.
+    whole_element: bool = False
 
 
 @dataclass
@@ -377,6 +509,17 @@ def _single_rule(pts, ctx):
     return _gap_labels(ctx.X[pts], ctx.settings.metric, ctx.settings.gap_bins)
 
 
+def _element_knn_rule(pts, ctx):
+    st = ctx.settings
+    order = np.argsort(pts, kind="stable")  # row order: the same input as on partitions
+    labels, report = cluster_element(ctx.X[pts[order]], pts[order], k=st.k, cutoff=st.cutoff,
+                                     min_size=st.min_size, fragments=st.fragments,
+                                     metric=st.metric)
+    out = np.empty_like(labels)
+    out[order] = labels
+    return out, report
+
+
 #: Clustering rules by name: one table for validation, dispatch and the CLI's choices (an
 #: object with ``fit_predict`` is accepted too, see :func:`check_clusterer`).
 CLUSTERERS = {
@@ -384,6 +527,9 @@ CLUSTERERS = {
                          summary="components of the shared k-NN graph inside the element"),
     "single": ClusterRule(_single_rule,
                           summary="single linkage cut at the first empty histogram bin"),
+    "element-knn": ClusterRule(_element_knn_rule, whole_element=True,
+                               summary="components of a k-NN graph built inside the element "
+                               "alone (the partitioned graph's rule)"),
 }
 
 
@@ -394,8 +540,9 @@ def check_clusterer(clusterer):
     if callable(getattr(clusterer, "fit_predict", None)) and hasattr(clusterer, "get_params"):
         return clusterer
     raise ParameterError(
-        f"The 'clusterer' parameter of build_graph must be a str among {{'graph', 'single'}} or "
-        f"a scikit-learn clusterer with fit_predict. Got {clusterer!r} instead."
+        f"The 'clusterer' parameter of build_graph must be a str among "
+        f"{{{', '.join(repr(c) for c in CLUSTERERS)}}} or a scikit-learn clusterer with "
+        f"fit_predict. Got {clusterer!r} instead."
     )
 
 
@@ -433,7 +580,8 @@ def cluster_elements(workspace, rows, elements, settings, random_state=None):
     X = workspace.X
     rule = CLUSTERERS[clusterer] if isinstance(clusterer, str) else None
     by_graph = rule is not None and rule.uses_cut_graph
-    needs_graph = by_graph or fragments == "attach"
+    whole = rule is not None and rule.whole_element
+    needs_graph = by_graph or (fragments == "attach" and not whole)
     cut = neighbor_cutoff(workspace, k, cutoff, metric) if needs_graph else float("nan")
     cut_idx = _cut_indices(workspace, k, metric, cut) if by_graph else None
     full_idx = None
@@ -450,6 +598,19 @@ def cluster_elements(workspace, rows, elements, settings, random_state=None):
         pts = rows[a:b]
         m = pts.size
         report["elements"] += 1
+        if whole:  # the rule applies min_size and the fragment rule itself
+            lab, rep = rule.labels(pts, ElementContext(X, loc, None, settings, element))
+            for key in ("groups", "fragment_groups", "attached_groups", "attached_points",
+                        "left_out_points"):
+                report[key] += rep[key]
+            in_node = lab >= 0
+            if in_node.any():
+                count = int(lab.max()) + 1
+                out_rows.append(pts[in_node])
+                out_nodes.append(lab[in_node] + n_nodes)
+                node_element.append(np.full(count, element, dtype=np.int64))
+                n_nodes += count
+            continue
         loc[pts] = np.arange(m, dtype=loc.dtype)
         try:
             if rule is not None:

@@ -222,7 +222,7 @@ class GraphSettings:
         Ball cover: net spacing on the cover scale.
     centres : int, optional
         Ball cover: a net of this many centres instead of the spacing ``radius``.
-    clusterer : {"graph", "single"} or scikit-learn clusterer, default="graph"
+    clusterer : {"graph", "single", "element-knn"} or scikit-learn clusterer, default="graph"
     cutoff : float or {"auto", "fence", "none"}, default="auto"
         Longest neighbour edge the graph clusterer keeps.
     min_size : int or "auto", default="auto"
@@ -275,7 +275,9 @@ class GraphSettings:
         metavar="N", kind="int"))
     clusterer: object = field(default="graph", metadata=_cli(
         "--clusterer", "graph: components of the shared k-NN graph in each element; single: "
-        "single linkage cut at the first histogram gap (small data).", choices=tuple(CLUSTERERS),
+        "single linkage cut at the first histogram gap (small data); element-knn: a k-NN graph "
+        "built inside each element alone (the --scheduler graph's rule).",
+        choices=tuple(CLUSTERERS),
         kind="choice"))
     cutoff: object = field(default="auto", metadata=_cli(
         "--cutoff", "Longest k-NN edge kept; auto cuts only at a gap in the distance tail, "

@@ -128,11 +128,16 @@ def _part_lens(part, offset, spec, ctx):
         c = math.exp(logc)
         return (f * c)[:, None], (rel * f * c)[:, None]
     if kind == "dtm":
-        w, mass = ctx["weights"], ctx["mass"]
+        w, mass, near = ctx["weights"], ctx["mass"], ctx["dtm_candidates"]
         out = np.empty(X.shape[0])
         for a in range(0, X.shape[0], _BLOCK):
             D = _sq_dist(X[a:a + _BLOCK], L)
-            order = np.argsort(D, axis=1, kind="stable")
+            if near < D.shape[1]:  # the `near` nearest landmarks carry at least the mass
+                cand = np.argpartition(D, near - 1, axis=1)[:, :near]
+                sub = np.take_along_axis(D, cand, 1)
+                order = np.take_along_axis(cand, np.argsort(sub, axis=1, kind="stable"), 1)
+            else:
+                order = np.argsort(D, axis=1, kind="stable")
             Ds = np.take_along_axis(D, order, 1)
             ws = w[order]
             cum = np.cumsum(ws, axis=1)
@@ -410,6 +415,10 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
                 [dask.delayed(_quantise, pure=True)(pt, L) for pt in parts]))[0]
             mass = p["mass"]
             sctx["weights"], sctx["mass"] = counts / n, mass
+            # any `near` landmarks weigh at least the `near` lightest ones, so a row's `near`
+            # nearest landmarks hold its mass m: the rest need no sorting
+            light = np.cumsum(np.sort(counts / n))
+            sctx["dtm_candidates"] = int(min(L.shape[0], np.searchsorted(light, mass) + 1))
             Q = math.sqrt(total / n)
             prov[0].update(
                 exact=False, landmarks=int(L.shape[0]), quantisation_error=Q,
