@@ -200,8 +200,8 @@ def _parse(item, cloud):
         p["components"] = check_int("components", p["components"], lo=1, hi=cloud.d, context=ctx)
         spec["names"] = [f"pca_{j + 1}" for j in range(p["components"])]
     elif name == "eccentricity":
-        p["p"] = check_float("p", p["p"], lo=1.0, context=ctx)
-        if not math.isfinite(p["p"]):
+        p["p"] = check_float_or_choice("p", p["p"], ("inf",), lo=1.0, lo_open=False, context=ctx)
+        if p["p"] == "inf":
             raise ParameterError(
                 "Eccentricity with p = inf is not offered on partitions (its landmark bound "
                 "needs every landmark's exact eccentricity, a pass over all pairs); use a finite "
