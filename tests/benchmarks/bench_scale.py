@@ -76,7 +76,7 @@ def make_table(n, rng):
 def run_cli(args, src, workdir):
     """Run the CLI in a fresh process; (wall seconds, peak MiB, stderr, stdout, exit code)."""
     peak_file = Path(workdir) / "peak.txt"
-    env = dict(os.environ, PYTHONPATH=str(src), MPLBACKEND="Agg")
+    env = dict(os.environ, PYTHONPATH=str(src), MPLBACKEND="Agg", LENSWORK_PROGRESS="1")
     cmd = [sys.executable, "-c", _LAUNCH, str(peak_file), *args]
     start = time.perf_counter()
     proc = subprocess.run(cmd, capture_output=True, text=True, env=env)
@@ -112,25 +112,38 @@ def summarise_steps(steps):
     return rows
 
 
-def bench_screen(n, src, tmp, keep=False):
-    rng = np.random.default_rng([SEED, n])
+def table_file(n, tmp):
     table = Path(tmp) / f"table_{n}.npy"
-    np.save(table, make_table(n, rng))
-    out = Path(tmp) / f"screen_{n}"
-    wall, peak, err, stdout, code = run_cli(["screen", str(table), "-o", str(out)], src, tmp)
+    if not table.exists():
+        np.save(table, make_table(n, np.random.default_rng([SEED, n])))
+    return table
+
+
+def bench_screen(n, src, tmp, sample=None):
+    """``lenswork screen`` at n rows (default options, or ``--sample SAMPLE``)."""
+    table = table_file(n, tmp)
+    out = Path(tmp) / f"screen_{n}_{sample or 'default'}"
+    args = ["screen", str(table), "-o", str(out)] + (["--sample", sample] if sample else [])
+    wall, peak, err, stdout, code = run_cli(args, src, tmp)
     if code != 0:
         print(f"screen n={n} failed (exit {code}):\n{err[-2000:]}", flush=True)
         return None
     steps = summarise_steps(parse_steps(err))
     top = sum(r["seconds"] for r in steps if r["depth"] == 0)
     selected = re.search(r"^Selected: (.*?) \(", stdout, re.MULTILINE)
-    print(f"\n== lenswork screen, n={n:,} x 20, fresh process: wall {wall:.1f} s, peak RSS "
-          f"{peak:,.0f} MiB; selected: {selected.group(1) if selected else '?'}", flush=True)
+    opts = f"--sample {sample}" if sample else "default options"
+    print(f"\n== lenswork screen, n={n:,} x 20, {opts}, fresh process: wall {wall:.1f} s, "
+          f"peak RSS {peak:,.0f} MiB; selected: {selected.group(1) if selected else '?'}",
+          flush=True)
     for r in steps:
         print(f"  {'  ' * r['depth']}{r['step'][:78]:<80} {r['seconds']:8.2f} s")
     print(f"  {'other (start-up, reading, probe, figures, writing outside steps)':<80} "
           f"{wall - top:8.2f} s", flush=True)
-    return {"n": n, "table": table, "out": out, "wall": wall, "peak": peak}
+    for line in stdout.splitlines():  # the sample's lines of the summary
+        if line.startswith(("Screened on a seeded sample", "Sampling error", "Confirmed on")):
+            print("  " + line)
+    chosen = [s.strip() for s in selected.group(1).split(",")] if selected else []
+    return {"n": n, "table": table, "out": out, "wall": wall, "peak": peak, "selected": chosen}
 
 
 def bench_graph(run, src, tmp):
@@ -233,12 +246,17 @@ def main():
     parser.add_argument("--graph-size", default=None,
                         help="run `lenswork graph --lens-file` at this screen size "
                              "(default: the largest)")
+    parser.add_argument("--full-check", default="1e5",
+                        help="also screen this size with --sample all and compare the choice "
+                             "('' to skip)")
     parser.add_argument("--src", default=str(SRC), help="lenswork src directory to run")
     parser.add_argument("--lens-child", type=int, help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.lens_child:
         lens_costs_child(args.lens_child)
         return
+    if args.quick:
+        args.full_check = ""
     sizes = [10_000] if args.quick else [int(float(s)) for s in args.sizes.split(",") if s]
     lens_sizes = [10_000] if args.quick else [int(float(s)) for s in args.lens_sizes.split(",")
                                               if s]
@@ -246,6 +264,16 @@ def main():
     print(f"lenswork from {src}; machine: {os.cpu_count()} cores, shared", flush=True)
     with tempfile.TemporaryDirectory(prefix="lenswork-scale-") as tmp:
         runs = [r for r in (bench_screen(n, src, tmp) for n in sizes) if r]
+        if args.full_check:
+            n = int(float(args.full_check))
+            full = bench_screen(n, src, tmp, sample="all")
+            sampled = next((r for r in runs if r["n"] == n), None)
+            if full and sampled:
+                same = sorted(full["selected"]) == sorted(sampled["selected"])
+                print(f"\n== n={n:,}: sample screen chose {sampled['selected']}, full-data "
+                      f"screen chose {full['selected']}: {'same' if same else 'DIFFERENT'}; "
+                      f"wall {sampled['wall']:.1f} s vs {full['wall']:.1f} s "
+                      f"({full['wall'] / sampled['wall']:.1f}x)", flush=True)
         if runs:
             gsize = int(float(args.graph_size)) if args.graph_size else max(r["n"] for r in runs)
             for r in runs:

@@ -6,7 +6,7 @@ import click
 
 from ..screen import screen
 from ..table import FORMATS
-from ..workspace import Workspace
+from ..workspace import METHODS, Workspace
 from ._common import input_options
 
 __all__ = ["COMMANDS"]
@@ -42,13 +42,17 @@ def _names(values):
 @click.option("--lens-format", type=click.Choice(FORMATS), default="csv", show_default=True,
               help="File format of the chosen lens columns.")
 @click.option("--neighbors", "neighbor_method",
-              type=click.Choice(["auto", "exact", "approximate"]), default="auto",
+              type=click.Choice(METHODS), default="auto",
               show_default=True, help="Neighbour-graph back end.")
+@click.option("--sample", default="auto", show_default=True, metavar="N|auto|all",
+              help="Rows the candidates are ranked on: auto = every row up to 50,000, else a "
+              "seeded sample of 20,000; N rows; all. The chosen lenses are then computed on "
+              "every row and checked against the sample run (Spearman rho).")
 @click.option("--no-figures", is_flag=True, help="Skip the figure sheet (PNG and SVG).")
 @click.option("--no-probe", is_flag=True,
               help="Rank by spread alone: skip the structure probe (graphs over a cover grid).")
 def screen_command(cloud, seed, out_dir, count, ceiling, refs, extra, no_defaults, bins,
-                   lens_format, neighbor_method, no_figures, no_probe):
+                   lens_format, neighbor_method, sample, no_figures, no_probe):
     """Rank candidate lenses for TABLE (or --demo) and keep a small non-redundant set.
 
     Computes the default candidate set (PCA and Laplacian coordinates, density at
@@ -72,6 +76,7 @@ def screen_command(cloud, seed, out_dir, count, ceiling, refs, extra, no_default
     result = screen(
         ws, lenses=[] if no_defaults else None, extra=list(extra), count=count,
         ceiling=ceiling, references=_names(refs), bins=bins, probe=not no_probe,
+        sample=sample,
     )
     click.echo(result.format_table())
     click.echo("")
