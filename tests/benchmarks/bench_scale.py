@@ -86,20 +86,37 @@ def run_cli(args, src, workdir):
     return wall, peak, proc.stderr, proc.stdout, proc.returncode
 
 
-_TOKEN = re.compile(r"  (?P<label>[^\n]+?) \.\.\.(?!\.)|(?P<secs>\d+\.\d+) s$|(?P<fail> failed)$",
-                    re.MULTILINE)
+_STEP = re.compile(r"^(?P<indent> *)(?P<label>\S.*?) \.\.\.(?: (?P<secs>[0-9.]+ s|\d+m \d+s))?$")
+_LOOP = re.compile(r"^(?P<indent> *)(?P<label>\S.*?): \d+/\d+ in (?P<secs>[0-9.]+ s|\d+m \d+s)")
+
+
+def _seconds(text):
+    if "m " in text:
+        minutes, secs = text.rstrip("s").split("m ")
+        return 60 * int(minutes) + int(secs)
+    return float(text[:-2])
 
 
 def parse_steps(stderr):
-    """Top-level and nested steps from the progress output: [(depth, label, seconds)]."""
-    stack, steps = [], []
-    for m in _TOKEN.finditer(stderr):
-        if m.group("label") is not None:
-            stack.append(m.group("label").strip())
-        elif stack:
-            label = stack.pop()
-            secs = float(m.group("secs")) if m.group("secs") else float("nan")
-            steps.append((len(stack), label, secs))
+    """Finished steps and loops from the progress output: [(depth, label, seconds)].
+
+    A step is ``label ... 1.23 s`` (or ``1m 05s``) indented two spaces per
+    level (the CLI's own lines start at two); a parent whose children were
+    printed first opens with ``label ...`` and closes with its time; a loop
+    closes with ``label: 6/6 in 0.54 s (11/s)``.
+    """
+    steps, open_ = [], []
+    for line in stderr.splitlines():
+        m = _STEP.match(line) or _LOOP.match(line)
+        if not m:
+            continue
+        label = m.group("label").strip()
+        if not m.group("secs"):  # a parent opens; its children follow
+            open_.append(label)
+            continue
+        if open_ and open_[-1] == label:
+            open_.pop()
+        steps.append((len(open_), label, _seconds(m.group("secs"))))
     return steps
 
 
