@@ -9,9 +9,13 @@ FRESH process (so numba compilation and imports are included):
 1. ``lenswork screen TABLE`` with default options: wall time, peak RSS of the
    child (VmHWM of its own address space, read at exit: getrusage would carry
    the parent's high-water mark over), and per-step seconds parsed from its
-   progress output on stderr ("label ... 1.23 s" lines, nested steps kept
-   apart); whatever the steps do not cover (reading, probe, figures) is
-   "other".
+   progress output on stderr (``LENSWORK_PROGRESS=1``; "label ... 1.23 s"
+   lines and loop lines, nested steps kept apart); whatever the top-level
+   steps do not cover (start-up, reading) is "other". Above 50,000 rows the
+   screen ranks on a seeded sample and confirms the chosen lenses on all rows;
+   its sample lines (rule, bootstrap error, Spearman agreement) are printed.
+   ``--full-check N`` (default 1e5) also runs ``--sample all`` at N rows and
+   compares the two choices.
 2. ``lenswork graph TABLE --lens-file OUT/lenses.csv`` on the chosen lenses at
    the largest size.
 3. Per-lens costs: each default candidate (``lenswork.default_candidates``)
@@ -24,7 +28,7 @@ scaling, not absolute seconds. ``--src DIR`` runs another checkout's
 ``src`` (e.g. the code before a change) for a before/after comparison.
 
 Run:  flock /tmp/lenswork-bench.lock python tests/benchmarks/bench_scale.py [--quick]
-      [--sizes 1e5,1e6] [--lens-sizes 1e4,1e5] [--src DIR]
+      [--sizes 1e5,1e6] [--lens-sizes 1e4,1e5,1e6] [--full-check 1e5|''] [--src DIR]
 """
 
 from __future__ import annotations
