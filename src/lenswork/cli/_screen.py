@@ -65,6 +65,12 @@ def screen_command(cloud, seed, out_dir, count, ceiling, refs, extra, no_default
     keeps up to --count lenses by spread x structure, never two with |rho| above
     --ceiling.
 
+    Above 50,000 rows (--sample auto) the candidates are ranked on a seeded
+    sample of 20,000 rows; only the chosen lenses are then computed on every
+    row, and the summary states the sample, the bootstrap error of the spread
+    scores and each chosen lens's Spearman rho between the sample run and the
+    full run (ranking.json, "sample").
+
     Writes to OUT: ranking.csv and ranking.json (scores, correlations, the
     reason for every decision), lenses.<format> with the chosen columns and a
     .json sidecar, and sheet.png / sheet.svg. Everything is computed before the
