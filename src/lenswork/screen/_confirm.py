@@ -60,7 +60,7 @@ import numpy as np
 
 from .. import _progress
 from .._errors import LensworkWarning, ParameterError
-from .._validation import check_int
+from .._validation import check_int, seed_of
 from ..lenses import LensTable, get_lens
 from ..workspace import Workspace
 from ._candidates import default_candidates, parse_spec
@@ -209,7 +209,7 @@ def plan_sample(ws, sample="auto"):
         if sample >= n:
             return None
         size, rule = sample, f"sample={sample:,} of n = {n:,}"
-    seed = int(ws.random_state or 0)
+    seed = seed_of(ws.random_state)
     rows = sample_rows(n, size, seed)
     sub = Workspace(
         _subset_cloud(ws.cloud, rows, rule, seed), random_state=ws.random_state,
