@@ -242,6 +242,9 @@ def bench_lens_costs(sizes, src):
         rec = json.loads(proc.stdout.strip().splitlines()[-1])
         table[n] = rec
         print(f"  per-lens n={n:,}: peak RSS {rec['peak']:,.0f} MiB", flush=True)
+        for r in rec["rows"]:  # each size as soon as it is done
+            print(f"    {r['lens'][:34]:<36}{r['seconds']:10.2f} s   {r['mode']} / {r['error']}",
+                  flush=True)
     if not table:
         return
     print("\n== per-lens cost (seconds; mode; error from LensColumn info), fresh process per n")
