@@ -9,9 +9,13 @@ FRESH process (so numba compilation and imports are included):
 1. ``lenswork screen TABLE`` with default options: wall time, peak RSS of the
    child (VmHWM of its own address space, read at exit: getrusage would carry
    the parent's high-water mark over), and per-step seconds parsed from its
-   progress output on stderr ("label ... 1.23 s" lines, nested steps kept
-   apart); whatever the steps do not cover (reading, probe, figures) is
-   "other".
+   progress output on stderr (``LENSWORK_PROGRESS=1``; "label ... 1.23 s"
+   lines and loop lines, nested steps kept apart); whatever the top-level
+   steps do not cover (start-up, reading) is "other". Above 50,000 rows the
+   screen ranks on a seeded sample and confirms the chosen lenses on all rows;
+   its sample lines (rule, bootstrap error, Spearman agreement) are printed.
+   ``--full-check N`` (default 1e5) also runs ``--sample all`` at N rows and
+   compares the two choices.
 2. ``lenswork graph TABLE --lens-file OUT/lenses.csv`` on the chosen lenses at
    the largest size.
 3. Per-lens costs: each default candidate (``lenswork.default_candidates``)
@@ -24,7 +28,7 @@ scaling, not absolute seconds. ``--src DIR`` runs another checkout's
 ``src`` (e.g. the code before a change) for a before/after comparison.
 
 Run:  flock /tmp/lenswork-bench.lock python tests/benchmarks/bench_scale.py [--quick]
-      [--sizes 1e5,1e6] [--lens-sizes 1e4,1e5] [--src DIR]
+      [--sizes 1e5,1e6] [--lens-sizes 1e4,1e5,1e6] [--full-check 1e5|''] [--src DIR]
 """
 
 from __future__ import annotations
@@ -76,7 +80,7 @@ def make_table(n, rng):
 def run_cli(args, src, workdir):
     """Run the CLI in a fresh process; (wall seconds, peak MiB, stderr, stdout, exit code)."""
     peak_file = Path(workdir) / "peak.txt"
-    env = dict(os.environ, PYTHONPATH=str(src), MPLBACKEND="Agg")
+    env = dict(os.environ, PYTHONPATH=str(src), MPLBACKEND="Agg", LENSWORK_PROGRESS="1")
     cmd = [sys.executable, "-c", _LAUNCH, str(peak_file), *args]
     start = time.perf_counter()
     proc = subprocess.run(cmd, capture_output=True, text=True, env=env)
@@ -86,20 +90,37 @@ def run_cli(args, src, workdir):
     return wall, peak, proc.stderr, proc.stdout, proc.returncode
 
 
-_TOKEN = re.compile(r"  (?P<label>[^\n]+?) \.\.\.(?!\.)|(?P<secs>\d+\.\d+) s$|(?P<fail> failed)$",
-                    re.MULTILINE)
+_STEP = re.compile(r"^(?P<indent> *)(?P<label>\S.*?) \.\.\.(?: (?P<secs>[0-9.]+ s|\d+m \d+s))?$")
+_LOOP = re.compile(r"^(?P<indent> *)(?P<label>\S.*?): \d+/\d+ in (?P<secs>[0-9.]+ s|\d+m \d+s)")
+
+
+def _seconds(text):
+    if "m " in text:
+        minutes, secs = text.rstrip("s").split("m ")
+        return 60 * int(minutes) + int(secs)
+    return float(text[:-2])
 
 
 def parse_steps(stderr):
-    """Top-level and nested steps from the progress output: [(depth, label, seconds)]."""
-    stack, steps = [], []
-    for m in _TOKEN.finditer(stderr):
-        if m.group("label") is not None:
-            stack.append(m.group("label").strip())
-        elif stack:
-            label = stack.pop()
-            secs = float(m.group("secs")) if m.group("secs") else float("nan")
-            steps.append((len(stack), label, secs))
+    """Finished steps and loops from the progress output: [(depth, label, seconds)].
+
+    A step is ``label ... 1.23 s`` (or ``1m 05s``) indented two spaces per
+    level (the CLI's own lines start at two); a parent whose children were
+    printed first opens with ``label ...`` and closes with its time; a loop
+    closes with ``label: 6/6 in 0.54 s (11/s)``.
+    """
+    steps, open_ = [], []
+    for line in stderr.splitlines():
+        m = _STEP.match(line) or _LOOP.match(line)
+        if not m:
+            continue
+        label = m.group("label").strip()
+        if not m.group("secs"):  # a parent opens; its children follow
+            open_.append(label)
+            continue
+        if open_ and open_[-1] == label:
+            open_.pop()
+        steps.append((len(open_), label, _seconds(m.group("secs"))))
     return steps
 
 
@@ -112,25 +133,38 @@ def summarise_steps(steps):
     return rows
 
 
-def bench_screen(n, src, tmp, keep=False):
-    rng = np.random.default_rng([SEED, n])
+def table_file(n, tmp):
     table = Path(tmp) / f"table_{n}.npy"
-    np.save(table, make_table(n, rng))
-    out = Path(tmp) / f"screen_{n}"
-    wall, peak, err, stdout, code = run_cli(["screen", str(table), "-o", str(out)], src, tmp)
+    if not table.exists():
+        np.save(table, make_table(n, np.random.default_rng([SEED, n])))
+    return table
+
+
+def bench_screen(n, src, tmp, sample=None):
+    """``lenswork screen`` at n rows (default options, or ``--sample SAMPLE``)."""
+    table = table_file(n, tmp)
+    out = Path(tmp) / f"screen_{n}_{sample or 'default'}"
+    args = ["screen", str(table), "-o", str(out)] + (["--sample", sample] if sample else [])
+    wall, peak, err, stdout, code = run_cli(args, src, tmp)
     if code != 0:
         print(f"screen n={n} failed (exit {code}):\n{err[-2000:]}", flush=True)
         return None
     steps = summarise_steps(parse_steps(err))
     top = sum(r["seconds"] for r in steps if r["depth"] == 0)
     selected = re.search(r"^Selected: (.*?) \(", stdout, re.MULTILINE)
-    print(f"\n== lenswork screen, n={n:,} x 20, fresh process: wall {wall:.1f} s, peak RSS "
-          f"{peak:,.0f} MiB; selected: {selected.group(1) if selected else '?'}", flush=True)
+    opts = f"--sample {sample}" if sample else "default options"
+    print(f"\n== lenswork screen, n={n:,} x 20, {opts}, fresh process: wall {wall:.1f} s, "
+          f"peak RSS {peak:,.0f} MiB; selected: {selected.group(1) if selected else '?'}",
+          flush=True)
     for r in steps:
         print(f"  {'  ' * r['depth']}{r['step'][:78]:<80} {r['seconds']:8.2f} s")
     print(f"  {'other (start-up, reading, probe, figures, writing outside steps)':<80} "
           f"{wall - top:8.2f} s", flush=True)
-    return {"n": n, "table": table, "out": out, "wall": wall, "peak": peak}
+    for line in stdout.splitlines():  # the sample's lines of the summary
+        if line.startswith(("Screened on a seeded sample", "Sampling error", "Confirmed on")):
+            print("  " + line)
+    chosen = [s.strip() for s in selected.group(1).split(",")] if selected else []
+    return {"n": n, "table": table, "out": out, "wall": wall, "peak": peak, "selected": chosen}
 
 
 def bench_graph(run, src, tmp):
@@ -208,6 +242,9 @@ def bench_lens_costs(sizes, src):
         rec = json.loads(proc.stdout.strip().splitlines()[-1])
         table[n] = rec
         print(f"  per-lens n={n:,}: peak RSS {rec['peak']:,.0f} MiB", flush=True)
+        for r in rec["rows"]:  # each size as soon as it is done
+            print(f"    {r['lens'][:34]:<36}{r['seconds']:10.2f} s   {r['mode']} / {r['error']}",
+                  flush=True)
     if not table:
         return
     print("\n== per-lens cost (seconds; mode; error from LensColumn info), fresh process per n")
@@ -233,12 +270,17 @@ def main():
     parser.add_argument("--graph-size", default=None,
                         help="run `lenswork graph --lens-file` at this screen size "
                              "(default: the largest)")
+    parser.add_argument("--full-check", default="1e5",
+                        help="also screen this size with --sample all and compare the choice "
+                             "('' to skip)")
     parser.add_argument("--src", default=str(SRC), help="lenswork src directory to run")
     parser.add_argument("--lens-child", type=int, help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.lens_child:
         lens_costs_child(args.lens_child)
         return
+    if args.quick:
+        args.full_check = ""
     sizes = [10_000] if args.quick else [int(float(s)) for s in args.sizes.split(",") if s]
     lens_sizes = [10_000] if args.quick else [int(float(s)) for s in args.lens_sizes.split(",")
                                               if s]
@@ -246,6 +288,16 @@ def main():
     print(f"lenswork from {src}; machine: {os.cpu_count()} cores, shared", flush=True)
     with tempfile.TemporaryDirectory(prefix="lenswork-scale-") as tmp:
         runs = [r for r in (bench_screen(n, src, tmp) for n in sizes) if r]
+        if args.full_check:
+            n = int(float(args.full_check))
+            full = bench_screen(n, src, tmp, sample="all")
+            sampled = next((r for r in runs if r["n"] == n), None)
+            if full and sampled:
+                same = sorted(full["selected"]) == sorted(sampled["selected"])
+                print(f"\n== n={n:,}: sample screen chose {sampled['selected']}, full-data "
+                      f"screen chose {full['selected']}: {'same' if same else 'DIFFERENT'}; "
+                      f"wall {sampled['wall']:.1f} s vs {full['wall']:.1f} s "
+                      f"({full['wall'] / sampled['wall']:.1f}x)", flush=True)
         if runs:
             gsize = int(float(args.graph_size)) if args.graph_size else max(r["n"] for r in runs)
             for r in runs:

@@ -24,6 +24,8 @@ Selection (``_select``)
     DEFAULT_WEIGHTS
 Candidates (``_candidates``)
     default_candidates
+Sample screen (``_confirm``)
+    SampledScreenResult, plan_sample   rank on a seeded sample, confirm the choice on all rows
 Probe columns in the ranking (``_result``)
     PROBE_SCORES, PROBE_COUNTS
 
@@ -61,6 +63,7 @@ Examples
 from __future__ import annotations
 
 from ._candidates import default_candidates
+from ._confirm import SampledScreenResult, plan_sample
 from ._redundancy import spearman_matrix
 from ._result import PROBE_COUNTS, PROBE_SCORES, ScreenResult
 from ._screen import screen
@@ -79,11 +82,13 @@ __all__ = [
     "PROBE_COUNTS",
     "PairPreservation",
     "PROBE_SCORES",
+    "SampledScreenResult",
     "ScreenResult",
     "Selection",
     "SpreadScore",
     "default_candidates",
     "histogram_entropy",
+    "plan_sample",
     "screen",
     "select_by_preservation",
     "select_lenses",

@@ -44,6 +44,7 @@ from ..lenses import LensTable, get_lens
 from ..probe import structure_scores
 from ..workspace import Workspace
 from ._candidates import compute_candidates, default_candidates, parse_spec
+from ._confirm import confirm_selection, plan_sample
 from ._redundancy import corr_from_unit, reference_correlations, unit_row
 from ._result import PROBE_SCORES, ScreenResult
 from ._select import DEFAULT_WEIGHTS, NO_PROBE_WEIGHTS, PAIRINGS, PairPreservation
@@ -120,7 +121,7 @@ def _preservation(table, ws, random_state):
 
 
 def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), bins=20,
-           weights=None, probe=True, pairing="preservation", random_state=None):
+           weights=None, probe=True, pairing="preservation", random_state=None, sample="auto"):
     """Compute candidate lenses, score them, and select the few that keep the neighbours.
 
     Parameters
@@ -166,6 +167,15 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
         the ceiling, or the greedy ``merit * (1 - max |rho|)`` rule.
     random_state : int, optional
         Seed of the lenses (default: the workspace's, or 0).
+    sample : "auto", "all" or int, default="auto"
+        Rows the candidates are ranked on (:mod:`lenswork.screen._confirm`):
+        ``"auto"`` screens every row up to 50,000 rows, else a seeded sample
+        of 20,000; an integer screens that many; ``"all"`` every row. On a
+        sample, only the chosen lenses are then computed on all rows, with
+        Spearman's rho of the sample run against the full run on the sample
+        rows, and the bootstrap error of the spread scores (the result is a
+        ``SampledScreenResult``). Ignored for a LensTable unless ``"all"``
+        or ``"auto"``.
 
     Returns
     -------
@@ -228,6 +238,11 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
                 "Pass the PointCloud or Workspace to compute lenses."
             )
         table = data
+        if sample not in ("auto", "all", None):
+            raise ParameterError(
+                "screen got a LensTable and sample=...; a LensTable is screened as it is. "
+                "Pass the PointCloud or Workspace to screen on a sample."
+            )
         if random_state is not None and random_state != table.random_state:
             table = LensTable(table.columns, table.cloud, random_state=random_state)
         refs = _collect_references(table.cloud, references)
@@ -248,6 +263,15 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
         if ws.n < 3:
             raise InputError(f"A screen needs at least 3 rows; the data has {ws.n}.")
         refs = _collect_references(ws.cloud, references)  # check them before the lenses
+        plan = plan_sample(ws, sample)
+        if plan is not None:  # rank on a seeded sample, then confirm the choice on all rows
+            with _progress.step(f"screen on a sample of {plan.size:,} of {ws.n:,} rows"):
+                inner = screen(
+                    plan.workspace, lenses, extra=extra, count=count, ceiling=ceiling,
+                    references={k: v[plan.rows] for k, v in refs.items()}, bins=bins,
+                    weights=weights, probe=probe, pairing=pairing, sample="all",
+                )
+            return confirm_selection(inner, ws, plan, lenses=lenses, extra=extra)
         specs_default = default_candidates(ws) if lenses is None else []
         specs_given = [parse_spec(s) for s in (lenses or [])]
         specs_extra = [parse_spec(s) for s in extra]
