@@ -39,10 +39,12 @@ def s_curve_runs():
 
 def test_sample_screen_picks_what_the_full_screen_picks():
     # scikit-learn's bundled digits (1,797 x 64), small enough to screen fully: the default
-    # candidates ranked on 600 seeded rows give the choice the screen of all rows gives.
+    # candidates ranked on 1,200 seeded rows give the choice the screen of all rows gives.
+    # (Measured: on 600 or 900 rows laplacian_2 takes the place of laplacian_1 beside
+    # laplacian_3; the two pairs' scores are that close on digits.)
     X = load_digits().data
     full = _quiet(X, probe=False, sample="all")
-    part = _quiet(X, probe=False, sample=600)
+    part = _quiet(X, probe=False, sample=1200)
     assert type(full).__name__ == "ScreenResult" and isinstance(part, SampledScreenResult)
     assert sorted(part.selected) == sorted(full.selected)
 
@@ -158,7 +160,9 @@ def test_low_agreement_warns():
     try:
         X = np.random.default_rng(0).normal(size=(2000, 2))
         with pytest.warns(LensworkWarning, match="does not agree"):
-            res = screen(X, lenses=[name], count=1, probe=False, sample=500)
+            # merit by spread alone: a noise lens has smoothness 0 and would not be chosen
+            res = screen(X, lenses=[name], count=1, probe=False, sample=500,
+                         weights={"robust_spread": 1.0})
         assert abs(res.confirmation.lenses[0]["spearman"]) < 0.2
     finally:
         REGISTRY.pop(name, None)
