@@ -61,6 +61,7 @@ import numpy as np
 from .. import _progress
 from .._errors import LensworkWarning, ParameterError
 from .._validation import check_int, seed_of
+from ..criteria import robust_spread_sorted
 from ..lenses import LensTable, get_lens
 from ..workspace import Workspace
 from ._candidates import default_candidates, parse_spec
@@ -218,8 +219,13 @@ def plan_sample(ws, sample="auto"):
     return SamplePlan(rows, n, rule, seed, sub)
 
 
-def spread_bootstrap(table, bins, *, resamples=BOOTSTRAP, random_state=0):
+def spread_bootstrap(table, bins, *, resamples=BOOTSTRAP, random_state=0, robust=None):
     """Bootstrap replicates of every column's spread score, shape (resamples, m).
+
+    With ``robust`` an array of shape (resamples, m), the same resamples also
+    fill it with the replicates of the robust spread
+    (:func:`lenswork.criteria.robust_spread_sorted`), the spread score the
+    default merit uses.
 
     A resample of n rows with replacement leaves the sorted order intact: it
     only changes how often each value (tie group) occurs, counted with one
@@ -253,6 +259,8 @@ def spread_bootstrap(table, bins, *, resamples=BOOTSTRAP, random_state=0):
             sb = np.repeat(uniq[keep], c[keep])
             score = spread_from_sorted(sb, c[keep], bins)
             out[r, j] = score.spread if score.status == "ok" else 0.0
+            if robust is not None:
+                robust[r, j] = robust_spread_sorted(sb, c[keep]).robust_spread
     return out
 
 
@@ -275,9 +283,14 @@ class Confirmation:
         The sample rule in words.
     seed : int
     spread_se : dict of str -> float
-        Bootstrap standard error of each candidate's spread on the sample.
+        Bootstrap standard error of each candidate's spread (histogram entropy)
+        on the sample.
+    robust_spread_se : dict of str -> float
+        The same for the robust spread, the spread score of the default merit.
     same_selection : float
-        Share of bootstrap resamples whose selection is the screen's.
+        Share of bootstrap resamples whose selection is the screen's, both
+        spreads taken from the resample and the other scores (smoothness,
+        structure) held fixed.
     lenses : list of dict
         Per chosen lens: ``screened`` (column name on the sample),
         ``confirmed`` (on all rows), ``spec``, ``mode``, ``error`` (the
@@ -296,26 +309,28 @@ class Confirmation:
     resamples: int
     lenses: list
     table: LensTable
+    robust_spread_se: dict = dataclasses.field(default_factory=dict)
 
     def to_dict(self):
         """JSON-ready description (no lens values)."""
         return {
             "n_rows": self.n_rows, "sample_size": self.sample_size, "rule": self.rule,
             "seed": self.seed, "bootstrap_resamples": self.resamples,
-            "spread_se": self.spread_se, "same_selection": self.same_selection,
+            "spread_se": self.spread_se, "robust_spread_se": self.robust_spread_se,
+            "same_selection": self.same_selection,
             "agreement_warn": AGREEMENT_WARN, "lenses": self.lenses,
         }
 
     def summary(self):
         """A few lines: the sample, the scores' sampling error, each lens's agreement."""
-        se = np.array([v for v in self.spread_se.values() if np.isfinite(v)])
+        se = np.array([v for v in self.robust_spread_se.values() if np.isfinite(v)])
         lines = [
             f"Screened on a seeded sample of {self.sample_size:,} of {self.n_rows:,} rows "
             f"({self.rule}; seed {self.seed}).",
-            f"Sampling error: spread SE (bootstrap, {self.resamples} resamples) median "
+            f"Sampling error: robust spread SE (bootstrap, {self.resamples} resamples) median "
             f"{np.median(se) if se.size else float('nan'):.4f}, max "
             f"{se.max() if se.size else float('nan'):.4f}; same selection in "
-            f"{self.same_selection:.0%} of resamples (structure scores held fixed).",
+            f"{self.same_selection:.0%} of resamples (smoothness and structure held fixed).",
         ]
         for rec in self.lenses:
             err = f", {rec['error']}" if rec.get("error") else ""
@@ -410,14 +425,17 @@ def confirm_selection(result, ws, plan, *, lenses=None, extra=(), resamples=BOOT
     True
     """
     sub = plan.workspace
+    robust = np.zeros((resamples, len(result.lenses)))
     reps = spread_bootstrap(result.lenses, result.bins, resamples=resamples,
-                            random_state=plan.seed)
+                            random_state=plan.seed, robust=robust)
     se = reps.std(axis=0, ddof=1) if resamples > 1 else np.full(reps.shape[1], np.nan)
+    robust_se = robust.std(axis=0, ddof=1) if resamples > 1 else np.full(robust.shape[1], np.nan)
     same = 0
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", LensworkWarning)
-        for r in range(resamples):
-            alt = result.rescore(scores={"spread": np.clip(reps[r], 0.0, 1.0)})
+        for r in range(resamples):  # the other scores (smoothness, structure) held fixed
+            alt = result.rescore(scores={"spread": np.clip(reps[r], 0.0, 1.0),
+                                         "robust_spread": np.clip(robust[r], 0.0, 1.0)})
             same += alt.selected == result.selected
     defaults_sample = default_candidates(sub) if lenses is None else []
     defaults_full = default_candidates(ws) if lenses is None else []
@@ -455,6 +473,7 @@ def confirm_selection(result, ws, plan, *, lenses=None, extra=(), resamples=BOOT
     conf = Confirmation(
         n_rows=ws.n, sample_size=plan.size, rule=plan.rule, seed=plan.seed,
         spread_se={n: float(v) for n, v in zip(result.names, se, strict=True)},
+        robust_spread_se={n: float(v) for n, v in zip(result.names, robust_se, strict=True)},
         same_selection=same / resamples if resamples else float("nan"),
         resamples=resamples, lenses=records,
         table=LensTable(unique, ws.cloud, random_state=ws.random_state),
