@@ -7,8 +7,10 @@
    ``t = (v - min) / s``, ``r = 1 / (1 - p)``, clipped to ``[0, N - 1]``.
 2. Routing: each partition splits its rows by element into one output per
    block of consecutive elements; each block gathers its pieces from every
-   partition (a shuffle by element id: each routed row is written once and
-   read once, and spilled to disk by the workers when memory is short).
+   partition (a shuffle by element id). The outputs are ``getitem`` tasks on
+   one tuple per partition: when workers must spill that tuple, each
+   ``getitem`` reads it back whole, so the graph needs worker memory for the
+   routed rows (about 1.3 times the data) to run at speed.
 3. Each element is clustered on a worker by
    :func:`lenswork.graph.cluster_element`, a neighbour graph inside the
    element: the ``"element-knn"`` rule of :data:`lenswork.graph.CLUSTERERS`,
@@ -174,8 +176,7 @@ def partitioned_graph(lenses, settings=None, *, intervals=10, overlap=0.3, k=15,
     Tasks: the lens columns, persisted (held on the workers, spilled to disk
     when memory is short), and one pass for their minimum and maximum; per
     partition, the routing of its rows to blocks of elements (one output per
-    block, so a block's task reads only its own pieces: the shuffle writes and
-    reads each routed row once); per block, the gather of its pieces and
+    block; see the module notes on spilling); per block, the gather of its pieces and
     :func:`cluster_element` on each element. The membership lists (one entry
     per row and node) come back to the client, where ``M^T M`` gives the
     edges: O(P) memory for P memberships.
