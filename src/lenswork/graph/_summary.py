@@ -407,19 +407,7 @@ def _fundamental_cycles(nb, labels, n_comp):
             if w <= u or parent[w] == u or parent[u] == w or (u, w) in seen:
                 continue
             seen.add((u, w))
-            left, right = [u], [w]
-            a, b = u, w
-            while depth[a] > depth[b]:
-                a = parent[a]
-                left.append(a)
-            while depth[b] > depth[a]:
-                b = parent[b]
-                right.append(b)
-            while a != b:
-                a, b = parent[a], parent[b]
-                left.append(a)
-                right.append(b)
-            cycles.append(tuple(left + right[-2::-1]))
+            cycles.append(_tree_path((parent, depth), u, w))
     return cycles
 
 

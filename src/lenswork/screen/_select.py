@@ -115,6 +115,25 @@ class Selection:
     stop: str
 
 
+def _check_selection(correlation, merit, count, ceiling, context):
+    """The merits, the correlation matrix, count and ceiling of a selection, checked."""
+    merit = np.asarray(merit, dtype=np.float64)
+    m = merit.shape[0]
+    R = np.asarray(correlation, dtype=np.float64)
+    if R.shape != (m, m):
+        raise ParameterError(
+            f"{context} got a correlation matrix of shape {R.shape} for {m} merits; "
+            f"expected ({m}, {m})."
+        )
+    if merit.ndim != 1 or (np.isfinite(merit) & (merit >= 0)).sum() != m:
+        raise ParameterError(
+            f"{context} expects merits as a 1-D array of finite numbers >= 0."
+        )
+    count = check_int("count", count, lo=1, context=context)
+    ceiling = check_float("ceiling", ceiling, lo=0, hi=1, lo_open=True, context=context)
+    return merit, R, count, ceiling
+
+
 def select_lenses(correlation, merit, *, count=2, ceiling=0.8, usable=None):
     """Greedy non-redundant selection: best merit, discounted by redundancy.
 
@@ -152,20 +171,9 @@ def select_lenses(correlation, merit, *, count=2, ceiling=0.8, usable=None):
     >>> sel.indices, sel.stop
     ((0, 2), 'count')
     """
-    merit = np.asarray(merit, dtype=np.float64)
+    merit, R, count, ceiling = _check_selection(correlation, merit, count, ceiling,
+                                                "select_lenses")
     m = merit.shape[0]
-    R = np.asarray(correlation, dtype=np.float64)
-    if R.shape != (m, m):
-        raise ParameterError(
-            f"select_lenses got a correlation matrix of shape {R.shape} for {m} merits; "
-            f"expected ({m}, {m})."
-        )
-    if merit.ndim != 1 or (np.isfinite(merit) & (merit >= 0)).sum() != m:
-        raise ParameterError(
-            "select_lenses expects merits as a 1-D array of finite numbers >= 0."
-        )
-    count = check_int("count", count, lo=1, context="select_lenses")
-    ceiling = check_float("ceiling", ceiling, lo=0, hi=1, lo_open=True, context="select_lenses")
     ok = np.ones(m, dtype=bool) if usable is None else np.asarray(usable, dtype=bool).copy()
     ok &= merit > 0
     absr = np.nan_to_num(np.abs(R), nan=0.0)
@@ -325,21 +333,9 @@ def select_by_preservation(correlation, merit, preservation, *, count=2, ceiling
     >>> sel.indices, sel.stop
     ((1, 2), 'count')
     """
-    merit = np.asarray(merit, dtype=np.float64)
+    merit, R, count, ceiling = _check_selection(correlation, merit, count, ceiling,
+                                                "select_by_preservation")
     m = merit.shape[0]
-    R = np.asarray(correlation, dtype=np.float64)
-    if R.shape != (m, m):
-        raise ParameterError(
-            f"select_by_preservation got a correlation matrix of shape {R.shape} for {m} "
-            f"merits; expected ({m}, {m})."
-        )
-    if merit.ndim != 1 or (np.isfinite(merit) & (merit >= 0)).sum() != m:
-        raise ParameterError(
-            "select_by_preservation expects merits as a 1-D array of finite numbers >= 0."
-        )
-    count = check_int("count", count, lo=1, context="select_by_preservation")
-    ceiling = check_float("ceiling", ceiling, lo=0, hi=1, lo_open=True,
-                          context="select_by_preservation")
     ok = np.ones(m, dtype=bool) if usable is None else np.asarray(usable, dtype=bool).copy()
     ok &= merit > 0
     idx = np.flatnonzero(ok)
