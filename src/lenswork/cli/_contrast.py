@@ -11,7 +11,7 @@ import click
 from .._errors import InputError, ParameterError
 from ..contrast import AGAINST
 from ..graph import CLUSTERERS, COVER_SCALES, FRAGMENT_RULES, LAYOUTS
-from ._common import cutoff_value, input_options, number_list, output_dir
+from ._common import cutoff_value, input_options, neighbors_option, number_list, output_dir
 
 __all__ = ["COMMANDS"]
 
@@ -54,9 +54,7 @@ def graph_build_options(func):
                      show_default=True, help="Attach fragments to a near cluster, or report them."),
         click.option("-k", "k", default=15, show_default=True, type=int,
                      help="Neighbours of the shared k-NN graph."),
-        click.option("--neighbors", "neighbor_method",
-                     type=click.Choice(["auto", "exact", "approximate"]), default="auto",
-                     show_default=True, help="Neighbour-graph back end."),
+        neighbors_option,
     ]
     for option in reversed(options):
         func = option(func)

@@ -9,6 +9,7 @@ import click
 from ..lenses import ENDINGS, compute_lenses, get_lens, lens_names
 from ..normalize import NORMALIZATIONS
 from ..workspace import Workspace
+from ._common import neighbors_option
 from ._partitioned import (
     cluster_input_options,
     lens_out_dir,
@@ -53,8 +54,7 @@ def list_lenses(only):
               f"({', '.join('.' + e for e in ENDINGS)}). Provenance goes to OUT.json.")
 @click.option("--normalize", "normalization", type=click.Choice(NORMALIZATIONS), default=None,
               help="Write normalised values (recorded in the sidecar) instead of raw ones.")
-@click.option("--neighbors", "neighbor_method", type=click.Choice(["auto", "exact", "approximate"]),
-              default="auto", show_default=True, help="Neighbour-graph back end.")
+@neighbors_option
 def compute(cloud, seed, lenses, out, normalization, neighbor_method, cluster=None):
     """Compute lens columns for TABLE (or --demo) and write them beside the row ids.
 

@@ -6,8 +6,8 @@ import click
 
 from ..screen import screen
 from ..table import FORMATS
-from ..workspace import METHODS, Workspace
-from ._common import input_options
+from ..workspace import Workspace
+from ._common import input_options, neighbors_option
 
 __all__ = ["COMMANDS"]
 
@@ -45,9 +45,7 @@ def _names(values):
               "(R_NX) weighted by merit; greedy: merit x (1 - |rho|) one lens at a time.")
 @click.option("--lens-format", type=click.Choice(FORMATS), default="csv", show_default=True,
               help="File format of the chosen lens columns.")
-@click.option("--neighbors", "neighbor_method",
-              type=click.Choice(METHODS), default="auto",
-              show_default=True, help="Neighbour-graph back end.")
+@neighbors_option
 @click.option("--sample", default="auto", show_default=True, metavar="N|auto|all",
               help="Rows the candidates are ranked on: auto = every row up to 50,000, else a "
               "seeded sample of 20,000; N rows; all. The chosen lenses are then computed on "
