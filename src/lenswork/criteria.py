@@ -128,7 +128,9 @@ def heat_kernel_affinity(data, *, k=15, width="mean"):
     -------
     scipy.sparse.csr_matrix of shape (n_samples, n_samples)
         ``S_ij = exp(-d_ij^2 / t)`` when i lists j or j lists i among its k
-        nearest neighbours, else 0; no diagonal.
+        nearest neighbours, else 0; no diagonal. For a Workspace the matrix is
+        cached in it (computed once for the screen and the probe); do not
+        modify it.
 
     Examples
     --------
@@ -136,8 +138,14 @@ def heat_kernel_affinity(data, *, k=15, width="mean"):
     >>> S.shape, round(float(S[0, 1]), 4), float(S[0, 2])
     ((6, 6), 0.3679, 0.0)
     """
-    ws = data if isinstance(data, Workspace) else Workspace(data)
     k = check_int("k", k, lo=1, context="heat_kernel_affinity")
+    if isinstance(data, Workspace):  # one affinity per workspace and (k, width): screen + probe
+        key = ("heat_kernel", k, width if isinstance(width, str) else float(width))
+        return data.cached(key, lambda: _heat_kernel(data, k, width))
+    return _heat_kernel(Workspace(data), k, width)
+
+
+def _heat_kernel(ws, k, width):
     g = ws.neighbors(k)
     d2 = g.distances ** 2
     if isinstance(width, str):

@@ -622,7 +622,7 @@ def _min_size(settings, n_rows):
 def _jitter(col, workspace, settings):
     """The lens's neighbour jitter on the cover scale (lenswork.criteria.neighbour_jitter)."""
     k = min(settings.k, workspace.n - 1)
-    S = workspace.cached(("probe:heat_kernel", k), lambda: heat_kernel_affinity(workspace, k=k))
+    S = heat_kernel_affinity(workspace, k=k)  # cached in the workspace
     return neighbour_jitter(np.asarray(col.values, dtype=np.float64), S, scale=settings.scale)
 
 

@@ -386,20 +386,7 @@ def neighbour_lists(n_nodes, edges):
 def _fundamental_cycles(nb, labels, n_comp):
     """One cycle per non-tree edge of a BFS spanning forest (roots: smallest node)."""
     V = len(nb)
-    parent = [-1] * V
-    depth = [-1] * V
-    for root in range(V):
-        if depth[root] >= 0:
-            continue
-        depth[root] = 0
-        queue = deque([root])
-        while queue:
-            u = queue.popleft()
-            for w in sorted(nb[u]):
-                if depth[w] < 0:
-                    depth[w] = depth[u] + 1
-                    parent[w] = u
-                    queue.append(w)
+    parent, depth = _bfs_forest(nb)
     cycles = []
     seen = set()
     for u in range(V):
@@ -706,6 +693,16 @@ def _spanning_forest(E, order, V):
             parent[ra] = rb
             tree[a].append(b)
             tree[b].append(a)
+    return _bfs_forest(tree)
+
+
+def _bfs_forest(nb):
+    """Parent and depth of every node, breadth first from the smallest unseen node.
+
+    Neighbours are visited in increasing order, so the forest is deterministic
+    (in a tree it is the tree itself, rooted).
+    """
+    V = len(nb)
     up = [-1] * V
     depth = [-1] * V
     for root in range(V):
@@ -715,7 +712,7 @@ def _spanning_forest(E, order, V):
         queue = deque([root])
         while queue:
             u = queue.popleft()
-            for w in tree[u]:
+            for w in sorted(nb[u]):
                 if depth[w] < 0:
                     depth[w], up[w] = depth[u] + 1, u
                     queue.append(w)

@@ -115,8 +115,11 @@ class Selection:
     stop: str
 
 
-def _check_selection(correlation, merit, count, ceiling, context):
-    """The merits, the correlation matrix, count and ceiling of a selection, checked."""
+def _check_selection(correlation, merit, count, ceiling, usable, context):
+    """A selection's merits, correlation matrix, count and ceiling, checked, and who may be taken.
+
+    The last item is the mask of usable candidates with merit > 0.
+    """
     merit = np.asarray(merit, dtype=np.float64)
     m = merit.shape[0]
     R = np.asarray(correlation, dtype=np.float64)
@@ -131,7 +134,8 @@ def _check_selection(correlation, merit, count, ceiling, context):
         )
     count = check_int("count", count, lo=1, context=context)
     ceiling = check_float("ceiling", ceiling, lo=0, hi=1, lo_open=True, context=context)
-    return merit, R, count, ceiling
+    ok = np.ones(m, dtype=bool) if usable is None else np.asarray(usable, dtype=bool).copy()
+    return merit, R, count, ceiling, ok & (merit > 0)
 
 
 def select_lenses(correlation, merit, *, count=2, ceiling=0.8, usable=None):
@@ -171,11 +175,9 @@ def select_lenses(correlation, merit, *, count=2, ceiling=0.8, usable=None):
     >>> sel.indices, sel.stop
     ((0, 2), 'count')
     """
-    merit, R, count, ceiling = _check_selection(correlation, merit, count, ceiling,
-                                                "select_lenses")
+    merit, R, count, ceiling, ok = _check_selection(correlation, merit, count, ceiling, usable,
+                                                    "select_lenses")
     m = merit.shape[0]
-    ok = np.ones(m, dtype=bool) if usable is None else np.asarray(usable, dtype=bool).copy()
-    ok &= merit > 0
     absr = np.nan_to_num(np.abs(R), nan=0.0)
     worst = np.zeros(m)  # max |rho| to the chosen set
     chosen, gains = [], []
@@ -333,11 +335,8 @@ def select_by_preservation(correlation, merit, preservation, *, count=2, ceiling
     >>> sel.indices, sel.stop
     ((1, 2), 'count')
     """
-    merit, R, count, ceiling = _check_selection(correlation, merit, count, ceiling,
-                                                "select_by_preservation")
-    m = merit.shape[0]
-    ok = np.ones(m, dtype=bool) if usable is None else np.asarray(usable, dtype=bool).copy()
-    ok &= merit > 0
+    merit, R, count, ceiling, ok = _check_selection(correlation, merit, count, ceiling, usable,
+                                                    "select_by_preservation")
     idx = np.flatnonzero(ok)
     if not idx.size:
         return Selection((), (), "candidates")
