@@ -22,7 +22,6 @@ def list_to_array(source):
         ) from None
 
 
-
 def raw_from_array(arr, label, prov):
     if arr.dtype.names:
         if arr.ndim != 1:
@@ -65,10 +64,8 @@ def raw_from_array(arr, label, prov):
     return RawTable(names, columns, np.arange(1, n + 1), label, prov)
 
 
-
 def is_frame(obj):
     return hasattr(obj, "columns") and hasattr(obj, "__getitem__") and hasattr(obj, "shape")
-
 
 
 def raw_from_frame(frame):

@@ -35,7 +35,6 @@ __all__ = ["SCALINGS", "assemble"]
 SCALINGS = ("zscore", "robust")
 
 
-
 def _clean_ids(raw, j):
     name = raw.names[j]
     col = raw.columns[j]
@@ -67,7 +66,6 @@ def _clean_ids(raw, j):
     return col
 
 
-
 def _int_ids(values, col):
     """Text ids that are all plain integers ("12", "-3", not "007") become int64."""
     try:
@@ -77,7 +75,6 @@ def _int_ids(values, col):
     except (ValueError, OverflowError):
         pass
     return col
-
 
 
 def assemble(raw, features, id_column, scale, invalid, min_rows):
@@ -226,7 +223,6 @@ def assemble(raw, features, id_column, scale, invalid, min_rows):
     )
 
 
-
 def _no_features(raw, id_j, first_text):
     names, label = raw.names, raw.label
     if len(names) == 1 and id_j == 0:
@@ -257,7 +253,6 @@ def _no_features(raw, id_j, first_text):
         f"{label} has no feature columns: no column{besides} holds only numbers{example}. "
         f"Choose the feature columns (features=[...]; CLI: --features), or fix the cells."
     )
-
 
 
 def _standardise(X, method, names, label):

@@ -14,11 +14,9 @@ __all__ = ["check_magnitude", "check_unique_ids"]
 _FLOAT_MAX = float(np.finfo(np.float64).max)
 
 
-
 def _overflow_limit(d):
     """Largest |x| for which 4 d x^2 (the largest squared distance) stays finite."""
     return math.sqrt(_FLOAT_MAX / (4.0 * d))
-
 
 
 def check_magnitude(X, names, rows, label, scaling):
@@ -39,7 +37,6 @@ def check_magnitude(X, names, rows, label, scaling):
         f"beyond {limit:.3g} in size make squared distances between rows overflow float64. "
         f"To fix it, {fix}."
     )
-
 
 
 def check_unique_ids(ids, rows, what, label):

@@ -48,7 +48,6 @@ class ExcludedRow:
     passthrough: dict = field(default_factory=dict)
 
 
-
 @dataclass(frozen=True, eq=False)
 class PointCloud:
     """A validated point cloud: features, row ids, passthrough columns, provenance.

@@ -49,7 +49,6 @@ DELIMITER_NAMES = {
 }
 
 
-
 def read_file(path, delimiter, opts):
     label = f"'{path}'"
     if not path.exists():
@@ -90,14 +89,12 @@ def read_file(path, delimiter, opts):
     return _read_delimited(path, label, delimiter, dict(prov, format=fmt), opts)
 
 
-
 def _sha256_file(path):
     h = hashlib.sha256()
     with open(path, "rb") as fh:
         for block in iter(lambda: fh.read(1 << 20), b""):
             h.update(block)
     return h.hexdigest()
-
 
 
 def _read_npy(path, label, prov):
@@ -121,7 +118,6 @@ def _read_npy(path, label, prov):
         raise input_error(f"{label} could not be read as a .npy file ({err}); it may be "
                          f"truncated.") from None
     return raw_from_array(arr, label, prov)
-
 
 
 def _read_parquet(path, label, prov):
@@ -159,7 +155,6 @@ def _read_parquet(path, label, prov):
             f"{label} has column names but no data rows; expected rows of data. Check the file."
         )
     return RawTable(names, columns, np.arange(2, n + 2), label, prov)
-
 
 
 def _read_delimited(path, label, delimiter, prov, opts):
@@ -212,7 +207,6 @@ def _read_delimited(path, label, delimiter, prov, opts):
         ) from None
 
 
-
 def _decode_error(path, label):
     data = path.read_bytes()
     try:
@@ -226,7 +220,6 @@ def _decode_error(path, label):
             f"convert it, e.g. `iconv -f latin1 -t utf-8`."
         )
     return input_error(f"{label} is not UTF-8 text. Save the file as UTF-8.")  # pragma: no cover
-
 
 
 def _choose_delimiter(sample, given, fmt):
@@ -248,7 +241,6 @@ def _choose_delimiter(sample, given, fmt):
     return found, "detected"
 
 
-
 def _read_header(reader, label, opts):
     for record in reader:
         if any(cell.strip() for cell in record):
@@ -265,7 +257,6 @@ def _read_header(reader, label, opts):
         f"{label} is empty (only blank lines); expected a header row with column names and at "
         f"least {opts['min_rows']} rows of data. Check that this is the right file."
     )
-
 
 
 def _chunks(reader, width, label, delim):
@@ -292,7 +283,6 @@ def _chunks(reader, width, label, delim):
         yield block, starts
 
 
-
 def _drop_blank(block, starts, width, label, delim):
     keep_rec, keep_row = [], []
     for record, row in zip(block, starts, strict=True):
@@ -308,7 +298,6 @@ def _drop_blank(block, starts, width, label, delim):
         keep_rec.append(record)
         keep_row.append(row)
     return keep_rec, np.asarray(keep_row, dtype=np.int64)
-
 
 
 def _read_body(reader, names, label, delim, feats, id_j, prov):
@@ -375,7 +364,6 @@ def _read_body(reader, names, label, delim, feats, id_j, prov):
         if len(miss):
             raw.missing[j] = miss
     return raw
-
 
 
 def _reread_text_columns(path, delim, raw, columns):

@@ -145,7 +145,6 @@ def load_table(
     return assemble(raw, features, id_column, scale, invalid, min_rows)
 
 
-
 def load_block(block, *, label, first_row=1, features=None, id_column=None, invalid="error",
                min_rows=1):
     """Validate one block of rows (a partition) with the messages of :func:`load_table`.
@@ -197,12 +196,10 @@ def load_block(block, *, label, first_row=1, features=None, id_column=None, inva
     return assemble(raw, features, id_column, None, invalid, min_rows)
 
 
-
 def _check_scale(scale):
     if scale is None or (isinstance(scale, str) and scale.strip().lower() == "none"):
         return None
     return check_choice("scale", scale, SCALINGS, context="load_table")
-
 
 
 def _check_delimiter(delimiter):
@@ -218,12 +215,10 @@ def _check_delimiter(delimiter):
     )
 
 
-
 def _is_column_spec(value):
     return isinstance(value, str) or (
         isinstance(value, numbers.Integral) and not isinstance(value, (bool, np.bool_))
     )
-
 
 
 def _check_features_arg(features):

@@ -18,11 +18,9 @@ __all__ = [
 _LISTED = 10  # rows / names listed in a message before "..."
 
 
-
 def input_error(message):
     """An InputError whose message starts with a capital ("The array has ...")."""
     return InputError(message[:1].upper() + message[1:])
-
 
 
 def short(value, width=40):
@@ -31,17 +29,14 @@ def short(value, width=40):
     return text if len(text) <= width else text[: width - 3] + "..."
 
 
-
 def names_list(names):
     shown = ", ".join(repr(n) for n in names[:30])
     return shown + (f", ... ({len(names)} in all)" if len(names) > 30 else "")
 
 
-
 def rows_list(rows):
     shown = ", ".join(str(int(r)) for r in rows[:_LISTED])
     return shown + (f" and {len(rows) - _LISTED} more" if len(rows) > _LISTED else "")
-
 
 
 def describe_bad(value, missing):
@@ -52,7 +47,6 @@ def describe_bad(value, missing):
     return "-inf" if value < 0 else "inf"
 
 
-
 def warn_user(message):
     """Warn with the first frame outside lenswork as the location."""
     level, frame = 1, sys._getframe(0)
@@ -60,7 +54,6 @@ def warn_user(message):
         frame = frame.f_back
         level += 1
     warnings.warn(message, LensworkWarning, stacklevel=level)
-
 
 
 def check_rows(n, needed, what, label, n_excluded=0):
@@ -73,13 +66,11 @@ def check_rows(n, needed, what, label, n_excluded=0):
         )
 
 
-
 def not_number_error(label, name, value, row):
     return input_error(
         f"Column {name!r} in {label} holds {short(value)} at row {row}, which is not a number. "
         f"Choose numeric feature columns (features=[...]; CLI: --features), or fix the cell."
     )
-
 
 
 def as_python(value):

@@ -34,7 +34,6 @@ DECIMAL_COMMA = re.compile(r"^\s*[-+]?\d+,\d+\s*$")
 NO_INDEX = np.empty(0, dtype=np.intp)
 
 
-
 @dataclass
 class RawTable:
     """A table as read, before features are chosen (one array per column)."""
@@ -55,14 +54,12 @@ class RawTable:
         return len(self.row_numbers)
 
 
-
 class NotNumber(Exception):
     """A cell that is not a number: its index and value (and whether most cells are numbers)."""
 
     def __init__(self, index, value, mostly_numbers=False):
         super().__init__(index, value)
         self.index, self.value, self.mostly_numbers = index, value, mostly_numbers
-
 
 
 def check_duplicate_names(names, label):
@@ -74,7 +71,6 @@ def check_duplicate_names(names, label):
                 f"column names must be unique. Rename one of them."
             )
         seen[name] = j
-
 
 
 def _resolve(spec, names, label, what):
@@ -101,7 +97,6 @@ def _resolve(spec, names, label, what):
     return pos
 
 
-
 def resolve_selection(names, features, id_column, label):
     """(feature indices or None, id index or None), with every argument check."""
     id_j = None if id_column is None else _resolve(id_column, names, label, "id column")
@@ -123,7 +118,6 @@ def resolve_selection(names, features, id_column, label):
     return feats, id_j
 
 
-
 def parse_text_cells(cells):
     """Cells of text -> (float64 values with NaN where missing, missing indices)."""
     n = len(cells)
@@ -139,10 +133,8 @@ def parse_text_cells(cells):
     return _parse_cells(cells)
 
 
-
 def is_missing_object(value):
     return value is None or type(value).__name__ in ("NAType", "NaTType")
-
 
 
 def _parse_cells(cells):
@@ -179,7 +171,6 @@ def _parse_cells(cells):
     return out, np.asarray(missing, dtype=np.intp)
 
 
-
 def mostly_numbers(cells, limit=1000):
     """True when most of the first ``limit`` cells that are not missing are numbers."""
     counts = [0, 0]
@@ -191,7 +182,6 @@ def mostly_numbers(cells, limit=1000):
             continue
         counts[0] += not len(miss)
     return counts[0] > 0 and counts[0] >= counts[1]
-
 
 
 def column_numbers(raw, j):
@@ -212,13 +202,11 @@ def column_numbers(raw, j):
     raise NotNumber(0, col[0], False)
 
 
-
 def object_array(values):
     out = np.empty(len(values), dtype=object)
     for i, v in enumerate(values):
         out[i] = v
     return out
-
 
 
 def is_number_text(text):
@@ -227,7 +215,6 @@ def is_number_text(text):
     except ValueError:
         return False
     return True
-
 
 
 def digest_columns(names, columns):
