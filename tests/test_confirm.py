@@ -199,3 +199,18 @@ def test_cli_sample_option(tmp_path):
                                    "--sample", "lots"])
     assert bad.exit_code != 0 and "Traceback" not in bad.output
     assert "sample must be" in bad.output and not (tmp_path / "o2").exists()
+
+
+def test_confirmed_columns_keep_their_ranked_names():
+    # A Laplacian confirmed by the sample path (Nystrom extension, Bengio et al. 2004) is
+    # written under the name it was ranked with; its params say how it was computed.
+    X, _ = make_s_curve(3000, noise=0.05, random_state=2)
+    res = _quiet(X, lenses=["laplacian:components=2", "pca"], probe=False, sample=800)
+    table = res.to_lens_table()
+    assert table.names == res.selected
+    assert any(table[name].lens == "laplacian" for name in res.selected)
+    for rec in res.confirmation.lenses:
+        assert rec["confirmed"] == rec["screened"]
+        col = table[rec["screened"]]
+        if col.lens == "laplacian":
+            assert col.params["mode"] == "sample" and "mode=sample" in rec["spec"]

@@ -167,6 +167,36 @@ def bench_screen(n, src, tmp, sample=None):
     return {"n": n, "table": table, "out": out, "wall": wall, "peak": peak, "selected": chosen}
 
 
+def explain_difference(sampled, full):
+    """|Spearman rho| between the two runs' chosen lens columns on the same rows.
+
+    Two choices that differ by near-equivalent lenses (each lens of one run
+    with |rho| >= 0.8, the screen's own redundancy ceiling, against a lens of
+    the other) show the same views under other names.
+    """
+    from scipy.stats import spearmanr
+
+    def columns(run):
+        text = (Path(run["out"]) / "lenses.csv").read_text().splitlines()
+        names = text[0].split(",")[1:]
+        values = np.array([line.split(",")[1:] for line in text[1:]], dtype=np.float64)
+        return names, values
+
+    names_s, vs = columns(sampled)
+    names_f, vf = columns(full)
+    print("  |Spearman rho| between the choices on all rows (rows: full-data screen; "
+          "columns: sample screen):")
+    print("  " + " " * 26 + "".join(f"{c[:24]:>26}" for c in names_s))
+    best = []
+    for i, name in enumerate(names_f):
+        rho = [abs(spearmanr(vf[:, i], vs[:, j])[0]) for j in range(len(names_s))]
+        best.append(max(rho))
+        print(f"  {name[:24]:<26}" + "".join(f"{r:26.3f}" for r in rho))
+    verdict = "the same views under other names" if min(best) >= 0.8 else "a different view"
+    print(f"  each full-data lens's best match: {', '.join(f'{b:.3f}' for b in best)}: "
+          f"{verdict} (screen's redundancy ceiling 0.8)", flush=True)
+
+
 def bench_graph(run, src, tmp):
     lens_file = run["out"] / "lenses.csv"
     gout = Path(tmp) / f"graph_{run['n']}"
@@ -211,6 +241,7 @@ def lens_costs_child(n):
     g = ws.neighbors(ws.min_neighbors)
     rows.append({"lens": f"neighbour graph k={g.k}", "seconds": time.perf_counter() - start,
                  "mode": g.method + " " + g.info.get("backend", ""), "error": "-"})
+    print(json.dumps({"row": rows[-1]}), flush=True)
     for name, params in lw.default_candidates(ws):
         start = time.perf_counter()
         with warnings.catch_warnings(record=True) as caught:
@@ -224,22 +255,32 @@ def lens_costs_child(n):
         rows.append({"lens": spec, "seconds": secs, "mode": str(mode), "error": _error_of(info),
                      "warned": len(caught), "graphs_k": graphs[-1] if graphs else None,
                      "landmarks": info.get("landmarks")})
+        print(json.dumps({"row": rows[-1]}), flush=True)  # kept if a later lens runs too long
     peak = next(int(line.split()[1]) / 1024
                 for line in Path("/proc/self/status").read_text().splitlines()
                 if line.startswith("VmHWM:"))
     print(json.dumps({"rows": rows, "peak": peak}))
 
 
-def bench_lens_costs(sizes, src):
+def bench_lens_costs(sizes, src, timeout=None):
     env = dict(os.environ, PYTHONPATH=f"{src}{os.pathsep}{HERE}", MPLBACKEND="Agg")
     table = {}
     for n in sizes:
-        proc = subprocess.run([sys.executable, __file__, "--lens-child", str(n)],
-                              capture_output=True, text=True, env=env)
-        if proc.returncode != 0:
-            print(f"per-lens n={n} failed:\n{proc.stderr[-2000:]}")
+        try:
+            proc = subprocess.run([sys.executable, __file__, "--lens-child", str(n)],
+                                  capture_output=True, text=True, env=env, timeout=timeout)
+            out, code, err = proc.stdout, proc.returncode, proc.stderr
+        except subprocess.TimeoutExpired as exc:
+            out = exc.stdout.decode() if isinstance(exc.stdout, bytes) else (exc.stdout or "")
+            code, err = None, f"stopped after {timeout:.0f} s"
+        lines = [json.loads(line) for line in out.strip().splitlines() if line.startswith("{")]
+        if code != 0:
+            print(f"per-lens n={n} did not finish ({err[-2000:]}); lenses done so far:")
+            for r in (rec["row"] for rec in lines if "row" in rec):
+                print(f"    {r['lens'][:34]:<36}{r['seconds']:10.2f} s   {r['mode']} / "
+                      f"{r['error']}", flush=True)
             continue
-        rec = json.loads(proc.stdout.strip().splitlines()[-1])
+        rec = lines[-1]
         table[n] = rec
         print(f"  per-lens n={n:,}: peak RSS {rec['peak']:,.0f} MiB", flush=True)
         for r in rec["rows"]:  # each size as soon as it is done
@@ -274,6 +315,9 @@ def main():
                         help="also screen this size with --sample all and compare the choice "
                              "('' to skip)")
     parser.add_argument("--src", default=str(SRC), help="lenswork src directory to run")
+    parser.add_argument("--lens-timeout", type=float, default=None,
+                        help="stop a per-lens child after this many seconds (the lenses it "
+                             "finished are still printed)")
     parser.add_argument("--lens-child", type=int, help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.lens_child:
@@ -298,13 +342,15 @@ def main():
                       f"screen chose {full['selected']}: {'same' if same else 'DIFFERENT'}; "
                       f"wall {sampled['wall']:.1f} s vs {full['wall']:.1f} s "
                       f"({full['wall'] / sampled['wall']:.1f}x)", flush=True)
+                if not same:
+                    explain_difference(sampled, full)
         if runs:
             gsize = int(float(args.graph_size)) if args.graph_size else max(r["n"] for r in runs)
             for r in runs:
                 if r["n"] == gsize:
                     bench_graph(r, src, tmp)
         if lens_sizes:
-            bench_lens_costs(lens_sizes, src)
+            bench_lens_costs(lens_sizes, src, args.lens_timeout)
 
 
 if __name__ == "__main__":

@@ -335,7 +335,7 @@ class Confirmation:
         for rec in self.lenses:
             err = f", {rec['error']}" if rec.get("error") else ""
             lines.append(
-                f"Confirmed on all rows: {rec['confirmed']} (screened as {rec['screened']}; "
+                f"Confirmed on all rows: {rec['confirmed']} (computed as {rec['spec']}; "
                 f"mode {rec['mode'] or '-'}{err}): Spearman rho with the sample run "
                 f"{rec['spearman']:+.4f}, {rec['seconds']:.1f} s."
             )
@@ -450,6 +450,8 @@ def confirm_selection(result, ws, plan, *, lenses=None, extra=(), resamples=BOOT
             cols = get_lens(lens)(ws, **params)
         secs = time.perf_counter() - start
         full = cols[min(_part_index(col, result.lenses), len(cols) - 1)]
+        # the column keeps the name it was ranked under (its params record how it was computed)
+        full = dataclasses.replace(full, name=name)
         rho = spearman_pair(col.values, full.values[plan.rows])
         info = full.info
         records.append({
