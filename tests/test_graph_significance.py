@@ -203,48 +203,87 @@ def test_hole_scales_are_the_stated_rule():
     assert "holes_over_scales" not in g.params and g.summary().significant_holes is None
 
 
-def test_articulation_points_match_networkx():
-    import networkx as nx
-
-    from lenswork.graph._summary import articulation_points, neighbour_lists
-
-    for seed in range(6):
-        G = nx.gnp_random_graph(40, 0.06, seed=seed)
-        E = np.array(list(G.edges()), dtype=np.int64).reshape(-1, 2)
-        assert articulation_points(neighbour_lists(40, E)) == set(nx.articulation_points(G))
-
-
-def _arm_reference(graph, v):
-    """Third-largest arm span at v by a breadth-first search per neighbour (networkx)."""
+def _exit_reference(graph, v, radius):
+    """Third-largest exit span at v by networkx searches (the rule of _summary's notes)."""
     import networkx as nx
 
     G = nx.Graph(graph.edge_index.tolist())
     G.add_nodes_from(range(graph.n_nodes))
-    H = G.copy()
-    H.remove_node(v)
     lv = graph.node_elements[:, 0].astype(float)
+
+    def ball(r):
+        near = [u for u in G if abs(lv[u] - lv[v]) <= r]
+        return nx.node_connected_component(G.subgraph(near), v)
+
+    inner = ball(radius)
+    shell = ball(2 * radius) - inner
+    outside = G.subgraph([u for u in G if u not in inner])
     spans = []
-    for w in G[v]:
-        reach = list(nx.node_connected_component(H, w)) + [v]
-        spans.append(lv[reach].max() - lv[reach].min())
+    for piece in nx.connected_components(G.subgraph(shell)):
+        arm = list(nx.node_connected_component(outside, next(iter(piece))))
+        spans.append(max(lv[arm].max(), lv[v]) - min(lv[arm].min(), lv[v]))
+    if len(spans) < 3:
+        return 0.0
     spans.sort(reverse=True)
     return spans[2] / (graph.params["cover"]["intervals"][0] - 1)
 
 
+def _theta(n, rng, noise=0.03):
+    """A unit circle with its horizontal diameter: Reeb graph under x has two forks."""
+    k = n // 4
+    a = rng.uniform(0, 2 * np.pi, n - k)
+    chord = np.column_stack([rng.uniform(-1, 1, k), np.zeros(k)])
+    X = np.vstack([np.column_stack([np.cos(a), np.sin(a)]), chord])
+    return X + rng.normal(0, noise, X.shape)
+
+
 @pytest.mark.filterwarnings("ignore:.*rows are in no node")
-def test_branch_point_arms_match_a_search_per_neighbour():
+def test_branch_point_exits_match_a_networkx_search():
+    from lenswork.graph._summary import BRANCH_RADIUS
+
     rng = np.random.default_rng(5)
     t = rng.uniform(0, 4, 1000)
     X = np.column_stack([t, rng.normal(0, 0.3, (1000, 2))])
-    g = build_graph(t + rng.normal(0, 0.3, 1000), Workspace(X), intervals=20, k=10, min_size=3)
-    s = g.summary()
-    branches = s.features_of("branch")
-    assert len(branches) >= 5
-    d = graph_diagrams(g)[0]
-    for f in branches:
-        v = f.nodes[0]
-        hit = ((d.nodes[:, 0] == v) | (d.nodes[:, 1] == v)) & (d.kind != "component")
-        end = float(d.significance[hit].max()) if hit.any() else 0.0
-        # the stated rule: the smaller of the third-largest arm span and the largest
-        # diagram point (loop or limb) with an end at the node
-        assert f.significance == pytest.approx(min(_arm_reference(g, v), end), abs=1e-12)
+    Y = y_tree(900, np.random.default_rng(1))
+    T = _theta(1200, np.random.default_rng(0))
+    graphs = [
+        build_graph(t + rng.normal(0, 0.3, 1000), Workspace(X), intervals=20, k=10, min_size=3),
+        build_graph(Y[:, 1], Workspace(Y), scale="raw", intervals=20),
+        build_graph(T[:, 0], Workspace(T), scale="raw", intervals=20),
+    ]
+    nonzero = 0
+    for g in graphs:
+        d = graph_diagrams(g)[0]
+        for f in g.summary().features_of("branch"):
+            v = f.nodes[0]
+            hit = ((d.nodes[:, 0] == v) | (d.nodes[:, 1] == v)) & (d.kind != "component")
+            end = float(d.significance[hit].max()) if hit.any() else 0.0
+            # the stated rule: the smaller of the third-largest exit span and the largest
+            # diagram point (loop or limb) with an end at the node
+            ref = min(_exit_reference(g, v, BRANCH_RADIUS * d.threshold * d.range), end)
+            assert f.significance == pytest.approx(ref, abs=1e-12)
+            nonzero += ref > 0
+    assert nonzero >= 3  # the Y's fork and the theta's two forks at least
+
+
+def test_theta_under_x_has_two_significant_forks():
+    # the theta's Reeb graph under x: two degree-3 nodes at x = -1 and x = 1 joined by three
+    # arcs, so two loops (Cohen-Steiner, Edelsbrunner and Harer 2009: one extended pair per
+    # independent cycle) and two branch points spanning the whole range
+    for seed in range(3):
+        T = _theta(1200, np.random.default_rng(seed))
+        s = build_graph(T[:, 0], Workspace(T), scale="raw", intervals=20).summary()
+        assert s.significance["loops"][0] == 2
+        assert len(s.significant_features("branch")) == 2
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_circle_under_two_lenses_has_no_significant_branch_point(seed):
+    # a circle's Reeb graph under either coordinate is a cycle with no branching
+    # (Cohen-Steiner et al. 2009); the nodes of a two-lens cover at the loop's extremes
+    # have three or more neighbours, which join right beside them, so none is significant
+    X = noisy_circle(900, np.random.default_rng(seed), noise=0.05)
+    s = build_graph(X, Workspace(X)).summary()
+    assert s.significant_holes == 1
+    assert len(s.branch_points) >= 3  # the cover does make nodes of degree >= 3 ...
+    assert not s.significant_features("branch")  # ... none of which branches

@@ -46,11 +46,17 @@ than one interval once both ends' uncertainty is taken off):
 * branch points: the third-largest lens span (as a share of the range) of the
   node's arms -- the parts of the graph reached from each of its neighbours
   without passing through it -- so a node is a significant branching when at
-  least three directions from it span more than the resolution -- and at most
-  the largest significance of the limbs and loops with an end at the node, so
-  that the nodes of a mesh of small loops (where every direction reaches
-  everything) stay small: the fork of a Y, the junctions of a theta count;
-  a loop node with a one-node spur does not.
+  least three directions from it span more than the resolution. Directions
+  are counted near the node: neighbours joined through nodes whose level lies
+  within the resolution threshold of the node's own are one direction (the
+  level set just above or below a Reeb-graph node is what decides whether it
+  branches; Carrière and Oudot 2018), so the extreme node of a thick loop,
+  whose neighbours in a multi-lens cover join right beside it, is no branch
+  point, while a fork's arms and a theta's strands stay apart. The value is
+  also at most the largest significance of the limbs and loops with an end
+  at the node, so that the nodes of a mesh of small loops (where every
+  direction reaches everything) stay small: the fork of a Y, the junctions
+  of a theta count; a loop node with a one-node spur does not.
 
 With several lenses each feature takes the largest value over the lenses
 (a feature is significant when one lens certifies it). Graphs of a ball
@@ -74,6 +80,7 @@ a breadth-first spanning tree (one per non-tree edge), so their number is
 
 from __future__ import annotations
 
+import math
 from collections import deque
 from dataclasses import dataclass, field, replace
 from functools import cached_property
@@ -86,7 +93,7 @@ from .._errors import ParameterError
 from ._nerve import nerve_triangles
 from ._persistence import ascending_edge_order, graph_diagrams
 
-__all__ = ["GraphFeature", "GraphSummary", "articulation_points", "cover_settings",
+__all__ = ["GraphFeature", "GraphSummary", "cover_settings",
            "neighbour_lists", "settings_text", "summarize"]
 
 
@@ -505,8 +512,6 @@ class _Significance:
         self.graph = graph
         self.diagrams = diagrams
         self.levels = graph.node_elements.astype(np.float64)
-        self._cut = None
-        self._comp = None
 
     def _best(self, values):
         """(largest significance, significant in some lens) over per-lens (value, ok) pairs."""
@@ -547,48 +552,65 @@ class _Significance:
         return sorted(((k, v, ok) for k, (v, ok) in merged.items()), key=lambda t: -t[1])
 
     def at_node(self, v, nb):
-        """Third-largest lens span of the arms at node ``v`` (module notes).
+        """Third-largest lens span of the exits at node ``v`` (module notes).
 
-        An arm is the part of the graph reached from one neighbour without
-        passing through ``v``: the component of ``G - v`` holding that
-        neighbour. Unless ``v`` is an articulation point, ``G - v`` keeps the
-        component whole and every arm spans it.
+        For each lens: the ball is the part of the graph reached from ``v``
+        through nodes whose level is within ``r`` of ``v``'s, the shell the
+        nodes reached within ``2 r`` that are not in the ball, with ``r`` a
+        share :data:`BRANCH_RADIUS` of the resolution threshold. Each
+        component of the shell is an exit; its arm is the component of
+        ``G - ball`` holding it, and its span runs from ``v``'s level to the
+        arm's farthest level.
         """
         if len(nb[v]) < 3:
             return 0.0, False
-        arms = self._arms(v, nb)
         vals = []
         for j, d in enumerate(self.diagrams):
+            if not (d.range > 0 and math.isfinite(d.threshold)):
+                vals.append((0.0, False))
+                continue
             lv = self.levels[:, j]
-            spans = sorted((max(hi[j], lv[v]) - min(lo[j], lv[v]) for lo, hi in arms),
-                           reverse=True)
-            value = float(spans[2]) / d.range if d.range > 0 else 0.0
+            spans = self._exit_spans(v, nb, lv, BRANCH_RADIUS * d.threshold * d.range)
+            if len(spans) < 3:
+                vals.append((0.0, False))
+                continue
+            value = float(sorted(spans, reverse=True)[2]) / d.range
             vals.append((value, value > d.threshold))
         return self._best(vals)
 
-    def _arms(self, v, nb):
-        """(per-lens minimum, per-lens maximum) of the levels of each arm at ``v``."""
-        if self._cut is None:
-            self._cut, self._comp = articulation_points(nb), None
-        if v not in self._cut:
-            if self._comp is None:
-                A = self.graph.adjacency()
-                _, self._comp = connected_components(A, directed=False)
-            mask = self._comp == self._comp[v]
-            lo, hi = self.levels[mask].min(axis=0), self.levels[mask].max(axis=0)
-            return [(lo, hi)] * len(nb[v])
-        A = sp.csr_matrix(self.graph.adjacency())
-        keep = np.ones(A.shape[0], dtype=bool)
-        keep[v] = False
-        idx = np.flatnonzero(keep)
-        _, lab = connected_components(A[idx][:, idx], directed=False)
-        labels = np.full(A.shape[0], -1, dtype=np.int64)
-        labels[idx] = lab
-        out = []
-        for w in nb[v]:
-            mask = labels == labels[w]
-            out.append((self.levels[mask].min(axis=0), self.levels[mask].max(axis=0)))
-        return out
+    @staticmethod
+    def _exit_spans(v, nb, level, radius):
+        """Lens span of the arm behind each exit of the ball of ``radius`` around ``v``."""
+        lv = level[v]
+
+        def reach(seeds, allowed):
+            seen = set(seeds)
+            frontier = list(seeds)
+            while frontier:
+                nxt = []
+                for u in frontier:
+                    for x in nb[u]:
+                        if x not in seen and allowed(x):
+                            seen.add(x)
+                            nxt.append(x)
+                frontier = nxt
+            return seen
+
+        ball = reach([v], lambda x: abs(level[x] - lv) <= radius)
+        wide = reach([v], lambda x: abs(level[x] - lv) <= 2 * radius)
+        shell = wide - ball
+        exits, done = [], set()
+        for u in sorted(shell):
+            if u not in done:
+                done |= reach([u], lambda x: x in shell)
+                exits.append(u)
+        if len(exits) < 3:  # no branching: the arms are not needed
+            return []
+        spans = []
+        for u in exits:
+            values = level[sorted(reach([u], lambda x: x not in ball))]
+            spans.append(max(values.max(), lv) - min(values.min(), lv))
+        return spans
 
     def ends_at(self, v):
         """Largest significance of the limbs and loops with an end at node ``v``."""
@@ -615,60 +637,6 @@ class _Significance:
                 i = int(born[np.argmax(d.significance[born])])
                 vals.append((float(d.significance[i]), bool(d.significant[i])))
         return self._best(vals)
-
-
-def articulation_points(nb):
-    """Nodes whose removal disconnects their component (Tarjan 1972), iteratively, O(V + E).
-
-    Parameters
-    ----------
-    nb : list of lists of int
-        Neighbours of every node (:func:`neighbour_lists`).
-
-    Returns
-    -------
-    set of int
-
-    Examples
-    --------
-    >>> sorted(articulation_points([[1], [0, 2], [1, 3, 4], [2], [2]]))
-    [1, 2]
-    """
-    V = len(nb)
-    disc = [-1] * V
-    low = [0] * V
-    cut = set()
-    timer = 0
-    for root in range(V):
-        if disc[root] >= 0:
-            continue
-        disc[root] = low[root] = timer
-        timer += 1
-        children = 0
-        stack = [(root, -1, iter(nb[root]))]
-        while stack:
-            u, parent, it = stack[-1]
-            for w in it:
-                if w == parent:
-                    continue
-                if disc[w] < 0:
-                    disc[w] = low[w] = timer
-                    timer += 1
-                    if u == root:
-                        children += 1
-                    stack.append((w, u, iter(nb[w])))
-                    break
-                low[u] = min(low[u], disc[w])
-            else:
-                stack.pop()
-                if stack:
-                    p = stack[-1][0]
-                    low[p] = min(low[p], low[u])
-                    if p != root and low[u] >= disc[p]:
-                        cut.add(p)
-        if children > 1:
-            cut.add(root)
-    return cut
 
 
 def _spanning_forest(E, order, V):
@@ -749,6 +717,11 @@ def _significance(graph):
     graph._significance_cache = result
     return result or None
 
+
+#: Radius of the ball around a node whose exits are counted as its directions, as a share of
+#: the resolution threshold: a quarter, the uncertainty of one end's level (the threshold
+#: holds the uncertainty of both ends, twice over; see ``resolution_threshold``).
+BRANCH_RADIUS = 0.25
 
 #: Largest boundary matrix (edges x triangles) whose rank is computed densely.
 _MAX_BOUNDARY = 4_000_000
