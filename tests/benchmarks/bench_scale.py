@@ -219,7 +219,8 @@ def bench_graph(run, src, tmp):
 
 # ---------------------------------------------------------------- per-lens costs (child)
 def _error_of(info):
-    for key in ("rel_se_median", "rel_gap_median", "max_residual", "rel_hard_width_median"):
+    for key in ("extension_error", "rel_se_median", "rel_gap_median", "max_residual",
+                "rel_hard_width_median"):
         if key in info and info[key] is not None:
             return f"{key}={info[key]:.2g}"
     if "error" in info:
