@@ -58,9 +58,11 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
     --lens-file (for example the selection of `lenswork screen`), or both. The
     cover lays --intervals intervals with --overlap over each lens (or, with
     --cover ball, balls around a greedy net of the lens values); each cover
-    element is clustered on the shared k-NN graph; nodes that share rows are
-    joined. By default the interval count and --min-size follow the rows and
-    lens columns (auto; the resolved values are printed and recorded). Prints
+    element is clustered on the shared k-NN graph (up to 50,000 rows; above,
+    on a k-NN graph inside the element: --clusterer auto); nodes that share
+    rows are joined. By default the interval count, --min-size and --clusterer
+    follow the rows and lens columns (auto; the resolved values are printed and
+    recorded). Prints
     the summary (components, loops b1 = E - V + C, branch points, flares, rows
     in no node; the significant loops, branches, flares and branch points --
     lens span above the cover's resolution -- apart from the small ones) and
