@@ -18,6 +18,7 @@ element rule at several landmark counts (0: whole elements, exact).
 
 Run:  flock /tmp/lenswork-bench.lock python tests/benchmarks/bench_graph_rules.py
       [--sizes 1e4,5e4,1e5] [--landmarks 0,1000,2000,4000] [--rules graph,element-knn]
+      [--hole-scales 4]
 """
 
 from __future__ import annotations
@@ -50,6 +51,8 @@ def main():
     parser.add_argument("--landmarks", default="2000",
                         help="landmark counts of the element rule (0: whole elements)")
     parser.add_argument("--rules", default="graph,element-knn")
+    parser.add_argument("--hole-scales", type=int, default=4,
+                        help="cover scales per graph (1: the cover alone, a quarter of the work)")
     args = parser.parse_args()
 
     import lenswork as lw
@@ -80,7 +83,7 @@ def main():
             t0 = time.perf_counter()
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
-                g = lw.build_graph(lenses, ws, clusterer=rule)
+                g = lw.build_graph(lenses, ws, clusterer=rule, hole_scales=args.hole_scales)
             secs = time.perf_counter() - t0
             s = g.summary()
             label = rule if mark is None else f"{rule} L={mark or 'all'}"

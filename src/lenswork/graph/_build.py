@@ -215,7 +215,7 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
     clusterer : {"auto", "graph", "single", "element-knn"} or estimator, default="auto"
         See :mod:`lenswork.graph._cluster`; ``"auto"``: ``"graph"`` up to 50,000
         rows or when ``workspace`` already holds its neighbour graph, else
-        ``"element-knn"`` (:func:`lenswork.graph.auto_clusterer`).
+        ``"element-knn"`` (:func:`lenswork.graph._settings.auto_clusterer`).
     cutoff : float or {"auto", "fence", "none"}, default="auto"
         Longest neighbour edge the graph clusterer keeps; ``"auto"`` cuts only
         at a gap in the tail of the neighbour distances (see

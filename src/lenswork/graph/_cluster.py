@@ -2,7 +2,7 @@
 
 Three named rules and any scikit-learn clusterer; one table (:data:`CLUSTERERS`, name ->
 :class:`ClusterRule`) for validation, dispatch and the CLI. The default
-``clusterer="auto"`` is resolved per build (:func:`lenswork.graph.auto_clusterer`):
+``clusterer="auto"`` is resolved per build (``auto_clusterer`` in ``_settings``):
 ``"graph"`` up to 50,000 rows or when the workspace already holds the shared
 graph, ``"element-knn"`` above, where the shared graph would be an approximate
 all-rows search (a 1e6 x 20 table: 480 s, most of a 557-s graph run).
