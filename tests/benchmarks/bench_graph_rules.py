@@ -7,12 +7,12 @@ workspace, so the "graph" rule pays for its neighbour graph of all rows. The
 process builds one small pynndescent graph first, so its numba compilation
 (25-55 s in a fresh process) is not counted here; quote it apart.
 
-Printed per n: seconds, peak memory growth (tracemalloc is not used: it slows
-numpy; RSS high-water mark of the process instead), nodes, edges, components,
-loops, significant holes, rows in no node, and the agreement of the
-element-knn graph with the graph-rule graph: the co-membership adjusted Rand
-index and pair Jaccard of lenswork.compare.co_membership (Hubert and Arabie
-1985 with node-sharing weights), and the ARI of the node partitions
+Printed per n: seconds, the process's peak RSS so far (VmHWM), nodes, edges,
+components, loops, significant holes (the nerve's holes with --hole-scales 1),
+rows in no node, and the agreement of each element-knn graph with the
+graph-rule graph: the co-membership adjusted Rand index and pair Jaccard of
+lenswork.compare.co_membership (Hubert and Arabie 1985 with node-sharing
+weights), and the ARI of the node partitions
 (lenswork.compare.induced_partition(how="node")). ``--landmarks`` runs the
 element rule at several landmark counts (0: whole elements, exact).
 
@@ -98,7 +98,8 @@ def main():
                 agree = f"{cm['ari']:8.3f}{cm['jaccard']:8.3f}{node_ari:9.3f}"
             print(f"{n:>8,} {label:<22}{secs:9.2f}{_rss_peak():9.0f}{s.n_nodes:7d}"
                   f"{s.n_edges:7d}{s.n_components:5d}{s.loops:6d}"
-                  f"{str(s.significant_holes):>6}{s.n_unassigned:8d}{agree}", flush=True)
+                  f"{str(s.holes if s.significant_holes is None else s.significant_holes):>6}"
+                  f"{s.n_unassigned:8d}{agree}", flush=True)
 
 
 if __name__ == "__main__":

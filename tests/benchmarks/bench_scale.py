@@ -34,7 +34,7 @@ the main checkout's ``src``), so the two codes are compared in one run.
 
 Run:  flock /tmp/lenswork-bench.lock python tests/benchmarks/bench_scale.py [--quick]
       [--sizes 1e5,1e6] [--lens-sizes 1e4,1e5,1e6] [--full-check 1e5|''] [--src DIR]
-      [--graph-only 1e5,1e6 [--graph-lenses SPEC,...] [--before-src DIR]]
+      [--graph-only 1e5,1e6 [--graph-lenses SPEC,...] [--graph-use COLS] [--before-src DIR]]
 """
 
 from __future__ import annotations
@@ -173,11 +173,13 @@ def bench_screen(n, src, tmp, sample=None):
     return {"n": n, "table": table, "out": out, "wall": wall, "peak": peak, "selected": chosen}
 
 
-def bench_graph(run, src, tmp, label=""):
+def bench_graph(run, src, tmp, label="", use=None):
     lens_file = run["out"] / "lenses.csv"
     gout = Path(tmp) / f"graph_{run['n']}"
+    extra = ["--use", use] if use else []
     wall, peak, err, stdout, code = run_cli(
-        ["graph", str(run["table"]), "--lens-file", str(lens_file), "-o", str(gout)], src, tmp)
+        ["graph", str(run["table"]), "--lens-file", str(lens_file), *extra, "-o", str(gout)],
+        src, tmp)
     if code != 0:
         print(f"graph n={run['n']} failed (exit {code}):\n{err[-2000:]}", flush=True)
         return
@@ -305,6 +307,8 @@ def main():
                              "these sizes")
     parser.add_argument("--graph-lenses", default="pca:components=2",
                         help="--graph-only: lens specs of the lens file, comma-separated")
+    parser.add_argument("--graph-use", default=None, metavar="COLS",
+                        help="--graph-only: the lens-file columns the graph uses (--use)")
     parser.add_argument("--before-src", default=None,
                         help="--graph-only: also run the graph with this src (before/after)")
     parser.add_argument("--lens-child", type=int, help=argparse.SUPPRESS)
@@ -326,8 +330,10 @@ def main():
                 if run is None:
                     continue
                 if args.before_src:
-                    bench_graph(run, Path(args.before_src).resolve(), tmp, label=" (before)")
-                bench_graph(run, src, tmp, label=" (after)" if args.before_src else "")
+                    bench_graph(run, Path(args.before_src).resolve(), tmp, label=" (before)",
+                                use=args.graph_use)
+                bench_graph(run, src, tmp, label=" (after)" if args.before_src else "",
+                            use=args.graph_use)
         return
     with tempfile.TemporaryDirectory(prefix="lenswork-scale-") as tmp:
         runs = [r for r in (bench_screen(n, src, tmp) for n in sizes) if r]
