@@ -104,7 +104,7 @@ def test_two_circles_on_either_side_of_the_threshold(n):
     # scikit-learn's make_circles: two circles, so two components with one loop each
     # (a circle's Mapper graph over a height lens is a cycle, Mapper 2007). 3,000 rows: the
     # shared-graph rule; 60,000 rows in 8 columns: the element rule, with landmarks in the
-    # elements of more than 2,000 points
+    # elements of more than 1,000 points (ELEMENT_LANDMARKS)
     X = _circles(n, 6, 0)
     g = build_graph(X[:, 0], Workspace(X), intervals=8)
     expected = "graph" if n <= settings_module.AUTO_GRAPH_MAX_ROWS else "element-knn"

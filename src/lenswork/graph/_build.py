@@ -268,7 +268,7 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
     2. clusters: per element, connected components of the shared neighbour
        graph restricted to the element and to edges <= cut-off, O(k P)
        (``"graph"``), or of a k-NN graph inside the element, O(L P d) with at
-       most L = 2,000 landmarks per element (``"element-knn"``; then the lens
+       most L = 1,000 landmarks per element (``"element-knn"``; then the lens
        jitter of the significance rule comes from 1,000 sampled rows' exact
        neighbours, O(1,000 n d));
     3. nerve: edges from the one sparse product ``M^T M``, O(sum of squared

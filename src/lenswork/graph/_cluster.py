@@ -146,7 +146,7 @@ ELEMENT_WORKING_MEMORY = 64
 #: Largest element the element clusterer searches exhaustively in high dimension; a larger
 #: element is clustered on this many landmark points (see :func:`cluster_element`). Measured
 #: by tests/benchmarks/bench_graph_rules.py; see DEVELOPERS.md, "Clustering rules".
-ELEMENT_LANDMARKS = 2000
+ELEMENT_LANDMARKS = 1000
 #: Up to this many features (and not cosine) the element's neighbours come from a kd-tree,
 #: exact at any element size; above it from blocked brute force (the workspace's rule).
 ELEMENT_MAX_DIM_TREE = 6
@@ -184,6 +184,26 @@ def _element_search(X, metric):
     return NearestNeighbors(metric=metric, algorithm="kd_tree" if tree else "brute"), tree
 
 
+#: Up to this many points (in brute-force dimension) the element's k-NN lists come from one
+#: scipy ``cdist`` matrix, in this thread: scikit-learn's threaded search of so small a set
+#: took 0.18 s against 0.027 s single-threaded for 2,000 x 20 points while other jobs ran, and
+#: a 1e6-row build with 2,000 landmarks 70 s against 33 s (DEVELOPERS.md, "Clustering rules").
+ELEMENT_DENSE_MAX = 2048
+
+
+def _dense_knn(X, kk, metric):
+    """Exact (distances, indices) of each point's kk nearest others, ascending, ties by index."""
+    from scipy.spatial.distance import cdist
+
+    m = X.shape[0]
+    D = cdist(X, X, metric=_SCIPY_METRIC[metric])
+    np.fill_diagonal(D, np.inf)
+    part = np.argpartition(D, kk - 1, axis=1)[:, :kk]
+    d = np.take_along_axis(D, part, axis=1)
+    order = np.lexsort((part.ravel(), d.ravel(), np.repeat(np.arange(m), kk)))
+    return d.ravel()[order].reshape(m, kk), part.ravel()[order].reshape(m, kk)
+
+
 def _knn_components(X, k, cutoff, metric):
     """Weak components of the k-NN graph of X, edges above the cut-off removed: (labels, cut)."""
     import scipy.sparse as sp
@@ -194,9 +214,12 @@ def _knn_components(X, k, cutoff, metric):
     if kk < 1:
         cut = float(cutoff) if not isinstance(cutoff, str) else float("inf")
         return np.zeros(m, dtype=np.int64), cut
-    nn, _ = _element_search(X, metric)
-    dist, idx = nn.set_params(n_neighbors=kk + 1).fit(X).kneighbors(X)
-    dist, idx = dist[:, 1:], idx[:, 1:]
+    nn, tree = _element_search(X, metric)
+    if not tree and m <= ELEMENT_DENSE_MAX:
+        dist, idx = _dense_knn(X, kk, metric)
+    else:
+        dist, idx = nn.set_params(n_neighbors=kk + 1).fit(X).kneighbors(X)
+        dist, idx = dist[:, 1:], idx[:, 1:]
     if isinstance(cutoff, str):
         cut = _CUTOFF_RULES[cutoff](dist) if cutoff != "none" else float("inf")
     else:
@@ -262,7 +285,8 @@ def cluster_element(X_element, rows, *, k=15, cutoff="auto", min_size=10, fragme
     O(L^2 d) when the landmarks form one group and the cut-off is infinite
     (every point then joins that group; no search). On a 1e6 x 20 table a
     10 x 10 cover of two PCA lenses has 93 elements of 17,700 points (median)
-    to 74,000: 7.1e10 distance pairs searched whole, 2.8e8 on the landmarks.
+    to 74,000: 7.1e10 distance pairs searched whole, 7.1e7 on the landmarks
+    (71 elements of more than 1,000 points).
     The landmarks are the ``L`` rows of smallest :func:`landmark_priority`, a
     fixed function of the row position. A plain function of the element alone:
     the same points in the same order give the same labels on a worker and in
