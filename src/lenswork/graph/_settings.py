@@ -176,7 +176,7 @@ def auto_clusterer(n_rows, graph_cached=False):
     build, graph included, 4.1 s on 50,000 x 20 rows); above it, it is
     pynndescent's approximate search, which compiles for 25-55 s in every
     fresh process and took 480 s of a 557-s ``lenswork graph`` run on 1e6 x 20
-    rows. The element rule needs no all-rows graph: 7.7 s there for the
+    rows. The element rule needs no all-rows graph: 7.1 s there for the
     clusters of all four cover scales, and the same components and holes as
     the graph rule at 1e4, 5e4 and 1e5 rows (tests/benchmarks/bench_graph_rules.py;
     DEVELOPERS.md, "Clustering rules").
