@@ -117,7 +117,13 @@ def test_graph_prints_resolved_settings_and_significance(torus_csv, tmp_path):
     assert "significant: loops 1," in res.output
     res = run("graph", torus_csv, "--id-column", "sample", "--lens", "column:name=x",
               "--intervals", "8", "--min-size", "5", "--no-figure", "-o", tmp_path / "p")
-    assert "settings: intervals 8, overlap 0.3, min_size 5\n" in res.output
+    assert "settings: intervals 8, overlap 0.3, min_size 5, clusterer graph (auto)\n" \
+        in res.output  # 1,500 rows: at most 50,000, the shared graph's rule
+    res = run("graph", torus_csv, "--id-column", "sample", "--lens", "column:name=x",
+              "--intervals", "8", "--min-size", "5", "--clusterer", "element-knn",
+              "--no-figure", "-o", tmp_path / "r")
+    assert "settings: intervals 8, overlap 0.3, min_size 5, clusterer element-knn\n" \
+        in res.output
     res = run("graph", torus_csv, "--id-column", "sample", "--lens", "column:name=x",
               "--intervals", "auto", "--min-size", "auto", "--no-figure", "-o", tmp_path / "q")
     assert "intervals 10 (auto)" in res.output

@@ -240,7 +240,10 @@ def test_element_knn_rule_is_registered_and_refused_settings():
     with pytest.raises(ParameterError, match="raw lens values .* scale='raw'"):
         partitioned_graph(lens, GraphSettings(clusterer="element-knn"))
     with pytest.raises(ParameterError, match="clusterer='element-knn'"):
-        partitioned_graph(lens, GraphSettings(scale="raw"))
+        partitioned_graph(lens, GraphSettings(scale="raw", clusterer="graph"))
+    # the default "auto" resolves to the one rule the partitioned graph has
+    g = partitioned_graph(lens, GraphSettings(scale="raw", intervals=2, min_size=2, k=3))
+    assert g.params["clusterer"] == "element-knn"
 
 
 def test_interval_ranges_equal_the_cover():

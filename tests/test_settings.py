@@ -32,7 +32,7 @@ def test_defaults_are_those_of_build_graph():
     s = GraphSettings()
     assert (s.cover, s.intervals, s.overlap, s.scale, s.clusterer, s.cutoff, s.min_size, s.k,
             s.metric, s.fragments, s.gap_bins, s.random_state) == (
-        "interval", "auto", 0.3, "rank", "graph", "auto", "auto", 15, "euclidean", "attach", 10,
+        "interval", "auto", 0.3, "rank", "auto", "auto", "auto", 15, "euclidean", "attach", 10,
         None)
 
 
@@ -100,7 +100,7 @@ def test_from_dict_errors():
 
 
 def test_resolve_checks_per_lens_values():
-    s = GraphSettings(intervals=(5, 3), min_size=4)
+    s = GraphSettings(intervals=(5, 3), min_size=4, clusterer="graph")
     assert s.resolve(100, 2) is s  # nothing "auto" is left: unchanged
     with pytest.raises(ParameterError, match="has 2 values for 3 lens column"):
         s.resolve(100, 3)
@@ -264,8 +264,9 @@ def _closed_form(n, m, g=0.3, beta=0.1):
 def test_auto_rule_is_the_closed_form(n, m):
     intervals, min_size = _closed_form(n, m)
     r = GraphSettings().resolve(n, m)
-    assert r.intervals == intervals and r.min_size == min_size
-    assert r.auto_fields() == () and GraphSettings().auto_fields() == ("intervals", "min_size")
+    assert r.intervals == intervals and r.min_size == min_size and r.clusterer == "graph"
+    assert r.auto_fields() == ()
+    assert GraphSettings().auto_fields() == ("intervals", "min_size", "clusterer")
     # every element of the resolved product cover keeps q / g rows on average
     length = 1.0 / (intervals - (intervals - 1) * 0.3)
     q = math.log(n) ** 1.1
@@ -307,9 +308,10 @@ def test_default_graphs_of_small_bundled_tables_keep_their_rows(name, lenses):
     expected = GraphSettings().resolve(ws.n, 2)
     assert g.provenance["graph_settings"] == expected.to_dict()
     assert g.provenance["auto_settings"] == {"intervals": expected.intervals,
-                                             "min_size": expected.min_size}
+                                             "min_size": expected.min_size,
+                                             "clusterer": "graph"}
     assert "(auto)" in g.summary().text()
-    assert g.summary().to_dict()["settings"]["auto"] == ["intervals", "min_size"]
+    assert g.summary().to_dict()["settings"]["auto"] == ["clusterer", "intervals", "min_size"]
 
 
 def test_resolved_settings_reach_the_graph_files(tmp_path):

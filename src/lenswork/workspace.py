@@ -413,6 +413,17 @@ class Workspace:
             self._cache[key] = compute()
         return self._cache[key]
 
+    def has_neighbors(self, k=15, metric="euclidean"):
+        """Whether a neighbour graph with at least ``k`` neighbours is cached (nothing is built).
+
+        Examples
+        --------
+        >>> ws = Workspace(np.arange(40.0).reshape(20, 2))
+        >>> ws.has_neighbors(5), ws.neighbors(8).k, ws.has_neighbors(5)
+        (False, 8, True)
+        """
+        return any(key[0] == "knn" and key[1] == metric and key[2] >= k for key in self._cache)
+
     def neighbors(self, k=15, metric="euclidean"):
         """The shared k-NN graph; a cached graph with more neighbours is sliced, not recomputed."""
         k = check_int("k", k, lo=1, context="Workspace.neighbors")

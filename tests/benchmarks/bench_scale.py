@@ -27,8 +27,14 @@ The machine is shared (2 cores, other work running): quote ratios and
 scaling, not absolute seconds. ``--src DIR`` runs another checkout's
 ``src`` (e.g. the code before a change) for a before/after comparison.
 
+``--graph-only 1e5,1e6`` skips the screen: at each size it writes a lens file
+with ``lenswork compute TABLE -l pca:components=2`` (``--graph-lenses``; timed
+apart) and runs step 2 on it, once per ``--src`` and ``--before-src`` (e.g.
+the main checkout's ``src``), so the two codes are compared in one run.
+
 Run:  flock /tmp/lenswork-bench.lock python tests/benchmarks/bench_scale.py [--quick]
       [--sizes 1e5,1e6] [--lens-sizes 1e4,1e5,1e6] [--full-check 1e5|''] [--src DIR]
+      [--graph-only 1e5,1e6 [--graph-lenses SPEC,...] [--graph-use COLS] [--before-src DIR]]
 """
 
 from __future__ import annotations
@@ -197,24 +203,46 @@ def explain_difference(sampled, full):
           f"{verdict} (screen's redundancy ceiling 0.8)", flush=True)
 
 
-def bench_graph(run, src, tmp):
+def bench_graph(run, src, tmp, label="", use=None):
     lens_file = run["out"] / "lenses.csv"
     gout = Path(tmp) / f"graph_{run['n']}"
+    extra = ["--use", use] if use else []
     wall, peak, err, stdout, code = run_cli(
-        ["graph", str(run["table"]), "--lens-file", str(lens_file), "-o", str(gout)], src, tmp)
+        ["graph", str(run["table"]), "--lens-file", str(lens_file), *extra, "-o", str(gout)],
+        src, tmp)
     if code != 0:
         print(f"graph n={run['n']} failed (exit {code}):\n{err[-2000:]}", flush=True)
         return
     steps = summarise_steps(parse_steps(err))
     top = sum(r["seconds"] for r in steps if r["depth"] == 0)
-    print(f"\n== lenswork graph --lens-file, n={run['n']:,}: wall {wall:.1f} s, peak RSS "
-          f"{peak:,.0f} MiB", flush=True)
+    # the command's own steps (lens file, cover ... files) cover all it does once the table
+    # is read: start-up, imports and reading the table are the rest
+    after = f"; after the table is read {top:.1f} s"
+    print(f"\n== lenswork graph --lens-file{label}, n={run['n']:,}: wall {wall:.1f} s{after}, "
+          f"peak RSS {peak:,.0f} MiB", flush=True)
     for r in steps:
         print(f"  {'  ' * r['depth']}{r['step'][:78]:<80} {r['seconds']:8.2f} s")
-    print(f"  {'other (start-up, reading table and lens file, outside steps)':<80} "
+    print(f"  {'other (start-up, imports, reading the table)':<80} "
           f"{wall - top:8.2f} s")
     summary = [line for line in stdout.splitlines() if line.strip()][:6]
     print("  " + "\n  ".join(summary), flush=True)
+
+
+def lens_file_run(n, specs, src, tmp):
+    """``lenswork compute`` of ``specs`` on the n-row table: the run record bench_graph reads."""
+    table = table_file(n, tmp)
+    out = Path(tmp) / f"lenses_{n}"
+    out.mkdir(exist_ok=True)
+    args = ["compute", str(table), "-o", str(out / "lenses.csv")]
+    for spec in specs:
+        args += ["-l", spec]
+    wall, peak, err, _, code = run_cli(args, src, tmp)
+    if code != 0:
+        print(f"compute n={n} failed (exit {code}):\n{err[-2000:]}", flush=True)
+        return None
+    print(f"\n== lenswork compute {' '.join(specs)}, n={n:,}: wall {wall:.1f} s, peak RSS "
+          f"{peak:,.0f} MiB (the lens file)", flush=True)
+    return {"n": n, "table": table, "out": out}
 
 
 # ---------------------------------------------------------------- per-lens costs (child)
@@ -319,6 +347,15 @@ def main():
     parser.add_argument("--lens-timeout", type=float, default=None,
                         help="stop a per-lens child after this many seconds (the lenses it "
                              "finished are still printed)")
+    parser.add_argument("--graph-only", default=None, metavar="SIZES",
+                        help="no screen: `lenswork graph --lens-file` on a computed lens file at "
+                             "these sizes")
+    parser.add_argument("--graph-lenses", default="pca:components=2",
+                        help="--graph-only: lens specs of the lens file, comma-separated")
+    parser.add_argument("--graph-use", default=None, metavar="COLS",
+                        help="--graph-only: the lens-file columns the graph uses (--use)")
+    parser.add_argument("--before-src", default=None,
+                        help="--graph-only: also run the graph with this src (before/after)")
     parser.add_argument("--lens-child", type=int, help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.lens_child:
@@ -331,6 +368,18 @@ def main():
                                               if s]
     src = Path(args.src).resolve()
     print(f"lenswork from {src}; machine: {os.cpu_count()} cores, shared", flush=True)
+    if args.graph_only:
+        with tempfile.TemporaryDirectory(prefix="lenswork-scale-") as tmp:
+            for n in [int(float(x)) for x in args.graph_only.split(",") if x]:
+                run = lens_file_run(n, args.graph_lenses.split(","), src, tmp)
+                if run is None:
+                    continue
+                if args.before_src:
+                    bench_graph(run, Path(args.before_src).resolve(), tmp, label=" (before)",
+                                use=args.graph_use)
+                bench_graph(run, src, tmp, label=" (after)" if args.before_src else "",
+                            use=args.graph_use)
+        return
     with tempfile.TemporaryDirectory(prefix="lenswork-scale-") as tmp:
         runs = [r for r in (bench_screen(n, src, tmp) for n in sizes) if r]
         if args.full_check:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import click
 
+from .. import _progress
 from ..graph import LAYOUTS, build_graph, write_graph_json, write_graphml, write_memberships
 from ..lenses import compute_lenses
 from ..table import LensTable
@@ -58,9 +59,11 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
     --lens-file (for example the selection of `lenswork screen`), or both. The
     cover lays --intervals intervals with --overlap over each lens (or, with
     --cover ball, balls around a greedy net of the lens values); each cover
-    element is clustered on the shared k-NN graph; nodes that share rows are
-    joined. By default the interval count and --min-size follow the rows and
-    lens columns (auto; the resolved values are printed and recorded). Prints
+    element is clustered on the shared k-NN graph (up to 50,000 rows; above,
+    on a k-NN graph inside the element: --clusterer auto); nodes that share
+    rows are joined. By default the interval count, --min-size and --clusterer
+    follow the rows and lens columns (auto; the resolved values are printed and
+    recorded). Prints
     the summary (components, loops b1 = E - V + C, branch points, flares, rows
     in no node; the significant loops, branches, flares and branch points --
     lens span above the cover's resolution -- apart from the small ones) and
@@ -86,7 +89,8 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
         ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
         columns = []
         if lens_file:
-            columns += list(LensTable.read(lens_file, cloud, columns=_names(use)))
+            with _progress.step("graph: read the lens file"):
+                columns += list(LensTable.read(lens_file, cloud, columns=_names(use)))
         if lens_specs:
             columns += list(compute_lenses(ws, list(lens_specs)))
         table = LensTable(columns, cloud, random_state=seed)
@@ -97,18 +101,22 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
     if not no_figure:  # drawn before any file is written, so a failure leaves no partial output
         from ..plot._graph import draw_graph
 
-        figures = {key: draw_graph(graph, color=color, layout=layout, random_state=seed)
-                   for key in ("png", "svg")}
-    click.echo(graph.summary().text())
-    written = [
-        write_graphml(graph, out / OUTPUTS["graphml"]),
-        write_graph_json(graph, out / OUTPUTS["json"]),
-        write_memberships(graph, out / OUTPUTS["members"]),
-    ]
-    if figures:
-        from ..plot._style import save
+        with _progress.step("graph: drawing"):
+            figures = {key: draw_graph(graph, color=color, layout=layout, random_state=seed)
+                       for key in ("png", "svg")}
+    with _progress.step("graph: summary"):
+        text = graph.summary().text()
+    click.echo(text)
+    with _progress.step("graph: writing the files"):
+        written = [
+            write_graphml(graph, out / OUTPUTS["graphml"]),
+            write_graph_json(graph, out / OUTPUTS["json"]),
+            write_memberships(graph, out / OUTPUTS["members"]),
+        ]
+        if figures:
+            from ..plot._style import save
 
-        written += [save(fig, out / OUTPUTS[key]) for key, fig in figures.items()]
+            written += [save(fig, out / OUTPUTS[key]) for key, fig in figures.items()]
     click.echo(f"wrote {', '.join(str(p) for p in written)}")
 
 

@@ -8,6 +8,7 @@ import numpy as np
 
 from .. import _progress
 from .._errors import LensworkWarning, ParameterError
+from .._validation import seed_of
 from .._version import __version__
 from ..table import as_lens_table
 from ..workspace import Workspace
@@ -20,15 +21,23 @@ from ._settings import GraphSettings, is_auto
 __all__ = ["build_graph", "hole_scale_settings", "lens_jitter", "node_statistics"]
 
 
-def lens_jitter(values, neighbours):
+#: Rows on which the lens jitter is measured when the build reads no shared neighbour graph
+#: (their exact neighbours among all rows: O(JITTER_ROWS n d)).
+JITTER_ROWS = 1000
+
+
+def lens_jitter(values, neighbours, rows=None):
     """Root-mean-square lens difference between k-NN neighbours, per lens, as a share of its span.
 
     Parameters
     ----------
     values : ndarray of shape (n_rows, n_lenses)
         The lens values on the cover scale.
-    neighbours : ndarray of int of shape (n_rows, k)
-        Each row's k nearest neighbours.
+    neighbours : ndarray of int of shape (n_rows, k), or (len(rows), k)
+        Each row's k nearest neighbours (of the given ``rows`` only).
+    rows : ndarray of int, optional
+        The rows whose neighbours are given (default: every row); the mean
+        then runs over them alone (a sample).
 
     Returns
     -------
@@ -49,6 +58,7 @@ def lens_jitter(values, neighbours):
     """
     U = np.asarray(values, dtype=np.float64)
     idx = np.asarray(neighbours, dtype=np.int64)
+    own = np.arange(U.shape[0]) if rows is None else np.asarray(rows, dtype=np.int64)
     out = []
     for j in range(U.shape[1]):
         u = U[:, j]
@@ -56,9 +66,41 @@ def lens_jitter(values, neighbours):
         if span <= 0 or idx.size == 0:
             out.append(0.0)
             continue
-        d2 = float(np.mean((u[:, None] - u[idx]) ** 2))
+        d2 = float(np.mean((u[own][:, None] - u[idx]) ** 2))
         out.append(float(np.sqrt(d2) / span))
     return out
+
+
+def _sample_neighbours(ws, k, metric):
+    """(rows, their k exact neighbours among all rows) for a seeded sample of JITTER_ROWS rows.
+
+    Blocked brute force (a kd-tree up to 6 columns): O(JITTER_ROWS n d), no
+    all-rows neighbour graph. Cached in the workspace.
+    """
+
+    def compute():
+        from sklearn import config_context
+        from sklearn.neighbors import NearestNeighbors
+
+        n, d = ws.n, ws.d
+        kk = min(k, n - 1)
+        if n <= JITTER_ROWS:
+            rows = np.arange(n)
+        else:
+            rng = np.random.default_rng(seed_of(ws.random_state))
+            rows = np.sort(rng.choice(n, JITTER_ROWS, replace=False))
+        algorithm = "kd_tree" if d <= 6 and metric != "cosine" else "brute"
+        with config_context(working_memory=64):
+            nn = NearestNeighbors(n_neighbors=kk + 1, metric=metric, algorithm=algorithm)
+            idx = nn.fit(ws.X).kneighbors(ws.X[rows], return_distance=False)
+        is_self = idx == rows[:, None]
+        is_self[~is_self.any(axis=1), -1] = True  # self not returned (duplicates): drop the last
+        first = np.argmax(is_self, axis=1)
+        keep = np.ones_like(is_self)
+        keep[np.arange(rows.size), first] = False
+        return rows, idx[keep].reshape(rows.size, kk)
+
+    return ws.cached(("jitter_sample", metric, k, JITTER_ROWS), compute)
 
 
 def _data_columns(cloud, columns, lens_names):
@@ -170,8 +212,10 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
         Overlap fraction in [0, 1).
     scale : {"rank", "raw"}, default="rank"
         Lay the intervals on ranks (equal-count) or on the lens values.
-    clusterer : {"graph", "single"} or scikit-learn clusterer, default="graph"
-        See :mod:`lenswork.graph._cluster`.
+    clusterer : {"auto", "graph", "single", "element-knn"} or estimator, default="auto"
+        See :mod:`lenswork.graph._cluster`; ``"auto"``: ``"graph"`` up to 50,000
+        rows or when ``workspace`` already holds its neighbour graph, else
+        ``"element-knn"`` (:func:`lenswork.graph._settings.auto_clusterer`).
     cutoff : float or {"auto", "fence", "none"}, default="auto"
         Longest neighbour edge the graph clusterer keeps; ``"auto"`` cuts only
         at a gap in the tail of the neighbour distances (see
@@ -222,7 +266,11 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
        O(n m) (O(n log n) for ranks); the ball cover: a greedy net and one
        KD-tree ball query per centre, O(n log n + P);
     2. clusters: per element, connected components of the shared neighbour
-       graph restricted to the element and to edges <= cut-off, O(k P);
+       graph restricted to the element and to edges <= cut-off, O(k P)
+       (``"graph"``), or of a k-NN graph inside the element, O(L P d) with at
+       most L = 1,000 landmarks per element (``"element-knn"``; then the lens
+       jitter of the significance rule comes from 1,000 sampled rows' exact
+       neighbours, O(1,000 n d));
     3. nerve: edges from the one sparse product ``M^T M``, O(sum of squared
        memberships per row);
     4. node statistics by segment reductions over the membership, O(P) per column.
@@ -251,7 +299,7 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
     ws = workspace if isinstance(workspace, Workspace) else Workspace(workspace)
     table = as_lens_table(lenses, ws, what="build_graph")
     auto = settings.auto_fields()
-    settings = settings.resolve(ws.n, len(table.names))
+    settings = settings.resolve(ws.n, len(table.names), workspace=ws)
     graph = _build(table, ws, settings, columns, auto)
     scales = hole_scale_settings(settings, len(table.names))
     if scales:
@@ -364,6 +412,11 @@ def _build(table, ws, settings, columns, auto):
             "k": g.k, "metric": g.metric, "method": g.method,
             "info": {key: v for key, v in g.info.items() if key != "seconds"},
         }
+    elif ws.n >= 2:  # no shared graph: the jitter on a sample of rows
+        with _progress.step(f"graph: lens jitter on {min(ws.n, JITTER_ROWS):,} rows"):
+            sample, nb = _sample_neighbours(ws, k, metric)
+            params["lens_jitter"] = lens_jitter(cover.values_, nb, rows=sample)
+        params["lens_jitter_rows"] = int(sample.size)
     graph = LensGraph(
         M, cover.element_ids(result.node_element), edges, shared, stats,
         node_levels=cover.levels(result.node_element), lens_columns=names,

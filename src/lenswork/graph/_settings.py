@@ -38,9 +38,15 @@ the rank scale, in closed form:
 
 With ``overlap = 0.3``: one lens keeps 10 intervals from about 150 rows on;
 two lenses on 150 rows get 3 x 3 and ``min_size`` 6 (a 10 x 10 cover with
-``min_size`` 10 left 117 of iris's 150 rows in no node). The resolved values
-are what the graph records (``provenance["graph_settings"]``, with
-``provenance["auto_settings"]`` naming the fields that were ``"auto"``).
+``min_size`` 10 left 117 of iris's 150 rows in no node).
+
+``clusterer = "auto"`` (:func:`auto_clusterer`): the ``"graph"`` rule, which
+reads the shared neighbour graph of all rows, up to :data:`AUTO_GRAPH_MAX_ROWS`
+rows (where that graph is exact and quick) or when the workspace holds it
+already; ``"element-knn"``, a neighbour graph inside each element, above.
+
+The resolved values are what the graph records (``provenance["graph_settings"]``,
+with ``provenance["auto_settings"]`` naming the fields that were ``"auto"``).
 """
 
 from __future__ import annotations
@@ -52,7 +58,7 @@ from dataclasses import replace as _dc_replace
 
 from .._errors import ParameterError
 from .._validation import check_choice, check_float, check_int
-from ..workspace import METRICS
+from ..workspace import EXACT_MAX_ROWS, METRICS
 from ._cluster import (
     CLUSTERERS,
     FRAGMENT_RULES,
@@ -64,11 +70,13 @@ from ._cover import COVER_SCALES, COVERS, CoverBase
 
 __all__ = [
     "AUTO_BETA",
+    "AUTO_GRAPH_MAX_ROWS",
     "AUTO_MAX_INTERVALS",
     "AUTO_MAX_MIN_SIZE",
     "AUTO_MIN_GAIN",
     "AUTO_RULES",
     "GraphSettings",
+    "auto_clusterer",
     "auto_intervals",
     "auto_min_size",
     "ball_rows",
@@ -84,6 +92,9 @@ AUTO_MAX_INTERVALS = 10
 AUTO_MIN_GAIN = 0.25
 #: Largest "auto" min_size (the former fixed default).
 AUTO_MAX_MIN_SIZE = 10
+#: Most rows for which clusterer="auto" reads the shared neighbour graph ("graph"): the
+#: workspace's exact-search limit (above it the shared graph is an approximate all-rows build).
+AUTO_GRAPH_MAX_ROWS = EXACT_MAX_ROWS
 
 
 def ball_rows(n_rows):
@@ -143,12 +154,54 @@ def auto_min_size(n_rows):
     return int(min(AUTO_MAX_MIN_SIZE, max(3, round(ball_rows(n_rows)))))
 
 
-#: Field -> rule resolving a data-dependent value from (settings, n_rows, n_lenses).
+def auto_clusterer(n_rows, graph_cached=False):
+    """``"graph"`` up to :data:`AUTO_GRAPH_MAX_ROWS` rows or with the shared graph at hand, else
+    ``"element-knn"``.
+
+    Parameters
+    ----------
+    n_rows : int
+    graph_cached : bool, default=False
+        Whether the workspace already holds a neighbour graph of every row with
+        at least ``k`` neighbours (then the "graph" rule costs only the
+        clustering).
+
+    Returns
+    -------
+    str
+
+    Notes
+    -----
+    Below the limit the shared graph is exact and quick (the whole default
+    build, graph included, 4.1 s on 50,000 x 20 rows); above it, it is
+    pynndescent's approximate search, which compiles for 25-55 s in every
+    fresh process and took 480 s of a 557-s ``lenswork graph`` run on 1e6 x 20
+    rows. The element rule needs no all-rows graph: 7.1 s there for the
+    clusters of all four cover scales, and the same components and holes as
+    the graph rule at 1e4, 5e4 and 1e5 rows (tests/benchmarks/bench_graph_rules.py;
+    DEVELOPERS.md, "Clustering rules").
+
+    Examples
+    --------
+    >>> auto_clusterer(50_000), auto_clusterer(50_001), auto_clusterer(10**6, graph_cached=True)
+    ('graph', 'element-knn', 'graph')
+    """
+    return "graph" if graph_cached or int(n_rows) <= AUTO_GRAPH_MAX_ROWS else "element-knn"
+
+
+def _clusterer_rule(s, n, m, workspace):
+    cached = workspace is not None and workspace.has_neighbors(s.k, s.metric)
+    return auto_clusterer(n, cached)
+
+
+#: Field -> rule resolving a data-dependent value from (settings, n_rows, n_lenses, workspace);
+#: the workspace (or None) only tells whether the shared neighbour graph is already built.
 AUTO_RULES: dict = {
-    "intervals": lambda s, n, m: auto_intervals(
+    "intervals": lambda s, n, m, ws: auto_intervals(
         n, m, s.overlap if not (isinstance(s.overlap, tuple) and len(s.overlap) != m)
         else _mean_overlap(s.overlap)),
-    "min_size": lambda s, n, m: auto_min_size(n),
+    "min_size": lambda s, n, m, ws: auto_min_size(n),
+    "clusterer": _clusterer_rule,
 }
 
 
@@ -222,7 +275,10 @@ class GraphSettings:
         Ball cover: net spacing on the cover scale.
     centres : int, optional
         Ball cover: a net of this many centres instead of the spacing ``radius``.
-    clusterer : {"graph", "single", "element-knn"} or scikit-learn clusterer, default="graph"
+    clusterer : {"auto", "graph", "single", "element-knn"} or estimator, default="auto"
+        ``"auto"``: ``"graph"`` up to 50,000 rows or when the workspace holds
+        the shared neighbour graph already, else ``"element-knn"``
+        (:func:`auto_clusterer`).
     cutoff : float or {"auto", "fence", "none"}, default="auto"
         Longest neighbour edge the graph clusterer keeps.
     min_size : int or "auto", default="auto"
@@ -273,11 +329,12 @@ class GraphSettings:
     centres: object = field(default=None, metadata=_cli(
         "--centres", "Ball cover: grow the net to this many centres instead of --radius.",
         metavar="N", kind="int"))
-    clusterer: object = field(default="graph", metadata=_cli(
+    clusterer: object = field(default="auto", metadata=_cli(
         "--clusterer", "graph: components of the shared k-NN graph in each element; single: "
         "single linkage cut at the first histogram gap (small data); element-knn: a k-NN graph "
-        "built inside each element alone (the --scheduler graph's rule).",
-        choices=tuple(CLUSTERERS),
+        "built inside each element alone (the --scheduler graph's rule); auto: graph up to "
+        "50,000 rows, element-knn above.",
+        choices=("auto", *CLUSTERERS),
         kind="choice"))
     cutoff: object = field(default="auto", metadata=_cli(
         "--cutoff", "Longest k-NN edge kept; auto cuts only at a gap in the distance tail, "
@@ -330,7 +387,7 @@ class GraphSettings:
                 f"The 'overlap' parameter of BallCover must be one float in [0.0, 1.0). Got "
                 f"{self.overlap!r} instead."
             )
-        put("clusterer", check_clusterer(self.clusterer))
+        put("clusterer", "auto" if _auto(self.clusterer) else check_clusterer(self.clusterer))
         put("cutoff", check_cutoff(self.cutoff))
         put("min_size", "auto" if _auto(self.min_size)
             else check_int("min_size", self.min_size, lo=1, context="build_graph"))
@@ -361,12 +418,14 @@ class GraphSettings:
         return COVERS["interval"](intervals=self.intervals, overlap=self.overlap,
                                   scale=self.scale)
 
-    def resolve(self, n_rows, n_lenses):
+    def resolve(self, n_rows, n_lenses, workspace=None):
         """Settings with every data-dependent value fixed for ``n_rows`` rows, ``n_lenses`` lenses.
 
         Runs the rules of :data:`AUTO_RULES` on the fields set to ``"auto"``
         (see the module notes) and checks per-lens values against ``n_lenses``.
-        Settings with no ``"auto"`` left come back unchanged.
+        Settings with no ``"auto"`` left come back unchanged. ``workspace``
+        (optional) tells the clusterer rule whether the shared neighbour graph
+        is already built (:func:`auto_clusterer`).
 
         Examples
         --------
@@ -382,8 +441,8 @@ class GraphSettings:
                     f"The {name!r} parameter of Cover has {len(value)} values for {n_lenses} "
                     f"lens column(s). Give one value, or one per lens column."
                 )
-        changes = {name: rule(self, n_rows, n_lenses) for name, rule in AUTO_RULES.items()
-                   if _auto(getattr(self, name))}
+        changes = {name: rule(self, n_rows, n_lenses, workspace)
+                   for name, rule in AUTO_RULES.items() if _auto(getattr(self, name))}
         return self.replace(**changes) if changes else self
 
     def auto_fields(self):

@@ -359,6 +359,8 @@ def cover_settings(graph):
            if key in cover and cover[key] is not None}
     if "min_size" in params:
         out["min_size"] = params["min_size"]
+    if isinstance(params.get("clusterer"), str):
+        out["clusterer"] = params["clusterer"]
     auto = sorted(prov.get("auto_settings") or {})
     if auto:
         out["auto"] = auto
@@ -366,7 +368,7 @@ def cover_settings(graph):
 
 
 def settings_text(settings):
-    """One line: the cover resolution and min_size, marking the values resolved from the data."""
+    """One line: cover resolution, min_size and clusterer, marking those resolved from the data."""
     auto = set(settings.get("auto", ()))
 
     def shown(key, value):
@@ -377,7 +379,7 @@ def settings_text(settings):
         return f"{key} {value}" + (" (auto)" if key in auto else "")
 
     parts = [shown(k, settings[k]) for k in ("intervals", "overlap", "radius", "centres",
-                                             "min_size") if k in settings]
+                                             "min_size", "clusterer") if k in settings]
     return "settings: " + ", ".join(parts)
 
 

@@ -127,13 +127,13 @@ def _from_settings(settings, mlen, n):
             f"The partitioned graph lays its intervals on raw lens values (a rank cover needs a "
             f"global sort); got scale={st.scale!r}. Use scale='raw'."
         )
-    if st.clusterer != CLUSTERER:
+    if st.clusterer not in (CLUSTERER, "auto"):  # "auto": the only rule without a shared graph
         raise ParameterError(
             f"The partitioned graph clusters each element on its own, by the {CLUSTERER!r} rule; "
             f"got clusterer={st.clusterer!r}. Use clusterer={CLUSTERER!r} (build_graph with the "
             f"same rule gives the same graph on one machine)."
         )
-    st = st.resolve(n, mlen)
+    st = st.replace(clusterer=CLUSTERER).resolve(n, mlen)
     return {"intervals": st.intervals, "overlap": st.overlap, "k": st.k, "cutoff": st.cutoff,
             "min_size": st.min_size, "fragments": st.fragments, "metric": st.metric}
 
@@ -149,7 +149,8 @@ def partitioned_graph(lenses, settings=None, *, intervals=10, overlap=0.3, k=15,
         Lens columns (from :func:`partitioned_lenses`); all are used.
     settings : GraphSettings or dict, optional
         Read instead of the keywords below when given: it must ask for
-        ``cover="interval"``, ``scale="raw"`` and ``clusterer="element-knn"``.
+        ``cover="interval"``, ``scale="raw"`` and ``clusterer="element-knn"``
+        (or ``"auto"``, which resolves to it here).
     intervals, overlap : int / float or one per lens
         The cover, on the raw lens values (ranks need a global sort and are not
         offered here).
@@ -247,7 +248,7 @@ def partitioned_graph(lenses, settings=None, *, intervals=10, overlap=0.3, k=15,
     n = cloud.n
     out_rows, out_nodes, node_element = [], [], []
     report = {"elements": 0, "groups": 0, "fragment_groups": 0, "attached_groups": 0,
-              "attached_points": 0, "left_out_points": 0}
+              "attached_points": 0, "left_out_points": 0, "landmark_elements": 0}
     cutoffs = []
     V = 0
     for e, rows, labels, rep in (r for block in blocks_out for r in block):
@@ -255,6 +256,7 @@ def partitioned_graph(lenses, settings=None, *, intervals=10, overlap=0.3, k=15,
         for key in ("groups", "fragment_groups", "attached_groups", "attached_points",
                     "left_out_points"):
             report[key] += rep[key]
+        report["landmark_elements"] += int(rep["landmarks"] > 0)
         cutoffs.append(rep["cutoff"])
         inn = labels >= 0
         if not inn.any():
