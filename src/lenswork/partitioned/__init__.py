@@ -13,7 +13,7 @@ Lenses
 Graph
     partitioned_graph, cluster_element, element_ranges
 Cluster
-    start_client
+    start_client, active_client, gather_each
 
 =============  ======================================================
 module         concept
@@ -28,7 +28,7 @@ module         concept
 
 from __future__ import annotations
 
-from ._client import start_client
+from ._client import active_client, gather_each, start_client
 from ._graph import cluster_element, element_ranges, partitioned_graph
 from ._intake import PartitionedCloud, open_partitioned
 from ._lenses import PARTITIONED_LENSES, PartitionedLenses, partitioned_lenses
@@ -38,8 +38,10 @@ __all__ = [
     "PARTITIONED_LENSES",
     "PartitionedCloud",
     "PartitionedLenses",
+    "active_client",
     "cluster_element",
     "element_ranges",
+    "gather_each",
     "open_partitioned",
     "partitioned_graph",
     "partitioned_lenses",
