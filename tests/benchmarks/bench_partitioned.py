@@ -100,15 +100,18 @@ def disk_bytes(client):
 
 
 def run(n, workers, limit, root):
-    import distributed
-
-    from lenswork.partitioned import open_partitioned, partitioned_graph, partitioned_lenses
+    from lenswork.partitioned import (
+        open_partitioned,
+        partitioned_graph,
+        partitioned_lenses,
+        start_client,
+    )
 
     data, t_gen = dataset(n, root)
     tmp = Path(tempfile.mkdtemp(prefix="lenswork-bench-"))
     try:
-        with distributed.Client(n_workers=workers, threads_per_worker=1, memory_limit=limit,
-                                dashboard_address=None) as client:
+        # the CLI's local cluster (one thread per worker, P2P buffers sized to the limit)
+        with start_client("local", workers=workers, memory_limit=limit) as client:
             times, peaks, disks = {}, {}, {}
 
             def step(name, fn):
