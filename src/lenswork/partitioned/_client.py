@@ -69,14 +69,14 @@ def p2p_buffers(memory_limit):
     incoming ones in a disk buffer (default 100 MiB) per worker, outside the
     spill machinery. A worker whose limit is below the comm buffer is
     restarted by its nanny when sends lag (measured: the partitioned graph at
-    1e7 rows, 2 workers x 600 MB on a loaded machine). Each buffer gets an
-    eighth of the limit (at most its default); ``"auto"`` or no limit leaves
+    1e7 rows, 2 workers x 600 MB on a loaded machine). Each buffer gets a
+    sixteenth of the limit (at most its default); ``"auto"`` or no limit leaves
     the defaults.
 
     Examples
     --------
     >>> p2p_buffers("600MB")
-    {'distributed.p2p.comm.buffer': 75000000, 'distributed.p2p.storage.buffer': 75000000}
+    {'distributed.p2p.comm.buffer': 37500000, 'distributed.p2p.storage.buffer': 37500000}
     >>> p2p_buffers("auto")
     {}
     """
@@ -88,7 +88,7 @@ def p2p_buffers(memory_limit):
         limit = parse_bytes(memory_limit) if isinstance(memory_limit, str) else int(memory_limit)
     except (TypeError, ValueError):
         return {}  # distributed itself reports a bad limit
-    share = max(limit // 8, 16 * 2**20)
+    share = max(limit // 16, 16 * 2**20)
     return {"distributed.p2p.comm.buffer": min(share, 2**30),
             "distributed.p2p.storage.buffer": min(share, 100 * 2**20)}
 
