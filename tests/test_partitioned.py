@@ -233,6 +233,35 @@ def test_product_cover_graph_equals_single_machine_graph(client):
     _assert_same_graph(g, ref)
 
 
+def test_graph_shuffle_many_partitions_empty_outputs_and_spanning_elements(client):
+    # 24 partitions of 75 rows in random lens order, so an element gathers rows from every
+    # partition; two nearly equal lenses leave the off-diagonal elements of the 4 x 4 cover
+    # empty, so with 16 shuffle outputs some receive no rows, and with one all elements
+    # share it. The reference is build_graph with the same rule, as above.
+    rng = np.random.default_rng(90210)
+    t = rng.uniform(0, 4, 1800)
+    X = np.column_stack([t, t + rng.normal(0, 0.02, 1800), rng.normal(0, 0.3, 1800)])
+    cloud = open_partitioned(da.from_array(X, chunks=(75, 3)))
+    assert cloud.n_partitions == 24
+    lens = partitioned_lenses(cloud, ["column:name=x0", "column:name=x1"])
+    first, last = element_ranges(X[:, :2], X[:, :2].min(axis=0), X[:, :2].max(axis=0),
+                                 [4, 4], [0.25, 0.25])
+    part = np.arange(1800) // 75
+    spans, filled = [], 0
+    for a in range(4):
+        for b in range(4):
+            inside = (first[:, 0] <= a) & (a <= last[:, 0]) & (first[:, 1] <= b) & (b <= last[:, 1])
+            filled += bool(inside.any())
+            spans.append(np.unique(part[inside]).size)
+    assert max(spans) == 24 and filled <= 10  # premises: a spanning element, >= 6 empty outputs
+    ref = build_graph(X[:, :2], X, intervals=4, overlap=0.25, k=6, min_size=5, scale="raw",
+                      clusterer="element-knn")
+    for blocks in (1, 7, 16):
+        g = partitioned_graph(lens, intervals=4, overlap=0.25, k=6, min_size=5, blocks=blocks)
+        _assert_same_graph(g, ref)
+        assert g.params["blocks"] == blocks
+
+
 def test_element_knn_rule_is_registered_and_refused_settings():
     assert CLUSTERERS["element-knn"].whole_element
     cloud = open_partitioned(da.from_array(np.arange(40.0).reshape(20, 2), chunks=(10, 2)))

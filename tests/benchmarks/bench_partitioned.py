@@ -2,12 +2,16 @@
 
 Run: flock /tmp/lenswork-bench.lock python tests/benchmarks/bench_partitioned.py [--quick]
      [--sizes 1000000,10000000] [--memory-limit 600MB] [--save F.json] [--against F.json]
+     [--data DIR]
 
 (``--save`` after a 1e6 run and ``--against`` in the 1e7 run print the scaling
-without holding the shared lock for both sizes at once.)
+without holding the shared lock for both sizes at once. Generate the data
+beforehand, outside the lock, with ``--generate-only``.)
 
 The data (a noisy 3-d manifold embedded in 20 dimensions, seeded) is written by
-partition of 100,000 rows to a temporary directory and removed afterwards.
+partition of 100,000 rows to ``DIR/n<rows>`` (default ``/tmp/lw_bench_data``)
+and kept: a later run with the same size and seed reuses it (a ``complete.json``
+marker is written last). The lens columns go to a temporary directory.
 Worker memory limits are set below the data's size, so the work is out of core.
 Prints wall time per step, the peak worker memory and the scaling between sizes.
 """
@@ -15,6 +19,7 @@ Prints wall time per step, the peak worker memory and the scaling between sizes.
 from __future__ import annotations
 
 import argparse
+import json
 import shutil
 import tempfile
 import time
@@ -33,6 +38,7 @@ def make_data(n, directory, seed=0):
     import pyarrow as pa
     import pyarrow.parquet as pq
 
+    directory.mkdir(parents=True, exist_ok=True)
     rng = np.random.default_rng(seed)
     basis = np.linalg.qr(rng.normal(size=(D, 3)))[0]
     for i, start in enumerate(range(0, n, PART_ROWS)):
@@ -43,6 +49,23 @@ def make_data(n, directory, seed=0):
         X = Y @ basis.T + rng.normal(0, 0.05, (m, D))
         pq.write_table(pa.table({f"x{j}": X[:, j] for j in range(D)}),
                        directory / f"part-{i:05d}.parquet")
+    (directory / "complete.json").write_text(json.dumps(_marker(n, seed)))
+
+
+def _marker(n, seed):
+    return {"n": n, "d": D, "seed": seed, "part_rows": PART_ROWS}
+
+
+def dataset(n, root, seed=0):
+    """The directory of the n-row dataset under ``root``, generated unless already complete."""
+    directory = Path(root) / f"n{n}"
+    marker = directory / "complete.json"
+    if marker.exists() and json.loads(marker.read_text()) == _marker(n, seed):
+        return directory, 0.0
+    shutil.rmtree(directory, ignore_errors=True)
+    t0 = time.perf_counter()
+    make_data(n, directory, seed)
+    return directory, time.perf_counter() - t0
 
 
 def _worker_samples(dask_worker):
@@ -58,37 +81,49 @@ def peak_memory(client, since):
                default=0)
 
 
-def spilled(client):
-    """Bytes written to disk by the workers' spill buffers (summed over workers)."""
+def disk_bytes(client):
+    """Bytes the workers wrote to disk, summed over workers: ``(spilled, p2p)``.
+
+    ``spilled``: the spill buffer's writes (the memory monitor's and the
+    target's); ``p2p``: the shards of Dask's P2P shuffle.
+    """
     info = client.run(_worker_samples)
-    total = 0.0
-    for _, _, spill in info.values():
-        total += sum(v for k, v in spill.items() if "disk-write" in k and "bytes" in k)
-    return total
+    spill = p2p = 0.0
+    for _, _, digests in info.values():
+        for k, v in digests.items():
+            if "disk-write" in k and "bytes" in k:
+                if "p2p" in k:
+                    p2p += v
+                else:
+                    spill += v
+    return spill, p2p
 
 
-def run(n, workers, limit):
-    import distributed
+def run(n, workers, limit, root):
+    from lenswork.partitioned import (
+        open_partitioned,
+        partitioned_graph,
+        partitioned_lenses,
+        start_client,
+    )
 
-    from lenswork.partitioned import open_partitioned, partitioned_graph, partitioned_lenses
-
+    data, t_gen = dataset(n, root)
     tmp = Path(tempfile.mkdtemp(prefix="lenswork-bench-"))
     try:
-        t0 = time.perf_counter()
-        make_data(n, tmp)
-        t_gen = time.perf_counter() - t0
-        with distributed.Client(n_workers=workers, threads_per_worker=1, memory_limit=limit,
-                                dashboard_address=None) as client:
-            times, peaks = {"generate (client, not on the cluster)": t_gen}, {}
+        # the CLI's local cluster (one thread per worker, P2P buffers sized to the limit)
+        with start_client("local", workers=workers, memory_limit=limit) as client:
+            times, peaks, disks = {}, {}, {}
 
             def step(name, fn):
+                d0 = disk_bytes(client)
                 w0, t0 = time.time(), time.perf_counter()
                 out = fn()
                 times[name] = time.perf_counter() - t0
                 peaks[name] = peak_memory(client, w0)
+                disks[name] = [b - a for a, b in zip(d0, disk_bytes(client))]
                 return out
 
-            cloud = step("intake (validate, checksum, moments)", lambda: open_partitioned(tmp))
+            cloud = step("intake (validate, checksum, moments)", lambda: open_partitioned(data))
             lens = partitioned_lenses(cloud, ["pca:components=1", "eccentricity",
                                               "dtm:mass=0.01"], landmarks=500)
             step("lenses pca + ecc + dtm (Parquet out)", lambda: lens.write(tmp / "lenses"))
@@ -96,23 +131,23 @@ def run(n, workers, limit):
             intervals = max(10, n // ROWS_PER_INTERVAL)
             g = step("graph (pca_1 cover, element-knn)",
                      lambda: partitioned_graph(one, intervals=intervals, overlap=0.2, k=10))
-            spill = spilled(client)
-        print(f"n = {n:,} x {D} ({n * D * 8 / 1e9:.2f} GB float64), {cloud.n_partitions} "
-              f"partitions, {workers} workers x {limit}; graph of {intervals} intervals: "
-              f"{g.n_nodes} nodes, {g.n_edges} edges, {g.params['blocks']} element blocks")
+        gen = f"generated in {t_gen:.1f} s" if t_gen else "reused"
+        print(f"data {data} ({gen}); n = {n:,} x {D} ({n * D * 8 / 1e9:.2f} GB float64), "
+              f"{cloud.n_partitions} partitions, {workers} workers x {limit}; graph of "
+              f"{intervals} intervals: {g.n_nodes} nodes, {g.n_edges} edges, "
+              f"{g.params['blocks']} element blocks")
         for key, v in times.items():
-            peak = f"peak worker {peaks[key] / 1e6:6.0f} MB" if key in peaks else ""
-            print(f"  {key:<40s} {v:8.1f} s   {peak}")
+            spill, p2p = disks[key]
+            print(f"  {key:<40s} {v:8.1f} s   peak worker {peaks[key] / 1e6:4.0f} MB   "
+                  f"spilled {spill / 1e6:6.0f} MB   P2P shards {p2p / 1e6:5.0f} MB")
         print(f"  peak worker memory {max(peaks.values()) / 1e6:.0f} MB (limit {limit}); "
-              f"spilled to disk {spill / 1e6:.0f} MB")
+              f"written to disk {sum(sum(d) for d in disks.values()) / 1e6:.0f} MB")
         return times
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
 
 
 def main():
-    import json
-
     ap = argparse.ArgumentParser()
     ap.add_argument("--quick", action="store_true", help="a 1e5 smoke run")
     ap.add_argument("--sizes", default="1000000,10000000")
@@ -121,9 +156,18 @@ def main():
     ap.add_argument("--save", default=None, help="write the times to this JSON file")
     ap.add_argument("--against", default=None,
                     help="a --save file of a smaller size: print the scaling to it")
+    ap.add_argument("--data", default="/tmp/lw_bench_data",
+                    help="where the generated datasets are kept and reused")
+    ap.add_argument("--generate-only", action="store_true",
+                    help="write the datasets (outside the lock) and stop")
     args = ap.parse_args()
     sizes = [100_000] if args.quick else [int(s) for s in args.sizes.split(",")]
-    results = {n: run(n, args.workers, args.memory_limit) for n in sizes}
+    if args.generate_only:
+        for n in sizes:
+            directory, t = dataset(n, args.data)
+            print(f"{directory}: " + (f"generated in {t:.1f} s" if t else "already complete"))
+        return
+    results = {n: run(n, args.workers, args.memory_limit, args.data) for n in sizes}
     if args.save:
         Path(args.save).write_text(json.dumps({str(n): t for n, t in results.items()}))
     if args.against:

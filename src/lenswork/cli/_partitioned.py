@@ -61,6 +61,8 @@ def _root_params():
 def _computer(client, show):
     """compute(list of delayed) on the client, with Dask's progress bar (on stderr) if ``show``."""
 
+    from ..partitioned import gather_each
+
     def compute(items):
         futures = client.compute(items)
         if show:
@@ -69,7 +71,7 @@ def _computer(client, show):
             with contextlib.redirect_stdout(sys.stderr):  # the bar writes to stdout
                 progress(futures, scheduler=client.scheduler.address)
             click.echo("", err=True)
-        return client.gather(futures)
+        return gather_each(futures)  # one result at a time: spilled results fit in memory
 
     return compute
 

@@ -13,7 +13,7 @@ Lenses
 Graph
     partitioned_graph, cluster_element, element_ranges
 Cluster
-    start_client
+    start_client, p2p_buffers, active_client, gather_each
 
 =============  ======================================================
 module         concept
@@ -28,7 +28,7 @@ module         concept
 
 from __future__ import annotations
 
-from ._client import start_client
+from ._client import active_client, gather_each, p2p_buffers, start_client
 from ._graph import cluster_element, element_ranges, partitioned_graph
 from ._intake import PartitionedCloud, open_partitioned
 from ._lenses import PARTITIONED_LENSES, PartitionedLenses, partitioned_lenses
@@ -38,10 +38,13 @@ __all__ = [
     "PARTITIONED_LENSES",
     "PartitionedCloud",
     "PartitionedLenses",
+    "active_client",
     "cluster_element",
     "element_ranges",
+    "gather_each",
     "open_partitioned",
     "partitioned_graph",
+    "p2p_buffers",
     "partitioned_lenses",
     "sample_cloud",
     "sample_positions",
