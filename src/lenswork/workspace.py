@@ -151,10 +151,14 @@ def _exact_distances(X, idx, metric, chunk=8192):
             np.ascontiguousarray(np.take_along_axis(dist, order, axis=1)))
 
 
-def _drop_self(indices, distances, k):
-    """Remove each row's own index from (n, k+1) results, keeping k columns."""
+def _drop_self(indices, distances, k, own=None):
+    """Remove each row's own index from (n, k+1) results, keeping k columns.
+
+    ``own`` : the row position of each result row (default ``0..n-1``).
+    """
     n = indices.shape[0]
-    is_self = indices == np.arange(n)[:, None]
+    own = np.arange(n) if own is None else np.asarray(own)
+    is_self = indices == own[:, None]
     # Rows where self was not returned (many exact duplicates): drop the last column.
     missing = ~is_self.any(axis=1)
     is_self[missing, -1] = True
@@ -181,11 +185,22 @@ def _choose_method(n, d, metric):
 # float32 back ends, recomputes the distances in float64.
 
 
+def exact_algorithm(d, metric):
+    """scikit-learn's algorithm for an exact search in ``d`` dimensions: kd-tree or brute force.
+
+    Examples
+    --------
+    >>> [exact_algorithm(d, m) for d, m in [(3, "euclidean"), (20, "euclidean"), (3, "cosine")]]
+    ['kd_tree', 'brute', 'brute']
+    """
+    return "kd_tree" if (d <= EXACT_MAX_DIM_TREE and metric != "cosine") else "brute"
+
+
 def _exact_backend(X, k, metric, seed):
     from sklearn.neighbors import NearestNeighbors
 
     n, d = X.shape
-    algorithm = "kd_tree" if (d <= EXACT_MAX_DIM_TREE and metric != "cosine") else "brute"
+    algorithm = exact_algorithm(d, metric)
     with _progress.step(f"neighbour graph: exact {algorithm}, n={n}, k={k}"):
         nn = NearestNeighbors(n_neighbors=k + 1, metric=metric, algorithm=algorithm)
         nn.fit(X)
@@ -423,6 +438,34 @@ class Workspace:
         (False, 8, True)
         """
         return any(key[0] == "knn" and key[1] == metric and key[2] >= k for key in self._cache)
+
+    def neighbors_of(self, rows, k=15, metric="euclidean"):
+        """Each given row's ``k`` exact nearest neighbours among all rows (itself left out).
+
+        No neighbour graph of all rows is built: one exact search of ``len(rows)``
+        queries, O(len(rows) n d) by brute force (a kd-tree up to
+        :data:`EXACT_MAX_DIM_TREE` dimensions), in blocks of 64 MiB.
+
+        Returns
+        -------
+        ndarray of int64, shape (len(rows), min(k, n - 1))
+
+        Examples
+        --------
+        >>> ws = Workspace(np.array([[0.0], [1.0], [3.0], [7.0], [12.0]]))
+        >>> ws.neighbors_of(np.array([0, 2]), k=2).tolist()
+        [[1, 2], [1, 0]]
+        """
+        from sklearn import config_context
+        from sklearn.neighbors import NearestNeighbors
+
+        rows = np.asarray(rows, dtype=np.int64)
+        kk = min(check_int("k", k, lo=1, context="Workspace.neighbors_of"), self.n - 1)
+        nn = NearestNeighbors(n_neighbors=kk + 1, metric=metric,
+                              algorithm=exact_algorithm(self.d, metric))
+        with config_context(working_memory=64):
+            dist, idx = nn.fit(self.X).kneighbors(self.X[rows])
+        return _drop_self(idx, dist, kk, own=rows)[0]
 
     def neighbors(self, k=15, metric="euclidean"):
         """The shared k-NN graph; a cached graph with more neighbours is sliced, not recomputed."""

@@ -74,31 +74,17 @@ def lens_jitter(values, neighbours, rows=None):
 def _sample_neighbours(ws, k, metric):
     """(rows, their k exact neighbours among all rows) for a seeded sample of JITTER_ROWS rows.
 
-    Blocked brute force (a kd-tree up to 6 columns): O(JITTER_ROWS n d), no
-    all-rows neighbour graph. Cached in the workspace.
+    No all-rows neighbour graph: :meth:`Workspace.neighbors_of`, O(JITTER_ROWS n d).
+    Cached in the workspace.
     """
 
     def compute():
-        from sklearn import config_context
-        from sklearn.neighbors import NearestNeighbors
-
-        n, d = ws.n, ws.d
-        kk = min(k, n - 1)
-        if n <= JITTER_ROWS:
-            rows = np.arange(n)
+        if ws.n <= JITTER_ROWS:
+            rows = np.arange(ws.n)
         else:
             rng = np.random.default_rng(seed_of(ws.random_state))
-            rows = np.sort(rng.choice(n, JITTER_ROWS, replace=False))
-        algorithm = "kd_tree" if d <= 6 and metric != "cosine" else "brute"
-        with config_context(working_memory=64):
-            nn = NearestNeighbors(n_neighbors=kk + 1, metric=metric, algorithm=algorithm)
-            idx = nn.fit(ws.X).kneighbors(ws.X[rows], return_distance=False)
-        is_self = idx == rows[:, None]
-        is_self[~is_self.any(axis=1), -1] = True  # self not returned (duplicates): drop the last
-        first = np.argmax(is_self, axis=1)
-        keep = np.ones_like(is_self)
-        keep[np.arange(rows.size), first] = False
-        return rows, idx[keep].reshape(rows.size, kk)
+            rows = np.sort(rng.choice(ws.n, JITTER_ROWS, replace=False))
+        return rows, ws.neighbors_of(rows, k, metric)
 
     return ws.cached(("jitter_sample", metric, k, JITTER_ROWS), compute)
 

@@ -78,6 +78,7 @@ import numpy as np
 
 from .._errors import ParameterError
 from .._validation import check_choice, check_float, check_int
+from ..workspace import exact_algorithm
 
 __all__ = [
     "CLUSTERERS",
@@ -86,6 +87,8 @@ __all__ = [
     "ClusterRule",
     "ELEMENT_LANDMARKS",
     "ElementContext",
+    "NodeCollector",
+    "REPORT_COUNTS",
     "check_clusterer",
     "cluster_element",
     "check_cutoff",
@@ -147,9 +150,6 @@ ELEMENT_WORKING_MEMORY = 64
 #: element is clustered on this many landmark points (see :func:`cluster_element`). Measured
 #: by tests/benchmarks/bench_graph_rules.py; see DEVELOPERS.md, "Clustering rules".
 ELEMENT_LANDMARKS = 1000
-#: Up to this many features (and not cosine) the element's neighbours come from a kd-tree,
-#: exact at any element size; above it from blocked brute force (the workspace's rule).
-ELEMENT_MAX_DIM_TREE = 6
 
 
 def landmark_priority(rows):
@@ -177,11 +177,11 @@ def landmark_priority(rows):
 
 
 def _element_search(X, metric):
-    """Exact neighbour search of the element clusterer: kd-tree in low dimension, else brute."""
+    """Exact neighbour search of the element clusterer: the workspace's exact rule."""
     from sklearn.neighbors import NearestNeighbors
 
-    tree = X.shape[1] <= ELEMENT_MAX_DIM_TREE and metric != "cosine"
-    return NearestNeighbors(metric=metric, algorithm="kd_tree" if tree else "brute"), tree
+    algorithm = exact_algorithm(X.shape[1], metric)
+    return NearestNeighbors(metric=metric, algorithm=algorithm), algorithm == "kd_tree"
 
 
 #: Up to this many points (in brute-force dimension) the element's k-NN lists come from one
@@ -257,10 +257,11 @@ def cluster_element(X_element, rows, *, k=15, cutoff="auto", min_size=10, fragme
         fragments stay out.
     metric : {"euclidean", "manhattan", "chebyshev", "cosine"}, default="euclidean"
     landmarks : int, optional
-        In more than :data:`ELEMENT_MAX_DIM_TREE` dimensions (or with the
-        cosine metric), an element of more points is clustered on this many
-        landmarks: the k-NN graph of the landmarks alone gives the groups, and
-        every other point joins the group of its exactly nearest landmark (a
+        Where the exact search is brute force (more than
+        :data:`lenswork.workspace.EXACT_MAX_DIM_TREE` dimensions, or cosine),
+        an element of more points is clustered on this many landmarks: the
+        k-NN graph of the landmarks alone gives the groups, and every other
+        point joins the group of its exactly nearest landmark (a
         point farther from it than the cut-off is a group of its own).
         Default :data:`ELEMENT_LANDMARKS`; 0: always the whole element.
 
@@ -666,6 +667,59 @@ def check_clusterer(clusterer):
     )
 
 
+#: Counts of the fragment report that add up over the elements (see :class:`NodeCollector`).
+REPORT_COUNTS = ("groups", "fragment_groups", "attached_groups", "attached_points",
+                 "left_out_points")
+
+
+class NodeCollector:
+    """The nodes of the clustered cover elements, gathered one element at a time.
+
+    Nodes are numbered in the order they are added; :attr:`report` sums the
+    elements' fragment reports. Shared by :func:`cluster_elements` and the
+    partitioned graph, which collects what its workers sent back.
+
+    Examples
+    --------
+    >>> nodes = NodeCollector()
+    >>> nodes.add(0, np.array([4, 5, 6]), np.array([0, 0, 1]), 2)
+    >>> nodes.add(3, np.array([6, 7]), np.array([0, 0]), 1)
+    >>> rows, node_ids, node_element = nodes.arrays(min_size=1)
+    >>> node_ids.tolist(), node_element.tolist()
+    ([0, 0, 1, 2, 2], [0, 0, 3])
+    """
+
+    def __init__(self):
+        self.report = {"elements": 0, **dict.fromkeys(REPORT_COUNTS, 0), "landmark_elements": 0}
+        self.n_nodes = 0
+        self._rows, self._nodes, self._element = [], [], []
+
+    def add_report(self, rep):
+        """Add one element's report (a :func:`cluster_element` report)."""
+        for key in REPORT_COUNTS:
+            self.report[key] += rep[key]
+        self.report["landmark_elements"] += int(rep.get("landmarks", 0) > 0)
+
+    def add(self, element, rows, labels, count):
+        """Add ``count`` nodes of ``element``: ``rows`` with their node ``labels`` in 0..count-1."""
+        if count:
+            self._rows.append(rows)
+            self._nodes.append(np.asarray(labels, dtype=np.int64) + self.n_nodes)
+            self._element.append(np.full(count, element, dtype=np.int64))
+            self.n_nodes += count
+
+    def arrays(self, min_size):
+        """(rows, node ids, element of each node); a clear error when no node was made."""
+        if self.n_nodes == 0:
+            raise ParameterError(
+                f"No cover element holds a group of at least min_size={min_size} points, so "
+                f"the graph would be empty. Use a smaller min_size, fewer intervals or a larger "
+                f"cutoff."
+            )
+        return (np.concatenate(self._rows), np.concatenate(self._nodes),
+                np.concatenate(self._element))
+
+
 def cluster_elements(workspace, rows, elements, settings, random_state=None):
     """Cluster the points of every cover element.
 
@@ -709,10 +763,8 @@ def cluster_elements(workspace, rows, elements, settings, random_state=None):
     bounds = np.flatnonzero(np.diff(elements)) + 1
     starts = np.concatenate([[0], bounds]) if elements.size else np.zeros(0, dtype=np.int64)
     stops = np.concatenate([bounds, [elements.size]]) if elements.size else starts
-    out_rows, out_nodes, node_element = [], [], []
-    report = {"elements": 0, "groups": 0, "fragment_groups": 0, "attached_groups": 0,
-              "attached_points": 0, "left_out_points": 0}
-    n_nodes = 0
+    collected = NodeCollector()
+    report = collected.report
     for a, b in zip(starts, stops):
         element = int(elements[a])
         pts = rows[a:b]
@@ -720,18 +772,9 @@ def cluster_elements(workspace, rows, elements, settings, random_state=None):
         report["elements"] += 1
         if whole:  # the rule applies min_size and the fragment rule itself
             lab, rep = rule.labels(pts, ElementContext(X, loc, None, settings, element))
-            for key in ("groups", "fragment_groups", "attached_groups", "attached_points",
-                        "left_out_points"):
-                report[key] += rep[key]
-            report["landmark_elements"] = report.get("landmark_elements", 0) \
-                + int(rep["landmarks"] > 0)
+            collected.add_report(rep)
             in_node = lab >= 0
-            if in_node.any():
-                count = int(lab.max()) + 1
-                out_rows.append(pts[in_node])
-                out_nodes.append(lab[in_node] + n_nodes)
-                node_element.append(np.full(count, element, dtype=np.int64))
-                n_nodes += count
+            collected.add(element, pts[in_node], lab[in_node], int(lab.max(initial=-1)) + 1)
             continue
         loc[pts] = np.arange(m, dtype=loc.dtype)
         try:
@@ -772,20 +815,11 @@ def cluster_elements(workspace, rows, elements, settings, random_state=None):
         kept_labels = np.flatnonzero(kept)
         order = kept_labels[np.argsort(first_row[kept_labels], kind="stable")]
         node_of = np.full(sizes.size, -1, dtype=np.int64)
-        node_of[order] = n_nodes + np.arange(order.size)
-        out_rows.append(kp)
-        out_nodes.append(node_of[kl])
-        node_element.append(np.full(order.size, element, dtype=np.int64))
-        n_nodes += order.size
-    if n_nodes == 0:
-        raise ParameterError(
-            f"No cover element holds a group of at least min_size={min_size} points, so the "
-            f"graph would be empty. Use a smaller min_size, fewer intervals or a larger cutoff."
-        )
-    return ClusterResult(
-        rows=np.concatenate(out_rows), nodes=np.concatenate(out_nodes),
-        node_element=np.concatenate(node_element), cutoff=cut, report=report,
-    )
+        node_of[order] = np.arange(order.size)
+        collected.add(element, kp, node_of[kl], order.size)
+    out_rows, out_nodes, node_element = collected.arrays(min_size)
+    return ClusterResult(rows=out_rows, nodes=out_nodes, node_element=node_element, cutoff=cut,
+                         report=report)
 
 
 def clusterer_name(clusterer):

@@ -608,10 +608,15 @@ class _Significance:
                 exits.append(u)
         if len(exits) < 3:  # no branching: the arms are not needed
             return []
-        spans = []
+        spans, arms = [], []  # exits in one component of G - ball share its arm: searched once
         for u in exits:
-            values = level[sorted(reach([u], lambda x: x not in ball))]
-            spans.append(max(values.max(), lv) - min(values.min(), lv))
+            arm = next((a for a in arms if u in a[0]), None)
+            if arm is None:
+                nodes = reach([u], lambda x: x not in ball)
+                values = level[sorted(nodes)]
+                arm = (nodes, max(values.max(), lv) - min(values.min(), lv))
+                arms.append(arm)
+            spans.append(arm[1])
         return spans
 
     def ends_at(self, v):

@@ -36,7 +36,7 @@ from .. import __version__
 from .._errors import ParameterError
 from .._validation import check_choice, check_float, check_int
 from ..graph import CUTOFF_WORDS, LensGraph, membership_matrix, nerve_edges, node_statistics
-from ..graph._cluster import cluster_element
+from ..graph._cluster import NodeCollector, cluster_element
 from ._client import active_client, gather_each
 from ._intake import require_dask
 
@@ -294,35 +294,21 @@ def partitioned_graph(lenses, settings=None, *, intervals=10, overlap=0.3, k=15,
     blocks_out, lens_values, ids = out[:nb], out[nb:nb + np_], out[nb + np_:]
     values = np.concatenate(lens_values)
     n = cloud.n
-    out_rows, out_nodes, node_element = [], [], []
-    report = {"elements": 0, "groups": 0, "fragment_groups": 0, "attached_groups": 0,
-              "attached_points": 0, "left_out_points": 0, "landmark_elements": 0}
+    collected = NodeCollector()
+    report = collected.report
     cutoffs = []
-    V = 0
     for e, rows, labels, count, rep in sorted((r for block in blocks_out for r in block),
                                               key=lambda r: r[0]):
         report["elements"] += 1
-        for key in ("groups", "fragment_groups", "attached_groups", "attached_points",
-                    "left_out_points"):
-            report[key] += rep[key]
-        report["landmark_elements"] += int(rep["landmarks"] > 0)
+        collected.add_report(rep)
         cutoffs.append(rep["cutoff"])
-        if not count:
-            continue
-        out_rows.append(rows)
-        out_nodes.append(labels.astype(np.int64) + V)
-        node_element.append(np.full(count, e, dtype=np.int64))
-        V += count
-    if V == 0:
-        raise ParameterError(
-            f"No cover element holds a group of at least min_size={min_size} points, so the "
-            f"graph would be empty. Use a smaller min_size, fewer intervals or a larger cutoff."
-        )
-    M = membership_matrix(np.concatenate(out_rows), np.concatenate(out_nodes), n, V)
+        collected.add(e, rows, labels, count)
+    out_rows, out_nodes, node_element = collected.arrays(min_size)
+    M = membership_matrix(out_rows, out_nodes, n, collected.n_nodes)
     edges, shared = nerve_edges(M)
     names = list(lenses.names)
     stats = node_statistics(M, dict(zip(names, values.T)))
-    elements = np.column_stack(np.unravel_index(np.concatenate(node_element), ints))
+    elements = np.column_stack(np.unravel_index(node_element, ints))
     params = {
         "lens_columns": names,
         "cover": {"intervals": ints, "overlap": ovs, "scale": "raw", "start": lo.tolist(),
