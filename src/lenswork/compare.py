@@ -665,8 +665,8 @@ class ViewComparison:
         """(V, V) matrix of one score between every pair of views (diagonal: identity value).
 
         ``score``: ``"co_ari"`` (default: the co-membership ARI, the telling
-        one; module notes) or ``"co_jaccard"`` (row co-membership), ``"ari"``, ``"vi"``, ``"vi_normalized"`` (of the induced
-        partitions).
+        one; module notes) or ``"co_jaccard"`` (row co-membership), ``"ari"``,
+        ``"vi"``, ``"vi_normalized"`` (of the induced partitions).
         """
         score = check_choice("score", score, SCORES, context="ViewComparison.agreement")
         V = len(self.names)

@@ -488,8 +488,8 @@ def _feature_line(f, needed=None, label=None):
         if f.significant is False and needed is not None:
             sig += (f" < {needed:.2f} needed" if f"{f.significance:.2f}" != f"{needed:.2f}"
                     else f" (needs more than {needed:.3f})")
-    return (f"  {label or f.kind:<12} {len(f.nodes):>4} nodes {f.rows:>8,} rows  {spans}{extra}{sig}  "
-            f"[{node_text}]")
+    return (f"  {label or f.kind:<12} {len(f.nodes):>4} nodes {f.rows:>8,} rows  "
+            f"{spans}{extra}{sig}  [{node_text}]")
 
 
 def cover_settings(graph):
