@@ -167,9 +167,10 @@ def compare(cloud, seed, lenses, partition, match, out, no_figure, settings, nei
     induce (flagged trivial when both are one block, as for any two connected
     graphs), the significant features (loops, flares, limbs, branch points,
     components) found in one view and not the other, and the count of small
-    features found in one view only. comparison.json holds all of it; correspondence_A_B.csv the node
-    correspondence M_a^T M_b (rows shared by each pair of nodes); comparison.png
-    draws the views side by side, each coloured by the other view's lens.
+    features found in one view only. comparison.json holds all of it;
+    correspondence_A_B.csv the node correspondence M_a^T M_b (rows shared by
+    each pair of nodes); comparison.png draws the views side by side, each
+    coloured by the other view's lens.
     """
     if len(lenses) < 2:
         raise click.UsageError("Give at least two --lens options: one per view.")
