@@ -118,8 +118,7 @@ def test_only_significant_features_are_marked(ring, noise):
     sig = s.significant_features()
     assert s.significant_counts()["loops"] == 1  # the circle
     ax = draw_graph(ring).axes[0]
-    tails = {v for f in sig if f.kind == "flare" for v in f.nodes} | \
-        {f.nodes[0] for f in sig if f.kind == "limb"}
+    tails = {f.nodes[0] for f in sig if f.kind in ("flare", "limb")}  # tips ringed
     assert _rings(ax) == len(tails) + sum(f.kind == "branch" for f in sig)
     labels = {t.get_text() for t in ax.texts}
     marked = {lab for lab, f in s.labelled() if f.significant}

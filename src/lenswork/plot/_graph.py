@@ -48,10 +48,10 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
     features : bool, default=True
         Mark the significant features of the graph summary, and only those
         (small features stay unmarked): the edges of a significant loop drawn
-        over in the accent colour, the nodes of a significant flare ringed in
-        the second accent and its leaf labelled, the tip of a significant limb
-        ringed and labelled, a significant branch point ringed in the accent.
-        Labels are those of the summary (``flare:2``).
+        over in the accent colour; the edges of a significant flare (up to its
+        branch point) or limb (tip to join, a shortest path) in the second
+        accent, its tip ringed; a significant branch point ringed in the
+        accent. Each is labelled as the summary labels it (``flare:2``).
     random_state : int, default=0
         Passed to the layout.
     data : PointCloud or Workspace, optional
@@ -145,7 +145,7 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
                        edgecolors=ACCENT_2, linewidths=1.6, zorder=3)
         summary = graph.summary()
         if features:
-            _mark_significant(ax, summary, pos, area)
+            _mark_significant(ax, graph, summary, pos, area)
         if labels:
             for a in range(graph.n_nodes):
                 ax.annotate(str(a), pos[a], xytext=(4, 3), textcoords="offset points",
@@ -204,7 +204,7 @@ def _colour_values(graph, color, stat, data, level, values):
     return values, (f"{color}" if color == "size" else f"{color} (node {stat})"), color
 
 
-def _mark_significant(ax, summary, pos, area):
+def _mark_significant(ax, graph, summary, pos, area):
     """Outline the significant loops, ring the tails and branch points, label each (legend)."""
     from matplotlib.collections import LineCollection
     from matplotlib.lines import Line2D
@@ -221,14 +221,16 @@ def _mark_significant(ax, summary, pos, area):
         names.append("significant loop")
     tails = [(lab, f) for lab, f in labelled if f.kind in ("flare", "limb")]
     if tails:
-        ring = np.unique([v for _, f in tails
-                          for v in (f.nodes if f.kind == "flare" else f.nodes[:1])])
+        seg = [pos[[a, b]] for _, f in tails for a, b in _tail_edges(graph, f)]
+        ax.add_collection(LineCollection(seg, colors=ACCENT_2, linewidths=4.5, alpha=0.45,
+                                         zorder=1.5, capstyle="round"))
+        ring = np.unique([f.nodes[0] for _, f in tails])
         ax.scatter(pos[ring, 0], pos[ring, 1], s=area[ring] * 2.4, facecolors="none",
                    edgecolors=ACCENT_2, linewidths=1.6, zorder=3)
-        keys.append(Line2D([], [], linestyle="none", marker="o", markersize=8,
-                           markerfacecolor="none", markeredgecolor=ACCENT_2,
+        keys.append(Line2D([], [], color=ACCENT_2, linewidth=4.5, alpha=0.6, marker="o",
+                           markersize=8, markerfacecolor="none", markeredgecolor=ACCENT_2,
                            markeredgewidth=1.6))
-        names.append("significant flare / limb (tip labelled)")
+        names.append("significant flare / limb (tip ringed)")
     bps = [f.nodes[0] for _, f in labelled if f.kind == "branch"]
     if bps:
         ax.scatter(pos[bps, 0], pos[bps, 1], s=area[bps] * 1.9, facecolors="none",
@@ -245,6 +247,27 @@ def _mark_significant(ax, summary, pos, area):
                     fontweight="bold")
     if keys:
         ax.legend(keys, names, loc="best", handletextpad=0.3, borderaxespad=0.2, fontsize=7)
+
+
+def _tail_edges(graph, f):
+    """Edges of a flare (its chain up to the branch point) or of a limb (tip to join).
+
+    A limb is known by its two end nodes; its edges are those of a shortest
+    path between them in the graph (unweighted, scipy's breadth-first search).
+    """
+    if f.kind == "flare":
+        chain = [*f.nodes, *(() if f.attached_to is None else (f.attached_to,))]
+        return list(zip(chain[:-1], chain[1:], strict=True))
+    from scipy.sparse.csgraph import shortest_path
+
+    tip, join = int(f.nodes[0]), int(f.nodes[-1])
+    _, pred = shortest_path(graph.adjacency(), directed=False, unweighted=True, indices=tip,
+                            return_predecessors=True)
+    edges, v = [], join
+    while v != tip and pred[v] >= 0:
+        edges.append((int(pred[v]), v))
+        v = int(pred[v])
+    return edges
 
 
 def _count(n, word):
