@@ -184,3 +184,36 @@ def test_graph_files_carry_the_same_split_with_the_threshold(ring, tmp_path):
         assert f["significance"] <= f["threshold"] == bar
     labels = {lab for lab, _ in s.labelled()}
     assert {f["label"] for f in doc["significant_features"] + doc["small_features"]} <= labels
+
+
+def test_tails_are_drawn_along_their_edges():
+    # a Y with its stem up under the height (its Reeb graph is the Y): one significant limb (the
+    # younger foot, elder rule), one flare and the fork (Carrière and Oudot 2018)
+    rng = np.random.default_rng(1)
+    arm = rng.integers(0, 3, 900)
+    r = rng.uniform(0, 1, 900)
+    ang = np.deg2rad(np.array([90.0, 210.0, 330.0]))[arm]
+    X = np.column_stack([r * np.cos(ang), r * np.sin(ang)]) + rng.normal(0, 0.03, (900, 2))
+    g = _graph(X, X[:, 1], scale="raw", intervals=20)
+    s = g.summary()
+    tails = [f for f in s.significant_features() if f.kind in ("flare", "limb")]
+    assert {f.kind for f in tails} == {"flare", "limb"}
+    ax = draw_graph(g).axes[0]
+    assert _rings(ax) == len({f.nodes[0] for f in tails}) + len(s.significant_features("branch"))
+    # the tails' edges are drawn over in the second accent: a flare's chain to its fork, a
+    # limb's shortest path from tip to join (networkx as reference)
+    G = nx.Graph(g.edge_index.tolist())
+    want = 0
+    for f in tails:
+        if f.kind == "flare":
+            want += len(f.nodes)  # chain edges plus the edge to the branch point
+        else:
+            want += nx.shortest_path_length(G, f.nodes[0], f.nodes[-1])
+    from matplotlib.collections import LineCollection
+    from matplotlib.colors import to_hex
+
+    from lenswork.plot._style import ACCENT_2
+
+    drawn = [c for c in ax.collections if isinstance(c, LineCollection)
+             and to_hex(c.get_colors()[0]) == ACCENT_2]
+    assert len(drawn) == 1 and len(drawn[0].get_segments()) == want
