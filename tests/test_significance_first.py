@@ -133,6 +133,7 @@ def test_only_significant_features_are_marked(ring, noise):
     assert not {t.get_text() for t in ax.texts} & {lab for lab, _ in noise.summary().labelled()}
 
 
+@pytest.mark.filterwarnings("ignore::lenswork.LensworkWarning")  # a few rows in no node
 def test_compare_lists_significant_differences_and_counts_small_ones_apart():
     # a noisy circle in 5-d: under x one loop; under a noise coordinate, a tangle of small
     # loops and spurs

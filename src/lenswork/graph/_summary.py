@@ -284,6 +284,16 @@ class GraphSummary:
         small feature, a bar it missed in every lens that could certify it),
         else the smallest threshold. With one lens: that lens's threshold.
         A ``threshold`` attribute of the feature, when set, is used as is.
+
+        Examples
+        --------
+        >>> from lenswork import build_graph
+        >>> t = np.linspace(0, 2 * np.pi, 500, endpoint=False)
+        >>> X = np.column_stack([np.cos(t), np.sin(t)])
+        >>> s = build_graph(X[:, 1], X, intervals=10, overlap=0.3).summary()
+        >>> loop = s.significant_features("loop")[0]
+        >>> s.needed(loop) == s.thresholds["lens"], loop.significance > s.needed(loop)
+        (True, True)
         """
         own = getattr(feature, "threshold", None)
         if own is not None:
@@ -334,6 +344,14 @@ class GraphSummary:
         What the summary's first line, a drawing's title and a comparison's
         panels say, from :meth:`significant_counts`; for a graph without lens
         levels, the raw counts, named as such.
+
+        Examples
+        --------
+        >>> from lenswork import build_graph
+        >>> t = np.linspace(0, 2 * np.pi, 500, endpoint=False)
+        >>> X = np.column_stack([np.cos(t), np.sin(t)])
+        >>> build_graph(X[:, 1], X).summary().headline(" · ")
+        '1 component · 1 loop · 0 flares · 0 limbs · 0 branch points'
         """
         counts = self.significant_counts()
         if counts is None:
