@@ -218,3 +218,33 @@ def test_tails_are_drawn_along_their_edges():
     drawn = [c for c in ax.collections if isinstance(c, LineCollection)
              and to_hex(c.get_colors()[0]) == ACCENT_2]
     assert len(drawn) == 1 and len(drawn[0].get_segments()) == want
+
+
+def test_contrast_takes_a_limb_from_its_tip_to_where_it_joins():
+    # the Y of the test above, with the distance from the fork as a data column: the limb (one
+    # foot) is the rows of its nodes from the tip up to the join (networkx shortest path), and
+    # that distance grows along it (Spearman's rho, scipy)
+    from scipy import stats
+
+    from lenswork import PointCloud, contrast_columns
+
+    rng = np.random.default_rng(1)
+    arm = rng.integers(0, 3, 900)
+    r = rng.uniform(0, 1, 900)
+    ang = np.deg2rad(np.array([90.0, 210.0, 330.0]))[arm]
+    X = np.column_stack([r * np.cos(ang), r * np.sin(ang)]) + rng.normal(0, 0.03, (900, 2))
+    cloud = PointCloud.from_array(np.column_stack([X, r]), feature_names=["x", "y", "r"])
+    g = _graph(X, X[:, 1], scale="raw", intervals=20)
+    s = g.summary()
+    (label, limb), = [(lab, f) for lab, f in s.labelled() if f.kind == "limb" and f.significant]
+    res = contrast_columns(g, cloud, label, lenses=X[:, 1])
+    G = nx.Graph(g.edge_index.tolist())
+    path = nx.shortest_path(G, limb.nodes[0], limb.nodes[-1])
+    assert res.features[0]["nodes"] == path[:-1] and res.features[0]["attached_to"] == path[-1]
+    rows = np.unique(np.concatenate([g.members(v) for v in path[:-1]]))
+    assert res.features[0]["n_rows"] == rows.size
+    row = {x.column: x for x in res.rows}["r"]
+    assert row.along == "spearman" and row.along_r > 0.8
+    centre = X[g.members(path[-1]), 1].mean()
+    ref = stats.spearmanr(np.abs(X[rows, 1] - centre) / X[:, 1].std(), r[rows]).statistic
+    np.testing.assert_allclose(row.along_r, ref, rtol=1e-10)

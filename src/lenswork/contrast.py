@@ -19,8 +19,8 @@ categorical        Cramér's V and the chi-square test of the 2 x levels table
                    correction); the level most over-represented in the feature
 every test         the Benjamini-Hochberg (1995) step-up q-value over every
                    (feature, column) test of the call
-along the feature  flare / path: Spearman's rho with the position along it
-                   (distance from the attachment node: in lens space when the
+along the feature  flare / limb / path: Spearman's rho with the position along
+                   it (distance from the attachment node: in lens space when the
                    lens values are given, else graph hops); loop: the rank
                    circular-linear correlation with the angle around the
                    cycle (multiple correlation of the column's ranks on cos
@@ -386,9 +386,13 @@ def _default_feature(f, all_features):
 
 
 def _from_summary(graph, f, label):
-    return _Feature(label, f.kind, tuple(int(v) for v in f.nodes),
-                    _rows_of_nodes(graph, f.nodes), f.attached_to, f.significance,
-                    f.significant, graph.summary().needed(f))
+    s = graph.summary()
+    nodes, joins = tuple(int(v) for v in f.nodes), f.attached_to
+    if f.kind == "limb":  # its rows: the nodes from its tip up to the node where it joins
+        path = s.tail_path(f)
+        nodes, joins = path[:-1], path[-1]
+    return _Feature(label, f.kind, nodes, _rows_of_nodes(graph, nodes), joins,
+                    f.significance, f.significant, s.needed(f))
 
 
 def _resolve_features(graph, feature, nodes, rows, all_features=False):
@@ -497,9 +501,9 @@ def _position(graph, feat, lens):
         sub = graph.membership[rows][:, list(feat.nodes)].astype(np.float64)
         c, s = np.asarray(sub @ np.cos(ang)).ravel(), np.asarray(sub @ np.sin(ang)).ravel()
         return "angle", np.arctan2(s, c) % (2 * np.pi)
-    if feat.kind not in ("flare", "path"):
+    if feat.kind not in ("flare", "limb", "path"):
         return None, None
-    anchor = feat.attached_to if feat.kind == "flare" else feat.nodes[0]
+    anchor = feat.attached_to if feat.kind in ("flare", "limb") else feat.nodes[0]
     if lens is not None:
         sd = lens.std(axis=0)
         sd[sd == 0] = 1.0

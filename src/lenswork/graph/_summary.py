@@ -384,6 +384,42 @@ class GraphSummary:
             out.append((f"{f.kind}:{seen[f.kind]}", f))
         return out
 
+    def tail_path(self, feature):
+        """The nodes of a flare or limb from its tip to where it joins the graph.
+
+        A flare: its chain, then the branch point it leads to. A limb is known
+        by its two end nodes (tip, join); its path is a shortest path between
+        them in the graph (unweighted breadth-first search, scipy). Other
+        kinds: their own nodes. What a drawing draws along and what
+        ``contrast`` takes as a limb's rows (the path without the join node).
+
+        Examples
+        --------
+        >>> import scipy.sparse as sp
+        >>> from lenswork.graph import LensGraph
+        >>> M = sp.csr_matrix(np.eye(4, dtype=int))
+        >>> g = LensGraph(M, [[0], [1], [2], [3]], [[0, 1], [1, 2], [1, 3]], [1, 1, 1],
+        ...               {"h": np.zeros((4, 3))}, lens_columns=["h"])
+        >>> s = g.summary()
+        >>> [s.tail_path(f) for f in s.flares]
+        [(0, 1), (2, 1), (3, 1)]
+        """
+        if feature.kind == "flare":
+            return tuple(feature.nodes) + (
+                () if feature.attached_to is None else (int(feature.attached_to),))
+        if feature.kind != "limb" or self._graph is None:
+            return tuple(feature.nodes)
+        from scipy.sparse.csgraph import shortest_path
+
+        tip, join = int(feature.nodes[0]), int(feature.nodes[-1])
+        _, pred = shortest_path(self._graph.adjacency(), directed=False, unweighted=True,
+                                indices=tip, return_predecessors=True)
+        path, v = [join], join
+        while v != tip and pred[v] >= 0:
+            v = int(pred[v])
+            path.append(v)
+        return tuple(reversed(path))
+
     def to_dict(self):
         """JSON-ready form: the significant counts first, then the raw counts and features."""
         return {

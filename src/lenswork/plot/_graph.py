@@ -145,7 +145,7 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
                        edgecolors=ACCENT_2, linewidths=1.6, zorder=3)
         summary = graph.summary()
         if features:
-            _mark_significant(ax, graph, summary, pos, area)
+            _mark_significant(ax, summary, pos, area)
         if labels:
             for a in range(graph.n_nodes):
                 ax.annotate(str(a), pos[a], xytext=(4, 3), textcoords="offset points",
@@ -204,7 +204,7 @@ def _colour_values(graph, color, stat, data, level, values):
     return values, (f"{color}" if color == "size" else f"{color} (node {stat})"), color
 
 
-def _mark_significant(ax, graph, summary, pos, area):
+def _mark_significant(ax, summary, pos, area):
     """Outline the significant loops, ring the tails and branch points, label each (legend)."""
     from matplotlib.collections import LineCollection
     from matplotlib.lines import Line2D
@@ -221,7 +221,8 @@ def _mark_significant(ax, graph, summary, pos, area):
         names.append("significant loop")
     tails = [(lab, f) for lab, f in labelled if f.kind in ("flare", "limb")]
     if tails:
-        seg = [pos[[a, b]] for _, f in tails for a, b in _tail_edges(graph, f)]
+        paths = [summary.tail_path(f) for _, f in tails]
+        seg = [pos[[a, b]] for p in paths for a, b in zip(p[:-1], p[1:], strict=True)]
         ax.add_collection(LineCollection(seg, colors=ACCENT_2, linewidths=4.5, alpha=0.45,
                                          zorder=1.5, capstyle="round"))
         ring = np.unique([f.nodes[0] for _, f in tails])
@@ -247,27 +248,6 @@ def _mark_significant(ax, graph, summary, pos, area):
                     fontweight="bold")
     if keys:
         ax.legend(keys, names, loc="best", handletextpad=0.3, borderaxespad=0.2, fontsize=7)
-
-
-def _tail_edges(graph, f):
-    """Edges of a flare (its chain up to the branch point) or of a limb (tip to join).
-
-    A limb is known by its two end nodes; its edges are those of a shortest
-    path between them in the graph (unweighted, scipy's breadth-first search).
-    """
-    if f.kind == "flare":
-        chain = [*f.nodes, *(() if f.attached_to is None else (f.attached_to,))]
-        return list(zip(chain[:-1], chain[1:], strict=True))
-    from scipy.sparse.csgraph import shortest_path
-
-    tip, join = int(f.nodes[0]), int(f.nodes[-1])
-    _, pred = shortest_path(graph.adjacency(), directed=False, unweighted=True, indices=tip,
-                            return_predecessors=True)
-    edges, v = [], join
-    while v != tip and pred[v] >= 0:
-        edges.append((int(pred[v]), v))
-        v = int(pred[v])
-    return edges
 
 
 def _count(n, word):
