@@ -39,6 +39,16 @@ def _circle_with_tail(seed):
     return np.vstack([X, tail])
 
 
+def _y_tree():
+    """A Y (three unit arms from the origin at 90, 210, 330 degrees), and each row's radius."""
+    rng = np.random.default_rng(1)
+    arm = rng.integers(0, 3, 900)
+    r = rng.uniform(0, 1, 900)
+    ang = np.deg2rad(np.array([90.0, 210.0, 330.0]))[arm]
+    X = np.column_stack([r * np.cos(ang), r * np.sin(ang)]) + rng.normal(0, 0.03, (900, 2))
+    return X, r
+
+
 def _graph(X, lens, **kw):
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", LensworkWarning)  # a few rows in no node
@@ -190,11 +200,7 @@ def test_graph_files_carry_the_same_split_with_the_threshold(ring, tmp_path):
 def test_tails_are_drawn_along_their_edges():
     # a Y with its stem up under the height (its Reeb graph is the Y): one significant limb (the
     # younger foot, elder rule), one flare and the fork (Carrière and Oudot 2018)
-    rng = np.random.default_rng(1)
-    arm = rng.integers(0, 3, 900)
-    r = rng.uniform(0, 1, 900)
-    ang = np.deg2rad(np.array([90.0, 210.0, 330.0]))[arm]
-    X = np.column_stack([r * np.cos(ang), r * np.sin(ang)]) + rng.normal(0, 0.03, (900, 2))
+    X, _ = _y_tree()
     g = _graph(X, X[:, 1], scale="raw", intervals=20)
     s = g.summary()
     tails = [f for f in s.significant_features() if f.kind in ("flare", "limb")]
@@ -228,11 +234,7 @@ def test_contrast_takes_a_limb_from_its_tip_to_where_it_joins():
 
     from lenswork import PointCloud, contrast_columns
 
-    rng = np.random.default_rng(1)
-    arm = rng.integers(0, 3, 900)
-    r = rng.uniform(0, 1, 900)
-    ang = np.deg2rad(np.array([90.0, 210.0, 330.0]))[arm]
-    X = np.column_stack([r * np.cos(ang), r * np.sin(ang)]) + rng.normal(0, 0.03, (900, 2))
+    X, r = _y_tree()
     cloud = PointCloud.from_array(np.column_stack([X, r]), feature_names=["x", "y", "r"])
     g = _graph(X, X[:, 1], scale="raw", intervals=20)
     s = g.summary()
