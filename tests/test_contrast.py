@@ -305,22 +305,105 @@ def test_loop_columns_follow_the_daily_cycle(demo):
     assert rows["tank_level_m"].along_peak_node in graph.summary().features_of("loop")[0].nodes
 
 
-def test_every_feature_by_default_and_the_full_component_skipped(demo):
+def test_significant_features_by_default_every_feature_on_request(demo):
     _, ws, lenses, graph = demo
+    s = graph.summary()
     res = contrast_columns(graph, ws)
-    labels = [f["label"] for f in res.features]
-    n_kinds = {k: len(graph.summary().features_of(k)) for k in ("loop", "branch", "flare")}
-    assert len(labels) == sum(n_kinds.values())
-    assert any(s["feature"] == "component:1" and "every row" in s["reason"] for s in res.skipped)
+    # default: the components and the significant features; the one component holds every row
+    expect = [lab for lab, f in s.labelled() if f.kind == "component" or f.significant]
+    assert [f["label"] for f in res.features] + ["component:1"] == \
+        [lab for lab in expect if lab != "component:1"] + ["component:1"]
+    assert all(f["significant"] for f in res.features)
+    assert any(s_["feature"] == "component:1" and "every row" in s_["reason"]
+               for s_ in res.skipped)
+    n_small = len(s.small_features()) + len(s.features_of("path"))
+    assert any(f"{n_small} small features" in n and "all_features" in n for n in res.notes)
+    every = contrast_columns(graph, ws, all_features=True)
+    assert len(every.features) == len(s.labelled()) - 1  # all but the full component
+    assert every.params["all_features"] and not res.params["all_features"]
     with pytest.raises(InputError, match="holds every row"):
         contrast_columns(graph, ws, "component:1")
+    with pytest.raises(ParameterError, match="no path feature"):
+        contrast_columns(graph, ws, "path")
+
+
+def test_a_named_small_feature_shows_the_threshold_it_missed(demo):
+    _, ws, lenses, graph = demo
+    s = graph.summary()
+    small = s.small_features()
+    assert small  # the demo's one-lens graph has small spurs
+    label = next(lab for lab, f in s.labelled() if f is small[0])
+    res = contrast_columns(graph, ws, label, all_features=True)
+    info = res.features[0]
+    assert info["significant"] is False and info["threshold"] == s.needed(small[0])
+    assert info["significance"] <= info["threshold"]
+    text = res.text(all_features=True)
+    assert f"significance {info['significance']:.2f} < {info['threshold']:.2f} needed" in text
+
+
+def test_bh_runs_over_every_test_of_the_call_not_per_feature(demo):
+    _, ws, lenses, graph = demo
+    res = contrast_columns(graph, ws, all_features=True)
+    labels = {r.feature for r in res.rows}
+    assert len(labels) >= 3
+    p = np.array([r.pvalue for r in res.rows])
+    q = np.array([r.qvalue for r in res.rows])
+    # reference: scipy.stats.false_discovery_control (Benjamini-Hochberg) over all p-values
+    assert_allclose(q, stats.false_discovery_control(p), rtol=1e-9, atol=1e-300)
+    assert res.params["family"] == p.size
+    # the same procedure applied feature by feature gives other q-values: the test can tell
+    per_feature = np.empty_like(q)
+    for lab in labels:
+        mine = np.array([r.feature == lab for r in res.rows])
+        per_feature[mine] = stats.false_discovery_control(p[mine])
+    assert not np.allclose(q, per_feature, rtol=1e-6, atol=0)
+
+
+def _pairs_delta(x, y):
+    """Cliff's delta from its definition, P(X > Y) - P(X < Y), counting pairs (Cliff 1993)."""
+    ys = np.sort(y)
+    below = np.searchsorted(ys, x, side="left")  # y < x
+    above = ys.size - np.searchsorted(ys, x, side="right")  # y > x
+    return (below.sum() - above.sum()) / (x.size * ys.size)
+
+
+def test_a_tiny_effect_on_many_rows_is_not_starred():
+    # 20,000 rows: a shift of 0.1 SD in half of them gives a KS q-value far below 0.05 but a
+    # Cliff's delta near 0.06, under the "small" threshold 0.147 (Romano et al. 2006); a level
+    # 4 points more common gives Cramér's V near 0.04, under Cohen's (1988) small w = 0.1
+    rng = np.random.default_rng(4415)
+    n = 20_000
+    t = rng.uniform(0, 1, n)
+    w = rng.normal(0, 1, n) + 0.1 * (t > 0.5)
+    big = rng.normal(0, 1, n) + 1.0 * (t > 0.5)
+    kind = np.where(rng.uniform(0, 1, n) < 0.5 + 0.04 * (t > 0.5), "a", "b").astype(object)
+    X = np.column_stack([t, w, big])
+    cloud = PointCloud.from_array(X, feature_names=["t", "w", "big"], passthrough={"kind": kind})
+    graph = build_graph(X[:, 0], cloud, intervals=2, overlap=0.1, scale="raw")
+    last = graph.n_nodes - 1
+    res = contrast_columns(graph, cloud, nodes=[last], columns=["w", "big", "kind"])
+    rows = {r.column: r for r in res.rows}
+    inside = np.zeros(n, dtype=bool)
+    inside[graph.members(last)] = True
+    assert_allclose(rows["w"].cliffs_delta, _pairs_delta(w[inside], w[~inside]), rtol=1e-9)
+    assert rows["w"].qvalue < 1e-5 and abs(rows["w"].cliffs_delta) < 0.147
+    assert not rows["w"].large_enough and not rows["w"].significant
+    assert rows["kind"].qvalue < 1e-3 and rows["kind"].effect < 0.1
+    assert not rows["kind"].significant
+    assert rows["big"].significant and abs(rows["big"].cliffs_delta) >= 0.147
+    text = res.text()
+    assert "|Cliff's delta| >= 0.147 (Romano et al. 2006)" in text
+    assert "Cramér's V >= 0.1 (Cohen 1988)" in text
+    assert res.params["effect_floor"] == {"numeric": 0.147, "categorical": 0.1}
+    starred = [ln for ln in text.splitlines() if ln.startswith("  ") and "*" in ln[:6]]
+    assert len(starred) == 1 and "big" in starred[0]
 
 
 def test_frame_json_and_csv(demo, tmp_path):
     _, ws, lenses, graph = demo
     res = contrast_columns(graph, ws, "flare", lenses=lenses)
     frame = res.to_frame()
-    assert frame.shape == (len(res.rows), 25)
+    assert frame.shape == (len(res.rows), 26)  # the 26 fields of ColumnContrast
     assert list(frame["rank"][:3]) == [1, 2, 3]
     res.write_json(tmp_path / "c.json")
 

@@ -106,3 +106,32 @@ def test_rows_file_and_troublesome_columns_on_a_table(tmp_path):
         rows = [r for r in csv.DictReader(fh) if r["feature"] == "rows"]
     assert rows[0]["column"] in {"vibration_mm_s", "bearing_temp_c", "state"}
     assert sorted(p.name for p in out.iterdir()) == ["contrast.csv", "contrast.json"]
+
+
+def test_default_tests_the_significant_features_and_all_features_the_rest(tmp_path):
+    cloud = load_demo()
+    ws = Workspace(cloud, random_state=0)
+    graph = build_graph(compute_lenses(ws, [LENS]), ws)
+    s = graph.summary()
+    default, every = tmp_path / "default", tmp_path / "every"
+    res = run("contrast", "--demo", "--lens", LENS, "-o", default)
+    assert res.exit_code == 0, res.output
+    # the graph's summary comes first, led by its significant counts; then the rule of the stars
+    assert res.output.startswith(f"significant: {s.headline()}")
+    assert "|Cliff's delta| >= 0.147 (Romano et al. 2006)" in res.output
+    assert "--all-features" in res.output
+    doc = strict_loads((default / "contrast.json").read_text())
+    tested = {f["label"] for f in doc["contrast"]["features"]}
+    skipped = {x["feature"] for x in doc["contrast"]["skipped"] if x["feature"]}
+    expect = {lab for lab, f in s.labelled() if f.kind == "component" or f.significant}
+    assert tested | skipped == expect
+    sheets = [p for p in default.iterdir() if p.name.startswith("columns_")]
+    starred = {r["feature"] for r in doc["contrast"]["columns"] if r["significant"]}
+    assert len(sheets) == len(starred) <= len(expect)  # one sheet per feature with a star
+    res = run("contrast", "--demo", "--lens", LENS, "--all-features", "--no-figure", "-o", every)
+    assert res.exit_code == 0, res.output
+    doc = strict_loads((every / "contrast.json").read_text())
+    tested = {f["label"] for f in doc["contrast"]["features"]}
+    skipped = {x["feature"] for x in doc["contrast"]["skipped"] if x["feature"]}
+    assert tested | skipped == {lab for lab, _ in s.labelled()}
+    assert doc["contrast"]["params"]["all_features"] is True

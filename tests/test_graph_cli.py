@@ -40,7 +40,7 @@ def test_graph_from_a_registry_lens(torus_csv, tmp_path):
     assert res.exit_code == 0, res.output
     # a torus with the height lens across the hole: one component, one loop
     # (Cole-McLaughlin et al. 2004)
-    assert "components 1, loops 1" in res.output
+    assert res.output.startswith("significant: 1 component, 1 loop,")
     names = sorted(p.name for p in out.iterdir())
     assert names == ["graph.graphml", "graph.json", "graph.png", "graph.svg", "memberships.csv"]
     G = nx.read_graphml(out / "graph.graphml")  # networkx as reference reader
@@ -114,7 +114,8 @@ def test_graph_prints_resolved_settings_and_significance(torus_csv, tmp_path):
     min_size = round(math.log(1500) ** 1.1)  # (ln n)^1.1 (Carrière, Michel and Oudot 2018)
     assert f"settings: intervals 10 (auto), overlap 0.3, min_size {min_size} (auto)" \
         in res.output
-    assert "significant: loops 1," in res.output
+    assert res.output.startswith("significant: 1 component, 1 loop,")
+    assert "raw cycle and degree counts" in res.output.splitlines()[1]
     res = run("graph", torus_csv, "--id-column", "sample", "--lens", "column:name=x",
               "--intervals", "8", "--min-size", "5", "--no-figure", "-o", tmp_path / "p")
     assert "settings: intervals 8, overlap 0.3, min_size 5, clusterer graph (auto)\n" \

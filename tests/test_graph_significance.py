@@ -122,7 +122,8 @@ def test_summary_text_and_files_report_significant_apart_from_small(tmp_path):
     g = build_graph(t + rng.normal(0, 0.3, 1000), Workspace(X), intervals=20, k=10, min_size=3)
     s = g.summary()
     text = s.text()
-    assert "significant: loops 0" in text and "small features" in text
+    assert text.startswith(f"significant: {s.n_components} component") and "small features" in text
+    assert ", 0 loops, " in text.splitlines()[0] and " needed  [" in text
     doc = json.loads(write_graph_json(g, tmp_path / "g.json").read_text())
     rec = doc["summary"]
     assert rec["significance"]["loops"] == {"significant": 0, "small": s.loops}

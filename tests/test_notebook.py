@@ -128,8 +128,11 @@ def test_graph_html_has_the_summary_and_an_svg_drawing(circle):
     assert summary["nodes"] == str(G.number_of_nodes()) and summary["edges"] == str(
         G.number_of_edges())
     assert summary["components"] == str(nx.number_connected_components(G))
-    assert summary["loops (E - V + C)"] == str(len(nx.cycle_basis(G))) == "1"  # a circle
+    assert summary["loops (raw, E - V + C)"] == str(len(nx.cycle_basis(G))) == "1"  # a circle
     assert summary["rows"] == "400" and summary["lens columns"] == "lens"
+    # the significant structure leads, as in the printed summary
+    assert tree.rows[0]["cells"] == ["significant", g.summary().headline()]
+    assert summary["significant"].startswith("1 component, 1 loop")
     # One <svg> with a circle per node and a line per edge.
     assert tree.count("svg") == 1
     assert tree.count("circle") == g.n_nodes and tree.count("line") == g.n_edges

@@ -77,14 +77,16 @@ def test_compare_command(circle_csv, tmp_path):
     res = _run("compare", circle_csv, "--id-column", "id", "--lens", "column:name=x",
                "--lens", "column:name=y", "--intervals", 8, "-o", out)
     assert res.exit_code == 0, res.output
-    assert "column:name=x vs column:name=y (component partition, 400 rows): ARI 1.000" in res.output
-    # both views are one component: the ARI of 1 is flagged trivial, and the co-membership of
-    # row pairs (checked against sklearn and a pair count in test_compare) is printed
-    assert "trivial: both component partitions are one block" in res.output
+    assert "  component partition (400 rows): ARI 1.000" in res.output
+    # both views are one component: the ARI of 1 is flagged trivial; the co-membership of row
+    # pairs (checked against sklearn and a pair count in test_compare) is the headline
+    assert "trivial: both are one block" in res.output
     meta = json.loads((out / "comparison.json").read_text())
-    co = next(x for x in res.output.splitlines() if x.startswith("  co-membership"))
-    assert f"ARI {meta['pairs'][0]['co_ari']:.3f}" in co and meta["pairs"][0]["trivial"]
+    co = next(x for x in res.output.splitlines() if x.startswith("column:name=x vs column:name=y"))
+    assert co.startswith(f"column:name=x vs column:name=y: co-membership ARI "
+                         f"{meta['pairs'][0]['co_ari']:.3f}") and meta["pairs"][0]["trivial"]
     assert [v["loops"] for v in meta["views"]] == [1, 1]
+    assert [v["significant"]["loops"] for v in meta["views"]] == [1, 1]
     assert meta["views"][0]["params"]["cover"]["intervals"] == [8]
     assert (out / "correspondence_1_2.csv").read_text().startswith("node_a,node_b,shared_rows")
     assert (out / "comparison.png").read_bytes()[:4] == b"\x89PNG"

@@ -82,13 +82,25 @@ integer arithmetic.
 
 Features in one view and not the other
 --------------------------------------
-Each feature the graph summary lists (a loop, a flare, a branch point, a
-component) is a set of nodes and so a set of rows. A feature of view a is
-*matched* in view b when b has a feature of the same type whose rows have
-Jaccard index ``|A & B| / |A | B|`` with it of at least ``match`` (default
-0.5); unmatched features are reported per view. (The Jaccard index, not the
-overlap coefficient ``|A & B| / min(|A|, |B|)``: with the latter a small
-spurious loop inside the rows of a large real one would count as a match.)
+Each feature the graph summary lists (a loop, a flare, a limb, a branch
+point, a component) is a set of nodes and so a set of rows. Only the
+*significant* ones (above the summary's threshold; components always) are
+compared as differences: a significant feature of view a is *matched* in
+view b when b has a significant feature (or component) of the same type
+whose rows have Jaccard index ``|A & B| / |A | B|`` with it of at least
+``match`` (default 0.5); unmatched ones are reported per view, marked when a
+small feature of b would match. Small features of a that no feature of b
+matches are only counted (``small_only_a``): noise of one cover, not a
+difference between the views. (The Jaccard index, not the overlap
+coefficient ``|A & B| / min(|A|, |B|)``: with the latter a small spurious
+loop inside the rows of a large real one would count as a match.)
+
+Which agreement leads
+---------------------
+The co-membership ARI is the headline (first in the text, the figure's
+title, :meth:`ViewComparison.agreement`'s default): the component partition
+of two connected graphs is one block each, so its ARI is 1 however unlike
+the views are.
 
 References
 ----------
@@ -496,33 +508,48 @@ def _jaccard(a, b):
 #: Unmatched features listed per view in the text summary (all of them go to the JSON).
 _LIST_MAX = 8
 #: Feature kinds compared between views (as the graph summary names them).
-FEATURE_KINDS = ("component", "loop", "flare", "branch")
+FEATURE_KINDS = ("component", "loop", "flare", "limb", "branch")
 
 
 def _feature_rows(graph, summary):
-    """(kind, feature index within its kind, sorted row array) for every compared feature."""
+    """(label, kind, sorted row array, feature, telling) for every compared feature.
+
+    ``telling``: a component, a significant feature, or any feature of a graph
+    without significance (a ball cover); the others are small.
+    """
     M = sp.csc_matrix(graph.membership)
     out = []
-    index = dict.fromkeys(FEATURE_KINDS, 0)
-    for f in summary.features:
-        if f.kind not in index:
+    for label, f in summary.labelled():
+        if f.kind not in FEATURE_KINDS:
             continue
         parts = [M.indices[M.indptr[v]:M.indptr[v + 1]] for v in f.nodes]
         rows = np.unique(np.concatenate(parts)) if parts else np.empty(0, dtype=np.int64)
-        out.append((f.kind, index[f.kind], rows.astype(np.int64), f))
-        index[f.kind] += 1
+        out.append((label, f.kind, rows.astype(np.int64), f, f.significant is not False))
     return out
 
 
 def _unmatched(feats_a, feats_b, match):
-    """Features of a with no feature of the same kind in b at Jaccard index >= ``match``."""
-    out = []
-    for kind, i, rows, f in feats_a:
-        best = max((_jaccard(rows, r) for k, _, r, _ in feats_b if k == kind), default=0.0)
+    """(significant features of a unmatched in b, count of small ones unmatched).
+
+    A significant feature (or component) of a is matched when b has a
+    significant feature (or component) of the same kind whose rows have
+    Jaccard index >= ``match`` with it; ``small_in_other`` says whether a
+    small feature of b would match it. A small feature of a is counted when no
+    feature of b, of any significance, matches it.
+    """
+    out, small = [], 0
+    for label, kind, rows, f, telling in feats_a:
+        scores = [(_jaccard(rows, r), t) for _, k, r, _, t in feats_b if k == kind]
+        best = max((j for j, t in scores if t), default=0.0)
+        if not telling:
+            small += max((j for j, _ in scores), default=0.0) < match
+            continue
         if best < match:
-            out.append({"kind": kind, "index": i, "nodes": list(f.nodes), "rows": int(rows.size),
-                        "best_jaccard": float(best)})
-    return out
+            out.append({"label": label, "kind": kind, "index": int(label.split(":")[1]) - 1,
+                        "nodes": list(f.nodes), "rows": int(rows.size),
+                        "significance": f.significance, "best_jaccard": float(best),
+                        "small_in_other": any(j >= match for j, t in scores if not t)})
+    return out, int(small)
 
 
 def _node_means(graph, values):
@@ -554,8 +581,10 @@ class ViewComparison:
         partitions one block, or both all singletons: ARI and VI say nothing),
         ``co_ari`` and ``co_jaccard`` (row co-membership, over the ``co_rows``
         rows assigned in both views), ``co_trivial``, ``only_a`` / ``only_b``
-        (features of one view not matched in the other) and ``matched``
-        counts.
+        (significant features of one view not matched in the other, each with
+        its summary ``label``), ``matched_a`` / ``matched_b`` (significant
+        features matched) and ``small_only_a`` / ``small_only_b`` (small
+        features no feature of the other view matches, counted apart).
     match : float
     summaries : list of GraphSummary
 
@@ -587,8 +616,8 @@ class ViewComparison:
         for a in range(len(self.graphs)):
             for b in range(a + 1, len(self.graphs)):
                 la, lb = self.labels[a][rows], self.labels[b][rows]
-                only_a = _unmatched(feats[a], feats[b], self.match)
-                only_b = _unmatched(feats[b], feats[a], self.match)
+                only_a, small_a = _unmatched(feats[a], feats[b], self.match)
+                only_b, small_b = _unmatched(feats[b], feats[a], self.match)
                 both = (self.labels[a] >= 0) & (self.labels[b] >= 0)
                 co = co_membership(self.graphs[a].membership[both],
                                    self.graphs[b].membership[both]) if both.sum() >= 2 \
@@ -608,8 +637,9 @@ class ViewComparison:
                     "co_trivial": co["trivial"],
                     "co_rows": int(both.sum()),
                     "only_a": only_a, "only_b": only_b,
-                    "matched_a": len(feats[a]) - len(only_a),
-                    "matched_b": len(feats[b]) - len(only_b),
+                    "matched_a": sum(f[4] for f in feats[a]) - len(only_a),
+                    "matched_b": sum(f[4] for f in feats[b]) - len(only_b),
+                    "small_only_a": small_a, "small_only_b": small_b,
                 })
 
     def _index(self, view):
@@ -631,11 +661,12 @@ class ViewComparison:
                 return p
         raise ParameterError("Compare two different views.")
 
-    def agreement(self, score="ari"):
+    def agreement(self, score="co_ari"):
         """(V, V) matrix of one score between every pair of views (diagonal: identity value).
 
-        ``score``: ``"ari"``, ``"vi"``, ``"vi_normalized"`` (of the induced
-        partitions), ``"co_ari"`` or ``"co_jaccard"`` (row co-membership).
+        ``score``: ``"co_ari"`` (default: the co-membership ARI, the telling
+        one; module notes) or ``"co_jaccard"`` (row co-membership), ``"ari"``,
+        ``"vi"``, ``"vi_normalized"`` (of the induced partitions).
         """
         score = check_choice("score", score, SCORES, context="ViewComparison.agreement")
         V = len(self.names)
@@ -651,35 +682,45 @@ class ViewComparison:
         return _node_means(g, self.lens_values[self._index(by)][:, 0])
 
     def format_text(self):
-        """The comparison in a few lines for a terminal."""
+        """The comparison in a few lines for a terminal, the telling agreement first.
+
+        Per view: its significant structure, then its raw counts. Per pair: the
+        co-membership agreement (which pairs of rows share a node in both
+        views), then the induced partition's ARI and VI, the significant
+        features found in one view only, and the count of small ones.
+        """
         lines = []
         for name, s in zip(self.names, self.summaries, strict=True):
-            lines.append(f"{name}: {s.n_nodes} nodes, {s.n_edges} edges, components "
-                         f"{s.n_components}, loops {s.loops}, branch points "
-                         f"{len(s.branch_points)}, flares {s.n_flares}")
+            word = "significant" if s.significance is not None else "no significance"
+            lines.append(f"{name}: {word}: {s.headline()}  (raw: {s.n_nodes} nodes, "
+                         f"{s.n_edges} edges, loops {s.loops}, branch points "
+                         f"{len(s.branch_points)}, flares {s.n_flares})")
         for p in self.pairs:
             lines.append(
-                f"{p['a']} vs {p['b']} ({self.partition} partition, {p['rows_compared']:,} rows): "
-                f"ARI {p['ari']:.3f}, VI {p['vi']:.3f} nats ({p['vi_normalized']:.3f} of log n)")
-            if p["trivial"]:
-                lines.append(
-                    f"  trivial: both {self.partition} partitions are "
-                    f"{'one block' if p['rows_compared'] > 1 else 'one row'} (or all singletons),"
-                    f" so ARI and VI cannot tell the views apart; see the co-membership")
-            lines.append(
-                f"  co-membership ({p['co_rows']:,} rows; pairs of rows sharing a node): "
-                f"ARI {p['co_ari']:.3f}, pair Jaccard {p['co_jaccard']:.3f}"
+                f"{p['a']} vs {p['b']}: co-membership ARI {p['co_ari']:.3f}, pair Jaccard "
+                f"{p['co_jaccard']:.3f} ({p['co_rows']:,} rows; pairs of rows sharing a node)"
                 + (" (trivial: each view keeps every pair together)" if p["co_trivial"] else ""))
+            trivial = (" -- trivial: both are one block (or all singletons), they cannot tell "
+                       "the views apart") if p["trivial"] else ""
+            lines.append(
+                f"  {self.partition} partition ({p['rows_compared']:,} rows): ARI "
+                f"{p['ari']:.3f}, VI {p['vi']:.3f} nats ({p['vi_normalized']:.3f} of log n)"
+                f"{trivial}")
             for side, key in ((p["a"], "only_a"), (p["b"], "only_b")):
                 if p[key]:
-                    items = ", ".join(f"{f['kind']} {f['index'] + 1} ({f['rows']} rows)"
-                                      for f in p[key][:_LIST_MAX])
+                    items = ", ".join(
+                        f"{f['label']} ({f['rows']:,} rows"
+                        + ("; small in the other view" if f["small_in_other"] else "") + ")"
+                        for f in p[key][:_LIST_MAX])
                     more = len(p[key]) - _LIST_MAX
                     tail = f" and {more} more (see comparison.json)" if more > 0 else ""
-                    lines.append(f"  only in {side}: {items}{tail}")
+                    lines.append(f"  significant only in {side}: {items}{tail}")
                 else:
-                    lines.append(f"  only in {side}: nothing (every feature matched at "
-                                 f"Jaccard >= {self.match:g})")
+                    lines.append(f"  significant only in {side}: nothing (every significant "
+                                 f"feature matched at Jaccard >= {self.match:g})")
+            lines.append(f"  small features in one view only (below the significance "
+                         f"threshold, not listed): {p['small_only_a']} in {p['a']}, "
+                         f"{p['small_only_b']} in {p['b']}")
         return "\n".join(lines)
 
     def to_dict(self):
@@ -693,6 +734,7 @@ class ViewComparison:
             views.append({"name": name, "lens_columns": list(g.lens_columns), "params": g.params,
                           "graph_settings": g.provenance.get("graph_settings"),
                           "nodes": s.n_nodes, "edges": s.n_edges, "components": s.n_components,
+                          "significant": s.significant_counts(),
                           "loops": s.loops, "branch_points": len(s.branch_points),
                           "flares": s.n_flares, "unassigned": s.n_unassigned})
         pairs = [{k: (None if isinstance(v, float) and math.isnan(v) else v)
@@ -739,8 +781,8 @@ class ViewComparison:
 
     def __repr__(self):
         p = self.pairs[0]
-        return (f"ViewComparison({len(self.names)} views, {self.partition} partition, "
-                f"ARI[{p['a']}, {p['b']}] = {p['ari']:.3f})")
+        return (f"ViewComparison({len(self.names)} views, co-membership "
+                f"ARI[{p['a']}, {p['b']}] = {p['co_ari']:.3f})")
 
     def to_frame(self, what="pairs"):
         """A pandas DataFrame: one row per pair of views, or per view.

@@ -19,8 +19,8 @@ categorical        Cramér's V and the chi-square test of the 2 x levels table
                    correction); the level most over-represented in the feature
 every test         the Benjamini-Hochberg (1995) step-up q-value over every
                    (feature, column) test of the call
-along the feature  flare / path: Spearman's rho with the position along it
-                   (distance from the attachment node: in lens space when the
+along the feature  flare / limb / path: Spearman's rho with the position along
+                   it (distance from the attachment node: in lens space when the
                    lens values are given, else graph hops); loop: the rank
                    circular-linear correlation with the angle around the
                    cycle (multiple correlation of the column's ranks on cos
@@ -38,6 +38,20 @@ The rank of a column is by its effect size: ``|Cliff's delta|`` for numeric
 columns, Cramér's V for categorical ones (both 0 for no difference and 1 for
 complete separation), ties broken by the p-value.
 
+A column is *significant* (starred) only when its q-value is at most
+``alpha`` **and** its effect is at least small (:data:`EFFECT_FLOOR`):
+``|delta| >= 0.147`` (Romano et al. 2006 [5]_) or ``V >= 0.1`` (Cohen 1988
+[6]_). On thousands of rows a test finds differences too small to matter
+(a KS test gives q = 3e-55 for a delta of -0.04); the floor keeps them
+unstarred.
+
+Which features by default: the components and the significant features of the
+graph summary (loops, flares, limbs and branch points above the threshold);
+``all_features=True`` adds the small ones and the paths. A feature named --
+a kind (``"flare"``: every flare) or a label (``"flare:3"``) -- is tested
+whatever its significance; the feature lines show it, with the threshold a
+small one missed.
+
 References
 ----------
 .. [1] Y. Benjamini and Y. Hochberg, "Controlling the false discovery rate: a
@@ -47,6 +61,11 @@ References
 .. [3] H. Cramér, *Mathematical Methods of Statistics*, 1946.
 .. [4] K. V. Mardia, "Linear-circular correlation coefficients and rhythmometry",
    Biometrika 63, 1976.
+.. [5] J. Romano, J. D. Kromrey, J. Coraggio and J. Skowronek, "Appropriate
+   statistics for ordinal level data", annual meeting of the Florida
+   Association of Institutional Research, 2006.
+.. [6] J. Cohen, *Statistical Power Analysis for the Behavioral Sciences*,
+   2nd ed., 1988.
 """
 
 from __future__ import annotations
@@ -74,6 +93,7 @@ from .graph import GraphFeature, LensGraph
 
 __all__ = [
     "AGAINST",
+    "EFFECT_FLOOR",
     "FEATURE_KINDS",
     "KS_EXACT_MAX",
     "MISSING_TEXT",
@@ -90,7 +110,11 @@ __all__ = [
 #: What a feature's rows can be set against.
 AGAINST = ("rest", "neighbours")
 #: Feature kinds of a graph summary, in the order they are listed.
-FEATURE_KINDS = ("component", "loop", "branch", "flare", "path")
+FEATURE_KINDS = ("component", "loop", "branch", "flare", "path", "limb")
+#: Smallest effect a starred column must show: |Cliff's delta| for numeric columns (the
+#: "small" threshold of Romano et al. 2006, 0.147) and Cramér's V for categorical ones (Cohen
+#: 1988's small effect w = 0.1; for the 2 x k table of a feature against the rest, V = w).
+EFFECT_FLOOR = {"numeric": 0.147, "categorical": 0.1}
 #: Node statistics of :func:`node_column_values` for numeric columns.
 NODE_STATS = ("mean", "median", "min", "max", "std")
 _OTHER = "(other levels)"
@@ -334,6 +358,9 @@ class _Feature:
     nodes: tuple
     inside: np.ndarray  # bool (n_rows,)
     attached_to: int | None = None
+    significance: float | None = None
+    significant: bool | None = None
+    threshold: float | None = None
 
 
 def _rows_of_nodes(graph, nodes):
@@ -353,24 +380,25 @@ def _check_nodes(graph, nodes, what):
     return tuple(dict.fromkeys(nodes))
 
 
-def _labelled(summary):
-    """Every summary feature with its label ``kind:i`` (1-based within its kind)."""
-    seen = {}
-    out = []
-    for f in summary.features:
-        seen[f.kind] = seen.get(f.kind, 0) + 1
-        out.append((f"{f.kind}:{seen[f.kind]}", f))
-    return out
+def _default_feature(f, all_features):
+    """Tested unless named: components and significant features (every one with all_features)."""
+    return all_features or f.kind == "component" or f.significant is True
 
 
 def _from_summary(graph, f, label):
-    return _Feature(label, f.kind, tuple(int(v) for v in f.nodes),
-                    _rows_of_nodes(graph, f.nodes), f.attached_to)
+    s = graph.summary()
+    nodes, joins = tuple(int(v) for v in f.nodes), f.attached_to
+    if f.kind == "limb":  # its rows: the nodes from its tip up to the node where it joins
+        path = s.tail_path(f)
+        nodes, joins = path[:-1], path[-1]
+    return _Feature(label, f.kind, nodes, _rows_of_nodes(graph, nodes), joins,
+                    f.significance, f.significant, s.needed(f))
 
 
-def _resolve_features(graph, feature, nodes, rows):
-    """-> (list of _Feature, explicit?)."""
-    labelled = _labelled(graph.summary())
+def _resolve_features(graph, feature, nodes, rows, all_features=False):
+    """-> (list of _Feature, explicit?, number of small features left out)."""
+    labelled = graph.summary().labelled()
+    left_out = sum(1 for _, f in labelled if not _default_feature(f, all_features))
     out = []
     if nodes is not None:
         nodes = _check_nodes(graph, nodes, "The 'nodes' parameter")
@@ -397,7 +425,8 @@ def _resolve_features(graph, feature, nodes, rows):
         touched = np.flatnonzero(np.asarray(graph.membership[inside].sum(axis=0)).ravel() > 0)
         out.append(_Feature("rows", "rows", tuple(int(v) for v in touched), inside))
     if feature is None and not out:
-        return [_from_summary(graph, f, lab) for lab, f in labelled], False
+        return [_from_summary(graph, f, lab) for lab, f in labelled
+                if _default_feature(f, all_features)], False, left_out
     items = [] if feature is None else (
         list(feature) if isinstance(feature, (list, tuple)) else [feature])
     for item in items:
@@ -407,7 +436,10 @@ def _resolve_features(graph, feature, nodes, rows):
             continue
         text = str(item).strip().lower()
         if text in FEATURE_KINDS:
-            out += [_from_summary(graph, f, lab) for lab, f in labelled if f.kind == text]
+            hits = [_from_summary(graph, f, lab) for lab, f in labelled if f.kind == text]
+            if not hits:
+                raise ParameterError(f"The graph has no {text} feature (feature {item!r}).")
+            out += hits
             continue
         m = re.fullmatch(r"nodes\s*:\s*([\d\s,]+)", text)
         if m:
@@ -426,7 +458,7 @@ def _resolve_features(graph, feature, nodes, rows):
                 f"{names}{more}."
             )
         out.append(_from_summary(graph, hit, text.replace(" ", "")))
-    return out, True
+    return out, True, 0
 
 
 def _against_rows(graph, feat, against, hops):
@@ -469,9 +501,9 @@ def _position(graph, feat, lens):
         sub = graph.membership[rows][:, list(feat.nodes)].astype(np.float64)
         c, s = np.asarray(sub @ np.cos(ang)).ravel(), np.asarray(sub @ np.sin(ang)).ravel()
         return "angle", np.arctan2(s, c) % (2 * np.pi)
-    if feat.kind not in ("flare", "path"):
+    if feat.kind not in ("flare", "limb", "path"):
         return None, None
-    anchor = feat.attached_to if feat.kind == "flare" else feat.nodes[0]
+    anchor = feat.attached_to if feat.kind in ("flare", "limb") else feat.nodes[0]
     if lens is not None:
         sd = lens.std(axis=0)
         sd[sd == 0] = 1.0
@@ -513,7 +545,9 @@ class ColumnContrast:
     statistic, pvalue, qvalue : float
         Test statistic, p-value and Benjamini-Hochberg q-value.
     significant : bool
-        ``qvalue <= alpha``.
+        ``qvalue <= alpha`` and ``large_enough``.
+    large_enough : bool
+        The effect reaches :data:`EFFECT_FLOOR` (a small effect or more).
     n_in, n_out : int
         Non-missing rows compared on each side.
     along, along_r, along_p : str, float, float
@@ -557,6 +591,7 @@ class ColumnContrast:
     significant: bool
     n_in: int
     n_out: int
+    large_enough: bool = True
     along: str = ""
     along_r: float = float("nan")
     along_p: float = float("nan")
@@ -613,7 +648,7 @@ class ContrastResult:
         return [r.column for r in rows[:n]]
 
     def significant_features(self):
-        """Labels of the features with at least one significant column."""
+        """Labels of the features with at least one significant column (q and effect pass)."""
         return [f["label"] for f in self.features
                 if any(r.significant for r in self.rows if r.feature == f["label"])]
 
@@ -656,7 +691,11 @@ class ContrastResult:
         return path
 
     def text(self, top=5, *, all_features=False):
-        """A few lines per significant feature (or every feature) for a terminal."""
+        """A few lines per feature with a significant column (or every feature) for a terminal.
+
+        The first line states the rule of the stars: the q-value and the
+        effect-size floor (:data:`EFFECT_FLOOR`, with its sources).
+        """
         lines = []
         alpha = self.params.get("alpha", 0.05)
         shown = self.significant_features() if not all_features else \
@@ -664,8 +703,13 @@ class ContrastResult:
         for f in self.features:
             if f["label"] not in shown:
                 continue
+            sig = ""
+            if f.get("significance") is not None:
+                sig = f", significance {f['significance']:.2f}" + (
+                    "" if f.get("significant") or f.get("threshold") is None
+                    else f" < {f['threshold']:.2f} needed (small)")
             lines.append(f"{f['label']}: {f['n_rows']:,} rows against {f['n_against']:,} "
-                         f"({self.params.get('against')}), nodes "
+                         f"({self.params.get('against')}){sig}, nodes "
                          f"{_short_nodes(f['nodes'])}")
             for r in self.for_feature(f["label"])[:top]:
                 if r.type == "numeric":
@@ -681,9 +725,14 @@ class ContrastResult:
                         f"  along: {name} {r.along_r:.2f} peak node {r.along_peak_node}"
                 mark = "*" if r.significant else " "
                 lines.append(f"  {r.rank:>2}{mark} {r.column:<20} {what}  q {r.qvalue:.2g}{along}")
+        floor = self.params.get("effect_floor", EFFECT_FLOOR)
+        rule = (f"* = q <= {alpha} (Benjamini-Hochberg over all {self.params.get('family', 0)} "
+                f"tests) and an effect at least small: |Cliff's delta| >= {floor['numeric']:g} "
+                f"(Romano et al. 2006), Cramér's V >= {floor['categorical']:g} (Cohen 1988)")
         if not lines:
-            lines.append(f"no feature has a column with q <= {alpha} "
-                         f"({len(self.features)} features tested)")
+            lines.append(f"no feature has a significant column ({len(self.features)} features "
+                         f"tested)")
+        lines.insert(0, rule)
         for s in self.skipped:
             where = f"{s['feature']}: " if s.get("feature") else ""
             col = f"column {s['column']!r} " if s.get("column") else ""
@@ -785,7 +834,8 @@ def _numeric_stats(col, inside, other):
 
 
 def contrast_columns(graph, data, feature=None, *, nodes=None, rows=None, against="rest", hops=2,
-                     columns=None, categorical=None, lenses=None, max_levels=50, alpha=0.05):
+                     columns=None, categorical=None, lenses=None, max_levels=50, alpha=0.05,
+                     all_features=False):
     """Rank the data columns by how strongly they set a graph feature's rows apart.
 
     Parameters
@@ -795,9 +845,11 @@ def contrast_columns(graph, data, feature=None, *, nodes=None, rows=None, agains
         The rows the graph was built on (same order and ids).
     feature : str, GraphFeature or list of them, optional
         ``"flare:2"`` (the second flare of ``graph.summary().features``; kinds
-        component, loop, branch, flare, path, 1-based within the kind), a kind
-        (every feature of it), ``"nodes:3,5,7"``, or a GraphFeature. Default:
-        every feature of the summary (unless ``nodes`` or ``rows`` is given).
+        component, loop, branch, flare, path, limb, 1-based within the kind,
+        as :meth:`GraphSummary.labelled` names them), a kind (every feature of
+        it, small ones too), ``"nodes:3,5,7"``, or a
+        GraphFeature. Default: the components and the significant features of
+        the summary (unless ``nodes`` or ``rows`` is given).
     nodes : sequence of int, optional
         A set of nodes to contrast (labelled ``nodes``).
     rows : bool mask of shape (n_rows,) or sequence of int, optional
@@ -820,7 +872,12 @@ def contrast_columns(graph, data, feature=None, *, nodes=None, rows=None, agains
         frequent and pools the others; one with a level for half its rows or
         more is skipped (an identifier).
     alpha : float, default=0.05
-        False discovery rate of the Benjamini-Hochberg step-up.
+        False discovery rate of the Benjamini-Hochberg step-up (over every
+        test of the call). A column is significant when its q-value is at
+        most ``alpha`` and its effect reaches :data:`EFFECT_FLOOR`.
+    all_features : bool, default=False
+        Test every feature of the summary (small ones and paths too), not only
+        the components and the significant features.
 
     Returns
     -------
@@ -866,8 +923,12 @@ def contrast_columns(graph, data, feature=None, *, nodes=None, rows=None, agains
     cloud = _cloud_of(data, graph)
     cols = _columns(cloud, columns, categorical, max_levels)
     lens = _lens_array(lenses, graph.n_rows)
-    feats, explicit = _resolve_features(graph, feature, nodes, rows)
     skipped, notes, raw, infos = [], [], [], []
+    all_features = bool(all_features)
+    feats, explicit, left_out = _resolve_features(graph, feature, nodes, rows, all_features)
+    if left_out and feature is None and nodes is None and rows is None:
+        notes.append(f"{left_out} small features (below the significance threshold) and paths "
+                     f"not tested; all_features=True (--all-features) tests them too")
     for c in cols:
         if c.note.startswith("skipped"):
             skipped.append({"feature": "", "column": c.name, "reason": c.note[9:]})
@@ -918,7 +979,8 @@ def contrast_columns(graph, data, feature=None, *, nodes=None, rows=None, agains
         in_rows = np.flatnonzero(feat.inside)
         infos.append({"label": feat.label, "kind": feat.kind, "nodes": list(feat.nodes),
                       "n_rows": n_in, "n_against": n_out, "attached_to": feat.attached_to,
-                      "position": kind_pos or ""})
+                      "position": kind_pos or "", "significance": feat.significance,
+                      "significant": feat.significant, "threshold": feat.threshold})
         for c in cols:
             rec = _test_column(c, feat, other, in_rows, kind_pos, pos)
             if isinstance(rec, str):
@@ -934,11 +996,15 @@ def contrast_columns(graph, data, feature=None, *, nodes=None, rows=None, agains
         mine = [(r, qq) for r, qq in zip(raw, q) if r["feature"] == f["label"]]
         mine.sort(key=lambda rq: (-rq[0]["effect"], rq[0]["pvalue"], rq[0]["column"]))
         for rank, (r, qq) in enumerate(mine, start=1):
-            out.append(ColumnContrast(rank=rank, qvalue=float(qq),
-                                      significant=bool(qq <= alpha), **r))
+            big = bool(r["effect"] >= EFFECT_FLOOR[r["type"]])
+            out.append(ColumnContrast(rank=rank, qvalue=float(qq), large_enough=big,
+                                      significant=bool(qq <= alpha) and big, **r))
     params = {"against": against, "hops": hops if against == "neighbours" else None,
               "alpha": alpha, "max_levels": max_levels, "correction": "Benjamini-Hochberg 1995",
-              "family": len(raw), "lenswork": __version__,
+              "family": len(raw), "effect_floor": dict(EFFECT_FLOOR),
+              "effect_floor_source": "Romano et al. 2006 (|Cliff's delta| small); Cohen 1988 "
+                                     "(Cramér's V / w small)",
+              "all_features": all_features, "lenswork": __version__,
               "scaling": cloud.provenance.get("scaling"),
               "lenses": list(graph.lens_columns)}
     return ContrastResult(tuple(out), tuple(infos), tuple(skipped), tuple(notes), params)

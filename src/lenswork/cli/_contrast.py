@@ -149,8 +149,9 @@ def _safe(label):
 @graph_build_options
 @click.option("--feature", "feature_labels", multiple=True, metavar="LABEL",
               help="A feature of the graph summary: kind:i (flare:2, loop:1, component:1, "
-              "branch:3, path:1; 1-based within its kind), a kind (every flare), or "
-              "nodes:3,5,7 (repeatable). Default: every feature.")
+              "branch:3, path:1, limb:1; 1-based within its kind), a kind (every flare), or "
+              "nodes:3,5,7 (repeatable). Default: the components and the "
+              "significant features.")
 @click.option("--rows", "row_ids", default=None, metavar="IDS",
               help="A set of rows to contrast, by id, comma-separated.")
 @click.option("--rows-file", type=click.Path(dir_okay=False), default=None,
@@ -172,7 +173,8 @@ def _safe(label):
 @click.option("--top", default=5, show_default=True, type=int,
               help="Columns printed and drawn per feature.")
 @click.option("--all-features", is_flag=True,
-              help="Print every feature tested, not only those with a significant column.")
+              help="Test every feature (small ones and paths too), not only the components and "
+              "the significant features, and print every feature tested.")
 @click.option("--color", default=None, metavar="COL[:STAT]",
               help="Also draw the whole graph coloured by a data column: COL, COL:median, "
               "COL:share=LEVEL (a categorical column's level).")
@@ -188,13 +190,16 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
     """Which data columns set each feature of the graph of TABLE (or --demo) apart.
 
     Builds the graph as `lenswork graph` does (same lens and cover options), then
-    for every loop, flare, branch, path and component (or the --feature / --rows
-    given) compares each data column between the feature's rows and the rest
+    for every component and significant loop, flare, limb and branch point (every
+    feature with --all-features; or the --feature / --rows given) compares each
+    data column between the feature's rows and the rest
     (or the neighbouring nodes' rows): Cliff's delta and the standardised mean
     difference with a Kolmogorov-Smirnov test for numeric columns, Cramér's V
     with a chi-square test for categorical ones, Benjamini-Hochberg q-values
-    over every test, and how each column changes along a flare or loop. Prints
-    the top columns of every feature with a significant one and writes to OUT:
+    over every test, and how each column changes along a flare or loop. A column
+    is starred when its q-value passes --alpha and its effect is at least small
+    (|Cliff's delta| >= 0.147, Romano et al. 2006; Cramér's V >= 0.1, Cohen 1988).
+    Prints the top columns of every feature with a starred one and writes to OUT:
     contrast.csv, contrast.json, and per such feature columns_<feature>.png
     (the graph coloured by each top column). Everything is computed before the
     first file is written.
@@ -221,7 +226,7 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
     result = contrast_columns(
         graph, ws, list(feature_labels) or None, rows=rows, against=against, hops=hops,
         columns=_names(columns), categorical=_names(categorical), lenses=table,
-        max_levels=max_levels, alpha=alpha,
+        max_levels=max_levels, alpha=alpha, all_features=all_features,
     )
     figures = {}
     if not no_figure:

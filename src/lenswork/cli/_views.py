@@ -159,15 +159,18 @@ def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_f
 def compare(cloud, seed, lenses, partition, match, out, no_figure, settings, neighbor_method):
     """Compare the Mapper graphs of two or more lenses over the same rows.
 
-    For every pair of views it prints the adjusted Rand index and the variation
-    of information of the row partitions the views induce (flagged trivial when
-    both are one block, as for any two connected graphs), the co-membership
-    agreement of row pairs (the pairs of rows sharing a node in one view and in
-    the other: a weighted adjusted Rand index and a pair Jaccard), and the features
-    (loops, flares, branch points, components) found in one view and not the
-    other. comparison.json holds all of it; correspondence_A_B.csv the node
-    correspondence M_a^T M_b (rows shared by each pair of nodes); comparison.png
-    draws the views side by side, each coloured by the other view's lens.
+    Each view is described by its significant structure first, its raw counts
+    after. For every pair of views it prints first the co-membership agreement
+    of row pairs (the pairs of rows sharing a node in one view and in the other:
+    a weighted adjusted Rand index and a pair Jaccard), then the adjusted Rand
+    index and the variation of information of the row partitions the views
+    induce (flagged trivial when both are one block, as for any two connected
+    graphs), the significant features (loops, flares, limbs, branch points,
+    components) found in one view and not the other, and the count of small
+    features found in one view only. comparison.json holds all of it;
+    correspondence_A_B.csv the node correspondence M_a^T M_b (rows shared by
+    each pair of nodes); comparison.png draws the views side by side, each
+    coloured by the other view's lens.
     """
     if len(lenses) < 2:
         raise click.UsageError("Give at least two --lens options: one per view.")

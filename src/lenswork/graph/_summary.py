@@ -260,9 +260,171 @@ class GraphSummary:
         return self.limbs if kind == "limb" else \
             tuple(f for f in self.features if f.kind == kind)
 
+    # ------------------------------------------------------------ presentation
+    @property
+    def thresholds(self):
+        """``{lens: significance threshold}`` of every lens (None without lens levels).
+
+        The share of a lens's range a feature must exceed to be significant
+        (:func:`~lenswork.graph._persistence.resolution_threshold`); None for a
+        lens whose threshold is infinite (one interval: nothing certified).
+        """
+        sig = _significance(self._graph) if self._graph is not None else None
+        if sig is None:
+            return None
+        return {name: (float(d.threshold) if math.isfinite(d.threshold) else None)
+                for name, d in zip(self._graph.lens_columns, sig.diagrams, strict=False)}
+
+    def needed(self, feature):
+        """The significance ``feature`` had to exceed to count (None when not judged).
+
+        A feature's significance is its largest over the lenses, and it is
+        significant when one lens certifies it; so the value shown is the
+        smallest lens threshold not below the feature's significance (for a
+        small feature, a bar it missed in every lens that could certify it),
+        else the smallest threshold. With one lens: that lens's threshold.
+        A ``threshold`` attribute of the feature, when set, is used as is.
+
+        Examples
+        --------
+        >>> from lenswork import build_graph
+        >>> t = np.linspace(0, 2 * np.pi, 500, endpoint=False)
+        >>> X = np.column_stack([np.cos(t), np.sin(t)])
+        >>> s = build_graph(X[:, 1], X, intervals=10, overlap=0.3).summary()
+        >>> loop = s.significant_features("loop")[0]
+        >>> s.needed(loop) == s.thresholds["lens"], loop.significance > s.needed(loop)
+        (True, True)
+        """
+        own = getattr(feature, "threshold", None)
+        if own is not None:
+            return float(own)
+        if feature.significance is None or not self.thresholds:
+            return None
+        bars = sorted(t for t in self.thresholds.values() if t is not None)
+        if not bars:
+            return None
+        return next((t for t in bars if t >= feature.significance), bars[0])
+
+    def significant_counts(self):
+        """The significant structure, in the order every output leads with it.
+
+        Returns
+        -------
+        dict or None
+            ``components`` (every component counts), ``loops`` (one lens) or
+            ``holes`` (several lenses: :attr:`significant_holes`, None when
+            not known), ``flares``, ``limbs`` and ``branch_points`` (the
+            significant ones of :attr:`significance`). None for a graph
+            without lens levels (a ball cover): nothing is judged.
+
+        Examples
+        --------
+        >>> from lenswork import build_graph
+        >>> t = np.linspace(0, 2 * np.pi, 500, endpoint=False)
+        >>> X = np.column_stack([np.cos(t), np.sin(t)])
+        >>> build_graph(X[:, 1], X).summary().significant_counts()
+        {'components': 1, 'loops': 1, 'flares': 0, 'limbs': 0, 'branch_points': 0}
+        """
+        sig = self.significance
+        if sig is None:
+            return None
+        out = {"components": self.n_components}
+        if self._graph is not None and len(self._graph.lens_columns) > 1:
+            out["holes"] = self.significant_holes
+        else:
+            out["loops"] = sig["loops"][0]
+        out["flares"] = sig["flares"][0]
+        out["limbs"] = sig["limbs"][0]
+        out["branch_points"] = sig["branch_points"][0]
+        return out
+
+    def headline(self, sep=", "):
+        """The significant counts in words: ``1 component, 1 loop, 2 flares, ...``.
+
+        What the summary's first line, a drawing's title and a comparison's
+        panels say, from :meth:`significant_counts`; for a graph without lens
+        levels, the raw counts, named as such.
+
+        Examples
+        --------
+        >>> from lenswork import build_graph
+        >>> t = np.linspace(0, 2 * np.pi, 500, endpoint=False)
+        >>> X = np.column_stack([np.cos(t), np.sin(t)])
+        >>> build_graph(X[:, 1], X).summary().headline(" · ")
+        '1 component · 1 loop · 0 flares · 0 limbs · 0 branch points'
+        """
+        counts = self.significant_counts()
+        if counts is None:
+            return sep.join([_count(self.n_components, "component"),
+                             _count(self.loops, "loop") + " (raw)",
+                             _count(len(self.branch_points), "branch point") + " (raw)",
+                             _count(self.n_flares, "flare") + " (raw)"])
+        return sep.join(_count(v, _WORDS[k]) for k, v in counts.items())
+
+    def raw_counts_text(self, sep=", "):
+        """The raw cycle and degree counts in words (noise included)."""
+        parts = [f"loops {self.loops} (b1 = E - V + C)"]
+        if self.holes != self.loops:
+            parts.append(f"holes {'not computed' if self.holes is None else self.holes} "
+                         f"(b1 with the nerve's triangles)")
+        parts += [f"branch points {len(self.branch_points)} (degree >= 3)",
+                  f"flares {self.n_flares} (leaf chains)"]
+        return sep.join(parts)
+
+    def labelled(self):
+        """``[(label, feature)]``: every feature and limb with its label ``kind:i``.
+
+        ``i`` counts from 1 within the kind, in the order of :attr:`features`
+        (then :attr:`limbs`); the labels ``lenswork contrast --feature`` takes
+        and the comparison reports.
+        """
+        seen, out = {}, []
+        for f in (*self.features, *self.limbs):
+            seen[f.kind] = seen.get(f.kind, 0) + 1
+            out.append((f"{f.kind}:{seen[f.kind]}", f))
+        return out
+
+    def tail_path(self, feature):
+        """The nodes of a flare or limb from its tip to where it joins the graph.
+
+        A flare: its chain, then the branch point it leads to. A limb is known
+        by its two end nodes (tip, join); its path is a shortest path between
+        them in the graph (unweighted breadth-first search, scipy). Other
+        kinds: their own nodes. What a drawing draws along and what
+        ``contrast`` takes as a limb's rows (the path without the join node).
+
+        Examples
+        --------
+        >>> import scipy.sparse as sp
+        >>> from lenswork.graph import LensGraph
+        >>> M = sp.csr_matrix(np.eye(4, dtype=int))
+        >>> g = LensGraph(M, [[0], [1], [2], [3]], [[0, 1], [1, 2], [1, 3]], [1, 1, 1],
+        ...               {"h": np.zeros((4, 3))}, lens_columns=["h"])
+        >>> s = g.summary()
+        >>> [s.tail_path(f) for f in s.flares]
+        [(0, 1), (2, 1), (3, 1)]
+        """
+        if feature.kind == "flare":
+            return tuple(feature.nodes) + (
+                () if feature.attached_to is None else (int(feature.attached_to),))
+        if feature.kind != "limb" or self._graph is None:
+            return tuple(feature.nodes)
+        from scipy.sparse.csgraph import shortest_path
+
+        tip, join = int(feature.nodes[0]), int(feature.nodes[-1])
+        _, pred = shortest_path(self._graph.adjacency(), directed=False, unweighted=True,
+                                indices=tip, return_predecessors=True)
+        path, v = [join], join
+        while v != tip and pred[v] >= 0:
+            v = int(pred[v])
+            path.append(v)
+        return tuple(reversed(path))
+
     def to_dict(self):
-        """JSON-ready form."""
+        """JSON-ready form: the significant counts first, then the raw counts and features."""
         return {
+            "significant_counts": self.significant_counts(),
+            "thresholds": self.thresholds,
             "n_rows": self.n_rows, "n_nodes": self.n_nodes, "n_edges": self.n_edges,
             "n_components": self.n_components, "loops": self.loops, "holes": self.holes,
             "branch_points": list(self.branch_points), "n_flares": self.n_flares,
@@ -271,67 +433,83 @@ class GraphSummary:
             "significant_holes": self.significant_holes,
             "significance": None if self.significance is None else {
                 k: {"significant": a, "small": b - a} for k, (a, b) in self.significance.items()},
-            "features": [f.to_dict() for f in self.features],
-            "limbs": [f.to_dict() for f in self.limbs],
+            "features": [self._feature_dict(lab, f) for lab, f in self.labelled()
+                         if f.kind != "limb"],
+            "limbs": [self._feature_dict(lab, f) for lab, f in self.labelled()
+                      if f.kind == "limb"],
         }
+
+    def _feature_dict(self, label, f):
+        return {"label": label, **f.to_dict(), "threshold": self.needed(f)}
 
     def record(self):
         """The counts, settings and features, the significant apart from the small ones.
 
         What the graph files carry (JSON ``"summary"``, the GraphML graph
-        attribute ``summary``): ``significant_features`` and ``small_features``
-        list loops, limbs, flares and branch points above and below the
-        resolution threshold; ``other_features`` the components and paths.
+        attribute ``summary``): ``significant_counts`` (what the summary's
+        first line says), ``thresholds`` (per lens), ``significant_features``
+        and ``small_features`` (loops, limbs, flares and branch points above
+        and below the threshold; each with its ``label`` and the ``threshold``
+        it had to exceed); ``other_features`` the components and paths.
         """
         doc = self.to_dict()
         feats = doc.pop("features") + doc.pop("limbs")
+        doc["headline"] = self.headline()
         doc["significant_features"] = [f for f in feats if f["significant"] is True]
         doc["small_features"] = [f for f in feats if f["significant"] is False]
         doc["other_features"] = [f for f in feats if f["significant"] is None]
         return doc
 
     def text(self, max_features=20):
-        """A few lines for a terminal."""
-        lines = [
-            f"graph: {self.n_nodes} nodes, {self.n_edges} edges over {self.n_rows:,} rows "
+        """A few lines for a terminal: the significant structure first, raw counts after.
+
+        Line 1: the significant counts (:meth:`headline`); line 2: the raw
+        cycle and degree counts, named as raw; then the graph's size, its
+        settings, the thresholds, the significant features and a few of the
+        small ones with the threshold each missed.
+        """
+        sig = self.significance
+        small = [f for f in self._all() if f.significant is False]
+        if sig is None:
+            lines = [f"structure (no lens levels, so no significance): {self.headline()}"]
+        else:
+            lines = [f"significant: {self.headline()}"
+                     + (f"  ({len(small)} small features below the threshold)" if small else "")]
+        lines += [
+            f"  raw cycle and degree counts (small features included): {self.raw_counts_text()}",
+            f"  graph: {self.n_nodes} nodes, {self.n_edges} edges over {self.n_rows:,} rows "
             f"({self.n_unassigned:,} in no node)",
-            f"  components {self.n_components}, loops {self.loops} (b1 = E - V + C), "
-            f"branch points {len(self.branch_points)}, flares {self.n_flares}",
         ]
         if self.settings:
             lines.append("  " + settings_text(self.settings))
-        if self.holes != self.loops:
-            holes = "not computed (nerve too large)" if self.holes is None else self.holes
-            lines.append(
-                f"  holes {holes} (b1 of the nerve with its triangles: most graph cycles of a "
-                f"multi-lens cover are filled triangles)"
-            )
         scales = (self._graph.params or {}).get("holes_over_scales") \
             if self._graph is not None else None
         if scales:
             shown = ", ".join(
                 f"{'x'.join(map(str, iv)) if isinstance(iv, (list, tuple)) else iv}: {h}"
                 for iv, h in zip(scales["intervals"], scales["holes"]))
-            sig = "unknown" if scales["significant"] is None else scales["significant"]
-            lines.append(f"  significant holes {sig}: present at every cover scale down to "
+            hs = "unknown" if scales["significant"] is None else scales["significant"]
+            lines.append(f"  significant holes {hs}: present at every cover scale down to "
                          f"half the intervals (intervals: holes  {shown})")
-        sig = self.significance
-        if sig is not None:
-            words = {"loops": "loops", "limbs": "branches (limbs)", "flares": "flares",
-                     "branch_points": "branch points"}
-            parts = [f"{words[k]} {a}" + (f" (+{b - a} small)" if b > a else "")
-                     for k, (a, b) in sig.items()]
-            lines.append("  significant: " + ", ".join(parts))
+        bars = self.thresholds
+        if bars:
+            shown = ", ".join(f"{k} {'none (one interval)' if v is None else f'{v:.2f}'}"
+                              for k, v in bars.items())
+            lines.append(f"  threshold (share of the lens range a feature must span): {shown}")
+        names = {id(f): lab for lab, f in self.labelled()}
         listed = [f for f in self._all() if f.significant is not False]
-        small = [f for f in self._all() if f.significant is False]
         for f in listed[:max_features]:
-            lines.append(_feature_line(f))
+            lines.append(_feature_line(f, self.needed(f), names.get(id(f))))
         if len(listed) > max_features:
             lines.append(f"  ... {len(listed) - max_features} more features")
         if small:
+            kinds = {}
+            for f in small:
+                kinds[f.kind] = kinds.get(f.kind, 0) + 1
+            counted = ", ".join(f"{_KIND_WORDS[k]} {n}" for k, n in kinds.items())
             shown = sorted(small, key=lambda f: -f.significance)[:max(0, max_features // 4)]
-            lines.append(f"  small features (below the resolution threshold): {len(small)}")
-            lines.extend(_feature_line(f) for f in shown)
+            lines.append(f"  small features (below the threshold): {len(small)} ({counted})")
+            lines.extend(_feature_line(f, self.needed(f), names.get(id(f))) for f in shown)
             if len(small) > len(shown):
                 lines.append(f"  ... {len(small) - len(shown)} more small features")
         return "\n".join(lines)
@@ -340,14 +518,32 @@ class GraphSummary:
         return self.text()
 
 
-def _feature_line(f):
+#: Words of the significant counts (singular; ``_count`` adds the plural).
+_WORDS = {"components": "component", "loops": "loop", "holes": "hole", "flares": "flare",
+          "limbs": "limb", "branch_points": "branch point"}
+#: Words of the feature kinds in the small-feature count.
+_KIND_WORDS = {"loop": "loops", "limb": "limbs", "flare": "flares", "branch": "branch points"}
+
+
+def _count(n, word):
+    if n is None:
+        return f"{word}s unknown"
+    return f"{n} {word}{'' if n == 1 else 's'}"
+
+
+def _feature_line(f, needed=None, label=None):
     spans = ", ".join(f"{k} {a:.4g}..{b:.4g}" for k, (a, b) in f.lens_range.items())
     extra = f" -> node {f.attached_to}" if f.attached_to is not None else ""
     shown = f.nodes if len(f.nodes) <= 8 else (*f.nodes[:8], "...")
     node_text = ",".join(str(x) for x in shown)
-    sig = "" if f.significance is None else f"  significance {f.significance:.2f}"
-    return (f"  {f.kind:<9} {len(f.nodes):>4} nodes {f.rows:>8,} rows  {spans}{extra}{sig}  "
-            f"[{node_text}]")
+    sig = ""
+    if f.significance is not None:
+        sig = f"  significance {f.significance:.2f}"
+        if f.significant is False and needed is not None:
+            sig += (f" < {needed:.2f} needed" if f"{f.significance:.2f}" != f"{needed:.2f}"
+                    else f" (needs more than {needed:.3f})")
+    return (f"  {label or f.kind:<12} {len(f.nodes):>4} nodes {f.rows:>8,} rows  "
+            f"{spans}{extra}{sig}  [{node_text}]")
 
 
 def cover_settings(graph):

@@ -163,10 +163,11 @@ def graph_html(graph, **kwargs):
     Returns
     -------
     str
-        A ``<div>`` with a ``<table>`` (rows, nodes, edges, rows in no node,
-        components, loops, holes where they differ, branch points, flares,
-        lens and data columns) and, up to :data:`DRAW_MAX_NODES` nodes, the
-        ``<svg>`` drawing.
+        A ``<div>`` with a ``<table>`` (the significant counts first, then
+        rows, nodes, edges, rows in no node, components, raw loops, holes
+        where they differ, raw branch points and flares, lens and data
+        columns) and, up to :data:`DRAW_MAX_NODES` nodes, the ``<svg>``
+        drawing.
 
     Examples
     --------
@@ -176,22 +177,23 @@ def graph_html(graph, **kwargs):
     ...               {"h": np.array([[0.0, 0, 0], [1.0, 1, 1]])}, lens_columns=["h"])
     >>> text = graph_html(g)
     >>> text.count("<tr>"), text.count("<circle")
-    (10, 2)
+    (11, 2)
     """
     s = graph.summary()
     rows = [
+        ("significant" if s.significance is not None else "no significance", s.headline()),
         ("rows", f"{int(graph.n_rows):,}"),
         ("nodes", f"{int(graph.n_nodes):,}"),
         ("edges", f"{int(graph.n_edges):,}"),
         ("rows in no node", f"{int(s.n_unassigned):,}"),
         ("components", str(s.n_components)),
-        ("loops (E - V + C)", str(s.loops)),
+        ("loops (raw, E - V + C)", str(s.loops)),
     ]
     if s.holes != s.loops:
         rows.append(("holes (nerve b1)", "not computed" if s.holes is None else str(s.holes)))
     rows += [
-        ("branch points", str(len(s.branch_points))),
-        ("flares", str(s.n_flares)),
+        ("branch points (raw, degree >= 3)", str(len(s.branch_points))),
+        ("flares (raw)", str(s.n_flares)),
         ("lens columns", ", ".join(graph.lens_columns) or "-"),
         ("data columns", ", ".join(graph.data_columns) or "-"),
     ]

@@ -19,10 +19,14 @@ JSON
     "edges": [{"source", "target", "shared", "jaccard"}], "membership": [rows of
     node 0, rows of node 1, ...], "unassigned", "fragments", "params",
     "provenance", "summary"}``; rows are 0-based positions, ``row_ids[row]`` is
-    the id. ``summary`` (:meth:`GraphSummary.record`) is written for readers:
-    the counts, the resolved settings and the features with their significance,
-    the significant ones apart from the small ones; reading ignores it (the
-    graph recomputes its summary).
+    the id. ``summary`` (:meth:`GraphSummary.record`) is written for readers,
+    the same record as GraphML's ``summary``: first ``significant_counts`` and
+    ``headline`` (what the printed summary's first line and the drawing's
+    title say) and ``thresholds`` (per lens, the share of its range a feature
+    must span); then the raw counts, the resolved settings, and the features
+    with their ``label``, significance and the ``threshold`` each had to
+    exceed, the ``significant_features`` apart from the ``small_features``.
+    Reading ignores it (the graph recomputes its summary).
     :func:`read_graph_json` gives back an equal LensGraph.
 CSV
     Header ``<id column>,node``; one line per (row, node) membership in row

@@ -90,7 +90,7 @@ def column_multiples(graph, data, columns, *, stat="mean", levels=None, highligh
         for i, (ax, c) in enumerate(zip(axes.ravel(), columns)):
             vals, label = values[c]
             draw_graph(graph, ax=ax, color=label, values=vals, layout=pos, highlight=highlight,
-                       branches=False, counts=False, node_scale=0.55, title=c,
+                       features=False, counts=False, node_scale=0.55, title=c,
                        random_state=random_state)
             if i % ncols:
                 ax.set_ylabel("")

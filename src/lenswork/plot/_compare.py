@@ -68,10 +68,14 @@ def _draw_view(ax, cmp, view, by):
     s = cmp.summaries[view]
     ax.set_title(f"{_short(cmp.names[view])}: coloured by {_short(cmp.names[by], 22)}",
                  loc="left")
-    ax.text(0.0, -0.04,
-            f"{s.n_nodes} nodes \u00b7 {s.n_components} comp. \u00b7 {s.loops} loops \u00b7 "
-            f"{len(s.branch_points)} branch pts \u00b7 {s.n_flares} flares",
-            transform=ax.transAxes, fontsize=7, color=MUTED, va="top")
+    word = "significant" if s.significance is not None else "no significance"
+    dot = " \u00b7 "
+    ax.text(0.0, -0.04, f"{word}: {s.headline(dot)}", transform=ax.transAxes,
+            fontsize=6.5, color=INK, va="top")
+    ax.text(0.0, -0.10,
+            f"raw: {s.n_nodes} nodes \u00b7 {s.loops} cycles (b1) \u00b7 "
+            f"{len(s.branch_points)} of degree \u2265 3 \u00b7 {s.n_flares} leaf chains",
+            transform=ax.transAxes, fontsize=6.5, color=MUTED, va="top")
     ax.set_xticks([])
     ax.set_yticks([])
     for spine in ax.spines.values():
@@ -120,21 +124,25 @@ def comparison_figure(cmp):
         _draw_correspondence(fig, fig.add_subplot(grid[0, V + 2]),
                              fig.add_subplot(grid[0, V + 3]), cmp)
         p = cmp.pairs[0]
-        trivial = " (trivial: one block each)" if p.get("trivial") else ""
-        co = (f"  \u00b7  co-membership ARI {p['co_ari']:.2f}, pair Jaccard "
-              f"{p['co_jaccard']:.2f}") if "co_ari" in p else ""
+        co_trivial = " (trivial)" if p.get("co_trivial") else ""
         fig.suptitle(
-            f"{_short(p['a'], 30)} vs {_short(p['b'], 30)}:  ARI {p['ari']:.2f}  \u00b7  "
-            f"VI {p['vi']:.2f} nats  ({cmp.partition} partition{trivial}, "
-            f"{p['rows_compared']:,} rows){co}",
+            f"{_short(p['a'], 30)} vs {_short(p['b'], 30)}:  co-membership ARI "
+            f"{p['co_ari']:.2f}  \u00b7  pair Jaccard {p['co_jaccard']:.2f}{co_trivial}  "
+            f"({p['co_rows']:,} rows)",
             x=0.01, ha="left", fontsize=10, fontweight="bold", color=INK)
-        only = [f"{f['kind']} only in {p['a']}" for f in p["only_a"]]
-        only += [f"{f['kind']} only in {p['b']}" for f in p["only_b"]]
+        trivial = ", trivial: one block each" if p.get("trivial") else ""
+        fig.text(0.01, 0.925,
+                 f"{cmp.partition} partition: ARI {p['ari']:.2f} \u00b7 VI {p['vi']:.2f} nats "
+                 f"({p['rows_compared']:,} rows{trivial})", fontsize=7.5, color=MUTED, ha="left")
+        only = [f"{f['label']} only in {_short(p['a'], 24)}" for f in p["only_a"]]
+        only += [f"{f['label']} only in {_short(p['b'], 24)}" for f in p["only_b"]]
         if len(only) > 6:
             only = [*only[:6], f"{len(only) - 6} more"]
-        fig.text(0.01, 0.905, "; ".join(only) if only else
-                 "every feature of each view has a match in the other",
-                 fontsize=7.5, color=ACCENT if only else MUTED, ha="left")
+        small = (f"  (small features in one view only, not listed: {p['small_only_a']} / "
+                 f"{p['small_only_b']})")
+        fig.text(0.01, 0.885, ("significant: " + "; ".join(only) if only else
+                               "every significant feature of each view has a match in the other")
+                 + small, fontsize=7.5, color=ACCENT if only else MUTED, ha="left")
     return fig
 
 

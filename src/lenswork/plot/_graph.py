@@ -18,7 +18,7 @@ _NODE_AREA_SPAN = 340.0
 
 
 def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=None, title=None,
-               node_scale=1.0, labels=False, branches=True, random_state=0, data=None,
+               node_scale=1.0, labels=False, features=True, random_state=0, data=None,
                level=None, values=None, highlight=None, counts=True):
     """Draw a LensGraph in the house style; PNG or SVG by the file ending.
 
@@ -45,8 +45,13 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
         Multiplies every node area (area is proportional to the member count).
     labels : bool, default=False
         Write node ids beside the nodes.
-    branches : bool, default=True
-        Ring branch points (degree >= 3) in the accent colour.
+    features : bool, default=True
+        Mark the significant features of the graph summary, and only those
+        (small features stay unmarked): the edges of a significant loop drawn
+        over in the accent colour; the edges of a significant flare (up to its
+        branch point) or limb (tip to join, a shortest path) in the second
+        accent, its tip ringed; a significant branch point ringed in the
+        accent. Each is labelled as the summary labels it (``flare:2``).
     random_state : int, default=0
         Passed to the layout.
     data : PointCloud or Workspace, optional
@@ -60,7 +65,9 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
     highlight : sequence of int, optional
         Nodes to ring in the second accent colour (a feature's nodes).
     counts : bool, default=True
-        Write the node, edge, loop and flare counts under the title.
+        Title the figure with the significant counts (the summary's first
+        line, :meth:`GraphSummary.headline`) and write the raw cycle and
+        degree counts under it.
 
     Returns
     -------
@@ -136,17 +143,9 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
         if hl.size:
             ax.scatter(pos[hl, 0], pos[hl, 1], s=area[hl] * 2.4, facecolors="none",
                        edgecolors=ACCENT_2, linewidths=1.6, zorder=3)
-        if branches:
-            bp = np.flatnonzero(graph.degrees >= 3)
-            if bp.size:
-                from matplotlib.lines import Line2D
-
-                ax.scatter(pos[bp, 0], pos[bp, 1], s=area[bp] * 1.9, facecolors="none",
-                           edgecolors=ACCENT, linewidths=1.4, zorder=3)
-                key = Line2D([], [], linestyle="none", marker="o", markersize=7,
-                             markerfacecolor="none", markeredgecolor=ACCENT, markeredgewidth=1.4)
-                ax.legend([key], ["branch point (degree ≥ 3)"], loc="best", handletextpad=0.3,
-                          borderaxespad=0.2)
+        summary = graph.summary()
+        if features:
+            _mark_significant(ax, summary, pos, area)
         if labels:
             for a in range(graph.n_nodes):
                 ax.annotate(str(a), pos[a], xytext=(4, 3), textcoords="offset points",
@@ -157,19 +156,21 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
         ax.margins(0.08)
         ax.autoscale_view()
         _axes_for(ax, graph, method)
-        show_counts = counts
-        summary = graph.summary()
-        counts = " · ".join([
-            _count(summary.n_nodes, "node"), _count(summary.n_edges, "edge"),
-            _count(summary.n_components, "component"), _count(summary.loops, "loop"),
-            _count(len(summary.branch_points), "branch point"), _count(summary.n_flares, "flare"),
-            f"{summary.n_unassigned:,} rows in no node",
-        ])
-        ax.set_title(title or f"Mapper graph of {', '.join(graph.lens_columns)}", loc="left",
-                     pad=16 if show_counts else 6)
-        if show_counts:
-            ax.text(0.0, 1.012, counts, transform=ax.transAxes, ha="left", va="bottom",
+        name = title or f"Mapper graph of {', '.join(graph.lens_columns)}"
+        if counts:
+            word = "significant" if summary.significance is not None else "no significance"
+            ax.set_title(f"{name}\n{word}: {summary.headline(' · ')}", loc="left", pad=16)
+            raw = " · ".join([
+                _count(summary.n_nodes, "node"), _count(summary.n_edges, "edge"),
+                f"raw: {_count(summary.loops, 'cycle')} (b1)",
+                f"{_count(len(summary.branch_points), 'node')} of degree ≥ 3",
+                _count(summary.n_flares, "leaf chain"),
+                f"{summary.n_unassigned:,} rows in no node",
+            ])
+            ax.text(0.0, 1.012, raw, transform=ax.transAxes, ha="left", va="bottom",
                     fontsize=7, color=MUTED)
+        else:
+            ax.set_title(name, loc="left", pad=6)
         ax.set_facecolor(PAPER)
     if path is not None:
         return save(fig, Path(path))
@@ -201,6 +202,52 @@ def _colour_values(graph, color, stat, data, level, values):
         )
     values = graph.node_values(color, stat)
     return values, (f"{color}" if color == "size" else f"{color} (node {stat})"), color
+
+
+def _mark_significant(ax, summary, pos, area):
+    """Outline the significant loops, ring the tails and branch points, label each (legend)."""
+    from matplotlib.collections import LineCollection
+    from matplotlib.lines import Line2D
+
+    keys, names = [], []
+    labelled = [(lab, f) for lab, f in summary.labelled() if f.significant]
+    loops = [f for _, f in labelled if f.kind == "loop"]
+    if loops:
+        seg = [pos[[f.nodes[i], f.nodes[(i + 1) % len(f.nodes)]]]
+               for f in loops for i in range(len(f.nodes))]
+        ax.add_collection(LineCollection(seg, colors=ACCENT, linewidths=4.5, alpha=0.55,
+                                         zorder=1.5, capstyle="round"))
+        keys.append(Line2D([], [], color=ACCENT, linewidth=4.5, alpha=0.55))
+        names.append("significant loop")
+    tails = [(lab, f) for lab, f in labelled if f.kind in ("flare", "limb")]
+    if tails:
+        paths = [summary.tail_path(f) for _, f in tails]
+        seg = [pos[[a, b]] for p in paths for a, b in zip(p[:-1], p[1:], strict=True)]
+        ax.add_collection(LineCollection(seg, colors=ACCENT_2, linewidths=4.5, alpha=0.45,
+                                         zorder=1.5, capstyle="round"))
+        ring = np.unique([f.nodes[0] for _, f in tails])
+        ax.scatter(pos[ring, 0], pos[ring, 1], s=area[ring] * 2.4, facecolors="none",
+                   edgecolors=ACCENT_2, linewidths=1.6, zorder=3)
+        keys.append(Line2D([], [], color=ACCENT_2, linewidth=4.5, alpha=0.6, marker="o",
+                           markersize=8, markerfacecolor="none", markeredgecolor=ACCENT_2,
+                           markeredgewidth=1.6))
+        names.append("significant flare / limb (tip ringed)")
+    bps = [f.nodes[0] for _, f in labelled if f.kind == "branch"]
+    if bps:
+        ax.scatter(pos[bps, 0], pos[bps, 1], s=area[bps] * 1.9, facecolors="none",
+                   edgecolors=ACCENT, linewidths=1.4, zorder=3)
+        keys.append(Line2D([], [], linestyle="none", marker="o", markersize=7,
+                           markerfacecolor="none", markeredgecolor=ACCENT, markeredgewidth=1.4))
+        names.append("significant branch point")
+    stacked = {}  # labels at one node are stacked, not overprinted
+    for lab, f in labelled:
+        at = f.nodes[0] if f.kind != "loop" else f.nodes[int(np.argmax(pos[list(f.nodes), 1]))]
+        k = stacked[at] = stacked.get(at, -1) + 1
+        ax.annotate(lab, pos[at], xytext=(6, 5 + 9 * k), textcoords="offset points", fontsize=7,
+                    color=ACCENT_2 if f.kind in ("flare", "limb") else ACCENT, zorder=5,
+                    fontweight="bold")
+    if keys:
+        ax.legend(keys, names, loc="best", handletextpad=0.3, borderaxespad=0.2, fontsize=7)
 
 
 def _count(n, word):
