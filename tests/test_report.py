@@ -247,3 +247,27 @@ def test_cli_from_screen_and_graph_folders(tmp_path, demo_graph):
 def _mkdir(path):
     path.mkdir(parents=True, exist_ok=True)
     return path
+
+
+def test_contrast_sample_keeps_nodes_and_estimates_delta(demo_graph):
+    """Above contrast_rows the contrasts use a seeded sample; deltas stay near the full ones."""
+    ws, graph = demo_graph
+    full = report_data(graph, ws)
+    part = report_data(graph, ws, contrast_rows=1000)
+    assert part["contrast"]["sampled"] and not full["contrast"]["sampled"]
+    assert 1000 <= part["contrast"]["rows"] < graph.n_rows
+    from lenswork.report import contrast_sample
+
+    sub, sub_cloud, rows = contrast_sample(graph, ws.cloud, 1000, random_state=0)
+    held = np.asarray(graph.membership[rows].sum(axis=0)).ravel()
+    assert np.all(held >= np.minimum(50, graph.node_sizes))  # small nodes kept whole
+    np.testing.assert_array_equal(sub_cloud.ids, ws.cloud.ids[rows])
+    # the sample's Cliff's delta of a column against its full-data value: the standard error
+    # of delta is at most about 1 / sqrt(min(n1, n2)) (Cliff 1993); allow 4 of them
+    v = int(np.argmax(graph.node_sizes))
+    by_col = {r["column"]: r for r in full["node_contrast"][v]}
+    n1 = int(held[v])
+    for r in part["node_contrast"][v]:
+        if r["column"] in by_col and r["type"] == "numeric":
+            assert abs(r["delta"] - by_col[r["column"]]["delta"]) < 4 / np.sqrt(n1)
+    assert report_data(graph, ws, contrast_rows=None)["contrast"] == full["contrast"]

@@ -9,11 +9,11 @@ import click
 from .. import _progress
 from .._errors import InputError
 from ..graph import LAYOUTS, build_graph
-from ..report import write_report
+from ..report import CONTRAST_ROWS, write_report
 from ..screen import screen
 from ..table import LensTable
 from ..workspace import Workspace
-from ._common import graph_options, input_options
+from ._common import graph_options, input_options, number_list
 
 __all__ = ["COMMANDS"]
 
@@ -49,9 +49,13 @@ def _screen_lenses(folder, cloud):
 @click.option("--layout", type=click.Choice(LAYOUTS), default="auto", show_default=True,
               help="Node layout: auto = levels for one lens, lens coordinates for two, spring "
               "above.")
+@click.option("--contrast-rows", default=str(CONTRAST_ROWS), show_default=True,
+              metavar="N|all", help="Above N rows the node and feature contrasts use a seeded "
+              "sample of N rows (every row of a node the sample holds little of is added); "
+              "all: every row (slow above 1e5 rows: O(rows) per node and column).")
 @graph_options()
-def report_command(cloud, seed, screen_dir, graph_path, out_file, title, top, layout, settings,
-                   neighbor_method):
+def report_command(cloud, seed, screen_dir, graph_path, out_file, title, top, layout,
+                   contrast_rows, settings, neighbor_method):
     """Write one self-contained HTML page to explore TABLE's screen and graph in a browser.
 
     The page holds the screen's ranking (a sortable table with every reason,
@@ -68,6 +72,8 @@ def report_command(cloud, seed, screen_dir, graph_path, out_file, title, top, la
     below apply). With neither, the screen and the graph are computed here:
     `lenswork report --demo` makes the demo's page in one step.
     """
+    contrast_rows = None if contrast_rows.strip().lower() == "all" else \
+        number_list(contrast_rows, int, "--contrast-rows")
     ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
     screen_source = screen_dir
     if graph_path is not None:
@@ -83,7 +89,7 @@ def report_command(cloud, seed, screen_dir, graph_path, out_file, title, top, la
         graph = build_graph(lenses, ws, settings)
         click.echo(graph.summary().text(max_features=6))
     path = write_report(out_file, graph, ws, screen=screen_source, title=title, top=top,
-                        layout=layout, random_state=seed)
+                        layout=layout, random_state=seed, contrast_rows=contrast_rows)
     size = path.stat().st_size
     click.echo(f"wrote {path} ({size / 1e6:.2f} MB): open it in a browser")
 

@@ -10,16 +10,29 @@ report_data
     The JSON document the page carries (node-level data; DEVELOPERS.md, "The report page").
 encode_members, decode_members
     The compact member encoding (delta-coded row positions, LEB128, base64).
+contrast_sample
+    The rows the page's contrasts use above 100,000 rows (a seeded sample).
 read_screen
     A screen result, document or folder as the page needs it.
 """
 
-from ._data import FORMAT, FORMAT_VERSION, decode_members, encode_members, read_screen, report_data
+from ._data import (
+    CONTRAST_ROWS,
+    FORMAT,
+    FORMAT_VERSION,
+    contrast_sample,
+    decode_members,
+    encode_members,
+    read_screen,
+    report_data,
+)
 from ._page import report_html, write_report
 
 __all__ = [
+    "CONTRAST_ROWS",
     "FORMAT",
     "FORMAT_VERSION",
+    "contrast_sample",
     "decode_members",
     "encode_members",
     "read_screen",

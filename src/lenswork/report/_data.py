@@ -15,6 +15,7 @@ per membership when nodes hold more than 1/128 of the rows.
 from __future__ import annotations
 
 import base64
+import dataclasses
 import json
 import math
 import re
@@ -28,11 +29,13 @@ from .._validation import check_int
 from .._version import __version__
 from ..contrast import contrast_columns, node_column_values
 from ..data import PointCloud
-from ..graph import LensGraph, graph_layout, read_graph_json
+from ..graph import LensGraph, auto_layout, graph_layout, read_graph_json
 
 __all__ = [
+    "CONTRAST_ROWS",
     "FORMAT",
     "FORMAT_VERSION",
+    "contrast_sample",
     "decode_members",
     "encode_members",
     "read_screen",
@@ -46,6 +49,12 @@ MAX_LEVELS = 30
 #: Largest total length (characters) of row ids written into the page when they follow no
 #: pattern; above it the page lists row positions only (and says so).
 MAX_ID_TEXT = 1_500_000
+#: Above this many rows the node and feature contrasts are computed on a seeded sample of this
+#: many rows (the contrast's cost is O(n) per node and column: 170 s for 89 nodes x 21 columns
+#: at 1e6 rows, measured by bench_report.py), every row of a node kept when the sample holds
+#: fewer than MIN_NODE_ROWS of it.
+CONTRAST_ROWS = 100_000
+MIN_NODE_ROWS = 50
 #: Screen ranking fields shown in the page's table, in order.
 SCREEN_FIELDS = ("rank", "column", "merit", "robust_spread", "smoothness", "structure",
                  "significant_loops", "significant_branches", "preservation", "gain")
@@ -290,12 +299,9 @@ def _columns_part(graph, cloud, units):
     out = []
     for name in cloud.feature_names:
         mean, _ = node_column_values(graph, cloud, name, "mean")
-        lo, _ = node_column_values(graph, cloud, name, "min")
-        hi, _ = node_column_values(graph, cloud, name, "max")
         c, s = units.get(name, (0.0, 1.0))
         out.append({"name": name, "role": "feature", "type": "numeric",
-                    "mean": _round(c + s * mean), "min": _round(c + s * lo),
-                    "max": _round(c + s * hi)})
+                    "mean": _round(c + s * mean)})
     for name in (str(k) for k in cloud.passthrough):
         if name == cloud.id_name:
             continue
@@ -332,9 +338,57 @@ def _contrast_row(r, units):
             for k, v in row.items()}
 
 
-def _contrasts(graph, cloud, features, units, top, alpha):
+def contrast_sample(graph, cloud, max_rows=CONTRAST_ROWS, random_state=0):
+    """The graph and rows the page's contrasts use: all of them, or a seeded sample.
+
+    Above ``max_rows`` rows, ``max_rows`` rows drawn without replacement (seeded),
+    plus every row of a node of which the sample holds fewer than
+    ``MIN_NODE_ROWS``; the graph keeps its nodes and edges, with the sampled rows'
+    memberships.
+
+    Returns
+    -------
+    (LensGraph, PointCloud, ndarray of int or None)
+        The rows kept (positions), or None when every row is used.
+
+    Examples
+    --------
+    >>> from lenswork import PointCloud, build_graph
+    >>> rng = np.random.default_rng(0)
+    >>> X = rng.normal(size=(2000, 2))
+    >>> cloud = PointCloud.from_array(X, feature_names=["a", "b"])
+    >>> g = build_graph(X[:, 0], cloud, intervals=4)
+    >>> sub, sub_cloud, rows = contrast_sample(g, cloud, max_rows=500)
+    >>> sub.n_nodes == g.n_nodes, sub.n_rows == sub_cloud.n == rows.size >= 500
+    (True, True)
+    """
+    n = graph.n_rows
+    if max_rows is None or n <= max_rows:
+        return graph, cloud, None
+    rng = np.random.default_rng(random_state)
+    keep = np.zeros(n, dtype=bool)
+    keep[rng.choice(n, size=int(max_rows), replace=False)] = True
+    csc = graph.membership.tocsc()
+    held = np.asarray(csc[keep].sum(axis=0)).ravel()
+    for v in np.flatnonzero(held < np.minimum(MIN_NODE_ROWS, graph.node_sizes)):
+        keep[csc.indices[csc.indptr[v]:csc.indptr[v + 1]]] = True
+    rows = np.flatnonzero(keep)
+    sub = LensGraph(graph.membership[rows], graph.node_elements, graph.edge_index,
+                    graph.edge_shared, graph.node_stats, lens_columns=graph.lens_columns,
+                    data_columns=graph.data_columns, row_ids=graph.row_ids[rows],
+                    id_name=graph.id_name, params=graph.params, provenance=graph.provenance,
+                    fragments=graph.fragments, node_levels=graph.node_levels)
+    sub_cloud = dataclasses.replace(
+        cloud, X=np.ascontiguousarray(cloud.X[rows]), ids=cloud.ids[rows],
+        passthrough={k: np.asarray(v)[rows] for k, v in cloud.passthrough.items()},
+        row_numbers=np.asarray(cloud.row_numbers)[rows])
+    return sub, sub_cloud, rows
+
+
+def _contrasts(graph, cloud, features, units, top, alpha, max_rows, random_state):
     """Node and feature contrasts in one call (one Benjamini-Hochberg family)."""
     V = graph.n_nodes
+    graph, cloud, kept = contrast_sample(graph, cloud, max_rows, random_state)
     sizes = graph.node_sizes
     labels = {}
     for v in range(V):
@@ -353,6 +407,7 @@ def _contrasts(graph, cloud, features, units, top, alpha):
     per_feature = {lab: [_contrast_row(r, units) for r in rows] for lab, rows in tables.items()}
     params = {"against": "rest", "alpha": alpha, "family": res.params.get("family"),
               "correction": res.params.get("correction"), "top": top,
+              "rows": int(graph.n_rows), "sampled": kept is not None,
               "skipped": [dict(s) for s in res.skipped if s.get("column")][:20]}
     return per_node, per_feature, params
 
@@ -364,7 +419,7 @@ def _members_part(graph):
 
 
 def report_data(graph, data=None, *, screen=None, title=None, top=6, alpha=0.05,
-                layout="auto", random_state=0):
+                layout="auto", random_state=0, contrast_rows=CONTRAST_ROWS):
     """The JSON document a report page carries (see DEVELOPERS.md, "The report page").
 
     Parameters
@@ -385,6 +440,10 @@ def report_data(graph, data=None, *, screen=None, title=None, top=6, alpha=0.05,
     layout : str, default="auto"
         Node layout (:func:`lenswork.graph.graph_layout`).
     random_state : int, default=0
+        Seed of the layout and of the contrasts' row sample.
+    contrast_rows : int or None, default=100_000
+        Above this many rows the contrasts use a seeded sample
+        (:func:`contrast_sample`; the page says so); None: every row.
 
     Returns
     -------
@@ -402,6 +461,8 @@ def report_data(graph, data=None, *, screen=None, title=None, top=6, alpha=0.05,
     ('lenswork-report', True)
     """
     top = check_int("top", top, lo=1, context="report_data")
+    if contrast_rows is not None:
+        contrast_rows = check_int("contrast_rows", contrast_rows, lo=100, context="report_data")
     graph = _as_graph(graph)
     cloud = _cloud(data, graph)
     pos = graph_layout(graph, layout, random_state=random_state) if graph.n_nodes else \
@@ -424,7 +485,9 @@ def report_data(graph, data=None, *, screen=None, title=None, top=6, alpha=0.05,
         "n_rows": graph.n_rows, "n_nodes": graph.n_nodes, "n_edges": graph.n_edges,
         "id_name": graph.id_name, "ids": id_encoding(graph.row_ids),
         "lens_columns": list(graph.lens_columns),
-        "layout": {"method": layout, "x": _round(pos[:, 0]), "y": _round(pos[:, 1])},
+        "layout": {"method": auto_layout(len(graph.lens_columns), graph.n_nodes)
+                   if layout == "auto" else layout, "x": _round(pos[:, 0]),
+                   "y": _round(pos[:, 1])},
         "size": graph.node_sizes.tolist(), "lens": lens,
         "edges": {"source": graph.edge_index[:, 0].tolist(),
                   "target": graph.edge_index[:, 1].tolist(),
@@ -440,8 +503,8 @@ def report_data(graph, data=None, *, screen=None, title=None, top=6, alpha=0.05,
     if cloud is not None:
         units, scaling = _units(cloud)
         columns = _columns_part(graph, cloud, units)
-        per_node, per_feature, contrast_params = _contrasts(graph, cloud, features, units, top,
-                                                            alpha)
+        per_node, per_feature, contrast_params = _contrasts(
+            graph, cloud, features, units, top, alpha, contrast_rows, random_state)
         for f in features:
             key = "nodes:" + ",".join(map(str, sorted(set(f["nodes"]))))
             f["contrast"] = per_feature.get(key, [])

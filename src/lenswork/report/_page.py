@@ -16,7 +16,7 @@ from pathlib import Path
 from .. import _progress
 from .._io import write_text
 from .._json import dumps
-from ._data import report_data
+from ._data import CONTRAST_ROWS, report_data
 
 __all__ = ["report_html", "write_report"]
 
@@ -70,7 +70,7 @@ def report_html(doc):
 
 
 def write_report(path, graph, data=None, *, screen=None, title=None, top=6, alpha=0.05,
-                 layout="auto", random_state=0):
+                 layout="auto", random_state=0, contrast_rows=CONTRAST_ROWS):
     """Write a self-contained HTML report of a graph (and a screen) to ``path``.
 
     The page shows the screen's ranking (a sortable table with every reason,
@@ -85,7 +85,7 @@ def write_report(path, graph, data=None, *, screen=None, title=None, top=6, alph
     ----------
     path : str or Path
         The HTML file to write (its folder is created if missing).
-    graph, data, screen, title, top, alpha, layout, random_state
+    graph, data, screen, title, top, alpha, layout, random_state, contrast_rows
         As for :func:`report_data`.
 
     Returns
@@ -108,7 +108,8 @@ def write_report(path, graph, data=None, *, screen=None, title=None, top=6, alph
     """
     with _progress.step("report: node data and contrasts"):
         doc = report_data(graph, data, screen=screen, title=title, top=top, alpha=alpha,
-                          layout=layout, random_state=random_state)
+                          layout=layout, random_state=random_state,
+                          contrast_rows=contrast_rows)
     with _progress.step("report: writing the page"):
         path = Path(path)
         write_text(path, report_html(doc))

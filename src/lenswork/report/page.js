@@ -38,7 +38,7 @@
   }
   function fmtQ(q) {
     if (q === null || q === undefined) return "–";
-    if (q === 0) return "< 1e-300";
+    if (q === 0) return "<1e-300";
     return q < 1e-3 ? q.toExponential(0) : q.toFixed(3);
   }
   function pct(v) { return v === null || v === undefined ? "–" : (100 * v).toFixed(0) + "%"; }
@@ -245,7 +245,7 @@
     showNode(v, focusPanel);
   }
   function contrastTable(rows, caption) {
-    return table(["column", "δ or V", "rows", "rest", "q"], rows.map(function (r) {
+    return table(["column", "δ / V", "rows", "rest", "q"], rows.map(function (r) {
       var name = el("span", {}, [r.column]);
       if (r.significant) name.appendChild(el("span", { "class": "sig", title: "q at or below the false discovery rate" }, [" *"]));
       if (r.type === "numeric") {
@@ -253,6 +253,10 @@
       }
       return [name, fmt(r.effect, 2), r.level + " " + pct(r.share_in), pct(r.share_out), fmtQ(r.q)];
     }), { text: [0], caption: caption, attrs: { "class": "contrast" } });
+  }
+  function sampleNote() {
+    var C = DATA.contrast;
+    return C && C.sampled ? " Computed on a seeded sample of " + C.rows.toLocaleString("en-US") + " of the " + G.n_rows.toLocaleString("en-US") + " rows (with every row of the small nodes)." : "";
   }
   function showNode(v, focusPanel) {
     var panel = document.getElementById("node-panel");
@@ -274,7 +278,7 @@
     var rows = DATA.node_contrast[v] || [];
     if (DATA.columns.length) {
       panel.appendChild(el("h3", {}, ["What sets it apart"]));
-      if (rows.length) panel.appendChild(contrastTable(rows, "Its rows against every other row: Cliff's δ (numeric; rows and rest: means) or Cramér's V (categorical; the level's share), in " + DATA.provenance.units + "; * q ≤ " + DATA.contrast.alpha + " (Benjamini-Hochberg over every node and feature)."));
+      if (rows.length) panel.appendChild(contrastTable(rows, "Its rows against every other row: Cliff's δ (numeric; rows and rest: means) or Cramér's V (categorical; the level's share), in " + DATA.provenance.units + "; * q ≤ " + DATA.contrast.alpha + " (Benjamini-Hochberg over every node and feature)." + sampleNote()));
       else panel.appendChild(el("p", { "class": "muted" }, ["No column could be tested for this node."]));
     }
     var mem = members(v), shown = mem.slice(0, 12).map(function (i) { return G.ids.kind === "none" ? "row " + (i + 1) : rowId(i); });
@@ -316,7 +320,7 @@
     detail.appendChild(el("h3", {}, [f.label + ": nodes " + f.nodes.join(", ")]));
     var ranges = Object.keys(f.lens_range).map(function (k) { return k + " " + fmt(f.lens_range[k][0]) + " … " + fmt(f.lens_range[k][1]); }).join("; ");
     detail.appendChild(el("p", { "class": "hint" }, ["Lens range " + ranges + (f.attached_to !== null && f.attached_to !== undefined ? "; attached to node " + f.attached_to : "")]));
-    if (f.contrast) detail.appendChild(contrastTable(f.contrast, "The feature's rows against every other row."));
+    if (f.contrast) detail.appendChild(contrastTable(f.contrast, "The feature's rows against every other row." + sampleNote()));
   }
 
   // ------------------------------------------------------------ screen
@@ -449,7 +453,7 @@
       zoom.appendChild(el("button", { type: "button", "aria-label": b[1], title: b[1], onclick: b[2] }, [b[0]]));
     });
     gs.appendChild(svgLegend());
-    gs.appendChild(el("p", { "class": "hint" }, ["Drag to pan, scroll to zoom; click a node for its panel. Node area follows its rows, edge width the rows two nodes share. Layout: " + (G.lens_columns.length === 2 ? "the two lens means of each node" : G.lens_columns.length === 1 ? "height = the node's mean lens value" : "force-directed") + "."]));
+    gs.appendChild(el("p", { "class": "hint" }, ["Drag to pan, scroll to zoom; click a node for its panel. Node area follows its rows, edge width the rows two nodes share. Layout: " + ({ lens: "each node at its two lens means", level: "height = the node's mean lens value", spring: "force-directed", spectral: "spectral (Laplacian eigenvectors)" }[G.layout.method] || G.layout.method) + "."]));
     main.appendChild(gs);
     var panel = el("aside", { id: "node-panel", "class": "panel", "aria-live": "polite", "aria-label": "Node details" }, [el("h2", {}, ["Node details"]), el("p", { "class": "muted" }, ["Click a node in the graph, or choose one in the node table, to see its size, lens ranges, the columns that set it apart and its members."])]);
     main.appendChild(panel);
