@@ -159,7 +159,7 @@ def test_click_node_shows_its_numbers(page, demo):
     checked = 0
     for tr in rows:
         cells = [td.text for td in tr.find_elements("css selector", "td")]
-        column = cells[0].rstrip(" *")
+        column = cells[0].rstrip(" *\u00a0")
         if column not in raw.dtype.names or column == "state":
             continue
         x, y = raw[column][inside], raw[column][~inside]
@@ -171,7 +171,7 @@ def test_click_node_shows_its_numbers(page, demo):
     assert checked >= 3
     # the same columns, in the same order, as the Python API ranks them
     api = lw.contrast_columns(graph, demo["ws"], nodes=[v]).top("nodes", len(rows))
-    assert [tr.find_element("css selector", "td").text.rstrip(" *") for tr in rows] == api
+    assert [tr.find_element("css selector", "td").text.rstrip(" *\u00a0") for tr in rows] == api
 
 
 def test_switch_colouring_numeric_and_categorical(page, demo):
@@ -217,7 +217,7 @@ def test_choose_feature_highlights_and_lists_contrast(page, demo):
     assert buttons[0].get_attribute("aria-pressed") == "true"
     ringed = sorted(int(c.get_attribute("data-node")) for c in _all(page, "circle.in-feature"))
     assert ringed == sorted(set(sig[0].nodes))
-    first = _by(page, "#feature-detail table.contrast tbody tr td").text.rstrip(" *")
+    first = _by(page, "#feature-detail table.contrast tbody tr td").text.rstrip(" *\u00a0")
     label = "nodes:" + ",".join(map(str, sorted(set(sig[0].nodes))))
     api = lw.contrast_columns(graph, demo["ws"], [label])
     assert first == api.top(label, 1)[0]
@@ -322,7 +322,7 @@ def test_readable_at_1280_and_phone_width(page, demo, tmp_path):
         page.save_screenshot(str(shots[width]))
         assert shots[width].read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     if os.environ.get("LENSWORK_GALLERY"):
-        page.set_window_size(1280, 1000)
+        page.set_window_size(1280, 1500)
         page.execute_script("window.scrollTo(0, 0)")
         time.sleep(0.2)
         page.save_screenshot(str(ROOT / "gallery" / "report_demo.png"))

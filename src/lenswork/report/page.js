@@ -38,7 +38,7 @@
   }
   function fmtQ(q) {
     if (q === null || q === undefined) return "–";
-    if (q === 0) return "<1e-300";
+    if (q === 0) return "≈0";
     return q < 1e-3 ? q.toExponential(0) : q.toFixed(3);
   }
   function pct(v) { return v === null || v === undefined ? "–" : (100 * v).toFixed(0) + "%"; }
@@ -247,7 +247,7 @@
   function contrastTable(rows, caption) {
     return table(["column", "δ / V", "rows", "rest", "q"], rows.map(function (r) {
       var name = el("span", {}, [r.column]);
-      if (r.significant) name.appendChild(el("span", { "class": "sig", title: "q at or below the false discovery rate" }, [" *"]));
+      if (r.significant) name.appendChild(el("span", { "class": "sig", title: "q at or below the false discovery rate" }, ["\u00a0*"]));
       if (r.type === "numeric") {
         return [name, (r.delta > 0 ? "+" : "") + fmt(r.delta, 2), fmt(r.mean_in), fmt(r.mean_out), fmtQ(r.q)];
       }
