@@ -262,7 +262,8 @@ def _as_graph(graph):
     )
 
 
-def _cloud(data, graph):
+def _cloud(data):
+    """The data's PointCloud; contrast_columns checks its rows against the graph's."""
     if data is None:
         return None
     cloud = getattr(data, "cloud", data)
@@ -270,11 +271,6 @@ def _cloud(data, graph):
         raise ParameterError(
             f"The 'data' parameter must be a PointCloud or a Workspace; got "
             f"{type(data).__name__}."
-        )
-    if cloud.n != graph.n_rows:
-        raise InputError(
-            f"The graph was built on {graph.n_rows:,} rows but the data has {cloud.n:,}; give the "
-            f"table the graph was built from (with the same options)."
         )
     return cloud
 
@@ -464,7 +460,7 @@ def report_data(graph, data=None, *, screen=None, title=None, top=6, alpha=0.05,
     if contrast_rows is not None:
         contrast_rows = check_int("contrast_rows", contrast_rows, lo=100, context="report_data")
     graph = _as_graph(graph)
-    cloud = _cloud(data, graph)
+    cloud = _cloud(data)
     pos = graph_layout(graph, layout, random_state=random_state) if graph.n_nodes else \
         np.zeros((0, 2))
     summary = graph.summary()
