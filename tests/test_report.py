@@ -271,3 +271,23 @@ def test_contrast_sample_keeps_nodes_and_estimates_delta(demo_graph):
         if r["column"] in by_col and r["type"] == "numeric":
             assert abs(r["delta"] - by_col[r["column"]]["delta"]) < 4 / np.sqrt(n1)
     assert report_data(graph, ws, contrast_rows=None)["contrast"] == full["contrast"]
+
+
+def test_passthrough_numbers_read_as_text_are_numeric(tmp_path):
+    """A numeric column kept out of the features is read as text; the page averages it."""
+    rng = np.random.default_rng(31337)
+    n = 400
+    a = rng.uniform(0, 1, n)
+    path = tmp_path / "t.csv"
+    lines = ["id,a,b,temp,kind"] + [
+        f"r{i},{a[i]:.6f},{rng.normal():.6f},{'' if i == 7 else f'{10 * a[i]:.4f}'},"
+        f"{'hi' if a[i] > 0.5 else 'lo'}" for i in range(n)]
+    path.write_text("\n".join(lines) + "\n")
+    cloud = lw.load_table(path, id_column="id", features=["a", "b"])
+    graph = lw.build_graph(cloud.X[:, 0], cloud, intervals=4)
+    cols = {c["name"]: c for c in report_data(graph, cloud)["columns"]}
+    temp = np.array([float(x) if x else np.nan for x in cloud.passthrough["temp"]])
+    expect = [np.nanmean(temp[graph.members(v)]) for v in range(graph.n_nodes)]  # numpy nanmean
+    assert cols["temp"]["type"] == "numeric"
+    np.testing.assert_allclose(cols["temp"]["mean"], expect, rtol=1e-5)
+    assert cols["kind"]["type"] == "categorical" and sorted(cols["kind"]["levels"]) == ["hi", "lo"]

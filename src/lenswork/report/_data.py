@@ -27,7 +27,7 @@ from .._errors import InputError, ParameterError
 from .._json import plain
 from .._validation import check_int
 from .._version import __version__
-from ..contrast import contrast_columns, node_column_values
+from ..contrast import MISSING_TEXT, contrast_columns, node_column_values
 from ..data import PointCloud
 from ..graph import LensGraph, auto_layout, graph_layout, read_graph_json
 
@@ -301,19 +301,19 @@ def _columns_part(graph, cloud, units):
     for name in (str(k) for k in cloud.passthrough):
         if name == cloud.id_name:
             continue
-        values = np.asarray(cloud.passthrough[name])
-        if values.dtype.kind in "biuf":
-            mean, _ = node_column_values(graph, values.astype(np.float64), name, "mean")
+        mean, label = node_column_values(graph, cloud, name, "mean")
+        if not label.startswith("share of "):  # numbers (read as text from a file, too)
             out.append({"name": name, "role": "passthrough", "type": "numeric",
                         "mean": _round(mean)})
             continue
-        cells = np.array([str(v) for v in values.tolist()], dtype=object)
+        cells = np.array([str(v) for v in np.asarray(cloud.passthrough[name]).tolist()],
+                         dtype=object)
+        cells = cells[~np.isin(np.char.lower(cells.astype(str)), list(MISSING_TEXT | {""}))]
         levels, counts = np.unique(cells, return_counts=True)
         if levels.size > MAX_LEVELS or levels.size < 2:
             continue
-        order = np.argsort(-counts, kind="stable")
         shares = {}
-        for lev in levels[order].tolist():
+        for lev in levels[np.argsort(-counts, kind="stable")].tolist():
             share, _ = node_column_values(graph, cloud, name, "share", level=lev)
             shares[lev] = _round(share, 4)
         out.append({"name": name, "role": "passthrough", "type": "categorical",
