@@ -332,3 +332,23 @@ def test_page_opens_with_no_network(demo):
     """No element asks for anything outside the file (the page fixture checks the console)."""
     text = demo["path"].read_text(encoding="utf-8")
     assert 'src="http' not in text and 'href="http' not in text
+
+
+def test_pan_and_zoom(page):
+    from selenium.webdriver.common.action_chains import ActionChains
+
+    view = _by(page, "#viewport")
+    _by(page, 'button[aria-label="Zoom in"]').click()
+    assert view.get_attribute("transform").endswith("scale(1.25)")
+    graph = _by(page, "#graph")
+    page.execute_script("arguments[0].scrollIntoView({block: 'center'})", graph)
+    # drag from a corner of the drawing (no node there): the view moves with the pointer
+    w, h = graph.rect["width"], graph.rect["height"]
+    ActionChains(page).move_to_element_with_offset(graph, int(-w / 2) + 5, int(-h / 2) + 5) \
+        .click_and_hold().move_by_offset(60, 30).release().perform()
+    moved = view.get_attribute("transform")  # the zoom about the centre left (-125, -80)
+    tx, ty = (float(t) for t in moved.split("(")[1].split(")")[0].split(","))
+    assert tx + 125 == pytest.approx(60 * 1000 / w, rel=0.1)  # 60 px in viewBox units
+    assert ty + 80 == pytest.approx(30 * 640 / h, rel=0.1)
+    _by(page, 'button[aria-label="Reset pan and zoom"]').click()
+    assert view.get_attribute("transform") == "translate(0,0) scale(1)"
