@@ -25,6 +25,8 @@ Graphs
     read_graph_json
 Which columns set a feature apart
     contrast_columns, ContrastResult, ColumnContrast, benjamini_hochberg, node_column_values
+The report page
+    write_report
 Errors
     LensworkError, InputError, ParameterError, LensworkWarning
 """
@@ -90,6 +92,7 @@ from .lenses import (
 )
 from .normalize import normalize
 from .probe import StabilityMap, StructureProbe, feature_counts, stability_map, structure_scores
+from .report import write_report
 from .screen import (
     ScreenResult,
     Selection,
@@ -178,4 +181,5 @@ __all__ = [
     "suggest_cover",
     "user_lens",
     "variation_of_information",
+    "write_report",
 ]

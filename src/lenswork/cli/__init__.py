@@ -48,7 +48,8 @@ def cli(ctx, quiet, progress):
 def _register_commands():
     from importlib import import_module
 
-    for module in ("_data", "_lenses", "_screen", "_graph", "_views", "_contrast", "_partitioned"):
+    for module in ("_data", "_lenses", "_screen", "_graph", "_views", "_contrast", "_partitioned",
+                   "_report"):
         try:
             mod = import_module(f"{__name__}.{module}")
         except ModuleNotFoundError as err:  # a topic not yet present in this checkout
