@@ -16,14 +16,20 @@ from ..workspace import METHODS
 
 __all__ = [
     "LensworkGroup",
+    "Neighbors",
+    "build_view",
     "cutoff_value",
     "graph_option_fields",
     "graph_options",
     "input_options",
+    "lens_options",
+    "lens_table",
+    "lens_views",
     "load_input",
     "neighbors_option",
     "number_list",
     "output_dir",
+    "split_names",
 ]
 
 
@@ -146,12 +152,155 @@ def output_dir(path):
     return path
 
 
-#: The --neighbors option, defined once for every command that builds a neighbour graph.
-neighbors_option = click.option(
-    "--neighbors", "neighbor_method", type=click.Choice(METHODS), default="auto",
-    show_default=True, help="Neighbour-graph back end: exact (scikit-learn), approximate "
-    "(pynndescent) or auto (exact for small or low-dimensional data).",
-)
+class Neighbors:
+    """The shared neighbour graph's options of one command: back end and least k."""
+
+    def __init__(self, method="auto", min_neighbors=None):
+        self.method, self.min_neighbors = method, min_neighbors
+
+    @property
+    def given(self):
+        """Whether either option was set away from its default."""
+        return self.method != "auto" or self.min_neighbors is not None
+
+    def workspace(self, cloud, seed):
+        """The Workspace of ``cloud`` with these options."""
+        from ..workspace import Workspace
+
+        extra = {} if self.min_neighbors is None else {"min_neighbors": self.min_neighbors}
+        return Workspace(cloud, random_state=seed, neighbor_method=self.method, **extra)
+
+
+def neighbors_option(func):
+    """``--neighbors`` (back end) and ``--min-neighbors`` for every command that builds a
+    neighbour graph; the command receives ``neighbors`` (a :class:`Neighbors`)."""
+
+    @functools.wraps(func)
+    def wrapper(*args, neighbor_method, min_neighbors, **kwargs):
+        return func(*args, neighbors=Neighbors(neighbor_method, min_neighbors), **kwargs)
+
+    wrapper = click.option(
+        "--min-neighbors", type=click.IntRange(min=1), default=None, metavar="K",
+        help="Neighbours per row the shared graph holds at least (default 30). dtm reads "
+        "ceil(mass n) - 1 of them: raise this when a dtm mass is capped (at most 99).",
+    )(wrapper)
+    return click.option(
+        "--neighbors", "neighbor_method", type=click.Choice(METHODS), default="auto",
+        show_default=True, help="Neighbour-graph back end: exact (scikit-learn), approximate "
+        "(pynndescent) or auto (exact for small or low-dimensional data).",
+    )(wrapper)
+
+
+def split_names(text):
+    """'a, b,c' -> ['a', 'b', 'c']; None -> None."""
+    if text is None:
+        return None
+    return [x.strip() for x in str(text).split(",") if x.strip()]
+
+
+_LENS_HELP = ("A lens as name or name:key=value,... (repeatable; `lenswork lenses` lists them), "
+              "or a lens column name as the screen ranks it (pca_2, laplacian_1, "
+              "eccentricity[p=1]).")
+
+
+def lens_options(views=False):
+    """``-l/--lens``, ``--lens-file`` and ``--use``: the lens columns a graph is built on.
+
+    The same three options on every command that builds a graph. The command
+    receives ``lens_specs`` (tuple), ``lens_file`` and ``use`` (text, or a tuple
+    of texts with ``views=True``, where each ``--use`` is one view).
+    """
+    if views:
+        lens_help = "One view per --lens. " + _LENS_HELP
+        use_help = ("Columns of --lens-file that make one view, comma-separated (repeatable: one "
+                    "view each; default: one view per column of the file).")
+    else:
+        lens_help = _LENS_HELP + " Two or more lens columns give a product cover."
+        use_help = "Columns to take from --lens-file, comma-separated (default: all of them)."
+
+    def decorator(func):
+        func = click.option("--use", "use", default=None, multiple=views, metavar="COLS",
+                            help=use_help)(func)
+        func = click.option(
+            "--lens-file", type=click.Path(dir_okay=False), default=None,
+            help="Lens columns written by `lenswork compute` or `lenswork screen` (CSV, TSV or "
+            "Parquet with its .json sidecar), matched to TABLE by row id. A --lens naming one "
+            "of its columns is read from it.",
+        )(func)
+        return click.option("-l", "--lens", "lens_specs", multiple=True, metavar="SPEC",
+                            help=lens_help)(func)
+
+    return decorator
+
+
+def _check_lens_choice(lens_specs, lens_file, use):
+    if not lens_specs and not lens_file:
+        raise click.UsageError("Give at least one --lens or a --lens-file.")
+    if use and not lens_file:
+        raise click.UsageError("--use picks columns of a --lens-file; give the --lens-file too.")
+
+
+def _columns_for(ws, specs, file_table):
+    """Lens columns of ``specs``: a column of the lens file by its name, else computed."""
+    from ..lenses import compute_lenses
+
+    columns = []
+    for spec in specs:
+        if file_table is not None and spec.strip() in file_table.names:
+            columns.append(file_table[spec.strip()])
+        else:
+            columns += list(compute_lenses(ws, [spec]))
+    return columns
+
+
+def _read_lens_file(ws, lens_file):
+    from ..table import LensTable
+
+    with _progress.step("read the lens file"):
+        return LensTable.read(lens_file, ws.cloud)
+
+
+def lens_table(ws, lens_specs, lens_file=None, use=None):
+    """The LensTable of one view: the ``--use`` columns of the lens file, then the ``--lens``."""
+    from ..table import LensTable
+
+    _check_lens_choice(lens_specs, lens_file, use)
+    file_table = _read_lens_file(ws, lens_file) if lens_file else None
+    columns = []
+    if file_table is not None and (use or not lens_specs):
+        columns += _columns_for(ws, split_names(use) or file_table.names, file_table)
+    columns += _columns_for(ws, lens_specs, file_table)
+    return LensTable(columns, ws.cloud, random_state=ws.random_state)
+
+
+def lens_views(ws, lens_specs, lens_file=None, uses=()):
+    """``{label: LensTable}``: one view per ``--lens`` and per ``--use`` (or per file column)."""
+    from ..table import LensTable
+
+    _check_lens_choice(lens_specs, lens_file, uses)
+    file_table = _read_lens_file(ws, lens_file) if lens_file else None
+    views = {}
+    if file_table is not None:
+        groups = [split_names(u) for u in uses] if uses else (
+            [] if lens_specs else [[name] for name in file_table.names])
+        for names in groups:
+            views[",".join(names)] = LensTable(_columns_for(ws, names, file_table), ws.cloud,
+                                               random_state=ws.random_state)
+    for spec in lens_specs:
+        views[spec] = LensTable(_columns_for(ws, [spec], file_table), ws.cloud,
+                                random_state=ws.random_state)
+    return views
+
+
+def build_view(cloud, seed, lens_specs, lens_file, use, settings, neighbors, stats=None):
+    """``(workspace, lens table, graph)``: the graph of ``lenswork graph`` and ``contrast``."""
+    from ..graph import build_graph
+
+    _check_lens_choice(lens_specs, lens_file, use)
+    ws = neighbors.workspace(cloud, seed)
+    table = lens_table(ws, lens_specs, lens_file, use)
+    names = "all" if stats is not None and stats.strip().lower() == "all" else split_names(stats)
+    return ws, table, build_graph(table, ws, settings, columns=names)
 
 
 def _parser(f):
@@ -178,7 +327,7 @@ def graph_options(exclude=()):
     One option per field with ``cli`` metadata (flag, help, kind, choices),
     its default taken from the dataclass, so the graph commands cannot drift
     apart. The wrapped command receives ``settings`` (a validated
-    GraphSettings) and ``neighbor_method`` instead of the separate options.
+    GraphSettings) and ``neighbors`` (:class:`Neighbors`) instead of the separate options.
     ``exclude`` leaves fields to the command (the stability map's grid sets
     ``intervals`` and ``overlap`` itself).
     """

@@ -18,6 +18,8 @@ parameter that differs from its default: ``pca_2``, ``dtm[mass=0.05]``.
 
 from __future__ import annotations
 
+import difflib
+import re
 import warnings
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -37,6 +39,7 @@ __all__ = [
     "REGISTRY",
     "get_lens",
     "lens_names",
+    "lens_request",
     "parse_lens",
     "register_lens",
 ]
@@ -241,8 +244,13 @@ def get_lens(name):
     try:
         return REGISTRY[name]
     except KeyError:
+        close = difflib.get_close_matches(str(name), list(REGISTRY), n=1, cutoff=0.6) or [
+            n for n in REGISTRY if n.lower() == str(name).strip().lower()
+        ][:1]
+        hint = f" Did you mean {close[0]!r}?" if close else ""
         raise ParameterError(
-            f"Unknown lens {name!r}. Registered lenses: {', '.join(sorted(REGISTRY))}."
+            f"Unknown lens {name!r}.{hint} Registered lenses: {', '.join(sorted(REGISTRY))}; "
+            f"a column name of theirs (pca_2, laplacian_1, eccentricity[p=1]) works too."
         ) from None
 
 
@@ -272,3 +280,58 @@ def parse_lens(text):
     if not name:
         raise ParameterError(f"No lens name in {text!r}; expected e.g. 'pca:components=2'.")
     return name, params
+
+
+#: A lens column name as the registry writes it: name, optional ``_<part>``, optional ``[tags]``.
+_COLUMN_NAME = re.compile(r"^(?P<base>[A-Za-z]\w*?)(?:_(?P<part>\d+))?(?:\[(?P<tags>[^\]]*)\])?$")
+
+
+def lens_request(text):
+    """``(name, params, column)`` for a lens spec or a lens column name.
+
+    A spec (``"pca:components=2"``, ``"dtm"``) gives ``column=None``: every
+    column of the lens. A column name as the registry writes it, and as the
+    screen's ranking and lens files list it, is read back into its lens:
+    ``"pca_2"`` is the second column of ``pca`` (computed with
+    ``components=2``), ``"laplacian_1[k=10]"`` the first of ``laplacian:k=10``,
+    ``"eccentricity[p=1]"`` the lens ``eccentricity:p=1``; ``column`` is then
+    the name of the one column wanted.
+
+    Examples
+    --------
+    >>> lens_request("pca:components=3")
+    ('pca', {'components': '3'}, None)
+    >>> lens_request("pca_2")
+    ('pca', {'components': '2'}, 'pca_2')
+    >>> lens_request("eccentricity[p=1]")
+    ('eccentricity', {'p': '1'}, 'eccentricity[p=1]')
+    """
+    name, params = parse_lens(text)
+    _load_entry_points()
+    if name in REGISTRY or params:
+        return name, params, None
+    match = _COLUMN_NAME.match(name)
+    if match is None or match["base"] not in REGISTRY:
+        return name, params, None  # get_lens names the error (with a close match)
+    spec = REGISTRY[match["base"]]
+    given = {}
+    for item in (match["tags"] or "").split(";"):
+        key, eq, value = item.partition("=")
+        if eq and key.strip():
+            given[key.strip()] = value.strip()
+        elif item.strip():
+            raise ParameterError(
+                f"Cannot read the lens column name {text!r}: {item!r} is not key=value "
+                f"(column names read as name_<part>[key=value;...], e.g. 'laplacian_1[k=10]')."
+            )
+    part = match["part"]
+    if part is not None:
+        if "components" not in {p.name for p in spec.params}:
+            raise ParameterError(
+                f"Lens {spec.name!r} has one column, so {name!r} names no column of it; give "
+                f"{spec.name!r}."
+            )
+        if int(part) < 1:
+            raise ParameterError(f"Lens columns count from 1: {name!r} names no column.")
+        given["components"] = part
+    return spec.name, given, name.strip()
