@@ -191,7 +191,7 @@ def test_every_setting_reaches_the_graph_from_the_cli(circle_csv, tmp_path):
 def test_cutoff_fence_is_accepted_by_every_graph_command(circle_csv, tmp_path):
     common = [str(circle_csv), "--id-column", "id", "--cutoff", "fence"]
     runs = {
-        "stability": ["--lens", "column:name=x", "--intervals", "8", "--overlaps", "0.3",
+        "stability": ["--lens", "column:name=x", "--interval-counts", "8", "--overlaps", "0.3",
                       "--no-figure"],
         "bootstrap": ["--lens", "column:name=x", "--resamples", "2", "--no-figure"],
         "compare": ["--lens", "column:name=x", "--lens", "column:name=y", "--no-figure"],
@@ -227,7 +227,7 @@ def test_result_writers_are_strict(tmp_path):
     X = noisy_circle(300, rng)
     ws = Workspace(X)
     lens = LensColumn("x", X[:, 0], params={"width": math.nan})
-    _, sidecar = stability_map(lens, ws, intervals=(6, 8), overlaps=(0.3,)).write(
+    _, sidecar = stability_map(lens, ws, interval_counts=(6, 8), overlaps=(0.3,)).write(
         tmp_path / "s.csv")
     meta = strict_loads(sidecar.read_text())
     assert meta["settings"] == GraphSettings().to_dict()

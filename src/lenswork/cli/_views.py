@@ -16,8 +16,9 @@ __all__ = ["COMMANDS"]
 @click.command("stability")
 @input_options
 @lens_options()
-@click.option("--intervals", "grid_intervals", default="4,6,8,10,12,14,16,20", show_default=True,
-              metavar="N,N,...", help="Interval counts of the grid (rows of the map).")
+@click.option("--interval-counts", "grid_intervals", default="4,6,8,10,12,14,16,20",
+              show_default=True, metavar="N,N,...",
+              help="Interval counts of the grid (rows of the map); --intervals is one cover's.")
 @click.option("--overlaps", "grid_overlaps", default="0.1,0.2,0.3,0.4,0.5", show_default=True,
               metavar="P,P,...", help="Overlaps of the grid (columns of the map).")
 @click.option("-o", "--out", default="lenswork-stability", show_default=True,
@@ -43,11 +44,11 @@ def stability(cloud, seed, lens_specs, lens_file, use, grid_intervals, grid_over
     table = lens_table(ws, lens_specs, lens_file, use)
     # "auto" settings fixed on these rows: the map's default cell is the default graph's
     settings = settings.resolve(ws.n, len(table.names))
-    smap = stability_map(table, ws, settings=settings, intervals=grid_intervals,
+    smap = stability_map(table, ws, settings=settings, interval_counts=grid_intervals,
                          overlaps=grid_overlaps)
     csv_path, sidecar = smap.write(out / "stability.csv")
     click.echo(f"Stability map of {smap.lens} on {ws.n} rows "
-               f"({len(smap.intervals)} x {len(smap.overlaps)} cover settings).")
+               f"({len(smap.interval_counts)} x {len(smap.overlaps)} cover settings).")
     click.echo(_grid_text(smap, "loops"))
     cell = smap.default_cell
     if cell is not None:
@@ -66,7 +67,7 @@ def _grid_text(smap, feature):
     counts = smap.counts[feature]
     head = "intervals \\ overlap " + " ".join(f"{o:>5g}" for o in smap.overlaps)
     lines = [f"{feature}:", head]
-    for i, iv in enumerate(smap.intervals):
+    for i, iv in enumerate(smap.interval_counts):
         lines.append(f"{iv:>19d} " + " ".join(f"{int(v):>5d}" for v in counts[i]))
     return "\n".join(lines)
 
