@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import functools
+import re
 import warnings
 from dataclasses import fields
 from pathlib import Path
@@ -18,6 +19,7 @@ __all__ = [
     "LensworkGroup",
     "Neighbors",
     "build_view",
+    "cli_text",
     "cutoff_value",
     "graph_option_fields",
     "graph_options",
@@ -28,9 +30,45 @@ __all__ = [
     "load_input",
     "neighbors_option",
     "number_list",
+    "feature_text",
     "output_dir",
     "split_names",
 ]
+
+
+#: Python names in library messages -> what a command-line user gives or sees instead.
+#: Library messages write "python (CLI: option)" or "(python; CLI: option)"; the rules
+#: below keep the option. Whole phrases that name Python objects follow.
+_CLI_RULES = (
+    (re.compile(r"\(([^();]*?); CLI: ([^)]*)\)"), r"(\2)"),
+    (re.compile(r"[\w.]+=(?:'[^']*'|\[\.\.\.\]|\.\.\.|[\w.]+) \(CLI: ([^)]*)\)"), r"\1"),
+    (re.compile(r"They are listed in PointCloud\.excluded and written to outputs with missing "
+                r"lens values\."),
+     "They are written to the outputs with empty lens values."),
+    (re.compile(r"they are listed in LensGraph\.unassigned\. Use (.*?)a smaller min_size"),
+     r"they are listed under 'unassigned' in graph.json. Use \1a smaller --min-size"),
+    (re.compile(r"smaller than min_size=(\d+)"), r"smaller than --min-size \1"),
+    (re.compile(r"a larger k \(thin slices"), "a larger -k (thin slices"),
+    (re.compile(r"a larger Workspace\(min_neighbors=\.\.\.\)"), "a larger --min-neighbors"),
+    (re.compile(r"load them with lenswork\.load_table\(\.\.\., invalid='exclude'\)"),
+     "pass --skip-invalid"),
+)
+
+
+def cli_text(message):
+    """A library message as a command-line user reads it: options, not Python objects.
+
+    Examples
+    --------
+    >>> cli_text("or pass invalid='exclude' (CLI: --skip-invalid) to keep them out")
+    'or pass --skip-invalid to keep them out'
+    >>> cli_text("Choose them (features=[...]; CLI: --features).")
+    'Choose them (--features).'
+    """
+    text = str(message)
+    for pattern, replacement in _CLI_RULES:
+        text = pattern.sub(replacement, text)
+    return text
 
 
 class LensworkGroup(click.Group):
@@ -43,7 +81,7 @@ class LensworkGroup(click.Group):
                 warnings.showwarning = _show_warning
                 return super().invoke(ctx)
         except LensworkError as err:
-            raise click.ClickException(str(err)) from None
+            raise click.ClickException(cli_text(err)) from None
         except MemoryError:
             raise click.ClickException(
                 "Ran out of memory. Use fewer rows, a smaller k, or the scalable modes."
@@ -53,7 +91,7 @@ class LensworkGroup(click.Group):
 def _show_warning(message, category, filename, lineno, file=None, line=None):
     prefix = "Warning" if issubclass(category, LensworkWarning) else category.__name__
     _progress.interrupt()  # a line of its own, never the end of a step's "label ..." line
-    click.echo(f"{prefix}: {message}", err=True)
+    click.echo(f"{prefix}: {cli_text(message)}", err=True)
 
 
 def input_options(func):
@@ -65,9 +103,13 @@ def input_options(func):
     )
     @click.option(
         "-f", "--features", default=None, metavar="COLS",
-        help="Feature columns, comma-separated names or 1-based positions (default: every "
-        "numeric column but the id).",
+        help="Feature columns, comma-separated: names, 1-based positions (3), position ranges "
+        "(2-53), name ranges in table order (w00:w51), and ~ before any of these to leave "
+        "columns out (-f '~id,~notes'). Default: every numeric column but the id.",
     )
+    @click.option("--exclude", multiple=True, metavar="COL",
+                  help="Leave a column (or range) out of the features; repeatable. The same as "
+                  "-f '~COL'.")
     @click.option("--id-column", default=None, metavar="COL", help="Column holding row ids.")
     @click.option(
         "--scale", type=click.Choice(["none", "zscore", "robust"]), default=None,
@@ -82,8 +124,9 @@ def input_options(func):
                   help="Field delimiter of a text table (default: detected).")
     @click.option("--seed", default=0, show_default=True, type=int, help="Random seed.")
     @functools.wraps(func)
-    def wrapper(*args, table, demo, features, id_column, scale, skip_invalid, delimiter, seed,
-                **kwargs):
+    def wrapper(*args, table, demo, features, exclude, id_column, scale, skip_invalid, delimiter,
+                seed, **kwargs):
+        features = feature_text(features, exclude)
         cloud = load_input(table, demo, features, id_column, scale, skip_invalid, delimiter)
         return func(*args, cloud=cloud, seed=seed, **kwargs)
 
@@ -92,8 +135,6 @@ def input_options(func):
 
 def load_input(table, demo, features, id_column, scale, skip_invalid, delimiter=None):
     """Load the PointCloud a command works on (the demo when asked or no table given)."""
-    from ..data import load_table
-
     if demo and table:
         raise click.UsageError("Give a TABLE or --demo, not both.")
     if table is None:
@@ -101,16 +142,31 @@ def load_input(table, demo, features, id_column, scale, skip_invalid, delimiter=
             raise click.UsageError("Give a TABLE to read, or --demo for the bundled demo data.")
         from ..demo import load_demo
 
-        return load_demo(scale=scale or "zscore")
-    feats = None
-    if features:
-        feats = [f.strip() for f in features.split(",") if f.strip()]
-        feats = [int(f) - 1 if f.isdigit() else f for f in feats]  # 1-based on the CLI
+        cloud = load_demo(scale=scale or "zscore")
+    else:
+        cloud = _load_table(table, features, id_column, scale, skip_invalid, delimiter)
+    names = cloud.feature_names
+    _progress.note(f"features ({len(names)}): {', '.join(names)}"
+                   + (f"; row ids from {cloud.id_name!r}" if cloud.provenance.get("id_column")
+                      else "; row ids 1..n (no --id-column)"))
+    return cloud
+
+
+def _load_table(table, features, id_column, scale, skip_invalid, delimiter):
+    from ..data import load_table
+
     return load_table(
-        table, features=feats, id_column=id_column,
+        table, features=features or None, id_column=id_column,
         scale=None if scale in (None, "none") else scale,
         invalid="exclude" if skip_invalid else "error", delimiter=delimiter,
     )
+
+
+def feature_text(features, exclude=()):
+    """``-f`` text with every ``--exclude`` column appended as ``~COL`` (None when neither)."""
+    items = [features] if features else []
+    items += [f"~{x.strip().lstrip('~')}" for x in exclude or () if x.strip()]
+    return ",".join(items) or None
 
 
 def number_list(text, cast, option):

@@ -209,6 +209,11 @@ def cluster_input_options(func):
             return inner(*args, cluster=None, **kwargs)
         table, demo = kwargs.pop("table"), kwargs.pop("demo")
         features, id_column = kwargs.pop("features"), kwargs.pop("id_column")
+        if kwargs.pop("exclude"):
+            raise click.UsageError(
+                "--exclude is not offered with --scheduler; give the feature columns by name "
+                "with --features."
+            )
         scale, skip_invalid = kwargs.pop("scale"), kwargs.pop("skip_invalid")
         delimiter, seed = kwargs.pop("delimiter"), kwargs.pop("seed")
         if demo or table is None:
