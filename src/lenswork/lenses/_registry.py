@@ -13,7 +13,11 @@ validated parameters, and returns a list of :class:`LensPart` (one per output
 column). The registry turns them into named :class:`~lenswork.LensColumn`
 objects with their parameters recorded. Column names are the lens name, then
 ``_<part>`` for multi-column lenses, then ``[key=value;...]`` for every
-parameter that differs from its default: ``pca_2``, ``dtm[mass=0.05]``.
+parameter that differs from its default: ``pca_2``, ``dtm[mass=0.05]``. A
+compute function that used other values than asked (``dtm`` capped by the
+shared graph) returns them in ``info["params_used"]``: the column is named and
+its parameters recorded by what was computed, the values asked for stay in the
+info.
 """
 
 from __future__ import annotations
@@ -125,13 +129,17 @@ class LensSpec:
                     f"Lens {self.name!r} returned values of shape {values.shape}; "
                     f"expected ({ws.n},). This is a bug in the lens."
                 )
+            info = dict(part.info)
+            # a lens that computed with other values than asked (a capped dtm mass) says so in
+            # info["params_used"]: the column is named and recorded by what was computed
+            used = dict(resolved, **info.pop("params_used", {}))
             columns.append(
                 LensColumn(
-                    name=self.column_name(resolved, part.part),
+                    name=self.column_name(used, part.part),
                     values=values,
                     lens=self.name,
-                    params=plain(resolved),
-                    info=plain(dict(part.info)),
+                    params=plain(used),
+                    info=plain(info),
                 )
             )
         return columns
