@@ -259,8 +259,8 @@ def test_screen_command_in_a_pseudo_terminal(tmp_path):
     for got, pattern in zip(shown, expected, strict=True):
         assert re.fullmatch(pattern, got), (got, pattern)
     # No interleaving: every raw line (all its redraws) carries one label only.
-    labels = ["features (12)", "lens 1/2", "Warning", "neighbour graph:", "lens 2/2", "ranking 3", "smoothness:",
-              "selection", "probe dtm", "probe pca_1", "probe pca_2", "writing"]
+    labels = ["features (12)", "lens 1/2", "Warning", "neighbour graph:", "lens 2/2", "ranking 3",
+              "smoothness:", "selection", "probe dtm", "probe pca_1", "probe pca_2", "writing"]
     for line in lines:
         assert sum(label in line for label in labels) == 1, line
     # Each bar counts 0, 1, ..., cells in order, redrawn in place on its one line.

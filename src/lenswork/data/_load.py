@@ -41,8 +41,9 @@ def load_table(
         comma-separated names, 1-based positions (``"3"``), position ranges
         (``"2-53"``), name ranges in table order (``"w00:w51"``) and ``~``
         before any of these to leave columns out (``"~id,~notes"``: every
-        numeric column but those); ranges skip the id column. Other columns are passthrough: kept as they are (text from a
-        text table) and carried to the outputs.
+        numeric column but those); ranges skip the id column. Other columns
+        are passthrough: kept as they are (text from a text table) and carried
+        to the outputs.
     id_column : str or int, optional
         Column of row ids, by name or 0-based position; ids must be unique.
         Default: ids 1..n in row order. Ids in a text table that are all plain
