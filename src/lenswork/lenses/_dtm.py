@@ -27,7 +27,7 @@ from functools import partial
 import numpy as np
 from sklearn.base import BaseEstimator, TransformerMixin
 
-from .._errors import InputError, LensworkWarning, ParameterError
+from .._errors import InputError, ParameterError, warn_caller
 from .._validation import check_array, check_float, check_int
 from ..workspace import NeighborGraph, neighbor_graph
 from ._common import LensOutputMixin, check_input
@@ -73,9 +73,8 @@ def _dtm_messages(mass, n, k, wanted, context, warn, why="to keep the neighbour 
 
 
 def _warn(message):
-    import warnings
 
-    warnings.warn(message, LensworkWarning, stacklevel=4)
+    warn_caller(message)
 
 
 def _check_graph(graph, n, needed, context):

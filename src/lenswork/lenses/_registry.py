@@ -24,14 +24,13 @@ from __future__ import annotations
 
 import difflib
 import re
-import warnings
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any, NamedTuple
 
 import numpy as np
 
-from .._errors import LensworkError, LensworkWarning, ParameterError
+from .._errors import LensworkError, ParameterError, warn_caller
 from .._json import plain
 from ._table import LensColumn
 
@@ -220,10 +219,8 @@ def _load_entry_points():
         try:
             ep.load()  # importing the module runs its @register_lens / @user_lens decorators
         except Exception as err:  # a broken plug-in must not break the library
-            warnings.warn(
-                f"Could not load lens plug-in {ep.name!r} ({ep.value}): {err}",
-                LensworkWarning,
-                stacklevel=2,
+            warn_caller(
+                f"Could not load lens plug-in {ep.name!r} ({ep.value}): {err}"
             )
 
 

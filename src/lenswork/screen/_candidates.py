@@ -9,12 +9,11 @@ that cannot be computed on the data at hand.
 from __future__ import annotations
 
 import math
-import warnings
 
 import numpy as np
 
 from .. import _progress
-from .._errors import LensworkError, LensworkWarning, ParameterError
+from .._errors import LensworkError, ParameterError, warn_caller
 from ..data import PointCloud
 from ..lenses import get_lens, lens_names, parse_lens
 from ..workspace import Workspace
@@ -150,9 +149,8 @@ def compute_candidates(ws, specs, *, strict):
         label = _spec_label(name, params)
         if not strict and name not in known:
             skipped.append({"lens": label, "reason": "not registered"})
-            warnings.warn(
-                f"Default lens {name!r} is not registered here; screening without it.",
-                LensworkWarning, stacklevel=3,
+            warn_caller(
+                f"Default lens {name!r} is not registered here; screening without it."
             )
             continue
         spec = get_lens(name)
@@ -163,8 +161,8 @@ def compute_candidates(ws, specs, *, strict):
             if strict:
                 raise
             skipped.append({"lens": label, "reason": str(err)})
-            warnings.warn(
-                f"Default lens {label!r} was skipped: {err}", LensworkWarning, stacklevel=3
+            warn_caller(
+                f"Default lens {label!r} was skipped: {err}"
             )
             continue
         for col in cols:
