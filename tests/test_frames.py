@@ -83,7 +83,7 @@ def test_screen_frame_equals_ranking_csv(iris_table, tmp_path):
         assert got["rank"] == int(r["rank"])
         assert got["selected"] == (r["selected"] == "true")
         assert json.loads(got["params"]) == json.loads(r["params"])
-        for h in ("spread", "merit", "gain", "structure", "partner_rho"):
+        for h in ("spread", "merit", "pair_merit", "structure", "partner_rho"):
             assert float(got[h]) == pytest.approx(float(r[h]), rel=1e-15)
     assert frame["order"].dropna().tolist() == [1, 2]
     assert frame.index[frame["selected"]].tolist() == res.selected
