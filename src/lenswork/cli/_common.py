@@ -20,6 +20,7 @@ __all__ = [
     "Neighbors",
     "build_view",
     "cli_text",
+    "colour_data",
     "cutoff_value",
     "graph_option_fields",
     "graph_options",
@@ -32,6 +33,7 @@ __all__ = [
     "number_list",
     "feature_text",
     "output_dir",
+    "parse_color",
     "split_names",
 ]
 
@@ -245,6 +247,22 @@ def neighbors_option(func):
         show_default=True, help="Neighbour-graph back end: exact (scikit-learn), approximate "
         "(pynndescent) or auto (exact for small or low-dimensional data).",
     )(wrapper)
+
+
+def parse_color(text):
+    """``COL``, ``COL:STAT`` or ``COL:share=LEVEL`` -> (column, stat, level)."""
+    m = re.fullmatch(r"(.+?)(?::(mean|median|min|max|std|share)(?:=(.+))?)?", text.strip())
+    column, stat, level = m.group(1), m.group(2) or "mean", m.group(3)
+    if level is not None and stat != "share":
+        raise ParameterError(f"--color {text!r}: only share takes a level (COL:share=LEVEL).")
+    return column, stat, level
+
+
+def colour_data(ws, column):
+    """Where a --color column's row values come from: a feature in the table's own units
+    (any --scale undone), else the workspace (passthrough columns, categorical levels)."""
+    cloud = ws.cloud
+    return cloud.unscaled(column) if column in cloud.feature_names else ws
 
 
 def split_names(text):

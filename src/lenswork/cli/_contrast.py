@@ -8,10 +8,18 @@ from pathlib import Path
 
 import click
 
-from .._errors import InputError, ParameterError
+from .._errors import InputError
 from ..contrast import AGAINST
 from ..graph import LAYOUTS
-from ._common import build_view, graph_options, input_options, lens_options, output_dir
+from ._common import (
+    build_view,
+    colour_data,
+    graph_options,
+    input_options,
+    lens_options,
+    output_dir,
+    parse_color,
+)
 
 __all__ = ["COMMANDS"]
 
@@ -78,15 +86,6 @@ def _read_ids(path, cloud):
     if not ids:
         raise InputError(f"--rows-file {str(path)!r} holds no row ids (one id per line).")
     return ids
-
-
-def parse_color(text):
-    """``COL``, ``COL:STAT`` or ``COL:share=LEVEL`` -> (column, stat, level)."""
-    m = re.fullmatch(r"(.+?)(?::(mean|median|min|max|std|share)(?:=(.+))?)?", text.strip())
-    column, stat, level = m.group(1), m.group(2) or "mean", m.group(3)
-    if level is not None and stat != "share":
-        raise ParameterError(f"--color {text!r}: only share takes a level (COL:share=LEVEL).")
-    return column, stat, level
 
 
 def _safe(label):
@@ -166,7 +165,8 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
     colour = parse_color(color) if color else None
     ws, table, graph = build_from_options(cloud, seed, graph_opts)
     if colour is not None:  # a wrong column or level fails here, before any file is written
-        node_column_values(graph, ws, colour[0], colour[1], level=colour[2])
+        node_column_values(graph, colour_data(ws, colour[0]), colour[0], colour[1],
+                           level=colour[2])
     result = contrast_columns(
         graph, ws, list(feature_labels) or None, rows=rows, against=against, hops=hops,
         columns=_names(columns), categorical=_names(categorical), lenses=table,
@@ -184,7 +184,8 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
                 result, graph, ws, label, top=top, layout=layout, random_state=seed)
         if colour is not None:
             figures[f"graph_{_safe(colour[0])}.png"] = draw_graph(
-                graph, color=colour[0], stat=colour[1], level=colour[2], data=ws,
+                graph, color=colour[0], stat=colour[1], level=colour[2],
+                data=colour_data(ws, colour[0]),
                 layout=layout, random_state=seed)
     click.echo(graph.summary().text(max_features=0).split("\n  ...")[0])
     click.echo(result.text(top, all_features=all_features))

@@ -6,7 +6,14 @@ import click
 
 from .. import _progress
 from ..graph import LAYOUTS, write_graph_json, write_graphml, write_memberships
-from ._common import build_view, graph_options, lens_options, output_dir
+from ._common import (
+    build_view,
+    colour_data,
+    graph_options,
+    lens_options,
+    output_dir,
+    parse_color,
+)
 from ._partitioned import (
     cluster_input_options,
     partitioned_settings,
@@ -28,9 +35,11 @@ OUTPUTS = {
 @lens_options()
 @click.option("--stats", "stat_columns", default=None, metavar="COLS|all",
               help="Data columns whose node mean, min and max go into the files.")
-@click.option("--color", default=None, metavar="COL",
-              help="Lens or --stats column that colours the nodes, or 'size' (default: the "
-              "first lens).")
+@click.option("--color", default=None, metavar="COL[:STAT]",
+              help="What colours the nodes: a lens column, 'size', or any data column: COL "
+              "(node mean, in the table's own units), COL:median|min|max|std, or "
+              "COL:share=LEVEL (a categorical column's level; COL alone: its most frequent). "
+              "Default: the first lens.")
 @click.option("--layout", type=click.Choice(LAYOUTS), default="auto", show_default=True,
               help="auto: levels for one lens, lens coordinates for two, spring above.")
 @click.option("-o", "--out", "out_dir", default="lenswork-graph", show_default=True,
@@ -64,22 +73,25 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
     --cover-scale raw --clusterer element-knn on one machine).
     """
     out = output_dir(out_dir)
+    colour = parse_color(color) if color else None
+    ws = None
     if cluster is not None:  # --scheduler: lenses and graph on partitions (element-knn rule)
         refuse_with_scheduler(lens_file=lens_file, stats=stat_columns, neighbors=neighbors.given)
         if not lens_specs:
             raise click.UsageError("Give at least one --lens.")
         graph = cluster.graph(lens_specs, partitioned_settings(settings))
     else:
-        _, _, graph = build_view(cloud, seed, lens_specs, lens_file, use, settings, neighbors,
-                                 stats=stat_columns)
-    if color is not None:
-        graph.node_values(color)  # a wrong name fails here, before any file is written
+        ws, _, graph = build_view(cloud, seed, lens_specs, lens_file, use, settings, neighbors,
+                                  stats=stat_columns)
+    draw = {}
+    if colour is not None:  # a wrong name or level fails here, before any file is written
+        draw = _colour_options(graph, ws, *colour)
     figures = {}
     if not no_figure:  # drawn before any file is written, so a failure leaves no partial output
         from ..plot._graph import draw_graph
 
         with _progress.step("graph: drawing"):
-            figures = {key: draw_graph(graph, color=color, layout=layout, random_state=seed)
+            figures = {key: draw_graph(graph, layout=layout, random_state=seed, **draw)
                        for key in ("png", "svg")}
     with _progress.step("graph: summary"):
         text = graph.summary().text()
@@ -95,6 +107,21 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
 
             written += [save(fig, out / OUTPUTS[key]) for key, fig in figures.items()]
     click.echo(f"wrote {', '.join(str(p) for p in written)}")
+
+
+def _colour_options(graph, ws, column, stat, level):
+    """draw_graph's colour keywords for --color, checked before anything is drawn."""
+    if level is None and stat in ("mean", "min", "max") and (
+            column == "size" or column in graph.node_stats):
+        graph.node_values(column, stat)
+        return {"color": column, "stat": stat}
+    if ws is None:  # the partitioned graph: its lens columns only
+        graph.node_values(column, stat)
+    from ..contrast import node_column_values
+
+    data = colour_data(ws, column)
+    node_column_values(graph, data, column, stat, level=level)
+    return {"color": column, "stat": stat, "level": level, "data": data}
 
 
 COMMANDS = [graph_command, scheduler_alias(graph_command, "cluster-graph")]
