@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+import difflib
+
 import click
 
 from .. import _progress
+from .._errors import ParameterError
 from ..graph import LAYOUTS, write_graph_json, write_graphml, write_memberships
 from ._common import (
     build_view,
@@ -116,7 +119,20 @@ def _colour_options(graph, ws, column, stat, level):
         graph.node_values(column, stat)
         return {"color": column, "stat": stat}
     if ws is None:  # the partitioned graph: its lens columns only
-        graph.node_values(column, stat)
+        raise ParameterError(
+            f"With --scheduler, --color takes a lens column ({', '.join(graph.lens_columns)}) "
+            f"or 'size', as COL, COL:min or COL:max; got {column!r}."
+        )
+    cloud = ws.cloud
+    data_names = [*cloud.feature_names, *(str(k) for k in cloud.passthrough)]
+    if column not in data_names and column not in graph.node_stats:
+        close = difflib.get_close_matches(column, [*graph.node_stats, *data_names, "size"], n=1)
+        hint = f" Did you mean {close[0]!r}?" if close else ""
+        raise ParameterError(
+            f"--color {column!r}: the graph has no node values for {column!r} and the table no "
+            f"such column.{hint} Lens columns: {', '.join(graph.lens_columns)}; data columns: "
+            f"{', '.join(data_names)}; or 'size'."
+        )
     from ..contrast import node_column_values
 
     data = colour_data(ws, column)
