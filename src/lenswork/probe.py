@@ -246,6 +246,11 @@ def probe_intervals(n_rows, min_size, overlap, columns=1, intervals=PROBE_INTERV
 
 def _graph_settings(settings, k, overrides):
     """GraphSettings from ``settings`` (object, dict or None), then ``k`` and the overrides."""
+    if "intervals" in overrides:  # one meaning per name: the grid's counts are interval_counts
+        raise ParameterError(
+            "The grid's interval counts are 'interval_counts' (e.g. interval_counts=(6, 10, 14)); "
+            "'intervals' is one cover's count per lens, which the grid replaces."
+        )
     return GraphSettings.coerce(settings, **overrides, k=k)
 
 
