@@ -15,7 +15,7 @@ import numpy as np
 from .. import _progress
 from .._errors import LensworkError, ParameterError, warn_caller
 from ..data import PointCloud
-from ..lenses import get_lens, lens_names, parse_lens
+from ..lenses import get_lens, lens_names, lens_request
 from ..workspace import Workspace
 
 __all__ = ["compute_candidates", "default_candidates", "parse_spec"]
@@ -124,9 +124,14 @@ def _spec_label(name, params):
 
 
 def parse_spec(item):
-    """A candidate given as a spec string or a ``(name, params)`` pair, as ``(name, dict)``."""
+    """A candidate given as a spec string or a ``(name, params)`` pair, as ``(name, dict)``.
+
+    A lens column name (``"laplacian_3"``, ``"eccentricity[p=1]"``) stands for its lens
+    (:func:`lenswork.lenses.lens_request`): every column of it is a candidate.
+    """
     if isinstance(item, str):
-        return parse_lens(item)
+        name, params, _ = lens_request(item)
+        return name, params
     try:
         name, params = item
     except (TypeError, ValueError):
