@@ -252,7 +252,7 @@ def test_screen_command_in_a_pseudo_terminal(tmp_path):
         rf"  smoothness: Laplacian score on the neighbour graph \.\.\. {t}",
         rf"  selection \.\.\. {t}",
         *(rf"  probe {re.escape(c)}\s+\[#+\]\s+{cells}/{cells}\s+100%\s+\S+/s\s+in {t}"
-          for c in ("dtm[mass=0.9]", "pca_1", "pca_2")),
+          for c in ("dtm[mass=0.01033]", "pca_1", "pca_2")),
         rf"  writing ranking and lens columns \.\.\. {t}",
     ]
     assert len(shown) == len(expected), shown

@@ -335,15 +335,17 @@ def _read_lens_file(ws, lens_file):
 
 
 def lens_table(ws, lens_specs, lens_file=None, use=None):
-    """The LensTable of one view: the ``--use`` columns of the lens file, then the ``--lens``."""
+    """The LensTable of one view: the lens file's columns (or its ``--use`` ones), then the
+    ``--lens`` ones (a ``--lens`` naming a column of the file is read from it, not computed)."""
     from ..table import LensTable
 
     _check_lens_choice(lens_specs, lens_file, use)
     file_table = _read_lens_file(ws, lens_file) if lens_file else None
     columns = []
-    if file_table is not None and (use or not lens_specs):
+    if file_table is not None:
         columns += _columns_for(ws, split_names(use) or file_table.names, file_table)
-    columns += _columns_for(ws, lens_specs, file_table)
+    taken = {c.name for c in columns}
+    columns += [c for c in _columns_for(ws, lens_specs, file_table) if c.name not in taken]
     return LensTable(columns, ws.cloud, random_state=ws.random_state)
 
 
