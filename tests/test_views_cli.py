@@ -101,7 +101,7 @@ def test_command_errors(circle_csv, tmp_path):
         in res.output
     res = _run("stability", circle_csv, "--lens", "column:name=x", "--interval-counts", "0,4",
                "-o", tmp_path / "s")
-    assert res.exit_code == 1 and "'interval_counts' parameter of stability_map" in res.output
+    assert res.exit_code == 1 and "The --interval-counts option" in res.output
     res = _run("bootstrap", circle_csv, "--lens", "column:name=x", "--overlap", "a,b",
                "-o", tmp_path / "b")
     assert res.exit_code == 1 and "The --overlap option must be a number" in res.output

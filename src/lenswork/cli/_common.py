@@ -57,6 +57,20 @@ _CLI_RULES = (
 )
 
 
+#: Python parameter names of the graph settings (and the stability grid) -> their options.
+_OPTION_OF = {
+    **{f.name: f.metadata["cli"]["flag"] for f in fields(GraphSettings) if "cli" in f.metadata},
+    "interval_counts": "--interval-counts", "overlaps": "--overlaps",
+}
+_PARAMETER_OF = re.compile(
+    r"The '(\w+)' parameter of (?:Cover|BallCover|GraphSettings|build_graph|stability_map)\b")
+
+
+def _option_of(match):
+    flag = _OPTION_OF.get(match.group(1))
+    return f"The {flag} option" if flag else match.group(0)
+
+
 def cli_text(message):
     """A library message as a command-line user reads it: options, not Python objects.
 
@@ -66,11 +80,13 @@ def cli_text(message):
     'or pass --skip-invalid to keep them out'
     >>> cli_text("Choose them (features=[...]; CLI: --features).")
     'Choose them (--features).'
+    >>> cli_text("The 'min_size' parameter of build_graph must be an int in [1, inf).")
+    'The --min-size option must be an int in [1, inf).'
     """
     text = str(message)
     for pattern, replacement in _CLI_RULES:
         text = pattern.sub(replacement, text)
-    return text
+    return _PARAMETER_OF.sub(_option_of, text)
 
 
 class LensworkGroup(click.Group):
