@@ -319,3 +319,16 @@ def test_the_pair_score_is_the_pair_merit(tmp_path):
     assert first["pair_merit"] == pytest.approx(want, rel=1e-9)
     header = (tmp_path / "s" / "ranking.csv").read_text().splitlines()[0]
     assert "pair_merit" in header.split(",") and "gain" not in header
+
+
+def test_did_you_mean_for_use_and_stats_columns(iris_csv, tmp_path):
+    lens_file = tmp_path / "lenses.csv"
+    common = [iris_csv, "--id-column", "flower"]
+    assert run("compute", *common, "--lens", "pca:components=2", "-o", lens_file).exit_code == 0
+    res = run("graph", *common, "--lens-file", lens_file, "--use", "pca1", "-o", tmp_path / "g")
+    assert res.exit_code == 1 and "--use 'pca1'" in res.output
+    assert "Did you mean 'pca_1'?" in res.output and not (tmp_path / "g").exists()
+    res = run("graph", *common, "--lens", "pca_1", "--stats", "sepal", "-o", tmp_path / "g")
+    assert res.exit_code == 1 and "No data column 'sepal'." in res.output
+    res = run("graph", *common, "--lens", "pca_1", "--stats", "pll", "-o", tmp_path / "g")
+    assert "Did you mean 'pl'?" in res.output

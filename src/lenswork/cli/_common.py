@@ -343,6 +343,21 @@ def _columns_for(ws, specs, file_table):
     return columns
 
 
+def _file_columns(file_table, names, lens_file):
+    """The ``--use`` columns of the lens file (an unknown name: an error with a close match)."""
+    import difflib
+
+    for name in names:
+        if name not in file_table.names:
+            close = difflib.get_close_matches(name, file_table.names, n=1)
+            hint = f" Did you mean {close[0]!r}?" if close else ""
+            raise ParameterError(
+                f"--use {name!r}: the lens file {str(lens_file)!r} has no such column.{hint} Its "
+                f"columns: {', '.join(file_table.names)}."
+            )
+    return [file_table[name] for name in names]
+
+
 def _read_lens_file(ws, lens_file):
     from ..table import LensTable
 
@@ -359,7 +374,7 @@ def lens_table(ws, lens_specs, lens_file=None, use=None):
     file_table = _read_lens_file(ws, lens_file) if lens_file else None
     columns = []
     if file_table is not None:
-        columns += _columns_for(ws, split_names(use) or file_table.names, file_table)
+        columns += _file_columns(file_table, split_names(use) or file_table.names, lens_file)
     taken = {c.name for c in columns}
     columns += [c for c in _columns_for(ws, lens_specs, file_table) if c.name not in taken]
     return LensTable(columns, ws.cloud, random_state=ws.random_state)
@@ -376,8 +391,8 @@ def lens_views(ws, lens_specs, lens_file=None, uses=()):
         groups = [split_names(u) for u in uses] if uses else (
             [] if lens_specs else [[name] for name in file_table.names])
         for names in groups:
-            views[",".join(names)] = LensTable(_columns_for(ws, names, file_table), ws.cloud,
-                                               random_state=ws.random_state)
+            views[",".join(names)] = LensTable(_file_columns(file_table, names, lens_file),
+                                               ws.cloud, random_state=ws.random_state)
     for spec in lens_specs:
         views[spec] = LensTable(_columns_for(ws, [spec], file_table), ws.cloud,
                                 random_state=ws.random_state)

@@ -122,8 +122,12 @@ def _data_columns(cloud, columns, lens_names):
                 )
             out[name] = values
         else:
-            valid = ", ".join([*features, *cloud.passthrough])
-            raise ParameterError(f"No data column {name!r}. Columns: {valid}.")
+            import difflib
+
+            known = [*features, *map(str, cloud.passthrough)]
+            close = difflib.get_close_matches(name, known, n=1)
+            hint = f" Did you mean {close[0]!r}?" if close else ""
+            raise ParameterError(f"No data column {name!r}.{hint} Columns: {', '.join(known)}.")
     return out
 
 
