@@ -177,6 +177,11 @@ def test_partitioned_columns_are_named_as_on_one_machine():
             "pca:components=2", "dtm:mass=0.05", "laplacian:components=1")]
     assert names == one
     assert names[0] == ["eccentricity[p=1]"] and names[1] == ["density"]
+    # a column name is a lens on partitions too, when it is a whole lens
+    for name in ("eccentricity[p=1]", "column_flow", "pca_1", "density[log=false]"):
+        assert _parse(name, cloud)["names"] == [name]
+    with pytest.raises(lw.ParameterError, match="computed whole: 'pca_2' is one of the columns"):
+        _parse("pca_2", cloud)
 
 
 # ------------------------------------------------------------------ columns chosen with ease

@@ -299,8 +299,9 @@ def lens_request(text):
     screen's ranking and lens files list it, is read back into its lens:
     ``"pca_2"`` is the second column of ``pca`` (computed with
     ``components=2``), ``"laplacian_1[k=10]"`` the first of ``laplacian:k=10``,
-    ``"eccentricity[p=1]"`` the lens ``eccentricity:p=1``; ``column`` is then
-    the name of the one column wanted.
+    ``"eccentricity[p=1]"`` the lens ``eccentricity:p=1``, ``"column_flow"``
+    the lens ``column:name=flow``; ``column`` is then the name of the one
+    column wanted.
 
     Examples
     --------
@@ -310,11 +311,17 @@ def lens_request(text):
     ('pca', {'components': '2'}, 'pca_2')
     >>> lens_request("eccentricity[p=1]")
     ('eccentricity', {'p': '1'}, 'eccentricity[p=1]')
+    >>> lens_request("column_flow")
+    ('column', {'name': 'flow'}, 'column_flow')
     """
     name, params = parse_lens(text)
     _load_entry_points()
     if name in REGISTRY or params:
         return name, params, None
+    for spec in REGISTRY.values():  # a lens whose part is a parameter: column_flow
+        named = [p.name for p in spec.params if not p.tag and p.name != "components"]
+        if named and name.startswith(spec.name + "_") and len(name) > len(spec.name) + 1:
+            return spec.name, {named[0]: name[len(spec.name) + 1:]}, name
     match = _COLUMN_NAME.match(name)
     if match is None or match["base"] not in REGISTRY:
         return name, params, None  # get_lens names the error (with a close match)

@@ -35,7 +35,7 @@ from .._errors import ParameterError
 from .._io import atomic_path, write_text
 from .._json import dumps
 from .._validation import check_float, check_float_or_choice, check_int
-from ..lenses import get_lens, parse_lens
+from ..lenses import get_lens, lens_request
 from ..lenses._extend import nystrom_extend
 from ..lenses._laplacian import laplacian_eigenmaps
 from ._intake import require_dask
@@ -180,7 +180,19 @@ PARTITIONED_LENSES = {
 
 
 def _parse(item, cloud):
-    name, params = parse_lens(item) if isinstance(item, str) else item
+    name, params, wanted = lens_request(item) if isinstance(item, str) else (*item, None)
+    spec = _parse_spec(name, params, cloud)
+    if wanted is not None and spec["names"] != [wanted]:
+        raise ParameterError(
+            f"On partitions a lens is computed whole: {wanted!r} is one of the columns "
+            f"{', '.join(spec['names'])}. Give the lens ({name}:components="
+            f"{spec['params'].get('components')}) or a name of one whole lens such as "
+            f"{spec['names'][0]!r}."
+        )
+    return spec
+
+
+def _parse_spec(name, params, cloud):
     if name not in PARTITIONED_LENSES:
         raise ParameterError(
             f"Lens {name!r} is not offered on partitions; choose among "
