@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import contextlib
 import functools
+import re
 import sys
 from pathlib import Path
 
@@ -234,10 +235,11 @@ def cluster_input_options(func):
         feats = None
         if features:
             feats = [f.strip() for f in features.split(",") if f.strip()]
-            if any(f.isdigit() for f in feats):
+            if any(f.isdigit() or f.startswith("~") or re.fullmatch(r"\d+\s*-\s*\d+", f)
+                   for f in feats):
                 raise click.UsageError(
                     "With --scheduler give --features as column names (partitions may order "
-                    "their columns differently)."
+                    "their columns differently: no positions, ranges or ~ exclusions)."
                 )
         root = _root_params()
         show = _progress.progress_wanted(quiet=bool(root.get("quiet")), force=root.get("progress"))
