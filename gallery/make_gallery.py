@@ -83,7 +83,7 @@ def make_gallery(out, quick=False):
 
     loop_lens = table[GRAPH_LENSES[0]]
     t = time.perf_counter()
-    grid = {"intervals": (4, 8, 10, 14), "overlaps": (0.2, 0.3, 0.5)} if quick else {}
+    grid = {"interval_counts": (4, 8, 10, 14), "overlaps": (0.2, 0.3, 0.5)} if quick else {}
     smap = lw.stability_map(loop_lens, ws, **grid)
     written += smap.plot(out / f"stability_{loop_lens.name}.png")
     _step("stability map", t)

@@ -220,10 +220,10 @@ def test_sweeps_run_on_the_ball_cover():
     ws = Workspace(X)
     settings = GraphSettings(cover="ball")
     lens = LensColumn("x", X[:, 0])
-    smap = stability_map(lens, ws, settings=settings, intervals=(5, 10), overlaps=(0.3,))
+    smap = stability_map(lens, ws, settings=settings, interval_counts=(5, 10), overlaps=(0.3,))
     assert smap.default == (10, 0.3) and smap.default_cell == (1, 0)
     assert smap.settings["cover"] == "ball"
-    for i, n_res in enumerate(smap.intervals):
+    for i, n_res in enumerate(smap.interval_counts):
         # each cell is the graph of the ball cover of spacing 1 / N (grid_settings);
         # its loops are the cycle rank, checked with networkx's cycle basis
         g = build_graph(lens, ws, settings, radius=1.0 / n_res, overlap=0.3)
@@ -231,7 +231,7 @@ def test_sweeps_run_on_the_ball_cover():
         G.add_nodes_from(range(g.n_nodes))
         assert smap.counts["loops"][i, 0] == len(nx.cycle_basis(G))
         assert smap.counts["nodes"][i, 0] == g.n_nodes
-    probe = structure_scores([lens], ws, settings=settings, intervals=(10,), overlaps=(0.3,))
+    probe = structure_scores([lens], ws, settings=settings, interval_counts=(10,), overlaps=(0.3,))
     assert probe["x"]["loops"] == smap.counts["loops"][1, 0]
     assert probe.settings == settings.to_dict()
     res = bootstrap_graph(lens, ws, settings=settings, resamples=4)

@@ -427,9 +427,11 @@ def test_node_column_values_against_member_lists(demo):
         assert_allclose(mean[v], cloud.X[m, j].mean(), rtol=1e-12)
         assert_allclose(median[v], np.median(cloud.X[m, j]), rtol=1e-12)
         assert_allclose(share[v], np.mean(state[m] == "clogging"), rtol=1e-12)
-    # the mean agrees with the graph's own node statistics where it keeps them (build_graph)
+    # the mean agrees with the graph's own node statistics where it keeps them (build_graph),
+    # which are in the table's own units: the demo's z-scoring undone (PointCloud.unscaled)
     g2 = build_graph(graph_lens(demo), ws, columns=["vibration_mm_s"])
-    assert_allclose(mean, g2.node_values("vibration_mm_s"), rtol=1e-12)
+    raw_mean, _ = node_column_values(graph, cloud.unscaled("vibration_mm_s"), "vibration_mm_s")
+    assert_allclose(raw_mean, g2.node_values("vibration_mm_s"), rtol=1e-12)
     assert label == "vibration_mm_s (node mean)" and label_s == "share of state = clogging"
     with pytest.raises(ParameterError, match="no level 'jammed'"):
         node_column_values(graph, ws, "state", level="jammed")

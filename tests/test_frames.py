@@ -83,7 +83,7 @@ def test_screen_frame_equals_ranking_csv(iris_table, tmp_path):
         assert got["rank"] == int(r["rank"])
         assert got["selected"] == (r["selected"] == "true")
         assert json.loads(got["params"]) == json.loads(r["params"])
-        for h in ("spread", "merit", "gain", "structure", "partner_rho"):
+        for h in ("spread", "merit", "pair_merit", "structure", "partner_rho"):
             assert float(got[h]) == pytest.approx(float(r[h]), rel=1e-15)
     assert frame["order"].dropna().tolist() == [1, 2]
     assert frame.index[frame["selected"]].tolist() == res.selected
@@ -110,7 +110,7 @@ def test_graph_frames_equal_the_graph_json(circle, tmp_path):
 
 def test_stability_map_frame_equals_its_csv(circle, tmp_path):
     X, ws = circle
-    smap = stability_map(X[:, 0], ws, intervals=(6, 8, 10), overlaps=(0.2, 0.4))
+    smap = stability_map(X[:, 0], ws, interval_counts=(6, 8, 10), overlaps=(0.2, 0.4))
     path, _ = smap.write(tmp_path / "map.csv")
     ref = pd.read_csv(path)
     frame = smap.to_frame()
@@ -157,7 +157,7 @@ def test_comparison_frames_equal_comparison_json(circle, tmp_path):
 
 def test_without_pandas_every_to_frame_says_so(iris_table, circle, monkeypatch):
     X, ws = circle
-    smap = stability_map(X[:, 0], ws, intervals=(6,), overlaps=(0.3,))
+    smap = stability_map(X[:, 0], ws, interval_counts=(6,), overlaps=(0.3,))
     monkeypatch.setitem(sys.modules, "pandas", None)  # `import pandas` raises ImportError
     for obj, what in ((iris_table, "a LensTable"), (smap, "a StabilityMap")):
         with pytest.raises(LensworkError, match=f"Converting {what} to a DataFrame needs "

@@ -84,7 +84,7 @@ def test_graph_from_a_lens_file(torus_csv, tmp_path):
         (["--lens", "column:name=x", "--use", "a"], "--use picks columns of a --lens-file", 2),
         (["--lens", "column:name=x", "--intervals", "ten"], "The --intervals option must be", 1),
         (["--lens", "column:name=x", "--cutoff", "far"], "The --cutoff option must be", 1),
-        (["--lens", "column:name=x", "--overlap", "1.5"], "'overlap' parameter of Cover", 1),
+        (["--lens", "column:name=x", "--overlap", "1.5"], "The --overlap option must be", 1),
         (["--lens", "column:name=x", "--color", "nope"], "no node values for 'nope'", 1),
     ],
 )

@@ -163,7 +163,7 @@ def test_figure_results_render_to_png(circle):
 
     X, ws = circle
     results = [
-        stability_map(X[:, 0], ws, intervals=(6, 8), overlaps=(0.2, 0.4)),
+        stability_map(X[:, 0], ws, interval_counts=(6, 8), overlaps=(0.2, 0.4)),
         bootstrap_graph(X[:, 0], ws, resamples=4, random_state=1),
         compare_views({"x": X[:, 0], "y": X[:, 1]}, ws),
     ]

@@ -420,15 +420,16 @@ def test_cli_graph_and_aliases_on_a_scheduler_address(client, tmp_path):
     r = run(cli, ["graph", data, *address, "--lens", "column:name=f0", "--cover-scale",
                   "rank", "-o", str(tmp_path / "g2")])
     assert r.exit_code == 1 and "scale='raw'" in r.output
-    # the earlier command names run the same code
+    # the earlier command names are aliases: the same command, a one-line notice on stderr
     common = [*address, "--lens", "column:name=f0"]
     r = run(cli, ["--quiet", "cluster-lenses", data, *common, "-o", str(tmp_path / "lens")])
     assert r.exit_code == 0, r.output
     assert (tmp_path / "lens" / "lenses.json").exists()
-    r = run(cli, ["--quiet", "cluster-graph", data, *common, "--intervals", "8", "-o",
-                  str(tmp_path / "g.json")])
+    assert "another name for `lenswork compute" in r.stderr
+    r = run(cli, ["--quiet", "cluster-graph", data, *common, "--intervals", "8",
+                  "--no-figure", "-o", str(tmp_path / "ga")])
     assert r.exit_code == 0, r.output
-    assert "1 loops" in r.output
+    assert "loops 1" in r.stdout and "another name for `lenswork graph" in r.stderr
 
 
 def test_screen_on_a_sample_then_lenses_on_all_partitions(client):

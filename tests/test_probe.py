@@ -178,7 +178,7 @@ def test_probe_columns_feed_the_screen():
     X = noisy_circle(500, rng)
     cloud = PointCloud.from_array(X)
     table = LensTable([LensColumn("x", X[:, 0]), LensColumn("r", np.hypot(*X.T))], cloud)
-    probe = structure_scores(table, Workspace(cloud), intervals=(6, 10), overlaps=(0.3,))
+    probe = structure_scores(table, Workspace(cloud), interval_counts=(6, 10), overlaps=(0.3,))
     cols = probe.columns(["structure"])
     assert cols["structure"].shape == (2,)
     result = screen(table).rescore(scores=cols, weights={"spread": 1.0, "structure": 1.0})
@@ -208,7 +208,7 @@ def test_probe_gives_nan_scores_to_a_nan_column():
     bad[7] = np.nan
     with pytest.warns(LensworkWarning, match="'bad' holds NaN or infinite values"):
         probe = structure_scores([LensColumn("x", X[:, 0]), LensColumn("bad", bad)],
-                                 Workspace(X), intervals=(8,), overlaps=(0.3,))
+                                 Workspace(X), interval_counts=(8,), overlaps=(0.3,))
     assert np.isnan(probe["bad"]["structure"]) and np.isfinite(probe["x"]["structure"])
     assert set(probe["bad"]) == set(probe["x"])
 
@@ -217,8 +217,8 @@ def test_probe_errors():
     rng = np.random.default_rng(16)
     X = noisy_circle(100, rng)
     ws = Workspace(X)
-    with pytest.raises(ParameterError, match="'intervals' parameter of structure_scores"):
-        structure_scores(X[:, 0], ws, intervals=(0, 5))
+    with pytest.raises(ParameterError, match="'interval_counts' parameter of structure_scores"):
+        structure_scores(X[:, 0], ws, interval_counts=(0, 5))
     with pytest.raises(ParameterError, match="'overlaps' parameter of structure_scores"):
         structure_scores(X[:, 0], ws, overlaps=(1.0,))
     with pytest.raises(ParameterError, match="has no setting 'colour'"):
@@ -230,7 +230,7 @@ def test_probe_errors():
     with pytest.raises(ParameterError, match="appears twice"):
         structure_scores([LensColumn("a", X[:, 0]), LensColumn("a", X[:, 1])], ws)
     with pytest.raises(ParameterError, match="has no score 'merit'"):
-        structure_scores(X[:, 0], ws, intervals=(6,), overlaps=(0.3,)).columns(["merit"])
+        structure_scores(X[:, 0], ws, interval_counts=(6,), overlaps=(0.3,)).columns(["merit"])
 
 
 # --------------------------------------------------------------------------- stability map
@@ -242,7 +242,7 @@ def test_torus_height_map_has_one_stable_loop_region():
     smap = stability_map(X[:, 0], Workspace(X))
     loops = smap.counts["loops"]
     cell = smap.default_cell
-    assert (smap.intervals[cell[0]], smap.overlaps[cell[1]]) == (10, 0.3)
+    assert (smap.interval_counts[cell[0]], smap.overlaps[cell[1]]) == (10, 0.3)
     assert loops[cell] == 1
     # scipy.ndimage.label (default cross structure: 4-connectivity) as reference
     labels, count = ndimage.label(loops == 1)
@@ -253,7 +253,7 @@ def test_torus_height_map_has_one_stable_loop_region():
 def test_stability_map_table_and_figure(tmp_path):
     rng = np.random.default_rng(18)
     X = noisy_circle(400, rng)
-    smap = stability_map(LensColumn("x", X[:, 0]), Workspace(X), intervals=(4, 10, 12),
+    smap = stability_map(LensColumn("x", X[:, 0]), Workspace(X), interval_counts=(4, 10, 12),
                          overlaps=(0.2, 0.3))
     path, sidecar = smap.write(tmp_path / "map.csv")
     with open(path, newline="") as fh:
@@ -262,7 +262,7 @@ def test_stability_map_table_and_figure(tmp_path):
     assert list(rows[0])[:7] == ["intervals", "overlap", "nodes", "edges", "unassigned",
                                  "components", "loops"]
     for r in rows:
-        i = smap.intervals.index(int(r["intervals"]))
+        i = smap.interval_counts.index(int(r["intervals"]))
         j = smap.overlaps.index(float(r["overlap"]))
         for feature in ("components", "loops", "branch_points", "flares"):
             assert int(r[feature]) == smap.counts[feature][i, j]
@@ -275,7 +275,7 @@ def test_stability_map_table_and_figure(tmp_path):
 def test_stability_map_default_outside_the_grid():
     rng = np.random.default_rng(19)
     X = noisy_circle(300, rng)
-    smap = stability_map(X[:, 0], Workspace(X), intervals=(6, 8), overlaps=(0.2,))
+    smap = stability_map(X[:, 0], Workspace(X), interval_counts=(6, 8), overlaps=(0.2,))
     assert smap.default_cell is None
     with pytest.raises(ParameterError, match="does not hold the default setting"):
         smap.region("loops")

@@ -242,6 +242,7 @@ def test_screen_command_in_a_pseudo_terminal(tmp_path):
     shown = [_shown(line) for line in lines]
     t = r"\d+(\.\d\d)? s"
     expected = [
+        r"  features \(12\): flow_m3h, .*; row ids from 'snapshot'",  # the features used
         r"  lens 1/2: dtm:mass=0\.9 \.\.\.",
         r"Warning: dtm: mass=0\.9 asks for k=2700 .*",  # its own line, not the step's end
         rf"    neighbour graph: exact \w+, n=3000, k=30 \.\.\. {t}",
@@ -251,19 +252,19 @@ def test_screen_command_in_a_pseudo_terminal(tmp_path):
         rf"  smoothness: Laplacian score on the neighbour graph \.\.\. {t}",
         rf"  selection \.\.\. {t}",
         *(rf"  probe {re.escape(c)}\s+\[#+\]\s+{cells}/{cells}\s+100%\s+\S+/s\s+in {t}"
-          for c in ("dtm[mass=0.9]", "pca_1", "pca_2")),
+          for c in ("dtm[mass=0.01033]", "pca_1", "pca_2")),
         rf"  writing ranking and lens columns \.\.\. {t}",
     ]
     assert len(shown) == len(expected), shown
     for got, pattern in zip(shown, expected, strict=True):
         assert re.fullmatch(pattern, got), (got, pattern)
     # No interleaving: every raw line (all its redraws) carries one label only.
-    labels = ["lens 1/2", "Warning", "neighbour graph:", "lens 2/2", "ranking 3", "smoothness:",
-              "selection", "probe dtm", "probe pca_1", "probe pca_2", "writing"]
+    labels = ["features (12)", "lens 1/2", "Warning", "neighbour graph:", "lens 2/2", "ranking 3",
+              "smoothness:", "selection", "probe dtm", "probe pca_1", "probe pca_2", "writing"]
     for line in lines:
         assert sum(label in line for label in labels) == 1, line
     # Each bar counts 0, 1, ..., cells in order, redrawn in place on its one line.
-    for line in lines[8:11]:
+    for line in lines[9:12]:
         counts = [int(m.group(1)) for p in line.split("\r")
                   if (m := re.search(rf"\s(\d+)/{cells}\s", p))]
         assert counts == sorted(counts) and set(counts) == set(range(cells + 1)), counts

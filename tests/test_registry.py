@@ -11,7 +11,8 @@ from lenswork.lenses._registry import REGISTRY, LensPart, Param, register_lens
 
 
 def test_unknown_lens_lists_valid_names():
-    with pytest.raises(ParameterError, match="Unknown lens 'densty'. Registered lenses: .*column"):
+    with pytest.raises(ParameterError, match=r"Unknown lens 'densty'. Did you mean 'density'\? "
+                       r"Registered lenses: .*column"):
         get_lens("densty")
 
 

@@ -126,13 +126,14 @@ def test_build_graph_with_settings_equals_keywords():
 
 
 # --------------------------------------------------------------------------- the CLI
-GRAPH_COMMANDS = ("graph", "stability", "bootstrap", "compare")
+#: Every command that builds a graph (cluster-graph is graph --scheduler under another name).
+GRAPH_COMMANDS = ("graph", "contrast", "stability", "bootstrap", "compare", "cluster-graph")
 
 
 def _graph_params(name):
     command = cli.commands[name]
     flags = {f.metadata["cli"]["flag"] for f in fields(GraphSettings) if "cli" in f.metadata}
-    flags.add("--neighbors")
+    flags |= {"--neighbors", "--min-neighbors", "--lens", "--lens-file", "--use"}
     out = {}
     for p in command.params:
         flag = next((o for o in p.opts if o in flags), None)
@@ -142,22 +143,28 @@ def _graph_params(name):
     return out
 
 
-def test_the_four_graph_commands_share_one_option_set():
+def test_every_graph_command_shares_one_option_set():
     every = _graph_params("graph")
     expected = {f.metadata["cli"]["flag"] for f in fields(GraphSettings) if "cli" in f.metadata}
-    assert set(every) == expected | {"--neighbors"}
+    lens_flags = {"--lens", "--lens-file", "--use"}
+    assert set(every) == expected | {"--neighbors", "--min-neighbors"} | lens_flags
     for name in GRAPH_COMMANDS[1:]:
         got = _graph_params(name)
-        # the stability map's --intervals / --overlaps are its grid, not one cover
+        # the stability map lays its own grid (--interval-counts, --overlaps), not one cover;
+        # compare takes one view per --use (its help says so)
         mine = {k: v for k, v in every.items()
-                if not (name == "stability" and k in ("--intervals", "--overlap"))}
+                if not (name == "stability" and k in ("--intervals", "--overlap"))
+                and not (name == "compare" and k in ("--lens", "--use"))}
+        assert set(mine) <= set(got), (name, set(mine) - set(got))
         got = {k: v for k, v in got.items() if k in mine}
         assert got == mine, name
+        assert lens_flags <= set(_graph_params(name)), name
+    assert "--intervals" not in _graph_params("stability")
     # defaults come from the dataclass (the one place that defines them)
     by_flag = {f.metadata["cli"]["flag"]: f.default for f in fields(GraphSettings)
                if "cli" in f.metadata}
     for flag, (default, _, _) in every.items():
-        if flag != "--neighbors":
+        if flag in by_flag:
             assert default == (str(by_flag[flag]) if flag in ("--intervals", "--overlap")
                                else by_flag[flag])
 
@@ -191,7 +198,7 @@ def test_every_setting_reaches_the_graph_from_the_cli(circle_csv, tmp_path):
 def test_cutoff_fence_is_accepted_by_every_graph_command(circle_csv, tmp_path):
     common = [str(circle_csv), "--id-column", "id", "--cutoff", "fence"]
     runs = {
-        "stability": ["--lens", "column:name=x", "--intervals", "8", "--overlaps", "0.3",
+        "stability": ["--lens", "column:name=x", "--interval-counts", "8", "--overlaps", "0.3",
                       "--no-figure"],
         "bootstrap": ["--lens", "column:name=x", "--resamples", "2", "--no-figure"],
         "compare": ["--lens", "column:name=x", "--lens", "column:name=y", "--no-figure"],
@@ -227,7 +234,7 @@ def test_result_writers_are_strict(tmp_path):
     X = noisy_circle(300, rng)
     ws = Workspace(X)
     lens = LensColumn("x", X[:, 0], params={"width": math.nan})
-    _, sidecar = stability_map(lens, ws, intervals=(6, 8), overlaps=(0.3,)).write(
+    _, sidecar = stability_map(lens, ws, interval_counts=(6, 8), overlaps=(0.3,)).write(
         tmp_path / "s.csv")
     meta = strict_loads(sidecar.read_text())
     assert meta["settings"] == GraphSettings().to_dict()

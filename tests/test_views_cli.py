@@ -31,7 +31,7 @@ def _run(*args):
 def test_stability_command(circle_csv, tmp_path):
     out = tmp_path / "st"
     res = _run("stability", circle_csv, "--id-column", "id", "--lens", "column:name=x",
-               "--intervals", "6,10,12", "--overlaps", "0.2,0.3", "-o", out)
+               "--interval-counts", "6,10,12", "--overlaps", "0.2,0.3", "-o", out)
     assert res.exit_code == 0, res.output
     assert "Stability map of column_x on 400 rows (3 x 2 cover settings)." in res.output
     assert "loops: 1 at the default setting; the same over 6 of 6 cells around it" in res.output
@@ -94,16 +94,16 @@ def test_compare_command(circle_csv, tmp_path):
 
 def test_command_errors(circle_csv, tmp_path):
     res = _run("compare", circle_csv, "--lens", "column:name=x", "-o", tmp_path / "c")
-    assert res.exit_code == 2 and "Give at least two --lens options" in res.output
+    assert res.exit_code == 2 and "Give two views or more" in res.output
     res = _run("stability", circle_csv, "--lens", "column:name=x", "--cutoff", "far",
                "-o", tmp_path / "s")
     assert res.exit_code == 1
     # every graph command takes the same cut-off words (GraphSettings), fence included
     assert "Error: The --cutoff option must be 'auto', 'fence', 'none' or a non-negative" \
         in res.output
-    res = _run("stability", circle_csv, "--lens", "column:name=x", "--intervals", "0,4",
+    res = _run("stability", circle_csv, "--lens", "column:name=x", "--interval-counts", "0,4",
                "-o", tmp_path / "s")
-    assert res.exit_code == 1 and "'intervals' parameter of stability_map" in res.output
+    assert res.exit_code == 1 and "The --interval-counts option" in res.output
     res = _run("bootstrap", circle_csv, "--lens", "column:name=x", "--overlap", "a,b",
                "-o", tmp_path / "b")
     assert res.exit_code == 1 and "The --overlap option must be a number" in res.output

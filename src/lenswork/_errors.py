@@ -5,7 +5,9 @@ classes also inherit the matching built-in, so ``except ValueError`` works
 too. Messages follow one shape: what was wrong, what was expected, what to do.
 """
 
-__all__ = ["InputError", "LensworkError", "LensworkWarning", "ParameterError"]
+__all__ = [
+    "InputError", "LensworkError", "LensworkWarning", "ParameterError", "warn_caller",
+]
 
 
 class LensworkError(Exception):
@@ -53,3 +55,29 @@ class LensworkWarning(UserWarning):
     >>> caught[0].category.__name__
     'LensworkWarning'
     """
+
+
+def warn_caller(message, category=LensworkWarning):
+    """Warn with the first frame outside lenswork as the location: the caller's own line.
+
+    Every lenswork warning goes through here, so ``python -W`` filters and the
+    printed location name the user's script (or notebook cell), not a line
+    inside the library, however deep the warning was raised.
+
+    Examples
+    --------
+    >>> import warnings
+    >>> with warnings.catch_warnings(record=True) as caught:
+    ...     warnings.simplefilter("always")
+    ...     warn_caller("graph is disconnected")
+    >>> "lenswork" in caught[0].filename
+    False
+    """
+    import sys
+    import warnings
+
+    level, frame = 2, sys._getframe(1)  # stacklevel k + 1 is the frame sys._getframe(k)
+    while frame is not None and frame.f_globals.get("__name__", "").startswith("lenswork"):
+        frame = frame.f_back
+        level += 1
+    warnings.warn(message, category, stacklevel=level)

@@ -50,8 +50,8 @@ import sys
 import time
 
 __all__ = [
-    "ENV_VAR", "configure", "interrupt", "progress_wanted", "restore", "set_reporter", "step",
-    "track",
+    "ENV_VAR", "configure", "interrupt", "note", "progress_wanted", "restore", "set_reporter",
+    "step", "track",
 ]
 
 #: Environment variable that forces progress on (1, yes, on, always) or off (0, no, off, never).
@@ -63,6 +63,9 @@ _OFF = {"0", "no", "off", "false", "never"}
 
 class _Silent:
     def interrupt(self):
+        pass
+
+    def note(self, text):
         pass
 
     def step(self, label):
@@ -144,6 +147,13 @@ class _Printing:
             self._end_open_line()
         elif self._loops and self.live:
             self._write("\n")  # the bar redraws itself on the next line
+
+    def note(self, text):
+        """One line of information at the current indentation (never inside a loop's bar)."""
+        if self._loops:
+            return
+        self._end_open_line()
+        self._write(f"{self._indent()}{text}\n")
 
     @contextlib.contextmanager
     def step(self, label):
@@ -305,6 +315,22 @@ def interrupt():
     ['  reading ...', 'Warning: a message', '  reading']
     """
     _reporter.interrupt()
+
+
+def note(text):
+    """Print one line of information with the progress lines (nothing when they are off).
+
+    Examples
+    --------
+    >>> import io
+    >>> out = io.StringIO()
+    >>> previous = set_reporter(True, out)
+    >>> note("features (2): x, y")
+    >>> restore(previous)
+    >>> out.getvalue()
+    '  features (2): x, y\\n'
+    """
+    _reporter.note(text)
 
 
 def step(label):

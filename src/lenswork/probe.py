@@ -157,20 +157,21 @@ MAP_OVERLAPS = (0.1, 0.2, 0.3, 0.4, 0.5)
 
 
 # --------------------------------------------------------------------------- grid
-def _check_grid(intervals, overlaps, context):
+def _check_grid(interval_counts, overlaps, context):
     """Validated, de-duplicated, sorted interval counts and overlaps."""
-    if isinstance(intervals, (str, int, np.integer)):
-        intervals = [intervals] if not isinstance(intervals, str) else intervals.split(",")
+    if isinstance(interval_counts, (str, int, np.integer)):
+        interval_counts = ([interval_counts] if not isinstance(interval_counts, str)
+                           else interval_counts.split(","))
     if isinstance(overlaps, (str, float, int, np.number)):
         overlaps = [overlaps] if not isinstance(overlaps, str) else overlaps.split(",")
     try:
-        iv = [check_int("intervals", v, lo=1, context=context) for v in intervals]
+        iv = [check_int("interval_counts", v, lo=1, context=context) for v in interval_counts]
         ov = [check_float("overlaps", v, lo=0, hi=1, hi_open=True, context=context)
               for v in overlaps]
     except TypeError:
         raise ParameterError(
-            f"The 'intervals' and 'overlaps' of {context} must be sequences of numbers, e.g. "
-            f"intervals=(6, 10, 14), overlaps=(0.25, 0.4)."
+            f"The 'interval_counts' and 'overlaps' of {context} must be sequences of numbers, e.g. "
+            f"interval_counts=(6, 10, 14), overlaps=(0.25, 0.4)."
         ) from None
     if not iv or not ov:
         raise ParameterError(
@@ -245,6 +246,11 @@ def probe_intervals(n_rows, min_size, overlap, columns=1, intervals=PROBE_INTERV
 
 def _graph_settings(settings, k, overrides):
     """GraphSettings from ``settings`` (object, dict or None), then ``k`` and the overrides."""
+    if "intervals" in overrides:  # one meaning per name: the grid's counts are interval_counts
+        raise ParameterError(
+            "The grid's interval counts are 'interval_counts' (e.g. interval_counts=(6, 10, 14)); "
+            "'intervals' is one cover's count per lens, which the grid replaces."
+        )
     return GraphSettings.coerce(settings, **overrides, k=k)
 
 
@@ -323,7 +329,7 @@ def _data_components(workspace, cols, settings):
     return workspace.cached(key, compute)
 
 
-def _grid_counts(cols, workspace, intervals, overlaps, settings, data_components, label,
+def _grid_counts(cols, workspace, interval_counts, overlaps, settings, data_components, label,
                  jitter=None):
     """Feature counts of the graph at every (intervals, overlap) cell: dict -> (p, q) arrays.
 
@@ -333,7 +339,7 @@ def _grid_counts(cols, workspace, intervals, overlaps, settings, data_components
     diagram (``lenswork.graph._persistence.lens_persistence``): the counts of significant
     loops and branches and the significance total ``T`` of the module notes.
     """
-    p, q = len(intervals), len(overlaps)
+    p, q = len(interval_counts), len(overlaps)
     keys = ("nodes", "edges", "unassigned", *FEATURES, "extra_components", "empty")
     out = {k: np.zeros((p, q), dtype=np.int64) for k in keys}
     diagrams = jitter is not None and settings.cover_kind == "interval"
@@ -343,7 +349,7 @@ def _grid_counts(cols, workspace, intervals, overlaps, settings, data_components
         out["significance_total"] = np.zeros((p, q), dtype=np.float64)
     cells = [(i, j) for i in range(p) for j in range(q)]
     for i, j in _progress.track(cells, f"probe {label}", length=len(cells)):
-        cell = grid_settings(settings, intervals[i], overlaps[j])
+        cell = grid_settings(settings, interval_counts[i], overlaps[j])
         if not diagrams:
             c = build_counts(cols, workspace, cell, data_components)
         else:
@@ -436,7 +442,7 @@ class StructureProbe(dict):
     ----------
     names : list of str
         Lens column names, in input order.
-    intervals, overlaps : tuple
+    interval_counts, overlaps : tuple
         The grid.
     counts : dict of str -> dict of str -> ndarray of shape (p, q)
         Per lens, the feature counts at every cell.
@@ -451,16 +457,16 @@ class StructureProbe(dict):
     >>> from lenswork import Workspace
     >>> t = np.linspace(0, 2 * np.pi, 300, endpoint=False)
     >>> ws = Workspace(np.column_stack([np.cos(t), np.sin(t)]))
-    >>> probe = structure_scores(ws.X, ws, intervals=(8,), overlaps=(0.3,))
+    >>> probe = structure_scores(ws.X, ws, interval_counts=(8,), overlaps=(0.3,))
     >>> probe.names, probe["lens_1"]["loops"], probe.columns(["loops"])["loops"].tolist()
     (['lens_1', 'lens_2'], 1, [1.0, 1.0])
     """
 
-    def __init__(self, scores, *, names, intervals, overlaps, counts, data_components, weights,
-                 floor, settings):
+    def __init__(self, scores, *, names, interval_counts, overlaps, counts, data_components,
+                 weights, floor, settings):
         super().__init__(scores)
         self.names = list(names)
-        self.intervals = tuple(intervals)
+        self.interval_counts = tuple(interval_counts)
         self.overlaps = tuple(overlaps)
         self.counts = counts
         self.data_components = int(data_components)
@@ -500,11 +506,11 @@ class StructureProbe(dict):
 
     def __repr__(self):
         best = max(self.names, key=lambda n: self[n]["structure"])
-        return (f"StructureProbe({len(self.names)} lens columns, {len(self.intervals)} x "
+        return (f"StructureProbe({len(self.names)} lens columns, {len(self.interval_counts)} x "
                 f"{len(self.overlaps)} grid, most structure: {best})")
 
 
-def structure_scores(lenses, workspace, *, settings=None, intervals=None,
+def structure_scores(lenses, workspace, *, settings=None, interval_counts=None,
                      overlaps=PROBE_OVERLAPS, k=None, weights=None, floor=0.25, **overrides):
     """Score the graph structure each lens column reveals over a small grid of covers.
 
@@ -514,7 +520,7 @@ def structure_scores(lenses, workspace, *, settings=None, intervals=None,
         Candidate lens columns; each column is probed on its own (a 1-D cover).
     workspace : Workspace or array-like of shape (n_samples, n_features)
         Supplies the shared neighbour graph (computed once, used by every build).
-    intervals : sequence of int, optional
+    interval_counts : sequence of int, optional
         Interval counts of the grid (default: (6, 10, 14) capped by
         :func:`probe_intervals` for the number of rows and ``min_size``).
     overlaps : sequence of float in [0, 1), default=(0.25, 0.4)
@@ -564,7 +570,7 @@ def structure_scores(lenses, workspace, *, settings=None, intervals=None,
 
     Notes
     -----
-    Cost: ``len(intervals) * len(overlaps) * m`` graph builds, each O(n k) on
+    Cost: ``len(interval_counts) * len(overlaps) * m`` graph builds, each O(n k) on
     the shared neighbour graph, plus one build for the data's own components,
     and one extended persistence diagram per graph (milliseconds for graphs
     of tens to hundreds of nodes).
@@ -584,11 +590,11 @@ def structure_scores(lenses, workspace, *, settings=None, intervals=None,
     floor = check_float("floor", floor, lo=0, hi=1, hi_open=True, context="structure_scores")
     settings = _graph_settings(settings, k, overrides)
     workspace = as_workspace(workspace)
-    if intervals is None:
+    if interval_counts is None:
         _, overlaps = _check_grid(PROBE_INTERVALS, overlaps, "structure_scores")
-        intervals = probe_intervals(workspace.n, _min_size(settings, workspace.n),
+        interval_counts = probe_intervals(workspace.n, _min_size(settings, workspace.n),
                                     min(overlaps))
-    intervals, overlaps = _check_grid(intervals, overlaps, "structure_scores")
+    interval_counts, overlaps = _check_grid(interval_counts, overlaps, "structure_scores")
     cols = as_lens_table(lenses, workspace, what="structure_scores", finite=False).columns
     good = [c for c in cols if np.isfinite(np.asarray(c.values)).all()]
     data_c = _data_components(workspace, good or cols, settings) if good else 0
@@ -601,12 +607,12 @@ def structure_scores(lenses, workspace, *, settings=None, intervals=None,
             )
             scores[col.name] = {k: math.nan for k in _score_keys()}
             continue
-        grid = _grid_counts([col], workspace, intervals, overlaps, settings, data_c, col.name,
+        grid = _grid_counts([col], workspace, interval_counts, overlaps, settings, data_c, col.name,
                             jitter=_jitter(col, workspace, settings))
         counts[col.name] = grid
         scores[col.name] = _score(grid, weights, floor, workspace.n)
     return StructureProbe(
-        scores, names=[c.name for c in cols], intervals=intervals, overlaps=overlaps,
+        scores, names=[c.name for c in cols], interval_counts=interval_counts, overlaps=overlaps,
         counts=counts, data_components=data_c, weights=weights, floor=floor,
         settings=settings.to_dict(),
     )
@@ -635,11 +641,11 @@ class StabilityMap:
     ----------
     lens : str
         The lens column name(s), joined by `` x `` for a multi-column cover.
-    intervals : tuple of int
+    interval_counts : tuple of int
         Interval counts (grid rows).
     overlaps : tuple of float
         Overlaps (grid columns).
-    counts : dict of str -> ndarray of shape (len(intervals), len(overlaps)), int
+    counts : dict of str -> ndarray of shape (len(interval_counts), len(overlaps)), int
         ``nodes``, ``edges``, ``unassigned`` (rows in no node), ``components``,
         ``loops``, ``branch_points``, ``flares``, ``extra_components`` and
         ``empty`` (1 where no cover element kept a group of ``min_size`` rows)
@@ -658,13 +664,13 @@ class StabilityMap:
     >>> from lenswork import Workspace
     >>> t = np.linspace(0, 2 * np.pi, 300, endpoint=False)
     >>> ws = Workspace(np.column_stack([np.cos(t), np.sin(t)]))
-    >>> smap = stability_map(ws.X[:, 0], ws, intervals=(8, 10), overlaps=(0.3,))
+    >>> smap = stability_map(ws.X[:, 0], ws, interval_counts=(8, 10), overlaps=(0.3,))
     >>> smap.default_cell, smap.region("loops").tolist(), len(smap.rows())
     ((1, 0), [[True], [True]], 2)
     """
 
     lens: str
-    intervals: tuple
+    interval_counts: tuple
     overlaps: tuple
     counts: dict
     n_rows: int
@@ -682,7 +688,8 @@ class StabilityMap:
         """Grid position (row, column) of the default setting, or None."""
         if self.default is None:
             return None
-        i = self.intervals.index(self.default[0]) if self.default[0] in self.intervals else None
+        i = (self.interval_counts.index(self.default[0])
+             if self.default[0] in self.interval_counts else None)
         close = [j for j, o in enumerate(self.overlaps) if math.isclose(o, self.default[1])]
         return None if i is None or not close else (i, close[0])
 
@@ -697,7 +704,7 @@ class StabilityMap:
 
         Returns
         -------
-        ndarray of bool, shape (len(intervals), len(overlaps))
+        ndarray of bool, shape (len(interval_counts), len(overlaps))
         """
         if feature not in self.counts:
             raise ParameterError(
@@ -714,7 +721,7 @@ class StabilityMap:
     def rows(self):
         """One dict per grid cell: intervals, overlap, then every count."""
         out = []
-        for i, iv in enumerate(self.intervals):
+        for i, iv in enumerate(self.interval_counts):
             for j, ov in enumerate(self.overlaps):
                 out.append({"intervals": int(iv), "overlap": float(ov),
                             **{k: int(v[i, j]) for k, v in self.counts.items()}})
@@ -733,7 +740,7 @@ class StabilityMap:
         """JSON-ready description: lens, grid, settings, default, data components, version."""
         return {
             "lenswork_version": __version__, "kind": "stability map", "lens": self.lens,
-            "n_rows": self.n_rows, "intervals": list(self.intervals),
+            "n_rows": self.n_rows, "interval_counts": list(self.interval_counts),
             "overlaps": list(self.overlaps), "default": list(self.default or []) or None,
             "data_components": self.data_components, "settings": dict(self.settings),
         }
@@ -767,7 +774,7 @@ class StabilityMap:
         return records_frame(self.rows(), what="a StabilityMap")
 
 
-def stability_map(lens, workspace, *, settings=None, intervals=MAP_INTERVALS,
+def stability_map(lens, workspace, *, settings=None, interval_counts=MAP_INTERVALS,
                   overlaps=MAP_OVERLAPS, k=None, **overrides):
     """Feature counts of one lens's graph over a grid of cover settings.
 
@@ -777,7 +784,7 @@ def stability_map(lens, workspace, *, settings=None, intervals=MAP_INTERVALS,
         One lens; several columns give a product cover, with the same interval
         count and overlap on every column.
     workspace : Workspace
-    intervals : sequence of int, default=(4, 6, 8, 10, 12, 14, 16, 20)
+    interval_counts : sequence of int, default=(4, 6, 8, 10, 12, 14, 16, 20)
     overlaps : sequence of float in [0, 1), default=(0.1, 0.2, 0.3, 0.4, 0.5)
     settings : GraphSettings or dict, optional
         The graph settings; each cell replaces the cover's resolution and
@@ -791,7 +798,7 @@ def stability_map(lens, workspace, *, settings=None, intervals=MAP_INTERVALS,
     Returns
     -------
     StabilityMap
-        ``.counts[feature]`` is a (len(intervals), len(overlaps)) int array;
+        ``.counts[feature]`` is a (len(interval_counts), len(overlaps)) int array;
         ``.write(path)`` writes the CSV table, ``.plot(path)`` the heat maps,
         ``.region(feature)`` the stable region around the default setting.
 
@@ -809,20 +816,20 @@ def stability_map(lens, workspace, *, settings=None, intervals=MAP_INTERVALS,
     >>> from lenswork import Workspace
     >>> t = np.linspace(0, 2 * np.pi, 500, endpoint=False)
     >>> ws = Workspace(np.column_stack([np.cos(t), np.sin(t)]))
-    >>> smap = stability_map(np.cos(t), ws, intervals=(6, 10), overlaps=(0.2, 0.3))
+    >>> smap = stability_map(np.cos(t), ws, interval_counts=(6, 10), overlaps=(0.2, 0.3))
     >>> smap.counts["loops"].tolist()
     [[1, 1], [1, 1]]
     """
-    intervals, overlaps = _check_grid(intervals, overlaps, "stability_map")
+    interval_counts, overlaps = _check_grid(interval_counts, overlaps, "stability_map")
     settings = _graph_settings(settings, k, overrides)
     workspace = as_workspace(workspace)
     cols = as_lens_table(lens, workspace, what="stability_map").columns
     data_c = _data_components(workspace, cols, settings)
     label = lens_label(cols)
-    counts = _grid_counts(cols, workspace, intervals, overlaps, settings, data_c, label)
+    counts = _grid_counts(cols, workspace, interval_counts, overlaps, settings, data_c, label)
     return StabilityMap(
-        lens=label, intervals=intervals, overlaps=overlaps, counts=counts, n_rows=workspace.n,
-        data_components=data_c,
+        lens=label, interval_counts=interval_counts, overlaps=overlaps, counts=counts,
+        n_rows=workspace.n, data_components=data_c,
         default=default_cell_setting(settings, workspace.n, len(cols)),
         settings=settings.to_dict(),
     )

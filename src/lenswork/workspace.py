@@ -10,13 +10,12 @@ all read the same :class:`NeighborGraph`.
 
 from __future__ import annotations
 
-import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from . import _progress
-from ._errors import InputError, LensworkWarning, ParameterError
+from ._errors import InputError, ParameterError, warn_caller
 from ._validation import check_choice, check_int, seed_of
 from .data import PointCloud
 
@@ -496,4 +495,4 @@ class Workspace:
 
     def warn(self, message):
         """Issue a :class:`~lenswork.LensworkWarning` (soft problem; work goes on)."""
-        warnings.warn(message, LensworkWarning, stacklevel=3)
+        warn_caller(message)

@@ -42,13 +42,13 @@ def run(quick=False):
         # timings without tracemalloc (it slows Python code down); memory in a second run
         ws = Workspace(X, random_state=0)
         g, t_nn = timed(ws.neighbors, 15)
-        probe, t_probe = timed(structure_scores, [lens], ws, intervals=GRID_INTERVALS,
+        probe, t_probe = timed(structure_scores, [lens], ws, interval_counts=GRID_INTERVALS,
                                 overlaps=GRID_OVERLAPS)
         smap, t_map = timed(stability_map, lens, ws)
         probe_t[n] = t_probe
         ws2 = Workspace(X, random_state=0)
         ws2.neighbors(15)
-        _, _, peak, rss = measure(structure_scores, [lens], ws2, intervals=GRID_INTERVALS,
+        _, _, peak, rss = measure(structure_scores, [lens], ws2, interval_counts=GRID_INTERVALS,
                                   overlaps=GRID_OVERLAPS)
         s = probe["height"]
         rows.append({

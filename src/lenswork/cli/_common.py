@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import functools
+import re
 import warnings
 from dataclasses import fields
 from pathlib import Path
@@ -16,15 +17,76 @@ from ..workspace import METHODS
 
 __all__ = [
     "LensworkGroup",
+    "Neighbors",
+    "build_view",
+    "cli_text",
+    "colour_data",
     "cutoff_value",
     "graph_option_fields",
     "graph_options",
     "input_options",
+    "lens_options",
+    "lens_table",
+    "lens_views",
     "load_input",
     "neighbors_option",
     "number_list",
+    "feature_text",
     "output_dir",
+    "parse_color",
+    "split_names",
 ]
+
+
+#: Python names in library messages -> what a command-line user gives or sees instead.
+#: Library messages write "python (CLI: option)" or "(python; CLI: option)"; the rules
+#: below keep the option. Whole phrases that name Python objects follow.
+_CLI_RULES = (
+    (re.compile(r"\(([^();]*?); CLI: ([^)]*)\)"), r"(\2)"),
+    (re.compile(r"[\w.]+=(?:'[^']*'|\[\.\.\.\]|\.\.\.|[\w.]+) \(CLI: ([^)]*)\)"), r"\1"),
+    (re.compile(r"They are listed in PointCloud\.excluded and written to outputs with missing "
+                r"lens values\."),
+     "They are written to the outputs with empty lens values."),
+    (re.compile(r"they are listed in LensGraph\.unassigned\. Use (.*?)a smaller min_size"),
+     r"they are listed under 'unassigned' in graph.json. Use \1a smaller --min-size"),
+    (re.compile(r"smaller than min_size=(\d+)"), r"smaller than --min-size \1"),
+    (re.compile(r"a larger k \(thin slices"), "a larger -k (thin slices"),
+    (re.compile(r"a larger Workspace\(min_neighbors=\.\.\.\)"), "a larger --min-neighbors"),
+    (re.compile(r"load them with lenswork\.load_table\(\.\.\., invalid='exclude'\)"),
+     "pass --skip-invalid"),
+)
+
+
+#: Python parameter names of the graph settings (and the stability grid) -> their options.
+_OPTION_OF = {
+    **{f.name: f.metadata["cli"]["flag"] for f in fields(GraphSettings) if "cli" in f.metadata},
+    "interval_counts": "--interval-counts", "overlaps": "--overlaps",
+}
+_PARAMETER_OF = re.compile(
+    r"The '(\w+)' parameter of (?:Cover|BallCover|GraphSettings|build_graph|stability_map)\b")
+
+
+def _option_of(match):
+    flag = _OPTION_OF.get(match.group(1))
+    return f"The {flag} option" if flag else match.group(0)
+
+
+def cli_text(message):
+    """A library message as a command-line user reads it: options, not Python objects.
+
+    Examples
+    --------
+    >>> cli_text("or pass invalid='exclude' (CLI: --skip-invalid) to keep them out")
+    'or pass --skip-invalid to keep them out'
+    >>> cli_text("Choose them (features=[...]; CLI: --features).")
+    'Choose them (--features).'
+    >>> cli_text("The 'min_size' parameter of build_graph must be an int in [1, inf).")
+    'The --min-size option must be an int in [1, inf).'
+    """
+    text = str(message)
+    for pattern, replacement in _CLI_RULES:
+        text = pattern.sub(replacement, text)
+    return _PARAMETER_OF.sub(_option_of, text)
 
 
 class LensworkGroup(click.Group):
@@ -37,7 +99,7 @@ class LensworkGroup(click.Group):
                 warnings.showwarning = _show_warning
                 return super().invoke(ctx)
         except LensworkError as err:
-            raise click.ClickException(str(err)) from None
+            raise click.ClickException(cli_text(err)) from None
         except MemoryError:
             raise click.ClickException(
                 "Ran out of memory. Use fewer rows, a smaller k, or the scalable modes."
@@ -47,7 +109,7 @@ class LensworkGroup(click.Group):
 def _show_warning(message, category, filename, lineno, file=None, line=None):
     prefix = "Warning" if issubclass(category, LensworkWarning) else category.__name__
     _progress.interrupt()  # a line of its own, never the end of a step's "label ..." line
-    click.echo(f"{prefix}: {message}", err=True)
+    click.echo(f"{prefix}: {cli_text(message)}", err=True)
 
 
 def input_options(func):
@@ -59,9 +121,13 @@ def input_options(func):
     )
     @click.option(
         "-f", "--features", default=None, metavar="COLS",
-        help="Feature columns, comma-separated names or 1-based positions (default: every "
-        "numeric column but the id).",
+        help="Feature columns, comma-separated: names, 1-based positions (3), position ranges "
+        "(2-53), name ranges in table order (w00:w51), and ~ before any of these to leave "
+        "columns out (-f '~id,~notes'). Default: every numeric column but the id.",
     )
+    @click.option("--exclude", multiple=True, metavar="COL",
+                  help="Leave a column (or range) out of the features; repeatable. The same as "
+                  "-f '~COL'.")
     @click.option("--id-column", default=None, metavar="COL", help="Column holding row ids.")
     @click.option(
         "--scale", type=click.Choice(["none", "zscore", "robust"]), default=None,
@@ -76,8 +142,9 @@ def input_options(func):
                   help="Field delimiter of a text table (default: detected).")
     @click.option("--seed", default=0, show_default=True, type=int, help="Random seed.")
     @functools.wraps(func)
-    def wrapper(*args, table, demo, features, id_column, scale, skip_invalid, delimiter, seed,
-                **kwargs):
+    def wrapper(*args, table, demo, features, exclude, id_column, scale, skip_invalid, delimiter,
+                seed, **kwargs):
+        features = feature_text(features, exclude)
         cloud = load_input(table, demo, features, id_column, scale, skip_invalid, delimiter)
         return func(*args, cloud=cloud, seed=seed, **kwargs)
 
@@ -86,8 +153,6 @@ def input_options(func):
 
 def load_input(table, demo, features, id_column, scale, skip_invalid, delimiter=None):
     """Load the PointCloud a command works on (the demo when asked or no table given)."""
-    from ..data import load_table
-
     if demo and table:
         raise click.UsageError("Give a TABLE or --demo, not both.")
     if table is None:
@@ -95,16 +160,31 @@ def load_input(table, demo, features, id_column, scale, skip_invalid, delimiter=
             raise click.UsageError("Give a TABLE to read, or --demo for the bundled demo data.")
         from ..demo import load_demo
 
-        return load_demo(scale=scale or "zscore")
-    feats = None
-    if features:
-        feats = [f.strip() for f in features.split(",") if f.strip()]
-        feats = [int(f) - 1 if f.isdigit() else f for f in feats]  # 1-based on the CLI
+        cloud = load_demo(scale=scale or "zscore")
+    else:
+        cloud = _load_table(table, features, id_column, scale, skip_invalid, delimiter)
+    names = cloud.feature_names
+    _progress.note(f"features ({len(names)}): {', '.join(names)}"
+                   + (f"; row ids from {cloud.id_name!r}" if cloud.provenance.get("id_column")
+                      else "; row ids 1..n (no --id-column)"))
+    return cloud
+
+
+def _load_table(table, features, id_column, scale, skip_invalid, delimiter):
+    from ..data import load_table
+
     return load_table(
-        table, features=feats, id_column=id_column,
+        table, features=features or None, id_column=id_column,
         scale=None if scale in (None, "none") else scale,
         invalid="exclude" if skip_invalid else "error", delimiter=delimiter,
     )
+
+
+def feature_text(features, exclude=()):
+    """``-f`` text with every ``--exclude`` column appended as ``~COL`` (None when neither)."""
+    items = [features] if features else []
+    items += [f"~{x.strip().lstrip('~')}" for x in exclude or () if x.strip()]
+    return ",".join(items) or None
 
 
 def number_list(text, cast, option):
@@ -146,12 +226,188 @@ def output_dir(path):
     return path
 
 
-#: The --neighbors option, defined once for every command that builds a neighbour graph.
-neighbors_option = click.option(
-    "--neighbors", "neighbor_method", type=click.Choice(METHODS), default="auto",
-    show_default=True, help="Neighbour-graph back end: exact (scikit-learn), approximate "
-    "(pynndescent) or auto (exact for small or low-dimensional data).",
-)
+class Neighbors:
+    """The shared neighbour graph's options of one command: back end and least k."""
+
+    def __init__(self, method="auto", min_neighbors=None):
+        self.method, self.min_neighbors = method, min_neighbors
+
+    @property
+    def given(self):
+        """Whether either option was set away from its default."""
+        return self.method != "auto" or self.min_neighbors is not None
+
+    def workspace(self, cloud, seed):
+        """The Workspace of ``cloud`` with these options."""
+        from ..workspace import Workspace
+
+        extra = {} if self.min_neighbors is None else {"min_neighbors": self.min_neighbors}
+        return Workspace(cloud, random_state=seed, neighbor_method=self.method, **extra)
+
+
+def neighbors_option(func):
+    """``--neighbors`` (back end) and ``--min-neighbors`` for every command that builds a
+    neighbour graph; the command receives ``neighbors`` (a :class:`Neighbors`)."""
+
+    @functools.wraps(func)
+    def wrapper(*args, neighbor_method, min_neighbors, **kwargs):
+        return func(*args, neighbors=Neighbors(neighbor_method, min_neighbors), **kwargs)
+
+    wrapper = click.option(
+        "--min-neighbors", type=click.IntRange(min=1), default=None, metavar="K",
+        help="Neighbours per row the shared graph holds at least (default 30). dtm reads "
+        "ceil(mass n) - 1 of them: raise this when a dtm mass is capped (at most 99).",
+    )(wrapper)
+    return click.option(
+        "--neighbors", "neighbor_method", type=click.Choice(METHODS), default="auto",
+        show_default=True, help="Neighbour-graph back end: exact (scikit-learn), approximate "
+        "(pynndescent) or auto (exact for small or low-dimensional data).",
+    )(wrapper)
+
+
+def parse_color(text):
+    """``COL``, ``COL:STAT`` or ``COL:share=LEVEL`` -> (column, stat, level)."""
+    m = re.fullmatch(r"(.+?)(?::(mean|median|min|max|std|share)(?:=(.+))?)?", text.strip())
+    column, stat, level = m.group(1), m.group(2) or "mean", m.group(3)
+    if level is not None and stat != "share":
+        raise ParameterError(f"--color {text!r}: only share takes a level (COL:share=LEVEL).")
+    return column, stat, level
+
+
+def colour_data(ws, column):
+    """Where a --color column's row values come from: a feature in the table's own units
+    (any --scale undone), else the workspace (passthrough columns, categorical levels)."""
+    cloud = ws.cloud
+    return cloud.unscaled(column) if column in cloud.feature_names else ws
+
+
+def split_names(text):
+    """'a, b,c' -> ['a', 'b', 'c']; None -> None."""
+    if text is None:
+        return None
+    return [x.strip() for x in str(text).split(",") if x.strip()]
+
+
+_LENS_HELP = ("A lens as name or name:key=value,... (repeatable; `lenswork lenses` lists them), "
+              "or a lens column name as the screen ranks it (pca_2, laplacian_1, "
+              "eccentricity[p=1]).")
+
+
+def lens_options(views=False):
+    """``-l/--lens``, ``--lens-file`` and ``--use``: the lens columns a graph is built on.
+
+    The same three options on every command that builds a graph. The command
+    receives ``lens_specs`` (tuple), ``lens_file`` and ``use`` (text, or a tuple
+    of texts with ``views=True``, where each ``--use`` is one view).
+    """
+    if views:
+        lens_help = "One view per --lens. " + _LENS_HELP
+        use_help = ("Columns of --lens-file that make one view, comma-separated (repeatable: one "
+                    "view each; default: one view per column of the file).")
+    else:
+        lens_help = _LENS_HELP + " Two or more lens columns give a product cover."
+        use_help = "Columns to take from --lens-file, comma-separated (default: all of them)."
+
+    def decorator(func):
+        func = click.option("--use", "use", default=None, multiple=views, metavar="COLS",
+                            help=use_help)(func)
+        func = click.option(
+            "--lens-file", type=click.Path(dir_okay=False), default=None,
+            help="Lens columns written by `lenswork compute` or `lenswork screen` (CSV, TSV or "
+            "Parquet with its .json sidecar), matched to TABLE by row id. A --lens naming one "
+            "of its columns is read from it.",
+        )(func)
+        return click.option("-l", "--lens", "lens_specs", multiple=True, metavar="SPEC",
+                            help=lens_help)(func)
+
+    return decorator
+
+
+def _check_lens_choice(lens_specs, lens_file, use):
+    if not lens_specs and not lens_file:
+        raise click.UsageError("Give at least one --lens or a --lens-file.")
+    if use and not lens_file:
+        raise click.UsageError("--use picks columns of a --lens-file; give the --lens-file too.")
+
+
+def _columns_for(ws, specs, file_table):
+    """Lens columns of ``specs``: a column of the lens file by its name, else computed."""
+    from ..lenses import compute_lenses
+
+    columns = []
+    for spec in specs:
+        if file_table is not None and spec.strip() in file_table.names:
+            columns.append(file_table[spec.strip()])
+        else:
+            columns += list(compute_lenses(ws, [spec]))
+    return columns
+
+
+def _file_columns(file_table, names, lens_file):
+    """The ``--use`` columns of the lens file (an unknown name: an error with a close match)."""
+    import difflib
+
+    for name in names:
+        if name not in file_table.names:
+            close = difflib.get_close_matches(name, file_table.names, n=1)
+            hint = f" Did you mean {close[0]!r}?" if close else ""
+            raise ParameterError(
+                f"--use {name!r}: the lens file {str(lens_file)!r} has no such column.{hint} Its "
+                f"columns: {', '.join(file_table.names)}."
+            )
+    return [file_table[name] for name in names]
+
+
+def _read_lens_file(ws, lens_file):
+    from ..table import LensTable
+
+    with _progress.step("read the lens file"):
+        return LensTable.read(lens_file, ws.cloud)
+
+
+def lens_table(ws, lens_specs, lens_file=None, use=None):
+    """The LensTable of one view: the lens file's columns (or its ``--use`` ones), then the
+    ``--lens`` ones (a ``--lens`` naming a column of the file is read from it, not computed)."""
+    from ..table import LensTable
+
+    _check_lens_choice(lens_specs, lens_file, use)
+    file_table = _read_lens_file(ws, lens_file) if lens_file else None
+    columns = []
+    if file_table is not None:
+        columns += _file_columns(file_table, split_names(use) or file_table.names, lens_file)
+    taken = {c.name for c in columns}
+    columns += [c for c in _columns_for(ws, lens_specs, file_table) if c.name not in taken]
+    return LensTable(columns, ws.cloud, random_state=ws.random_state)
+
+
+def lens_views(ws, lens_specs, lens_file=None, uses=()):
+    """``{label: LensTable}``: one view per ``--lens`` and per ``--use`` (or per file column)."""
+    from ..table import LensTable
+
+    _check_lens_choice(lens_specs, lens_file, uses)
+    file_table = _read_lens_file(ws, lens_file) if lens_file else None
+    views = {}
+    if file_table is not None:
+        groups = [split_names(u) for u in uses] if uses else (
+            [] if lens_specs else [[name] for name in file_table.names])
+        for names in groups:
+            views[",".join(names)] = LensTable(_file_columns(file_table, names, lens_file),
+                                               ws.cloud, random_state=ws.random_state)
+    for spec in lens_specs:
+        views[spec] = LensTable(_columns_for(ws, [spec], file_table), ws.cloud,
+                                random_state=ws.random_state)
+    return views
+
+
+def build_view(cloud, seed, lens_specs, lens_file, use, settings, neighbors, stats=None):
+    """``(workspace, lens table, graph)``: the graph of ``lenswork graph`` and ``contrast``."""
+    from ..graph import build_graph
+
+    _check_lens_choice(lens_specs, lens_file, use)
+    ws = neighbors.workspace(cloud, seed)
+    table = lens_table(ws, lens_specs, lens_file, use)
+    names = "all" if stats is not None and stats.strip().lower() == "all" else split_names(stats)
+    return ws, table, build_graph(table, ws, settings, columns=names)
 
 
 def _parser(f):
@@ -178,7 +434,7 @@ def graph_options(exclude=()):
     One option per field with ``cli`` metadata (flag, help, kind, choices),
     its default taken from the dataclass, so the graph commands cannot drift
     apart. The wrapped command receives ``settings`` (a validated
-    GraphSettings) and ``neighbor_method`` instead of the separate options.
+    GraphSettings) and ``neighbors`` (:class:`Neighbors`) instead of the separate options.
     ``exclude`` leaves fields to the command (the stability map's grid sets
     ``intervals`` and ``overlap`` itself).
     """

@@ -8,10 +8,18 @@ from pathlib import Path
 
 import click
 
-from .._errors import InputError, ParameterError
+from .._errors import InputError
 from ..contrast import AGAINST
-from ..graph import CLUSTERERS, COVER_SCALES, FRAGMENT_RULES, LAYOUTS
-from ._common import cutoff_value, input_options, neighbors_option, number_list, output_dir
+from ..graph import LAYOUTS
+from ._common import (
+    build_view,
+    colour_data,
+    graph_options,
+    input_options,
+    lens_options,
+    output_dir,
+    parse_color,
+)
 
 __all__ = ["COMMANDS"]
 
@@ -28,70 +36,19 @@ def _names(text):
 
 
 def graph_build_options(func):
-    """The options that say how to build the graph, as `lenswork graph` takes them."""
-    options = [
-        click.option("-l", "--lens", "lens_specs", multiple=True, metavar="SPEC",
-                     help="A lens as name or name:key=value,... (repeatable; `lenswork lenses` "
-                     "lists them)."),
-        click.option("--lens-file", type=click.Path(dir_okay=False), default=None,
-                     help="Lens columns written by `lenswork compute` or `lenswork screen`, "
-                     "matched to TABLE by row id."),
-        click.option("--use", "use", default=None, metavar="COLS",
-                     help="Columns to take from --lens-file, comma-separated (default: all)."),
-        click.option("--intervals", default="10", show_default=True, metavar="N[,N...]",
-                     help="Intervals per lens: one value, or one per lens column."),
-        click.option("--overlap", default="0.3", show_default=True, metavar="P[,P...]",
-                     help="Overlap fraction in [0, 1): one value, or one per lens column."),
-        click.option("--cover-scale", type=click.Choice(COVER_SCALES), default="rank",
-                     show_default=True, help="Intervals on ranks (equal counts) or raw values."),
-        click.option("--clusterer", type=click.Choice(CLUSTERERS), default="graph",
-                     show_default=True, help="How each cover element is clustered."),
-        click.option("--cutoff", default="auto", show_default=True,
-                     metavar="auto|fence|none|FLOAT", help="Longest k-NN edge kept."),
-        click.option("--min-size", default=10, show_default=True, type=int,
-                     help="Groups with fewer rows are fragments."),
-        click.option("--fragments", type=click.Choice(FRAGMENT_RULES), default="attach",
-                     show_default=True, help="Attach fragments to a near cluster, or report them."),
-        click.option("-k", "k", default=15, show_default=True, type=int,
-                     help="Neighbours of the shared k-NN graph."),
-        neighbors_option,
-    ]
-    for option in reversed(options):
-        func = option(func)
-    return func
+    """The options that say how to build the graph: `lenswork graph`'s own (GraphSettings)."""
+    return lens_options()(graph_options()(func))
 
 
 def build_from_options(cloud, seed, opts):
     """(workspace, lens table, graph) from the options of :func:`graph_build_options`."""
-    from ..graph import build_graph
-    from ..lenses import compute_lenses
-    from ..table import LensTable
-    from ..workspace import Workspace
-
-    if not opts["lens_specs"] and not opts["lens_file"]:
-        raise click.UsageError("Give at least one --lens or a --lens-file.")
-    if opts["use"] and not opts["lens_file"]:
-        raise click.UsageError("--use picks columns of a --lens-file; give the --lens-file too.")
-    ws = Workspace(cloud, random_state=seed, neighbor_method=opts["neighbor_method"])
-    columns = []
-    if opts["lens_file"]:
-        columns += list(LensTable.read(opts["lens_file"], cloud, columns=_names(opts["use"])))
-    if opts["lens_specs"]:
-        columns += list(compute_lenses(ws, list(opts["lens_specs"])))
-    table = LensTable(columns, cloud, random_state=seed)
-    graph = build_graph(
-        table, ws, intervals=number_list(opts["intervals"], int, "--intervals"),
-        overlap=number_list(opts["overlap"], float, "--overlap"), scale=opts["cover_scale"],
-        clusterer=opts["clusterer"], cutoff=cutoff_value(opts["cutoff"]),
-        min_size=opts["min_size"], k=opts["k"], fragments=opts["fragments"],
-    )
-    return ws, table, graph
+    return build_view(cloud, seed, opts["lens_specs"], opts["lens_file"], opts["use"],
+                      opts["settings"], opts["neighbors"])
 
 
 def _graph_opts(func):
     """Collect the graph-building options into one ``graph_opts`` dict."""
-    keys = ("lens_specs", "lens_file", "use", "intervals", "overlap", "cover_scale", "clusterer",
-            "cutoff", "min_size", "fragments", "k", "neighbor_method")
+    keys = ("lens_specs", "lens_file", "use", "settings", "neighbors")
 
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
@@ -129,15 +86,6 @@ def _read_ids(path, cloud):
     if not ids:
         raise InputError(f"--rows-file {str(path)!r} holds no row ids (one id per line).")
     return ids
-
-
-def parse_color(text):
-    """``COL``, ``COL:STAT`` or ``COL:share=LEVEL`` -> (column, stat, level)."""
-    m = re.fullmatch(r"(.+?)(?::(mean|median|min|max|std|share)(?:=(.+))?)?", text.strip())
-    column, stat, level = m.group(1), m.group(2) or "mean", m.group(3)
-    if level is not None and stat != "share":
-        raise ParameterError(f"--color {text!r}: only share takes a level (COL:share=LEVEL).")
-    return column, stat, level
 
 
 def _safe(label):
@@ -222,7 +170,8 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
     colour = parse_color(color) if color else None
     ws, table, graph = build_from_options(cloud, seed, graph_opts)
     if colour is not None:  # a wrong column or level fails here, before any file is written
-        node_column_values(graph, ws, colour[0], colour[1], level=colour[2])
+        node_column_values(graph, colour_data(ws, colour[0]), colour[0], colour[1],
+                           level=colour[2])
     result = contrast_columns(
         graph, ws, list(feature_labels) or None, rows=rows, against=against, hops=hops,
         columns=_names(columns), categorical=_names(categorical), lenses=table,
@@ -240,7 +189,8 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
                 result, graph, ws, label, top=top, layout=layout, random_state=seed)
         if colour is not None:
             figures[f"graph_{_safe(colour[0])}.png"] = draw_graph(
-                graph, color=colour[0], stat=colour[1], level=colour[2], data=ws,
+                graph, color=colour[0], stat=colour[1], level=colour[2],
+                data=colour_data(ws, colour[0]),
                 layout=layout, random_state=seed)
     click.echo(graph.summary().text(max_features=0).split("\n  ...")[0])
     click.echo(result.text(top, all_features=all_features))

@@ -2,15 +2,27 @@
 
 from __future__ import annotations
 
+import difflib
+
 import click
 
 from .. import _progress
-from ..graph import LAYOUTS, build_graph, write_graph_json, write_graphml, write_memberships
-from ..lenses import compute_lenses
-from ..table import LensTable
-from ..workspace import Workspace
-from ._common import graph_options, output_dir
-from ._partitioned import cluster_input_options, partitioned_settings, refuse_with_scheduler
+from .._errors import ParameterError
+from ..graph import LAYOUTS, write_graph_json, write_graphml, write_memberships
+from ._common import (
+    build_view,
+    colour_data,
+    graph_options,
+    lens_options,
+    output_dir,
+    parse_color,
+)
+from ._partitioned import (
+    cluster_input_options,
+    partitioned_settings,
+    refuse_with_scheduler,
+    scheduler_alias,
+)
 
 __all__ = ["COMMANDS"]
 
@@ -21,29 +33,16 @@ OUTPUTS = {
 }
 
 
-def _names(text):
-    if text is None:
-        return None
-    if text.strip().lower() == "all":
-        return "all"
-    return [x.strip() for x in text.split(",") if x.strip()]
-
-
 @click.command("graph")
 @cluster_input_options
-@click.option("-l", "--lens", "lens_specs", multiple=True, metavar="SPEC",
-              help="A lens as name or name:key=value,... (repeatable; `lenswork lenses` lists "
-              "them). Two or more lens columns give a product cover.")
-@click.option("--lens-file", type=click.Path(dir_okay=False), default=None,
-              help="Lens columns written by `lenswork compute` or `lenswork screen` (CSV, TSV or "
-              "Parquet with its .json sidecar), matched to TABLE by row id.")
-@click.option("--use", "use", default=None, metavar="COLS",
-              help="Columns to take from --lens-file, comma-separated (default: all of them).")
+@lens_options()
 @click.option("--stats", "stat_columns", default=None, metavar="COLS|all",
               help="Data columns whose node mean, min and max go into the files.")
-@click.option("--color", default=None, metavar="COL",
-              help="Lens or --stats column that colours the nodes, or 'size' (default: the "
-              "first lens).")
+@click.option("--color", default=None, metavar="COL[:STAT]",
+              help="What colours the nodes: a lens column, 'size', or any data column: COL "
+              "(node mean, in the table's own units), COL:median|min|max|std, or "
+              "COL:share=LEVEL (a categorical column's level; COL alone: its most frequent). "
+              "Default: the first lens.")
 @click.option("--layout", type=click.Choice(LAYOUTS), default="auto", show_default=True,
               help="auto: levels for one lens, lens coordinates for two, spring above.")
 @click.option("-o", "--out", "out_dir", default="lenswork-graph", show_default=True,
@@ -52,7 +51,7 @@ def _names(text):
 @click.option("--no-figure", is_flag=True, help="Skip the drawing (PNG and SVG).")
 @graph_options()
 def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, layout, out_dir,
-                  no_figure, settings, neighbor_method, cluster=None):
+                  no_figure, settings, neighbors, cluster=None):
     """Build a Mapper graph of TABLE (or --demo) over lens columns and summarise it.
 
     The lenses come from --lens (computed here on the shared neighbour graph) or
@@ -76,33 +75,26 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
     raw-value intervals with the element-knn clusterer (the same graph as
     --cover-scale raw --clusterer element-knn on one machine).
     """
-    if not lens_specs and not lens_file:
-        raise click.UsageError("Give at least one --lens or a --lens-file.")
-    if use and not lens_file:
-        raise click.UsageError("--use picks columns of a --lens-file; give the --lens-file too.")
     out = output_dir(out_dir)
+    colour = parse_color(color) if color else None
+    ws = None
     if cluster is not None:  # --scheduler: lenses and graph on partitions (element-knn rule)
-        refuse_with_scheduler(lens_file=lens_file, stats=stat_columns,
-                              neighbors=neighbor_method != "auto")
+        refuse_with_scheduler(lens_file=lens_file, stats=stat_columns, neighbors=neighbors.given)
+        if not lens_specs:
+            raise click.UsageError("Give at least one --lens.")
         graph = cluster.graph(lens_specs, partitioned_settings(settings))
     else:
-        ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
-        columns = []
-        if lens_file:
-            with _progress.step("graph: read the lens file"):
-                columns += list(LensTable.read(lens_file, cloud, columns=_names(use)))
-        if lens_specs:
-            columns += list(compute_lenses(ws, list(lens_specs)))
-        table = LensTable(columns, cloud, random_state=seed)
-        graph = build_graph(table, ws, settings, columns=_names(stat_columns))
-    if color is not None:
-        graph.node_values(color)  # a wrong name fails here, before any file is written
+        ws, _, graph = build_view(cloud, seed, lens_specs, lens_file, use, settings, neighbors,
+                                  stats=stat_columns)
+    draw = {}
+    if colour is not None:  # a wrong name or level fails here, before any file is written
+        draw = _colour_options(graph, ws, *colour)
     figures = {}
     if not no_figure:  # drawn before any file is written, so a failure leaves no partial output
         from ..plot._graph import draw_graph
 
         with _progress.step("graph: drawing"):
-            figures = {key: draw_graph(graph, color=color, layout=layout, random_state=seed)
+            figures = {key: draw_graph(graph, layout=layout, random_state=seed, **draw)
                        for key in ("png", "svg")}
     with _progress.step("graph: summary"):
         text = graph.summary().text()
@@ -120,4 +112,32 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
     click.echo(f"wrote {', '.join(str(p) for p in written)}")
 
 
-COMMANDS = [graph_command]
+def _colour_options(graph, ws, column, stat, level):
+    """draw_graph's colour keywords for --color, checked before anything is drawn."""
+    if level is None and stat in ("mean", "min", "max") and (
+            column == "size" or column in graph.node_stats):
+        graph.node_values(column, stat)
+        return {"color": column, "stat": stat}
+    if ws is None:  # the partitioned graph: its lens columns only
+        raise ParameterError(
+            f"With --scheduler, --color takes a lens column ({', '.join(graph.lens_columns)}) "
+            f"or 'size', as COL, COL:min or COL:max; got {column!r}."
+        )
+    cloud = ws.cloud
+    data_names = [*cloud.feature_names, *(str(k) for k in cloud.passthrough)]
+    if column not in data_names and column not in graph.node_stats:
+        close = difflib.get_close_matches(column, [*graph.node_stats, *data_names, "size"], n=1)
+        hint = f" Did you mean {close[0]!r}?" if close else ""
+        raise ParameterError(
+            f"--color {column!r}: the graph has no node values for {column!r} and the table no "
+            f"such column.{hint} Lens columns: {', '.join(graph.lens_columns)}; data columns: "
+            f"{', '.join(data_names)}; or 'size'."
+        )
+    from ..contrast import node_column_values
+
+    data = colour_data(ws, column)
+    node_column_values(graph, data, column, stat, level=level)
+    return {"color": column, "stat": stat, "level": level, "data": data}
+
+
+COMMANDS = [graph_command, scheduler_alias(graph_command, "cluster-graph")]

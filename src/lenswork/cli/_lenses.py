@@ -8,13 +8,13 @@ import click
 
 from ..lenses import ENDINGS, compute_lenses, get_lens, lens_names
 from ..normalize import NORMALIZATIONS
-from ..workspace import Workspace
 from ._common import neighbors_option
 from ._partitioned import (
     cluster_input_options,
     lens_out_dir,
     print_lens_run,
     refuse_with_scheduler,
+    scheduler_alias,
 )
 
 __all__ = ["COMMANDS"]
@@ -55,7 +55,7 @@ def list_lenses(only):
 @click.option("--normalize", "normalization", type=click.Choice(NORMALIZATIONS), default=None,
               help="Write normalised values (recorded in the sidecar) instead of raw ones.")
 @neighbors_option
-def compute(cloud, seed, lenses, out, normalization, neighbor_method, cluster=None):
+def compute(cloud, seed, lenses, out, normalization, neighbors, cluster=None):
     """Compute lens columns for TABLE (or --demo) and write them beside the row ids.
 
     The output holds the id column, the passthrough columns and one column per lens
@@ -69,12 +69,12 @@ def compute(cloud, seed, lenses, out, normalization, neighbor_method, cluster=No
     lenses/).
     """
     if cluster is not None:  # the partitioned path (lenswork.partitioned)
-        refuse_with_scheduler(normalize=normalization, neighbors=neighbor_method != "auto")
+        refuse_with_scheduler(normalize=normalization, neighbors=neighbors.given)
         ctx = click.get_current_context()
         out = lens_out_dir(out, ctx.get_parameter_source("out").name == "DEFAULT")
         lens, files = cluster.write_lenses(lenses, out)
         return print_lens_run(cluster.cloud, lens, files, out)
-    ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
+    ws = neighbors.workspace(cloud, seed)
     table = compute_lenses(ws, list(lenses))
     if normalization:
         table = table.normalize(normalization)
@@ -88,4 +88,4 @@ def compute(cloud, seed, lenses, out, normalization, neighbor_method, cluster=No
     click.echo(f"wrote {path} ({cloud.n} rows x {len(table)} lens columns) and {sidecar}")
 
 
-COMMANDS = [list_lenses, compute]
+COMMANDS = [list_lenses, compute, scheduler_alias(compute, "cluster-lenses")]

@@ -4,14 +4,16 @@
 --scheduler ...`` run on a Dask cluster: DATA is then a directory of Parquet or
 CSV partitions (or a glob), read by partition. :func:`cluster_input_options`
 replaces the commands' ``input_options`` and hands them a :class:`ClusterRun`
-(``cluster=``) instead of a loaded table; the commands ``cluster-lenses`` and
-``cluster-graph`` are the same two code paths under their earlier names.
+(``cluster=``) instead of a loaded table; ``cluster-lenses`` and ``cluster-graph``
+are aliases of ``compute --scheduler`` and ``graph --scheduler``
+(:func:`scheduler_alias`: the same command, --scheduler defaulting to local).
 """
 
 from __future__ import annotations
 
 import contextlib
 import functools
+import re
 import sys
 from pathlib import Path
 
@@ -21,13 +23,13 @@ from .. import _progress
 from ._common import input_options
 
 __all__ = [
-    "COMMANDS",
     "ClusterRun",
     "cluster_input_options",
     "lens_out_dir",
     "partitioned_settings",
     "print_lens_run",
     "refuse_with_scheduler",
+    "scheduler_alias",
 ]
 
 #: Endings of a single-file table: with --scheduler the lens columns go to a directory.
@@ -208,6 +210,11 @@ def cluster_input_options(func):
             return inner(*args, cluster=None, **kwargs)
         table, demo = kwargs.pop("table"), kwargs.pop("demo")
         features, id_column = kwargs.pop("features"), kwargs.pop("id_column")
+        if kwargs.pop("exclude"):
+            raise click.UsageError(
+                "--exclude is not offered with --scheduler; give the feature columns by name "
+                "with --features."
+            )
         scale, skip_invalid = kwargs.pop("scale"), kwargs.pop("skip_invalid")
         delimiter, seed = kwargs.pop("delimiter"), kwargs.pop("seed")
         if demo or table is None:
@@ -228,10 +235,11 @@ def cluster_input_options(func):
         feats = None
         if features:
             feats = [f.strip() for f in features.split(",") if f.strip()]
-            if any(f.isdigit() for f in feats):
+            if any(f.isdigit() or f.startswith("~") or re.fullmatch(r"\d+\s*-\s*\d+", f)
+                   for f in feats):
                 raise click.UsageError(
                     "With --scheduler give --features as column names (partitions may order "
-                    "their columns differently)."
+                    "their columns differently: no positions, ranges or ~ exclusions)."
                 )
         root = _root_params()
         show = _progress.progress_wanted(quiet=bool(root.get("quiet")), force=root.get("progress"))
@@ -276,85 +284,28 @@ def print_lens_run(cloud, lens, files, out):
                f"to {out}")
 
 
-def _alias_options(func):
-    func = click.option("-l", "--lens", "lenses", multiple=True, required=True,
-                        help="Lens spec, repeatable: pca:components=2, eccentricity, "
-                        "eccentricity:p=1, column:name=COL, density, dtm:mass=0.05, "
-                        "laplacian:components=2,k=15.")(func)
-    func = click.option("--seed", default=0, show_default=True, type=int,
-                        help="Seed of the landmark sample.")(func)
-    func = click.option("-f", "--features", default=None, metavar="COLS",
-                        help="Feature columns, comma-separated names.")(func)
-    func = click.option("--id-column", default=None, metavar="COL",
-                        help="Column of row ids (unique across partitions).")(func)
-    func = click.option("--scale", type=click.Choice(["none", "zscore"]), default="none",
-                        show_default=True,
-                        help="z-score each feature with the mean and sd of all rows.")(func)
-    func = click.argument("source")(func)
-    return _scheduler_options(func, default="local")
+def scheduler_alias(command, name):
+    """``name`` as an alias of ``command --scheduler`` (default ``local``): the same options and
+    code, a --help that says so, and a one-line notice on stderr when run."""
+    import copy
+    import inspect
 
+    params = []
+    for param in command.params:
+        param = copy.copy(param)
+        if param.name == "scheduler":
+            param.default, param.show_default = "local", True
+        params.append(param)
+    target = f"lenswork {command.name} TABLE --scheduler ADDRESS|local"
 
-def _alias_run(source, features, id_column, scale, seed, landmarks, scheduler, workers,
-               memory_limit):
-    root = _root_params()
-    show = _progress.progress_wanted(quiet=bool(root.get("quiet")), force=root.get("progress"))
-    feats = [f.strip() for f in features.split(",")] if features else None
-    return ClusterRun(source, features=feats, id_column=id_column,
-                      scale=None if scale == "none" else scale, seed=seed, landmarks=landmarks,
-                      scheduler=scheduler, workers=workers, memory_limit=memory_limit,
-                      show_progress=show)
+    def callback(**kwargs):
+        click.echo(f"Note: `lenswork {name}` is another name for `{target}` (the same job and "
+                   f"options); use that.", err=True)
+        return command.callback(**kwargs)
 
-
-@click.command("cluster-lenses")
-@_alias_options
-@click.option("-o", "--out", required=True, type=click.Path(file_okay=False),
-              help="Directory for one Parquet file of lens columns per partition and "
-              "lenses.json.")
-def cluster_lenses(source, features, id_column, scale, lenses, seed, scheduler, workers,
-                   memory_limit, landmarks, out):
-    """Lens columns of SOURCE on a Dask cluster: `lenswork compute SOURCE --scheduler ...`.
-
-    SOURCE is a directory of Parquet or CSV files (one partition each) or a glob.
-    Exact lenses (pca, eccentricity with p = 2, column) equal the single-machine
-    ones; the others state their error in lenses.json.
-    """
-    with _alias_run(source, features, id_column, scale, seed, landmarks, scheduler, workers,
-                    memory_limit) as run:
-        lens, files = run.write_lenses(lenses, out)
-        print_lens_run(run.cloud, lens, files, out)
-
-
-@click.command("cluster-graph")
-@_alias_options
-@click.option("--intervals", default=10, show_default=True, type=int,
-              help="Intervals per lens (on the raw lens values).")
-@click.option("--overlap", default=0.3, show_default=True, type=float,
-              help="Overlap fraction of neighbouring intervals, in [0, 1).")
-@click.option("-k", "--neighbors", "k", default=15, show_default=True, type=int,
-              help="Neighbours inside each cover element.")
-@click.option("--min-size", default=10, show_default=True, type=int,
-              help="Groups with fewer points are fragments (attached to the nearest kept one).")
-@click.option("-o", "--out", required=True, type=click.Path(dir_okay=False),
-              help="Graph JSON file.")
-def cluster_graph(source, features, id_column, scale, lenses, seed, scheduler, workers,
-                  memory_limit, landmarks, intervals, overlap, k, min_size, out):
-    """The graph of SOURCE on a Dask cluster as one JSON file (see `lenswork graph --scheduler`).
-
-    Rows are routed to cover elements (raw-value intervals), each element is
-    clustered on a worker by a neighbour graph inside it (the element-knn rule),
-    and the nerve comes from the membership lists.
-    """
-    from ..graph import GraphSettings, write_graph_json
-
-    settings = GraphSettings(intervals=intervals, overlap=overlap, k=k, min_size=min_size,
-                             scale="raw", clusterer="element-knn")
-    with _alias_run(source, features, id_column, scale, seed, landmarks, scheduler, workers,
-                    memory_limit) as run:
-        graph = run.graph(lenses, settings)
-    write_graph_json(graph, Path(out))
-    s = graph.summary()
-    click.echo(f"{graph.n_nodes} nodes, {graph.n_edges} edges, {s.n_components} components, "
-               f"{s.loops} loops; wrote {out}")
-
-
-COMMANDS = (cluster_lenses, cluster_graph)
+    return click.Command(
+        name, params=params, callback=callback, short_help=f"Alias of `{target}`.",
+        help=f"Alias of `{target}`: the same job, options and outputs, with --scheduler "
+        f"defaulting to local. Prints a one-line notice; use `lenswork {command.name}`.\n\n"
+        + inspect.cleandoc(command.help or ""),
+    )

@@ -6,7 +6,6 @@ import click
 
 from ..screen import screen
 from ..table import FORMATS
-from ..workspace import Workspace
 from ._common import input_options, neighbors_option
 
 __all__ = ["COMMANDS"]
@@ -55,7 +54,7 @@ def _names(values):
               help="Merit from robust spread and smoothness alone: skip the structure probe "
               "(graphs over a cover grid).")
 def screen_command(cloud, seed, out_dir, count, ceiling, refs, extra, no_defaults, bins,
-                   pairing, lens_format, neighbor_method, sample, no_figures, no_probe):
+                   pairing, lens_format, neighbors, sample, no_figures, no_probe):
     """Rank candidate lenses for TABLE (or --demo) and keep a small non-redundant set.
 
     Computes the default candidate set (PCA and Laplacian coordinates, density at
@@ -83,7 +82,7 @@ def screen_command(cloud, seed, out_dir, count, ceiling, refs, extra, no_default
     """
     if no_defaults and not extra:
         raise click.UsageError("--no-defaults needs at least one --lens.")
-    ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
+    ws = neighbors.workspace(cloud, seed)
     result = screen(
         ws, lenses=[] if no_defaults else None, extra=list(extra), count=count,
         ceiling=ceiling, references=_names(refs), bins=bins, probe=not no_probe,

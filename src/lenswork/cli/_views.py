@@ -6,32 +6,19 @@ import click
 
 from ..bootstrap import bootstrap_graph
 from ..compare import compare_views
-from ..lenses import compute_lenses
 from ..probe import stability_map
-from ..workspace import Workspace
-from ._common import graph_options, input_options, output_dir
+from ._common import graph_options, input_options, lens_options, lens_table, lens_views, output_dir
 
 __all__ = ["COMMANDS"]
-
-
-def _workspace(cloud, seed, neighbor_method):
-    return Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
-
-
-def _lens(ws, spec):
-    return compute_lenses(ws, [spec])
-
-
-_LENS_HELP = ("A lens as name or name:key=value,... (`lenswork lenses` lists them). A lens with "
-              "several columns (pca:components=2) gives a product cover.")
 
 
 # --------------------------------------------------------------------------- stability
 @click.command("stability")
 @input_options
-@click.option("-l", "--lens", "lens", required=True, metavar="SPEC", help=_LENS_HELP)
-@click.option("--intervals", "grid_intervals", default="4,6,8,10,12,14,16,20", show_default=True,
-              metavar="N,N,...", help="Interval counts of the grid (rows of the map).")
+@lens_options()
+@click.option("--interval-counts", "grid_intervals", default="4,6,8,10,12,14,16,20",
+              show_default=True, metavar="N,N,...",
+              help="Interval counts of the grid (rows of the map); --intervals is one cover's.")
 @click.option("--overlaps", "grid_overlaps", default="0.1,0.2,0.3,0.4,0.5", show_default=True,
               metavar="P,P,...", help="Overlaps of the grid (columns of the map).")
 @click.option("-o", "--out", default="lenswork-stability", show_default=True,
@@ -39,8 +26,8 @@ _LENS_HELP = ("A lens as name or name:key=value,... (`lenswork lenses` lists the
               help="Output directory: stability.csv (+ .json provenance), stability.png.")
 @click.option("--no-figure", is_flag=True, help="Write the CSV table only.")
 @graph_options(exclude=("intervals", "overlap"))
-def stability(cloud, seed, lens, grid_intervals, grid_overlaps, out, no_figure, settings,
-              neighbor_method):
+def stability(cloud, seed, lens_specs, lens_file, use, grid_intervals, grid_overlaps, out,
+              no_figure, settings, neighbors):
     """Map the graph's feature counts over a grid of cover settings for one lens.
 
     For every (intervals, overlap) cell the Mapper graph of the lens is built on
@@ -53,15 +40,15 @@ def stability(cloud, seed, lens, grid_intervals, grid_overlaps, out, no_figure, 
     net spacing of 1/N.
     """
     out = output_dir(out)
-    ws = _workspace(cloud, seed, neighbor_method)
-    table = _lens(ws, lens)
+    ws = neighbors.workspace(cloud, seed)
+    table = lens_table(ws, lens_specs, lens_file, use)
     # "auto" settings fixed on these rows: the map's default cell is the default graph's
     settings = settings.resolve(ws.n, len(table.names))
-    smap = stability_map(table, ws, settings=settings, intervals=grid_intervals,
+    smap = stability_map(table, ws, settings=settings, interval_counts=grid_intervals,
                          overlaps=grid_overlaps)
     csv_path, sidecar = smap.write(out / "stability.csv")
     click.echo(f"Stability map of {smap.lens} on {ws.n} rows "
-               f"({len(smap.intervals)} x {len(smap.overlaps)} cover settings).")
+               f"({len(smap.interval_counts)} x {len(smap.overlaps)} cover settings).")
     click.echo(_grid_text(smap, "loops"))
     cell = smap.default_cell
     if cell is not None:
@@ -80,7 +67,7 @@ def _grid_text(smap, feature):
     counts = smap.counts[feature]
     head = "intervals \\ overlap " + " ".join(f"{o:>5g}" for o in smap.overlaps)
     lines = [f"{feature}:", head]
-    for i, iv in enumerate(smap.intervals):
+    for i, iv in enumerate(smap.interval_counts):
         lines.append(f"{iv:>19d} " + " ".join(f"{int(v):>5d}" for v in counts[i]))
     return "\n".join(lines)
 
@@ -88,7 +75,7 @@ def _grid_text(smap, feature):
 # --------------------------------------------------------------------------- bootstrap
 @click.command("bootstrap")
 @input_options
-@click.option("-l", "--lens", "lens", required=True, metavar="SPEC", help=_LENS_HELP)
+@lens_options()
 @click.option("--resamples", default=100, show_default=True, type=int,
               help="Number of resampled graphs.")
 @click.option("--scheme", type=click.Choice(["subsample", "bootstrap"]), default="subsample",
@@ -105,8 +92,8 @@ def _grid_text(smap, feature):
               help="Output directory: bootstrap.csv, bootstrap.json, bootstrap.png.")
 @click.option("--no-figure", is_flag=True, help="Write the tables only.")
 @graph_options()
-def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_figure, settings,
-              neighbor_method):
+def bootstrap(cloud, seed, lens_specs, lens_file, use, resamples, scheme, fraction, suggest, out,
+              no_figure, settings, neighbors):
     """Rebuild the graph of a lens on resampled rows; report how often each feature recurs.
 
     Each resample gets a neighbour graph of its own. For components, loops (b1),
@@ -119,10 +106,10 @@ def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_f
     summary, the settings and any suggestion.
     """
     out = output_dir(out)
-    ws = _workspace(cloud, seed, neighbor_method)
+    ws = neighbors.workspace(cloud, seed)
     result = bootstrap_graph(
-        _lens(ws, lens), ws, settings=settings, resamples=resamples, scheme=scheme,
-        fraction=fraction, suggest=suggest, random_state=seed,
+        lens_table(ws, lens_specs, lens_file, use), ws, settings=settings, resamples=resamples,
+        scheme=scheme, fraction=fraction, suggest=suggest, random_state=seed,
     )
     if result.suggestion is not None:
         s = result.suggestion
@@ -142,8 +129,7 @@ def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_f
 # --------------------------------------------------------------------------- compare
 @click.command("compare")
 @input_options
-@click.option("-l", "--lens", "lenses", multiple=True, required=True, metavar="SPEC",
-              help="One view per --lens (give two or more). " + _LENS_HELP)
+@lens_options(views=True)
 @click.option("--partition", type=click.Choice(["component", "node"]), default="component",
               show_default=True,
               help="Row partition each view induces: the row's connected component, or its "
@@ -156,8 +142,12 @@ def bootstrap(cloud, seed, lens, resamples, scheme, fraction, suggest, out, no_f
               help="Output directory: comparison.json, correspondence CSVs, comparison.png.")
 @click.option("--no-figure", is_flag=True, help="Write the tables only.")
 @graph_options()
-def compare(cloud, seed, lenses, partition, match, out, no_figure, settings, neighbor_method):
+def compare(cloud, seed, lens_specs, lens_file, use, partition, match, out, no_figure, settings,
+            neighbors):
     """Compare the Mapper graphs of two or more lenses over the same rows.
+
+    Each --lens is one view; so is each --use of a --lens-file (or, with no
+    --use, each column of the file).
 
     Each view is described by its significant structure first, its raw counts
     after. For every pair of views it prints first the co-membership agreement
@@ -172,11 +162,14 @@ def compare(cloud, seed, lenses, partition, match, out, no_figure, settings, nei
     each pair of nodes); comparison.png draws the views side by side, each
     coloured by the other view's lens.
     """
-    if len(lenses) < 2:
-        raise click.UsageError("Give at least two --lens options: one per view.")
     out = output_dir(out)
-    ws = _workspace(cloud, seed, neighbor_method)
-    views = {spec: _lens(ws, spec) for spec in lenses}
+    ws = neighbors.workspace(cloud, seed)
+    views = lens_views(ws, lens_specs, lens_file, use)
+    if len(views) < 2:
+        raise click.UsageError(
+            "Give two views or more: --lens options (one view each), --use options of a "
+            "--lens-file (one view each), or a --lens-file of two columns or more."
+        )
     result = compare_views(views, ws, settings=settings, partition=partition, match=match)
     click.echo(result.format_text())
     written = result.write(out, figures=not no_figure)

@@ -21,6 +21,7 @@ from ._messages import (
 )
 from ._raw import (
     DECIMAL_COMMA,
+    AllBut,
     NotNumber,
     check_duplicate_names,
     column_numbers,
@@ -83,10 +84,12 @@ def assemble(raw, features, id_column, scale, invalid, min_rows):
     selection = getattr(raw, "selection", None)
     feats, id_j = selection or resolve_selection(names, features, id_column, label)
     numbers_of = {}
-    if feats is None:
+    chosen = feats is not None and not isinstance(feats, AllBut)
+    if not chosen:
+        dropped = set(feats or ())
         feats, first_text = [], None
         for j in range(len(names)):
-            if j == id_j:
+            if j == id_j or j in dropped:
                 continue
             try:
                 values, miss = column_numbers(raw, j)
@@ -201,6 +204,10 @@ def assemble(raw, features, id_column, scale, invalid, min_rows):
     if scale is not None:
         X, scaling = _standardise(X, scale, feature_names, label)
     check_magnitude(X, feature_names, rows, label, scale)
+    if not chosen and id_j is None:
+        _warn_id_like(X, feature_names, label)
+    if scale is None:
+        _warn_scales(X, feature_names, label)
     id_name = names[id_j] if id_j is not None else (
         "row" if "row" not in names else "row_number"
     )
@@ -221,6 +228,53 @@ def assemble(raw, features, id_column, scale, invalid, min_rows):
         excluded=excluded,
         provenance=provenance,
     )
+
+
+#: Feature columns whose spreads differ by more than this factor get a word about scaling.
+SCALE_RATIO = 100.0
+#: Fewest rows at which a column of unique integers in monotone order is called id-like.
+ID_LIKE_MIN_ROWS = 10
+
+
+def _warn_id_like(X, names, label):
+    """Warn about feature columns that look like row ids: unique integers in monotone order."""
+    if X.shape[0] < ID_LIKE_MIN_ROWS:
+        return
+    looks = []
+    for k, name in enumerate(names):
+        col = X[:, k]
+        if not np.all(col == np.round(col)):
+            continue
+        steps = np.diff(col)
+        if np.all(steps > 0) or np.all(steps < 0):
+            looks.append(name)
+    if looks:
+        warn_user(
+            f"Feature column{'s' if len(looks) > 1 else ''} {names_list(looks)} in {label} "
+            f"look{'' if len(looks) > 1 else 's'} like a row id (unique integers in increasing or "
+            f"decreasing order) and {'are' if len(looks) > 1 else 'is'} used as a feature. Name "
+            f"the id column (id_column=...; CLI: --id-column {looks[0]}) or leave it out of the "
+            f"features (features='~{looks[0]}'; CLI: -f '~{looks[0]}')."
+        )
+
+
+def _warn_scales(X, names, label):
+    """Warn when the feature columns' spreads (standard deviations) differ by > SCALE_RATIO."""
+    top = np.max(np.abs(X), axis=0)
+    top[top == 0] = 1.0
+    sd = (X / top).std(axis=0) * top  # scaled first: squares cannot overflow
+    live = np.flatnonzero(sd > 0)
+    if live.size < 2:
+        return
+    wide, narrow = live[np.argmax(sd[live])], live[np.argmin(sd[live])]
+    ratio = sd[wide] / sd[narrow]
+    if ratio > SCALE_RATIO:
+        warn_user(
+            f"Feature columns of {label} differ in scale by {ratio:,.0f}x (standard deviation of "
+            f"{names[wide]!r} {sd[wide]:.3g}, of {names[narrow]!r} {sd[narrow]:.3g}): distances, "
+            f"neighbours and every lens follow the widest columns. Standardise them "
+            f"(scale='zscore'; CLI: --scale zscore) unless the units are meant to compare."
+        )
 
 
 def _no_features(raw, id_j, first_text):

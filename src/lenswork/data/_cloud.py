@@ -111,6 +111,29 @@ class PointCloud:
         label = "the data" if source in (None, "array", "DataFrame") else f"{source!r}"
         check_rows(self.n, needed, what, label, len(self.excluded))
 
+    def unscaled(self, name):
+        """A feature column in the table's own units: the intake's scaling undone.
+
+        ``X[:, j] * scale + centre`` with the centre and scale that
+        ``provenance["scaling"]`` records for the column (``scale="zscore"`` or
+        ``"robust"`` on intake); the column of ``X`` itself when nothing was
+        scaled. Node statistics and colour bars use it, so they read in the
+        user's units.
+
+        Examples
+        --------
+        >>> from lenswork import load_table
+        >>> cloud = load_table(np.array([[1.0], [2.0], [6.0]]), scale="zscore")
+        >>> np.round(cloud.X[:, 0], 2).tolist(), cloud.unscaled("x0").tolist()
+        ([-0.93, -0.46, 1.39], [1.0, 2.0, 6.0])
+        """
+        j = list(self.feature_names).index(name)
+        values = self.X[:, j]
+        record = ((self.provenance.get("scaling") or {}).get("columns") or {}).get(name)
+        if not record:
+            return values
+        return values * float(record["scale"]) + float(record["centre"])
+
     @classmethod
     def from_array(cls, X, *, feature_names=None, ids=None, passthrough=None):
         """Wrap a finite 2-D numeric array (no file, no scaling).

@@ -15,6 +15,7 @@ from ._arrays import raw_from_array
 from ._messages import input_error, names_list, not_number_error, warn_user
 from ._raw import (
     NO_INDEX,
+    AllBut,
     NotNumber,
     RawTable,
     check_duplicate_names,
@@ -185,7 +186,8 @@ def _read_delimited(path, label, delimiter, prov, opts):
             reader = csv.reader(fh, delimiter=delim)
             names = _read_header(reader, label, opts)
             feats, id_j = resolve_selection(names, opts["features"], opts["id_column"], label)
-            raw = _read_body(reader, names, label, delim, feats, id_j, prov)
+            raw = _read_body(reader, names, label, delim,
+                             None if isinstance(feats, AllBut) else feats, id_j, prov)
         if raw.n == 0:
             raise input_error(
                 f"{label} has a header row but no data rows; expected at least "

@@ -34,11 +34,16 @@ def load_table(
         install lenswork[parquet]``). Other endings are read as delimited text.
         Or a numpy array (columns ``x0``, ``x1``...; a 1-D array is one column)
         or a pandas DataFrame (any object with ``.columns`` and column lookup).
-    features : list of str or int, optional
+    features : list of str or int, or str, optional
         Feature columns, by name or 0-based position. Default: every column but
         the id column whose values are all numbers or missing (and not all
-        missing). Other columns are passthrough: kept as they are (text from a
-        text table) and carried to the outputs.
+        missing). A string is the command line's selection syntax:
+        comma-separated names, 1-based positions (``"3"``), position ranges
+        (``"2-53"``), name ranges in table order (``"w00:w51"``) and ``~``
+        before any of these to leave columns out (``"~id,~notes"``: every
+        numeric column but those); ranges skip the id column. Other columns
+        are passthrough: kept as they are (text from a text table) and carried
+        to the outputs.
     id_column : str or int, optional
         Column of row ids, by name or 0-based position; ids must be unique.
         Default: ids 1..n in row order. Ids in a text table that are all plain
@@ -224,6 +229,13 @@ def _is_column_spec(value):
 def _check_features_arg(features):
     if features is None:
         return None
+    if isinstance(features, str):
+        if not features.strip():
+            raise ParameterError(
+                "The 'features' parameter of load_table is empty; name at least one column, or "
+                "leave it out to use every numeric column."
+            )
+        return features  # the selection syntax (data._raw.parse_selection), read with the names
     if _is_column_spec(features):
         features = [features]
     try:

@@ -2,12 +2,9 @@
 
 from __future__ import annotations
 
-import sys
-import warnings
-
 import numpy as np
 
-from .._errors import InputError, LensworkWarning
+from .._errors import InputError, warn_caller
 
 __all__ = [
     "as_python", "check_rows", "describe_bad", "input_error", "names_list", "not_number_error",
@@ -49,11 +46,7 @@ def describe_bad(value, missing):
 
 def warn_user(message):
     """Warn with the first frame outside lenswork as the location."""
-    level, frame = 1, sys._getframe(0)
-    while frame is not None and frame.f_globals.get("__name__", "").startswith("lenswork"):
-        frame = frame.f_back
-        level += 1
-    warnings.warn(message, LensworkWarning, stacklevel=level)
+    warn_caller(message)
 
 
 def check_rows(n, needed, what, label, n_excluded=0):

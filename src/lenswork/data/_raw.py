@@ -18,9 +18,10 @@ from .._errors import ParameterError
 from ._messages import input_error, names_list
 
 __all__ = [
-    "DECIMAL_COMMA", "MISSING_TEXT", "NO_INDEX", "NotNumber", "RawTable",
+    "AllBut", "DECIMAL_COMMA", "MISSING_TEXT", "NO_INDEX", "NotNumber", "RawTable",
     "check_duplicate_names", "column_numbers", "digest_columns", "is_missing_object",
-    "is_number_text", "mostly_numbers", "object_array", "parse_text_cells", "resolve_selection",
+    "is_number_text", "mostly_numbers", "object_array", "parse_selection", "parse_text_cells",
+    "resolve_selection",
 ]
 
 
@@ -97,11 +98,95 @@ def _resolve(spec, names, label, what):
     return pos
 
 
+class AllBut(tuple):
+    """A feature selection of exclusions only: every numeric column but these positions."""
+
+
+_POSITION_RANGE = re.compile(r"^(\d+)\s*-\s*(\d+)$")
+
+
+def _selection_item(item, names, label, id_j):
+    """Positions (0-based) one item of the selection syntax names, in table order."""
+    if item in names:
+        return [names.index(item)]
+    if item.isdigit():
+        return [_resolve(int(item) - 1, names, label, "feature column")]
+    m = _POSITION_RANGE.match(item)
+    if m:
+        a, b = int(m[1]), int(m[2])
+        if a > b:
+            raise ParameterError(
+                f"The column range {item!r} runs backwards; give the lower position first "
+                f"({b}-{a})."
+            )
+        _resolve(a - 1, names, label, "feature column")
+        _resolve(b - 1, names, label, "feature column")
+        return [j for j in range(a - 1, b) if j != id_j]
+    if ":" in item:
+        first, _, last = item.partition(":")
+        a = _resolve(first.strip(), names, label, "feature column") if first.strip() else 0
+        b = (_resolve(last.strip(), names, label, "feature column") if last.strip()
+             else len(names) - 1)
+        if a > b:
+            raise ParameterError(
+                f"The column range {item!r} runs backwards: {names[a]!r} comes after "
+                f"{names[b]!r} in {label}; write {names[b]}:{names[a]}."
+            )
+        return [j for j in range(a, b + 1) if j != id_j]
+    return [_resolve(item, names, label, "feature column")]
+
+
+def parse_selection(text, names, label, id_j=None):
+    """Feature positions (0-based) from the selection syntax, or :class:`AllBut` exclusions.
+
+    Comma-separated items, each a column name, a 1-based position (``3``), a
+    position range (``2-53``), a name range in table order (``w00:w51``; an
+    open end runs to the first or last column) or any of these after ``~``,
+    which leaves those columns out. Ranges skip the id column. With
+    exclusions only, the features are every numeric column but those.
+
+    Examples
+    --------
+    >>> names = ["id", "a", "b", "c", "d"]
+    >>> parse_selection("b:d", names, "t"), parse_selection("2-3,~a", names, "t")
+    ([2, 3, 4], [2])
+    >>> parse_selection("~id,~d", names, "t")
+    (0, 4)
+    """
+    keep, drop = [], []
+    if str(text).strip() in names:
+        return [names.index(str(text).strip())]
+    for raw_item in str(text).split(","):
+        item = raw_item.strip()
+        if not item:
+            continue
+        target = keep
+        if item.startswith("~") and item not in names:
+            target, item = drop, item[1:].strip()
+        for j in _selection_item(item, names, label, id_j):
+            if j not in target:
+                target.append(j)
+    if not keep:
+        if not drop:
+            raise ParameterError(f"The feature selection {text!r} names no column.")
+        return AllBut(sorted(drop))
+    return [j for j in keep if j not in drop]
+
+
 def resolve_selection(names, features, id_column, label):
-    """(feature indices or None, id index or None), with every argument check."""
+    """(feature indices, :class:`AllBut` or None; id index or None), with every argument check.
+
+    ``features`` is a list of names or 0-based positions, or a string in the
+    selection syntax of :func:`parse_selection` (1-based positions).
+    """
     id_j = None if id_column is None else _resolve(id_column, names, label, "id column")
     if features is None:
         return None, id_j
+    if isinstance(features, str):
+        feats = parse_selection(features, names, label, id_j)
+        if isinstance(feats, AllBut):
+            return feats, id_j
+        features = feats
     feats = []
     for spec in features:
         j = _resolve(spec, names, label, "feature column")

@@ -104,8 +104,8 @@ def _data_columns(cloud, columns, lens_names):
                 f"Data column {name!r} has the name of a lens column; node statistics are kept "
                 f"once per name. Leave it out of 'columns'."
             )
-        if name in features:
-            out[name] = cloud.X[:, features.index(name)]
+        if name in features:  # in the table's units: any intake scaling undone
+            out[name] = cloud.unscaled(name)
         elif name in cloud.passthrough:
             try:
                 values = np.asarray(cloud.passthrough[name], dtype=np.float64)
@@ -122,8 +122,12 @@ def _data_columns(cloud, columns, lens_names):
                 )
             out[name] = values
         else:
-            valid = ", ".join([*features, *cloud.passthrough])
-            raise ParameterError(f"No data column {name!r}. Columns: {valid}.")
+            import difflib
+
+            known = [*features, *map(str, cloud.passthrough)]
+            close = difflib.get_close_matches(name, known, n=1)
+            hint = f" Did you mean {close[0]!r}?" if close else ""
+            raise ParameterError(f"No data column {name!r}.{hint} Columns: {', '.join(known)}.")
     return out
 
 
@@ -185,7 +189,8 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
         Every graph setting (default ``GraphSettings()``); the keywords below
         are overrides applied with ``settings.replace(...)``.
     columns : list of str or "all", optional
-        Data columns (features or numeric passthrough) whose node mean, min and
+        Data columns (features, in the table's own units when the intake scaled
+        them, or numeric passthrough) whose node mean, min and
         max are kept beside the lenses'.
     **overrides
         Any :class:`GraphSettings` field, for example:

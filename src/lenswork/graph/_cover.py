@@ -56,13 +56,12 @@ preimage into clusters.
 from __future__ import annotations
 
 import numbers
-import warnings
 from abc import ABC, abstractmethod
 
 import numpy as np
 from scipy.spatial import cKDTree
 
-from .._errors import LensworkWarning, ParameterError
+from .._errors import ParameterError, warn_caller
 from .._validation import check_array, check_choice, check_float, check_int
 from ..normalize import normalize
 
@@ -307,10 +306,9 @@ class Cover(CoverBase):
             N, p = intervals[j], overlap[j]
             width = span[j]
             if width == 0:
-                warnings.warn(
+                warn_caller(
                     f"Lens {names[j]!r} is constant: its cover has one non-empty element. "
-                    f"Choose a lens that varies over the data.",
-                    LensworkWarning, stacklevel=3,
+                    f"Choose a lens that varies over the data."
                 )
                 width = 1.0
             length[j] = width / (1.0 + (N - 1) * (1.0 - p))
@@ -567,9 +565,9 @@ class BallCover(CoverBase):
         V, names = _checked_values(values, names, "BallCover")
         radius, centres, overlap, scale = self._check_params()
         for j in np.flatnonzero(V.max(axis=0) == V.min(axis=0)):
-            warnings.warn(
+            warn_caller(
                 f"Lens {names[j]!r} is constant: it does not separate the balls. Choose a lens "
-                f"that varies over the data.", LensworkWarning, stacklevel=3,
+                f"that varies over the data."
             )
         U = _scaled(V, scale)
         if centres is None:

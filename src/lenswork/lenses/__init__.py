@@ -20,8 +20,8 @@ the :class:`LensColumn` / :class:`LensTable` objects the registry builds, and
 Public surface
 --------------
 Registry
-    compute_lenses, get_lens, lens_names, parse_lens, register_lens, user_lens,
-    LensPart, LensSpec, Param
+    compute_lenses, get_lens, lens_names, lens_request, parse_lens, register_lens,
+    user_lens, LensPart, LensSpec, Param
 Lens columns
     LensColumn, LensTable, FORMATS (lens-file formats), ENDINGS (file ending -> format)
 Lens functions and transformers
@@ -39,7 +39,16 @@ from ._dtm import DistanceToMeasure, KNNDistance, distance_to_measure, knn_dista
 from ._eccentricity import Eccentricity, eccentricity, geodesic_eccentricity
 from ._laplacian import LaplacianLens, laplacian_eigenmaps
 from ._pca import PCALens, pca_coordinates
-from ._registry import LensPart, LensSpec, Param, get_lens, lens_names, parse_lens, register_lens
+from ._registry import (
+    LensPart,
+    LensSpec,
+    Param,
+    get_lens,
+    lens_names,
+    lens_request,
+    parse_lens,
+    register_lens,
+)
 from ._table import ENDINGS, FORMATS, LensColumn, LensTable
 
 __all__ = [
@@ -66,6 +75,7 @@ __all__ = [
     "knn_distance",
     "laplacian_eigenmaps",
     "lens_names",
+    "lens_request",
     "parse_lens",
     "pca_coordinates",
     "register_lens",
@@ -82,7 +92,9 @@ def compute_lenses(workspace, lenses):
     ----------
     workspace : Workspace
     lenses : list of str or (str, dict)
-        Lens names, CLI-style specs (``"dtm:mass=0.05"``) or ``(name, params)`` pairs.
+        Lens names, CLI-style specs (``"dtm:mass=0.05"``), lens column names as
+        the screen ranks them (``"pca_2"``, ``"eccentricity[p=1]"``: that one
+        column, see :func:`lens_request`) or ``(name, params)`` pairs.
 
     Returns
     -------
@@ -95,12 +107,18 @@ def compute_lenses(workspace, lenses):
     >>> ws = Workspace(np.random.default_rng(0).normal(size=(300, 3)))
     >>> compute_lenses(ws, ["pca:components=2", "eccentricity"]).names
     ['pca_1', 'pca_2', 'eccentricity']
+    >>> compute_lenses(ws, ["pca_2"]).names
+    ['pca_2']
     """
     columns = []
     for item in lenses:
+        wanted = None
         if isinstance(item, str):
-            name, params = parse_lens(item)
+            name, params, wanted = lens_request(item)
         else:
             name, params = item
-        columns.extend(get_lens(name)(workspace, **params))
+        made = get_lens(name)(workspace, **params)
+        if wanted is not None:
+            made = [c for c in made if c.name == wanted] or made[-1:]
+        columns.extend(made)
     return LensTable(columns, workspace.cloud, random_state=workspace.random_state)

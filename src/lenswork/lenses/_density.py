@@ -26,7 +26,7 @@ from functools import partial
 import numpy as np
 from sklearn.base import BaseEstimator, TransformerMixin
 
-from .._errors import InputError, LensworkWarning
+from .._errors import InputError, warn_caller
 from .._validation import (
     check_array,
     check_bool,
@@ -72,9 +72,8 @@ _UNDERFLOW = {"float64": 1e-250, "float32": 1e-25}
 
 
 def _warn(message):
-    import warnings
 
-    warnings.warn(message, LensworkWarning, stacklevel=4)
+    warn_caller(message)
 
 
 def _covariance(X, what):

@@ -27,7 +27,7 @@ from functools import partial
 import numpy as np
 from sklearn.base import BaseEstimator, TransformerMixin
 
-from .._errors import InputError, LensworkWarning, ParameterError
+from .._errors import InputError, ParameterError, warn_caller
 from .._validation import check_array, check_float, check_int
 from ..workspace import NeighborGraph, neighbor_graph
 from ._common import LensOutputMixin, check_input
@@ -73,9 +73,8 @@ def _dtm_messages(mass, n, k, wanted, context, warn, why="to keep the neighbour 
 
 
 def _warn(message):
-    import warnings
 
-    warnings.warn(message, LensworkWarning, stacklevel=4)
+    warn_caller(message)
 
 
 def _check_graph(graph, n, needed, context):
@@ -286,18 +285,37 @@ def _dtm_lens(ws, *, mass):
     n = ws.n
     cap = min(MAX_K, ws.shared_k + 1)
     k, wanted = _dtm_k(mass, n, cap)
-    why = (f"by the shared neighbour graph (k={ws.shared_k}; a larger Workspace(min_neighbors=...)"
-           f" lifts it, up to {MAX_K})")
+    if cap < MAX_K:
+        why = (f"by the shared neighbour graph (k={ws.shared_k}; a larger "
+               f"Workspace(min_neighbors=...) lifts it, up to {MAX_K - 1}); the column is named "
+               f"by the mass used")
+    else:
+        why = f"(the most lenswork reads, MAX_K = {MAX_K}); the column is named by the mass used"
     _dtm_messages(mass, n, k, wanted, "dtm", ws.warn, why=why)
     info = {"k": k, "k_requested": wanted, "mass": mass, "mass_used": k / n,
             "capped": wanted > k, "k_cap": cap,
             "k_rule": f"k = min(ceil(mass n), shared graph k + 1 = {ws.shared_k + 1}, {MAX_K})",
             "convention": _CONVENTION}
+    if wanted > k:  # named and recorded by the mass used (its recomputation gives this k)
+        info["params_used"] = {"mass": _mass_for(k, n)}
     if k == 1:
         return [LensPart(np.zeros(n), "", dict(info, graph=None))]
     g = ws.neighbors(k - 1)
     info["graph"] = g.method
     return [LensPart(_dtm_from_distances(g.distances, k), "", info)]
+
+
+def _mass_for(k, n):
+    """k / n rounded down to 4 significant digits: a mass whose ceil(mass n) is k again.
+
+    Examples
+    --------
+    >>> _mass_for(31, 2230), math.ceil(round(_mass_for(31, 2230) * 2230, 9))
+    (0.0139, 31)
+    """
+    exact = k / n
+    digits = 3 - math.floor(math.log10(exact))
+    return round(math.floor(exact * 10**digits) / 10**digits, digits)
 
 
 # ---------------------------------------------------------------- k-NN distance

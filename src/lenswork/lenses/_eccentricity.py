@@ -20,7 +20,7 @@ from functools import partial
 import numpy as np
 from sklearn.base import BaseEstimator, TransformerMixin
 
-from .._errors import InputError, LensworkWarning, ParameterError
+from .._errors import InputError, ParameterError, warn_caller
 from .._validation import (
     check_array,
     check_choice,
@@ -606,9 +606,8 @@ def geodesic_eccentricity(X, *, p=2.0, k=15, landmarks="auto", neighbors=None,
         )
 
     def warn(msg):
-        import warnings
 
-        warnings.warn(msg, LensworkWarning, stacklevel=4)
+        warn_caller(msg)
 
     m, rule = _auto_landmarks(landmarks, X.shape[0])
     values, info, err = _geodesic(neighbors, X, p=p, landmarks=m, rng=rng, warn=warn)

@@ -93,7 +93,6 @@ eigenvalues and residuals reported are those of the largest component
 from __future__ import annotations
 
 import time
-import warnings
 from functools import partial
 
 import numpy as np
@@ -102,7 +101,7 @@ import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components, dijkstra, reverse_cuthill_mckee
 from sklearn.base import BaseEstimator, TransformerMixin
 
-from .._errors import InputError, LensworkWarning, ParameterError
+from .._errors import InputError, ParameterError, warn_caller
 from .._validation import (
     check_array,
     check_choice,
@@ -590,7 +589,7 @@ def _half_weight_points(x, b):
 
 
 def _warn(message):
-    warnings.warn(message, LensworkWarning, stacklevel=4)
+    warn_caller(message)
 
 
 def _laplacian_eigs(W, m, *, mass="degree", rng, tol=1e-3, max_iter=200, warn=_warn):

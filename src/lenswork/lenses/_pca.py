@@ -22,14 +22,13 @@ positive.
 
 from __future__ import annotations
 
-import warnings
 from functools import partial
 from typing import NamedTuple
 
 import numpy as np
 from sklearn.base import BaseEstimator, TransformerMixin
 
-from .._errors import InputError, LensworkWarning, ParameterError
+from .._errors import InputError, ParameterError, warn_caller
 from .._validation import check_array, check_choice, check_int, seed_of
 from ._common import LensOutputMixin, check_input
 from ._registry import LensPart, Param, register_lens
@@ -150,11 +149,9 @@ def _fit_basis(X, m, solver, random_state):
         centered = True
     components, _ = _fix_signs(components)
     if total <= 0:
-        warnings.warn(
+        warn_caller(
             "Every feature column is constant: the principal coordinates are all 0. "
-            "Check the feature selection.",
-            LensworkWarning,
-            stacklevel=3,
+            "Check the feature selection."
         )
     return _PCABasis(mean, components, evals, total, solver, centered, n)
 

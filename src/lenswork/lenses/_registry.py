@@ -13,19 +13,24 @@ validated parameters, and returns a list of :class:`LensPart` (one per output
 column). The registry turns them into named :class:`~lenswork.LensColumn`
 objects with their parameters recorded. Column names are the lens name, then
 ``_<part>`` for multi-column lenses, then ``[key=value;...]`` for every
-parameter that differs from its default: ``pca_2``, ``dtm[mass=0.05]``.
+parameter that differs from its default: ``pca_2``, ``dtm[mass=0.05]``. A
+compute function that used other values than asked (``dtm`` capped by the
+shared graph) returns them in ``info["params_used"]``: the column is named and
+its parameters recorded by what was computed, the values asked for stay in the
+info.
 """
 
 from __future__ import annotations
 
-import warnings
+import difflib
+import re
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any, NamedTuple
 
 import numpy as np
 
-from .._errors import LensworkError, LensworkWarning, ParameterError
+from .._errors import LensworkError, ParameterError, warn_caller
 from .._json import plain
 from ._table import LensColumn
 
@@ -37,6 +42,7 @@ __all__ = [
     "REGISTRY",
     "get_lens",
     "lens_names",
+    "lens_request",
     "parse_lens",
     "register_lens",
 ]
@@ -122,13 +128,17 @@ class LensSpec:
                     f"Lens {self.name!r} returned values of shape {values.shape}; "
                     f"expected ({ws.n},). This is a bug in the lens."
                 )
+            info = dict(part.info)
+            # a lens that computed with other values than asked (a capped dtm mass) says so in
+            # info["params_used"]: the column is named and recorded by what was computed
+            used = dict(resolved, **info.pop("params_used", {}))
             columns.append(
                 LensColumn(
-                    name=self.column_name(resolved, part.part),
+                    name=self.column_name(used, part.part),
                     values=values,
                     lens=self.name,
-                    params=plain(resolved),
-                    info=plain(dict(part.info)),
+                    params=plain(used),
+                    info=plain(info),
                 )
             )
         return columns
@@ -209,10 +219,8 @@ def _load_entry_points():
         try:
             ep.load()  # importing the module runs its @register_lens / @user_lens decorators
         except Exception as err:  # a broken plug-in must not break the library
-            warnings.warn(
-                f"Could not load lens plug-in {ep.name!r} ({ep.value}): {err}",
-                LensworkWarning,
-                stacklevel=2,
+            warn_caller(
+                f"Could not load lens plug-in {ep.name!r} ({ep.value}): {err}"
             )
 
 
@@ -241,8 +249,13 @@ def get_lens(name):
     try:
         return REGISTRY[name]
     except KeyError:
+        close = difflib.get_close_matches(str(name), list(REGISTRY), n=1, cutoff=0.6) or [
+            n for n in REGISTRY if n.lower() == str(name).strip().lower()
+        ][:1]
+        hint = f" Did you mean {close[0]!r}?" if close else ""
         raise ParameterError(
-            f"Unknown lens {name!r}. Registered lenses: {', '.join(sorted(REGISTRY))}."
+            f"Unknown lens {name!r}.{hint} Registered lenses: {', '.join(sorted(REGISTRY))}; "
+            f"a column name of theirs (pca_2, laplacian_1, eccentricity[p=1]) works too."
         ) from None
 
 
@@ -272,3 +285,65 @@ def parse_lens(text):
     if not name:
         raise ParameterError(f"No lens name in {text!r}; expected e.g. 'pca:components=2'.")
     return name, params
+
+
+#: A lens column name as the registry writes it: name, optional ``_<part>``, optional ``[tags]``.
+_COLUMN_NAME = re.compile(r"^(?P<base>[A-Za-z]\w*?)(?:_(?P<part>\d+))?(?:\[(?P<tags>[^\]]*)\])?$")
+
+
+def lens_request(text):
+    """``(name, params, column)`` for a lens spec or a lens column name.
+
+    A spec (``"pca:components=2"``, ``"dtm"``) gives ``column=None``: every
+    column of the lens. A column name as the registry writes it, and as the
+    screen's ranking and lens files list it, is read back into its lens:
+    ``"pca_2"`` is the second column of ``pca`` (computed with
+    ``components=2``), ``"laplacian_1[k=10]"`` the first of ``laplacian:k=10``,
+    ``"eccentricity[p=1]"`` the lens ``eccentricity:p=1``, ``"column_flow"``
+    the lens ``column:name=flow``; ``column`` is then the name of the one
+    column wanted.
+
+    Examples
+    --------
+    >>> lens_request("pca:components=3")
+    ('pca', {'components': '3'}, None)
+    >>> lens_request("pca_2")
+    ('pca', {'components': '2'}, 'pca_2')
+    >>> lens_request("eccentricity[p=1]")
+    ('eccentricity', {'p': '1'}, 'eccentricity[p=1]')
+    >>> lens_request("column_flow")
+    ('column', {'name': 'flow'}, 'column_flow')
+    """
+    name, params = parse_lens(text)
+    _load_entry_points()
+    if name in REGISTRY or params:
+        return name, params, None
+    for spec in REGISTRY.values():  # a lens whose part is a parameter: column_flow
+        named = [p.name for p in spec.params if not p.tag and p.name != "components"]
+        if named and name.startswith(spec.name + "_") and len(name) > len(spec.name) + 1:
+            return spec.name, {named[0]: name[len(spec.name) + 1:]}, name
+    match = _COLUMN_NAME.match(name)
+    if match is None or match["base"] not in REGISTRY:
+        return name, params, None  # get_lens names the error (with a close match)
+    spec = REGISTRY[match["base"]]
+    given = {}
+    for item in (match["tags"] or "").split(";"):
+        key, eq, value = item.partition("=")
+        if eq and key.strip():
+            given[key.strip()] = value.strip()
+        elif item.strip():
+            raise ParameterError(
+                f"Cannot read the lens column name {text!r}: {item!r} is not key=value "
+                f"(column names read as name_<part>[key=value;...], e.g. 'laplacian_1[k=10]')."
+            )
+    part = match["part"]
+    if part is not None:
+        if "components" not in {p.name for p in spec.params}:
+            raise ParameterError(
+                f"Lens {spec.name!r} has one column, so {name!r} names no column of it; give "
+                f"{spec.name!r}."
+            )
+        if int(part) < 1:
+            raise ParameterError(f"Lens columns count from 1: {name!r} names no column.")
+        given["components"] = part
+    return spec.name, given, name.strip()

@@ -314,8 +314,12 @@ class LensTable:
         wanted = names if columns is None else list(columns)
         unknown = [c for c in wanted if c not in names]
         if unknown:
+            import difflib
+
+            close = difflib.get_close_matches(str(unknown[0]), names, n=1)
+            hint = f" Did you mean {close[0]!r}?" if close else ""
             raise InputError(
-                f"The lens file {str(path)!r} has no lens column {unknown[0]!r}. Its lens "
+                f"The lens file {str(path)!r} has no lens column {unknown[0]!r}.{hint} Its lens "
                 f"columns: {', '.join(names)}."
             )
         with warnings.catch_warnings():  # rows kept out of the lens file are checked below

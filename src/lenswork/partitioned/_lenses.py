@@ -35,7 +35,7 @@ from .._errors import ParameterError
 from .._io import atomic_path, write_text
 from .._json import dumps
 from .._validation import check_float, check_float_or_choice, check_int
-from ..lenses import parse_lens
+from ..lenses import get_lens, lens_request
 from ..lenses._extend import nystrom_extend
 from ..lenses._laplacian import laplacian_eigenmaps
 from ._intake import require_dask
@@ -180,7 +180,19 @@ PARTITIONED_LENSES = {
 
 
 def _parse(item, cloud):
-    name, params = parse_lens(item) if isinstance(item, str) else item
+    name, params, wanted = lens_request(item) if isinstance(item, str) else (*item, None)
+    spec = _parse_spec(name, params, cloud)
+    if wanted is not None and spec["names"] != [wanted]:
+        raise ParameterError(
+            f"On partitions a lens is computed whole: {wanted!r} is one of the columns "
+            f"{', '.join(spec['names'])}. Give the lens ({name}:components="
+            f"{spec['params'].get('components')}) or a name of one whole lens such as "
+            f"{spec['names'][0]!r}."
+        )
+    return spec
+
+
+def _parse_spec(name, params, cloud):
     if name not in PARTITIONED_LENSES:
         raise ParameterError(
             f"Lens {name!r} is not offered on partitions; choose among "
@@ -198,7 +210,7 @@ def _parse(item, cloud):
     spec = {"kind": name, "params": p}
     if name == "pca":
         p["components"] = check_int("components", p["components"], lo=1, hi=cloud.d, context=ctx)
-        spec["names"] = [f"pca_{j + 1}" for j in range(p["components"])]
+        spec["names"] = _column_names(name, p, [str(j + 1) for j in range(p["components"])])
     elif name == "eccentricity":
         p["p"] = check_float_or_choice("p", p["p"], ("inf",), lo=1.0, lo_open=False, context=ctx)
         if p["p"] == "inf":
@@ -207,7 +219,7 @@ def _parse(item, cloud):
                 "needs every landmark's exact eccentricity, a pass over all pairs); use a finite "
                 "p such as 2 or 8."
             )
-        spec["names"] = ["eccentricity" if p["p"] == 2.0 else f"eccentricity_p{p['p']:g}"]
+        spec["names"] = _column_names(name, p)
     elif name == "column":
         if p["name"] not in cloud.feature_names:
             raise ParameterError(
@@ -215,20 +227,32 @@ def _parse(item, cloud):
                 f"columns: {', '.join(cloud.feature_names)}."
             )
         spec["j"] = cloud.feature_names.index(p["name"])
-        spec["names"] = [str(p["name"])]
+        spec["names"] = _column_names(name, p, [str(p["name"])])
     elif name == "density":
         p["bandwidth"] = check_float_or_choice("bandwidth", p["bandwidth"], ("scott",), context=ctx)
         if isinstance(p["log"], str):
             p["log"] = p["log"].strip().lower() in ("1", "true", "yes")
-        spec["names"] = ["log_density" if p["log"] else "density"]
+        spec["names"] = _column_names(name, p)
     elif name == "dtm":
         p["mass"] = check_float("mass", p["mass"], lo=0.0, hi=1.0, lo_open=True, context=ctx)
-        spec["names"] = ["dtm"]
+        spec["names"] = _column_names(name, p)
     else:
         p["components"] = check_int("components", p["components"], lo=1, context=ctx)
         p["k"] = check_int("k", p["k"], lo=1, context=ctx)
-        spec["names"] = [f"laplacian_{j + 1}" for j in range(p["components"])]
+        spec["names"] = _column_names(name, p, [str(j + 1) for j in range(p["components"])])
     return spec
+
+
+def _column_names(kind, params, parts=("",)):
+    """The column names the one-machine registry gives this lens and these parameters.
+
+    One name per thing on both paths: ``eccentricity[p=1]``, ``density`` (log
+    density, the default), ``density[log=false]``, ``column_flow``, ``pca_2``.
+    """
+    spec = get_lens(kind)
+    resolved = spec.defaults()
+    resolved.update({k: v for k, v in params.items() if k in resolved})
+    return [spec.column_name(resolved, part) for part in parts]
 
 
 class PartitionedLenses:

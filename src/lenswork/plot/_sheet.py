@@ -9,13 +9,19 @@ Layout, top to bottom:
   rank (so one outlier cannot wash the colours out). Chosen lenses carry the
   accent colour in their title, bars and frame;
 * the Spearman correlation map in rank order, the chosen block outlined, and
-  beside it the merit and gain of every candidate with the reason it was or
-  was not taken.
+  beside it the merit and pair merit of every candidate with the reason it was
+  or was not taken.
+
+Every figure on the sheet is one of the ranking table's (the cards show its
+robust spread, ``r.spread``); no label is cut short: long names get a smaller
+font and long reasons a second line. The scatter colours carry the lens's
+rank, read on the colour bar in the title line.
 """
 
 from __future__ import annotations
 
 import math
+import textwrap
 
 import numpy as np
 
@@ -74,8 +80,16 @@ def _palette_png(path):
         small.save(tmp, format="PNG", optimize=True, pnginfo=info)
 
 
-def _short(text, width=26):
-    return text if len(text) <= width else text[: width - 1] + "\u2026"
+def _fit(text, width, size, smallest=4.0):
+    """A font size at which ``text`` fits ``width`` characters of size ``size`` (never cut)."""
+    return max(smallest, size * min(1.0, width / max(len(text), 1)))
+
+
+def _pair_formula(result):
+    if result.pairing == "preservation":
+        return ("pair merit = R_NX \u00d7 \u221a(merit \u00d7 merit of #1) (narrow bar; #1 and "
+                "#2: their pair's)")
+    return "pair merit = merit \u00d7 (1 \u2212 max |\u03c1| to those chosen before) (narrow bar)"
 
 
 def _draw(result):
@@ -136,9 +150,20 @@ def _title(ax, result):
                 fontweight="bold")
     ax.text(0, 0.18,
             f"Stopped: {result.stop_text}.  Histograms: the lens over its min-max range "
-            f"({result.bins} bins, as the spread score counts them).  Scatter: the data's "
-            f"first two principal coordinates, coloured by the lens's rank.",
+            f"({result.bins} bins).  Scatter: the data's first two principal coordinates.  "
+            f"r.spread: robust spread.",
             fontsize=7.5, color=MUTED, transform=ax.transAxes, va="center")
+    from matplotlib.cm import ScalarMappable
+    from matplotlib.colors import Normalize
+
+    cax = ax.inset_axes([0.80, 0.52, 0.18, 0.14])
+    bar = ax.figure.colorbar(ScalarMappable(Normalize(0.0, 1.0), LENS_CMAP), cax=cax,
+                             orientation="horizontal", ticks=[0.0, 0.5, 1.0])
+    cax.xaxis.set_label_position("top")
+    bar.set_label("scatter colour: the lens's rank (0 lowest, 1 highest)", fontsize=6.5,
+                  color=MUTED)
+    bar.outline.set_visible(False)
+    bar.ax.tick_params(labelsize=6)
 
 
 def _card(ax_h, ax_s, result, row, j, xy, pick):
@@ -147,15 +172,17 @@ def _card(ax_h, ax_s, result, row, j, xy, pick):
     values = np.asarray(result.lenses.columns[j].values, dtype=np.float64)
     ok = bool(result.usable[j])
     # title: rank and name, then the figures behind the score
-    name = _short(row["column"], 21 if row["rank"] >= 10 else 22)  # fits one card's width
-    ax_h.set_title(f"#{row['rank']}  {name}", loc="left", fontsize=8,
+    title = f"#{row['rank']}  {row['column']}"
+    ax_h.set_title(title, loc="left", fontsize=_fit(title, 25, 8),
                    color=ACCENT if chosen else INK, pad=11)
     if row["partner"] is None:
         partner = "no partner"
     else:
-        partner = f"|\u03c1| {abs(row['partner_rho']):.2f} {_short(row['partner'], 15)}"
-    ax_h.text(0, 1.04, f"spread {row['spread']:.2f} \u00b7 {partner}", fontsize=6,
-              color=MUTED, transform=ax_h.transAxes, va="bottom")
+        partner = f"|\u03c1| {abs(row['partner_rho']):.2f} with {row['partner']}"
+    spread = row.get("robust_spread", math.nan)
+    line = f"r.spread {spread:.2f} \u00b7 {partner}"
+    ax_h.text(0, 1.04, line, fontsize=_fit(line, 40, 6), color=MUTED,
+              transform=ax_h.transAxes, va="bottom")
     for ax in (ax_h, ax_s):
         ax.set_xticks([])
         ax.set_yticks([])
@@ -184,9 +211,10 @@ def _heatmap(fig, ax, result, rows, order):
     m = len(order)
     cmap = CORR_CMAP.with_extremes(bad=_NAN_COLOUR)
     im = ax.imshow(np.ma.masked_invalid(C), cmap=cmap, vmin=-1, vmax=1, interpolation="nearest")
-    labels = [_short(r["column"], 22) for r in rows]
-    ax.set_xticks(range(m), labels, rotation=60, ha="right", rotation_mode="anchor", fontsize=6.5)
-    ax.set_yticks(range(m), labels, fontsize=6.5)
+    labels = [r["column"] for r in rows]
+    size = min(_fit(t, 22, 6.5) for t in labels)
+    ax.set_xticks(range(m), labels, rotation=60, ha="right", rotation_mode="anchor", fontsize=size)
+    ax.set_yticks(range(m), labels, fontsize=size)
     for tick_x, tick_y, r in zip(ax.get_xticklabels(), ax.get_yticklabels(), rows, strict=True):
         for t in (tick_x, tick_y):
             if r["selected"]:
@@ -223,12 +251,13 @@ def _ranking(ax, result, rows):
     m = len(rows)
     y = np.arange(m)
     merit = np.array([r["merit"] for r in rows])
-    gain = np.array([r["gain"] for r in rows])
+    pair = np.array([r["pair_merit"] for r in rows])
     chosen = np.array([r["selected"] for r in rows])
     ax.barh(y, merit, height=0.72, color=GRID, linewidth=0, label="merit")
-    ax.barh(y, gain, height=0.42, color=np.where(chosen, ACCENT, MUTED), linewidth=0,
-            label="gain")
-    ax.set_yticks(y, [f"#{r['rank']} {_short(r['column'], 22)}" for r in rows], fontsize=6.5)
+    ax.barh(y, pair, height=0.42, color=np.where(chosen, ACCENT, MUTED), linewidth=0,
+            label="pair merit")
+    labels = [f"#{r['rank']} {r['column']}" for r in rows]
+    ax.set_yticks(y, labels, fontsize=min(_fit(t, 26, 6.5) for t in labels))
     for t, r in zip(ax.get_yticklabels(), rows, strict=True):
         t.set_color(ACCENT if r["selected"] else INK)
         if r["selected"]:
@@ -237,11 +266,11 @@ def _ranking(ax, result, rows):
     ax.set_xlim(0, 2.35)  # bars on [0, 1], the reasons to their right
     ax.set_xticks([0, 0.5, 1.0])
     ax.set_ylim(m - 0.5, -0.5)
-    ax.set_xlabel("merit (wide bar) and gain = merit \u00d7 (1 \u2212 max |\u03c1| to chosen)")
+    ax.set_xlabel(f"merit (wide bar) and {_pair_formula(result)}", fontsize=7)
     ax.tick_params(axis="y", length=0)
     for yi, r in zip(y, rows, strict=True):
-        ax.text(1.04, yi, _short(r["reason"], 62), fontsize=5.8, va="center",
-                color=ACCENT if r["selected"] else MUTED)
+        ax.text(1.04, yi, "\n".join(textwrap.wrap(r["reason"], 58)), fontsize=5.4,
+                va="center", linespacing=1.0, color=ACCENT if r["selected"] else MUTED)
     ax.set_title("Ranking and reasons", loc="left", fontsize=8)
     ax.grid(axis="x", color=GRID, linewidth=0.6)
     ax.spines["bottom"].set_bounds(0, 1)

@@ -82,7 +82,7 @@ def stability_figure(smap, features=None):
     matplotlib.figure.Figure
     """
     features = list(features or smap.features)
-    p, q = len(smap.intervals), len(smap.overlaps)
+    p, q = len(smap.interval_counts), len(smap.overlaps)
     n_f = len(features)
     cell = 0.42
     width = max(2.6, 0.9 + q * cell) * n_f + 0.6
@@ -108,7 +108,7 @@ def stability_figure(smap, features=None):
                     ax.add_patch(plt.Rectangle((j0 - 0.42, i0 - 0.42), 0.84, 0.84, fill=False,
                                                edgecolor=colour, linewidth=lw, linestyle=ls))
             ax.set_xticks(range(q), [f"{o:g}" for o in smap.overlaps])
-            ax.set_yticks(range(p), [str(int(v)) for v in smap.intervals])
+            ax.set_yticks(range(p), [str(int(v)) for v in smap.interval_counts])
             ax.set_xlabel("overlap")
             if ax is axes[0]:
                 ax.set_ylabel("intervals per lens")

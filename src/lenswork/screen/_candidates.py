@@ -9,14 +9,13 @@ that cannot be computed on the data at hand.
 from __future__ import annotations
 
 import math
-import warnings
 
 import numpy as np
 
 from .. import _progress
-from .._errors import LensworkError, LensworkWarning, ParameterError
+from .._errors import LensworkError, ParameterError, warn_caller
 from ..data import PointCloud
-from ..lenses import get_lens, lens_names, parse_lens
+from ..lenses import get_lens, lens_names, lens_request
 from ..workspace import Workspace
 
 __all__ = ["compute_candidates", "default_candidates", "parse_spec"]
@@ -125,9 +124,14 @@ def _spec_label(name, params):
 
 
 def parse_spec(item):
-    """A candidate given as a spec string or a ``(name, params)`` pair, as ``(name, dict)``."""
+    """A candidate given as a spec string or a ``(name, params)`` pair, as ``(name, dict)``.
+
+    A lens column name (``"laplacian_3"``, ``"eccentricity[p=1]"``) stands for its lens
+    (:func:`lenswork.lenses.lens_request`): every column of it is a candidate.
+    """
     if isinstance(item, str):
-        return parse_lens(item)
+        name, params, _ = lens_request(item)
+        return name, params
     try:
         name, params = item
     except (TypeError, ValueError):
@@ -150,9 +154,8 @@ def compute_candidates(ws, specs, *, strict):
         label = _spec_label(name, params)
         if not strict and name not in known:
             skipped.append({"lens": label, "reason": "not registered"})
-            warnings.warn(
-                f"Default lens {name!r} is not registered here; screening without it.",
-                LensworkWarning, stacklevel=3,
+            warn_caller(
+                f"Default lens {name!r} is not registered here; screening without it."
             )
             continue
         spec = get_lens(name)
@@ -163,8 +166,8 @@ def compute_candidates(ws, specs, *, strict):
             if strict:
                 raise
             skipped.append({"lens": label, "reason": str(err)})
-            warnings.warn(
-                f"Default lens {label!r} was skipped: {err}", LensworkWarning, stacklevel=3
+            warn_caller(
+                f"Default lens {label!r} was skipped: {err}"
             )
             continue
         for col in cols:

@@ -59,7 +59,7 @@ import warnings
 import numpy as np
 
 from .. import _progress
-from .._errors import LensworkWarning, ParameterError
+from .._errors import LensworkWarning, ParameterError, warn_caller
 from .._validation import check_int, seed_of
 from ..criteria import robust_spread_sorted
 from ..lenses import LensTable, get_lens
@@ -461,11 +461,11 @@ def confirm_selection(result, ws, plan, *, lenses=None, extra=(), resamples=BOOT
         })
         columns.append(full)
         if not abs(rho) >= AGREEMENT_WARN:
-            warnings.warn(
+            warn_caller(
                 f"Lens {name!r} chosen on the sample of {plan.size:,} rows does not agree with "
                 f"its computation on all {ws.n:,} rows (Spearman rho {rho:+.3f}, below "
                 f"{AGREEMENT_WARN}). Screen on more rows (sample=..., --sample N) or on all "
-                f"of them (sample='all').", LensworkWarning, stacklevel=3,
+                f"of them (sample='all')."
             )
     seen, unique = set(), []
     for c in columns:

@@ -18,11 +18,10 @@ References
 from __future__ import annotations
 
 import math
-import warnings
 
 import numpy as np
 
-from .._errors import LensworkWarning, ParameterError
+from .._errors import ParameterError, warn_caller
 from ._spread import rank_sorted
 
 __all__ = ["corr_from_unit", "reference_correlations", "spearman_matrix", "unit_ranks", "unit_row"]
@@ -139,9 +138,8 @@ def spearman_matrix(A, B=None):
     if Zb is not None:
         constant += [f"B{j}" for j in range(Zb.shape[0]) if not np.isfinite(Zb[j, 0])]
     if constant:
-        warnings.warn(
-            f"Constant column(s) {constant}: their rank correlations are undefined (NaN).",
-            LensworkWarning, stacklevel=2,
+        warn_caller(
+            f"Constant column(s) {constant}: their rank correlations are undefined (NaN)."
         )
     return corr_from_unit(Za, Zb)
 
@@ -160,15 +158,14 @@ def reference_correlations(columns, refs, usable, Z):
     for k, (name, r) in enumerate(refs.items()):
         keep = np.isfinite(r)
         if keep.sum() < 3:
-            warnings.warn(
+            warn_caller(
                 f"Reference column {name!r} has fewer than 3 finite values; its correlations "
-                f"are NaN.", LensworkWarning, stacklevel=3,
+                f"are NaN."
             )
             continue
         if np.ptp(r[keep]) == 0:
-            warnings.warn(
-                f"Reference column {name!r} is constant; its correlations are NaN.",
-                LensworkWarning, stacklevel=3,
+            warn_caller(
+                f"Reference column {name!r} is constant; its correlations are NaN."
             )
             continue
         if not idx.size:

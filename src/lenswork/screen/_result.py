@@ -282,10 +282,10 @@ class ScreenResult:
         sel = list(self.selection.indices)
         absr = np.nan_to_num(np.abs(self.correlation), nan=0.0)
         partners = self.partners()
-        gain = np.zeros(m)
+        pair = np.zeros(m)
         nearest = [(None, math.nan)] * m
         for t, j in enumerate(sel):
-            gain[j] = self.selection.gains[t]
+            pair[j] = self.selection.pair_merits[t]
             before = sel[:t]
             if before:
                 i = before[int(np.argmax(absr[j, before]))]
@@ -298,13 +298,13 @@ class ScreenResult:
                 nearest[j] = (self.names[i], float(self.correlation[j, i]))
                 if self.pairing == "preservation" and np.isfinite(pres[j]):
                     # as the partner of the first chosen lens: R_NX x sqrt(merit merit)
-                    gain[j] = max(pres[j], 0.0) * math.sqrt(self.merit[j] * self.merit[sel[0]])
+                    pair[j] = max(pres[j], 0.0) * math.sqrt(self.merit[j] * self.merit[sel[0]])
                 elif self.pairing == "preservation":
-                    gain[j] = 0.0
+                    pair[j] = 0.0
                 else:
-                    gain[j] = self.merit[j] * (1.0 - absr[j, i])
+                    pair[j] = self.merit[j] * (1.0 - absr[j, i])
             else:
-                gain[j] = self.merit[j]
+                pair[j] = self.merit[j]
 
         def category(j):
             if not self.usable[j] or self.merit[j] <= 0:
@@ -313,14 +313,14 @@ class ScreenResult:
 
         follows = np.nan_to_num(self.scores.get("smoothness", np.zeros(m)), nan=0.0)
         # merit 0 last; among those, lenses that follow the data's neighbours first
-        rest.sort(key=lambda j: (category(j), -gain[j], -self.merit[j], -follows[j], j))
+        rest.sort(key=lambda j: (category(j), -pair[j], -self.merit[j], -follows[j], j))
         rows = []
         for rank, j in enumerate(sel + rest, 1):
             col = self.lenses.columns[j]
             row = {
                 "rank": rank, "column": col.name, "lens": col.lens, "params": col.params,
                 "selected": j in sel, "merit": float(self.merit[j]),
-                "preservation": float(pres[j]), "gain": float(gain[j]),
+                "preservation": float(pres[j]), "pair_merit": float(pair[j]),
             }
             for name, vals in self.scores.items():
                 row[name] = float(vals[j])
@@ -335,11 +335,11 @@ class ScreenResult:
             row["nearest_selected_rho"] = nearest[j][1]
             for k, ref in enumerate(self.reference_names):
                 row[f"rho[{ref}]"] = float(self.reference_correlation[j, k])
-            row["reason"] = self._reason(j, sel, nearest[j], gain[j])
+            row["reason"] = self._reason(j, sel, nearest[j], pair[j])
             rows.append(row)
         return rows
 
-    def _reason(self, j, sel, nearest, gain):
+    def _reason(self, j, sel, nearest, pair):
         if self.status[j] != "ok":
             return f"{status_text(self.status[j])}: spread 0, never selected"
         if j in sel:
@@ -347,13 +347,13 @@ class ScreenResult:
             if self.pairing == "preservation" and len(sel) > 1:
                 what = "pair" if len(sel) == 2 else "set"
                 if t == 0:
-                    return (f"selected #1: best {what} score {gain:.2f} (R_NX x geometric mean "
+                    return (f"selected #1: best {what} merit {pair:.2f} (R_NX x geometric mean "
                             f"of merits), its higher merit ({self.merit[j]:.2f})")
-                return (f"selected #{t + 1}: {what} score {gain:.2f}, |rho| "
+                return (f"selected #{t + 1}: {what} merit {pair:.2f}, |rho| "
                         f"{abs(nearest[1]):.2f} to {nearest[0]}")
             if t == 0:
                 return f"selected #1: highest merit ({self.merit[j]:.2f})"
-            return (f"selected #{t + 1}: gain {gain:.2f}, |rho| {abs(nearest[1]):.2f} to "
+            return (f"selected #{t + 1}: pair merit {pair:.2f}, |rho| {abs(nearest[1]):.2f} to "
                     f"{nearest[0]}")
         if self.merit[j] <= 0:
             return "merit 0: never selected"
@@ -361,8 +361,8 @@ class ScreenResult:
             return (f"redundant: |rho| {abs(nearest[1]):.2f} with {nearest[0]} (selected) > "
                     f"ceiling {self.ceiling:.2f}")
         if len(sel) >= self.count:
-            return f"not needed: count {self.count} reached (gain {gain:.2f})"
-        return f"not selected (gain {gain:.2f})"
+            return f"not needed: count {self.count} reached (pair merit {pair:.2f})"
+        return f"not selected (pair merit {pair:.2f})"
 
     @property
     def stop_text(self):
@@ -423,7 +423,7 @@ class ScreenResult:
             rank order (chosen first, in the order taken). Columns: ``rank``,
             ``lens``, ``params`` (JSON text), ``selected`` (bool), ``order``
             (1-based pick order; missing for candidates not chosen), ``merit``,
-            ``preservation``, ``gain``, every score column of :attr:`scores`, the probe counts
+            ``preservation``, ``pair_merit``, every score column of :attr:`scores`, the probe counts
             when the screen ran the probe, ``partner`` and ``partner_rho``,
             ``nearest_selected`` and ``nearest_selected_rho``, ``rho[<ref>]``
             per reference column, and ``reason``: the columns of
@@ -480,7 +480,7 @@ class ScreenResult:
                       ("sig L/B", "-" if sig[0] is None else "/".join(map(str, sig)), True),
                       ("L/F/B", "-" if every[0] is None else "/".join(map(str, every)), True)]
         cells += [("merit", _num(r["merit"]), True), ("R_NX", _num(r["preservation"]), True),
-                  ("gain", _num(r["gain"]), True), ("partner (rho)", partner, False),
+                  ("pair merit", _num(r["pair_merit"]), True), ("partner (rho)", partner, False),
                   *[(f"rho[{x}]", _num(r[f"rho[{x}]"], signed=True), True) for x in refs]]
         return cells
 
@@ -519,7 +519,9 @@ class ScreenResult:
         spread, ``smooth``: smoothness, ``structure`` with the probe, beside the
         probe's significant loops / branches ``sig L/B`` and all loops / flares /
         branch points ``L/F/B``), merit, ``R_NX`` with the first chosen lens,
-        gain, the most correlated other candidate, the reference correlations
+        the pair merit (what the pairing maximises: ``R_NX x sqrt(merit merit')``
+        with the first chosen lens, or ``merit x (1 - max |rho|)`` with
+        ``pairing="greedy"``), the most correlated other candidate, the reference correlations
         and the reason for the decision.
         """
         rows = self.rows()[:max_rows]

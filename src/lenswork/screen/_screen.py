@@ -23,13 +23,12 @@ from __future__ import annotations
 import math
 import numbers
 import os
-import warnings
 from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
 from .. import _progress
-from .._errors import InputError, LensworkWarning, ParameterError
+from .._errors import InputError, ParameterError, warn_caller
 from .._validation import check_choice, check_float, check_int
 from ..criteria import (
     RobustSpread,
@@ -314,15 +313,15 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
         del Z
     for j, s in enumerate(status):
         if s != "ok":
-            warnings.warn(
+            warn_caller(
                 f"Lens column {table.names[j]!r} is {status_text(s)}: spread 0, it is never "
-                f"selected.", LensworkWarning, stacklevel=2,
+                f"selected."
             )
     n_ok = int(np.count_nonzero(usable & (scores["spread"] > 0)))
     if count > n_ok:
-        warnings.warn(
+        warn_caller(
             f"Asked for {count} lenses but only {n_ok} candidate column(s) are usable; "
-            f"selecting at most {n_ok}.", LensworkWarning, stacklevel=2,
+            f"selecting at most {n_ok}."
         )
     preservation = _preservation(table, ws, table.random_state or 0) \
         if pairing == "preservation" else None
@@ -345,10 +344,9 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
         if "smoothness" in zero:
             why += (" (no lens follows the data's neighbours better than a random ordering "
                     "of its values)")
-        warnings.warn(
+        warn_caller(
             f"The screen selected no lens: {why}. Check that the lenses were computed on "
-            f"these rows, or pass weights= without that score.",
-            LensworkWarning, stacklevel=2,
+            f"these rows, or pass weights= without that score."
         )
     return result
 

@@ -51,8 +51,13 @@ tried in decreasing ``sqrt(merit_i merit_j)`` and the search stops when that
 bound falls below the best score found: the result is the exhaustive one.
 
 ``pairing="greedy"`` keeps the earlier rule: repeatedly take the candidate
-with the largest ``gain = merit * (1 - max |rho| to the lenses already
+with the largest pair merit ``merit * (1 - max |rho| to the lenses already
 taken)`` under the ceiling (:func:`select_lenses`).
+
+The *pair merit* is what each rule maximises: ``R_NX(set) * geometric mean of
+the merits`` for ``"preservation"``, ``merit * (1 - max |rho|)`` for
+``"greedy"``. (lenswork does not call it a gain: in Mapper, gain is the cover's
+overlap fraction.)
 """
 
 from __future__ import annotations
@@ -93,8 +98,8 @@ class Selection:
     ----------
     indices : tuple of int
         Chosen candidates, in the order they were taken.
-    gains : tuple of float
-        The score at the moment each was taken: ``merit * (1 - max |rho| to those
+    pair_merits : tuple of float
+        The pair merit at the moment each was taken: ``merit * (1 - max |rho| to those
         taken before)`` for the greedy rule; for the preservation rule the merit
         of a single lens, then ``R_NX(set) * geometric mean of the merits`` of the
         set it completes (both lenses of the pair share the pair's score).
@@ -111,7 +116,7 @@ class Selection:
     """
 
     indices: tuple
-    gains: tuple
+    pair_merits: tuple
     stop: str
 
 
@@ -165,7 +170,7 @@ def select_lenses(correlation, merit, *, count=2, ceiling=0.8, usable=None):
     Step t takes ``argmax_j merit_j * (1 - max_{i in S} |rho_ij|)`` over the
     usable, untaken j with ``max_{i in S} |rho_ij| <= ceiling`` and merit > 0
     (S the lenses taken so far; the max over an empty S is 0, so the first
-    pick is the best merit). Equal gains go to the earlier candidate, so the
+    pick is the best merit). Equal pair merits go to the earlier candidate, so the
     result is deterministic. Cost O(count m).
 
     Examples
@@ -180,20 +185,20 @@ def select_lenses(correlation, merit, *, count=2, ceiling=0.8, usable=None):
     m = merit.shape[0]
     absr = np.nan_to_num(np.abs(R), nan=0.0)
     worst = np.zeros(m)  # max |rho| to the chosen set
-    chosen, gains = [], []
+    chosen, pair_merits = [], []
     stop = "count"
     while len(chosen) < count:
         open_ = ok & (worst <= ceiling)
         if not open_.any():
             stop = "ceiling" if ok.any() else "candidates"
             break
-        gain = np.where(open_, merit * (1.0 - worst), -np.inf)
-        j = int(np.argmax(gain))
+        pair_merit = np.where(open_, merit * (1.0 - worst), -np.inf)
+        j = int(np.argmax(pair_merit))
         chosen.append(j)
-        gains.append(float(gain[j]))
+        pair_merits.append(float(pair_merit[j]))
         ok[j] = False
         worst = np.maximum(worst, absr[:, j])
-    return Selection(tuple(chosen), tuple(gains), stop)
+    return Selection(tuple(chosen), tuple(pair_merits), stop)
 
 
 def weighted_merit(scores, weights):
@@ -358,7 +363,7 @@ def select_by_preservation(correlation, merit, preservation, *, count=2, ceiling
         if score > best + 1e-12:
             best, chosen = score, (i, j) if merit[i] >= merit[j] else (j, i)
     chosen = list(chosen)
-    gains = [best, best]
+    pair_merits = [best, best]
     stop = "count"
     while len(chosen) < count:
         worst = absr[:, chosen].max(axis=1)
@@ -380,5 +385,5 @@ def select_by_preservation(correlation, merit, preservation, *, count=2, ceiling
             if score > top + 1e-12:
                 top, pick = score, j
         chosen.append(pick)
-        gains.append(top)
-    return Selection(tuple(chosen), tuple(gains), stop)
+        pair_merits.append(top)
+    return Selection(tuple(chosen), tuple(pair_merits), stop)

@@ -41,12 +41,11 @@ References
 from __future__ import annotations
 
 import math
-import warnings
 from dataclasses import dataclass
 
 import numpy as np
 
-from .._errors import LensworkWarning, ParameterError
+from .._errors import ParameterError, warn_caller
 from .._validation import check_int
 
 __all__ = [
@@ -300,9 +299,8 @@ def spread_score(values, *, bins=20):
     v = _as_column(values, "spread_score's values")
     score = _spread_of(v, bins)
     if score.status != "ok":
-        warnings.warn(
-            f"The lens column is {status_text(score.status)}: spread 0.", LensworkWarning,
-            stacklevel=2,
+        warn_caller(
+            f"The lens column is {status_text(score.status)}: spread 0."
         )
     return score
 
