@@ -989,7 +989,10 @@ def contrast_columns(graph, data, feature=None, *, nodes=None, rows=None, agains
                 raw.append(rec)
     if not infos:
         reasons = "; ".join(f"{s['feature']}: {s['reason']}" for s in skipped if s["feature"])
-        raise InputError(f"No graph feature can be tested ({reasons}).")
+        hint = ("" if explicit else " Nothing significant is left to contrast: test the small "
+                "features too with all_features=True (--all-features), or name rows with "
+                "--rows / --rows-file.")
+        raise InputError(f"No graph feature can be tested ({reasons}).{hint}")
     q = benjamini_hochberg([r["pvalue"] for r in raw]) if raw else np.array([])
     out = []
     for f in infos:

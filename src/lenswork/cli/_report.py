@@ -12,7 +12,6 @@ from ..graph import LAYOUTS, build_graph
 from ..report import CONTRAST_ROWS, write_report
 from ..screen import screen
 from ..table import LensTable
-from ..workspace import Workspace
 from ._common import graph_options, input_options, number_list
 
 __all__ = ["COMMANDS"]
@@ -55,7 +54,7 @@ def _screen_lenses(folder, cloud):
               "all: every row (slow above 1e5 rows: O(rows) per node and column).")
 @graph_options()
 def report_command(cloud, seed, screen_dir, graph_path, out_file, title, top, layout,
-                   contrast_rows, settings, neighbor_method):
+                   contrast_rows, settings, neighbors):
     """Write one self-contained HTML page to explore TABLE's screen and graph in a browser.
 
     The page holds the screen's ranking (a sortable table with every reason,
@@ -74,7 +73,7 @@ def report_command(cloud, seed, screen_dir, graph_path, out_file, title, top, la
     """
     contrast_rows = None if contrast_rows.strip().lower() == "all" else \
         number_list(contrast_rows, int, "--contrast-rows")
-    ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
+    ws = neighbors.workspace(cloud, seed)
     screen_source = screen_dir
     if graph_path is not None:
         graph = graph_path
