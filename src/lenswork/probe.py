@@ -114,7 +114,6 @@ from ._io import write_text
 from ._json import dumps
 from ._validation import check_float, check_int
 from ._version import __version__
-from .criteria import heat_kernel_affinity, neighbour_jitter
 from .graph._features import (
     FEATURES,
     as_workspace,
@@ -124,7 +123,7 @@ from .graph._features import (
     lens_label,
     quiet_build,
 )
-from .graph._persistence import lens_persistence
+from .graph._persistence import diagram_trunks, lens_persistence, significance_total
 from .graph._settings import GraphSettings, grid_settings
 from .table import as_lens_table
 
@@ -324,19 +323,21 @@ def _data_components(workspace, cols, settings):
 
 
 def _grid_counts(cols, workspace, intervals, overlaps, settings, data_components, label,
-                 jitter=None):
+                 jitter=False):
     """Feature counts of the graph at every (intervals, overlap) cell: dict -> (p, q) arrays.
 
     Each cell's settings come from :func:`lenswork.graph.grid_settings`, so the
-    grid sweeps whichever cover the settings hold. With ``jitter`` (one lens
-    column, interval cover) each cell's graph also gets its extended persistence
-    diagram (``lenswork.graph._persistence.lens_persistence``): the counts of significant
-    loops and branches and the significance total ``T`` of the module notes.
+    grid sweeps whichever cover the settings hold. Unless ``jitter`` is False
+    (one lens column, interval cover) each cell's graph also gets its extended
+    persistence diagram (``lenswork.graph._persistence.lens_persistence`` with
+    that jitter; None: the graph's own, per node): the counts of significant
+    loops and branches (trunks included) and the significance total ``T`` of the
+    module notes.
     """
     p, q = len(intervals), len(overlaps)
     keys = ("nodes", "edges", "unassigned", *FEATURES, "extra_components", "empty")
     out = {k: np.zeros((p, q), dtype=np.int64) for k in keys}
-    diagrams = jitter is not None and settings.cover_kind == "interval"
+    diagrams = jitter is not False and settings.cover_kind == "interval"
     if diagrams:
         for k in ("significant_loops", "significant_branches"):
             out[k] = np.zeros((p, q), dtype=np.int64)
@@ -355,12 +356,14 @@ def _grid_counts(cols, workspace, intervals, overlaps, settings, data_components
                 c = {**feature_counts(g, data_components), "empty": 0}
                 d = lens_persistence(g, jitter=jitter)
                 sig = d.significant
+                E = np.asarray(g.edge_index, dtype=np.int64).reshape(-1, 2)
+                level = g.node_elements[:, 0].astype(np.float64)
+                trunks = sum(1 for t in diagram_trunks(d, E, level) if t[3] > t[4])
                 c["significant_loops"] = int(np.count_nonzero(sig & (d.kind == "loop")))
-                c["significant_branches"] = int(np.count_nonzero(
+                c["significant_branches"] = trunks + int(np.count_nonzero(
                     sig & ((d.kind == "down") | (d.kind == "up"))))
-                out["significance_total"][i, j] = sum(
-                    w * float(d.significance[sig & (d.kind == kind)].sum())
-                    for kind, w in SIGNIFICANCE_WEIGHTS.items())
+                out["significance_total"][i, j] = significance_total(
+                    d, E, level, SIGNIFICANCE_WEIGHTS)
         for k in out:
             if k in c:
                 out[k][i, j] = c[k]
@@ -602,7 +605,7 @@ def structure_scores(lenses, workspace, *, settings=None, intervals=None,
             scores[col.name] = {k: math.nan for k in _score_keys()}
             continue
         grid = _grid_counts([col], workspace, intervals, overlaps, settings, data_c, col.name,
-                            jitter=_jitter(col, workspace, settings))
+                            jitter=None)
         counts[col.name] = grid
         scores[col.name] = _score(grid, weights, floor, workspace.n)
     return StructureProbe(
@@ -617,13 +620,6 @@ def _min_size(settings, n_rows):
     if isinstance(settings.min_size, str):  # e.g. "auto": resolved by the graph settings' rule
         return settings.replace(intervals=1, overlap=0.0).resolve(n_rows, 1).min_size
     return settings.min_size
-
-
-def _jitter(col, workspace, settings):
-    """The lens's neighbour jitter on the cover scale (lenswork.criteria.neighbour_jitter)."""
-    k = min(settings.k, workspace.n - 1)
-    S = heat_kernel_affinity(workspace, k=k)  # cached in the workspace
-    return neighbour_jitter(np.asarray(col.values, dtype=np.float64), S, scale=settings.scale)
 
 
 # --------------------------------------------------------------------------- stability map

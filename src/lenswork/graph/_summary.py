@@ -91,7 +91,7 @@ from scipy.sparse.csgraph import connected_components
 
 from .._errors import ParameterError
 from ._nerve import nerve_triangles
-from ._persistence import ascending_edge_order, graph_diagrams
+from ._persistence import ascending_edge_order, diagram_trunks, graph_diagrams
 
 __all__ = ["GraphFeature", "GraphSummary", "cover_settings",
            "neighbour_lists", "settings_text", "summarize"]
@@ -355,8 +355,8 @@ def cover_settings(graph):
     params = getattr(graph, "params", None) or {}
     prov = getattr(graph, "provenance", None) or {}
     cover = params.get("cover") or {}
-    out = {key: cover[key] for key in ("kind", "intervals", "overlap", "radius", "centres")
-           if key in cover and cover[key] is not None}
+    out = {key: cover[key] for key in ("kind", "intervals", "overlap", "scale", "radius",
+                                       "centres") if key in cover and cover[key] is not None}
     if "min_size" in params:
         out["min_size"] = params["min_size"]
     if isinstance(params.get("clusterer"), str):
@@ -378,8 +378,9 @@ def settings_text(settings):
             value = f"{value:g}"
         return f"{key} {value}" + (" (auto)" if key in auto else "")
 
-    parts = [shown(k, settings[k]) for k in ("intervals", "overlap", "radius", "centres",
-                                             "min_size", "clusterer") if k in settings]
+    parts = [shown(k, settings[k]) for k in ("intervals", "overlap", "scale", "radius",
+                                             "centres", "min_size", "clusterer")
+             if k in settings]
     return "settings: " + ", ".join(parts)
 
 
@@ -539,13 +540,26 @@ class _Significance:
                         bool(d.significant[i])))
         return out
 
+    @cached_property
+    def trunks(self):
+        """Per lens: (extreme node, merge node, significance, threshold) of each trunk."""
+        E = np.asarray(self.graph.edge_index, dtype=np.int64).reshape(-1, 2)
+        return [[t[1:] for t in diagram_trunks(d, E, self.levels[:, j])]
+                for j, d in enumerate(self.diagrams)]
+
     def limbs(self):
-        """(birth node, death node), significance, significant for every branch of every lens."""
+        """(birth node, death node), significance, significant for every branch of every lens.
+
+        The diagram's ``down`` and ``up`` points, and the trunks (a component's
+        extreme down or up to where a significant branch joins it).
+        """
         out = []
-        for d in self.diagrams:
+        for j, d in enumerate(self.diagrams):
             for i in np.flatnonzero((d.kind == "down") | (d.kind == "up")):
                 out.append((tuple(int(x) for x in d.nodes[i]), float(d.significance[i]),
                             bool(d.significant[i])))
+            out += [((top, merge), value, value > thr)
+                    for top, merge, value, thr in self.trunks[j]]
         # the same limb seen by two lenses is listed once, at its larger significance
         merged = {}
         for nodes, value, ok in out:
@@ -622,10 +636,12 @@ class _Significance:
     def ends_at(self, v):
         """Largest significance of the limbs and loops with an end at node ``v``."""
         vals = []
-        for d in self.diagrams:
+        for j, d in enumerate(self.diagrams):
             hit = ((d.nodes[:, 0] == v) | (d.nodes[:, 1] == v)) & (d.kind != "component")
             vals += [(float(d.significance[i]), bool(d.significant[i]))
                      for i in np.flatnonzero(hit)]
+            vals += [(value, value > thr) for top, merge, value, thr in self.trunks[j]
+                     if v in (top, merge)]
         return self._best(vals)
 
     def branch(self, v, nb):
@@ -635,14 +651,16 @@ class _Significance:
         return min(arm, end), arm_ok and end_ok
 
     def flare(self, chain, end):
-        """Significance of the limb born at the flare's leaf (0 for a trunk: no limb)."""
+        """Significance of the limb or trunk born at the flare's leaf (module notes)."""
         leaf = chain[0]
         vals = []
-        for d in self.diagrams:
+        for j, d in enumerate(self.diagrams):
             born = np.flatnonzero(((d.kind == "down") | (d.kind == "up")) & (d.nodes[:, 0] == leaf))
             if born.size:
                 i = int(born[np.argmax(d.significance[born])])
                 vals.append((float(d.significance[i]), bool(d.significant[i])))
+            vals += [(value, value > thr) for top, _, value, thr in self.trunks[j]
+                     if top == leaf]
         return self._best(vals)
 
 
