@@ -341,7 +341,8 @@ def _grid_counts(cols, workspace, intervals, overlaps, settings, data_components
     if diagrams:
         for k in ("significant_loops", "significant_branches"):
             out[k] = np.zeros((p, q), dtype=np.int64)
-        out["significance_total"] = np.zeros((p, q), dtype=np.float64)
+        for k in ("significance_total", "loop_total", "branch_total"):
+            out[k] = np.zeros((p, q), dtype=np.float64)
     cells = [(i, j) for i in range(p) for j in range(q)]
     for i, j in _progress.track(cells, f"probe {label}", length=len(cells)):
         cell = grid_settings(settings, intervals[i], overlaps[j])
@@ -362,8 +363,12 @@ def _grid_counts(cols, workspace, intervals, overlaps, settings, data_components
                 c["significant_loops"] = int(np.count_nonzero(sig & (d.kind == "loop")))
                 c["significant_branches"] = trunks + int(np.count_nonzero(
                     sig & ((d.kind == "down") | (d.kind == "up"))))
-                out["significance_total"][i, j] = significance_total(
-                    d, E, level, SIGNIFICANCE_WEIGHTS)
+                loop_w = {"loop": SIGNIFICANCE_WEIGHTS["loop"]}
+                branch_w = {k: w for k, w in SIGNIFICANCE_WEIGHTS.items() if k != "loop"}
+                out["loop_total"][i, j] = significance_total(d, E, level, loop_w)
+                out["branch_total"][i, j] = significance_total(d, E, level, branch_w)
+                out["significance_total"][i, j] = out["loop_total"][i, j] \
+                    + out["branch_total"][i, j]
         for k in out:
             if k in c:
                 out[k][i, j] = c[k]
@@ -414,6 +419,10 @@ def _score(counts, weights, floor, n_rows=None):
     row["revealed"] = revealed
     row["stability"] = stability
     row["significance"] = significance
+    for kind in ("loop", "branch"):
+        key = f"{kind}_total"
+        part = float(np.median(counts[key])) if key in counts else 0.0
+        row[f"{kind}_significance"] = 1.0 - 2.0 ** (-part)
     row["coherence"] = coherence
     row["count_structure"] = floor + (1.0 - floor) * revealed * stability * (
         (1.0 - float(empty.mean())) / (1.0 + mean_extra))
@@ -426,7 +435,8 @@ def _score_keys():
     for f in SCORED_FEATURES:
         keys += [f, f"{f}_agreement"]
     return [*keys, "significant_loops", "significant_branches", "revealed", "stability",
-            "significance", "coherence", "count_structure", "structure"]
+            "significance", "loop_significance", "branch_significance", "coherence",
+            "count_structure", "structure"]
 
 
 class StructureProbe(dict):
