@@ -408,10 +408,40 @@ def ascending_edge_order(edges, values):
     return _ascending(E, rank_up)[0]
 
 
-def _trunk_merges(order, nb, f, persistence, slack):
+def _beyond(v, nb, f, sign):
+    """The vertices reached from ``v`` through vertices at or past its level in the sweep
+    (below it when ``sign`` is 1), and whether one is strictly past it."""
+    level = f[v]
+    seen, todo, past = {v}, [v], False
+    while todo:
+        u = todo.pop()
+        for w in nb[u]:
+            ahead = sign * (level - f[w])
+            if ahead >= 0 and w not in seen:
+                past |= ahead > 0
+                seen.add(w)
+                todo.append(w)
+    return seen, past
+
+
+def _is_fork(v, nb, f, sign, folds):
+    """Whether the graph goes on past ``v`` other than into a fold: a significant branch of
+    the other direction whose extreme lies past ``v`` and whose merge lies before it (a path
+    that doubles back, as a bump or a dip does, and which a Mapper graph draws with a spur)."""
+    reached, past = _beyond(v, nb, f, sign)
+    if not past:
+        return False
+    for extreme, merge in folds:
+        if extreme in reached and sign * (f[merge] - f[v]) > 0:
+            return False
+    return True
+
+
+def _trunk_merges(order, nb, f, persistence, slack, sign, folds):
     """For each component, the first merge into its eldest branch of a branch of more than
-    ``persistence`` (plus the ``slack`` of its two ends): {eldest vertex: merge vertex}
-    (union-find in ``order``, elder rule)."""
+    ``persistence`` (plus the ``slack`` of its two ends) at a fork: {eldest vertex: merge
+    vertex} (union-find in ``order``, elder rule; ``sign`` 1 for a downward sweep, -1
+    upward; ``folds``: the significant branches of the other direction, (extreme, merge))."""
     V = f.size
     pos = np.empty(V, dtype=np.int64)
     pos[order] = np.arange(V)
@@ -421,6 +451,7 @@ def _trunk_merges(order, nb, f, persistence, slack):
     out = {}
     for v in order.tolist():
         seen[v] = True
+        onward = None
         for w in nb[v]:
             if not seen[w]:
                 continue
@@ -429,8 +460,11 @@ def _trunk_merges(order, nb, f, persistence, slack):
                 continue
             a, b = oldest[ru], oldest[rv]
             elder, young = (a, b) if pos[a] < pos[b] else (b, a)
-            if abs(f[young] - f[v]) > persistence + slack[young] + slack[v]:
-                out.setdefault(elder, v)  # the elder's first significant meeting
+            if elder not in out and abs(f[young] - f[v]) > persistence + slack[young] + slack[v]:
+                if onward is None:
+                    onward = _is_fork(v, nb, f, sign, folds)
+                if onward:
+                    out[elder] = v  # the elder's first significant meeting at a fork
             keep, gone = (ru, rv) if elder == a else (rv, ru)
             parent[gone] = keep
             oldest[keep] = elder
@@ -449,7 +483,13 @@ def trunk_points(edges, values, persistence, *, slack=None, n_nodes=None):
     ``persistence`` joins it -- the decomposition of the merge tree into
     branches, each from its extreme to the saddle where it meets a longer one
     (Pascucci, Cole-McLaughlin and Scorzelli 2004, from memory), with short
-    branches ignored. A component with no such branch has no trunk point.
+    branches ignored. Only a fork counts: a vertex past which the graph goes
+    on (it reaches a vertex further in the sweep), and not into a fold -- a
+    significant branch of the other direction whose extreme lies past the
+    vertex and which merges before it: two branches that meet at a local
+    extreme, or where a Mapper graph draws a path doubling back with a spur,
+    are a bump or a dip of one path, whose ends are no tails. A component
+    with no such fork has no trunk point.
 
     Parameters
     ----------
@@ -482,8 +522,16 @@ def trunk_points(edges, values, persistence, *, slack=None, n_nodes=None):
     nb = _neighbour_lists(E, V)
     up = np.lexsort((np.arange(V), f))
     out = []
-    for kind, order in (("up", up[::-1].copy()), ("down", up)):
-        for top, merge in sorted(_trunk_merges(order, nb, f, persistence, slack).items()):
+    down_pairs, _ = _h0(up, nb, f)
+    up_pairs, _ = _h0(up[::-1].copy(), nb, f)
+
+    def strong(pairs):
+        return [(a, b) for a, b in pairs if abs(f[a] - f[b]) > persistence + slack[a] + slack[b]]
+
+    for kind, order, sign, folds in (("up", up[::-1].copy(), 1.0, strong(down_pairs)),
+                                     ("down", up, -1.0, strong(up_pairs))):
+        for top, merge in sorted(_trunk_merges(order, nb, f, persistence, slack,
+                                               sign, folds).items()):
             out.append((kind, int(top), int(merge)))
     return out
 

@@ -497,15 +497,32 @@ def _features(graph):
 
 def _limbs(graph, sig):
     rows_of = _row_counter(graph)
+    nb = neighbour_lists(graph.n_nodes, graph.edge_index)
     out = []
-    for nodes, value, ok in sig.limbs():
+    for nodes, merge, value, ok in sig.limbs(nb):
         idx = np.asarray(nodes, dtype=np.int64)
         spans = {name: (float(graph.node_stats[name][idx, 1].min()),
                         float(graph.node_stats[name][idx, 2].max()))
                  for name in graph.lens_columns}
         out.append(GraphFeature("limb", tuple(int(x) for x in nodes), rows_of(nodes), spans,
-                                significance=value, significant=ok))
+                                attached_to=int(merge), significance=value, significant=ok))
     return tuple(out)
+
+
+def _region(nb, level, extreme, merge):
+    """The nodes reached from ``extreme`` through nodes strictly beyond ``merge``'s level (on
+    ``extreme``'s side), the extreme first and the rest in increasing order."""
+    sign = 1.0 if level[extreme] > level[merge] else -1.0
+    cut = level[merge]
+    seen, todo = {extreme}, [extreme]
+    while todo:
+        u = todo.pop()
+        for w in nb[u]:
+            if w not in seen and sign * (level[w] - cut) > 0:
+                seen.add(w)
+                todo.append(w)
+    seen.discard(extreme)
+    return (int(extreme), *sorted(int(x) for x in seen))
 
 
 class _Significance:
@@ -547,25 +564,39 @@ class _Significance:
         return [[t[1:] for t in diagram_trunks(d, E, self.levels[:, j])]
                 for j, d in enumerate(self.diagrams)]
 
-    def limbs(self):
-        """(birth node, death node), significance, significant for every branch of every lens.
+    def limbs(self, nb):
+        """(nodes, attached to, significance, significant) for every branch of every lens.
 
         The diagram's ``down`` and ``up`` points, and the trunks (a component's
-        extreme down or up to where a significant branch joins it).
+        extreme down or up to where a significant branch joins it). A limb's
+        nodes are its region: the nodes reached from its extreme through nodes
+        beyond the level where it joins the rest (the extreme first); it is
+        attached to the node where it joins. The same limb seen by several
+        lenses (regions sharing at least half the nodes of the smaller) is
+        listed once, at its largest significance.
         """
-        out = []
+        found = []
         for j, d in enumerate(self.diagrams):
-            for i in np.flatnonzero((d.kind == "down") | (d.kind == "up")):
-                out.append((tuple(int(x) for x in d.nodes[i]), float(d.significance[i]),
-                            bool(d.significant[i])))
-            out += [((top, merge), value, value > thr)
-                    for top, merge, value, thr in self.trunks[j]]
-        # the same limb seen by two lenses is listed once, at its larger significance
-        merged = {}
-        for nodes, value, ok in out:
-            old = merged.get(nodes)
-            merged[nodes] = (max(value, old[0]), ok or old[1]) if old else (value, ok)
-        return sorted(((k, v, ok) for k, (v, ok) in merged.items()), key=lambda t: -t[1])
+            level = self.levels[:, j]
+            ends = [(int(d.nodes[i, 0]), int(d.nodes[i, 1]), float(d.significance[i]),
+                     bool(d.significant[i]))
+                    for i in np.flatnonzero((d.kind == "down") | (d.kind == "up"))]
+            ends += [(top, merge, value, value > thr) for top, merge, value, thr in self.trunks[j]]
+            for top, merge, value, ok in ends:
+                found.append((j, _region(nb, level, top, merge), merge, value, ok))
+        found.sort(key=lambda t: (-t[3], t[0], t[1][0]))
+        kept = []
+        for j, region, merge, value, ok in found:
+            nodes = set(region)
+            same = next((k for k in kept if j not in k["lenses"]
+                         and len(nodes & k["set"]) * 2 >= min(len(nodes), len(k["set"]))), None)
+            if same is None:
+                kept.append({"lenses": {j}, "set": nodes, "region": region, "merge": merge,
+                             "value": value, "ok": ok})
+            else:  # the same limb under another lens: listed once, at the larger value
+                same["lenses"].add(j)
+                same["ok"] = same["ok"] or ok
+        return [(k["region"], k["merge"], k["value"], k["ok"]) for k in kept]
 
     def at_node(self, v, nb):
         """Third-largest lens span of the exits at node ``v`` (module notes).

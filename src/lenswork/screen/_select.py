@@ -324,12 +324,14 @@ def pair_merit(scores, weights, floor=STRUCTURE_FLOOR):
         (``T = -log2(1 - significance)``, the probe's totals per kind). So a pair
         of a lens that shows the loop and one that shows the tails gets credit
         for both, and two lenses that show the same loop get it once. The mean
-        is then multiplied by the pair's coverage, ``prod_kind (1 + T_kind /
-        T_kind*) / 2`` over the kinds some candidate shows (``T_kind*`` the
-        largest single-lens total of that kind, the ratio at most 1): a pair
-        that leaves out the loops or the tails the best single lenses show
-        counts half. None when the structure does not enter the merit or the
-        columns are missing.
+        is then multiplied by the pair's coverage, ``prod_kind ((1 + r_kind) /
+        2) ** (w_structure / sum w)`` over the kinds (loops, branches) some
+        candidate shows, with ``r_kind`` the larger ``merit_i * sig_kind_i`` of
+        the pair over the largest of any candidate (``sig_kind``: the probe's
+        ``loop_significance`` or ``branch_significance``): a pair that leaves
+        out the loops or the tails that the best lenses show loses as much as
+        a structure score halved. None when the structure does not enter the
+        merit or the columns are missing.
 
     Examples
     --------
@@ -337,7 +339,7 @@ def pair_merit(scores, weights, floor=STRUCTURE_FLOOR):
     ...      "loop_significance": [0.5, 0.0, 0.5], "branch_significance": [0.0, 0.25, 0.0]}
     >>> f = pair_merit(s, {"structure": 1.0})
     >>> round(f(0, 1), 4), round(f(0, 2), 4)      # loop + tail beats loop + the same loop
-    (0.6953, 0.3125)
+    (0.6953, 0.4961)
     """
     need = ("structure", "coherence", "loop_significance", "branch_significance")
     if weights.get("structure", 0) <= 0 or not all(k in scores for k in need):
@@ -351,15 +353,16 @@ def pair_merit(scores, weights, floor=STRUCTURE_FLOOR):
         return -np.log2(1.0 - s)
 
     loop_t, branch_t = level("loop_significance"), level("branch_significance")
-    ok = np.asarray(cols["structure"]) > 0
-    best = [float(t[ok].max()) if ok.any() else 0.0 for t in (loop_t, branch_t)]
+    single = weighted_merit(cols, weights)
+    shown = [single * cols[k] for k in ("loop_significance", "branch_significance")]
+    best = [float(v.max()) if v.size else 0.0 for v in shown]
 
     def coverage(i, j):
         out = 1.0
-        for t, top in zip((loop_t, branch_t), best):
+        for v, top in zip(shown, best):
             if top > 0:
-                out *= 0.5 * (1.0 + min(max(t[i], t[j]) / top, 1.0))
-        return out
+                out *= 0.5 * (1.0 + min(max(v[i], v[j]) / top, 1.0))
+        return out ** (weights["structure"] / total)
 
     def merit(i, j):
         log_sum = 0.0
