@@ -359,14 +359,16 @@ def _grid_counts(cols, workspace, intervals, overlaps, settings, data_components
                 sig = d.significant
                 E = np.asarray(g.edge_index, dtype=np.int64).reshape(-1, 2)
                 level = g.node_elements[:, 0].astype(np.float64)
-                trunks = sum(1 for t in diagram_trunks(d, E, level) if t[3] > t[4])
+                sizes = np.asarray(g.membership.sum(axis=0)).ravel()
+                trunks = sum(1 for t in diagram_trunks(d, E, level, sizes) if t[3] > t[4])
                 c["significant_loops"] = int(np.count_nonzero(sig & (d.kind == "loop")))
                 c["significant_branches"] = trunks + int(np.count_nonzero(
                     sig & ((d.kind == "down") | (d.kind == "up"))))
                 loop_w = {"loop": SIGNIFICANCE_WEIGHTS["loop"]}
                 branch_w = {k: w for k, w in SIGNIFICANCE_WEIGHTS.items() if k != "loop"}
                 out["loop_total"][i, j] = significance_total(d, E, level, loop_w)
-                out["branch_total"][i, j] = significance_total(d, E, level, branch_w)
+                out["branch_total"][i, j] = significance_total(d, E, level, branch_w,
+                                                               sizes=sizes)
                 out["significance_total"][i, j] = out["loop_total"][i, j] \
                     + out["branch_total"][i, j]
         for k in out:

@@ -561,7 +561,8 @@ class _Significance:
     def trunks(self):
         """Per lens: (extreme node, merge node, significance, threshold) of each trunk."""
         E = np.asarray(self.graph.edge_index, dtype=np.int64).reshape(-1, 2)
-        return [[t[1:] for t in diagram_trunks(d, E, self.levels[:, j])]
+        sizes = np.asarray(self.graph.membership.sum(axis=0)).ravel()
+        return [[t[1:] for t in diagram_trunks(d, E, self.levels[:, j], sizes)]
                 for j, d in enumerate(self.diagrams)]
 
     def limbs(self, nb):
@@ -572,8 +573,8 @@ class _Significance:
         nodes are its region: the nodes reached from its extreme through nodes
         beyond the level where it joins the rest (the extreme first); it is
         attached to the node where it joins. The same limb seen by several
-        lenses (regions sharing at least half the nodes of the smaller) is
-        listed once, at its largest significance.
+        lenses (regions of node-set Jaccard index at least 1/2) is listed
+        once, at its largest significance.
         """
         found = []
         for j, d in enumerate(self.diagrams):
@@ -589,7 +590,7 @@ class _Significance:
         for j, region, merge, value, ok in found:
             nodes = set(region)
             same = next((k for k in kept if j not in k["lenses"]
-                         and len(nodes & k["set"]) * 2 >= min(len(nodes), len(k["set"]))), None)
+                         and len(nodes & k["set"]) * 2 >= len(nodes | k["set"])), None)
             if same is None:
                 kept.append({"lenses": {j}, "set": nodes, "region": region, "merge": merge,
                              "value": value, "ok": ok})
