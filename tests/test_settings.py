@@ -32,7 +32,7 @@ def test_defaults_are_those_of_build_graph():
     s = GraphSettings()
     assert (s.cover, s.intervals, s.overlap, s.scale, s.clusterer, s.cutoff, s.min_size, s.k,
             s.metric, s.fragments, s.gap_bins, s.random_state) == (
-        "interval", "auto", 0.3, "rank", "auto", "auto", "auto", 15, "euclidean", "attach", 10,
+        "interval", "auto", 0.3, "auto", "auto", "auto", "auto", 15, "euclidean", "attach", 10,
         None)
 
 

@@ -15,8 +15,8 @@ core_regimes           6     0      2      dense Gaussian core, two sparse regim
 two_loops              5     2      0      two circles touching at one point
 mixture                8     0      0      three unit Gaussians 6 apart
 blob                   10    0      0      standard Gaussian (noise only)
+blob_20d               20    0      0      standard Gaussian (noise only)
 cube                   5     0      0      uniform 5-cube (noise only)
-square                 2     0      0      uniform square (noise only)
 =====================  ====  =====  =====  ==========================================
 
 For every default lens (the screen's candidate columns; one-lens graph, build_graph
@@ -30,6 +30,14 @@ reports (capped at the expected count when it is reached); ``ecc`` loops/tails o
 the share of expected loops and tails found by the best lens of each kind and by the
 pair; ``fp`` the share of lens graphs (all lenses and the pair) that report more loops or
 tails than expected. Means over the seeds.
+
+Not a noise-only set: a uniform square (or disc) in 2-d. Its lenses have Reeb graphs with
+branches of their own (the third Laplacian eigenvector of a square is a saddle with four
+corner arms; the L-infinity eccentricity peaks at the corners), which a good rule reports.
+What counts as a tail also depends on the lens: the mixture's three Gaussians in a row are a
+path whose eccentricity dips in the middle (a V: one "up" point of the diagram, reported as a
+limb), and a figure eight under eccentricity has one lobe's far end as an "up" point; both
+are counted as excess tails here, before and after alike.
 
 Run ``flock /tmp/lenswork-bench.lock python tests/benchmarks/bench_structure.py``; with
 ``--src /path/to/src`` it imports lenswork from another source tree (a clean checkout of
@@ -52,15 +60,15 @@ SHAPES = {
     "ring_tails": (10, 1, 2, lambda n, rng: S.ring_with_tails(n, rng, d=10)),
     "ring_tails_uneven": (20, 1, 2, lambda n, rng: S.ring_with_tails(
         n, rng, d=20, share=0.05, lengths=(1.2, 2.5), angles=(0.5, 3.5))),
-    "ring_tails_dense": (3, 1, 2, lambda n, rng: S.ring_with_tails(
-        n, rng, d=3, share=0.12, lengths=(1.0, 1.0), angles=(0.0, 2.0))),
+    "ring_tails_dense": (2, 1, 2, lambda n, rng: S.ring_with_tails(
+        n, rng, d=2, share=0.12, lengths=(1.0, 1.0), angles=(0.0, 2.0))),
     "tree": (5, 0, 3, lambda n, rng: S.tree(n, rng, d=5)),
     "core_regimes": (6, 0, 2, lambda n, rng: S.core_with_regimes(n, rng, d=6)),
     "two_loops": (5, 2, 0, lambda n, rng: S.two_loops(n, rng, d=5)),
     "mixture": (8, 0, 0, lambda n, rng: S.gaussian_mixture(n, rng, d=8)),
     "blob": (10, 0, 0, lambda n, rng: S.blob(n, rng, d=10)),
+    "blob_20d": (20, 0, 0, lambda n, rng: S.blob(n, rng, d=20)),
     "cube": (5, 0, 0, lambda n, rng: S.cube(n, rng, d=5)),
-    "square": (2, 0, 0, lambda n, rng: S.cube(n, rng, d=2)),
 }
 S = None
 
