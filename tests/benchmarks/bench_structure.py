@@ -111,6 +111,7 @@ def main(argv=None):
     for p in ([args.src] if args.src else []) + [_TESTS]:
         sys.path.insert(0, str(Path(p).resolve()))
     import _shapes
+
     import lenswork as lw
     S = _shapes
     names = [s for s in SHAPES if not args.only or s in args.only.split(",")]

@@ -338,8 +338,8 @@ def pair_merit(scores, weights, floor=STRUCTURE_FLOOR):
     >>> s = {"structure": [0.625, 0.4375, 0.625], "coherence": [1.0, 1.0, 1.0],
     ...      "loop_significance": [0.5, 0.0, 0.5], "branch_significance": [0.0, 0.25, 0.0]}
     >>> f = pair_merit(s, {"structure": 1.0})
-    >>> round(f(0, 1), 4), round(f(0, 2), 4)      # loop + tail beats loop + the same loop
-    (0.6953, 0.4961)
+    >>> round(float(f(0, 1)), 4), round(float(f(0, 2)), 4)   # loop + tail beats loop + loop
+    (0.7188, 0.3125)
     """
     need = ("structure", "coherence", "loop_significance", "branch_significance")
     if weights.get("structure", 0) <= 0 or not all(k in scores for k in need):
