@@ -26,8 +26,13 @@ of the lens range it spans. A feature is *significant* when it spans more than
 the cover can make on its own, ``2 (L + delta)`` (interval length ``L``, the
 lens's neighbour jitter ``delta``; see ``lenswork.graph._persistence``). The
 cell's total is ``T = sum w_kind * significance`` over the significant points
-(:data:`SIGNIFICANCE_WEIGHTS`: loops 1, branches 0.5): a tangle of short
-noise loops adds 0, one loop over the whole range adds 1.
+and trunks (:data:`SIGNIFICANCE_WEIGHTS`: loops 1, branches 0.5; a trunk, the
+tail that holds the lens's extreme, counts as a branch:
+``lenswork.graph._persistence.diagram_trunks``): a tangle of short noise loops
+adds 0, one loop over the whole range adds 1. The loop and the branch parts
+are also kept apart (``loop_significance``, ``branch_significance``: ``1 -
+2 ** -median`` of each), for the screen's pair merit. The thresholds are the
+graph's own, per end node (``params["node_jitter"]``).
 
 Scores of one lens over the grid
 --------------------------------
