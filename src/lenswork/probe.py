@@ -365,15 +365,16 @@ def _grid_counts(cols, workspace, intervals, overlaps, settings, data_components
                 E = np.asarray(g.edge_index, dtype=np.int64).reshape(-1, 2)
                 level = g.node_elements[:, 0].astype(np.float64)
                 sizes = np.asarray(g.membership.sum(axis=0)).ravel()
-                trunks = sum(1 for t in diagram_trunks(d, E, level, sizes) if t[3] > t[4])
+                found = diagram_trunks(d, E, level, sizes)
+                trunks = sum(1 for t in found if t[3] > t[4])
                 c["significant_loops"] = int(np.count_nonzero(sig & (d.kind == "loop")))
                 c["significant_branches"] = trunks + int(np.count_nonzero(
                     sig & ((d.kind == "down") | (d.kind == "up"))))
                 loop_w = {"loop": SIGNIFICANCE_WEIGHTS["loop"]}
                 branch_w = {k: w for k, w in SIGNIFICANCE_WEIGHTS.items() if k != "loop"}
-                out["loop_total"][i, j] = significance_total(d, E, level, loop_w)
+                out["loop_total"][i, j] = significance_total(d, E, level, loop_w, trunks=[])
                 out["branch_total"][i, j] = significance_total(d, E, level, branch_w,
-                                                               sizes=sizes)
+                                                               trunks=found)
                 out["significance_total"][i, j] = out["loop_total"][i, j] \
                     + out["branch_total"][i, j]
         for k in out:

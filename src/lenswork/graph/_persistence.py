@@ -875,7 +875,7 @@ def _component_labels(edges, n):
     return connected_components(A, directed=False)[1]
 
 
-def significance_total(diagram, edges, values, weights=None, sizes=None):
+def significance_total(diagram, edges, values, weights=None, sizes=None, trunks=None):
     """``T = sum w_kind * significance`` over the significant loops, branches and trunks.
 
     Parameters
@@ -888,6 +888,8 @@ def significance_total(diagram, edges, values, weights=None, sizes=None):
         of its direction (``"up"`` / ``"down"``).
     sizes : array-like of shape (n_nodes,), optional
         Rows per node (:func:`trunk_points`).
+    trunks : list, optional
+        :func:`diagram_trunks` of the diagram, when already computed.
 
     Returns
     -------
@@ -905,7 +907,8 @@ def significance_total(diagram, edges, values, weights=None, sizes=None):
     total = sum(wk * float(diagram.significance[sig & (diagram.kind == k)].sum())
                 for k, wk in w.items())
     total += sum(w.get(kind, 0.0) * value
-                 for kind, _, _, value, thr in diagram_trunks(diagram, edges, values, sizes)
+                 for kind, _, _, value, thr in (diagram_trunks(diagram, edges, values, sizes)
+                                                if trunks is None else trunks)
                  if value > thr)
     return float(total)
 
