@@ -103,8 +103,9 @@ def test_node_jitter_is_the_rms_over_each_nodes_rows_by_brute_force():
     rng = np.random.default_rng(4)
     U = rng.uniform(size=(60, 2))
     nn = rng.integers(0, 60, (60, 5))
-    M = sp.csr_matrix((rng.uniform(size=(60, 4)) < 0.4).astype(np.int8))
-    M[np.flatnonzero(np.asarray(M.sum(axis=1)).ravel() == 0), 0] = 1
+    B = (rng.uniform(size=(60, 4)) < 0.4).astype(np.int8)
+    B[B.sum(axis=1) == 0, 0] = 1  # every row in some node
+    M = sp.csr_matrix(B)
     got = node_jitter(U, nn, M)
     for j in range(2):
         span = U[:, j].max() - U[:, j].min()
