@@ -174,7 +174,7 @@ def test_ball_cover_object_equals_the_kind_name():
     rng = np.random.default_rng(9107)
     X = noisy_circle(500, rng)
     ws = Workspace(X)
-    a = build_graph(X, ws, cover="ball", radius=0.15)
+    a = build_graph(X, ws, cover="ball", radius=0.15, scale="rank")  # a cover object's default
     b = build_graph(X, ws, GraphSettings(cover=BallCover(radius=0.15)))
     assert a.n_nodes == b.n_nodes and (a.membership != b.membership).nnz == 0
 

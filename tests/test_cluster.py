@@ -28,7 +28,7 @@ def reference_knn(X, k):
 def reference_components(X, lens, intervals, overlap, k, cutoff):
     """Per element: networkx components of the k-NN edges inside it no longer than cutoff."""
     idx, dist = reference_knn(X, k)
-    cover = Cover(intervals=intervals, overlap=overlap, scale="rank").fit(lens)
+    cover = Cover(intervals=intervals, overlap=overlap, scale="balanced").fit(lens)  # default
     rows, elements = cover.incidence()
     out = {}
     for e in np.unique(elements):
@@ -197,7 +197,7 @@ def test_single_linkage_matches_scipy_cut():
     X = blobs(rng, 300)
     g = build_graph(X[:, 0], X, intervals=3, overlap=0.2, clusterer="single", min_size=1,
                     fragments="report")
-    cover = Cover(intervals=3, overlap=0.2).fit(X[:, 0])
+    cover = Cover(intervals=3, overlap=0.2, scale="balanced").fit(X[:, 0])  # the default
     rows, elements = cover.incidence()
     want = set()
     for e in range(3):

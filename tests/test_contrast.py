@@ -35,7 +35,7 @@ def demo():
     SENSORS = list(cloud.feature_names)
     ws = Workspace(cloud, random_state=0)
     lenses = compute_lenses(ws, ["laplacian:components=1"])
-    graph = build_graph(lenses, ws)
+    graph = build_graph(lenses, ws, scale="rank")  # the contrast command's cover scale
     return cloud, ws, lenses, graph
 
 
@@ -429,7 +429,7 @@ def test_node_column_values_against_member_lists(demo):
         assert_allclose(share[v], np.mean(state[m] == "clogging"), rtol=1e-12)
     # the mean agrees with the graph's own node statistics where it keeps them (build_graph),
     # which are in the table's own units: the demo's z-scoring undone (PointCloud.unscaled)
-    g2 = build_graph(graph_lens(demo), ws, columns=["vibration_mm_s"])
+    g2 = build_graph(graph_lens(demo), ws, columns=["vibration_mm_s"], scale="rank")
     raw_mean, _ = node_column_values(graph, cloud.unscaled("vibration_mm_s"), "vibration_mm_s")
     assert_allclose(raw_mean, g2.node_values("vibration_mm_s"), rtol=1e-12)
     assert label == "vibration_mm_s (node mean)" and label_s == "share of state = clogging"

@@ -171,7 +171,8 @@ def test_constant_lens_warns_and_lands_in_one_element():
         ({"intervals": 2.5}, "'intervals' parameter of Cover"),
         ({"overlap": 1.0}, r"'overlap' parameter of Cover must be a float in \[0.0, 1.0\)"),
         ({"overlap": -0.1}, "'overlap' parameter of Cover"),
-        ({"scale": "log"}, r"'scale' parameter of Cover must be a str among \{'rank', 'raw'\}"),
+        ({"scale": "log"},
+         r"'scale' parameter of Cover must be a str among \{'balanced', 'rank', 'raw'\}"),
         ({"intervals": [3, 4, 5]}, "has 3 values for 2 lens column"),
     ],
 )

@@ -162,5 +162,5 @@ def test_sample_jitter_equals_the_shared_graph_jitter_on_small_data():
     np.testing.assert_allclose(a.params["lens_jitter"], b.params["lens_jitter"], rtol=1e-12)
     # and by hand, with scikit-learn's exact neighbours
     idx = NearestNeighbors(n_neighbors=16).fit(X).kneighbors(X, return_distance=False)[:, 1:]
-    values = Cover(intervals=5).fit(X[:, :2], ["x0", "x1"]).values_
+    values = Cover(intervals=5, scale="balanced").fit(X[:, :2], ["x0", "x1"]).values_
     np.testing.assert_allclose(b.params["lens_jitter"], lens_jitter(values, idx), rtol=1e-12)

@@ -112,19 +112,19 @@ def test_graph_prints_resolved_settings_and_significance(torus_csv, tmp_path):
               "--no-figure", "-o", tmp_path / "o")
     assert res.exit_code == 0, res.output
     min_size = round(math.log(1500) ** 1.1)  # (ln n)^1.1 (Carrière, Michel and Oudot 2018)
-    assert f"settings: intervals 10 (auto), overlap 0.3, min_size {min_size} (auto)" \
-        in res.output
+    assert (f"settings: intervals 10 (auto), overlap 0.3, scale balanced (auto), "
+            f"min_size {min_size} (auto)") in res.output
     assert res.output.startswith("significant: 1 component, 1 loop,")
     assert "raw cycle and degree counts" in res.output.splitlines()[1]
     res = run("graph", torus_csv, "--id-column", "sample", "--lens", "column:name=x",
               "--intervals", "8", "--min-size", "5", "--no-figure", "-o", tmp_path / "p")
-    assert "settings: intervals 8, overlap 0.3, min_size 5, clusterer graph (auto)\n" \
-        in res.output  # 1,500 rows: at most 50,000, the shared graph's rule
+    assert ("settings: intervals 8, overlap 0.3, scale balanced (auto), min_size 5, clusterer "
+            "graph (auto)\n") in res.output  # 1,500 rows: at most 50,000, the shared graph's rule
     res = run("graph", torus_csv, "--id-column", "sample", "--lens", "column:name=x",
               "--intervals", "8", "--min-size", "5", "--clusterer", "element-knn",
-              "--no-figure", "-o", tmp_path / "r")
-    assert "settings: intervals 8, overlap 0.3, min_size 5, clusterer element-knn\n" \
-        in res.output
+              "--cover-scale", "rank", "--no-figure", "-o", tmp_path / "r")
+    assert ("settings: intervals 8, overlap 0.3, scale rank, min_size 5, clusterer "
+            "element-knn\n") in res.output
     res = run("graph", torus_csv, "--id-column", "sample", "--lens", "column:name=x",
               "--intervals", "auto", "--min-size", "auto", "--no-figure", "-o", tmp_path / "q")
     assert "intervals 10 (auto)" in res.output

@@ -91,26 +91,33 @@ def test_noisy_line_has_loops_but_no_significant_one(seed):
     rng = np.random.default_rng(seed)
     t = rng.uniform(0, 4, 1000)
     X = np.column_stack([t, rng.normal(0, 0.3, (1000, 2))])
-    g = build_graph(t + rng.normal(0, 0.3, 1000), Workspace(X), intervals=20, k=10, min_size=3)
+    g = build_graph(t + rng.normal(0, 0.3, 1000), Workspace(X), intervals=20, k=10, min_size=3,
+                    scale="rank")  # the rank scale splits the jittered lens into many loops
     s = g.summary()
     assert s.loops >= 5  # the noise makes loops ...
     assert s.significance["loops"][0] == 0  # ... none of which is significant
     assert not s.significant_features("branch")
 
 
-def test_y_under_height_has_one_branch_and_one_fork():
+def test_y_under_height_has_two_feet_and_one_fork():
     # a Y with its stem up under the height: its Reeb graph is the Y; extended persistence has
     # the component and one downward branch (the younger foot, elder rule), which ends at the
-    # fork, the one branch point. The feet span a third of the height range: 20 intervals
+    # fork, the one branch point; the elder foot holds the component's minimum, a trunk that
+    # the younger foot meets at the fork (branch decomposition of the merge tree): both feet
+    # are limbs and flares. The feet span a third of the height range: 20 intervals
     # (threshold about 0.15 + jitter) resolve them; 10 would not (0.32)
     X = y_tree(900, np.random.default_rng(1))
     g = build_graph(X[:, 1], Workspace(X), scale="raw", intervals=20)
     s = g.summary()
     assert s.loops == 0
-    assert len(s.significant_features("limb")) == 1
+    d = graph_diagrams(g)[0]
+    assert d.count("down", significant=True) == 1  # the elder rule's one point
+    limbs = s.significant_features("limb")
+    assert len(limbs) == 2
     forks = s.significant_features("branch")
     assert len(forks) == 1
-    assert len(s.significant_features("flare")) == 1
+    assert all(limb.attached_to == forks[0].nodes[0] for limb in limbs)  # both at the fork
+    assert len(s.significant_features("flare")) == 2
     assert all(f.attached_to == forks[0].nodes[0] for f in s.features_of("flare"))
 
 
@@ -119,7 +126,8 @@ def test_summary_text_and_files_report_significant_apart_from_small(tmp_path):
     rng = np.random.default_rng(3)
     t = rng.uniform(0, 4, 1000)
     X = np.column_stack([t, rng.normal(0, 0.3, (1000, 2))])
-    g = build_graph(t + rng.normal(0, 0.3, 1000), Workspace(X), intervals=20, k=10, min_size=3)
+    g = build_graph(t + rng.normal(0, 0.3, 1000), Workspace(X), intervals=20, k=10, min_size=3,
+                    scale="rank")  # the rank scale splits the jittered lens into many loops
     s = g.summary()
     text = s.text()
     assert text.startswith(f"significant: {s.n_components} component") and "small features" in text

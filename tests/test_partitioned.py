@@ -267,7 +267,10 @@ def test_element_knn_rule_is_registered_and_refused_settings():
     cloud = open_partitioned(da.from_array(np.arange(40.0).reshape(20, 2), chunks=(10, 2)))
     lens = partitioned_lenses(cloud, ["column:name=x0"])
     with pytest.raises(ParameterError, match="raw lens values .* scale='raw'"):
-        partitioned_graph(lens, GraphSettings(clusterer="element-knn"))
+        partitioned_graph(lens, GraphSettings(scale="balanced", clusterer="element-knn"))
+    # the default scale "auto" means raw values here
+    g = partitioned_graph(lens, GraphSettings(intervals=2, min_size=2, k=3))
+    assert g.params["cover"]["scale"] == "raw"
     with pytest.raises(ParameterError, match="clusterer='element-knn'"):
         partitioned_graph(lens, GraphSettings(scale="raw", clusterer="graph"))
     # the default "auto" resolves to the one rule the partitioned graph has

@@ -249,7 +249,12 @@ def test_lens_persistence_on_a_mapper_graph_of_a_circle():
     assert d.count("loop") == g.summary().loops
     assert d.count("loop", significant=True) == 1
     assert d.loops[:, 2].max() == pytest.approx(1.0)
-    assert d.threshold == pytest.approx(resolution_threshold(10, 0.3))
+    assert lens_persistence(g, jitter=0.0).threshold == pytest.approx(
+        resolution_threshold(10, 0.3))
+    # by default the graph's own jitter: overall for the threshold, per end node for a point
+    delta = g.params["lens_jitter"][0]
+    assert d.threshold == pytest.approx(resolution_threshold(10, 0.3, jitter=delta))
+    assert d.thresholds is not None and (d.thresholds >= resolution_threshold(10, 0.3)).all()
     assert lens_persistence(g, g.lens_columns[0]).counts() == d.counts()
 
 

@@ -32,7 +32,7 @@ def test_defaults_are_those_of_build_graph():
     s = GraphSettings()
     assert (s.cover, s.intervals, s.overlap, s.scale, s.clusterer, s.cutoff, s.min_size, s.k,
             s.metric, s.fragments, s.gap_bins, s.random_state) == (
-        "interval", "auto", 0.3, "rank", "auto", "auto", "auto", 15, "euclidean", "attach", 10,
+        "interval", "auto", 0.3, "auto", "auto", "auto", "auto", 15, "euclidean", "attach", 10,
         None)
 
 
@@ -100,7 +100,7 @@ def test_from_dict_errors():
 
 
 def test_resolve_checks_per_lens_values():
-    s = GraphSettings(intervals=(5, 3), min_size=4, clusterer="graph")
+    s = GraphSettings(intervals=(5, 3), min_size=4, clusterer="graph", scale="rank")
     assert s.resolve(100, 2) is s  # nothing "auto" is left: unchanged
     with pytest.raises(ParameterError, match="has 2 values for 3 lens column"):
         s.resolve(100, 3)
@@ -273,7 +273,7 @@ def test_auto_rule_is_the_closed_form(n, m):
     r = GraphSettings().resolve(n, m)
     assert r.intervals == intervals and r.min_size == min_size and r.clusterer == "graph"
     assert r.auto_fields() == ()
-    assert GraphSettings().auto_fields() == ("intervals", "min_size", "clusterer")
+    assert GraphSettings().auto_fields() == ("intervals", "min_size", "clusterer", "scale")
     # every element of the resolved product cover keeps q / g rows on average
     length = 1.0 / (intervals - (intervals - 1) * 0.3)
     q = math.log(n) ** 1.1
@@ -316,9 +316,11 @@ def test_default_graphs_of_small_bundled_tables_keep_their_rows(name, lenses):
     assert g.provenance["graph_settings"] == expected.to_dict()
     assert g.provenance["auto_settings"] == {"intervals": expected.intervals,
                                              "min_size": expected.min_size,
-                                             "clusterer": "graph"}
+                                             "clusterer": "graph", "scale": "balanced"}
     assert "(auto)" in g.summary().text()
-    assert g.summary().to_dict()["settings"]["auto"] == ["clusterer", "intervals", "min_size"]
+    assert "scale balanced (auto)" in g.summary().text()
+    assert g.summary().to_dict()["settings"]["auto"] == ["clusterer", "intervals", "min_size",
+                                                         "scale"]
 
 
 def test_resolved_settings_reach_the_graph_files(tmp_path):

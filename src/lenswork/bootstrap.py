@@ -354,8 +354,8 @@ class BootstrapResult:
     --------
     >>> from lenswork import Workspace
     >>> rng = np.random.default_rng(1)
-    >>> t = rng.uniform(0, 2 * np.pi, 400)
-    >>> ws = Workspace(np.column_stack([np.cos(t), np.sin(t)]) + rng.normal(0, 0.03, (400, 2)))
+    >>> t = rng.uniform(0, 2 * np.pi, 600)
+    >>> ws = Workspace(np.column_stack([np.cos(t), np.sin(t)]) + rng.normal(0, 0.03, (600, 2)))
     >>> res = bootstrap_graph(ws.X[:, 0], ws, resamples=5)
     >>> res.resamples, res.frequency("loops"), res.recurrence("loops")
     (5, {1: 1.0}, 1.0)

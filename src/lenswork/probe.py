@@ -26,8 +26,13 @@ of the lens range it spans. A feature is *significant* when it spans more than
 the cover can make on its own, ``2 (L + delta)`` (interval length ``L``, the
 lens's neighbour jitter ``delta``; see ``lenswork.graph._persistence``). The
 cell's total is ``T = sum w_kind * significance`` over the significant points
-(:data:`SIGNIFICANCE_WEIGHTS`: loops 1, branches 0.5): a tangle of short
-noise loops adds 0, one loop over the whole range adds 1.
+and trunks (:data:`SIGNIFICANCE_WEIGHTS`: loops 1, branches 0.5; a trunk, the
+tail that holds the lens's extreme, counts as a branch:
+``lenswork.graph._persistence.diagram_trunks``): a tangle of short noise loops
+adds 0, one loop over the whole range adds 1. The loop and the branch parts
+are also kept apart (``loop_significance``, ``branch_significance``: ``1 -
+2 ** -median`` of each), for the screen's pair merit. The thresholds are the
+graph's own, per end node (``params["node_jitter"]``).
 
 Scores of one lens over the grid
 --------------------------------
@@ -114,7 +119,6 @@ from ._io import write_text
 from ._json import dumps
 from ._validation import check_float, check_int
 from ._version import __version__
-from .criteria import heat_kernel_affinity, neighbour_jitter
 from .graph._features import (
     FEATURES,
     as_workspace,
@@ -124,7 +128,7 @@ from .graph._features import (
     lens_label,
     quiet_build,
 )
-from .graph._persistence import lens_persistence
+from .graph._persistence import diagram_trunks, lens_persistence, significance_total
 from .graph._settings import GraphSettings, grid_settings
 from .table import as_lens_table
 
@@ -330,23 +334,26 @@ def _data_components(workspace, cols, settings):
 
 
 def _grid_counts(cols, workspace, interval_counts, overlaps, settings, data_components, label,
-                 jitter=None):
+                 jitter=False):
     """Feature counts of the graph at every (intervals, overlap) cell: dict -> (p, q) arrays.
 
     Each cell's settings come from :func:`lenswork.graph.grid_settings`, so the
-    grid sweeps whichever cover the settings hold. With ``jitter`` (one lens
-    column, interval cover) each cell's graph also gets its extended persistence
-    diagram (``lenswork.graph._persistence.lens_persistence``): the counts of significant
-    loops and branches and the significance total ``T`` of the module notes.
+    grid sweeps whichever cover the settings hold. Unless ``jitter`` is False
+    (one lens column, interval cover) each cell's graph also gets its extended
+    persistence diagram (``lenswork.graph._persistence.lens_persistence`` with
+    that jitter; None: the graph's own, per node): the counts of significant
+    loops and branches (trunks included) and the significance total ``T`` of the
+    module notes.
     """
     p, q = len(interval_counts), len(overlaps)
     keys = ("nodes", "edges", "unassigned", *FEATURES, "extra_components", "empty")
     out = {k: np.zeros((p, q), dtype=np.int64) for k in keys}
-    diagrams = jitter is not None and settings.cover_kind == "interval"
+    diagrams = jitter is not False and settings.cover_kind == "interval"
     if diagrams:
         for k in ("significant_loops", "significant_branches"):
             out[k] = np.zeros((p, q), dtype=np.int64)
-        out["significance_total"] = np.zeros((p, q), dtype=np.float64)
+        for k in ("significance_total", "loop_total", "branch_total"):
+            out[k] = np.zeros((p, q), dtype=np.float64)
     cells = [(i, j) for i in range(p) for j in range(q)]
     for i, j in _progress.track(cells, f"probe {label}", length=len(cells)):
         cell = grid_settings(settings, interval_counts[i], overlaps[j])
@@ -361,12 +368,21 @@ def _grid_counts(cols, workspace, interval_counts, overlaps, settings, data_comp
                 c = {**feature_counts(g, data_components), "empty": 0}
                 d = lens_persistence(g, jitter=jitter)
                 sig = d.significant
+                E = np.asarray(g.edge_index, dtype=np.int64).reshape(-1, 2)
+                level = g.node_elements[:, 0].astype(np.float64)
+                sizes = np.asarray(g.membership.sum(axis=0)).ravel()
+                found = diagram_trunks(d, E, level, sizes)
+                trunks = sum(1 for t in found if t[3] > t[4])
                 c["significant_loops"] = int(np.count_nonzero(sig & (d.kind == "loop")))
-                c["significant_branches"] = int(np.count_nonzero(
+                c["significant_branches"] = trunks + int(np.count_nonzero(
                     sig & ((d.kind == "down") | (d.kind == "up"))))
-                out["significance_total"][i, j] = sum(
-                    w * float(d.significance[sig & (d.kind == kind)].sum())
-                    for kind, w in SIGNIFICANCE_WEIGHTS.items())
+                loop_w = {"loop": SIGNIFICANCE_WEIGHTS["loop"]}
+                branch_w = {k: w for k, w in SIGNIFICANCE_WEIGHTS.items() if k != "loop"}
+                out["loop_total"][i, j] = significance_total(d, E, level, loop_w, trunks=[])
+                out["branch_total"][i, j] = significance_total(d, E, level, branch_w,
+                                                               trunks=found)
+                out["significance_total"][i, j] = out["loop_total"][i, j] \
+                    + out["branch_total"][i, j]
         for k in out:
             if k in c:
                 out[k][i, j] = c[k]
@@ -417,6 +433,10 @@ def _score(counts, weights, floor, n_rows=None):
     row["revealed"] = revealed
     row["stability"] = stability
     row["significance"] = significance
+    for kind in ("loop", "branch"):
+        key = f"{kind}_total"
+        part = float(np.median(counts[key])) if key in counts else 0.0
+        row[f"{kind}_significance"] = 1.0 - 2.0 ** (-part)
     row["coherence"] = coherence
     row["count_structure"] = floor + (1.0 - floor) * revealed * stability * (
         (1.0 - float(empty.mean())) / (1.0 + mean_extra))
@@ -429,7 +449,8 @@ def _score_keys():
     for f in SCORED_FEATURES:
         keys += [f, f"{f}_agreement"]
     return [*keys, "significant_loops", "significant_branches", "revealed", "stability",
-            "significance", "coherence", "count_structure", "structure"]
+            "significance", "loop_significance", "branch_significance", "coherence",
+            "count_structure", "structure"]
 
 
 class StructureProbe(dict):
@@ -608,7 +629,7 @@ def structure_scores(lenses, workspace, *, settings=None, interval_counts=None,
             scores[col.name] = {k: math.nan for k in _score_keys()}
             continue
         grid = _grid_counts([col], workspace, interval_counts, overlaps, settings, data_c, col.name,
-                            jitter=_jitter(col, workspace, settings))
+                            jitter=None)
         counts[col.name] = grid
         scores[col.name] = _score(grid, weights, floor, workspace.n)
     return StructureProbe(
@@ -623,13 +644,6 @@ def _min_size(settings, n_rows):
     if isinstance(settings.min_size, str):  # e.g. "auto": resolved by the graph settings' rule
         return settings.replace(intervals=1, overlap=0.0).resolve(n_rows, 1).min_size
     return settings.min_size
-
-
-def _jitter(col, workspace, settings):
-    """The lens's neighbour jitter on the cover scale (lenswork.criteria.neighbour_jitter)."""
-    k = min(settings.k, workspace.n - 1)
-    S = heat_kernel_affinity(workspace, k=k)  # cached in the workspace
-    return neighbour_jitter(np.asarray(col.values, dtype=np.float64), S, scale=settings.scale)
 
 
 # --------------------------------------------------------------------------- stability map

@@ -30,7 +30,7 @@ module         concept
 
 from __future__ import annotations
 
-from ._build import build_graph, hole_scale_settings, node_statistics
+from ._build import build_graph, hole_scale_settings, node_jitter, node_statistics
 from ._cluster import CLUSTERERS, CUTOFF_WORDS, FRAGMENT_RULES, neighbor_cutoff
 from ._cover import COVER_SCALES, COVERS, BallCover, Cover, CoverBase, IntervalCover
 from ._layout import LAYOUTS, auto_layout, graph_layout
@@ -72,6 +72,7 @@ __all__ = [
     "neighbor_cutoff",
     "nerve_edges",
     "nerve_triangles",
+    "node_jitter",
     "node_statistics",
     "read_graph_json",
     "read_lens_file",

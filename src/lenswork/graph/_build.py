@@ -18,7 +18,8 @@ from ._lensgraph import LensGraph
 from ._nerve import membership_matrix, nerve_edges
 from ._settings import GraphSettings, is_auto
 
-__all__ = ["build_graph", "hole_scale_settings", "lens_jitter", "node_statistics"]
+__all__ = ["build_graph", "hole_scale_settings", "lens_jitter", "node_jitter",
+           "node_statistics"]
 
 
 #: Rows on which the lens jitter is measured when the build reads no shared neighbour graph
@@ -68,6 +69,56 @@ def lens_jitter(values, neighbours, rows=None):
             continue
         d2 = float(np.mean((u[own][:, None] - u[idx]) ** 2))
         out.append(float(np.sqrt(d2) / span))
+    return out
+
+
+def node_jitter(values, neighbours, membership, rows=None, fallback=None):
+    """Per node and lens: the RMS lens difference between its member rows and their neighbours.
+
+    Parameters
+    ----------
+    values : ndarray of shape (n_rows, n_lenses)
+        The lens values on the cover scale.
+    neighbours : ndarray of int of shape (n_rows, k), or (len(rows), k)
+    membership : scipy.sparse matrix of shape (n_rows, n_nodes)
+    rows : ndarray of int, optional
+        The rows whose neighbours are given (default: every row).
+    fallback : sequence of float, optional
+        Per lens, the value of a node with none of ``rows`` (default 0).
+
+    Returns
+    -------
+    list of list of float
+        ``[lens][node]``: :func:`lens_jitter` restricted to the node's members
+        (as a share of the lens's span), the local uncertainty of a feature
+        end at that node (``lenswork.graph._persistence``, module notes).
+
+    Examples
+    --------
+    >>> import scipy.sparse as sp
+    >>> x = np.array([[0.0], [0.1], [0.9], [1.0]])
+    >>> nn = np.array([[1], [0], [3], [2]])
+    >>> M = sp.csr_matrix(np.array([[1, 0], [1, 0], [0, 1], [0, 1]]))
+    >>> np.round(node_jitter(x, nn, M), 3).tolist()
+    [[0.1, 0.1]]
+    """
+    U = np.asarray(values, dtype=np.float64)
+    idx = np.asarray(neighbours, dtype=np.int64)
+    own = np.arange(U.shape[0]) if rows is None else np.asarray(rows, dtype=np.int64)
+    M = membership.tocsr()[own]
+    counts = np.asarray(M.sum(axis=0)).ravel()
+    out = []
+    for j in range(U.shape[1]):
+        u = U[:, j]
+        span = float(u.max() - u.min()) if u.size else 0.0
+        if span <= 0 or idx.size == 0:
+            out.append([0.0] * M.shape[1])
+            continue
+        per_row = np.mean((u[own][:, None] - u[idx]) ** 2, axis=1)
+        sums = np.asarray(M.T @ per_row).ravel()
+        base = 0.0 if fallback is None else float(fallback[j]) * span
+        rms = np.where(counts > 0, np.sqrt(sums / np.maximum(counts, 1)), base) / span
+        out.append([float(x) for x in rms])
     return out
 
 
@@ -201,8 +252,10 @@ def build_graph(lenses, workspace, settings=None, *, columns=None, **overrides):
         and the lens columns (see :class:`GraphSettings`).
     overlap : float or sequence of float, default=0.3
         Overlap fraction in [0, 1).
-    scale : {"rank", "raw"}, default="rank"
-        Lay the intervals on ranks (equal-count) or on the lens values.
+    scale : {"auto", "balanced", "rank", "raw"}, default="auto"
+        Lay the intervals on ranks (equal-count), on the lens values, or on the
+        mean of the two (``"balanced"``, what ``"auto"`` gives; see
+        :class:`GraphSettings`).
     clusterer : {"auto", "graph", "single", "element-knn"} or estimator, default="auto"
         See :mod:`lenswork.graph._cluster`; ``"auto"``: ``"graph"`` up to 50,000
         rows or when ``workspace`` already holds its neighbour graph, else
@@ -399,6 +452,7 @@ def _build(table, ws, settings, columns, auto):
     if uses_graph:
         g = ws.neighbors(k, metric)
         params["lens_jitter"] = lens_jitter(cover.values_, g.indices)
+        params["node_jitter"] = node_jitter(cover.values_, g.indices, M)
         provenance["neighbor_graph"] = {
             "k": g.k, "metric": g.metric, "method": g.method,
             "info": {key: v for key, v in g.info.items() if key != "seconds"},
@@ -407,6 +461,8 @@ def _build(table, ws, settings, columns, auto):
         with _progress.step(f"graph: lens jitter on {min(ws.n, JITTER_ROWS):,} rows"):
             sample, nb = _sample_neighbours(ws, k, metric)
             params["lens_jitter"] = lens_jitter(cover.values_, nb, rows=sample)
+            params["node_jitter"] = node_jitter(cover.values_, nb, M, rows=sample,
+                                                fallback=params["lens_jitter"])
         params["lens_jitter_rows"] = int(sample.size)
     graph = LensGraph(
         M, cover.element_ids(result.node_element), edges, shared, stats,

@@ -68,7 +68,7 @@ from ..normalize import normalize
 __all__ = ["COVERS", "COVER_SCALES", "BallCover", "Cover", "CoverBase", "IntervalCover"]
 
 #: Scales on which the intervals are laid: raw lens values, or ranks (equal-count intervals).
-COVER_SCALES = ("rank", "raw")
+COVER_SCALES = ("balanced", "rank", "raw")
 
 
 def _per_lens(name, value, m, check):
@@ -292,10 +292,7 @@ class Cover(CoverBase):
         V, names = _checked_values(values, names, "Cover")
         n, m = V.shape
         intervals, overlap, scale = self._check_params(m)
-        if scale == "rank":
-            U = np.column_stack([normalize(V[:, j], "rank") for j in range(m)])
-        else:
-            U = V
+        U = V if scale == "raw" else _scaled(V, scale)
         start = U.min(axis=0)
         span = U.max(axis=0) - start
         first = np.empty((n, m), dtype=np.int64)
@@ -417,11 +414,15 @@ IntervalCover = Cover
 
 
 def _scaled(V, scale):
-    """Each lens on ranks ``(rank - 1/2) / n`` or divided by its range (constant lenses: 0)."""
-    if scale == "rank":
-        return np.column_stack([normalize(V[:, j], "rank") for j in range(V.shape[1])])
+    """Each lens on ranks ``(rank - 1/2) / n``, divided by its range (constant lenses: 0), or
+    the mean of the two (``"balanced"``; module notes)."""
+    V = np.asarray(V, dtype=np.float64)
     span = V.max(axis=0) - V.min(axis=0)
-    return (V - V.min(axis=0)) / np.where(span > 0, span, 1.0)
+    raw = (V - V.min(axis=0)) / np.where(span > 0, span, 1.0)
+    if scale == "raw":
+        return raw
+    rank = np.column_stack([normalize(V[:, j], "rank") for j in range(V.shape[1])])
+    return rank if scale == "rank" else 0.5 * (rank + raw)
 
 
 def _greedy_net(U, eps):

@@ -114,6 +114,8 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.csgraph import connected_components
 
 from .._errors import ParameterError
 from .._validation import check_float, check_int
@@ -123,11 +125,14 @@ __all__ = [
     "STRUCTURE_WEIGHTS",
     "PersistenceDiagram",
     "ascending_edge_order",
+    "diagram_trunks",
     "extended_persistence",
     "graph_diagrams",
     "lens_persistence",
     "resolution_threshold",
+    "significance_total",
     "structure_significance",
+    "trunk_points",
 ]
 
 #: Kinds of diagram points, in the order they are listed.
@@ -157,12 +162,19 @@ class PersistenceDiagram:
     range : float
         Span the significance is relative to.
     threshold : float
-        Significance above which a point is significant (``inf``: none is).
+        Significance above which a point is significant (``inf``: none is), by
+        the lens's overall jitter.
     edge : ndarray of int64, shape (k,), optional
         For a ``"loop"`` point: the edge whose arrival in the ascending
         filtration (:func:`ascending_edge_order`) closed the cycle; -1 for the
         other kinds. Its fundamental cycle in the spanning forest grown in that
         order represents the loop.
+    thresholds : ndarray of shape (k,), optional
+        Per point, the threshold from the jitter at its two end nodes (see
+        :func:`lens_persistence`); when given it decides :attr:`significant`.
+    node_slack : (float, ndarray), optional
+        The base threshold (no jitter) and the jitter of every vertex in the
+        units of the function, from which ``thresholds`` is made.
 
     Examples
     --------
@@ -180,11 +192,21 @@ class PersistenceDiagram:
     range: float
     threshold: float
     edge: np.ndarray = None
+    thresholds: np.ndarray = None
+    node_slack: tuple = None
 
     @property
     def significant(self):
-        """Boolean mask of the significant points (significance above the threshold)."""
-        return self.significance > self.threshold
+        """Boolean mask of the significant points (significance above their threshold)."""
+        return self.significance > self.point_thresholds
+
+    @property
+    def point_thresholds(self):
+        """The threshold of every point: ``thresholds`` when the ends' jitter is known (see
+        :func:`lens_persistence`), else ``threshold`` for all."""
+        if self.thresholds is None:
+            return np.full(self.kind.size, self.threshold)
+        return self.thresholds
 
     def _rows(self, kind):
         keep = self.kind == kind
@@ -220,6 +242,7 @@ class PersistenceDiagram:
     def to_dict(self):
         """JSON-ready form: settings and one record per point."""
         sig = self.significant
+        thr = self.point_thresholds
         return {
             "range": float(self.range),
             "threshold": None if not math.isfinite(self.threshold) else float(self.threshold),
@@ -227,7 +250,9 @@ class PersistenceDiagram:
                 {"kind": str(self.kind[i]), "birth": float(self.birth[i]),
                  "death": float(self.death[i]), "nodes": [int(a) for a in self.nodes[i]],
                  "persistence": float(self.persistence[i]),
-                 "significance": float(self.significance[i]), "significant": bool(sig[i])}
+                 "significance": float(self.significance[i]),
+                 "threshold": float(thr[i]) if math.isfinite(thr[i]) else None,
+                 "significant": bool(sig[i])}
                 for i in range(self.kind.size)
             ],
         }
@@ -385,8 +410,152 @@ def ascending_edge_order(edges, values):
     return _ascending(E, rank_up)[0]
 
 
+def _beyond(v, nb, f, sign):
+    """The vertices reached from ``v`` through vertices at or past its level in the sweep
+    (below it when ``sign`` is 1), and whether one is strictly past it."""
+    level = f[v]
+    seen, todo, past = {v}, [v], False
+    while todo:
+        u = todo.pop()
+        for w in nb[u]:
+            ahead = sign * (level - f[w])
+            if ahead >= 0 and w not in seen:
+                past |= ahead > 0
+                seen.add(w)
+                todo.append(w)
+    return seen, past
+
+
+def _is_fork(v, nb, f, sign, folds, sizes, young_size):
+    """Whether the graph goes on past ``v`` into a body: not into a fold -- a significant
+    branch of the other direction whose extreme lies past ``v`` and whose merge lies before it
+    (a path that doubles back, as a bump or a dip does, and which a Mapper graph draws with a
+    spur) -- and into at least as much (by ``sizes``) as the branch that meets there."""
+    reached, past = _beyond(v, nb, f, sign)
+    if not past:
+        return False
+    for extreme, merge in folds:
+        if extreme in reached and sign * (f[merge] - f[v]) > 0:
+            return False
+    reached.discard(v)
+    return float(sum(sizes[u] for u in reached)) >= young_size
+
+
+def _trunk_merges(order, nb, f, persistence, slack, sign, folds, sizes):
+    """For each component, the first merge into its eldest branch of a branch of more than
+    ``persistence`` (plus the ``slack`` of its two ends) at a fork: {eldest vertex: merge
+    vertex} (union-find in ``order``, elder rule; ``sign`` 1 for a downward sweep, -1
+    upward; ``folds``: the significant branches of the other direction, (extreme, merge))."""
+    V = f.size
+    pos = np.empty(V, dtype=np.int64)
+    pos[order] = np.arange(V)
+    parent = list(range(V))
+    oldest = list(range(V))
+    size = [float(x) for x in sizes]  # per root: the sizes of its component
+    label = _component_labels(np.array([(a, b) for a in range(V) for b in nb[a] if a < b],
+                                        dtype=np.int64).reshape(-1, 2), V)
+    whole = np.bincount(label, weights=sizes, minlength=label.max() + 1 if V else 0)
+    seen = np.zeros(V, dtype=bool)
+    out = {}
+    for v in order.tolist():
+        seen[v] = True
+        for w in nb[v]:
+            if not seen[w]:
+                continue
+            ru, rv = _find(parent, v), _find(parent, w)
+            if ru == rv:
+                continue
+            a, b = oldest[ru], oldest[rv]
+            elder, young = (a, b) if pos[a] < pos[b] else (b, a)
+            if elder not in out and abs(f[young] - f[v]) > persistence + slack[young] + slack[v]:
+                young_size = size[ru if young == a else rv] - (sizes[v] if young == a else 0)
+                elder_size = size[rv if young == a else ru]
+                if 2 * elder_size <= whole[label[v]] \
+                        and _is_fork(v, nb, f, sign, folds, sizes, young_size):
+                    out[elder] = v  # the elder's first significant meeting at a fork
+            keep, gone = (ru, rv) if elder == a else (rv, ru)
+            parent[gone] = keep
+            oldest[keep] = elder
+            size[keep] += size[gone]
+    return out
+
+
+def trunk_points(edges, values, persistence, *, slack=None, sizes=None, n_nodes=None):
+    """The branches the elder rule gives no diagram point: each component's extremes.
+
+    In the extended diagram a component's lowest and highest vertices are paired
+    with each other (the ``"component"`` point), so the branch that holds a
+    component's maximum is no ``"up"`` point even when it is as long as the
+    branch beside it (a Y under its height has two upper arms and one ``"up"``
+    point). This returns, for the top and the bottom of every component, that
+    branch down (up) to the first vertex where a branch of persistence above
+    ``persistence`` joins it -- the decomposition of the merge tree into
+    branches, each from its extreme to the saddle where it meets a longer one
+    (Pascucci, Cole-McLaughlin and Scorzelli 2004, from memory), with short
+    branches ignored. Only a fork counts: a vertex past which the graph goes
+    on (it reaches a vertex further in the sweep), and not into a fold -- a
+    significant branch of the other direction whose extreme lies past the
+    vertex and which merges before it: two branches that meet at a local
+    extreme, or where a Mapper graph draws a path doubling back with a spur,
+    are a bump or a dip of one path, whose ends are no tails -- and the part
+    the graph goes on into is at least as large (``sizes``: rows per node of a
+    Mapper graph) as the branch that meets there, so the bottom of a V (a path
+    under a function with its minimum inside) is no body two tails hang from;
+    and the trunk holds at most half of its component (a tail hangs from a
+    larger body: when the part above the meeting is most of the graph, that
+    part is the body).
+    A component with no such fork has no trunk point.
+
+    Parameters
+    ----------
+    edges : array-like of shape (n_edges, 2), int
+    values : array-like of shape (n_nodes,)
+    persistence : float >= 0
+        Branches of at most this persistence (in the units of ``values``) do not end a trunk.
+    slack : array-like of shape (n_nodes,), optional
+        Added per end: a branch from vertex ``a`` to ``b`` must exceed
+        ``persistence + slack[a] + slack[b]`` (the per-point thresholds of
+        :func:`lens_persistence`).
+    sizes : array-like of shape (n_nodes,), optional
+        Weight of each vertex (default 1): the rows of a Mapper graph's node.
+    n_nodes : int, optional
+
+    Returns
+    -------
+    list of (str, int, int)
+        ``("up", top vertex, merge vertex)`` and ``("down", bottom vertex, merge
+        vertex)``: the trunk spans ``|values[top] - values[merge]|``.
+
+    Examples
+    --------
+    >>> Y = [[6, 0], [0, 1], [1, 2], [2, 3], [1, 4], [4, 5]]          # a fork at vertex 1
+    >>> trunk_points(Y, [0.0, 1.0, 2.0, 3.0, 2.0, 2.5, -1.0], 0.5)   # arms to 3.0 and 2.5
+    [('up', 3, 1)]
+    """
+    E, f = _check_graph(edges, values, n_nodes, "trunk_points")
+    persistence = check_float("persistence", persistence, lo=0, context="trunk_points")
+    V = f.size
+    slack = np.zeros(V) if slack is None else np.asarray(slack, dtype=np.float64).reshape(-1)
+    sizes = np.ones(V) if sizes is None else np.asarray(sizes, dtype=np.float64).reshape(-1)
+    nb = _neighbour_lists(E, V)
+    up = np.lexsort((np.arange(V), f))
+    out = []
+    down_pairs, _ = _h0(up, nb, f)
+    up_pairs, _ = _h0(up[::-1].copy(), nb, f)
+
+    def strong(pairs):
+        return [(a, b) for a, b in pairs if abs(f[a] - f[b]) > persistence + slack[a] + slack[b]]
+
+    for kind, order, sign, folds in (("up", up[::-1].copy(), 1.0, strong(down_pairs)),
+                                     ("down", up, -1.0, strong(up_pairs))):
+        for top, merge in sorted(_trunk_merges(order, nb, f, persistence, slack,
+                                               sign, folds, sizes).items()):
+            out.append((kind, int(top), int(merge)))
+    return out
+
+
 # --------------------------------------------------------------------------- diagram
-def _diagram(E, f, rng, threshold):
+def _diagram(E, f, rng, threshold, slack=None):
     V = f.size
     nb = _neighbour_lists(E, V)
     up = np.lexsort((np.arange(V), f))  # ascending (f, index)
@@ -420,12 +589,17 @@ def _diagram(E, f, rng, threshold):
     death = np.asarray(deaths, dtype=np.float64)
     pers = np.abs(death - birth)
     sig = np.clip(pers / rng, 0.0, 1.0) if rng > 0 else np.zeros_like(pers)
+    ends = np.asarray(nodes, dtype=np.int64).reshape(-1, 2)
+    thresholds = None
+    if slack is not None:  # threshold = base + (jitter at each end) / range
+        base, per_node = slack
+        thresholds = base + (per_node[ends[:, 0]] + per_node[ends[:, 1]]) / rng \
+            if rng > 0 else np.full(ends.shape[0], math.inf)
     return PersistenceDiagram(
         kind=np.asarray(kinds, dtype=object).astype(str) if kinds else np.zeros(0, dtype=str),
-        birth=birth, death=death,
-        nodes=np.asarray(nodes, dtype=np.int64).reshape(-1, 2),
+        birth=birth, death=death, nodes=ends,
         persistence=pers, significance=sig, range=float(rng), threshold=float(threshold),
-        edge=np.asarray(edges, dtype=np.int64),
+        edge=np.asarray(edges, dtype=np.int64), thresholds=thresholds, node_slack=slack,
     )
 
 
@@ -517,7 +691,7 @@ def resolution_threshold(intervals, overlap, jitter=0.0):
     return 2.0 * (1.0 + jitter / L) / ((N - 1) * (1.0 - p))
 
 
-def lens_persistence(graph, lens=0, *, jitter=0.0):
+def lens_persistence(graph, lens=0, *, jitter=None):
     """Extended persistence of one lens on a LensGraph, with the cover's significance rule.
 
     Parameters
@@ -526,10 +700,15 @@ def lens_persistence(graph, lens=0, *, jitter=0.0):
         Built by :func:`~lenswork.build_graph` (its parameters record the cover).
     lens : int or str, default=0
         Which lens of the cover (index or column name).
-    jitter : float >= 0, default=0.0
+    jitter : float >= 0, optional
         The lens's neighbour jitter ``delta`` on the cover scale, as a share of
         its range (``lenswork.criteria.neighbour_jitter``); it widens the
-        threshold (see :func:`resolution_threshold`).
+        threshold (see :func:`resolution_threshold`) of every point alike.
+        Default: the graph's own record -- the jitter at each node
+        (``params["node_jitter"]``, :func:`lenswork.graph.node_jitter`), so that
+        a point's threshold is ``2 L + delta_a + delta_b`` with the jitter
+        ``delta_a``, ``delta_b`` at its two end nodes (module notes), else the
+        overall ``params["lens_jitter"]``, else 0.
 
     Returns
     -------
@@ -572,7 +751,17 @@ def lens_persistence(graph, lens=0, *, jitter=0.0):
     p = float(cover["overlap"][j])
     level = graph.node_elements[:, j].astype(np.float64)
     E = np.asarray(graph.edge_index, dtype=np.int64).reshape(-1, 2)
-    return _diagram(E, level, float(N - 1), resolution_threshold(N, p, jitter))
+    params = graph.params if isinstance(graph.params, dict) else {}
+    local = params.get("node_jitter") if jitter is None else None
+    if jitter is None:
+        overall = params.get("lens_jitter")
+        jitter = float(overall[j]) if isinstance(overall, (list, tuple)) else float(overall or 0)
+    threshold = resolution_threshold(N, p, jitter)
+    slack = None
+    if local is not None and N > 1 and len(local) > j and len(local[j]) == level.size:
+        step = (1.0 - p) / (1.0 + (N - 1) * (1.0 - p))  # s = L (1 - p) on a range of 1
+        slack = (resolution_threshold(N, p, 0.0), np.asarray(local[j], dtype=np.float64) / step)
+    return _diagram(E, level, float(N - 1), threshold, slack)
 
 
 def graph_diagrams(graph, jitter=None):
@@ -583,8 +772,8 @@ def graph_diagrams(graph, jitter=None):
     graph : LensGraph
     jitter : float or sequence of float, optional
         The neighbour jitter of each lens (one value for all); default: the
-        graph's own ``params["lens_jitter"]`` (recorded by
-        :func:`~lenswork.build_graph` from the shared k-NN graph), else 0.
+        graph's own record, per node (``params["node_jitter"]``) or overall
+        (``params["lens_jitter"]``), as :func:`lens_persistence` reads it.
 
     Returns
     -------
@@ -605,13 +794,127 @@ def graph_diagrams(graph, jitter=None):
         return None
     m = len(graph.lens_columns)
     if jitter is None:
-        jitter = graph.params.get("lens_jitter") or 0.0
+        return [lens_persistence(graph, j) for j in range(m)]
     jit = [float(jitter)] * m if np.ndim(jitter) == 0 else [float(j) for j in jitter]
     return [lens_persistence(graph, j, jitter=jit[j]) for j in range(m)]
 
 
+def diagram_trunks(diagram, edges, values, sizes=None):
+    """:func:`trunk_points` of a diagram's function, with the diagram's thresholds.
+
+    Parameters
+    ----------
+    diagram : PersistenceDiagram
+        The diagram of ``values`` on the graph ``edges`` (its thresholds, per
+        end node when it has them, decide which branches end a trunk).
+    edges : array-like of shape (n_edges, 2), int
+    values : array-like of shape (n_nodes,)
+    sizes : array-like of shape (n_nodes,), optional
+        Rows per node (:func:`trunk_points`).
+
+    Returns
+    -------
+    list of (str, int, int, float, float)
+        ``(kind, extreme vertex, merge vertex, significance, threshold)`` per
+        trunk: :func:`trunk_points` (a trunk ends where a significant branch
+        meets it, so it is itself significant: its span is at least that
+        branch's), and, for a component's extreme that no significant branch
+        meets, the tail from it to the nearest end of a significant loop of its
+        component (the loop's top for the maximum, its bottom for the minimum:
+        where the loop's two arcs part), when that tail is itself significant.
+
+    Examples
+    --------
+    >>> Y = [[6, 0], [0, 1], [1, 2], [2, 3], [1, 4], [4, 5]]
+    >>> f = [0.0, 1.0, 2.0, 3.0, 2.0, 2.5, -1.0]
+    >>> d = extended_persistence(Y, f, threshold=0.2)
+    >>> [(k, a, b, round(v, 2)) for k, a, b, v, _ in diagram_trunks(d, Y, f)]
+    [('up', 3, 1, 0.5)]
+    """
+    f = np.asarray(values, dtype=np.float64).reshape(-1)
+    if not (diagram.range > 0 and math.isfinite(diagram.threshold)):
+        return []
+    if diagram.node_slack is None:
+        base, slack = diagram.threshold, None
+    else:
+        base, slack = diagram.node_slack
+    def threshold(a, b):
+        return base if slack is None else base + (slack[a] + slack[b]) / diagram.range
+
+    out, done = [], set()
+    for kind, top, merge in trunk_points(edges, f, base * diagram.range, slack=slack,
+                                         sizes=sizes, n_nodes=f.size):
+        out.append((kind, top, merge, float(abs(f[top] - f[merge]) / diagram.range),
+                    float(threshold(top, merge))))
+        done.add(top)
+    # a component's extreme that meets no significant branch but a significant loop: the tail
+    # from the extreme to the loop's nearest end (its top for the maximum, its bottom for the
+    # minimum), where the loop's two arcs part
+    sig = diagram.significant
+    comp = _component_labels(edges, f.size)
+    for i in np.flatnonzero(diagram.kind == "component"):
+        low, high = (int(x) for x in diagram.nodes[i])
+        loops = [(int(diagram.nodes[k, 0]), int(diagram.nodes[k, 1]))
+                 for k in np.flatnonzero((diagram.kind == "loop") & sig)
+                 if comp[diagram.nodes[k, 0]] == comp[low]]
+        if not loops:
+            continue
+        ends = (("up", high, max((c for c, _ in loops), key=lambda v: f[v])),
+                ("down", low, min((b for _, b in loops), key=lambda v: f[v])))
+        for kind, extreme, end in ends:
+            value = float(abs(f[extreme] - f[end]) / diagram.range)
+            if extreme not in done and value > threshold(extreme, end):
+                out.append((kind, extreme, end, value, float(threshold(extreme, end))))
+    return out
+
+
+def _component_labels(edges, n):
+    """Connected-component label of every vertex (scipy's connected_components)."""
+    E = np.asarray(edges, dtype=np.int64).reshape(-1, 2)
+    A = sp.coo_matrix((np.ones(len(E)), (E[:, 0], E[:, 1])), shape=(n, n))
+    return connected_components(A, directed=False)[1]
+
+
+def significance_total(diagram, edges, values, weights=None, sizes=None, trunks=None):
+    """``T = sum w_kind * significance`` over the significant loops, branches and trunks.
+
+    Parameters
+    ----------
+    diagram : PersistenceDiagram
+    edges, values
+        The graph and function of the diagram (for the trunks, :func:`diagram_trunks`).
+    weights : dict of str -> float, optional
+        Per kind (default :data:`STRUCTURE_WEIGHTS`); a trunk weighs as a branch
+        of its direction (``"up"`` / ``"down"``).
+    sizes : array-like of shape (n_nodes,), optional
+        Rows per node (:func:`trunk_points`).
+    trunks : list, optional
+        :func:`diagram_trunks` of the diagram, when already computed.
+
+    Returns
+    -------
+    float
+
+    Examples
+    --------
+    >>> Y = [[6, 0], [0, 1], [1, 2], [2, 3], [1, 4], [4, 5]]
+    >>> f = [0.0, 1.0, 2.0, 3.0, 2.0, 2.5, -1.0]
+    >>> round(significance_total(extended_persistence(Y, f, threshold=0.2), Y, f), 3)
+    0.438
+    """
+    w = dict(STRUCTURE_WEIGHTS if weights is None else weights)
+    sig = diagram.significant
+    total = sum(wk * float(diagram.significance[sig & (diagram.kind == k)].sum())
+                for k, wk in w.items())
+    total += sum(w.get(kind, 0.0) * value
+                 for kind, _, _, value, thr in (diagram_trunks(diagram, edges, values, sizes)
+                                                if trunks is None else trunks)
+                 if value > thr)
+    return float(total)
+
+
 #: Weights of the feature kinds in :func:`structure_significance` (those of the structure
-#: probe: a loop counts as much as two branches).
+#: probe: a loop counts as much as two branches; a trunk as a branch).
 STRUCTURE_WEIGHTS = {"loop": 1.0, "down": 0.5, "up": 0.5}
 
 

@@ -45,6 +45,20 @@ reads the shared neighbour graph of all rows, up to :data:`AUTO_GRAPH_MAX_ROWS`
 rows (where that graph is exact and quick) or when the workspace holds it
 already; ``"element-knn"``, a neighbour graph inside each element, above.
 
+``scale = "auto"`` (:func:`auto_scale`): the ``"balanced"`` cover scale, the mean
+of each lens's ranks and of its values divided by their range. On the rank scale
+every interval holds the same number of rows, so a sparse tail far out in the
+lens's values -- a failure mode, a rare regime -- gets one or two intervals and
+no resolution, while the raw scale gives a dense pile one interval and a long
+sparse tail most of them. On the mean of the two an interval holds at most twice
+the rows of an equal-count interval and spans at most twice the values of an
+equal-length one: dense regions keep at least half the rank scale's resolution
+and sparse ones at least half the raw scale's. It is a fixed-form instance of
+the covers that adapt to the lens's distribution (interval lengths set from the
+data instead of equal; Carrière, Michel and Oudot 2018 set one resolution for
+the whole lens, later work splits or merges intervals where the distribution
+asks for it) with no parameter to fit.
+
 The resolved values are what the graph records (``provenance["graph_settings"]``,
 with ``provenance["auto_settings"]`` naming the fields that were ``"auto"``).
 """
@@ -79,6 +93,7 @@ __all__ = [
     "auto_clusterer",
     "auto_intervals",
     "auto_min_size",
+    "auto_scale",
     "ball_rows",
     "grid_settings",
     "is_auto",
@@ -189,6 +204,24 @@ def auto_clusterer(n_rows, graph_cached=False):
     return "graph" if graph_cached or int(n_rows) <= AUTO_GRAPH_MAX_ROWS else "element-knn"
 
 
+def auto_scale(n_rows):
+    """The cover scale of ``scale="auto"``: ``"balanced"`` (module notes).
+
+    The balanced scale is the mean of a lens's ranks and of its values divided
+    by their range, so its intervals follow the lens's distribution both ways:
+    none holds more than twice the rows of an equal-count interval, none spans
+    more than twice the values of an equal-length one. A sparse tail far out in
+    the values keeps at least half the intervals the raw scale would give it; a
+    dense pile keeps at least half those of the rank scale.
+
+    Examples
+    --------
+    >>> auto_scale(3000)
+    'balanced'
+    """
+    return "balanced"
+
+
 def _clusterer_rule(s, n, m, workspace):
     cached = workspace is not None and workspace.has_neighbors(s.k, s.metric)
     return auto_clusterer(n, cached)
@@ -202,6 +235,7 @@ AUTO_RULES: dict = {
         else _mean_overlap(s.overlap)),
     "min_size": lambda s, n, m, ws: auto_min_size(n),
     "clusterer": _clusterer_rule,
+    "scale": lambda s, n, m, ws: auto_scale(n),
 }
 
 
@@ -269,8 +303,10 @@ class GraphSettings:
         Overlap fraction in [0, 1). Interval cover: the share of each interval
         shared with the next; ball cover: balls of radius ``eps / (1 - overlap)``
         (one value only).
-    scale : {"rank", "raw"}, default="rank"
-        Cover scale: ranks (equal counts) or raw lens values.
+    scale : {"auto", "balanced", "rank", "raw"}, default="auto"
+        Cover scale: ranks (equal counts), raw lens values (divided by their
+        range), or the mean of the two (``"balanced"``); ``"auto"`` resolves to
+        ``"balanced"`` (:func:`auto_scale`, module notes).
     radius : float in (0, 1], default=0.1
         Ball cover: net spacing on the cover scale.
     centres : int, optional
@@ -320,9 +356,10 @@ class GraphSettings:
     overlap: object = field(default=0.3, metadata=_cli(
         "--overlap", "Overlap fraction in [0, 1): one value, or one per lens column (interval "
         "cover).", metavar="P[,P...]", kind="list"))
-    scale: str = field(default="rank", metadata=_cli(
-        "--cover-scale", "Lay the cover on ranks (equal counts) or on raw lens values.",
-        choices=COVER_SCALES, kind="choice"))
+    scale: str = field(default="auto", metadata=_cli(
+        "--cover-scale", "Lay the cover on ranks (equal counts), on raw lens values, or on "
+        "their mean (balanced: dense piles and sparse tails both get intervals); auto: "
+        "balanced.", choices=("auto", *COVER_SCALES), kind="choice"))
     radius: float = field(default=0.1, metadata=_cli(
         "--radius", "Ball cover: net spacing on the cover scale (lenses in [0, 1]).",
         metavar="EPS", kind="float"))
@@ -377,7 +414,8 @@ class GraphSettings:
             put("cover", check_choice("cover", cover, tuple(COVERS), context="GraphSettings"))
         put("intervals", _per_lens("intervals", self.intervals, _intervals))
         put("overlap", _per_lens("overlap", self.overlap, _overlap))
-        put("scale", check_choice("scale", self.scale, COVER_SCALES, context="Cover"))
+        put("scale", "auto" if _auto(self.scale)
+            else check_choice("scale", self.scale, COVER_SCALES, context="Cover"))
         put("radius", check_float("radius", self.radius, lo=0.0, hi=1.0, lo_open=True,
                                   context="BallCover"))
         if self.centres is not None:

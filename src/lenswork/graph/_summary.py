@@ -91,7 +91,7 @@ from scipy.sparse.csgraph import connected_components
 
 from .._errors import ParameterError
 from ._nerve import nerve_triangles
-from ._persistence import ascending_edge_order, graph_diagrams
+from ._persistence import ascending_edge_order, diagram_trunks, graph_diagrams
 
 __all__ = ["GraphFeature", "GraphSummary", "cover_settings",
            "neighbour_lists", "settings_text", "summarize"]
@@ -551,8 +551,8 @@ def cover_settings(graph):
     params = getattr(graph, "params", None) or {}
     prov = getattr(graph, "provenance", None) or {}
     cover = params.get("cover") or {}
-    out = {key: cover[key] for key in ("kind", "intervals", "overlap", "radius", "centres")
-           if key in cover and cover[key] is not None}
+    out = {key: cover[key] for key in ("kind", "intervals", "overlap", "scale", "radius",
+                                       "centres") if key in cover and cover[key] is not None}
     if "min_size" in params:
         out["min_size"] = params["min_size"]
     if isinstance(params.get("clusterer"), str):
@@ -574,8 +574,9 @@ def settings_text(settings):
             value = f"{value:g}"
         return f"{key} {value}" + (" (auto)" if key in auto else "")
 
-    parts = [shown(k, settings[k]) for k in ("intervals", "overlap", "radius", "centres",
-                                             "min_size", "clusterer") if k in settings]
+    parts = [shown(k, settings[k]) for k in ("intervals", "overlap", "scale", "radius",
+                                             "centres", "min_size", "clusterer")
+             if k in settings]
     return "settings: " + ", ".join(parts)
 
 
@@ -692,15 +693,32 @@ def _features(graph):
 
 def _limbs(graph, sig):
     rows_of = _row_counter(graph)
+    nb = neighbour_lists(graph.n_nodes, graph.edge_index)
     out = []
-    for nodes, value, ok in sig.limbs():
+    for nodes, merge, value, ok in sig.limbs(nb):
         idx = np.asarray(nodes, dtype=np.int64)
         spans = {name: (float(graph.node_stats[name][idx, 1].min()),
                         float(graph.node_stats[name][idx, 2].max()))
                  for name in graph.lens_columns}
         out.append(GraphFeature("limb", tuple(int(x) for x in nodes), rows_of(nodes), spans,
-                                significance=value, significant=ok))
+                                attached_to=int(merge), significance=value, significant=ok))
     return tuple(out)
+
+
+def _region(nb, level, extreme, merge):
+    """The nodes reached from ``extreme`` through nodes strictly beyond ``merge``'s level (on
+    ``extreme``'s side), the extreme first and the rest in increasing order."""
+    sign = 1.0 if level[extreme] > level[merge] else -1.0
+    cut = level[merge]
+    seen, todo = {extreme}, [extreme]
+    while todo:
+        u = todo.pop()
+        for w in nb[u]:
+            if w not in seen and sign * (level[w] - cut) > 0:
+                seen.add(w)
+                todo.append(w)
+    seen.discard(extreme)
+    return (int(extreme), *sorted(int(x) for x in seen))
 
 
 class _Significance:
@@ -735,19 +753,47 @@ class _Significance:
                         bool(d.significant[i])))
         return out
 
-    def limbs(self):
-        """(birth node, death node), significance, significant for every branch of every lens."""
-        out = []
-        for d in self.diagrams:
-            for i in np.flatnonzero((d.kind == "down") | (d.kind == "up")):
-                out.append((tuple(int(x) for x in d.nodes[i]), float(d.significance[i]),
-                            bool(d.significant[i])))
-        # the same limb seen by two lenses is listed once, at its larger significance
-        merged = {}
-        for nodes, value, ok in out:
-            old = merged.get(nodes)
-            merged[nodes] = (max(value, old[0]), ok or old[1]) if old else (value, ok)
-        return sorted(((k, v, ok) for k, (v, ok) in merged.items()), key=lambda t: -t[1])
+    @cached_property
+    def trunks(self):
+        """Per lens: (extreme node, merge node, significance, threshold) of each trunk."""
+        E = np.asarray(self.graph.edge_index, dtype=np.int64).reshape(-1, 2)
+        sizes = np.asarray(self.graph.membership.sum(axis=0)).ravel()
+        return [[t[1:] for t in diagram_trunks(d, E, self.levels[:, j], sizes)]
+                for j, d in enumerate(self.diagrams)]
+
+    def limbs(self, nb):
+        """(nodes, attached to, significance, significant) for every branch of every lens.
+
+        The diagram's ``down`` and ``up`` points, and the trunks (a component's
+        extreme down or up to where a significant branch joins it). A limb's
+        nodes are its region: the nodes reached from its extreme through nodes
+        beyond the level where it joins the rest (the extreme first); it is
+        attached to the node where it joins. The same limb seen by several
+        lenses (regions of node-set Jaccard index at least 1/2) is listed
+        once, at its largest significance.
+        """
+        found = []
+        for j, d in enumerate(self.diagrams):
+            level = self.levels[:, j]
+            ends = [(int(d.nodes[i, 0]), int(d.nodes[i, 1]), float(d.significance[i]),
+                     bool(d.significant[i]))
+                    for i in np.flatnonzero((d.kind == "down") | (d.kind == "up"))]
+            ends += [(top, merge, value, value > thr) for top, merge, value, thr in self.trunks[j]]
+            for top, merge, value, ok in ends:
+                found.append((j, _region(nb, level, top, merge), merge, value, ok))
+        found.sort(key=lambda t: (-t[3], t[0], t[1][0]))
+        kept = []
+        for j, region, merge, value, ok in found:
+            nodes = set(region)
+            same = next((k for k in kept if j not in k["lenses"]
+                         and len(nodes & k["set"]) * 2 >= len(nodes | k["set"])), None)
+            if same is None:
+                kept.append({"lenses": {j}, "set": nodes, "region": region, "merge": merge,
+                             "value": value, "ok": ok})
+            else:  # the same limb under another lens: listed once, at the larger value
+                same["lenses"].add(j)
+                same["ok"] = same["ok"] or ok
+        return [(k["region"], k["merge"], k["value"], k["ok"]) for k in kept]
 
     def at_node(self, v, nb):
         """Third-largest lens span of the exits at node ``v`` (module notes).
@@ -818,10 +864,12 @@ class _Significance:
     def ends_at(self, v):
         """Largest significance of the limbs and loops with an end at node ``v``."""
         vals = []
-        for d in self.diagrams:
+        for j, d in enumerate(self.diagrams):
             hit = ((d.nodes[:, 0] == v) | (d.nodes[:, 1] == v)) & (d.kind != "component")
             vals += [(float(d.significance[i]), bool(d.significant[i]))
                      for i in np.flatnonzero(hit)]
+            vals += [(value, value > thr) for top, merge, value, thr in self.trunks[j]
+                     if v in (top, merge)]
         return self._best(vals)
 
     def branch(self, v, nb):
@@ -831,14 +879,16 @@ class _Significance:
         return min(arm, end), arm_ok and end_ok
 
     def flare(self, chain, end):
-        """Significance of the limb born at the flare's leaf (0 for a trunk: no limb)."""
+        """Significance of the limb or trunk born at the flare's leaf (module notes)."""
         leaf = chain[0]
         vals = []
-        for d in self.diagrams:
+        for j, d in enumerate(self.diagrams):
             born = np.flatnonzero(((d.kind == "down") | (d.kind == "up")) & (d.nodes[:, 0] == leaf))
             if born.size:
                 i = int(born[np.argmax(d.significance[born])])
                 vals.append((float(d.significance[i]), bool(d.significant[i])))
+            vals += [(value, value > thr) for top, _, value, thr in self.trunks[j]
+                     if top == leaf]
         return self._best(vals)
 
 

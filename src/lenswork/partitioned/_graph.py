@@ -154,7 +154,7 @@ def _from_settings(settings, mlen, n):
             f"The partitioned graph lays an interval cover; got cover={st.cover_kind!r}. Use "
             f"cover='interval'."
         )
-    if st.scale != "raw":
+    if st.scale not in ("raw", "auto"):  # "auto": raw values, the scale partitions allow
         raise ParameterError(
             f"The partitioned graph lays its intervals on raw lens values (a rank cover needs a "
             f"global sort); got scale={st.scale!r}. Use scale='raw'."

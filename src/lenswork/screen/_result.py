@@ -35,6 +35,7 @@ from ._select import (
     PAIRINGS,
     Selection,
     check_weights,
+    joint_merit,
     select_by_preservation,
     select_lenses,
     weighted_merit,
@@ -44,8 +45,8 @@ from ._spread import status_text
 __all__ = ["PROBE_COUNTS", "PROBE_SCORES", "ScreenResult"]
 
 #: Probe scores added to the screen's table (all in [0, 1]) and the counts shown beside them.
-PROBE_SCORES = ("structure", "significance", "coherence", "count_structure", "revealed",
-                "stability")
+PROBE_SCORES = ("structure", "significance", "loop_significance", "branch_significance",
+                "coherence", "count_structure", "revealed", "stability")
 PROBE_COUNTS = ("significant_loops", "significant_branches", "loops", "flares",
                 "branch_points")
 
@@ -144,7 +145,7 @@ class ScreenResult:
         elif pairing == "preservation":
             self.selection = select_by_preservation(
                 correlation, self.merit, preservation, count=count, ceiling=ceiling,
-                usable=self.usable,
+                usable=self.usable, joint_merit=joint_merit(self.scores, self.weights),
             )
         else:
             self.selection = select_lenses(

@@ -62,6 +62,7 @@ overlap fraction.)
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -77,6 +78,7 @@ __all__ = [
     "PairPreservation",
     "Selection",
     "check_weights",
+    "pair_merit",
     "select_by_preservation",
     "select_lenses",
     "weighted_merit",
@@ -301,12 +303,98 @@ class PairPreservation:
         return self._cache[key]
 
 
+#: ``structure`` of a lens that reveals nothing and keeps its rows (the probe's default floor).
+STRUCTURE_FLOOR = 0.25
+
+
+def joint_merit(scores, weights, floor=STRUCTURE_FLOOR):
+    """The merit of a pair with the structure the two lenses show together, or None.
+
+    Parameters
+    ----------
+    scores : dict of str -> ndarray of shape (m,)
+        Score columns; the pair rule needs ``structure``, ``coherence``,
+        ``loop_significance`` and ``branch_significance`` (the structure probe's).
+    weights : dict of str -> float
+        The merit's weights.
+    floor : float, default=0.25
+
+    Returns
+    -------
+    callable or None
+        ``merit(i, j)``: the weighted geometric mean of ``sqrt(s_i s_j)`` over the
+        weighted score columns, except ``structure``, which is the pair's own:
+        ``sqrt(c_i c_j) (floor + (1 - floor)(1 - 2^-(T_loop + T_branch)))`` with
+        ``T_loop = max(T_loop_i, T_loop_j)`` and ``T_branch`` likewise
+        (``T = -log2(1 - significance)``, the probe's totals per kind). So a pair
+        of a lens that shows the loop and one that shows the tails gets credit
+        for both, and two lenses that show the same loop get it once. The mean
+        is then multiplied by the pair's coverage, ``prod_kind ((1 + r_kind) /
+        2) ** (w_structure / sum w)`` over the kinds (loops, branches) some
+        candidate shows, with ``r_kind`` the larger ``merit_i * sig_kind_i`` of
+        the pair over the largest of any candidate (``sig_kind``: the probe's
+        ``loop_significance`` or ``branch_significance``): a pair that leaves
+        out the loops or the tails that the best lenses show loses as much as
+        a structure score halved. None when the structure does not enter the
+        merit or the columns are missing.
+
+    Examples
+    --------
+    >>> s = {"structure": [0.625, 0.4375, 0.625], "coherence": [1.0, 1.0, 1.0],
+    ...      "loop_significance": [0.5, 0.0, 0.5], "branch_significance": [0.0, 0.25, 0.0]}
+    >>> f = joint_merit(s, {"structure": 1.0})
+    >>> round(float(f(0, 1)), 4), round(float(f(0, 2)), 4)   # loop + tail beats loop + loop
+    (0.7188, 0.3125)
+    """
+    need = ("structure", "coherence", "loop_significance", "branch_significance")
+    if weights.get("structure", 0) <= 0 or not all(k in scores for k in need):
+        return None
+    cols = {k: np.nan_to_num(np.asarray(v, dtype=np.float64), nan=0.0)
+            for k, v in scores.items() if k in weights or k in need}
+    total = sum(weights.values())
+
+    def level(name):
+        s = np.clip(cols[name], 0.0, 1.0 - 1e-12)
+        return -np.log2(1.0 - s)
+
+    loop_t, branch_t = level("loop_significance"), level("branch_significance")
+    single = weighted_merit(cols, weights)
+    shown = [single * cols[k] for k in ("loop_significance", "branch_significance")]
+    best = [float(v.max()) if v.size else 0.0 for v in shown]
+
+    def coverage(i, j):
+        out = 1.0
+        for v, top in zip(shown, best):
+            if top > 0:
+                out *= 0.5 * (1.0 + min(max(v[i], v[j]) / top, 1.0))
+        return out ** (weights["structure"] / total)
+
+    def merit(i, j):
+        log_sum = 0.0
+        for name, w in weights.items():
+            if w == 0:
+                continue
+            if name == "structure":
+                T = max(loop_t[i], loop_t[j]) + max(branch_t[i], branch_t[j])
+                v = math.sqrt(cols["coherence"][i] * cols["coherence"][j]) \
+                    * (floor + (1.0 - floor) * (1.0 - 2.0 ** (-T)))
+                v = max(v, math.sqrt(cols[name][i] * cols[name][j]))
+            else:
+                v = math.sqrt(max(cols[name][i], 0.0) * max(cols[name][j], 0.0))
+            if v <= 0:
+                return 0.0
+            log_sum += w * math.log(v)
+        return math.exp(log_sum / total) * coverage(i, j)
+
+    return merit
+
+
 def _geomean(merit, idx):
     return float(np.exp(np.mean(np.log(merit[list(idx)]))))
 
 
 def select_by_preservation(correlation, merit, preservation, *, count=2, ceiling=0.8,
-                           usable=None):
+                           usable=None, joint_merit=None):
     """The lens set that keeps the data's neighbours, weighted by merit, under the ceiling.
 
     Parameters
@@ -321,12 +409,15 @@ def select_by_preservation(correlation, merit, preservation, *, count=2, ceiling
     count : int, default=2
     ceiling : float in (0, 1], default=0.8
     usable : array-like of bool, shape (m,), optional
+    joint_merit : callable, optional
+        ``joint_merit(i, j)``, the merit of the two lenses together (:func:`joint_merit`: the
+        structure the two show together) in place of ``sqrt(merit_i merit_j)``.
 
     Returns
     -------
     Selection
         For ``count == 1`` the best merit. Otherwise the pair with the largest
-        ``max(R_NX, 0) * sqrt(merit_i merit_j)`` with ``|rho_ij| <= ceiling``
+        ``max(R_NX, 0) * sqrt(merit_i merit_j)`` (or ``joint_merit``) with ``|rho_ij| <= ceiling``
         (higher merit first), then, one at a time, the candidate ``j`` with the
         largest ``max(R_NX(S + j), 0) * geomean(merit over S + j)`` under the
         ceiling with every member of S. Equal scores go to the earlier
@@ -349,7 +440,9 @@ def select_by_preservation(correlation, merit, preservation, *, count=2, ceiling
     if count == 1:
         return Selection((first,), (float(merit[first]),), "count")
     absr = np.nan_to_num(np.abs(R), nan=1.0)
-    pairs = [(float(np.sqrt(merit[i] * merit[j])), int(i), int(j))
+    both = (lambda i, j: float(np.sqrt(merit[i] * merit[j]))) if joint_merit is None \
+        else (lambda i, j: float(joint_merit(int(i), int(j))))
+    pairs = [(both(i, j), int(i), int(j))
              for a, i in enumerate(idx) for j in idx[a + 1:] if absr[i, j] <= ceiling]
     if not pairs:
         return Selection((first,), (float(merit[first]),),
