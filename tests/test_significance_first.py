@@ -67,7 +67,7 @@ def noise():
     # rejoin make short loops and spurs, none significant
     rng = np.random.default_rng(8104)
     Y = rng.normal(size=(1500, 5))
-    return _graph(Y, Y[:, 0], intervals=20, min_size=5)
+    return _graph(Y, Y[:, 0], intervals=20, min_size=5, scale="rank")
 
 
 def test_summary_first_line_is_the_significant_structure(ring, noise):
@@ -198,8 +198,9 @@ def test_graph_files_carry_the_same_split_with_the_threshold(ring, tmp_path):
 
 
 def test_tails_are_drawn_along_their_edges():
-    # a Y with its stem up under the height (its Reeb graph is the Y): one significant limb (the
-    # younger foot, elder rule), one flare and the fork (Carrière and Oudot 2018)
+    # a Y with its stem up under the height (its Reeb graph is the Y): both feet are significant
+    # limbs and flares (the younger foot by the elder rule, the elder one as the trunk of the
+    # minimum), and the fork (Carrière and Oudot 2018)
     X, _ = _y_tree()
     g = _graph(X, X[:, 1], scale="raw", intervals=20)
     s = g.summary()
@@ -215,7 +216,7 @@ def test_tails_are_drawn_along_their_edges():
         if f.kind == "flare":
             want += len(f.nodes)  # chain edges plus the edge to the branch point
         else:
-            want += nx.shortest_path_length(G, f.nodes[0], f.nodes[-1])
+            want += nx.shortest_path_length(G, f.nodes[0], f.attached_to)
     from matplotlib.collections import LineCollection
     from matplotlib.colors import to_hex
 
@@ -227,9 +228,9 @@ def test_tails_are_drawn_along_their_edges():
 
 
 def test_contrast_takes_a_limb_from_its_tip_to_where_it_joins():
-    # the Y of the test above, with the distance from the fork as a data column: the limb (one
-    # foot) is the rows of its nodes from the tip up to the join (networkx shortest path), and
-    # that distance grows along it (Spearman's rho, scipy)
+    # the Y of the test above, with the distance from the fork as a data column: a limb (one
+    # foot) is the rows of its region (the nodes past the level where it joins), set against
+    # the node where it joins, and that distance grows along it (Spearman's rho, scipy)
     from scipy import stats
 
     from lenswork import PointCloud, contrast_columns
@@ -238,15 +239,16 @@ def test_contrast_takes_a_limb_from_its_tip_to_where_it_joins():
     cloud = PointCloud.from_array(np.column_stack([X, r]), feature_names=["x", "y", "r"])
     g = _graph(X, X[:, 1], scale="raw", intervals=20)
     s = g.summary()
-    (label, limb), = [(lab, f) for lab, f in s.labelled() if f.kind == "limb" and f.significant]
+    label, limb = [(lab, f) for lab, f in s.labelled() if f.kind == "limb" and f.significant][0]
     res = contrast_columns(g, cloud, label, lenses=X[:, 1])
     G = nx.Graph(g.edge_index.tolist())
-    path = nx.shortest_path(G, limb.nodes[0], limb.nodes[-1])
-    assert res.features[0]["nodes"] == path[:-1] and res.features[0]["attached_to"] == path[-1]
-    rows = np.unique(np.concatenate([g.members(v) for v in path[:-1]]))
+    region, join = list(limb.nodes), limb.attached_to
+    assert nx.has_path(G.subgraph(region + [join]), region[0], join)  # the tip reaches the join
+    assert res.features[0]["nodes"] == region and res.features[0]["attached_to"] == join
+    rows = np.unique(np.concatenate([g.members(v) for v in region]))
     assert res.features[0]["n_rows"] == rows.size
     row = {x.column: x for x in res.rows}["r"]
     assert row.along == "spearman" and row.along_r > 0.8
-    centre = X[g.members(path[-1]), 1].mean()
+    centre = X[g.members(join), 1].mean()
     ref = stats.spearmanr(np.abs(X[rows, 1] - centre) / X[:, 1].std(), r[rows]).statistic
     np.testing.assert_allclose(row.along_r, ref, rtol=1e-10)

@@ -388,7 +388,7 @@ def _default_feature(f, all_features):
 def _from_summary(graph, f, label):
     s = graph.summary()
     nodes, joins = tuple(int(v) for v in f.nodes), f.attached_to
-    if f.kind == "limb":  # its rows: the nodes from its tip up to the node where it joins
+    if f.kind == "limb" and joins is None:  # its rows: the nodes from its tip up to the join
         path = s.tail_path(f)
         nodes, joins = path[:-1], path[-1]
     return _Feature(label, f.kind, nodes, _rows_of_nodes(graph, nodes), joins,

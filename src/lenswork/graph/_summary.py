@@ -387,11 +387,12 @@ class GraphSummary:
     def tail_path(self, feature):
         """The nodes of a flare or limb from its tip to where it joins the graph.
 
-        A flare: its chain, then the branch point it leads to. A limb is known
-        by its two end nodes (tip, join); its path is a shortest path between
-        them in the graph (unweighted breadth-first search, scipy). Other
-        kinds: their own nodes. What a drawing draws along and what
-        ``contrast`` takes as a limb's rows (the path without the join node).
+        A flare: its chain, then the branch point it leads to. A limb: a
+        shortest path (unweighted breadth-first search, scipy) from its tip
+        (its first node, the extreme) to the node where it joins the rest
+        (``attached_to``; a limb without one, its last node). Other kinds: their
+        own nodes. What a drawing draws along; ``contrast`` takes a limb's rows
+        from its region (its nodes).
 
         Examples
         --------
@@ -411,7 +412,8 @@ class GraphSummary:
             return tuple(feature.nodes)
         from scipy.sparse.csgraph import shortest_path
 
-        tip, join = int(feature.nodes[0]), int(feature.nodes[-1])
+        tip = int(feature.nodes[0])
+        join = int(feature.nodes[-1] if feature.attached_to is None else feature.attached_to)
         _, pred = shortest_path(self._graph.adjacency(), directed=False, unweighted=True,
                                 indices=tip, return_predecessors=True)
         path, v = [join], join

@@ -78,7 +78,7 @@ __all__ = [
     "PairPreservation",
     "Selection",
     "check_weights",
-    "pair_merit",
+    "joint_merit",
     "select_by_preservation",
     "select_lenses",
     "weighted_merit",
