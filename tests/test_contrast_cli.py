@@ -49,7 +49,7 @@ def test_cli_table_equals_the_python_call(demo_run):
     cloud = load_demo()
     ws = Workspace(cloud, random_state=0)
     lenses = compute_lenses(ws, [LENS])
-    graph = build_graph(lenses, ws, scale="rank")  # the contrast command's --cover-scale
+    graph = build_graph(lenses, ws)  # the contrast command's defaults are GraphSettings' own
     res = contrast_columns(graph, ws, "flare", against="neighbours", lenses=lenses)
     assert [(r["feature"], r["column"]) for r in rows] == [(r.feature, r.column) for r in res.rows]
     # the CSV keeps 6 significant digits
