@@ -26,7 +26,7 @@ from lenswork import (  # noqa: E402
     pca_coordinates,
 )
 from lenswork.graph import CLUSTERERS  # noqa: E402
-from lenswork.lenses._extend import nystrom_extend  # noqa: E402
+from lenswork.lenses._nystrom import nystrom_extend  # noqa: E402
 from lenswork.partitioned import (  # noqa: E402
     cluster_element,
     element_ranges,

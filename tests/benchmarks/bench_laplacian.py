@@ -199,7 +199,7 @@ def _versus_sklearn(n, d=20):
     from sklearn.manifold import SpectralEmbedding
 
     from lenswork import laplacian_eigenmaps, neighbor_graph
-    from lenswork.lenses._laplacian import _affinity
+    from lenswork.lenses._affinity import knn_affinity
 
     X = np.random.default_rng(1).normal(size=(n, d))
     start = time.perf_counter()
@@ -213,7 +213,7 @@ def _versus_sklearn(n, d=20):
         ref.fit_transform(X)
     sk_s = time.perf_counter() - start
     # Agreement on the same affinity (ours, precomputed).
-    W, _ = _affinity(neighbor_graph(X, K), "heat")
+    W, _ = knn_affinity(neighbor_graph(X, K), "heat")
     start = time.perf_counter()
     same = SpectralEmbedding(n_components=M, affinity="precomputed", random_state=0)
     theirs = same.fit_transform(W)
