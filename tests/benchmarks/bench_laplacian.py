@@ -168,7 +168,8 @@ def _modes_child(kind, n):
 
 
 # ---------------------------------------------------------------- solvers on one affinity
-SOLVERS = ("lenswork", "scipy_lobpcg", "scipy_lobpcg_our_vcycle", "scipy_eigsh")
+SOLVERS = ("lenswork", "scipy_lobpcg", "scipy_lobpcg_our_vcycle", "scipy_eigsh",
+           "scipy_lobpcg_pyamg_sa")  # the last needs pyamg (not a dependency): skipped without
 SOLVER_CASES = ("roll", "gauss20")
 SOLVER_TOL = 1e-3
 
@@ -239,6 +240,19 @@ def _solver_child(kind, n, solver):
             iters = len(hist)
             order = np.argsort(theta)[:M]
             theta, U = theta[order], U[:, order]
+        elif solver == "scipy_lobpcg_pyamg_sa":
+            import pyamg
+
+            nb = M + 4
+            X0 = rng.standard_normal((n, nb))
+            # smoothed aggregation on the singular A with its null vector as near-null space
+            ml = pyamg.smoothed_aggregation_solver(A, B=t[:, None], symmetry="hermitian")
+            theta, U, hist = lobpcg(A, X0, M=ml.aspreconditioner(cycle="V"), Y=t[:, None],
+                                    tol=SOLVER_TOL * ours_min, maxiter=500, largest=False,
+                                    retResidualNormsHistory=True)
+            iters = len(hist)
+            order = np.argsort(theta)[:M]
+            theta, U = theta[order], U[:, order]
         else:
             S = sp.diags(np.ones(n)) - A
             mu, U = eigsh(S, k=M + 1, which="LA", tol=SOLVER_TOL * ours_min, maxiter=100_000,
@@ -265,15 +279,23 @@ def _solver_child(kind, n, solver):
     }
 
 
-def _run_solvers(sizes):
+def _run_solvers(sizes, solvers=SOLVERS, reuse=False):
+    import importlib.util
+    import os
+
+    if importlib.util.find_spec("pyamg") is None:
+        solvers = [s for s in solvers if "pyamg" not in s]
     rows = []
     for n in sizes:
         for kind in SOLVER_CASES:
-            prep = _run_child_args(["--prepare-child", kind, str(n)], kind, n, timeout=1800)
+            if reuse and os.path.exists(_affinity_file(kind, n) + ".ours.npy"):
+                prep = {"case": kind, "n": n, "graph_s": float("nan")}  # from an earlier run
+            else:
+                prep = _run_child_args(["--prepare-child", kind, str(n)], kind, n, timeout=1800)
             print(json.dumps(prep), flush=True)
             if "error" in prep:
                 continue
-            for solver in SOLVERS:
+            for solver in solvers:
                 row = _run_child_args(["--solver-child", kind, str(n), solver], kind, n,
                                       timeout=600)
                 row.setdefault("solver", solver)
@@ -465,6 +487,10 @@ def main(argv=None):
     parser.add_argument("--solvers", action="store_true",
                         help="only the eigensolver comparison (ours, scipy lobpcg, eigsh)")
     parser.add_argument("--solver-sizes", nargs="+", type=int, default=[10_000, 100_000])
+    parser.add_argument("--solver-names", nargs="+", choices=SOLVERS, default=list(SOLVERS),
+                        help="solvers to run (lenswork first: it is the reference)")
+    parser.add_argument("--reuse", action="store_true",
+                        help="reuse the affinities and our solution saved by an earlier run")
     parser.add_argument("--prepare-child", nargs=2, help=argparse.SUPPRESS)
     parser.add_argument("--solver-child", nargs=3, help=argparse.SUPPRESS)
     parser.add_argument("--child", nargs=2, metavar=("CASE", "N"), help=argparse.SUPPRESS)
@@ -481,7 +507,7 @@ def main(argv=None):
         print(json.dumps(_solver_child(kind, int(n), solver)))
         return
     if args.solvers:
-        _run_solvers(args.solver_sizes)
+        _run_solvers(args.solver_sizes, args.solver_names, args.reuse)
         return
     if args.modes_child:
         print(json.dumps(_modes_child(args.modes_child[0], int(args.modes_child[1]))))

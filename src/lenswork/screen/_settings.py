@@ -108,7 +108,7 @@ def _weights(value):
             f"The 'weights' parameter of screen must be a non-empty dict of score column -> "
             f"weight (e.g. {{'robust_spread': 1, 'smoothness': 1}}); got {value!r}."
         )
-    return {str(k): check_float(f"weights[{k!r}]", v, lo=0.0, context=_CONTEXT)
+    return {str(k): check_float(f"weights.{k}", v, lo=0.0, context=_CONTEXT)
             for k, v in value.items()}
 
 
