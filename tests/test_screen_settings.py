@@ -188,3 +188,29 @@ def test_cli_bad_screen_setting_is_a_one_line_error(tmp_path):
     assert res.exit_code != 0
     assert "'sample' parameter of screen must be an int in [100, inf)" in res.output
     assert "Traceback" not in res.output
+
+
+# --------------------------------------------------------------------------- result protocol
+@pytest.mark.parametrize("sample", ["all", 300])
+def test_screen_results_speak_the_result_protocol(tmp_path, sample):
+    # text / to_dict / to_frame / write(folder) / figure, defined in the class bodies (not
+    # attached from outside), for the full and the sampled screen alike.
+    import inspect
+
+    import matplotlib.pyplot as plt
+
+    X = np.random.default_rng(7311).normal(size=(900, 3)) * [2.0, 1.0, 0.5]
+    res = _quiet(X, lenses=["pca", "eccentricity"], probe=False, sample=sample)
+    for name in ("text", "to_dict", "to_frame", "write", "figure"):
+        owner = next(k for k in type(res).__mro__ if name in vars(k))
+        assert inspect.getsourcefile(owner) == inspect.getsourcefile(getattr(res, name)), name
+    assert res.text() == res.format_table() + "\n\n" + res.summary()
+    assert len(res.to_frame()) == len(res.names)
+    files = res.write(tmp_path, figures=False)
+    assert strict_loads(files["ranking.json"].read_text()) == strict_loads(
+        json.dumps(res.to_dict(), allow_nan=False))
+    fig = res.figure()
+    try:
+        assert len(fig.axes) >= len(res.names)  # a card per candidate at least
+    finally:
+        plt.close(fig)

@@ -52,9 +52,7 @@ def screen_command(cloud, seed, out_dir, settings, lens_format, neighbor_method,
         raise click.UsageError("--no-defaults needs at least one --lens.")
     ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
     result = screen(ws, settings)
-    click.echo(result.format_table())
-    click.echo("")
-    click.echo(result.summary())
+    click.echo(result.text())
     files = result.write(out_dir, figures=not no_figures, lens_format=lens_format)
     click.echo(f"wrote {', '.join(str(p) for p in files.values())}")
 

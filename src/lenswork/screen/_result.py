@@ -564,6 +564,26 @@ class ScreenResult:
         lines += [line(b) for b in body]
         return "\n".join(lines)
 
+    def text(self):
+        """The ranking table and the summary: what ``lenswork screen`` prints.
+
+        Examples
+        --------
+        >>> import numpy as np
+        >>> from lenswork import LensColumn, LensTable, PointCloud, screen
+        >>> cloud = PointCloud.from_array(np.random.default_rng(0).normal(size=(100, 2)))
+        >>> table = LensTable([LensColumn("a", cloud.X[:, 0])], cloud)
+        >>> screen(table, count=1, probe=False).text().splitlines()[-1]
+        'Selected: a (stopped: count 1 reached; ceiling 0.80).'
+        """
+        return self.format_table() + "\n\n" + self.summary()
+
+    def figure(self):
+        """The figure sheet (a matplotlib Figure; :func:`lenswork.plot.screen_figure`)."""
+        from ..plot import screen_figure  # matplotlib on demand only
+
+        return screen_figure(self)
+
     def summary(self):
         """Two lines: what was screened, what was kept and why it stopped."""
         n_use = int(self.usable.sum())
