@@ -226,7 +226,7 @@ def _solver_child(kind, n, solver):
             U = x * np.sqrt(deg)[:, None]
             theta = np.array(info["eigenvalues"])
             iters = info["iterations"]
-        elif solver.startswith("scipy_lobpcg"):
+        elif solver in ("scipy_lobpcg", "scipy_lobpcg_our_vcycle"):
             nb = M + 4
             X0 = rng.standard_normal((n, nb))
             Mop = None
@@ -245,9 +245,21 @@ def _solver_child(kind, n, solver):
 
             nb = M + 4
             X0 = rng.standard_normal((n, nb))
-            # smoothed aggregation on the singular A with its null vector as near-null space
+            # smoothed aggregation on the singular A with its null vector as near-null space;
+            # the V-cycle's input and output are projected off that vector (its coarsest
+            # level is the null space itself, whose pseudo-inverse would blow it up)
             ml = pyamg.smoothed_aggregation_solver(A, B=t[:, None], symmetry="hermitian")
-            theta, U, hist = lobpcg(A, X0, M=ml.aspreconditioner(cycle="V"), Y=t[:, None],
+
+            def sa_cycle(R):
+                R = np.asarray(R, dtype=np.float64).reshape(n, -1)
+                R = R - np.outer(t, t @ R)
+                Z = np.column_stack([ml.solve(R[:, j], maxiter=1, cycle="V", tol=1e-30)
+                                     for j in range(R.shape[1])])
+                return Z - np.outer(t, t @ Z)
+
+            Mop = LinearOperator(A.shape, matvec=lambda v: sa_cycle(v).ravel(),
+                                 matmat=sa_cycle, dtype=np.float64)
+            theta, U, hist = lobpcg(A, X0, M=Mop, Y=t[:, None],
                                     tol=SOLVER_TOL * ours_min, maxiter=500, largest=False,
                                     retResidualNormsHistory=True)
             iters = len(hist)
