@@ -17,11 +17,10 @@ CLI metadata (``_cli``): ``flags`` (one or more option names), ``help``,
 from __future__ import annotations
 
 import numbers
-from dataclasses import dataclass, field, fields
-from dataclasses import replace as _dc_replace
+from dataclasses import dataclass, field
 
 from .._errors import ParameterError
-from .._validation import check_bool, check_choice, check_float, check_int
+from .._validation import SettingsRecord, check_bool, check_choice, check_float, check_int
 from ..lenses import get_lens
 from ._candidates import parse_spec
 from ._select import PAIRINGS
@@ -113,7 +112,7 @@ def _weights(value):
 
 
 @dataclass(frozen=True)
-class ScreenSettings:
+class ScreenSettings(SettingsRecord):
     """Every setting of :func:`lenswork.screen`, validated once (see the module notes).
 
     Parameters
@@ -194,6 +193,8 @@ class ScreenSettings:
         "row and checked against the sample run (Spearman rho).", metavar="N|auto|all"))
     random_state: object = None
 
+    coerce_hint = " Lens specs go in lenses=[...] (e.g. screen(data, lenses=['pca']))."
+
     def __post_init__(self):
         def put(name, value):
             object.__setattr__(self, name, value)
@@ -214,69 +215,20 @@ class ScreenSettings:
             put("random_state", check_int("random_state", self.random_state, lo=0,
                                           context=_CONTEXT))
 
-    def replace(self, **changes):
-        """A copy with ``changes`` applied (and validated again).
-
-        Examples
-        --------
-        >>> [s.count for s in (ScreenSettings().replace(count=n) for n in (1, 3))]
-        [1, 3]
-        """
-        unknown = sorted(set(changes) - set(self.field_names()))
-        if unknown:
-            raise ParameterError(
-                f"ScreenSettings has no setting {unknown[0]!r}; the settings are: "
-                f"{', '.join(self.field_names())}."
-            )
-        return _dc_replace(self, **changes)
-
-    @classmethod
-    def field_names(cls):
-        """Names of every setting, in order."""
-        return tuple(f.name for f in fields(cls))
-
-    @classmethod
-    def coerce(cls, settings=None, **overrides):
-        """``settings`` (ScreenSettings, dict or None) with keyword ``overrides`` applied."""
-        if settings is None:
-            base = cls()
-        elif isinstance(settings, ScreenSettings):
-            base = settings
-        elif isinstance(settings, dict):
-            base = cls.from_dict(settings)
-        else:
-            raise ParameterError(
-                f"The 'settings' parameter of screen must be a ScreenSettings, a dict of "
-                f"settings or None; got {type(settings).__name__}. Lens specs go in "
-                f"lenses=[...] (e.g. screen(data, lenses=['pca', 'density']))."
-            )
-        return base.replace(**overrides) if overrides else base
-
     # ---------------------------------------------------------------- records
-    def to_dict(self):
-        """Every setting as plain JSON values (reference arrays by name, spec pairs as lists)."""
-        out = {}
-        for f in fields(self):
-            value = getattr(self, f.name)
-            if f.name in ("lenses", "extra") and value is not None:
-                value = [v if isinstance(v, str) else [v[0], dict(v[1])] for v in value]
-            elif f.name == "references":
-                value = list(value)  # a dict of arrays: its names
-            elif isinstance(value, dict):
-                value = dict(value)
-            out[f.name] = value
-        return out
+    def record_value(self, name, value):
+        """One setting as JSON (reference arrays by name, spec pairs as lists; see ``to_dict``)."""
+        if name in ("lenses", "extra") and value is not None:
+            return [v if isinstance(v, str) else [v[0], dict(v[1])] for v in value]
+        if name == "references":
+            return list(value)  # a dict of arrays: its names
+        return dict(value) if isinstance(value, dict) else value
 
     @classmethod
     def from_dict(cls, doc):
         """Settings from :meth:`to_dict` output (unknown keys raise)."""
         doc = dict(doc)
-        unknown = sorted(set(doc) - set(cls.field_names()))
-        if unknown:
-            raise ParameterError(
-                f"ScreenSettings has no setting {unknown[0]!r}; the settings are: "
-                f"{', '.join(cls.field_names())}."
-            )
+        cls.check_names(doc)
         for key in ("lenses", "extra"):
             if doc.get(key) is not None:
                 doc[key] = tuple(v if isinstance(v, str) else tuple(v) for v in doc[key])
