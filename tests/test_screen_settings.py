@@ -69,6 +69,9 @@ def test_text_values_are_parsed_as_the_cli_gives_them():
     assert (s.count, s.ceiling, s.bins, s.probe, s.sample, s.references, s.pairing) == (
         3, 0.9, 10, False, 20000, ("flow", "head"), "greedy")
     assert ScreenSettings(sample=None).sample == "all"
+    # a keyword None is a value, as screen() always took it (sample=None: every row)
+    assert ScreenSettings.coerce(ScreenSettings(sample=500), sample=None).sample == "all"
+    assert ScreenSettings.coerce(ScreenSettings(lenses=["pca"]), lenses=None).lenses is None
 
 
 def test_frozen_replace_and_unknown_names():

@@ -303,6 +303,8 @@ class SettingsRecord:
 
     #: Appended to the error of :meth:`coerce` for a value of the wrong type.
     coerce_hint = ""
+    #: Whether :meth:`coerce` skips overrides that are None (a CLI option not given).
+    skip_none = True
 
     def replace(self, **changes):
         """A copy with ``changes`` applied (and validated again)."""
@@ -337,7 +339,7 @@ class SettingsRecord:
 
     @classmethod
     def coerce(cls, settings=None, **overrides):
-        """``settings`` (an instance, a dict or None) with ``overrides`` (None values skipped)."""
+        """``settings`` (an instance, a dict or None) with ``overrides`` applied (see skip_none)."""
         if settings is None:
             base = cls()
         elif isinstance(settings, cls):
@@ -349,5 +351,5 @@ class SettingsRecord:
                 f"The 'settings' parameter must be a {cls.__name__}, a dict of settings or None. "
                 f"Got {type(settings).__name__} instead.{cls.coerce_hint}"
             )
-        changes = {k: v for k, v in overrides.items() if v is not None}
+        changes = {k: v for k, v in overrides.items() if v is not None or not cls.skip_none}
         return base.replace(**changes) if changes else base

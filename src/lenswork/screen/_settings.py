@@ -194,6 +194,7 @@ class ScreenSettings(SettingsRecord):
     random_state: object = None
 
     coerce_hint = " Lens specs go in lenses=[...] (e.g. screen(data, lenses=['pca']))."
+    skip_none = False  # screen(..., sample=None) means every row, lenses=None the defaults
 
     def __post_init__(self):
         def put(name, value):
