@@ -1,4 +1,4 @@
-"""Tests of the Laplacian-eigenmap lens (lenswork.lenses._laplacian).
+"""Tests of the Laplacian-eigenmap lens (lenses._laplacian, _affinity; the linalg solver).
 
 References used below: closed forms of path and cycle spectra (Chung, "Spectral
 Graph Theory", 1997, ch. 1; Spielman, "Spectral and Algebraic Graph Theory",
@@ -33,7 +33,8 @@ from lenswork import (
     neighbor_graph,
 )
 from lenswork.lenses import _laplacian
-from lenswork.lenses._laplacian import _affinity, _laplacian_eigs
+from lenswork.lenses._affinity import knn_affinity
+from lenswork.linalg import _graph_eigs, _multigrid, laplacian_eigs
 
 
 # ---------------------------------------------------------------- helpers
@@ -97,7 +98,7 @@ def test_path_combinatorial_laplacian_closed_form(n):
     # i = 1..n (Spielman, ch. 6; Chung 1997, ch. 1).
     rng = np.random.default_rng(101)
     m = 3
-    x, info = _laplacian_eigs(_path(n), m, mass="uniform", rng=rng)
+    x, info = laplacian_eigs(_path(n), m, mass="uniform", rng=rng)
     k = np.arange(1, m + 1)
     i = np.arange(1, n + 1)[:, None]
     ref_vec = np.cos(np.pi * k * (i - 0.5) / n)
@@ -111,7 +112,7 @@ def test_path_combinatorial_laplacian_closed_form(n):
         # Vectors: sin(angle) <= ||r|| / gap (Davis-Kahan); the chord is <= 2 sin(angle/2)*...
         # so bound it by 2 ||r|| / gap, plus rounding.
         assert _vector_error(x[:, j], ref_vec[:, j]) <= 2 * res[j] / gap[j] + 1e-9
-    assert info["method"] == ("dense" if n <= _laplacian._DENSE_MAX else "multilevel")
+    assert info["method"] == ("dense" if n <= _graph_eigs.DENSE_MAX else "multilevel")
 
 
 @pytest.mark.parametrize("n", [40, 2500])
@@ -121,7 +122,7 @@ def test_path_normalized_laplacian_closed_form(n):
     # closed form is also checked against numpy.linalg.eigh at the small size).
     rng = np.random.default_rng(102)
     m = 3
-    x, info = _laplacian_eigs(_path(n), m, mass="degree", rng=rng)
+    x, info = laplacian_eigs(_path(n), m, mass="degree", rng=rng)
     k = np.arange(1, m + 1)
     i = np.arange(1, n + 1)[:, None]
     ref_vec = np.cos(np.pi * k * (i - 1) / (n - 1))
@@ -145,7 +146,7 @@ def test_cycle_combinatorial_eigenvalues(n):
     # Cycle C_n: combinatorial eigenvalues 2 - 2 cos(2 pi k / n), each k >= 1 twice
     # (Spielman ch. 6; Chung 1997 ch. 1).
     rng = np.random.default_rng(103)
-    _, info = _laplacian_eigs(_cycle(n), 4, mass="uniform", rng=rng)
+    _, info = laplacian_eigs(_cycle(n), 4, mass="uniform", rng=rng)
     spectrum = 2 - 2 * np.cos(2 * np.pi * np.arange(n) / n)
     lam = 2 - 2 * np.cos(2 * np.pi * np.array([1, 1, 2, 2]) / n)
     res = np.array(info["residuals"])
@@ -190,7 +191,7 @@ def test_agrees_with_sklearn_spectral_embedding_on_swiss_roll(weights):
     X, _ = make_swiss_roll(1500, noise=0.05, random_state=7)
     ours, info = laplacian_eigenmaps(X, 4, k=10, weights=weights, return_info=True)
     assert info["method"] == "multilevel"
-    W, _ = _affinity(neighbor_graph(X, 10), weights)
+    W, _ = knn_affinity(neighbor_graph(X, 10), weights)
     ref = SpectralEmbedding(n_components=4, affinity="precomputed", random_state=0)
     theirs = ref.fit_transform(W)
     for j in range(4):
@@ -204,8 +205,8 @@ def test_multilevel_solution_matches_a_dense_reference():
     # above the dense size (so the multilevel LOBPCG path runs).
     rng = np.random.default_rng(105)
     X = _manifold(rng, 1100)
-    W, _ = _affinity(neighbor_graph(X, 10), "heat")
-    x, info = _laplacian_eigs(W, 4, rng=np.random.default_rng(1))
+    W, _ = knn_affinity(neighbor_graph(X, 10), "heat")
+    x, info = laplacian_eigs(W, 4, rng=np.random.default_rng(1))
     assert info["method"] == "multilevel" and info["converged"]
     assert info["preconditioner"] == "smoothed aggregation"
     lam, U, d, S = _dense_normalized(W)
@@ -225,10 +226,11 @@ def test_unsmoothed_aggregation_preconditioner_matches_a_dense_reference(monkeyp
     # Force the unsmoothed hierarchy (as on dense aggregate graphs) on a 2-D sheet, whose
     # eigenvalues are near 0, so the plain aggregation V-cycle is used; numpy.linalg.eigh
     # of the dense normalised Laplacian as the reference.
-    monkeypatch.setattr(_laplacian, "_SMOOTH_MAX_DEGREE", 0)
+    monkeypatch.setattr(_graph_eigs, "SMOOTH_MAX_DEGREE", 0)
+    monkeypatch.setattr(_multigrid, "SMOOTH_MAX_DEGREE", 0)
     rng = np.random.default_rng(118)
-    W, _ = _affinity(neighbor_graph(_manifold(rng, 1100), 10), "heat")
-    _, info = _laplacian_eigs(W, 3, rng=np.random.default_rng(3))
+    W, _ = knn_affinity(neighbor_graph(_manifold(rng, 1100), 10), "heat")
+    _, info = laplacian_eigs(W, 3, rng=np.random.default_rng(3))
     assert info["preconditioner"] == "aggregation" and info["converged"]
     lam = _dense_normalized(W, vectors=False)
     res = np.array(info["residuals"])
@@ -239,10 +241,11 @@ def test_unsmoothed_aggregation_preconditioner_matches_a_dense_reference(monkeyp
 def test_random_start_and_jacobi_coarsest_level_still_converge(monkeypatch):
     # A coarsest level too large for a dense solve (forced here) gets Jacobi sweeps and a
     # random start block; numpy.linalg.eigh of the dense matrix as the reference.
-    monkeypatch.setattr(_laplacian, "_COARSE_DENSE_MAX", 10)
+    monkeypatch.setattr(_graph_eigs, "COARSE_DENSE_MAX", 10)
+    monkeypatch.setattr(_multigrid, "COARSE_DENSE_MAX", 10)
     rng = np.random.default_rng(119)
-    W, _ = _affinity(neighbor_graph(_manifold(rng, 1100), 10), "heat")
-    _, info = _laplacian_eigs(W, 2, rng=np.random.default_rng(4))
+    W, _ = knn_affinity(neighbor_graph(_manifold(rng, 1100), 10), "heat")
+    _, info = laplacian_eigs(W, 2, rng=np.random.default_rng(4))
     assert info["converged"]
     lam = _dense_normalized(W, vectors=False)
     res = np.array(info["residuals"])
@@ -255,8 +258,8 @@ def test_expander_like_data_uses_the_unsmoothed_hierarchy_and_converges():
     # unsmoothed; eigenvalues far from 0 and clustered. numpy.linalg.eigh as reference.
     rng = np.random.default_rng(106)
     X = rng.normal(size=(1100, 10))
-    W, _ = _affinity(neighbor_graph(X, 10), "self_tuning")
-    x, info = _laplacian_eigs(W, 3, rng=np.random.default_rng(2))
+    W, _ = knn_affinity(neighbor_graph(X, 10), "self_tuning")
+    x, info = laplacian_eigs(W, 3, rng=np.random.default_rng(2))
     assert info["smoothed_levels"] == 0 and info["converged"]
     assert info["preconditioner"] in {"none", "aggregation"}
     lam = _dense_normalized(W, vectors=False)
@@ -282,7 +285,7 @@ def test_self_tuning_weights_match_a_brute_force_construction():
     rng = np.random.default_rng(108)
     X = rng.normal(size=(120, 2)) * [3.0, 1.0]
     k = 9
-    W, info = _affinity(neighbor_graph(X, k), "self_tuning")
+    W, info = knn_affinity(neighbor_graph(X, k), "self_tuning")
     D = np.sqrt(((X[:, None, :] - X[None, :, :]) ** 2).sum(-1))
     order = np.argsort(D, axis=1)[:, 1 : k + 1]
     sigma = np.sort(D, axis=1)[:, 7]
@@ -318,7 +321,7 @@ def test_components_too_small_for_m_vectors_get_zero():
     rng = np.random.default_rng(110)
     W = sp.block_diag([_path(50), _path(2)]).tocsr()  # a 2-vertex piece: 1 non-trivial vector
     with pytest.warns(LensworkWarning, match=r"1 component\(s\) with fewer than 4 points get 0"):
-        x, info = _laplacian_eigs(W, 2, rng=rng)
+        x, info = laplacian_eigs(W, 2, rng=rng)
     assert np.all(x[50:] == 0.0) and np.all(np.isfinite(x))
     assert info["component_sizes"] == [50, 2]
 
@@ -331,7 +334,7 @@ def test_a_weakly_attached_point_is_reported():
     W = sp.lil_matrix(sp.block_diag([_path(n), _path(2)]))
     W[n - 1, n] = W[n, n - 1] = 1e-9
     with pytest.warns(LensworkWarning, match="concentrated on few points"):
-        _, info = _laplacian_eigs(W.tocsr(), 2, rng=rng)
+        _, info = laplacian_eigs(W.tocsr(), 2, rng=rng)
     assert info["half_weight_points"][0] <= 2
 
 
@@ -340,7 +343,7 @@ def test_signs_centring_and_scale():
     rng = np.random.default_rng(112)
     X = _manifold(rng, 1200)
     coords = laplacian_eigenmaps(X, 3, k=10)
-    W, _ = _affinity(neighbor_graph(X, 10), "heat")
+    W, _ = knn_affinity(neighbor_graph(X, 10), "heat")
     d = np.asarray(W.sum(axis=1)).ravel()
     # Conventions of the module: largest-|entry| positive, degree-weighted mean 0,
     # degree-weighted mean square 1 (common practice for signs; our own scale choice).
@@ -616,9 +619,38 @@ def test_extension_on_a_disconnected_fit_uses_each_component_eigenvalue():
     # lambda of each column on blob b: the Rayleigh quotient of its coordinates there.
     from lenswork import neighbor_graph as ng
 
-    W, _ = _affinity(ng(b, 8), "self_tuning")
+    W, _ = knn_affinity(ng(b, 8), "self_tuning")
     deg = np.asarray(W.sum(axis=1)).ravel()
     lam = np.array([Eb[:, j] @ (deg * Eb[:, j] - W @ Eb[:, j]) / (deg @ Eb[:, j] ** 2)
                     for j in range(2)])
     ref = np.einsum("ij,ijm->im", w, E[near]) / w.sum(axis=1)[:, None] / (1.0 - lam)
     assert_allclose(lens.transform(Y), ref, rtol=1e-8, atol=1e-10)
+
+
+# ---------------------------------------------------------------- the split into layers
+def test_the_lens_is_its_weights_then_the_linalg_solver_and_agrees_with_eigsh():
+    # The lens = lenses._affinity.knn_affinity + linalg.laplacian_eigs, bit for bit (the
+    # split of the old single module changed no arithmetic); the outside reference is
+    # scipy.sparse.linalg.eigsh (ARPACK) on S = D^-1/2 W D^-1/2, largest algebraic
+    # eigenvalues, whose eigenvectors are the smallest of I - S (Chung 1997, ch. 1).
+    from scipy.sparse.linalg import eigsh
+
+    rng = np.random.default_rng(120)
+    X = _manifold(rng, 1500)  # above the dense size: the multilevel LOBPCG path runs
+    coords, info = laplacian_eigenmaps(X, 3, k=10, random_state=0, return_info=True)
+    W, _ = knn_affinity(neighbor_graph(X, 10, random_state=0), "heat")
+    x, solver_info = laplacian_eigs(W, 3, rng=np.random.default_rng(0))
+    np.testing.assert_array_equal(coords, x)
+    assert info["eigenvalues"] == solver_info["eigenvalues"]
+    assert solver_info["method"] == "multilevel"
+    d = np.asarray(W.sum(axis=1)).ravel()
+    S = sp.diags(1 / np.sqrt(d)) @ W @ sp.diags(1 / np.sqrt(d))
+    mu, U = eigsh(S, k=4, which="LA", tol=1e-12, v0=np.sqrt(d))
+    order = np.argsort(-mu)
+    lam, U = 1.0 - mu[order], U[:, order]
+    res = np.array(info["residuals"])
+    # |theta - lambda| <= ||r||^2 / gap (Parlett 1998, ch. 11); gap to the next value.
+    gap = np.abs(np.diff(lam)).min()
+    assert_allclose(info["eigenvalues"], lam[1:], rtol=0, atol=1e-10 + (res**2).max() / gap)
+    for j in range(3):
+        assert _vector_error(np.sqrt(d) * coords[:, j], U[:, j + 1]) < 1e-4

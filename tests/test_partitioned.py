@@ -26,7 +26,7 @@ from lenswork import (  # noqa: E402
     pca_coordinates,
 )
 from lenswork.graph import CLUSTERERS  # noqa: E402
-from lenswork.lenses._extend import nystrom_extend  # noqa: E402
+from lenswork.lenses._nystrom import nystrom_extend  # noqa: E402
 from lenswork.partitioned import (  # noqa: E402
     cluster_element,
     element_ranges,
@@ -442,7 +442,7 @@ def test_screen_on_a_sample_then_lenses_on_all_partitions(client):
     X = rng.normal(size=(4000, 3)) * [4.0, 1.0, 0.3]
     cloud = open_partitioned(da.from_array(X, chunks=(1000, 3)))
     sample = sample_cloud(cloud, 600, random_state=2)
-    result = screen(sample, ["pca:components=2", "eccentricity"], probe=False)
+    result = screen(sample, lenses=["pca:components=2", "eccentricity"], probe=False)
     assert result.selected and set(result.selected) <= {"pca_1", "pca_2", "eccentricity"}
     lens = partitioned_lenses(cloud, ["pca:components=2", "eccentricity"])
     values, _ = lens.compute()

@@ -13,8 +13,8 @@ Lens functions and transformers
     scott_bandwidth, silverman_bandwidth, eccentricity, Eccentricity, geodesic_eccentricity,
     laplacian_eigenmaps, LaplacianLens
 Screening
-    screen, ScreenResult, spread_score, SpreadScore, histogram_entropy, spearman_matrix,
-    select_lenses, Selection, default_candidates
+    screen, ScreenResult, ScreenSettings, spread_score, SpreadScore, histogram_entropy,
+    spearman_matrix, select_lenses, Selection, default_candidates
 Structure probe, stability, bootstrap, comparison
     structure_scores, StructureProbe, feature_counts, stability_map, StabilityMap,
     bootstrap_graph, BootstrapResult, suggest_cover, CoverSuggestion, compare_views,
@@ -95,6 +95,7 @@ from .probe import StabilityMap, StructureProbe, feature_counts, stability_map, 
 from .report import write_report
 from .screen import (
     ScreenResult,
+    ScreenSettings,
     Selection,
     SpreadScore,
     default_candidates,
@@ -133,6 +134,7 @@ __all__ = [
     "ParameterError",
     "PointCloud",
     "ScreenResult",
+    "ScreenSettings",
     "Selection",
     "SpreadScore",
     "StabilityMap",

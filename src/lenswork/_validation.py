@@ -13,6 +13,7 @@ and column (1-based) and saying what to do.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import numbers
 
@@ -21,6 +22,7 @@ import numpy as np
 from ._errors import InputError, ParameterError
 
 __all__ = [
+    "SettingsRecord",
     "check_array",
     "check_bool",
     "check_choice",
@@ -277,3 +279,77 @@ def check_finite(X, context, *, names=None, label=None, advice=None):
         f"{_subject(context, label)} has a non-finite value ({float(X[row, col])!r}) in row "
         f"{row + 1}, column {col + 1}{name}; expected finite values. {advice or _ADVICE}"
     )
+
+
+class SettingsRecord:
+    """What every frozen settings dataclass shares: ``replace``, ``field_names``, ``coerce``.
+
+    A subclass is a ``@dataclass(frozen=True)`` that validates its fields in
+    ``__post_init__`` (``GraphSettings``, ``ScreenSettings``); unknown setting
+    names raise one message naming the valid ones.
+
+    Examples
+    --------
+    >>> @dataclasses.dataclass(frozen=True)
+    ... class Tiny(SettingsRecord):
+    ...     k: int = 1
+    >>> Tiny().replace(k=3).k, Tiny.field_names()
+    (3, ('k',))
+    >>> Tiny().replace(j=3)
+    Traceback (most recent call last):
+    ...
+    lenswork._errors.ParameterError: Tiny has no setting 'j'; the settings are: k.
+    """
+
+    #: Appended to the error of :meth:`coerce` for a value of the wrong type.
+    coerce_hint = ""
+    #: Whether :meth:`coerce` skips overrides that are None (a CLI option not given).
+    skip_none = True
+
+    def replace(self, **changes):
+        """A copy with ``changes`` applied (and validated again)."""
+        self.check_names(changes)
+        return dataclasses.replace(self, **changes)
+
+    @classmethod
+    def field_names(cls):
+        """Names of every setting, in order."""
+        return tuple(f.name for f in dataclasses.fields(cls))
+
+    @classmethod
+    def check_names(cls, names):
+        """Raise ParameterError for a name that is not a setting."""
+        unknown = sorted(set(names) - set(cls.field_names()))
+        if unknown:
+            raise ParameterError(
+                f"{cls.__name__} has no setting {unknown[0]!r}; the settings are: "
+                f"{', '.join(cls.field_names())}."
+            )
+
+    def to_dict(self):
+        """Every setting as a plain JSON value (:meth:`record_value` of each field)."""
+        return {f.name: self.record_value(f.name, getattr(self, f.name))
+                for f in dataclasses.fields(self)}
+
+    def record_value(self, name, value):
+        """One setting as a JSON value: tuples as lists, dicts copied (a subclass adds rules)."""
+        if isinstance(value, tuple):
+            return list(value)
+        return dict(value) if isinstance(value, dict) else value
+
+    @classmethod
+    def coerce(cls, settings=None, **overrides):
+        """``settings`` (an instance, a dict or None) with ``overrides`` applied (see skip_none)."""
+        if settings is None:
+            base = cls()
+        elif isinstance(settings, cls):
+            base = settings
+        elif isinstance(settings, dict):
+            base = cls.from_dict(settings)
+        else:
+            raise ParameterError(
+                f"The 'settings' parameter must be a {cls.__name__}, a dict of settings or None. "
+                f"Got {type(settings).__name__} instead.{cls.coerce_hint}"
+            )
+        changes = {k: v for k, v in overrides.items() if v is not None or not cls.skip_none}
+        return base.replace(**changes) if changes else base

@@ -34,6 +34,23 @@ What it measures
 
        flock /tmp/lenswork-bench.lock /work/venv/bin/python tests/benchmarks/bench_laplacian.py \\
            --modes --mode-sizes 100000 200000 1000000
+
+4. Solvers (``--solvers``): the eigensolver alone, on one affinity per case
+   (noisy swiss roll; 20-d Gaussian) at 1e4 and 1e5 rows (``--solver-sizes``),
+   4 vectors: :func:`lenswork.linalg.laplacian_eigs` against
+   :func:`scipy.sparse.linalg.lobpcg` (no preconditioner; and with our
+   aggregation V-cycle as ``M``, which isolates the LOBPCG loop itself) and
+   :func:`scipy.sparse.linalg.eigsh` (ARPACK on ``S``, ``which="LA"``), all on
+   ``A = I - D^-1/2 W D^-1/2`` with the trivial vector as the constraint / one
+   extra vector, the same relative target ``||A u - theta u|| <= 1e-3 theta``
+   (scipy: absolute ``tol`` = 1e-3 times our smallest eigenvalue), 500 iterations
+   at most (eigsh: 1e5 restarts), each in a fresh process with a 600 s limit.
+   Reported: seconds, iterations, the largest relative residual measured the
+   same way for all, the eigenvalues, |corr| with our vectors (up to sign) and
+   peak traced memory.
+
+       flock /tmp/lenswork-bench.lock /work/venv/bin/python tests/benchmarks/bench_laplacian.py \\
+           --solvers
 """
 
 from __future__ import annotations
@@ -150,6 +167,186 @@ def _modes_child(kind, n):
     }
 
 
+# ---------------------------------------------------------------- solvers on one affinity
+SOLVERS = ("lenswork", "scipy_lobpcg", "scipy_lobpcg_our_vcycle", "scipy_eigsh",
+           "scipy_lobpcg_pyamg_sa")  # the last needs pyamg (not a dependency): skipped without
+SOLVER_CASES = ("roll", "gauss20")
+SOLVER_TOL = 1e-3
+
+
+def _affinity_file(kind, n):
+    return f"/tmp/lenswork-bench-affinity-{kind}-{n}.npz"
+
+
+def _prepare_child(kind, n):
+    """Build the k-NN graph and heat affinity once; save W (and our solution) for the solvers."""
+    import scipy.sparse as sp
+
+    from lenswork.lenses._affinity import knn_affinity
+    from lenswork.workspace import neighbor_graph
+
+    X = _data(kind, n)
+    start = time.perf_counter()
+    W, _ = knn_affinity(neighbor_graph(X, K, random_state=0), "heat")
+    sp.save_npz(_affinity_file(kind, n), W.tocsr())
+    return {"case": kind, "n": n, "graph_s": round(time.perf_counter() - start, 2)}
+
+
+def _solver_child(kind, n, solver):
+    """One solver on the saved affinity (in a fresh process): seconds, residuals, agreement."""
+    import warnings
+
+    import scipy.sparse as sp
+    from scipy.sparse.linalg import LinearOperator, eigsh, lobpcg
+
+    from lenswork.linalg import (
+        AggregationPreconditioner,
+        graph_hierarchy,
+        laplacian_eigs,
+        one_blas_thread,
+        symmetric_operator,
+    )
+
+    W = sp.load_npz(_affinity_file(kind, n)).tocsr()
+    deg = np.asarray(W.sum(axis=1)).ravel()
+    A, _ = symmetric_operator(W, deg)
+    t = np.sqrt(deg) / np.linalg.norm(np.sqrt(deg))
+    ref = ours_min = None
+    if solver != "lenswork":  # our solution (run first) gives the reference and the target
+        ref = np.load(_affinity_file(kind, n) + ".ours.npy")
+        ours_min = float(np.load(_affinity_file(kind, n) + ".ours_theta.npy").min())
+    rng = np.random.default_rng(0)
+    iters = None
+    tracemalloc.start()
+    start = time.perf_counter()
+    with warnings.catch_warnings(), one_blas_thread():
+        warnings.simplefilter("ignore")
+        if solver == "lenswork":
+            x, info = laplacian_eigs(W, M, rng=rng, tol=SOLVER_TOL, max_iter=500)
+            U = x * np.sqrt(deg)[:, None]
+            theta = np.array(info["eigenvalues"])
+            iters = info["iterations"]
+        elif solver in ("scipy_lobpcg", "scipy_lobpcg_our_vcycle"):
+            nb = M + 4
+            X0 = rng.standard_normal((n, nb))
+            Mop = None
+            if solver == "scipy_lobpcg_our_vcycle":
+                graphs, _, aggs = graph_hierarchy(W, deg, nb, rng)
+                pre = AggregationPreconditioner(A, np.sqrt(deg), graphs, aggs, rng)
+                Mop = LinearOperator(A.shape, matvec=lambda v: pre(v.reshape(-1, 1)).ravel(),
+                                     matmat=pre, dtype=np.float64)
+            theta, U, hist = lobpcg(A, X0, M=Mop, Y=t[:, None], tol=SOLVER_TOL * ours_min,
+                                    maxiter=500, largest=False, retResidualNormsHistory=True)
+            iters = len(hist)
+            order = np.argsort(theta)[:M]
+            theta, U = theta[order], U[:, order]
+        elif solver == "scipy_lobpcg_pyamg_sa":
+            import pyamg
+
+            nb = M + 4
+            X0 = rng.standard_normal((n, nb))
+            # smoothed aggregation on the singular A with its null vector as near-null space;
+            # the V-cycle's input and output are projected off that vector (its coarsest
+            # level is the null space itself, whose pseudo-inverse would blow it up)
+            ml = pyamg.smoothed_aggregation_solver(A, B=t[:, None], symmetry="hermitian")
+
+            def sa_cycle(R):
+                R = np.asarray(R, dtype=np.float64).reshape(n, -1)
+                R = R - np.outer(t, t @ R)
+                Z = np.column_stack([ml.solve(R[:, j], maxiter=1, cycle="V", tol=1e-30)
+                                     for j in range(R.shape[1])])
+                return Z - np.outer(t, t @ Z)
+
+            Mop = LinearOperator(A.shape, matvec=lambda v: sa_cycle(v).ravel(),
+                                 matmat=sa_cycle, dtype=np.float64)
+            theta, U, hist = lobpcg(A, X0, M=Mop, Y=t[:, None],
+                                    tol=SOLVER_TOL * ours_min, maxiter=500, largest=False,
+                                    retResidualNormsHistory=True)
+            iters = len(hist)
+            order = np.argsort(theta)[:M]
+            theta, U = theta[order], U[:, order]
+        else:
+            S = sp.diags(np.ones(n)) - A
+            mu, U = eigsh(S, k=M + 1, which="LA", tol=SOLVER_TOL * ours_min, maxiter=100_000,
+                          v0=np.sqrt(deg))
+            order = np.argsort(-mu)[1:]
+            theta, U = 1.0 - mu[order], U[:, order]
+    seconds = time.perf_counter() - start
+    _, peak = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    U = U / np.linalg.norm(U, axis=0)
+    theta_q = np.einsum("ij,ij->j", U, A @ U)
+    rel = np.linalg.norm(A @ U - U * theta_q, axis=0) / np.abs(theta_q)
+    if solver == "lenswork":
+        np.save(_affinity_file(kind, n) + ".ours.npy", U)
+        np.save(_affinity_file(kind, n) + ".ours_theta.npy", theta_q)
+        corr = [1.0] * M
+    else:
+        corr = [float(abs(U[:, j] @ ref[:, j])) for j in range(M)]
+    return {
+        "case": kind, "n": n, "solver": solver, "seconds": round(seconds, 2),
+        "iterations": iters, "max_rel_residual": float(rel.max()),
+        "eigenvalues": theta_q.tolist(), "abs_corr_with_ours": corr,
+        "peak_mb": round(peak / 2**20, 1), "process_peak_rss_mb": _peak_rss_mb(),
+    }
+
+
+def _run_solvers(sizes, solvers=SOLVERS, reuse=False):
+    import importlib.util
+    import os
+
+    if importlib.util.find_spec("pyamg") is None:
+        solvers = [s for s in solvers if "pyamg" not in s]
+    rows = []
+    for n in sizes:
+        for kind in SOLVER_CASES:
+            if reuse and os.path.exists(_affinity_file(kind, n) + ".ours.npy"):
+                prep = {"case": kind, "n": n, "graph_s": float("nan")}  # from an earlier run
+            else:
+                prep = _run_child_args(["--prepare-child", kind, str(n)], kind, n, timeout=1800)
+            print(json.dumps(prep), flush=True)
+            if "error" in prep:
+                continue
+            for solver in solvers:
+                row = _run_child_args(["--solver-child", kind, str(n), solver], kind, n,
+                                      timeout=600)
+                row.setdefault("solver", solver)
+                row["graph_s"] = prep["graph_s"]
+                rows.append(row)
+                print(json.dumps(row), flush=True)
+    _print_solvers(rows)
+
+
+def _print_solvers(rows):
+    print(f"\neigensolvers on one heat affinity, {M} vectors, k={K}, target "
+          f"||A u - theta u|| <= {SOLVER_TOL:g} theta (seconds after the affinity)")
+    print(f"{'case':8s} {'n':>7s} {'solver':24s} {'seconds':>8s} {'ratio':>6s} {'iters':>6s} "
+          f"{'max rel res':>11s} {'lambda_1':>9s} {'min|corr|':>9s} {'peakMB':>7s}")
+    base = {(r["case"], r["n"]): r["seconds"] for r in rows
+            if r.get("solver") == "lenswork" and "error" not in r}
+    for r in rows:
+        if "error" in r:
+            print(f"{r['case']:8s} {r['n']:7d} {r['solver']:24s}  error/timeout: {r['error']}")
+            continue
+        ratio = r["seconds"] / base[(r["case"], r["n"])] if (r["case"], r["n"]) in base else 0
+        print(f"{r['case']:8s} {r['n']:7d} {r['solver']:24s} {r['seconds']:8.2f} {ratio:6.1f} "
+              f"{str(r['iterations']):>6s} {r['max_rel_residual']:11.1e} "
+              f"{r['eigenvalues'][0]:9.2e} {min(r['abs_corr_with_ours']):9.6f} "
+              f"{r['peak_mb']:7.0f}")
+    print("  ratio = seconds / lenswork seconds on the same affinity")
+
+
+def _run_child_args(args, kind, n, timeout):
+    try:
+        out = subprocess.run([sys.executable, __file__, *args], capture_output=True, text=True,
+                             timeout=timeout, check=False)
+    except subprocess.TimeoutExpired:
+        return {"case": kind, "n": n, "error": f"over {timeout} s"}
+    if out.returncode != 0:
+        return {"case": kind, "n": n, "error": out.stderr.strip().splitlines()[-1:]}
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
 def _print_modes(rows):
     print(f"\nexact against sample mode, {M} vectors, k={K}, heat weights "
           f"(seconds; exact = solve after the shared graph; sample = everything)")
@@ -199,7 +396,7 @@ def _versus_sklearn(n, d=20):
     from sklearn.manifold import SpectralEmbedding
 
     from lenswork import laplacian_eigenmaps, neighbor_graph
-    from lenswork.lenses._laplacian import _affinity
+    from lenswork.lenses._affinity import knn_affinity
 
     X = np.random.default_rng(1).normal(size=(n, d))
     start = time.perf_counter()
@@ -213,7 +410,7 @@ def _versus_sklearn(n, d=20):
         ref.fit_transform(X)
     sk_s = time.perf_counter() - start
     # Agreement on the same affinity (ours, precomputed).
-    W, _ = _affinity(neighbor_graph(X, K), "heat")
+    W, _ = knn_affinity(neighbor_graph(X, K), "heat")
     start = time.perf_counter()
     same = SpectralEmbedding(n_components=M, affinity="precomputed", random_state=0)
     theirs = same.fit_transform(W)
@@ -299,11 +496,30 @@ def main(argv=None):
     parser.add_argument("--modes", action="store_true",
                         help="only the exact-against-sample comparison (roll, torus)")
     parser.add_argument("--mode-sizes", nargs="+", type=int, default=[100_000, 200_000])
+    parser.add_argument("--solvers", action="store_true",
+                        help="only the eigensolver comparison (ours, scipy lobpcg, eigsh)")
+    parser.add_argument("--solver-sizes", nargs="+", type=int, default=[10_000, 100_000])
+    parser.add_argument("--solver-names", nargs="+", choices=SOLVERS, default=list(SOLVERS),
+                        help="solvers to run (lenswork first: it is the reference)")
+    parser.add_argument("--reuse", action="store_true",
+                        help="reuse the affinities and our solution saved by an earlier run")
+    parser.add_argument("--prepare-child", nargs=2, help=argparse.SUPPRESS)
+    parser.add_argument("--solver-child", nargs=3, help=argparse.SUPPRESS)
     parser.add_argument("--child", nargs=2, metavar=("CASE", "N"), help=argparse.SUPPRESS)
     parser.add_argument("--modes-child", nargs=2, metavar=("CASE", "N"), help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.child:
         print(json.dumps(_child(args.child[0], int(args.child[1]))))
+        return
+    if args.prepare_child:
+        print(json.dumps(_prepare_child(args.prepare_child[0], int(args.prepare_child[1]))))
+        return
+    if args.solver_child:
+        kind, n, solver = args.solver_child
+        print(json.dumps(_solver_child(kind, int(n), solver)))
+        return
+    if args.solvers:
+        _run_solvers(args.solver_sizes, args.solver_names, args.reuse)
         return
     if args.modes_child:
         print(json.dumps(_modes_child(args.modes_child[0], int(args.modes_child[1]))))

@@ -35,6 +35,8 @@ __all__ = [
     "output_dir",
     "parse_color",
     "split_names",
+    "screen_option_fields",
+    "screen_options",
 ]
 
 
@@ -474,3 +476,63 @@ def graph_options(exclude=()):
         return neighbors_option(wrapper)
 
     return decorator
+
+
+# ---------------------------------------------------------------- screen options
+def screen_option_fields():
+    """The ScreenSettings fields that have a command-line option."""
+    from ..screen import ScreenSettings
+
+    return [f for f in fields(ScreenSettings) if "cli" in f.metadata]
+
+
+def _screen_value(meta, value):
+    """The value a ScreenSettings field gets from its option (None: not given)."""
+    kind = meta["kind"]
+    if kind == "flag":
+        return meta["value"] if value else None
+    if kind == "multiple":
+        if meta["split"]:
+            return tuple(x.strip() for v in value for x in v.split(",") if x.strip())
+        return tuple(value)
+    return value
+
+
+def screen_options(func):
+    """Command-line options generated from :class:`~lenswork.ScreenSettings`.
+
+    One option per field with ``cli`` metadata (flags, help, kind, choices),
+    its default taken from the dataclass. The wrapped command receives
+    ``settings`` (a validated ScreenSettings) instead of the separate options;
+    the command adds what is not a screen setting (``random_state`` comes from
+    ``--seed`` through the Workspace).
+    """
+    from ..screen import ScreenSettings
+
+    chosen = screen_option_fields()
+
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        changes = {}
+        for f in chosen:
+            value = _screen_value(f.metadata["cli"], kwargs.pop(f"screen_{f.name}"))
+            if value is not None and value != f.default:
+                changes[f.name] = value
+        kwargs["settings"] = ScreenSettings(**changes)
+        return func(*args, **kwargs)
+
+    for f in reversed(chosen):
+        meta = f.metadata["cli"]
+        kind, dest = meta["kind"], f"screen_{f.name}"
+        if kind == "flag":
+            option = click.option(*meta["flags"], dest, is_flag=True, help=meta["help"])
+        elif kind == "multiple":
+            option = click.option(*meta["flags"], dest, multiple=True, metavar=meta["metavar"],
+                                  help=meta["help"])
+        else:
+            ctype = {"int": int, "float": float, "text": str}.get(kind) or click.Choice(
+                meta["choices"])
+            option = click.option(*meta["flags"], dest, type=ctype, default=f.default,
+                                  show_default=True, metavar=meta["metavar"], help=meta["help"])
+        wrapper = option(wrapper)
+    return wrapper

@@ -67,11 +67,10 @@ from __future__ import annotations
 
 import math
 import numbers
-from dataclasses import dataclass, field, fields
-from dataclasses import replace as _dc_replace
+from dataclasses import dataclass, field
 
 from .._errors import ParameterError
-from .._validation import check_choice, check_float, check_int
+from .._validation import SettingsRecord, check_choice, check_float, check_int
 from ..workspace import EXACT_MAX_ROWS, METRICS
 from ._cluster import (
     CLUSTERERS,
@@ -287,7 +286,7 @@ def _overlap(name, value):
 
 
 @dataclass(frozen=True)
-class GraphSettings:
+class GraphSettings(SettingsRecord):
     """Every setting of a graph build, validated once (see the module notes).
 
     Parameters
@@ -487,58 +486,14 @@ class GraphSettings:
         """Names of the fields still set to ``"auto"`` (resolved at build time)."""
         return tuple(name for name in AUTO_RULES if _auto(getattr(self, name)))
 
-    def replace(self, **changes):
-        """A copy with ``changes`` applied (and validated again).
-
-        Examples
-        --------
-        >>> [s.intervals for s in (GraphSettings().replace(intervals=n) for n in (6, 10))]
-        [6, 10]
-        """
-        unknown = sorted(set(changes) - set(self.field_names()))
-        if unknown:
-            raise ParameterError(
-                f"GraphSettings has no setting {unknown[0]!r}; the settings are: "
-                f"{', '.join(self.field_names())}."
-            )
-        return _dc_replace(self, **changes)
-
-    @classmethod
-    def field_names(cls):
-        """Names of every setting, in order."""
-        return tuple(f.name for f in fields(cls))
-
-    @classmethod
-    def coerce(cls, settings=None, **overrides):
-        """``settings`` (GraphSettings, dict or None) with ``overrides`` (None values skipped)."""
-        if settings is None:
-            base = cls()
-        elif isinstance(settings, GraphSettings):
-            base = settings
-        elif isinstance(settings, dict):
-            base = cls.from_dict(settings)
-        else:
-            raise ParameterError(
-                f"The 'settings' parameter must be a GraphSettings, a dict of settings or None. "
-                f"Got {type(settings).__name__} instead."
-            )
-        changes = {k: v for k, v in overrides.items() if v is not None}
-        return base.replace(**changes) if changes else base
-
     # ---------------------------------------------------------------- records
-    def to_dict(self):
-        """Every setting as plain JSON values (a cover object as its kind and parameters)."""
-        out = {}
-        for f in fields(self):
-            value = getattr(self, f.name)
-            if f.name == "cover" and isinstance(value, CoverBase):
-                value = {"kind": type(value).kind, **value.get_params()}
-            elif f.name == "clusterer":
-                value = clusterer_name(value)
-            elif isinstance(value, tuple):
-                value = list(value)
-            out[f.name] = value
-        return out
+    def record_value(self, name, value):
+        """One setting as JSON (a cover object as its kind and parameters; see ``to_dict``)."""
+        if name == "cover" and isinstance(value, CoverBase):
+            return {"kind": type(value).kind, **value.get_params()}
+        if name == "clusterer":
+            return clusterer_name(value)
+        return list(value) if isinstance(value, tuple) else value
 
     @classmethod
     def from_dict(cls, doc):
@@ -548,12 +503,7 @@ class GraphSettings:
         rebuilt: pass the estimator again with ``replace(clusterer=...)``.
         """
         doc = dict(doc)
-        unknown = sorted(set(doc) - set(cls.field_names()))
-        if unknown:
-            raise ParameterError(
-                f"GraphSettings has no setting {unknown[0]!r}; the settings are: "
-                f"{', '.join(cls.field_names())}."
-            )
+        cls.check_names(doc)
         cover = doc.get("cover")
         if isinstance(cover, dict):
             params = dict(cover)

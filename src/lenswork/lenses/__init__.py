@@ -15,7 +15,10 @@ module             lenses
 
 ``_registry`` holds the one mapping (validation, dispatch, listing), ``_table``
 the :class:`LensColumn` / :class:`LensTable` objects the registry builds, and
-``_common`` the helpers the families share.
+``_common`` the helpers the families share. The Laplacian lens keeps its edge
+weights in ``_affinity`` and its Nystrom extension and sample mode in
+``_nystrom``; its eigensolver is numerical linear algebra, in
+:mod:`lenswork.linalg`.
 
 Public surface
 --------------

@@ -20,7 +20,7 @@ Estimated against a broadcast seeded uniform sample of ``landmarks`` rows
     ``Q^2 = (1/N) sum_x ||x - q(x)||^2`` (q: nearest landmark; the map x -> q(x)
     is a transport plan from mu to nu), by the stability theorem of Chazal,
     Cohen-Steiner and Mérigot (2011, Theorem 3.5; theorem number from memory); ``laplacian`` -- the
-    landmark solution extended by :func:`lenswork.lenses._extend.nystrom_extend`,
+    landmark solution extended by :func:`lenswork.lenses._nystrom.nystrom_extend`,
     its error measured on held-out landmarks.
 """
 
@@ -36,8 +36,8 @@ from .._io import atomic_path, write_text
 from .._json import dumps
 from .._validation import check_float, check_float_or_choice, check_int
 from ..lenses import get_lens, lens_request
-from ..lenses._extend import nystrom_extend
 from ..lenses._laplacian import laplacian_eigenmaps
+from ..lenses._nystrom import nystrom_extend
 from ._intake import require_dask
 from ._sample import sample_cloud
 

@@ -6,7 +6,8 @@ The drawing functions are imported on first use, so ``import lenswork`` (and
 Graphs
     draw_graph            a LensGraph in the house style (PNG or SVG by the file ending)
 Screening
-    screen_sheet          a ScreenResult as one sheet: a card per lens, the correlation map
+    screen_figure         a ScreenResult as one figure: a card per lens, the correlation map
+    screen_sheet          the same, written to one or more files
     column_multiples      small multiples: the graph coloured by each of several data columns
     contrast_sheet        small multiples of a feature's top columns from a ContrastResult
 Stability and bootstrap
@@ -34,6 +35,7 @@ import importlib
 #: public name -> private module that defines it
 _HOMES = {
     "draw_graph": "_graph",
+    "screen_figure": "_sheet",
     "screen_sheet": "_sheet",
     "column_multiples": "_columns",
     "contrast_sheet": "_columns",

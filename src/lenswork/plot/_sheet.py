@@ -29,7 +29,7 @@ from .._io import atomic_path
 from ..normalize import normalize
 from ._style import ACCENT, CORR_CMAP, GRID, INK, LENS_CMAP, MUTED, PAPER, plt, save, style
 
-__all__ = ["screen_sheet"]
+__all__ = ["screen_figure", "screen_sheet"]
 
 #: Cards per row of the sheet.
 _COLS = 6
@@ -52,7 +52,7 @@ def screen_sheet(result, paths):
     -------
     list of Path
     """
-    fig = _draw(result)
+    fig = screen_figure(result)
     out = []
     for p in paths:
         path = save(fig, p)
@@ -60,6 +60,24 @@ def screen_sheet(result, paths):
             _palette_png(path)
         out.append(path)
     return out
+
+
+def screen_figure(result):
+    """The figure sheet of a :class:`~lenswork.ScreenResult` as a matplotlib Figure.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from lenswork import LensColumn, LensTable, PointCloud, screen
+    >>> cloud = PointCloud.from_array(np.random.default_rng(0).normal(size=(200, 2)))
+    >>> table = LensTable([LensColumn("a", cloud.X[:, 0]), LensColumn("b", cloud.X[:, 1])],
+    ...                   cloud)
+    >>> fig = screen_figure(screen(table, count=1, probe=False))
+    >>> len(fig.axes) > 2
+    True
+    >>> plt.close(fig)
+    """
+    return _draw(result)
 
 
 def _palette_png(path):

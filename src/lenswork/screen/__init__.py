@@ -24,6 +24,8 @@ Selection (``_select``)
     DEFAULT_WEIGHTS
 Candidates (``_candidates``)
     default_candidates
+Settings (``_settings``)
+    ScreenSettings   every setting of the screen, validated once; the CLI options follow it
 Sample screen (``_confirm``)
     SampledScreenResult, plan_sample   rank on a seeded sample, confirm the choice on all rows
 Probe columns in the ranking (``_result``)
@@ -75,6 +77,7 @@ from ._select import (
     select_lenses,
     weighted_merit,
 )
+from ._settings import ScreenSettings
 from ._spread import SpreadScore, histogram_entropy, spread_score
 
 __all__ = [
@@ -84,6 +87,7 @@ __all__ = [
     "PROBE_SCORES",
     "SampledScreenResult",
     "ScreenResult",
+    "ScreenSettings",
     "Selection",
     "SpreadScore",
     "default_candidates",

@@ -9,6 +9,7 @@ that cannot be computed on the data at hand.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -18,7 +19,13 @@ from ..data import PointCloud
 from ..lenses import get_lens, lens_names, lens_request
 from ..workspace import Workspace
 
-__all__ = ["compute_candidates", "default_candidates", "parse_spec"]
+__all__ = [
+    "Candidate",
+    "candidate_columns",
+    "compute_candidates",
+    "default_candidates",
+    "parse_spec",
+]
 
 
 def _scott_scale(X):
@@ -145,10 +152,13 @@ def parse_spec(item):
 def compute_candidates(ws, specs, *, strict):
     """Compute lens columns; with ``strict=False`` a failing lens warns and is skipped.
 
-    Returns the columns (a column asked twice is kept once) and, for each
-    skipped lens, ``{"lens": label, "reason": text}``.
+    Returns the columns (a column asked twice is kept once); for each skipped
+    lens, ``{"lens": label, "reason": text}``; and for each column where it
+    came from, ``(spec index, part index)``: the position of its spec in
+    ``specs`` and its position among that lens call's columns (so a later
+    step can compute the same column again without working it out backwards).
     """
-    columns, skipped, seen = [], [], set()
+    columns, skipped, origins, seen = [], [], [], set()
     known = set(lens_names())
     for i, (name, params) in enumerate(specs, 1):
         label = _spec_label(name, params)
@@ -170,9 +180,70 @@ def compute_candidates(ws, specs, *, strict):
                 f"Default lens {label!r} was skipped: {err}"
             )
             continue
-        for col in cols:
+        for part, col in enumerate(cols):
             if col.name in seen:  # the same column asked twice (e.g. a default repeated)
                 continue
             seen.add(col.name)
             columns.append(col)
-    return columns, skipped
+            origins.append((i - 1, part))
+    return columns, skipped, origins
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """Where one candidate column came from, carried forward to the confirmation.
+
+    Attributes
+    ----------
+    lens : str
+        Registry name of the lens that computed the column.
+    params : dict
+        The spec's parameters as given (default candidates: as
+        :func:`default_candidates` gave them for the screened rows).
+    part : int
+        Position of the column among the columns of that lens call.
+    default_index : int or None
+        Position in :func:`default_candidates` for a default candidate (its
+        parameters follow the row count: the confirmation on all rows asks
+        the same rule again), None for a lens given by the caller.
+    """
+
+    lens: str
+    params: dict = field(default_factory=dict)
+    part: int = 0
+    default_index: object = None
+
+
+def candidate_columns(ws, lenses=None, extra=()):
+    """The candidate columns of a screen on ``ws``, and where each came from.
+
+    Parameters
+    ----------
+    ws : Workspace
+    lenses : list of specs, optional
+        None: the default candidates (a lens that fails warns and is skipped).
+    extra : list of specs, default=()
+        Added to the candidates; their errors are raised.
+
+    Returns
+    -------
+    columns : list of LensColumn
+        Defaults first; a given column with the name of a default one is kept once.
+    skipped : list of dict
+        The default lenses that could not be computed (``compute_candidates``).
+    origins : dict of str -> Candidate
+        Per column name.
+    """
+    specs_default = default_candidates(ws) if lenses is None else []
+    specs_given = [parse_spec(s) for s in [*(lenses or []), *extra]]
+    cols_d, skipped, orig_d = compute_candidates(ws, specs_default, strict=False)
+    cols_g, _, orig_g = compute_candidates(ws, specs_given, strict=True)
+    origins = {}
+    for col, (i, part) in zip(cols_d, orig_d, strict=True):
+        origins[col.name] = Candidate(specs_default[i][0], dict(specs_default[i][1]), part, i)
+    columns = list(cols_d)
+    for col, (i, part) in zip(cols_g, orig_g, strict=True):
+        if col.name not in origins:
+            origins[col.name] = Candidate(specs_given[i][0], dict(specs_given[i][1]), part)
+            columns.append(col)
+    return columns, skipped, origins

@@ -59,14 +59,15 @@ import warnings
 import numpy as np
 
 from .. import _progress
-from .._errors import LensworkWarning, ParameterError, warn_caller
-from .._validation import check_int, seed_of
+from .._errors import LensworkWarning, warn_caller
+from .._validation import seed_of
 from ..criteria import robust_spread_sorted
 from ..lenses import LensTable, get_lens
 from ..workspace import Workspace
-from ._candidates import default_candidates, parse_spec
+from ._candidates import default_candidates
 from ._redundancy import corr_from_unit, unit_row
 from ._result import ScreenResult
+from ._settings import check_sample
 from ._spread import rank_sorted, spread_from_sorted
 
 __all__ = [
@@ -86,8 +87,6 @@ __all__ = [
 SAMPLE_ALL_MAX = 50_000
 #: Rows of the seeded sample above :data:`SAMPLE_ALL_MAX`.
 SAMPLE_SIZE = 20_000
-#: Fewest rows an integer ``sample`` may ask for.
-MIN_SAMPLE = 100
 #: Bootstrap resamples of the spread scores.
 BOOTSTRAP = 30
 #: Warn when a chosen lens's |Spearman rho| between sample and full run is below this.
@@ -112,26 +111,6 @@ class SamplePlan:
     @property
     def size(self):
         return int(self.rows.shape[0])
-
-
-def _check_sample(sample):
-    if sample is None or (isinstance(sample, str) and sample.strip().lower() in ("all", "auto")):
-        return "all" if sample is None else sample.strip().lower()
-    if isinstance(sample, str):
-        try:
-            sample = int(float(sample.strip())) if sample.strip() else None
-        except ValueError:
-            sample = None
-        if sample is None:
-            raise ParameterError(
-                "sample must be 'auto', 'all' or a number of rows (e.g. 20000); got "
-                "a string that is none of these."
-            )
-    if isinstance(sample, (bool, np.bool_)) or not isinstance(sample, (int, np.integer)):
-        raise ParameterError(
-            f"sample must be 'auto', 'all' or a number of rows (e.g. 20000); got {sample!r}."
-        )
-    return check_int("sample", sample, lo=MIN_SAMPLE, context="screen")
 
 
 def sample_rows(n, size, random_state=0):
@@ -196,7 +175,7 @@ def plan_sample(ws, sample="auto"):
     >>> plan_sample(ws, "all") is None, plan_sample(Workspace(np.eye(5))) is None
     (True, True)
     """
-    sample = _check_sample(sample)
+    sample = check_sample(sample)
     n = ws.n
     if sample == "all":
         return None
@@ -349,36 +328,20 @@ def _error_text(info):
     return ""
 
 
-def _spec_of(column, specs):
-    """Index in ``specs`` of the candidate that produced ``column`` (None if not found)."""
-    for i, (name, params) in enumerate(specs):
-        if name != column.lens:
-            continue
-        try:
-            resolved = get_lens(name).resolve(params)
-        except Exception:  # a spec that does not resolve cannot match
-            continue
-        if resolved == column.params or _plain_equal(resolved, column.params):
-            return i
-    return None
+def full_spec(candidate, ws, plan):
+    """``(name, params)`` that computes a sample screen's candidate on all rows of ``ws``.
 
-
-def _plain_equal(a, b):
-    from .._json import plain
-
-    return plain(a) == plain(b)
-
-
-def _full_spec(column, plan, defaults_sample, defaults_full, given):
-    """(name, params) to compute ``column``'s lens on all rows, and where it came from."""
-    i = _spec_of(column, defaults_sample) if defaults_sample else None
-    if i is not None and i < len(defaults_full) and defaults_full[i][0] == column.lens:
-        name, params = defaults_full[i]
-        params = dict(params)
-    else:
-        j = _spec_of(column, given)
-        name, params = (given[j] if j is not None else (column.lens, dict(column.params)))
-        params = dict(params)
+    A default candidate asks :func:`default_candidates` again at the full row
+    count (its parameters follow n); a lens given by the caller keeps its
+    parameters. The Laplacian lens in ``mode="auto"`` runs in its sample mode
+    with at most as many landmarks as the screen's sample (module notes).
+    """
+    name, params = candidate.lens, dict(candidate.params)
+    i = candidate.default_index
+    if i is not None:
+        defaults = default_candidates(ws)
+        if i < len(defaults) and defaults[i][0] == name:
+            params = dict(defaults[i][1])
     if name == "laplacian":
         resolved = get_lens(name).resolve(params)
         if resolved["mode"] == "auto":
@@ -387,13 +350,7 @@ def _full_spec(column, plan, defaults_sample, defaults_full, given):
     return name, params
 
 
-def _part_index(column, table):
-    """Position of ``column`` among the columns of its lens call in ``table``."""
-    same = [c.name for c in table.columns if c.lens == column.lens and c.params == column.params]
-    return same.index(column.name) if column.name in same else 0
-
-
-def confirm_selection(result, ws, plan, *, lenses=None, extra=(), resamples=BOOTSTRAP):
+def confirm_selection(result, ws, plan, origins, *, resamples=BOOTSTRAP):
     """Compute the sample screen's chosen lenses on all rows and check them.
 
     Parameters
@@ -404,8 +361,9 @@ def confirm_selection(result, ws, plan, *, lenses=None, extra=(), resamples=BOOT
         All rows.
     plan : SamplePlan
         From :func:`plan_sample`.
-    lenses, extra : as given to :func:`lenswork.screen`
-        ``lenses=None`` means the default candidates were screened.
+    origins : dict of str -> Candidate
+        Where each screened column came from (its spec and part), as
+        :func:`~lenswork.screen._candidates.candidate_columns` gives it.
     resamples : int, default=30
         Bootstrap resamples of the spread scores.
 
@@ -424,7 +382,6 @@ def confirm_selection(result, ws, plan, *, lenses=None, extra=(), resamples=BOOT
     >>> all(abs(r["spearman"]) > 0.99 for r in res.confirmation.lenses)
     True
     """
-    sub = plan.workspace
     robust = np.zeros((resamples, len(result.lenses)))
     reps = spread_bootstrap(result.lenses, result.bins, resamples=resamples,
                             random_state=plan.seed, robust=robust)
@@ -437,19 +394,17 @@ def confirm_selection(result, ws, plan, *, lenses=None, extra=(), resamples=BOOT
             alt = result.rescore(scores={"spread": np.clip(reps[r], 0.0, 1.0),
                                          "robust_spread": np.clip(robust[r], 0.0, 1.0)})
             same += alt.selected == result.selected
-    defaults_sample = default_candidates(sub) if lenses is None else []
-    defaults_full = default_candidates(ws) if lenses is None else []
-    given = [parse_spec(s) for s in [*(lenses or []), *extra]]
     records, columns = [], []
     for name in result.selected:
         col = result.lenses[name]
-        lens, params = _full_spec(col, plan, defaults_sample, defaults_full, given)
+        origin = origins[name]
+        lens, params = full_spec(origin, ws, plan)
         label = lens + (":" + ",".join(f"{k}={v}" for k, v in params.items()) if params else "")
         start = time.perf_counter()
         with _progress.step(f"confirming {name} on all {ws.n:,} rows: {label}"):
             cols = get_lens(lens)(ws, **params)
         secs = time.perf_counter() - start
-        full = cols[min(_part_index(col, result.lenses), len(cols) - 1)]
+        full = cols[min(origin.part, len(cols) - 1)]
         # the column keeps the name it was ranked under (its params record how it was computed)
         full = dataclasses.replace(full, name=name)
         rho = spearman_pair(col.values, full.values[plan.rows])
@@ -500,7 +455,12 @@ class SampledScreenResult(ScreenResult):
     """
 
     def __init__(self, result, confirmation):
-        self.__dict__.update(result.__dict__)
+        # the sample's result, rebuilt from its constructor arguments with its selection
+        # and its computed pieces (the probe, the figure's embedding, R_NX per candidate)
+        super().__init__(**result._state(), selection=result.selection)
+        self.probe = result.probe
+        self._embedding = result._embedding
+        self._pres = result._pres
         self.confirmation = confirmation
 
     def to_lens_table(self):

@@ -112,7 +112,8 @@ class ScreenResult:
 
     def __init__(self, lenses, scores, correlation, *, usable, weights, count, ceiling, bins,
                  reference_names=(), reference_correlation=None, skipped=(), status=None,
-                 pairing="greedy", preservation=None, defer=False):
+                 pairing="greedy", preservation=None, defer=False, selection=None,
+                 settings=None):
         self.lenses = lenses
         self.names = lenses.names
         self.scores = {k: np.asarray(v, dtype=np.float64) for k, v in scores.items()}
@@ -140,7 +141,10 @@ class ScreenResult:
             pairing = "greedy"  # too few rows for a neighbour graph of the cover space
         self.pairing = pairing
         self._preservation = preservation
-        if defer:  # the probe's scores come next: select once they are in
+        self.settings = settings  # the ScreenSettings of the screen (None when built by hand)
+        if selection is not None:  # already made (a result re-wrapped with the same state)
+            self.selection = selection
+        elif defer:  # the probe's scores come next: select once they are in
             self.selection = Selection((), (), "candidates")
         elif pairing == "preservation":
             self.selection = select_by_preservation(
@@ -205,20 +209,33 @@ class ScreenResult:
                     f"values in [{finite.min():.3g}, {finite.max():.3g}]. Rescale it first."
                 )
             new_scores[name] = v
-        out = ScreenResult(
-            self.lenses, new_scores, self.correlation, usable=self.usable,
-            weights=self.weights if weights is None else weights,
-            count=self.count if count is None else check_int("count", count, lo=1,
-                                                              context="rescore"),
-            ceiling=self.ceiling if ceiling is None else check_float(
-                "ceiling", ceiling, lo=0, hi=1, lo_open=True, context="rescore"),
-            bins=self.bins, reference_names=self.reference_names,
-            reference_correlation=self.reference_correlation, skipped=self.skipped,
-            status=self.status, pairing=self.pairing, preservation=self._preservation,
-        )
+        state = self._state()
+        changes = {}
+        if weights is not None:
+            state["weights"] = changes["weights"] = weights
+        if count is not None:
+            state["count"] = changes["count"] = check_int("count", count, lo=1,
+                                                          context="rescore")
+        if ceiling is not None:
+            state["ceiling"] = changes["ceiling"] = check_float(
+                "ceiling", ceiling, lo=0, hi=1, lo_open=True, context="rescore")
+        if changes and self.settings is not None:
+            state["settings"] = self.settings.replace(**changes)
+        out = ScreenResult(**dict(state, scores=new_scores))
         out._embedding = self._embedding
         out.probe = self.probe
         return out
+
+    def _state(self):
+        """The constructor arguments that rebuild this result (selection made again)."""
+        return {
+            "lenses": self.lenses, "scores": self.scores, "correlation": self.correlation,
+            "usable": self.usable, "weights": self.weights, "count": self.count,
+            "ceiling": self.ceiling, "bins": self.bins, "reference_names": self.reference_names,
+            "reference_correlation": self.reference_correlation, "skipped": self.skipped,
+            "status": self.status, "pairing": self.pairing, "preservation": self._preservation,
+            "settings": self.settings,
+        }
 
     @property
     def cloud(self):
@@ -398,6 +415,7 @@ class ScreenResult:
                 "columns": self.names, "references": self.reference_names,
                 "spearman": self.reference_correlation.tolist(),
             },
+            "screen_settings": None if self.settings is None else self.settings.to_dict(),
             "skipped_lenses": self.skipped,
             "input": self.cloud.provenance,
             "n_rows_used": int(self.cloud.n),
@@ -548,6 +566,26 @@ class ScreenResult:
         lines = [line(header), line(["-" * w for w in widths])]
         lines += [line(b) for b in body]
         return "\n".join(lines)
+
+    def text(self):
+        """The ranking table and the summary: what ``lenswork screen`` prints.
+
+        Examples
+        --------
+        >>> import numpy as np
+        >>> from lenswork import LensColumn, LensTable, PointCloud, screen
+        >>> cloud = PointCloud.from_array(np.random.default_rng(0).normal(size=(100, 2)))
+        >>> table = LensTable([LensColumn("a", cloud.X[:, 0])], cloud)
+        >>> screen(table, count=1, probe=False).text().splitlines()[-1]
+        'Selected: a (stopped: count 1 reached; ceiling 0.80).'
+        """
+        return self.format_table() + "\n\n" + self.summary()
+
+    def figure(self):
+        """The figure sheet (a matplotlib Figure; :func:`lenswork.plot.screen_figure`)."""
+        from ..plot import screen_figure  # matplotlib on demand only
+
+        return screen_figure(self)
 
     def summary(self):
         """Two lines: what was screened, what was kept and why it stopped."""

@@ -29,7 +29,6 @@ import numpy as np
 
 from .. import _progress
 from .._errors import InputError, ParameterError, warn_caller
-from .._validation import check_choice, check_float, check_int
 from ..criteria import (
     RobustSpread,
     heat_kernel_affinity,
@@ -39,14 +38,15 @@ from ..criteria import (
     unit_rank_criteria,
 )
 from ..data import load_table
-from ..lenses import LensTable, get_lens
+from ..lenses import LensTable
 from ..probe import structure_scores
 from ..workspace import Workspace
-from ._candidates import compute_candidates, default_candidates, parse_spec
+from ._candidates import candidate_columns
 from ._confirm import confirm_selection, plan_sample
 from ._redundancy import corr_from_unit, reference_correlations, unit_row
 from ._result import PROBE_SCORES, ScreenResult
-from ._select import DEFAULT_WEIGHTS, NO_PROBE_WEIGHTS, PAIRINGS, PairPreservation
+from ._select import DEFAULT_WEIGHTS, NO_PROBE_WEIGHTS, PairPreservation
+from ._settings import ScreenSettings
 from ._spread import non_finite_score, rank_sorted, spread_from_sorted, status_text
 
 __all__ = ["screen"]
@@ -119,8 +119,7 @@ def _preservation(table, ws, random_state):
 
 
 
-def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), bins=20,
-           weights=None, probe=True, pairing="preservation", random_state=None, sample="auto"):
+def screen(data, settings=None, **overrides):
     """Compute candidate lenses, score them, and select the few that keep the neighbours.
 
     Parameters
@@ -130,51 +129,20 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
         candidates, nothing is computed); a DataFrame is read with
         :func:`~lenswork.load_table` (numeric columns are features, the others
         passthrough).
-    lenses : list of str or (str, dict), optional
-        Candidate lenses (registry names or specs like ``"dtm:mass=0.05"``).
-        Default: :func:`default_candidates`, where a lens that cannot be
-        computed on this data warns and is skipped.
-    extra : list of str or (str, dict), default=()
-        Lenses added to the candidates; errors in these are raised.
-    count : int, default=2
-        Lenses to select at most (two lenses give the usual 2-D cover).
-    ceiling : float in (0, 1], default=0.8
-        Never select two lenses with ``|rho|`` above this (at 0.8 two
-        orderings share 64 % of their rank variance).
-    references : list of str or dict of str -> array-like, default=()
-        Reference columns: names of feature or passthrough columns of the
-        PointCloud, or arrays (one value per row). NaN / empty values are left
-        out pairwise.
-    bins : int, default=20
-        Histogram bins of the (histogram-entropy) ``spread`` diagnosis column.
-    weights : dict of str -> float, optional
-        Score columns in the merit, a weighted geometric mean (default
-        ``{"robust_spread": 1, "smoothness": 1, "structure": 1}`` with the
-        probe, ``{"robust_spread": 1, "smoothness": 1}`` without; see
-        :mod:`lenswork.screen._select` for what each rewards). Any score column
-        of the table may be named, e.g. ``{"spread": 1}`` for the histogram
-        entropy alone.
-    probe : bool, default=True
-        Run the structure probe (:func:`lenswork.probe.structure_scores`): build
-        each usable candidate's graph over a small grid of covers on the shared
-        neighbour graph and add the scores ``structure``, ``significance``,
-        ``coherence`` (and the count-based ``count_structure``, ``revealed``,
-        ``stability``) and the feature counts to the table.
-    pairing : {"preservation", "greedy"}, default="preservation"
-        How the set is picked from the merits: the pair (set) with the largest
-        neighbour preservation ``R_NX`` times the merits' geometric mean under
-        the ceiling, or the greedy ``merit * (1 - max |rho|)`` rule.
-    random_state : int, optional
-        Seed of the lenses (default: the workspace's, or 0).
-    sample : "auto", "all" or int, default="auto"
-        Rows the candidates are ranked on (:mod:`lenswork.screen._confirm`):
-        ``"auto"`` screens every row up to 50,000 rows, else a seeded sample
-        of 20,000; an integer screens that many; ``"all"`` every row. On a
-        sample, only the chosen lenses are then computed on all rows, with
-        Spearman's rho of the sample run against the full run on the sample
-        rows, and the bootstrap error of the spread scores (the result is a
-        ``SampledScreenResult``). Ignored for a LensTable unless ``"all"``
-        or ``"auto"``.
+    settings : ScreenSettings or dict, optional
+        Every setting of the screen (:class:`~lenswork.ScreenSettings`: the
+        candidates ``lenses`` and ``extra``, ``count``, ``ceiling``,
+        ``references``, ``bins``, ``weights``, ``probe``, ``pairing``,
+        ``sample``, ``random_state``; its docstring describes each).
+    **overrides
+        Any of those settings by keyword, applied over ``settings``
+        (``screen(X, count=3)`` is ``screen(X, ScreenSettings(count=3))``).
+
+    On a sample (``sample``), the screen is a pipeline: the candidates are
+    computed and ranked on a seeded sample of rows, each column carrying the
+    spec it was computed from (:class:`~lenswork.screen._candidates.Candidate`);
+    the chosen ones are then computed again on all rows from those specs and
+    checked against the sample run (:mod:`lenswork.screen._confirm`).
 
     Returns
     -------
@@ -225,62 +193,62 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
     >>> round(float(result.correlation[0, 1]), 6)
     1.0
     """
-    count = check_int("count", count, lo=1, context="screen")
-    ceiling = check_float("ceiling", ceiling, lo=0, hi=1, lo_open=True, context="screen")
-    bins = check_int("bins", bins, lo=2, context="screen")
-    pairing = check_choice("pairing", pairing, PAIRINGS, context="screen")
-    skipped = []
+    s = ScreenSettings.coerce(settings, **overrides)
     if isinstance(data, LensTable):
-        if lenses is not None or extra:
+        if s.lenses is not None or s.extra:
             raise ParameterError(
                 "screen got a LensTable and lens specs; a LensTable is screened as it is. "
                 "Pass the PointCloud or Workspace to compute lenses."
             )
-        table = data
-        if sample not in ("auto", "all", None):
+        if s.sample not in ("auto", "all"):
             raise ParameterError(
                 "screen got a LensTable and sample=...; a LensTable is screened as it is. "
                 "Pass the PointCloud or Workspace to screen on a sample."
             )
-        if random_state is not None and random_state != table.random_state:
-            table = LensTable(table.columns, table.cloud, random_state=random_state)
-        refs = _collect_references(table.cloud, references)
-        ws = None
-    else:
-        if isinstance(data, Workspace):
-            ws = data
-            if random_state is not None and random_state != ws.random_state:
-                raise ParameterError(
-                    f"screen got random_state={random_state!r} and a Workspace with "
-                    f"random_state={ws.random_state!r}; expected one seed. Drop random_state "
-                    f"or build the Workspace with it."
-                )
-        else:
-            if hasattr(data, "columns") and not isinstance(data, np.ndarray):  # a DataFrame
-                data = load_table(data)
-            ws = Workspace(data, random_state=0 if random_state is None else random_state)
-        if ws.n < 3:
-            raise InputError(f"A screen needs at least 3 rows; the data has {ws.n}.")
-        refs = _collect_references(ws.cloud, references)  # check them before the lenses
-        plan = plan_sample(ws, sample)
-        if plan is not None:  # rank on a seeded sample, then confirm the choice on all rows
-            with _progress.step(f"screen on a sample of {plan.size:,} of {ws.n:,} rows"):
-                inner = screen(
-                    plan.workspace, lenses, extra=extra, count=count, ceiling=ceiling,
-                    references={k: v[plan.rows] for k, v in refs.items()}, bins=bins,
-                    weights=weights, probe=probe, pairing=pairing, sample="all",
-                )
-            return confirm_selection(inner, ws, plan, lenses=lenses, extra=extra)
-        specs_default = default_candidates(ws) if lenses is None else []
-        specs_given = [parse_spec(s) for s in (lenses or [])]
-        specs_extra = [parse_spec(s) for s in extra]
-        for name, params in specs_given + specs_extra:  # unknown names / bad values: fail fast
-            get_lens(name).resolve(params)
-        cols_d, skipped = compute_candidates(ws, specs_default, strict=False)
-        cols_g, _ = compute_candidates(ws, specs_given + specs_extra, strict=True)
-        seen = {c.name for c in cols_d}
-        columns = cols_d + [c for c in cols_g if c.name not in seen]
+        table = data
+        if s.random_state is not None and s.random_state != table.random_state:
+            table = LensTable(table.columns, table.cloud, random_state=s.random_state)
+        refs = _collect_references(table.cloud, s.references)
+        return _rank(table, s, None, refs, [])
+    ws = _workspace(data, s.random_state)
+    refs = _collect_references(ws.cloud, s.references)  # check them before the lenses
+    plan = plan_sample(ws, s.sample)
+    if plan is None:
+        columns, skipped, _ = candidate_columns(ws, s.lenses, s.extra)
         table = LensTable(columns, ws.cloud, random_state=ws.random_state)
+        return _rank(table, s, ws, refs, skipped)
+    # sample -> screen -> confirm, each column's spec carried forward
+    sub = plan.workspace
+    with _progress.step(f"screen on a sample of {plan.size:,} of {ws.n:,} rows"):
+        columns, skipped, origins = candidate_columns(sub, s.lenses, s.extra)
+        table = LensTable(columns, sub.cloud, random_state=sub.random_state)
+        ranked = _rank(table, s, sub, {k: v[plan.rows] for k, v in refs.items()}, skipped)
+    return confirm_selection(ranked, ws, plan, origins)
+
+
+def _workspace(data, random_state):
+    """The Workspace of ``data`` (a Workspace must carry the same seed), at least 3 rows."""
+    if isinstance(data, Workspace):
+        ws = data
+        if random_state is not None and random_state != ws.random_state:
+            raise ParameterError(
+                f"screen got random_state={random_state!r} and a Workspace with "
+                f"random_state={ws.random_state!r}; expected one seed. Drop random_state "
+                f"or build the Workspace with it."
+            )
+    else:
+        if hasattr(data, "columns") and not isinstance(data, np.ndarray):  # a DataFrame
+            data = load_table(data)
+        ws = Workspace(data, random_state=0 if random_state is None else random_state)
+    if ws.n < 3:
+        raise InputError(f"A screen needs at least 3 rows; the data has {ws.n}.")
+    return ws
+
+
+def _rank(table, settings, ws, refs, skipped):
+    """Score, correlate and select the columns of ``table`` under ``settings``."""
+    count, bins, probe = settings.count, settings.bins, settings.probe
+    weights, pairing = settings.weights, settings.pairing
     cloud = table.cloud
     if cloud.n < 3:
         raise InputError(f"A screen needs at least 3 rows; the data has {cloud.n}.")
@@ -329,14 +297,15 @@ def screen(data, lenses=None, *, extra=(), count=2, ceiling=0.8, references=(), 
         result = ScreenResult(
             table, scores, corr, usable=usable,
             weights=NO_PROBE_WEIGHTS if probe or weights is None else weights,
-            count=count, ceiling=ceiling, bins=bins, reference_names=list(refs),
+            count=count, ceiling=settings.ceiling, bins=bins, reference_names=list(refs),
             reference_correlation=ref_corr, skipped=skipped, status=status,
-            pairing=pairing, preservation=preservation, defer=probe,
+            pairing=pairing, preservation=preservation, defer=probe, settings=settings,
         )
     if probe and usable.any():
         result = _with_structure(result, ws, weights)
     elif probe:
         result = result.rescore(weights=weights or NO_PROBE_WEIGHTS)
+    result.settings = settings  # as the screen was called (the rescores above fill in weights)
     if n_ok and not result.selected:
         zero = [k for k in result.weights if not np.any(np.nan_to_num(result.scores[k]) > 0)]
         why = (f"every candidate has {' and '.join(zero)} 0" if zero else
@@ -371,8 +340,6 @@ def _with_structure(result, ws, weights):
 
 
 def _collect_references(cloud, references):
-    if isinstance(references, str):
-        references = [r.strip() for r in references.split(",") if r.strip()]
     out = {}
     if isinstance(references, dict):
         for name, vals in references.items():
