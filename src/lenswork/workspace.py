@@ -496,13 +496,15 @@ def _positions(dup):
 
 
 def expand_distinct(points_graph, dup, k):
-    """Row graph of distinct locations: a ring link to the next copy, then other points.
+    """Row graph of distinct locations: one link to the point's own first row, then other points.
 
-    A row whose point holds c >= 2 rows lists the next of those rows (cyclically, distance
-    0: the copies stay one piece) and then its point's k - 1 nearest other points; any other
-    row lists its point's k nearest other points. A neighbouring point of several rows is
-    represented by its copies in turn (row number within the group modulo the point's
-    count), so the links into a point are shared among its rows.
+    Each point is stood for by its first row. A row whose point holds c >= 2 rows lists
+    first the point's first row (the first row itself lists the second; distance 0: the
+    copies form a star and stay one piece) and then its point's k - 1 nearest other
+    points; any other row lists its point's k nearest other points. So the copies of a
+    point are linked alike to the same neighbours (the later copies are interchangeable,
+    and a point is linked from every row of the points that list it: its weight), and no
+    row's k neighbours are all copies of one point.
 
     Examples
     --------
@@ -510,15 +512,14 @@ def expand_distinct(points_graph, dup, k):
     >>> dup = DuplicateRows.of(X)
     >>> g = expand_distinct(neighbor_graph(X[dup.first], k=2), dup, 2)
     >>> g.indices.tolist(), g.distances[:, 0].tolist()
-    ([[1, 3], [2, 3], [0, 3], [0, 4], [3, 0]], [0.0, 0.0, 0.0, 1.0, 2.0])
+    ([[1, 3], [0, 3], [0, 3], [0, 4], [3, 0]], [0.0, 0.0, 0.0, 1.0, 2.0])
     """
     order, start, pos = _positions(dup)
     u = dup.inverse
     n = u.size
     ring = dup.counts[u] > 1
-    pts = points_graph.indices[u, :k]
+    rows = dup.first[points_graph.indices[u, :k]]
     dist = points_graph.distances[u, :k]
-    rows = order[start[pts] + pos[:, None] % dup.counts[pts]]
     idx = np.empty((n, k), dtype=np.int64)
     out = np.empty((n, k))
     plain = ~ring
@@ -526,11 +527,11 @@ def expand_distinct(points_graph, dup, k):
     if ring.any():
         r = np.flatnonzero(ring)
         ur = u[r]
-        idx[r, 0] = order[start[ur] + (pos[r] + 1) % dup.counts[ur]]
+        idx[r, 0] = np.where(pos[r] == 0, order[start[ur] + 1], dup.first[ur])
         out[r, 0] = 0.0
         idx[r, 1:], out[r, 1:] = rows[r, : k - 1], dist[r, : k - 1]
     info = dict(points_graph.info, duplicates=dup.to_dict(), rows="distinct points",
-                rule="ring link to the next copy, then the point's nearest other points")
+                rule="a link to the point's first row, then the point's nearest other points")
     return NeighborGraph(idx, out, k, points_graph.metric, points_graph.method, info)
 
 
@@ -704,7 +705,7 @@ class Workspace:
             Only matters when rows repeat exactly (:attr:`duplicates`). The search then
             runs once on the distinct points, and the row graph is expanded from it:
             by default to distinct locations (each row's k neighbours are other points,
-            plus one link to the next copy of its own point; :func:`expand_distinct`:
+            plus one link to its own point's first row; :func:`expand_distinct`:
             what the Laplacian, the smoothness criterion and the clustering read, so
             copies neither crowd out the neighbours nor cut the graph into cliques);
             with ``mass=True`` to the weighted points (copies counted, the k nearest
@@ -715,7 +716,8 @@ class Workspace:
         --------
         >>> X = np.r_[np.zeros((20, 1)), np.arange(1.0, 21.0)[:, None]]
         >>> ws = Workspace(X)
-        >>> float(ws.neighbors(5).distances[0, 1]), float(ws.neighbors(5, mass=True).distances[0, 1])
+        >>> distinct, weighted = ws.neighbors(5), ws.neighbors(5, mass=True)
+        >>> float(distinct.distances[0, 1]), float(weighted.distances[0, 1])
         (1.0, 0.0)
         """
         k = check_int("k", k, lo=1, context="Workspace.neighbors")
@@ -768,7 +770,8 @@ class Workspace:
         k = min(check_int("k", k, lo=1, context="Workspace.pieces"), self.n - 1)
 
         def compute():
-            count, labels = connected_components(self.neighbors(k, metric).to_sparse(),
+            g = self.neighbors(k, metric)  # unit weights: a 0-distance link is a link
+            count, labels = connected_components(g.to_sparse(np.ones(g.indices.shape)),
                                                  directed=False)
             sizes = np.bincount(labels, minlength=count)
             order = np.argsort(-sizes, kind="stable")
