@@ -150,12 +150,18 @@ def test_rank_ties_are_averaged_as_in_scipy():
                     atol=1e-12)
 
 
-def test_support_is_the_fewest_rows_carrying_half_the_variation():
+def test_support_is_the_fewest_rows_carrying_half_the_rank_variation():
     rng = np.random.default_rng(12)
-    for v in (rng.normal(size=500), rng.exponential(size=300), np.r_[np.zeros(400), 1, 2, 9]):
-        dev = np.sort((v - np.median(v)) ** 2)[::-1]  # brute force: largest first
-        need = int(np.argmax(np.cumsum(dev) >= 0.5 * dev.sum())) + 1
+    for v in (rng.normal(size=500), rng.poisson(0.4, size=300).astype(float),
+              np.r_[np.zeros(400), 1, 2, 9]):
+        # brute force: scipy's average ranks, squared deviations from their median, largest
+        # first, the fewest rows reaching half of the sum
+        r = scipy.stats.rankdata(v, method="average")
+        dev = np.sort((r - np.median(r)) ** 2)[::-1]
+        need = int(np.argmax(np.cumsum(dev) >= 0.5 * dev.sum() - 1e-9)) + 1
         assert robust_spread(v).support == need
+        # on ranks: any monotone map has the same support
+        assert robust_spread(np.exp(v)).support == need
     # two equal groups: every row is as far from the median, half the variation is half the rows
     assert robust_spread(np.r_[np.zeros(100), np.ones(100)]).support == 100
 

@@ -327,11 +327,12 @@ def support_factor(support, k=15):
     """How far the Laplacian score can speak for a lens carried by ``support`` rows.
 
     The Laplacian score compares each row with its ``k`` neighbours. A lens with
-    half of its variation on fewer rows than one neighbourhood describes at most
-    one neighbourhood, and a low score then says that this neighbourhood differs
-    from the rest (a handful of points the graph links weakly: the localised
-    eigenvectors of a graph with near-duplicate clusters, a few far rows), not
-    that the lens follows the data's neighbours. The factor is
+    half of its variation (on the rank scale) on fewer rows than one
+    neighbourhood describes at most one neighbourhood, and a low score then says
+    that this neighbourhood differs from the rest (a Laplacian vector that is
+    constant but on a few weakly linked points, a count that is 0 but on a
+    handful of rows), not that the lens follows the data's neighbours. The
+    factor is
     ``min(1, support / k)``, and 0 at or below a handful, ``support <= k / 3``
     (:data:`HANDFUL`): such a lens cannot be chosen.
 
@@ -410,10 +411,12 @@ class RobustSpread:
         Share of ``sum (v - median)^2`` carried by the most extreme
         ``ceil(n / 100)`` rows (1 for a constant lens).
     support : int
-        The fewest rows that carry half of ``sum (v - median)^2`` (0 for a
-        constant lens): about a fifth of the rows for a uniform lens, half for two
-        equal groups, a handful for a lens concentrated on a few points
-        (:func:`support_factor`).
+        The fewest rows that carry half of the lens's variation on the rank
+        scale (the cover's default): half of ``sum (r - median r)^2``, ``r`` the
+        average ranks (ties share one rank; 0 for a constant lens). About a fifth
+        of the rows for any lens without ties (and for every monotone map of it),
+        half for two equal groups, a handful for a lens that is tied on all rows
+        but a few (:func:`support_factor`).
 
     Examples
     --------
@@ -517,9 +520,30 @@ def robust_spread_sorted(s, counts=None, *, tail=TAIL):
     top = min(n, max(1, math.ceil(tail * n)))
     ends = np.r_[dev[:top], dev[max(top, n - top):]]
     share = float(np.sort(ends)[-top:].sum()) / total
-    support = int(np.searchsorted(np.cumsum(np.sort(dev)[::-1]), 0.5 * total) + 1)
     return RobustSpread((1.0 - largest_tie) * (1.0 - share), float(largest_tie), share,
-                        min(support, n))
+                        _rank_support(counts, n))
+
+
+def _rank_support(counts, n):
+    """Fewest rows carrying half of the squared deviations of the average ranks from their
+    median, from the tie-group sizes of the sorted column (ties share one rank)."""
+    counts = np.asarray(counts, dtype=np.int64)
+    if counts.size < 2:
+        return 0
+    ends = np.cumsum(counts)
+    ranks = ends - (counts - 1) / 2.0  # average rank of each group (1-based)
+    lo, hi = np.searchsorted(ends, [(n - 1) // 2 + 1, n // 2 + 1])  # the median rows' groups
+    med = 0.5 * float(ranks[lo] + ranks[hi])
+    dev = (ranks - med) ** 2
+    total = float((dev * counts).sum())
+    if total <= 0:
+        return 0
+    order = np.argsort(-dev, kind="stable")
+    mass = np.cumsum(dev[order] * counts[order])
+    g = int(np.searchsorted(mass, 0.5 * total))  # the group where half is reached
+    before = mass[g - 1] if g else 0.0
+    rows_before = int(counts[order[:g]].sum())
+    return rows_before + int(math.ceil((0.5 * total - before) / dev[order[g]] - 1e-9))
 
 
 def unit_rank_criteria(Z, affinity):
