@@ -137,6 +137,12 @@ def test_screen_reports_the_collapse():
     text = f"{dup.n_duplicate_rows} duplicate rows collapsed into {dup.collapsed_points} points"
     assert text in result.summary()
     assert result.to_dict()["data_notes"]["duplicates"]["duplicate_rows"] == dup.n_duplicate_rows
+    # heavy ties: the share of the most common value per column, against numpy's counts
+    tied = result.data_notes["tied_columns"]["columns"]
+    for j, name in enumerate(["x0", "x1", "x2", "x3"]):
+        share = np.bincount(X[:, j].astype(int)).max() / X.shape[0]
+        assert (name in [t["name"] for t in tied]) == (share >= 0.5)
+    assert "columns hold one value on half the rows or more" in result.summary()
 
 
 def test_rank_ties_are_averaged_as_in_scipy():

@@ -763,6 +763,29 @@ class Workspace:
             return graph
         return expand_distinct(points, dup, k)
 
+    def tied_columns(self, share=0.5):
+        """Feature columns with one value on at least ``share`` of the rows (heavy ties).
+
+        Returns
+        -------
+        list of (name, value, share), largest share first
+
+        Examples
+        --------
+        >>> X = np.c_[np.r_[np.zeros(8), 1.0, 2.0], np.arange(10.0)]
+        >>> Workspace(X).tied_columns()
+        [('x0', 0.0, 0.8)]
+        """
+        def compute():
+            out = []
+            for j, name in enumerate(self.cloud.feature_names):
+                vals, counts = np.unique(self.X[:, j], return_counts=True)
+                top = int(np.argmax(counts))
+                out.append((name, float(vals[top]), float(counts[top] / self.n)))
+            return sorted(out, key=lambda t: -t[2])
+
+        return [t for t in self.cached(("tied_columns",), compute) if t[2] >= share]
+
     def pieces(self, k=15, metric="euclidean"):
         """Connected pieces of the symmetric k-NN graph (:class:`GraphPieces`), cached."""
         from scipy.sparse.csgraph import connected_components

@@ -115,6 +115,16 @@ def data_notes(ws):
     dup = ws.duplicates
     if dup.n_duplicate_rows:
         notes["duplicates"] = dict(dup.to_dict(), text=dup.describe())
+    tied = ws.tied_columns()
+    if tied:
+        shown = ", ".join(f"{name} {value:g} on {share:.0%}" for name, value, share in tied[:4])
+        more = ", ..." if len(tied) > 4 else ""
+        notes["tied_columns"] = {
+            "columns": [{"name": name, "value": value, "share": share}
+                        for name, value, share in tied],
+            "text": (f"{len(tied)} of {ws.d} columns hold one value on half the rows or more "
+                     f"({shown}{more}); ranks average ties"),
+        }
     pieces = ws.pieces(min(SMOOTHNESS_K, ws.n - 1))
     if pieces.count > 1:
         notes["graph_pieces"] = dict(pieces.to_dict(), text=pieces.describe())
