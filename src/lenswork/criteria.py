@@ -91,6 +91,7 @@ from .normalize import normalize
 from .workspace import Workspace
 
 __all__ = [
+    "HANDFUL",
     "RobustSpread",
     "TAIL",
     "heat_kernel_affinity",
@@ -102,6 +103,7 @@ __all__ = [
     "robust_spread",
     "robust_spread_sorted",
     "smoothness",
+    "support_factor",
     "unit_rank_criteria",
 ]
 
@@ -277,7 +279,7 @@ def neighbour_jitter(values, affinity, *, scale="rank"):
     return math.sqrt(d2) / span
 
 
-def smoothness(score, *, null_sd=0.0):
+def smoothness(score, *, null_sd=0.0, support=None, k=15):
     """``1 - min(L_r, 1)``: a Laplacian score as a [0, 1] score, higher better (NaN -> 0).
 
     A lens unrelated to the geometry has ``L_r`` about 1 and gets 0; one constant
@@ -292,6 +294,11 @@ def smoothness(score, *, null_sd=0.0):
         (:func:`laplacian_null_sd`). A score with ``1 - L_r <= 2 null_sd`` (no
         smoother than chance at two standard errors, common practice) gives 0:
         the sampling wobble of a noise lens must not count as smoothness.
+    support : int or array-like, optional
+        Rows carrying half of each lens's variation (:attr:`RobustSpread.support`);
+        the score is multiplied by :func:`support_factor` (``support``, ``k``).
+    k : int, default=15
+        Neighbours per row of the graph the score was measured on.
 
     Examples
     --------
@@ -299,11 +306,54 @@ def smoothness(score, *, null_sd=0.0):
     [0.9, 0.0, 0.0]
     >>> smoothness(np.array([0.1, 0.97]), null_sd=0.02).round(2).tolist()
     [0.9, 0.0]
+    >>> smoothness(np.array([0.1, 0.1, 0.1]), support=[400, 10, 3], k=15).round(2).tolist()
+    [0.9, 0.6, 0.0]
     """
     s = np.asarray(score, dtype=np.float64)
     out = 1.0 - np.clip(np.nan_to_num(s, nan=1.0), 0.0, 1.0)
     null_sd = check_float("null_sd", null_sd, lo=0, context="smoothness")
     out = np.where(out > 2.0 * null_sd, out, 0.0)
+    if support is not None:
+        out = out * support_factor(support, k)
+    return float(out) if out.ndim == 0 else out
+
+
+#: A lens whose variation sits on at most this share of one neighbourhood (k rows) is
+#: concentrated on a handful of points: its smoothness is 0.
+HANDFUL = 1 / 3
+
+
+def support_factor(support, k=15):
+    """How far the Laplacian score can speak for a lens carried by ``support`` rows.
+
+    The Laplacian score compares each row with its ``k`` neighbours. A lens with
+    half of its variation (on the rank scale) on fewer rows than one
+    neighbourhood describes at most one neighbourhood, and a low score then says
+    that this neighbourhood differs from the rest (a Laplacian vector that is
+    constant but on a few weakly linked points, a count that is 0 but on a
+    handful of rows), not that the lens follows the data's neighbours. The
+    factor is
+    ``min(1, support / k)``, and 0 at or below a handful, ``support <= k / 3``
+    (:data:`HANDFUL`): such a lens cannot be chosen.
+
+    Parameters
+    ----------
+    support : int or array-like of int
+        Rows carrying half the lens's second moment about its median.
+    k : int, default=15
+
+    Returns
+    -------
+    float or ndarray in [0, 1]
+
+    Examples
+    --------
+    >>> support_factor(np.array([1, 5, 6, 15, 300]), k=15).round(2).tolist()
+    [0.0, 0.0, 0.4, 1.0, 1.0]
+    """
+    k = check_int("k", k, lo=1, context="support_factor")
+    a = np.asarray(support, dtype=np.float64)
+    out = np.where(a <= HANDFUL * k, 0.0, np.minimum(1.0, a / k))
     return float(out) if out.ndim == 0 else out
 
 
@@ -360,6 +410,13 @@ class RobustSpread:
     tail_share : float
         Share of ``sum (v - median)^2`` carried by the most extreme
         ``ceil(n / 100)`` rows (1 for a constant lens).
+    support : int
+        The fewest rows that carry half of the lens's variation on the rank
+        scale (the cover's default): half of ``sum (r - median r)^2``, ``r`` the
+        average ranks (ties share one rank; 0 for a constant lens). About a fifth
+        of the rows for any lens without ties (and for every monotone map of it),
+        half for two equal groups, a handful for a lens that is tied on all rows
+        but a few (:func:`support_factor`).
 
     Examples
     --------
@@ -371,6 +428,7 @@ class RobustSpread:
     robust_spread: float
     largest_tie: float
     tail_share: float
+    support: int = 0
 
 
 def robust_spread(values, *, tail=TAIL):
@@ -458,11 +516,34 @@ def robust_spread_sorted(s, counts=None, *, tail=TAIL):
     dev = (s - med) ** 2
     total = float(dev.sum())
     if total <= 0:
-        return RobustSpread(0.0, float(largest_tie), 1.0)
+        return RobustSpread(0.0, float(largest_tie), 1.0, 0)
     top = min(n, max(1, math.ceil(tail * n)))
     ends = np.r_[dev[:top], dev[max(top, n - top):]]
     share = float(np.sort(ends)[-top:].sum()) / total
-    return RobustSpread((1.0 - largest_tie) * (1.0 - share), float(largest_tie), share)
+    return RobustSpread((1.0 - largest_tie) * (1.0 - share), float(largest_tie), share,
+                        _rank_support(counts, n))
+
+
+def _rank_support(counts, n):
+    """Fewest rows carrying half of the squared deviations of the average ranks from their
+    median, from the tie-group sizes of the sorted column (ties share one rank)."""
+    counts = np.asarray(counts, dtype=np.int64)
+    if counts.size < 2:
+        return 0
+    ends = np.cumsum(counts)
+    ranks = ends - (counts - 1) / 2.0  # average rank of each group (1-based)
+    lo, hi = np.searchsorted(ends, [(n - 1) // 2 + 1, n // 2 + 1])  # the median rows' groups
+    med = 0.5 * float(ranks[lo] + ranks[hi])
+    dev = (ranks - med) ** 2
+    total = float((dev * counts).sum())
+    if total <= 0:
+        return 0
+    order = np.argsort(-dev, kind="stable")
+    mass = np.cumsum(dev[order] * counts[order])
+    g = int(np.searchsorted(mass, 0.5 * total))  # the group where half is reached
+    before = mass[g - 1] if g else 0.0
+    rows_before = int(counts[order[:g]].sum())
+    return rows_before + int(math.ceil((0.5 * total - before) / dev[order[g]] - 1e-9))
 
 
 def unit_rank_criteria(Z, affinity):

@@ -19,7 +19,7 @@ from ._errors import InputError, ParameterError, warn_caller
 from ._validation import check_choice, check_int, seed_of
 from .data import PointCloud
 
-__all__ = ["NeighborGraph", "Workspace", "neighbor_graph"]
+__all__ = ["DuplicateRows", "GraphPieces", "NeighborGraph", "Workspace", "neighbor_graph"]
 
 #: Metrics both back ends (scikit-learn and pynndescent) support under these names.
 METRICS = ("euclidean", "manhattan", "chebyshev", "cosine")
@@ -101,6 +101,138 @@ class NeighborGraph:
         true_kth = _exact_kth_distance(np.asarray(X, dtype=np.float64), rows, self.k, self.metric)
         hits = self.distances[rows] <= true_kth[:, None] * (1 + 1e-9) + 1e-12
         return float(hits.mean())
+
+
+@dataclass(frozen=True, eq=False)
+class DuplicateRows:
+    """Exact duplicate rows of a table, collapsed into weighted distinct points.
+
+    Attributes
+    ----------
+    inverse : ndarray of shape (n_rows,), int64
+        The distinct point of each row (points numbered by their first row).
+    first : ndarray of shape (n_points,), int64
+        The first row of each distinct point, ascending.
+    counts : ndarray of shape (n_points,), int64
+        Rows on each point (its weight, or multiplicity).
+
+    Examples
+    --------
+    >>> dup = DuplicateRows.of(np.array([[0.0, 1], [2, 3], [0, 1], [0, 1]]))
+    >>> dup.inverse.tolist(), dup.counts.tolist(), dup.describe()
+    ([0, 1, 0, 0], [3, 1], '2 duplicate rows collapsed into 1 point (4 rows on 2 distinct points)')
+    """
+
+    inverse: np.ndarray
+    first: np.ndarray
+    counts: np.ndarray
+
+    @classmethod
+    def of(cls, X):
+        """Find the exact duplicates among the rows of ``X`` (``-0.0`` equals ``0.0``).
+
+        One sort of the rows' bytes, O(n d log n).
+        """
+        X = np.ascontiguousarray(np.asarray(X, dtype=np.float64) + 0.0)  # -0.0 -> 0.0
+        n = X.shape[0]
+        if n == 0:
+            empty = np.zeros(0, dtype=np.int64)
+            return cls(empty, empty, empty)
+        # Rows with distinct projections on a fixed direction are distinct: one O(n d) product
+        # and a sort of n floats settle the common case (no duplicates; 1e6 x 20: the byte
+        # sort below took 2.2 s on the reference machine).
+        proj = np.sort(X @ np.random.default_rng(0).normal(size=X.shape[1]))
+        if n < 2 or np.all(proj[1:] != proj[:-1]):
+            rows = np.arange(n, dtype=np.int64)
+            return cls(rows, rows.copy(), np.ones(n, dtype=np.int64))
+        keys = X.view(np.dtype((np.void, X.dtype.itemsize * X.shape[1]))).ravel()
+        _, first, inverse, counts = np.unique(keys, return_index=True, return_inverse=True,
+                                              return_counts=True)
+        order = np.argsort(first, kind="stable")  # number points by their first row
+        rank = np.empty_like(order)
+        rank[order] = np.arange(order.size)
+        return cls(rank[np.ravel(inverse)].astype(np.int64), first[order].astype(np.int64),
+                   counts[order].astype(np.int64))
+
+    @property
+    def n_rows(self):
+        return int(self.inverse.size)
+
+    @property
+    def n_points(self):
+        """Distinct points."""
+        return int(self.first.size)
+
+    @property
+    def n_duplicate_rows(self):
+        """Rows that repeat an earlier row: ``n_rows - n_points``."""
+        return self.n_rows - self.n_points
+
+    @property
+    def collapsed_points(self):
+        """Distinct points that stand for two or more rows."""
+        return int(np.count_nonzero(self.counts > 1))
+
+    def describe(self):
+        """One sentence for reports ("" when no row repeats)."""
+        if not self.n_duplicate_rows:
+            return ""
+        p = self.collapsed_points
+        return (f"{self.n_duplicate_rows} duplicate rows collapsed into {p} "
+                f"point{'s' if p != 1 else ''} ({self.n_rows} rows on {self.n_points} "
+                f"distinct points)")
+
+    def to_dict(self):
+        """JSON-ready summary (counts only, no per-row arrays)."""
+        return {"rows": self.n_rows, "distinct_points": self.n_points,
+                "duplicate_rows": self.n_duplicate_rows,
+                "collapsed_points": self.collapsed_points,
+                "largest_group": int(self.counts.max()) if self.counts.size else 0}
+
+    def groups(self):
+        """``(order, start)``: rows sorted by point, and where each point's rows begin."""
+        order = np.argsort(self.inverse, kind="stable")
+        start = np.concatenate([[0], np.cumsum(self.counts)[:-1]]).astype(np.int64)
+        return order, start
+
+
+@dataclass(frozen=True)
+class GraphPieces:
+    """Connected pieces of the symmetric k-NN graph.
+
+    Attributes
+    ----------
+    k : int
+    sizes : tuple of int
+        Rows in each piece, largest first.
+    labels : ndarray of shape (n_rows,)
+        The piece of each row (0 = the largest).
+
+    Examples
+    --------
+    >>> X = np.r_[np.arange(10.0), 100 + np.arange(5.0)][:, None]
+    >>> p = Workspace(X).pieces(k=2)
+    >>> p.count, p.sizes, p.describe()
+    (2, (10, 5), 'the 2-NN graph falls into 2 pieces (sizes 10, 5)')
+    """
+
+    k: int
+    sizes: tuple
+    labels: np.ndarray = field(repr=False, compare=False)
+
+    @property
+    def count(self):
+        return len(self.sizes)
+
+    def describe(self):
+        """One sentence for warnings and reports ("" for a connected graph)."""
+        if self.count <= 1:
+            return ""
+        shown = ", ".join(str(s) for s in self.sizes[:5]) + (", ..." if self.count > 5 else "")
+        return f"the {self.k}-NN graph falls into {self.count} pieces (sizes {shown})"
+
+    def to_dict(self):
+        return {"k": self.k, "pieces": self.count, "sizes": list(self.sizes[:10])}
 
 
 def knn_matrix(indices, values, keep=None, *, symmetric=True):
@@ -355,6 +487,97 @@ def neighbor_graph(X, k=15, *, metric="euclidean", method="auto", random_state=0
     return NeighborGraph(idx, dist, k, metric, method, info)
 
 
+# ---------------------------------------------------------------- duplicate rows
+# With exact duplicates the k nearest rows of a point can all be its own copies (distance 0):
+# the graph then falls into cliques of copies. The graph is searched on the distinct points
+# and expanded back to rows in one of two ways (see Workspace.neighbors).
+
+
+def _positions(dup):
+    """Each row's place among the rows of its point (0 for the first row)."""
+    order, start = dup.groups()
+    pos = np.empty(dup.n_rows, dtype=np.int64)
+    pos[order] = np.arange(dup.n_rows) - np.repeat(start, dup.counts)
+    return order, start, pos
+
+
+def expand_distinct(points_graph, dup, k):
+    """Row graph of distinct locations: one link to the point's own first row, then other points.
+
+    Each point is stood for by its first row. A row whose point holds c >= 2 rows lists
+    first the point's first row (the first row itself lists the second; distance 0: the
+    copies form a star and stay one piece) and then its point's k - 1 nearest other
+    points; any other row lists its point's k nearest other points. So the copies of a
+    point are linked alike to the same neighbours (the later copies are interchangeable,
+    and a point is linked from every row of the points that list it: its weight), and no
+    row's k neighbours are all copies of one point.
+
+    Examples
+    --------
+    >>> X = np.array([[0.0], [0.0], [0.0], [1.0], [3.0]])
+    >>> dup = DuplicateRows.of(X)
+    >>> g = expand_distinct(neighbor_graph(X[dup.first], k=2), dup, 2)
+    >>> g.indices.tolist(), g.distances[:, 0].tolist()
+    ([[1, 3], [0, 3], [0, 3], [0, 4], [3, 0]], [0.0, 0.0, 0.0, 1.0, 2.0])
+    """
+    order, start, pos = _positions(dup)
+    u = dup.inverse
+    n = u.size
+    ring = dup.counts[u] > 1
+    rows = dup.first[points_graph.indices[u, :k]]
+    dist = points_graph.distances[u, :k]
+    idx = np.empty((n, k), dtype=np.int64)
+    out = np.empty((n, k))
+    plain = ~ring
+    idx[plain], out[plain] = rows[plain], dist[plain]
+    if ring.any():
+        r = np.flatnonzero(ring)
+        ur = u[r]
+        idx[r, 0] = np.where(pos[r] == 0, order[start[ur] + 1], dup.first[ur])
+        out[r, 0] = 0.0
+        idx[r, 1:], out[r, 1:] = rows[r, : k - 1], dist[r, : k - 1]
+    info = dict(points_graph.info, duplicates=dup.to_dict(), rows="distinct points",
+                rule="a link to the point's first row, then the point's nearest other points")
+    return NeighborGraph(idx, out, k, points_graph.metric, points_graph.method, info)
+
+
+def expand_mass(points_graph, dup, k):
+    """Row graph of the weighted points: each point counts as many times as it has rows.
+
+    Row i lists the other rows of its own point (distance 0), then every row of its point's
+    nearest other point, and so on, the first k in all: the k nearest other rows of an
+    exact search, in a fixed order among ties. Distance to a measure and the k-NN distance
+    read this graph (they are defined on the empirical measure, copies included).
+
+    Examples
+    --------
+    >>> X = np.array([[0.0], [0.0], [0.0], [1.0], [3.0]])
+    >>> dup = DuplicateRows.of(X)
+    >>> g = expand_mass(neighbor_graph(X[dup.first], k=2), dup, 3)
+    >>> g.distances.tolist()[0], g.distances.tolist()[3]
+    ([0.0, 0.0, 1.0], [1.0, 1.0, 1.0])
+    """
+    order, start, pos = _positions(dup)
+    u = dup.inverse
+    n = u.size
+    c = dup.counts[u]
+    pts, dist = points_graph.indices[u], points_graph.distances[u]
+    cum = (c - 1)[:, None] + np.cumsum(dup.counts[pts], axis=1)
+    before = np.column_stack([c - 1, cum[:, :-1]])
+    idx = np.empty((n, k), dtype=np.int64)
+    out = np.empty((n, k))
+    for t in range(k):
+        own = t < c - 1
+        j = np.minimum((cum <= t).sum(axis=1), pts.shape[1] - 1)
+        v = pts[np.arange(n), j]
+        off = t - before[np.arange(n), j]
+        idx[:, t] = np.where(own, order[start[u] + (pos + 1 + t) % c],
+                             order[start[v] + np.clip(off, 0, dup.counts[v] - 1)])
+        out[:, t] = np.where(own, 0.0, dist[np.arange(n), j])
+    info = dict(points_graph.info, duplicates=dup.to_dict(), rows="weighted points")
+    return NeighborGraph(idx, out, k, points_graph.metric, points_graph.method, info)
+
+
 class Workspace:
     """Shared, cached pieces of one point cloud, computed on first use.
 
@@ -466,27 +689,126 @@ class Workspace:
             dist, idx = nn.fit(self.X).kneighbors(self.X[rows])
         return _drop_self(idx, dist, kk, own=rows)[0]
 
-    def neighbors(self, k=15, metric="euclidean"):
-        """The shared k-NN graph; a cached graph with more neighbours is sliced, not recomputed."""
+    @property
+    def duplicates(self):
+        """The exact duplicate rows (:class:`DuplicateRows`), found once.
+
+        Examples
+        --------
+        >>> Workspace(np.array([[1.0, 2], [1, 2], [3, 4]])).duplicates.n_duplicate_rows
+        1
+        """
+        return self.cached(("duplicates",), lambda: DuplicateRows.of(self.X))
+
+    def neighbors(self, k=15, metric="euclidean", *, mass=False):
+        """The shared k-NN graph; a cached graph with more neighbours is sliced, not recomputed.
+
+        Parameters
+        ----------
+        k : int, default=15
+        metric : str, default="euclidean"
+        mass : bool, default=False
+            Only matters when rows repeat exactly (:attr:`duplicates`). The search then
+            runs once on the distinct points, and the row graph is expanded from it:
+            by default to distinct locations (each row's k neighbours are other points,
+            plus one link to its own point's first row; :func:`expand_distinct`:
+            what the Laplacian, the smoothness criterion and the clustering read, so
+            copies neither crowd out the neighbours nor cut the graph into cliques);
+            with ``mass=True`` to the weighted points (copies counted, the k nearest
+            other rows of an exact search; :func:`expand_mass`: what distance to a
+            measure and the k-NN distance read).
+
+        Examples
+        --------
+        >>> X = np.r_[np.zeros((20, 1)), np.arange(1.0, 21.0)[:, None]]
+        >>> ws = Workspace(X)
+        >>> distinct, weighted = ws.neighbors(5), ws.neighbors(5, mass=True)
+        >>> float(distinct.distances[0, 1]), float(weighted.distances[0, 1])
+        (1.0, 0.0)
+        """
         k = check_int("k", k, lo=1, context="Workspace.neighbors")
         metric = check_choice("metric", metric, METRICS, context="Workspace.neighbors")
         self.require_rows(k + 1, f"A neighbour graph with k={k}")
-        if ("knn", metric, k) in self._cache:
-            return self._cache[("knn", metric, k)]
+        dup = self.duplicates
+        kind = "knn-mass" if (mass and dup.n_duplicate_rows) else "knn"
+        if (kind, metric, k) in self._cache:
+            return self._cache[(kind, metric, k)]
         best = None
         for key, g in self._cache.items():
-            larger = key[0] == "knn" and key[1] == metric and key[2] >= k
+            larger = key[0] == kind and key[1] == metric and key[2] >= k
             if larger and (best is None or key[2] < best.k):
                 best = g
         if best is None:
             build_k = min(max(k, self.min_neighbors), self.n - 1)
-            best = neighbor_graph(
-                self.X, build_k, metric=metric, method=self.neighbor_method,
-                random_state=self.random_state,
-            )
-            self._cache[("knn", metric, build_k)] = best
-        self._cache[("knn", metric, k)] = graph = best.first(k)
+            if kind == "knn" and k < dup.n_points:  # distinct points: at most n_points - 1
+                build_k = min(build_k, dup.n_points - 1)
+            best = self._build_graph(build_k, metric, kind)
+            self._cache[(kind, metric, build_k)] = best
+        self._cache[(kind, metric, k)] = graph = best.first(k)
         return graph
+
+    def _build_graph(self, k, metric, kind):
+        dup = self.duplicates
+        if not dup.n_duplicate_rows:
+            return neighbor_graph(self.X, k, metric=metric, method=self.neighbor_method,
+                                  random_state=self.random_state)
+        kp = min(k, dup.n_points - 1)
+        if kp < 1:
+            raise InputError(
+                f"Every row of the data is the same point ({self.n} copies); a neighbour graph "
+                f"needs at least two distinct rows."
+            )
+        points = self.cached(("points-knn", metric, kp), lambda: neighbor_graph(
+            self.X[dup.first], kp, metric=metric, method=self.neighbor_method,
+            random_state=self.random_state))
+        if kind == "knn-mass" or kp < k:  # too few distinct points for k of them: copies fill
+            graph = expand_mass(points, dup, k)
+            if kind == "knn":
+                graph.info["rows"] = (f"weighted points (only {dup.n_points} distinct points "
+                                      f"for k={k})")
+            return graph
+        return expand_distinct(points, dup, k)
+
+    def tied_columns(self, share=0.5):
+        """Feature columns with one value on at least ``share`` of the rows (heavy ties).
+
+        Returns
+        -------
+        list of (name, value, share), largest share first
+
+        Examples
+        --------
+        >>> X = np.c_[np.r_[np.zeros(8), 1.0, 2.0], np.arange(10.0)]
+        >>> Workspace(X).tied_columns()
+        [('x0', 0.0, 0.8)]
+        """
+        def compute():
+            out = []
+            for j, name in enumerate(self.cloud.feature_names):
+                vals, counts = np.unique(self.X[:, j], return_counts=True)
+                top = int(np.argmax(counts))
+                out.append((name, float(vals[top]), float(counts[top] / self.n)))
+            return sorted(out, key=lambda t: -t[2])
+
+        return [t for t in self.cached(("tied_columns",), compute) if t[2] >= share]
+
+    def pieces(self, k=15, metric="euclidean"):
+        """Connected pieces of the symmetric k-NN graph (:class:`GraphPieces`), cached."""
+        from scipy.sparse.csgraph import connected_components
+
+        k = min(check_int("k", k, lo=1, context="Workspace.pieces"), self.n - 1)
+
+        def compute():
+            g = self.neighbors(k, metric)  # unit weights: a 0-distance link is a link
+            count, labels = connected_components(g.to_sparse(np.ones(g.indices.shape)),
+                                                 directed=False)
+            sizes = np.bincount(labels, minlength=count)
+            order = np.argsort(-sizes, kind="stable")
+            relabel = np.empty_like(order)
+            relabel[order] = np.arange(count)
+            return GraphPieces(k, tuple(int(v) for v in sizes[order]), relabel[labels])
+
+        return self.cached(("pieces", metric, k), compute)
 
     @property
     def mean(self):

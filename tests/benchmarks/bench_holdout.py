@@ -40,7 +40,9 @@ def main(argv=None):
         out = bj.evaluate(case, cloud, True)
         for label, rec in out.items():
             records.setdefault(label, []).append((case, rec))
-        print(f"# {case.name}: {case.source}", flush=True)
+        best = out["screen"].get("best")
+        extra = f"; best pair {best[0]} + {best[1]} {best[2]:.3f}" if best else ""
+        print(f"# {case.name}: {case.source}{extra}", flush=True)
     for label, recs in records.items():
         print()
         print(bj.fmt_table(f"{label} (held-out data)", recs))

@@ -300,7 +300,7 @@ def _dtm_lens(ws, *, mass):
         info["params_used"] = {"mass": _mass_for(k, n)}
     if k == 1:
         return [LensPart(np.zeros(n), "", dict(info, graph=None))]
-    g = ws.neighbors(k - 1)
+    g = ws.neighbors(k - 1, mass=True)  # the empirical measure: copies count
     info["graph"] = g.method
     return [LensPart(_dtm_from_distances(g.distances, k), "", info)]
 
@@ -483,5 +483,5 @@ class KNNDistance(LensOutputMixin, TransformerMixin, BaseEstimator):
 )
 def _knn_distance_lens(ws, *, k):
     ws.require_rows(k + 1, f"knn_distance with k={k}")
-    g = ws.neighbors(k)
+    g = ws.neighbors(k, mass=True)  # the k-th other row, copies included
     return [LensPart(np.ascontiguousarray(g.distances[:, k - 1]), "", {"k": k, "graph": g.method})]

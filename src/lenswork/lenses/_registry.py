@@ -128,6 +128,8 @@ class LensSpec:
                     f"Lens {self.name!r} returned values of shape {values.shape}; "
                     f"expected ({ws.n},). This is a bug in the lens."
                 )
+            if self.family not in ROW_FAMILIES:
+                values, part = _one_value_per_point(ws, values, part)
             info = dict(part.info)
             # a lens that computed with other values than asked (a capped dtm mass) says so in
             # info["params_used"]: the column is named and recorded by what was computed
@@ -142,6 +144,24 @@ class LensSpec:
                 )
             )
         return columns
+
+
+#: Families whose values are not a function of the row's coordinates (a data column, a
+#: user's function): exact duplicate rows may hold different values there.
+ROW_FAMILIES = ("column", "user")
+
+
+def _one_value_per_point(ws, values, part):
+    """Give the rows of one distinct point one value: their mean (a lens is a function of
+    the point). A graph-based lens can differ slightly between copies (each copy lists
+    the neighbouring points through different rows); other lenses are left unchanged."""
+    dup = ws.duplicates
+    if not dup.n_duplicate_rows or np.array_equal(values, values[dup.first][dup.inverse]):
+        return values, part
+    with np.errstate(invalid="ignore"):
+        mean = np.bincount(dup.inverse, weights=values, minlength=dup.n_points) / dup.counts
+    info = dict(part.info, duplicates="values averaged over the rows of each distinct point")
+    return mean[dup.inverse], LensPart(part.values, part.part, info)
 
 
 def _fmt(value):

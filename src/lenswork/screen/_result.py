@@ -159,6 +159,7 @@ class ScreenResult:
         self._pres = None
         self._embedding = None
         self.probe = None  # a StructureProbe when the screen ran one
+        self.data_notes = {}  # duplicates / pieces of the neighbour graph (screen.data_notes)
 
     # ---------------------------------------------------------------- API
     def to_lens_table(self):
@@ -224,6 +225,7 @@ class ScreenResult:
         out = ScreenResult(**dict(state, scores=new_scores))
         out._embedding = self._embedding
         out.probe = self.probe
+        out.data_notes = self.data_notes
         return out
 
     def _state(self):
@@ -417,6 +419,7 @@ class ScreenResult:
             },
             "screen_settings": None if self.settings is None else self.settings.to_dict(),
             "skipped_lenses": self.skipped,
+            "data_notes": self.data_notes,
             "input": self.cloud.provenance,
             "n_rows_used": int(self.cloud.n),
         })
@@ -593,7 +596,9 @@ class ScreenResult:
         head = (f"Screened {len(self.names)} candidate columns ({n_use} usable) on "
                 f"{self.cloud.n} rows x {self.cloud.d} features.")
         chosen = ", ".join(self.selected) if self.selected else "nothing"
-        return (f"{head}\nSelected: {chosen} (stopped: {self.stop_text}; "
+        notes = [v["text"] for v in self.data_notes.values() if v.get("text")]
+        data = f"\nData: {'; '.join(notes)}." if notes else ""
+        return (f"{head}{data}\nSelected: {chosen} (stopped: {self.stop_text}; "
                 f"ceiling {self.ceiling:.2f}).")
 
     def write(self, directory, *, figures=True, lens_format="csv"):

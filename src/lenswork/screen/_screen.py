@@ -75,7 +75,7 @@ def _score_columns(table, bins):
         v = np.asarray(table.columns[j].values, dtype=np.float64)
         if not np.isfinite(v).all():
             Z[j].fill(np.nan)
-            robust[j] = RobustSpread(0.0, math.nan, math.nan)
+            robust[j] = RobustSpread(0.0, math.nan, math.nan, 0)
             return non_finite_score(bins, n)
         ranks, srt, counts = rank_sorted(v)
         unit_row(ranks, Z[j])
@@ -91,16 +91,49 @@ def _score_columns(table, bins):
     scores = {k: np.array([getattr(s, k) for s in found], dtype=np.float64) for k in keys}
     scores["robust_spread"] = np.array([r.robust_spread for r in robust], dtype=np.float64)
     scores["tail_share"] = np.array([r.tail_share for r in robust], dtype=np.float64)
+    scores["support"] = np.array([r.support for r in robust], dtype=np.float64)
     return scores, [s.status for s in found], Z
 
 
-def _smoothness(Z, ws, usable):
+def _smoothness(Z, ws, usable, support):
     """Laplacian score, smoothness and neighbour jitter of every column (lenswork.criteria)."""
     k = min(SMOOTHNESS_K, ws.n - 1)
     S = heat_kernel_affinity(ws, k=k)
     Lr, jitter = unit_rank_criteria(np.where(usable[:, None], Z, np.nan), S)
-    return {"smoothness": smoothness(Lr, null_sd=laplacian_null_sd(S)), "laplacian_score": Lr,
-            "jitter": jitter}
+    return {"smoothness": smoothness(Lr, null_sd=laplacian_null_sd(S), support=support, k=k),
+            "laplacian_score": Lr, "jitter": jitter}
+
+
+def data_notes(ws):
+    """What the screen found in the rows themselves: duplicates and the graph's pieces.
+
+    Returns a JSON-ready dict (empty when there is nothing to say) and warns when the
+    neighbour graph the smoothness criterion reads falls into pieces.
+    """
+    notes = {}
+    dup = ws.duplicates
+    if dup.n_duplicate_rows:
+        notes["duplicates"] = dict(dup.to_dict(), text=dup.describe())
+    tied = ws.tied_columns()
+    if tied:
+        shown = ", ".join(f"{name} {value:g} on {share:.0%}" for name, value, share in tied[:4])
+        more = ", ..." if len(tied) > 4 else ""
+        notes["tied_columns"] = {
+            "columns": [{"name": name, "value": value, "share": share}
+                        for name, value, share in tied],
+            "text": (f"{len(tied)} of {ws.d} columns hold one value on half the rows or more "
+                     f"({shown}{more}); ranks average ties"),
+        }
+    pieces = ws.pieces(min(SMOOTHNESS_K, ws.n - 1))
+    if pieces.count > 1:
+        notes["graph_pieces"] = dict(pieces.to_dict(), text=pieces.describe())
+        warnings.warn(
+            f"The data's neighbour graph is not connected: {pieces.describe()}. Smoothness "
+            f"and the Laplacian lenses see each piece on its own (no lens can follow "
+            f"neighbours across pieces); check for groups of rows far from the rest, or "
+            f"scale the columns.", LensworkWarning, stacklevel=3,
+        )
+    return notes
 
 
 def _preservation(table, ws, random_state):
@@ -276,8 +309,9 @@ def _rank(table, settings, ws, refs, skipped):
     if ws is None:
         ws = Workspace(table.cloud, random_state=table.random_state)
     with _progress.step("smoothness: Laplacian score on the neighbour graph"):
+        notes = data_notes(ws) if cloud.n > 2 else {}
         if cloud.n > 2:
-            scores.update(_smoothness(Z, ws, usable))
+            scores.update(_smoothness(Z, ws, usable, scores["support"]))
         del Z
     for j, s in enumerate(status):
         if s != "ok":
@@ -301,6 +335,7 @@ def _rank(table, settings, ws, refs, skipped):
             reference_correlation=ref_corr, skipped=skipped, status=status,
             pairing=pairing, preservation=preservation, defer=probe, settings=settings,
         )
+    result.data_notes = notes
     if probe and usable.any():
         result = _with_structure(result, ws, weights)
     elif probe:
