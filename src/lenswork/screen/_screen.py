@@ -127,11 +127,11 @@ def data_notes(ws):
     pieces = ws.pieces(min(SMOOTHNESS_K, ws.n - 1))
     if pieces.count > 1:
         notes["graph_pieces"] = dict(pieces.to_dict(), text=pieces.describe())
-        warnings.warn(
+        warn_caller(
             f"The data's neighbour graph is not connected: {pieces.describe()}. Smoothness "
             f"and the Laplacian lenses see each piece on its own (no lens can follow "
             f"neighbours across pieces); check for groups of rows far from the rest, or "
-            f"scale the columns.", LensworkWarning, stacklevel=3,
+            f"scale the columns."
         )
     return notes
 
