@@ -105,4 +105,5 @@ def test_rows_file_and_troublesome_columns_on_a_table(tmp_path):
     with open(out / "contrast.csv", newline="") as fh:
         rows = [r for r in csv.DictReader(fh) if r["feature"] == "rows"]
     assert rows[0]["column"] in {"vibration_mm_s", "bearing_temp_c", "state"}
-    assert sorted(p.name for p in out.iterdir()) == ["contrast.csv", "contrast.json"]
+    assert sorted(p.name for p in out.iterdir()) == ["contrast.csv", "contrast.json",
+                                                     "lenswork-manifest.json"]

@@ -26,13 +26,13 @@ Graphs
 Which columns set a feature apart
     contrast_columns, ContrastResult, ColumnContrast, benjamini_hochberg, node_column_values
 Errors
-    LensworkError, InputError, ParameterError, LensworkWarning
+    LensworkError, InputError, ParameterError, OutputError, LensworkWarning
 """
 
 from __future__ import annotations
 
 from . import _graph_methods  # noqa: F401  (attaches LensGraph.write_* and .draw)
-from ._errors import InputError, LensworkError, LensworkWarning, ParameterError
+from ._errors import InputError, LensworkError, LensworkWarning, OutputError, ParameterError
 from ._version import __version__
 from .bootstrap import BootstrapResult, CoverSuggestion, bootstrap_graph, suggest_cover
 from .compare import (
@@ -125,6 +125,7 @@ __all__ = [
     "LensTable",
     "LensworkError",
     "LensworkWarning",
+    "OutputError",
     "NeighborGraph",
     "PCALens",
     "ParameterError",

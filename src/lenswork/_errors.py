@@ -5,7 +5,7 @@ classes also inherit the matching built-in, so ``except ValueError`` works
 too. Messages follow one shape: what was wrong, what was expected, what to do.
 """
 
-__all__ = ["InputError", "LensworkError", "LensworkWarning", "ParameterError"]
+__all__ = ["InputError", "LensworkError", "LensworkWarning", "OutputError", "ParameterError"]
 
 
 class LensworkError(Exception):
@@ -37,6 +37,16 @@ class ParameterError(LensworkError, ValueError):
     Examples
     --------
     >>> issubclass(ParameterError, LensworkError)
+    True
+    """
+
+
+class OutputError(LensworkError, OSError):
+    """An output file or folder cannot be written (read-only, full, a file in the path...).
+
+    Examples
+    --------
+    >>> issubclass(OutputError, OSError)
     True
     """
 

@@ -5,13 +5,14 @@ from __future__ import annotations
 import functools
 import warnings
 from dataclasses import fields
-from pathlib import Path
 
 import click
 
 from .. import _progress
 from .._errors import LensworkError, LensworkWarning, ParameterError
+from .._io import check_output_dir, os_error_text
 from ..graph import CUTOFF_WORDS, GraphSettings
+from ..lenses import LENS_FILE_CHECKS
 from ..workspace import METHODS
 
 __all__ = [
@@ -20,6 +21,7 @@ __all__ = [
     "graph_option_fields",
     "graph_options",
     "input_options",
+    "lens_file_check_option",
     "load_input",
     "neighbors_option",
     "number_list",
@@ -42,6 +44,8 @@ class LensworkGroup(click.Group):
             raise click.ClickException(
                 "Ran out of memory. Use fewer rows, a smaller k, or the scalable modes."
             ) from None
+        except OSError as err:  # a file-system error not met by a check: one line, no traceback
+            raise click.ClickException(os_error_text(err)) from None
 
 
 def _show_warning(message, category, filename, lineno, file=None, line=None):
@@ -139,11 +143,18 @@ def cutoff_value(text, words=CUTOFF_WORDS):
 
 
 def output_dir(path):
-    """``path`` as a Path, or ParameterError when it names an existing file."""
-    path = Path(path)
-    if path.exists() and not path.is_dir():
-        raise ParameterError(f"Output directory {str(path)!r} is a file; give a directory path.")
-    return path
+    """``path`` as a Path, checked before the work: it must be a folder that takes writes
+    (or can be created). OutputError (a message) otherwise."""
+    return check_output_dir(path)
+
+
+#: --lens-file-check, defined once for every command that takes --lens-file.
+lens_file_check_option = click.option(
+    "--lens-file-check", "lens_file_check", type=click.Choice(LENS_FILE_CHECKS), default="warn",
+    show_default=True,
+    help="How a --lens-file that does not match its sidecar (rows, columns, file checksum) or "
+    "the table it was computed from (the input checksum) is treated: warn, error, or off.",
+)
 
 
 #: The --neighbors option, defined once for every command that builds a neighbour graph.

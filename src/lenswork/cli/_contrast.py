@@ -11,7 +11,7 @@ import click
 from .._errors import InputError, ParameterError
 from ..contrast import AGAINST
 from ..graph import CLUSTERERS, COVER_SCALES, FRAGMENT_RULES, LAYOUTS
-from ._common import cutoff_value, input_options, neighbors_option, number_list, output_dir
+from ._common import cutoff_value, input_options, neighbors_option, number_list
 
 __all__ = ["COMMANDS"]
 
@@ -199,11 +199,11 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
     (the graph coloured by each top column). Everything is computed before the
     first file is written.
     """
-    from .._io import write_text
+    from .._io import OutputSet, write_text
     from .._json import dumps
     from ..contrast import contrast_columns, node_column_values
 
-    out = output_dir(out_dir)
+    output = OutputSet(out_dir, command="contrast")  # checked before the work
     rows = None
     if row_ids is not None and rows_file is not None:
         raise click.UsageError("Give --rows or --rows-file, not both.")
@@ -246,14 +246,15 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
                                                    "summary": graph.summary().to_dict()},
            "input": cloud.provenance, "lenses": [c.provenance() for c in table], "seed": seed}
     text = dumps(doc) + "\n"
-    written = [result.write_csv(out / OUTPUTS["csv"])]
-    write_text(out / OUTPUTS["json"], text)
-    written.append(out / OUTPUTS["json"])
-    if figures:
-        from ..plot._style import save
+    with output as stage:
+        result.write_csv(stage / OUTPUTS["csv"])
+        write_text(stage / OUTPUTS["json"], text)
+        if figures:
+            from ..plot._style import save
 
-        written += [save(fig, out / name) for name, fig in figures.items()]
-    click.echo(f"wrote {', '.join(str(p) for p in written)}")
+            for name, fig in figures.items():
+                save(fig, stage / name)
+    click.echo(f"wrote {', '.join(str(p) for p in output.written)}")
 
 
 COMMANDS = [contrast_command]

@@ -5,11 +5,12 @@ from __future__ import annotations
 import click
 
 from .. import _progress
+from .._io import OutputSet
 from ..graph import LAYOUTS, build_graph, write_graph_json, write_graphml, write_memberships
 from ..lenses import compute_lenses
 from ..table import LensTable
 from ..workspace import Workspace
-from ._common import graph_options, output_dir
+from ._common import graph_options, lens_file_check_option
 from ._partitioned import cluster_input_options, partitioned_settings, refuse_with_scheduler
 
 __all__ = ["COMMANDS"]
@@ -37,6 +38,7 @@ def _names(text):
 @click.option("--lens-file", type=click.Path(dir_okay=False), default=None,
               help="Lens columns written by `lenswork compute` or `lenswork screen` (CSV, TSV or "
               "Parquet with its .json sidecar), matched to TABLE by row id.")
+@lens_file_check_option
 @click.option("--use", "use", default=None, metavar="COLS",
               help="Columns to take from --lens-file, comma-separated (default: all of them).")
 @click.option("--stats", "stat_columns", default=None, metavar="COLS|all",
@@ -48,11 +50,12 @@ def _names(text):
               help="auto: levels for one lens, lens coordinates for two, spring above.")
 @click.option("-o", "--out", "out_dir", default="lenswork-graph", show_default=True,
               type=click.Path(file_okay=False),
-              help="Output directory (created if missing; its graph files are replaced).")
+              help="Output directory (created if missing). The files of the previous run there are "
+              "replaced as a set (lenswork-manifest.json lists them).")
 @click.option("--no-figure", is_flag=True, help="Skip the drawing (PNG and SVG).")
 @graph_options()
-def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, layout, out_dir,
-                  no_figure, settings, neighbor_method, cluster=None):
+def graph_command(cloud, seed, lens_specs, lens_file, lens_file_check, use, stat_columns, color,
+                  layout, out_dir, no_figure, settings, neighbor_method, cluster=None):
     """Build a Mapper graph of TABLE (or --demo) over lens columns and summarise it.
 
     The lenses come from --lens (computed here on the shared neighbour graph) or
@@ -80,7 +83,7 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
         raise click.UsageError("Give at least one --lens or a --lens-file.")
     if use and not lens_file:
         raise click.UsageError("--use picks columns of a --lens-file; give the --lens-file too.")
-    out = output_dir(out_dir)
+    output = OutputSet(out_dir, command="graph")  # checked before the work
     if cluster is not None:  # --scheduler: lenses and graph on partitions (element-knn rule)
         refuse_with_scheduler(lens_file=lens_file, stats=stat_columns,
                               neighbors=neighbor_method != "auto")
@@ -90,7 +93,8 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
         columns = []
         if lens_file:
             with _progress.step("graph: read the lens file"):
-                columns += list(LensTable.read(lens_file, cloud, columns=_names(use)))
+                columns += list(LensTable.read(lens_file, cloud, columns=_names(use),
+                                               check=lens_file_check))
         if lens_specs:
             columns += list(compute_lenses(ws, list(lens_specs)))
         table = LensTable(columns, cloud, random_state=seed)
@@ -107,17 +111,16 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
     with _progress.step("graph: summary"):
         text = graph.summary().text()
     click.echo(text)
-    with _progress.step("graph: writing the files"):
-        written = [
-            write_graphml(graph, out / OUTPUTS["graphml"]),
-            write_graph_json(graph, out / OUTPUTS["json"]),
-            write_memberships(graph, out / OUTPUTS["members"]),
-        ]
+    with _progress.step("graph: writing the files"), output as stage:
+        write_graphml(graph, stage / OUTPUTS["graphml"])
+        write_graph_json(graph, stage / OUTPUTS["json"])
+        write_memberships(graph, stage / OUTPUTS["members"])
         if figures:
             from ..plot._style import save
 
-            written += [save(fig, out / OUTPUTS[key]) for key, fig in figures.items()]
-    click.echo(f"wrote {', '.join(str(p) for p in written)}")
+            for key, fig in figures.items():
+                save(fig, stage / OUTPUTS[key])
+    click.echo(f"wrote {', '.join(str(p) for p in output.written)}")
 
 
 COMMANDS = [graph_command]

@@ -6,6 +6,7 @@ import textwrap
 
 import click
 
+from .._io import check_output_file
 from ..lenses import ENDINGS, compute_lenses, get_lens, lens_names
 from ..normalize import NORMALIZATIONS
 from ..workspace import Workspace
@@ -74,6 +75,7 @@ def compute(cloud, seed, lenses, out, normalization, neighbor_method, cluster=No
         out = lens_out_dir(out, ctx.get_parameter_source("out").name == "DEFAULT")
         lens, files = cluster.write_lenses(lenses, out)
         return print_lens_run(cluster.cloud, lens, files, out)
+    out = check_output_file(out)  # before the work: a file in the path, a read-only folder
     ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
     table = compute_lenses(ws, list(lenses))
     if normalization:

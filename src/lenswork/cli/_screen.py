@@ -7,7 +7,7 @@ import click
 from ..screen import screen
 from ..table import FORMATS
 from ..workspace import Workspace
-from ._common import input_options, neighbors_option
+from ._common import input_options, neighbors_option, output_dir
 
 __all__ = ["COMMANDS"]
 
@@ -83,6 +83,7 @@ def screen_command(cloud, seed, out_dir, count, ceiling, refs, extra, no_default
     """
     if no_defaults and not extra:
         raise click.UsageError("--no-defaults needs at least one --lens.")
+    output_dir(out_dir)  # a folder that takes no writes fails here, before the work
     ws = Workspace(cloud, random_state=seed, neighbor_method=neighbor_method)
     result = screen(
         ws, lenses=[] if no_defaults else None, extra=list(extra), count=count,

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import click
 
+from .._io import OutputSet
 from ..bootstrap import bootstrap_graph
 from ..compare import compare_views
 from ..lenses import compute_lenses
@@ -52,14 +53,13 @@ def stability(cloud, seed, lens, grid_intervals, grid_overlaps, out, no_figure, 
     settings inside such a region. With --cover ball a row N of the grid is a
     net spacing of 1/N.
     """
-    out = output_dir(out)
+    output = OutputSet(out, command="stability")  # checked before the work
     ws = _workspace(cloud, seed, neighbor_method)
     table = _lens(ws, lens)
     # "auto" settings fixed on these rows: the map's default cell is the default graph's
     settings = settings.resolve(ws.n, len(table.names))
     smap = stability_map(table, ws, settings=settings, intervals=grid_intervals,
                          overlaps=grid_overlaps)
-    csv_path, sidecar = smap.write(out / "stability.csv")
     click.echo(f"Stability map of {smap.lens} on {ws.n} rows "
                f"({len(smap.intervals)} x {len(smap.overlaps)} cover settings).")
     click.echo(_grid_text(smap, "loops"))
@@ -70,10 +70,11 @@ def stability(cloud, seed, lens, grid_intervals, grid_overlaps, out, no_figure, 
             value = int(smap.counts[feature][cell])
             click.echo(f"{feature}: {value} at the default setting; the same over "
                        f"{int(region.sum())} of {region.size} cells around it")
-    written = [csv_path, sidecar]
-    if not no_figure:
-        written += smap.plot(out / "stability.png")
-    click.echo("wrote " + ", ".join(str(p) for p in written))
+    with output as stage:
+        smap.write(stage / "stability.csv")
+        if not no_figure:
+            smap.plot(stage / "stability.png")
+    click.echo("wrote " + ", ".join(str(p) for p in output.written))
 
 
 def _grid_text(smap, feature):

@@ -23,7 +23,8 @@ Registry
     compute_lenses, get_lens, lens_names, parse_lens, register_lens, user_lens,
     LensPart, LensSpec, Param
 Lens columns
-    LensColumn, LensTable, FORMATS (lens-file formats), ENDINGS (file ending -> format)
+    LensColumn, LensTable, FORMATS (lens-file formats), ENDINGS (file ending -> format),
+    LENS_FILE_CHECKS (what LensTable.read does with a mismatch)
 Lens functions and transformers
     pca_coordinates, PCALens, distance_to_measure, DistanceToMeasure,
     knn_distance, KNNDistance, data_column, gaussian_density, GaussianDensity,
@@ -40,7 +41,7 @@ from ._eccentricity import Eccentricity, eccentricity, geodesic_eccentricity
 from ._laplacian import LaplacianLens, laplacian_eigenmaps
 from ._pca import PCALens, pca_coordinates
 from ._registry import LensPart, LensSpec, Param, get_lens, lens_names, parse_lens, register_lens
-from ._table import ENDINGS, FORMATS, LensColumn, LensTable
+from ._table import ENDINGS, FORMATS, LENS_FILE_CHECKS, LensColumn, LensTable
 
 __all__ = [
     "DistanceToMeasure",
@@ -50,6 +51,7 @@ __all__ = [
     "GaussianDensity",
     "KNNDistance",
     "LaplacianLens",
+    "LENS_FILE_CHECKS",
     "LensColumn",
     "LensPart",
     "LensSpec",
