@@ -18,6 +18,7 @@ from pathlib import Path
 import click
 
 from .. import _progress
+from .._errors import LensworkError
 from ._common import input_options
 
 __all__ = [
@@ -71,7 +72,16 @@ def _computer(client, show):
             with contextlib.redirect_stdout(sys.stderr):  # the bar writes to stdout
                 progress(futures, scheduler=client.scheduler.address)
             click.echo("", err=True)
-        return gather_each(futures)  # one result at a time: spilled results fit in memory
+        try:
+            return gather_each(futures)  # one result at a time: spilled results fit in memory
+        except Exception as err:
+            if type(err).__name__ != "KilledWorker":
+                raise
+            raise LensworkError(
+                f"A Dask worker died repeatedly running the same task ({err}); the run was "
+                f"stopped. Give the workers more memory (--memory-limit), more partitions, or "
+                f"fewer rows per partition."
+            ) from None
 
     return compute
 
