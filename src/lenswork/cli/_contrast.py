@@ -9,6 +9,7 @@ from pathlib import Path
 import click
 
 from .._errors import InputError, ParameterError
+from .._io import unformula
 from ..contrast import AGAINST
 from ..graph import CLUSTERERS, COVER_SCALES, FRAGMENT_RULES, LAYOUTS
 from ._common import cutoff_value, input_options, neighbors_option, number_list
@@ -123,7 +124,8 @@ def _read_ids(path, cloud):
         lines = Path(path).read_text(encoding="utf-8").splitlines()
     except OSError as err:
         raise InputError(f"Cannot read --rows-file {str(path)!r}: {err.strerror}.") from None
-    ids = [ln.split(",")[0].strip() for ln in lines if ln.strip()]
+    # the formula guard of lenswork's own CSV files (memberships.csv) undone
+    ids = [unformula(ln.split(",")[0].strip()) for ln in lines if ln.strip()]
     if ids and ids[0] == cloud.id_name:  # a header line
         ids = ids[1:]
     if not ids:

@@ -139,6 +139,10 @@ def _read_parquet(path, label, prov):
         plain = pa.types.is_integer(typ) or pa.types.is_floating(typ) or pa.types.is_boolean(typ)
         if plain and col.null_count == 0:
             columns.append(np.asarray(col.to_numpy()))
+        elif pa.types.is_nested(typ) or pa.types.is_dictionary(typ) and \
+                pa.types.is_nested(typ.value_type):
+            # map, list and struct cells: no number and no plain id, but passed through as text
+            columns.append(object_array([None if v is None else str(v) for v in col.to_pylist()]))
         else:
             columns.append(object_array(col.to_pylist()))
     n = table.num_rows

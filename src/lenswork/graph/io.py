@@ -46,7 +46,7 @@ from pathlib import Path
 import numpy as np
 
 from .._errors import InputError
-from .._io import atomic_path, write_text
+from .._io import atomic_path, safe_cell, write_text
 from .._json import dumps, plain
 from ..table import LensTable
 from ._lensgraph import STATS, LensGraph
@@ -312,11 +312,11 @@ def write_memberships(graph, path):
     ['row,node', '1,0', '2,0', '2,1', '3,']
     """
     M = graph.membership
-    ids = [plain(x) for x in graph.row_ids]
+    ids = [safe_cell(plain(x)) for x in graph.row_ids]  # formulas neutralised, numbers kept
     path = Path(path)
     with atomic_path(path) as tmp, open(tmp, "w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
-        w.writerow([graph.id_name, "node"])
+        w.writerow([safe_cell(graph.id_name), "node"])
         indptr, indices = M.indptr, M.indices
         for i in range(graph.n_rows):
             a, b = indptr[i], indptr[i + 1]

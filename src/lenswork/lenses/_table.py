@@ -535,12 +535,21 @@ def _write_parquet(tmp, id_name, ids, passthrough, names, lens, delimiter=None):
             "Writing Parquet needs pyarrow: install it with `pip install lenswork[parquet]`, "
             "or write CSV / NPY instead."
         ) from None
-    data = {id_name: pa.array([_item(v) for v in ids])}
+    data = {id_name: _arrow_column(pa, id_name, ids)}
     for name, col in passthrough.items():
-        data[name] = pa.array([_item(v) for v in col])
+        data[name] = _arrow_column(pa, name, col)
     for j, name in enumerate(names):
         data[name] = pa.array(lens[:, j], mask=np.isnan(lens[:, j]))
     pq.write_table(pa.table(data), tmp)
+
+
+def _arrow_column(pa, name, values):
+    """A Parquet column of ids or passthrough cells; mixed or nested cells as text."""
+    cells = [_item(v) for v in values]
+    try:
+        return pa.array(cells)
+    except (pa.ArrowInvalid, pa.ArrowTypeError):
+        return pa.array([None if v is None else str(v) for v in cells], type=pa.string())
 
 
 def _write_npy(tmp, id_name, ids, passthrough, names, lens, delimiter=None):

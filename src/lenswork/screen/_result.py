@@ -10,7 +10,6 @@ the figure sheet).
 
 from __future__ import annotations
 
-import csv
 import html
 import io
 import math
@@ -21,7 +20,7 @@ import numpy as np
 from .. import _progress
 from .._errors import LensworkWarning, ParameterError
 from .._frame import data_frame
-from .._io import MANIFEST, OutputSet, write_text
+from .._io import MANIFEST, OutputSet, csv_writer, write_text
 from .._json import dumps, plain
 from .._validation import check_choice, check_float, check_int
 from .._version import __version__
@@ -401,7 +400,7 @@ class ScreenResult:
         """The ranking table as CSV text (params as JSON, missing values empty)."""
         rows = self.rows()
         buf = io.StringIO()
-        w = csv.writer(buf, lineterminator="\n")
+        w = csv_writer(buf, lineterminator="\n")
         header = list(rows[0]) if rows else []
         w.writerow(header)
         for r in rows:
