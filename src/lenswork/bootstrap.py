@@ -100,6 +100,9 @@ __all__ = ["SIGNIFICANT", "BootstrapResult", "CoverSuggestion", "bootstrap_graph
 
 SCHEMES = ("subsample", "bootstrap")
 
+#: The most resamples bootstrap_graph takes (a share from 10,000 has SE <= 0.005).
+MAX_RESAMPLES = 10_000
+
 
 # --------------------------------------------------------------------------- suggestion
 @dataclass(frozen=True)
@@ -615,7 +618,14 @@ def bootstrap_graph(lenses, workspace, *, settings=None, resamples=100, scheme="
     >>> res.full_counts["loops"], res.mode("loops")[0]
     (1, 1)
     """
-    resamples = check_int("resamples", resamples, lo=1, context="bootstrap_graph")
+    try:  # bounded before the work: each resample is a graph, its counts kept in memory
+        resamples = check_int("resamples", resamples, lo=1, hi=MAX_RESAMPLES,
+                              context="bootstrap_graph")
+    except ParameterError as err:
+        raise ParameterError(
+            f"{err} Each resample builds a graph (seconds each) and the shares' standard error "
+            f"at {MAX_RESAMPLES:,} is already below 0.005."
+        ) from None
     scheme = check_choice("scheme", scheme, SCHEMES, context="bootstrap_graph")
     fraction = check_float("fraction", fraction, lo=0, hi=1, lo_open=True,
                            context="bootstrap_graph")
