@@ -190,6 +190,13 @@ def assemble(raw, features, id_column, scale, invalid, min_rows):
     rows = raw.row_numbers[keep]
     lo, hi = X.min(axis=0), X.max(axis=0)
     constant = lo == hi
+    if constant.all() and n > 1:
+        raise input_error(
+            f"Every row used of {label} has the same feature values "
+            f"({names_list(list(feature_names))}): no lens can tell the rows apart, and a lens "
+            f"computed on them would be constant or arbitrary. Choose feature columns that vary "
+            f"(--features)."
+        )
     if constant.any() and n > 1:
         warn_user(
             f"Feature column{'s' if constant.sum() > 1 else ''} "

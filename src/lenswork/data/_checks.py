@@ -19,7 +19,24 @@ def _overflow_limit(d):
     return math.sqrt(_FLOAT_MAX / (4.0 * d))
 
 
+#: The smallest spread of a feature column whose squared differences stay normal floats.
+_SPREAD_MIN = math.sqrt(float(np.finfo(np.float64).tiny))
+
+
 def check_magnitude(X, names, rows, label, scaling):
+    """Values too large for squared distances, or a spread so small that they underflow."""
+    if X.shape[0] > 1:
+        spread = X.max(axis=0) - X.min(axis=0)
+        tiny = (spread > 0) & (spread < _SPREAD_MIN)
+        if tiny.any():
+            k = int(np.flatnonzero(tiny)[0])
+            after = f" after {scaling} scaling" if scaling else ""
+            raise input_error(
+                f"Column {names[k]!r} in {label} spans only {spread[k]:.3g}{after} (subnormal or "
+                f"near it): squared differences below {_SPREAD_MIN ** 2:.3g} underflow to 0, so "
+                f"its distinct rows would count as identical. Rescale that column (e.g. change "
+                f"its units), or pass scale='zscore' (CLI: --scale zscore)."
+            )
     limit = _overflow_limit(X.shape[1])
     big = np.maximum(X.max(axis=0), -X.min(axis=0)) > limit
     if not big.any():
