@@ -383,6 +383,9 @@ def check_against_manifest(path, *, manifest=MANIFEST):
     if entry is None:
         return (f"{str(path)!r} is not in the manifest {manifest} of its folder (a file from "
                 f"another run or another program)")
+    if not path.is_file():
+        return (f"{str(path)!r} is missing though the manifest {manifest} beside it lists it: "
+                f"a run was stopped while its files were moved in. Run the command again")
     size, digest = file_digest(path)
     if size != entry.get("bytes") or digest != entry.get("sha256"):
         return (f"{str(path)!r} does not match the manifest {manifest} beside it (written by "

@@ -62,6 +62,10 @@ MAX_BANDWIDTH = 1e100
 #: A numeric bandwidth above this many times the data's widest sd makes the kernel flat over
 #: the data: log-density differences ~ (sd / h)^2 fall under float64 rounding near 1e6.
 FLAT_RATIO = 1e6
+#: A numeric bandwidth below this many times the data's widest sd: the whitened coordinates
+#: pass 1e6, their squares 1e12, and the tile sums' cancellation error (1e-16 relative) is
+#: no longer small against the kernel exponents.
+NARROW_RATIO = 1e-6
 
 #: Rows of the data used for likelihood cross-validation of the bandwidth.
 CV_SUBSAMPLE = 2_000
@@ -308,6 +312,14 @@ def _kernel_covariance(X, bandwidth, rng):
         return _cv_covariance(X, rng)
     h = float(bandwidth)
     spread = float(np.sqrt(np.max(np.var(X, axis=0))))
+    if spread > 0 and h < NARROW_RATIO * spread:
+        raise ParameterError(
+            f"The bandwidth {h:g} is below {NARROW_RATIO:g} times the widest spread of the data "
+            f"(sd {spread:.4g}): squared distances in units of h pass 1e12, the kernel sums "
+            f"lose their precision, and each row's density would be its own kernel alone, a "
+            f"constant lens. Give a bandwidth near the distances between neighbouring rows, or "
+            f"a rule such as 'scott'."
+        )
     if spread > 0 and h > FLAT_RATIO * spread:
         raise ParameterError(
             f"The bandwidth {h:g} is more than {FLAT_RATIO:g} times the widest spread of the "

@@ -291,11 +291,15 @@ class PartitionedLenses:
                            replace_folder=True)
         write = dask.delayed(_write_part, pure=False)
         errors = [bool(not p.get("exact", False)) for p in self.provenance]
+        # without an id column each partition numbers its rows from 1: the files get the
+        # global 1-based position instead, so the dataset's ids are unique
+        numbered = self.cloud.options.get("id_column") is None
         compute = compute or (lambda items: list(dask.compute(*items)))
         with output as stage:
             tasks = [
                 write(self.cloud.delayed_parts()[i], part, self.names, self.cloud.id_name,
-                      str(stage / f"part-{i:05d}.parquet"), errors)
+                      str(stage / f"part-{i:05d}.parquet"), errors,
+                      int(self.cloud.offsets[i]) if numbered else None)
                 for i, part in enumerate(self.parts)
             ]
             names = [Path(f).name for f in compute(tasks)]
@@ -310,12 +314,13 @@ class PartitionedLenses:
         return [str(directory / n) for n in names] + [str(sidecar)]
 
 
-def _write_part(data, part, names, id_name, path, errors=None):
+def _write_part(data, part, names, id_name, path, errors=None, offset=None):
     import pyarrow as pa
     import pyarrow.parquet as pq
 
     values, errs = part[0], part[1]
-    cols = {id_name: data[1]}
+    ids = data[1] if offset is None else offset + np.arange(1, len(data[1]) + 1)
+    cols = {id_name: ids}
     for j, name in enumerate(names):
         cols[name] = values[:, j]
     for j, name in enumerate(names):
