@@ -458,3 +458,17 @@ def test_cluster_options_refused_with_a_message(tmp_path):
                                        str(tmp_path / "o")])
         assert res.exit_code == 1 and text in res.output, res.output
         assert time.perf_counter() - start < 30  # no worker is started
+
+
+def test_a_cluster_that_does_not_start_ends_in_a_message(monkeypatch):
+    distributed = pytest.importorskip("distributed")
+    from lenswork.partitioned import start_client
+
+    def lost(*args, **kwargs):  # what a worker dying during start-up raises, among others
+        raise RuntimeError("Nanny failed to start: worker lost")
+
+    monkeypatch.setattr(distributed, "Client", lost)
+    with pytest.raises(ParameterError, match="did not start .*worker lost"):
+        start_client("local", workers=1)
+    with pytest.raises(ParameterError, match=r"'workers' parameter .*\[1, 256\]"):
+        start_client("local", workers=100_000)

@@ -12,7 +12,13 @@ from .._errors import InputError, ParameterError
 from .._io import unformula
 from ..contrast import AGAINST
 from ..graph import CLUSTERERS, COVER_SCALES, FRAGMENT_RULES, LAYOUTS
-from ._common import cutoff_value, input_options, neighbors_option, number_list
+from ._common import (
+    cutoff_value,
+    input_options,
+    lens_file_check_option,
+    neighbors_option,
+    number_list,
+)
 
 __all__ = ["COMMANDS"]
 
@@ -37,6 +43,7 @@ def graph_build_options(func):
         click.option("--lens-file", type=click.Path(dir_okay=False), default=None,
                      help="Lens columns written by `lenswork compute` or `lenswork screen`, "
                      "matched to TABLE by row id."),
+        lens_file_check_option,
         click.option("--use", "use", default=None, metavar="COLS",
                      help="Columns to take from --lens-file, comma-separated (default: all)."),
         click.option("--intervals", default="10", show_default=True, metavar="N[,N...]",
@@ -76,7 +83,8 @@ def build_from_options(cloud, seed, opts):
     ws = Workspace(cloud, random_state=seed, neighbor_method=opts["neighbor_method"])
     columns = []
     if opts["lens_file"]:
-        columns += list(LensTable.read(opts["lens_file"], cloud, columns=_names(opts["use"])))
+        columns += list(LensTable.read(opts["lens_file"], cloud, columns=_names(opts["use"]),
+                                       check=opts["lens_file_check"]))
     if opts["lens_specs"]:
         columns += list(compute_lenses(ws, list(opts["lens_specs"])))
     table = LensTable(columns, cloud, random_state=seed)
@@ -91,8 +99,8 @@ def build_from_options(cloud, seed, opts):
 
 def _graph_opts(func):
     """Collect the graph-building options into one ``graph_opts`` dict."""
-    keys = ("lens_specs", "lens_file", "use", "intervals", "overlap", "cover_scale", "clusterer",
-            "cutoff", "min_size", "fragments", "k", "neighbor_method")
+    keys = ("lens_specs", "lens_file", "lens_file_check", "use", "intervals", "overlap",
+            "cover_scale", "clusterer", "cutoff", "min_size", "fragments", "k", "neighbor_method")
 
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
