@@ -65,9 +65,9 @@ def compute(cloud, seed, lenses, out, normalization, neighbor_method, cluster=No
     estimate, the library version, the input checksum and the seed.
 
     With --scheduler, TABLE is a directory of Parquet or CSV partitions (or a
-    glob) and the columns are computed on a Dask cluster and written to the
-    directory OUT (one Parquet file per partition and lenses.json; default
-    lenses/).
+    glob) and the columns are computed on a Dask cluster and written as the
+    Parquet dataset folder OUT (one file per partition; default lenses/), its
+    provenance to OUT.json beside it.
     """
     if cluster is not None:  # the partitioned path (lenswork.partitioned)
         refuse_with_scheduler(normalize=normalization, neighbors=neighbor_method != "auto")

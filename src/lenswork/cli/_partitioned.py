@@ -145,7 +145,7 @@ class ClusterRun:
                                   random_state=self.seed)
 
     def write_lenses(self, specs, out):
-        """Lens columns as one Parquet file per partition plus lenses.json in ``out``."""
+        """Lens columns as a Parquet dataset folder ``out`` plus ``out.json`` beside it."""
         lens = self.lenses(specs)
         return lens, lens.write(out, compute=self.compute)
 
@@ -318,15 +318,15 @@ def _alias_run(source, features, id_column, scale, seed, landmarks, scheduler, w
 @click.command("cluster-lenses")
 @_alias_options
 @click.option("-o", "--out", required=True, type=click.Path(file_okay=False),
-              help="Directory for one Parquet file of lens columns per partition and "
-              "lenses.json.")
+              help="Parquet dataset folder (one file of lens columns per partition); its "
+              "provenance goes to OUT.json beside it.")
 def cluster_lenses(source, features, id_column, scale, lenses, seed, scheduler, workers,
                    memory_limit, landmarks, out):
     """Lens columns of SOURCE on a Dask cluster: `lenswork compute SOURCE --scheduler ...`.
 
     SOURCE is a directory of Parquet or CSV files (one partition each) or a glob.
     Exact lenses (pca, eccentricity with p = 2, column) equal the single-machine
-    ones; the others state their error in lenses.json.
+    ones; the others state their error in OUT.json and a per-row NAME_error column.
     """
     with _alias_run(source, features, id_column, scale, seed, landmarks, scheduler, workers,
                     memory_limit) as run:
