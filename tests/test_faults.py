@@ -472,3 +472,17 @@ def test_a_cluster_that_does_not_start_ends_in_a_message(monkeypatch):
         start_client("local", workers=1)
     with pytest.raises(ParameterError, match=r"'workers' parameter .*\[1, 256\]"):
         start_client("local", workers=100_000)
+
+
+def test_the_thread_count_of_the_approximate_search_is_recorded(tmp_path):
+    # pynndescent's result depends on numba's thread count: the sidecar says which it was
+    numba = pytest.importorskip("numba")
+    cloud = PointCloud.from_array(np.random.default_rng(0).normal(size=(20, 2)))
+    table = LensTable([LensColumn("h", cloud.X[:, 0])], cloud)
+    before = numba.get_num_threads()
+    try:
+        numba.set_num_threads(1)
+        _, sidecar = table.write(tmp_path / "l.csv")
+        assert json.loads(sidecar.read_text())["threads"] == {"numba": 1}
+    finally:
+        numba.set_num_threads(before)

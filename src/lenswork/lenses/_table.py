@@ -145,9 +145,15 @@ class LensTable:
         )
 
     def provenance(self):
-        """JSON-ready provenance for the whole table (NaN and infinities as None)."""
+        """JSON-ready provenance for the whole table (NaN and infinities as None).
+
+        ``threads`` records numba's thread count when numba is loaded (the
+        approximate neighbour search, pynndescent, runs on it and its result
+        depends on the count).
+        """
         return plain({
             "lenswork_version": __version__,
+            "threads": _threads(),
             "input": self.cloud.provenance,
             "random_state": self.random_state,
             "n_rows_used": int(self.cloud.n),
@@ -381,6 +387,19 @@ class LensTable:
 
 #: Values of ``LensTable.read(check=)`` and of the CLI's --lens-file-check.
 LENS_FILE_CHECKS = ("warn", "error", "off")
+
+
+def _threads():
+    """{"numba": thread count} when numba is loaded, else {} (importing it costs seconds)."""
+    import sys
+
+    numba = sys.modules.get("numba")
+    if numba is None:
+        return {}
+    try:
+        return {"numba": int(numba.get_num_threads())}
+    except Exception:  # numba's threading layer may fail to start: record nothing
+        return {}
 
 
 def _mismatch(text, check):
