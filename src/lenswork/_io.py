@@ -24,7 +24,6 @@ from __future__ import annotations
 
 import contextlib
 import errno
-import fcntl
 import hashlib
 import json
 import os
@@ -32,6 +31,11 @@ import re
 import shutil
 import tempfile
 from pathlib import Path
+
+try:  # POSIX: concurrent runs into one folder move their sets in one after the other
+    import fcntl
+except ImportError:  # pragma: no cover - Windows: no folder lock, each set still moved in whole
+    fcntl = None
 
 from ._errors import LensworkError, OutputError
 from ._version import __version__
@@ -520,16 +524,18 @@ class OutputSet:
         names = self._entries()
         self.document = self._document(names)
         write_text(self._stage / self.manifest, dumps(self.document) + "\n")
-        fd = os.open(self.directory, os.O_RDONLY)
+        fd = os.open(self.directory, os.O_RDONLY) if fcntl is not None else None
         try:
-            fcntl.flock(fd, fcntl.LOCK_EX)  # concurrent runs into one folder move in one by one
+            if fd is not None:
+                fcntl.flock(fd, fcntl.LOCK_EX)  # concurrent runs move in one after the other
             self._clean_stale()
             if self.replace_folder:
                 self._swap_folder()
             else:
                 self._move_in(names)
         finally:
-            os.close(fd)
+            if fd is not None:
+                os.close(fd)
         self.written = [self.directory / n for n in names] + [self.directory / self.manifest]
 
     def _earlier(self):
