@@ -141,6 +141,18 @@ def test_kill_at_every_step_of_moving_in_then_the_next_run_heals(tmp_path):
             "a.txt", "e.txt", MANIFEST, "notes.txt"]
 
 
+def test_concurrent_runs_into_one_folder_leave_one_whole_set(tmp_path):
+    folder = tmp_path / "out"
+    sets = [["a.txt", "b.txt"], ["b.txt", "c.txt", "d.txt"], ["e.txt"]]
+    procs = [subprocess.Popen([sys.executable, "-c", _WRITER, str(folder), ",".join(names),
+                               f"run{i}", "0"], env=_env(), stdout=subprocess.DEVNULL)
+             for i, names in enumerate(sets)]
+    assert [p.wait() for p in procs] == [0, 0, 0]
+    names = _assert_intact(folder)
+    assert sorted(names) in [sorted(s) for s in sets]
+    assert len({(folder / n).read_text().split()[0] for n in names}) == 1  # from one run
+
+
 def test_cli_killed_at_random_points_then_rerun(tmp_path):
     data = _table_csv(tmp_path / "t.csv", 3000)
     out = tmp_path / "out"
