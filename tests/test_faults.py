@@ -498,3 +498,18 @@ def test_the_thread_count_of_the_approximate_search_is_recorded(tmp_path):
         assert json.loads(sidecar.read_text())["threads"] == {"numba": 1}
     finally:
         numba.set_num_threads(before)
+
+
+def test_cluster_density_on_a_constant_column_refused_as_on_one_machine():
+    da = pytest.importorskip("dask.array")
+    from lenswork.lenses import gaussian_density
+    from lenswork.partitioned import open_partitioned, partitioned_lenses
+
+    X = np.random.default_rng(4).normal(size=(600, 3))
+    X[:, 2] = 1.0
+    with pytest.raises(InputError, match="singular") as one:
+        gaussian_density(X)
+    with pytest.raises(InputError, match="singular") as many:
+        partitioned_lenses(open_partitioned(da.from_array(X, chunks=(200, 3))), ["density"],
+                           landmarks=100)
+    assert str(one.value) == str(many.value)  # the same message on both paths

@@ -46,7 +46,10 @@ from ._common import (
 )
 from ._registry import LensPart, Param, register_lens
 
-__all__ = ["GaussianDensity", "gaussian_density", "scott_bandwidth", "silverman_bandwidth"]
+__all__ = [
+    "GaussianDensity", "gaussian_density", "kernel_cholesky", "scott_bandwidth",
+    "silverman_bandwidth",
+]
 
 BANDWIDTH_RULES = ("scott", "silverman", "cv")
 MODES = ("auto", "exact", "scalable")
@@ -330,7 +333,16 @@ def _kernel_covariance(X, bandwidth, rng):
     return np.eye(d) * h**2, {"bandwidth_rule": "fixed", "bandwidth_h": h}
 
 
-def _cholesky(H, rule):
+def kernel_cholesky(H, rule):
+    """Cholesky factor of a kernel covariance; InputError (what to do) when it is singular.
+
+    Shared by the partitioned density, so both paths refuse with one message.
+
+    Examples
+    --------
+    >>> kernel_cholesky(np.eye(2) * 4.0, "fixed").tolist()
+    [[2.0, 0.0], [0.0, 2.0]]
+    """
     try:
         L = np.linalg.cholesky(H)
     except np.linalg.LinAlgError:
@@ -367,7 +379,7 @@ def _cv_covariance(X, rng):
     if s < 3:
         raise InputError(f"The 'cv' bandwidth needs at least 3 rows; got {n}.")
     base = C * s ** (-2.0 / (d + 4))
-    L = _cholesky(base, "cv")
+    L = kernel_cholesky(base, "cv")
     Z = _whiten(S, S.mean(axis=0), L)
     sq = np.einsum("ij,ij->i", Z, Z)
     D2 = np.maximum(sq[:, None] + sq[None, :] - 2.0 * (Z @ Z.T), 0.0)
@@ -405,7 +417,7 @@ class _Kernel:
         self.n, self.d = X.shape
         self.H, self.info = _kernel_covariance(X, bandwidth, rng)
         rule = self.info["bandwidth_rule"]
-        self.L = _cholesky(self.H, rule)
+        self.L = kernel_cholesky(self.H, rule)
         self.mean = X.mean(axis=0)
         self.Z = _whiten(X, self.mean, self.L)
         # log of the kernel's value at 0: -(d log 2 pi + log det H) / 2

@@ -36,6 +36,7 @@ from .._io import OutputSet, atomic_path, check_output_file, write_text
 from .._json import dumps
 from .._validation import check_float, check_float_or_choice, check_int
 from ..lenses import parse_lens
+from ..lenses._density import kernel_cholesky
 from ..lenses._extend import nystrom_extend
 from ..lenses._laplacian import laplacian_eigenmaps
 from ._intake import require_dask
@@ -421,7 +422,8 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
                 H = cloud.scatter / (n - 1) * n ** (-2.0 / (d + 4))
                 if p["bandwidth"] != "scott":
                     H = np.eye(d) * float(p["bandwidth"]) ** 2
-                Lc = np.linalg.cholesky(H)
+                Lc = kernel_cholesky(H, p["bandwidth"] if isinstance(p["bandwidth"], str)
+                                     else "fixed")  # the single machine's refusal
                 sctx["whiten"] = np.linalg.inv(Lc)
                 sctx["log_norm"] = float(-0.5 * d * math.log(2 * math.pi)
                                          - np.log(np.diag(Lc)).sum())
