@@ -170,8 +170,15 @@ def start_client(scheduler="local", *, workers=2, threads=1, memory_limit="auto"
     if str(scheduler).strip().lower() == "local":
         import dask
 
-        workers = check_int("workers", workers, lo=1, hi=256, context="start_client")
-        threads = check_int("threads", threads, lo=1, hi=256, context="start_client")
+        try:  # bounded: each worker is a process with its own memory limit on this machine
+            workers = check_int("workers", workers, lo=1, hi=256, context="start_client")
+            threads = check_int("threads", threads, lo=1, hi=256, context="start_client")
+        except ParameterError as err:
+            raise ParameterError(
+                f"{err} A local cluster starts one process per worker on this machine (about "
+                f"66 MiB each before any data); for more, start a cluster of several machines "
+                f"and pass its scheduler address."
+            ) from None
         memory_limit = check_memory_limit(memory_limit)
         # a Client given cluster options starts a LocalCluster and closes it with itself; the
         # workers take the configuration of this moment (also when the nanny restarts one)
