@@ -84,15 +84,18 @@ _WRITER = textwrap.dedent("""
     from pathlib import Path
     from lenswork._io import OutputSet, write_text
     folder, names, tag, kill_at = sys.argv[1], sys.argv[2].split(","), sys.argv[3], int(sys.argv[4])
+    whole = len(sys.argv) > 5  # a dataset folder: swapped in whole by renames
     calls = [0]
-    real = os.replace
-    def replace(a, b):
-        calls[0] += 1
-        if calls[0] == kill_at:
-            os.kill(os.getpid(), signal.SIGKILL)
-        return real(a, b)
-    os.replace = replace
-    with OutputSet(folder, command="test") as stage:
+    def killing(real):
+        def call(a, b):
+            calls[0] += 1
+            if calls[0] == kill_at:
+                os.kill(os.getpid(), signal.SIGKILL)
+            return real(a, b)
+        return call
+    os.replace, os.rename = killing(os.replace), killing(os.rename)
+    manifest = "_lenswork-manifest.json" if whole else "lenswork-manifest.json"
+    with OutputSet(folder, command="test", manifest=manifest, replace_folder=whole) as stage:
         for name in names:
             write_text(stage / name, f"{tag} {name}\\n" * 1000)
     print(calls[0])
@@ -108,9 +111,10 @@ def _write_set(folder, names, tag):
             write_text(stage / name, f"{tag} {name}\n" * 1000)
 
 
-def _run_writer(folder, names, tag, kill_at=0):
+def _run_writer(folder, names, tag, kill_at=0, whole=False):
     return subprocess.run([sys.executable, "-c", _WRITER, str(folder), ",".join(names), tag,
-                           str(kill_at)], env=_env(), capture_output=True, text=True)
+                           str(kill_at), *(["whole"] if whole else [])], env=_env(),
+                          capture_output=True, text=True)
 
 
 def test_kill_at_every_step_of_moving_in_then_the_next_run_heals(tmp_path):
@@ -139,6 +143,28 @@ def test_kill_at_every_step_of_moving_in_then_the_next_run_heals(tmp_path):
         assert _assert_intact(folder) == {"a.txt", "e.txt"}
         assert sorted(p.name for p in folder.iterdir()) == [
             "a.txt", "e.txt", MANIFEST, "notes.txt"]
+
+
+def test_kill_while_a_dataset_folder_is_swapped_in(tmp_path):
+    dataset = "_lenswork-manifest.json"
+    first, second = ["part-0", "part-1", "part-2"], ["part-0", "part-1"]
+    steps = int(_run_writer(tmp_path / "count", second, "x", whole=True).stdout)
+    for kill_at in range(1, steps + 1):
+        folder = tmp_path / f"k{kill_at}"
+        with OutputSet(folder, command="test", manifest=dataset, replace_folder=True) as stage:
+            for name in first:
+                (stage / name).write_text(f"old {name}\n")
+        run = _run_writer(folder, second, "new", kill_at, whole=True)
+        assert run.returncode == -signal.SIGKILL
+        if folder.exists():  # the old set or the new one, whole: never a mix of parts
+            parts = sorted(p.name for p in folder.iterdir() if not p.name.startswith("_"))
+            assert parts in (first, second)
+            assert len({(folder / n).read_text().split()[0] for n in parts}) == 1
+        with OutputSet(folder, command="test", manifest=dataset, replace_folder=True) as stage:
+            (stage / "part-0").write_text("third\n")
+        assert sorted(p.name for p in folder.iterdir()) == [dataset, "part-0"]
+        assert [p.name for p in tmp_path.iterdir() if p.name.startswith(f".{folder.name}.")] \
+            == []
 
 
 def test_concurrent_runs_into_one_folder_leave_one_whole_set(tmp_path):
