@@ -539,3 +539,15 @@ def test_cluster_density_on_a_constant_column_refused_as_on_one_machine():
         partitioned_lenses(open_partitioned(da.from_array(X, chunks=(200, 3))), ["density"],
                            landmarks=100)
     assert str(one.value) == str(many.value)  # the same message on both paths
+
+
+def test_few_distinct_rows_warn_with_the_result_per_lens(tmp_path):
+    rng = np.random.default_rng(9)
+    X = np.repeat(rng.normal(size=(5, 3)), 20, axis=0)  # 5 distinct rows, 20 copies each
+    np.savetxt(tmp_path / "few.csv", X, delimiter=",", header="a,b,c", comments="")
+    with pytest.warns(LensworkWarning, match=r"only 5 distinct rows among 100.*20 to 20"):
+        cloud = load_table(tmp_path / "few.csv")
+    assert cloud.provenance["distinct_rows"] == 5
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # distinct rows: no warning, no count
+        load_table(rng.normal(size=(100, 3)))

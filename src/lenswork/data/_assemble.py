@@ -6,7 +6,7 @@ import math
 
 import numpy as np
 
-from ._checks import check_magnitude, check_unique_ids
+from ._checks import check_distinct_rows, check_magnitude, check_unique_ids
 from ._cloud import ExcludedRow, PointCloud
 from ._files import DELIMITER_LIKE, DELIMITER_NAMES
 from ._messages import (
@@ -208,6 +208,7 @@ def assemble(raw, features, id_column, scale, invalid, min_rows):
     if scale is not None:
         X, scaling = _standardise(X, scale, feature_names, label)
     check_magnitude(X, feature_names, rows, label, scale)
+    distinct = check_distinct_rows(X, label)
     id_name = names[id_j] if id_j is not None else (
         "row" if "row" not in names else "row_number"
     )
@@ -218,6 +219,8 @@ def assemble(raw, features, id_column, scale, invalid, min_rows):
         features=list(feature_names), id_column=None if id_j is None else names[id_j],
         passthrough=[names[j] for j in pass_js], scaling=scaling, invalid=invalid,
     )
+    if distinct is not None:
+        provenance["distinct_rows"] = distinct
     return PointCloud(
         X=X,
         feature_names=feature_names,
