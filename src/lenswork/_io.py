@@ -364,7 +364,7 @@ def _manifest_names(doc):
             and f["name"] not in (".", "..")}
 
 
-def check_against_manifest(path, *, manifest=MANIFEST):
+def check_against_manifest(path, *, manifest=MANIFEST, digest=None):
     """None when ``path`` matches the manifest of its folder (or the folder has none),
     else a sentence saying what does not match.
 
@@ -390,7 +390,7 @@ def check_against_manifest(path, *, manifest=MANIFEST):
     if not path.is_file():
         return (f"{str(path)!r} is missing though the manifest {manifest} beside it lists it: "
                 f"a run was stopped while its files were moved in. Run the command again")
-    size, digest = file_digest(path)
+    size, digest = digest or file_digest(path)
     if size != entry.get("bytes") or digest != entry.get("sha256"):
         return (f"{str(path)!r} does not match the manifest {manifest} beside it (written by "
                 f"`lenswork {doc.get('command', '?')}`): a run was stopped while its files were "

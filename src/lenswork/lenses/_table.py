@@ -413,19 +413,19 @@ def _mismatch(text, check):
 def _check_lens_file(path, meta, cloud, check):
     """The lens file against its sidecar, the folder's manifest and the table's checksum."""
     sidecar = path.with_name(path.name + ".json")
-    for p in (path, sidecar):
-        problem = check_against_manifest(p)
+    size, digest = file_digest(path)  # once: against the manifest and the sidecar
+    for p, known in ((path, (size, digest)), (sidecar, None)):
+        problem = check_against_manifest(p, digest=known)
         if problem:
             _mismatch(problem, check)
             return
     info = meta["file"]
-    if isinstance(info.get("sha256"), str):
-        size, digest = file_digest(path)
-        if size != info.get("bytes") or digest != info["sha256"]:
-            _mismatch(f"The lens file {str(path)!r} is not the file its sidecar "
-                      f"{sidecar.name!r} describes (size or SHA-256 differs): one was replaced "
-                      f"without the other", check)
-            return
+    if isinstance(info.get("sha256"), str) and (size != info.get("bytes")
+                                                or digest != info["sha256"]):
+        _mismatch(f"The lens file {str(path)!r} is not the file its sidecar "
+                  f"{sidecar.name!r} describes (size or SHA-256 differs): one was replaced "
+                  f"without the other", check)
+        return
     mine = (cloud.provenance or {}).get("sha256")
     theirs = (meta.get("input") or {}).get("sha256")
     if isinstance(mine, str) and isinstance(theirs, str) and mine != theirs:
