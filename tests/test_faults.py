@@ -267,6 +267,15 @@ def test_path_under_a_file_and_a_folder_named_like_a_file(tmp_path):
     assert res.exit_code == 2 and "is a file" in res.output  # click's usage error
     res = CliRunner().invoke(cli, ["compute", "--demo", "-l", "pca", "-o", str(tmp_path)])
     assert res.exit_code != 0 and "Traceback" not in res.output
+    os.mkfifo(tmp_path / "pipe.csv")  # never replaced by a regular file (nor a device node)
+    res = CliRunner().invoke(cli, ["compute", "--demo", "-l", "pca", "-o",
+                                   str(tmp_path / "pipe.csv")])
+    assert res.exit_code == 1 and "not a regular file" in res.output
+    assert not (tmp_path / "pipe.csv").is_file()
+    for argv in (["compute", "--demo", "-l", "pca", "-o", ""],
+                 ["graph", "--demo", "-l", "pca", "-o", ""]):
+        res = CliRunner().invoke(cli, argv)
+        assert res.exit_code == 1 and "empty" in res.output
 
 
 # ------------------------------------------------------------------ output sets across runs

@@ -81,7 +81,7 @@ def os_error_text(err, path=None):
         errno.ENOTDIR: "a part of the path is a file, not a folder; choose another output path",
         errno.EISDIR: "it is a folder, not a file; give a file name",
         errno.ENAMETOOLONG: "the name is too long for the file system; use a shorter one",
-    }.get(err.errno, err.strerror or str(err))
+    }.get(err.errno, err.strerror or str(err)).rstrip(".")
     return f"{where}: {what}." if where else f"{what}."
 
 
@@ -205,6 +205,8 @@ def atomic_path(path):
     ['a.txt']
     """
     path = Path(path)
+    if path.exists() and not path.is_file():  # never replace a folder, device, FIFO, socket
+        raise OutputError(f"Cannot write {str(path)!r}: it exists and is not a regular file.")
     path.parent.mkdir(parents=True, exist_ok=True)
     _remove_stale_tmp(path.parent, {path.name})
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.{os.getpid()}.", suffix=".tmp",
@@ -296,6 +298,8 @@ def check_output_dir(directory, *, what="output folder"):
     ...     check_output_dir(Path(d) / "new").name
     'new'
     """
+    if not str(directory).strip():
+        raise OutputError(f"The {what} is empty; give a folder path (-o).")
     directory = Path(directory)
     probe = directory
     while not probe.exists() and not probe.is_symlink() and probe != probe.parent:
@@ -322,9 +326,16 @@ def check_output_dir(directory, *, what="output folder"):
 
 def check_output_file(path):
     """Check before any work that the file ``path`` can be written; return it as a Path."""
+    if not str(path).strip():
+        raise OutputError("The output file name is empty; give one (-o).")
     path = Path(path)
     if path.is_dir():
         raise OutputError(f"The output {str(path)!r} is a folder; give a file name (-o).")
+    if path.exists() and not path.is_file():
+        raise OutputError(
+            f"The output {str(path)!r} is not a regular file (a device, FIFO or socket), which "
+            f"lenswork does not replace; give another file name (-o)."
+        )
     parent = path.parent
     while not parent.exists() and parent != parent.parent:
         parent = parent.parent
