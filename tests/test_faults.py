@@ -560,3 +560,21 @@ def test_few_distinct_rows_warn_with_the_result_per_lens(tmp_path):
     with warnings.catch_warnings():
         warnings.simplefilter("error")  # distinct rows: no warning, no count
         load_table(rng.normal(size=(100, 3)))
+
+
+def test_control_characters_in_names_keep_the_graphml_well_formed(tmp_path):
+    import xml.etree.ElementTree as ET
+
+    rng = np.random.default_rng(8)
+    path = tmp_path / "ctl.csv"
+    with open(path, "w", newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(["id", "a\x01b", "<y&\"z\">"])
+        w.writerows([f"r\x02{i}", *rng.normal(size=2)] for i in range(200))
+    res = CliRunner().invoke(cli, ["--quiet", "graph", str(path), "--id-column", "id", "-l",
+                                   "pca", "--stats", "all", "--no-figure", "-o",
+                                   str(tmp_path / "g")])
+    assert res.exit_code == 0, res.output
+    root = ET.parse(tmp_path / "g" / "graph.graphml").getroot()  # the stdlib XML 1.0 parser
+    names = {k.get("attr.name") for k in root.iter("{http://graphml.graphdrawing.org/xmlns}key")}
+    assert "a\ufffdb_mean" in names and '<y&"z">_mean' in names

@@ -40,6 +40,7 @@ from __future__ import annotations
 
 import csv
 import json
+import re
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
@@ -64,6 +65,17 @@ FORMAT_VERSION = 1
 _GRAPHML_NS = "http://graphml.graphdrawing.org/xmlns"
 _XSI_NS = "http://www.w3.org/2001/XMLSchema-instance"
 _SCHEMA = f"{_GRAPHML_NS} {_GRAPHML_NS}/1.0/graphml.xsd"
+
+
+#: Characters XML 1.0 does not allow (ElementTree writes them as they are, which no XML
+#: parser reads back): control characters but tab, newline and carriage return, lone
+#: surrogates, U+FFFE and U+FFFF.
+_NOT_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
+
+
+def _xml_text(text):
+    """``text`` with the characters XML 1.0 does not allow replaced by U+FFFD."""
+    return _NOT_XML.sub("\ufffd", text)
 
 
 def write_graphml(graph, path):
@@ -96,7 +108,7 @@ def write_graphml(graph, path):
     def key(domain, name, kind):
         kid = f"d{len(keys)}"
         keys[(domain, name)] = kid
-        ET.SubElement(root, "key", {"id": kid, "for": domain, "attr.name": name,
+        ET.SubElement(root, "key", {"id": kid, "for": domain, "attr.name": _xml_text(name),
                                     "attr.type": kind})
         return kid
 
