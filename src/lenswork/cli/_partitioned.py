@@ -19,6 +19,7 @@ import click
 
 from .. import _progress
 from .._errors import LensworkError
+from .._io import check_output_dir, check_output_file
 from ._common import input_options
 
 __all__ = [
@@ -265,7 +266,7 @@ def lens_out_dir(out, default_used):
     """The directory the partitioned lens columns go to, from ``compute``'s ``-o``."""
     path = Path(out)
     if default_used:
-        return path.with_suffix("")
+        return check_output_dir(path.with_suffix(""))
     if path.suffix.lower() in _FILE_ENDINGS:
         raise click.UsageError(
             f"With --scheduler the lens columns are written as one Parquet file per partition "
@@ -273,7 +274,8 @@ def lens_out_dir(out, default_used):
         )
     if path.exists() and not path.is_dir():
         raise click.UsageError(f"Output {out!r} is a file; give a directory path.")
-    return path
+    check_output_file(path.with_name(path.name + ".json"))  # the provenance beside it
+    return check_output_dir(path)  # a folder that takes no writes fails before the work
 
 
 def print_lens_run(cloud, lens, files, out):
@@ -328,6 +330,7 @@ def cluster_lenses(source, features, id_column, scale, lenses, seed, scheduler, 
     Exact lenses (pca, eccentricity with p = 2, column) equal the single-machine
     ones; the others state their error in OUT.json and a per-row NAME_error column.
     """
+    check_output_dir(out)  # before the cluster starts
     with _alias_run(source, features, id_column, scale, seed, landmarks, scheduler, workers,
                     memory_limit) as run:
         lens, files = run.write_lenses(lenses, out)
@@ -358,6 +361,7 @@ def cluster_graph(source, features, id_column, scale, lenses, seed, scheduler, w
 
     settings = GraphSettings(intervals=intervals, overlap=overlap, k=k, min_size=min_size,
                              scale="raw", clusterer="element-knn")
+    check_output_file(out)  # before the cluster starts
     with _alias_run(source, features, id_column, scale, seed, landmarks, scheduler, workers,
                     memory_limit) as run:
         graph = run.graph(lenses, settings)
