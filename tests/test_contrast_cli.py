@@ -105,7 +105,8 @@ def test_rows_file_and_troublesome_columns_on_a_table(tmp_path):
     with open(out / "contrast.csv", newline="") as fh:
         rows = [r for r in csv.DictReader(fh) if r["feature"] == "rows"]
     assert rows[0]["column"] in {"vibration_mm_s", "bearing_temp_c", "state"}
-    assert sorted(p.name for p in out.iterdir()) == ["contrast.csv", "contrast.json"]
+    assert sorted(p.name for p in out.iterdir()) == ["contrast.csv", "contrast.json",
+                                                     "lenswork-manifest.json"]
 
 
 def test_default_tests_the_significant_features_and_all_features_the_rest(tmp_path):

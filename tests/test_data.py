@@ -99,24 +99,24 @@ def test_delimiter_option_and_the_hint_that_asks_for_it(tmp_path):
         load_table(path, delimiter="::")
 
 
-def test_row_numbers_are_line_numbers_of_each_record(tmp_path):
-    # Lines counted by hand (common practice: the header is row 1, as a spreadsheet shows it;
-    # a record spanning lines is numbered by its first line, as a text editor shows it).
+def test_row_numbers_are_spreadsheet_rows_of_each_record(tmp_path):
+    # Rows counted by hand as a spreadsheet shows them (common practice: the header is row 1,
+    # one row per record whatever line breaks its quoted fields hold, a blank line an empty row).
     text = (
-        "a,b,c\r\n"          # 1
-        '1,2,"p\r\nq"\r\n'   # 2-3
-        "3,4,r\r\n"          # 4
-        "\r\n"               # 5 (blank: no row)
-        '5,6,"s\nt\nu"\r\n'  # 6-8
-        "7,,v\r\n"           # 9
-        "8,9,w\r\n"          # 10
+        "a,b,c\r\n"          # row 1 (line 1)
+        '1,2,"p\r\nq"\r\n'   # row 2 (lines 2-3)
+        "3,4,r\r\n"          # row 3 (line 4)
+        "\r\n"               # row 4 (blank: no data)
+        '5,6,"s\nt\nu"\r\n'  # row 5 (lines 6-8)
+        "7,,v\r\n"           # row 6 (line 9)
+        "8,9,w\r\n"          # row 7 (line 10)
     )
     path = _write(tmp_path / "ml.csv", text)
-    with pytest.warns(LensworkWarning, match=r"rows 9\)"):
+    with pytest.warns(LensworkWarning, match=r"rows 6\)"):
         cloud = load_table(path, invalid="exclude")
-    assert cloud.row_numbers.tolist() == [2, 4, 6, 10]
+    assert cloud.row_numbers.tolist() == [2, 3, 5, 7]
     assert cloud.excluded == (
-        ExcludedRow(row=9, id=4, reason="missing value in column 'b'", passthrough={"c": "v"}),
+        ExcludedRow(row=6, id=4, reason="missing value in column 'b'", passthrough={"c": "v"}),
     )
     assert cloud.passthrough["c"].tolist() == ["p\r\nq", "r", "s\nt\nu", "w"]
 

@@ -218,3 +218,23 @@ def test_bad_parameters_raise_clear_errors():
         eccentricity(np.array([[0.0, np.inf], [1.0, 2.0]]))
     with pytest.raises(ParameterError, match="too large for floating point"):
         eccentricity(np.array([[0.0], [1.0], [1e3]]), p=5000.0, mode="exact")
+
+
+def test_landmark_standard_error_is_near_nominal_both_ways():
+    # Coverage over independent landmark draws (40 seeds x 1000 rows): the standardised error
+    # z = (estimate - exact) / stated se of a mean of a sample without replacement is about
+    # N(0, 1) (central limit theorem; finite-population correction sqrt(1 - m/n), Cochran 1977,
+    # eq. 2.12). Two-sided: a stated se twice too large, or one without the correction (41 %
+    # too large at m = n/2), gives E[z^2] near 0.25 or 0.5 and fails as a too small one does.
+    rng = np.random.default_rng(7)
+    X = np.r_[rng.normal(size=(700, 3)), rng.normal(size=(300, 3)) * 0.5 + 3]
+    for p in (1.0, 3.0):
+        true = _brute(X, p)  # scipy cdist brute force
+        z = np.concatenate([
+            (v - true) / info["se"]
+            for v, info in (eccentricity(X, p=p, mode="landmark", landmarks=500,
+                                         random_state=s, return_info=True) for s in range(40))
+        ])
+        assert 0.8 <= np.mean(z**2) <= 1.25  # measured 1.01 (p = 1) and 1.01 (p = 3)
+        assert 0.92 <= np.mean(np.abs(z) <= 1.96) <= 0.985  # nominal 0.95; measured 0.96, 0.97
+        assert abs(np.mean(z)) <= 0.1  # no bias beyond the delta method's

@@ -42,7 +42,8 @@ def test_graph_from_a_registry_lens(torus_csv, tmp_path):
     # (Cole-McLaughlin et al. 2004)
     assert res.output.startswith("significant: 1 component, 1 loop,")
     names = sorted(p.name for p in out.iterdir())
-    assert names == ["graph.graphml", "graph.json", "graph.png", "graph.svg", "memberships.csv"]
+    assert names == ["graph.graphml", "graph.json", "graph.png", "graph.svg",
+                     "lenswork-manifest.json", "memberships.csv"]
     G = nx.read_graphml(out / "graph.graphml")  # networkx as reference reader
     assert "z_mean" in next(iter(G.nodes.values()))
     # the command is a thin layer: the same graph as the Python API on the same table

@@ -131,7 +131,7 @@ def test_screen_cli_outputs_are_strict(tmp_path):
     ])
     assert run.exit_code == 0, run.output
     jsons = sorted(p.name for p in out.glob("*.json"))
-    assert jsons == ["lenses.csv.json", "ranking.json"]
+    assert jsons == ["lenses.csv.json", "lenswork-manifest.json", "ranking.json"]
     for name in jsons:
         _strict_file(out / name)
     ranking = strict_loads((out / "ranking.json").read_text())

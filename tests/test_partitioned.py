@@ -90,12 +90,12 @@ def test_zscore_and_written_columns(client, tmp_path):
     np.testing.assert_allclose(cloud.to_point_cloud().X, single.X, atol=1e-12)
     lens = partitioned_lenses(cloud, ["eccentricity"])
     files = lens.write(tmp_path / "out")
-    assert len(files) == 4 and files[-1].endswith("lenses.json")
+    assert len(files) == 4 and files[-1].endswith("out.json")
     back = pd.concat([pd.read_parquet(f) for f in files[:-1]])
     np.testing.assert_allclose(back["eccentricity"], eccentricity(single.X), rtol=1e-12)
     import json
 
-    sidecar = json.loads((tmp_path / "out" / "lenses.json").read_text())
+    sidecar = json.loads((tmp_path / "out.json").read_text())
     assert sidecar["columns"]["eccentricity"]["exact"] is True
     assert sidecar["input"]["sha256"] == cloud.provenance["sha256"]
 
@@ -427,7 +427,7 @@ def test_cli_graph_and_aliases_on_a_scheduler_address(client, tmp_path):
     common = [*address, "--lens", "column:name=f0"]
     r = run(cli, ["--quiet", "cluster-lenses", data, *common, "-o", str(tmp_path / "lens")])
     assert r.exit_code == 0, r.output
-    assert (tmp_path / "lens" / "lenses.json").exists()
+    assert (tmp_path / "lens.json").exists()
     assert "another name for `lenswork compute" in r.stderr
     r = run(cli, ["--quiet", "cluster-graph", data, *common, "--intervals", "8",
                   "--no-figure", "-o", str(tmp_path / "ga")])

@@ -466,7 +466,8 @@ def test_write_outputs_and_no_partial_files(tmp_path, monkeypatch):
     assert not fresh.exists()  # nothing half-written, the new directory removed again
     with pytest.raises(RuntimeError, match="figure failed"):
         result.write(out, figures=True)
-    assert sorted(p.name for p in out.iterdir()) == sorted(files)  # old files untouched
+    # old files untouched, the manifest of the earlier run beside them
+    assert sorted(p.name for p in out.iterdir()) == sorted([*files, "lenswork-manifest.json"])
 
 
 def test_write_figure_sheet(tmp_path):

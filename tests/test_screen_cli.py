@@ -27,8 +27,8 @@ def test_demo_screen_writes_every_file(demo_run):
     result, out = demo_run
     assert result.exit_code == 0, result.output
     names = sorted(p.name for p in out.iterdir())
-    assert names == ["lenses.csv", "lenses.csv.json", "ranking.csv", "ranking.json",
-                     "sheet.png", "sheet.svg"]
+    assert names == ["lenses.csv", "lenses.csv.json", "lenswork-manifest.json", "ranking.csv",
+                     "ranking.json", "sheet.png", "sheet.svg"]
     assert "Selected:" in result.stdout and "rank  lens column" in result.stdout
     assert "ranking" in result.stderr  # progress, step by step, on stderr
 
@@ -65,7 +65,7 @@ def test_screen_options_and_no_figures(tmp_path):
     ])
     assert result.exit_code == 0, result.output
     assert sorted(p.name for p in out.iterdir()) == [
-        "lenses.npy", "lenses.npy.json", "ranking.csv", "ranking.json"]
+        "lenses.npy", "lenses.npy.json", "lenswork-manifest.json", "ranking.csv", "ranking.json"]
     data = json.loads((out / "ranking.json").read_text())
     assert "column_vibration_mm_s" in [r["column"] for r in data["ranking"]]
     R = np.array(data["correlation"]["spearman"], dtype=float)

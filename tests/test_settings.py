@@ -46,7 +46,7 @@ def test_defaults_are_those_of_build_graph():
         ({"k": 0}, "'k' parameter of build_graph must be an int in [1, inf)"),
         ({"metric": "hamming"}, "'metric' parameter of build_graph must be a str among"),
         ({"fragments": "drop"}, "'fragments' parameter of build_graph must be a str among"),
-        ({"gap_bins": 1}, "'gap_bins' parameter of build_graph must be an int in [2, inf)"),
+        ({"gap_bins": 1}, "'gap_bins' parameter of build_graph must be an int in [2, 10000]"),
         ({"radius": 0.0}, "'radius' parameter of BallCover must be a float in (0.0, 1.0]"),
         ({"cover": "ball", "overlap": (0.2, 0.3)}, "'overlap' parameter of BallCover"),
     ],

@@ -28,13 +28,13 @@ Which columns set a feature apart
 The report page
     write_report
 Errors
-    LensworkError, InputError, ParameterError, LensworkWarning
+    LensworkError, InputError, ParameterError, OutputError, LensworkWarning
 """
 
 from __future__ import annotations
 
 from . import _graph_methods  # noqa: F401  (attaches LensGraph.write_* and .draw)
-from ._errors import InputError, LensworkError, LensworkWarning, ParameterError
+from ._errors import InputError, LensworkError, LensworkWarning, OutputError, ParameterError
 from ._version import __version__
 from .bootstrap import BootstrapResult, CoverSuggestion, bootstrap_graph, suggest_cover
 from .compare import (
@@ -130,6 +130,7 @@ __all__ = [
     "LensworkError",
     "LensworkWarning",
     "NeighborGraph",
+    "OutputError",
     "PCALens",
     "ParameterError",
     "PointCloud",

@@ -6,7 +6,8 @@ too. Messages follow one shape: what was wrong, what was expected, what to do.
 """
 
 __all__ = [
-    "InputError", "LensworkError", "LensworkWarning", "ParameterError", "warn_caller",
+    "InputError", "LensworkError", "LensworkWarning", "OutputError", "ParameterError",
+    "warn_caller",
 ]
 
 
@@ -39,6 +40,16 @@ class ParameterError(LensworkError, ValueError):
     Examples
     --------
     >>> issubclass(ParameterError, LensworkError)
+    True
+    """
+
+
+class OutputError(LensworkError, OSError):
+    """An output file or folder cannot be written (read-only, full, a file in the path...).
+
+    Examples
+    --------
+    >>> issubclass(OutputError, OSError)
     True
     """
 

@@ -114,14 +114,13 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
-from pathlib import Path
 
 import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
 from ._errors import InputError, ParameterError
-from ._io import write_text
+from ._io import MANIFEST, OutputSet, write_text
 from ._json import dumps
 from ._validation import check_choice, check_float
 from ._version import __version__
@@ -747,34 +746,27 @@ class ViewComparison:
         """Write ``comparison.json``, one ``correspondence_<a>_<b>.csv`` per pair (and a figure).
 
         Each correspondence CSV lists the non-zero entries of ``M_a^T M_b``:
-        ``node_a, node_b, shared_rows``.
+        ``node_a, node_b, shared_rows``. One output set
+        (:class:`lenswork._io.OutputSet`): all files or none, manifest last.
 
         Returns
         -------
         dict of str -> Path
         """
-        directory = Path(directory)
-        if directory.exists() and not directory.is_dir():
-            raise ParameterError(
-                f"Output directory {str(directory)!r} is a file; give a directory path."
-            )
-        out = {}
-        path = directory / "comparison.json"
-        write_text(path, dumps(self.to_dict()) + "\n")
-        out[path.name] = path
-        for i in range(len(self.names)):
-            for j in range(i + 1, len(self.names)):
-                C = self.correspondence(i, j).tocoo()
-                order = np.lexsort((C.col, C.row))
-                lines = ["node_a,node_b,shared_rows"]
-                lines += [f"{C.row[t]},{C.col[t]},{C.data[t]}" for t in order]
-                path = directory / f"correspondence_{i + 1}_{j + 1}.csv"
-                write_text(path, "\n".join(lines) + "\n")
-                out[path.name] = path
-        if figures:
-            path = self.plot(directory / "comparison.png")[0]
-            out[path.name] = path
-        return out
+        output = OutputSet(directory, command="compare")
+        with output as stage:
+            write_text(stage / "comparison.json", dumps(self.to_dict()) + "\n")
+            for i in range(len(self.names)):
+                for j in range(i + 1, len(self.names)):
+                    C = self.correspondence(i, j).tocoo()
+                    order = np.lexsort((C.col, C.row))
+                    lines = ["node_a,node_b,shared_rows"]
+                    lines += [f"{C.row[t]},{C.col[t]},{C.data[t]}" for t in order]
+                    write_text(stage / f"correspondence_{i + 1}_{j + 1}.csv",
+                               "\n".join(lines) + "\n")
+            if figures:
+                self.plot(stage / "comparison.png")
+        return {p.name: p for p in output.written if p.name != MANIFEST}
 
     # plot(paths=None) -- the views side by side, each coloured by the next view's lens -- is
     # attached by lenswork._graph_methods (the plots live above this module).

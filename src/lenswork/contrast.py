@@ -70,7 +70,6 @@ References
 
 from __future__ import annotations
 
-import csv
 import io
 import math
 import re
@@ -83,7 +82,7 @@ from scipy.sparse.csgraph import dijkstra
 
 from ._errors import InputError, ParameterError
 from ._frame import data_frame
-from ._io import write_text
+from ._io import csv_writer, write_text
 from ._json import dumps
 from ._validation import check_choice, check_float, check_int
 from ._version import __version__
@@ -672,7 +671,7 @@ class ContrastResult:
         """The table as CSV text."""
         buf = io.StringIO()
         names = list(ColumnContrast.__dataclass_fields__)
-        writer = csv.writer(buf, lineterminator="\n")
+        writer = csv_writer(buf, lineterminator="\n")
         writer.writerow(names)
         for rec in self.records():
             writer.writerow(["" if v is None or (isinstance(v, float) and not math.isfinite(v))

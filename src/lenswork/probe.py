@@ -105,7 +105,6 @@ References
 
 from __future__ import annotations
 
-import csv
 import io
 import math
 from collections import deque
@@ -115,7 +114,7 @@ import numpy as np
 
 from . import _progress
 from ._errors import ParameterError
-from ._io import write_text
+from ._io import dict_csv_writer, write_text
 from ._json import dumps
 from ._validation import check_float, check_int
 from ._version import __version__
@@ -519,7 +518,7 @@ class StructureProbe(dict):
         """The score table as CSV text."""
         rows = self.rows()
         buf = io.StringIO()
-        w = csv.DictWriter(buf, fieldnames=list(rows[0]), lineterminator="\n")
+        w = dict_csv_writer(buf, list(rows[0]), lineterminator="\n")
         w.writeheader()
         for r in rows:
             w.writerow({k: (f"{v:.6g}" if isinstance(v, float) else v) for k, v in r.items()})
@@ -745,7 +744,7 @@ class StabilityMap:
         """The map as CSV text, one row per cell."""
         rows = self.rows()
         buf = io.StringIO()
-        w = csv.DictWriter(buf, fieldnames=list(rows[0]), lineterminator="\n")
+        w = dict_csv_writer(buf, list(rows[0]), lineterminator="\n")
         w.writeheader()
         w.writerows(rows)
         return buf.getvalue()

@@ -6,13 +6,14 @@ import functools
 import re
 import warnings
 from dataclasses import fields
-from pathlib import Path
 
 import click
 
 from .. import _progress
 from .._errors import LensworkError, LensworkWarning, ParameterError
+from .._io import check_output_dir, os_error_text
 from ..graph import CUTOFF_WORDS, GraphSettings
+from ..lenses import LENS_FILE_CHECKS
 from ..workspace import METHODS
 
 __all__ = [
@@ -28,6 +29,7 @@ __all__ = [
     "lens_options",
     "lens_table",
     "lens_views",
+    "lens_file_check_option",
     "load_input",
     "neighbors_option",
     "number_list",
@@ -106,6 +108,8 @@ class LensworkGroup(click.Group):
             raise click.ClickException(
                 "Ran out of memory. Use fewer rows, a smaller k, or the scalable modes."
             ) from None
+        except OSError as err:  # a file-system error not met by a check: one line, no traceback
+            raise click.ClickException(os_error_text(err)) from None
 
 
 def _show_warning(message, category, filename, lineno, file=None, line=None):
@@ -221,11 +225,18 @@ def cutoff_value(text, words=CUTOFF_WORDS):
 
 
 def output_dir(path):
-    """``path`` as a Path, or ParameterError when it names an existing file."""
-    path = Path(path)
-    if path.exists() and not path.is_dir():
-        raise ParameterError(f"Output directory {str(path)!r} is a file; give a directory path.")
-    return path
+    """``path`` as a Path, checked before the work: it must be a folder that takes writes
+    (or can be created). OutputError (a message) otherwise."""
+    return check_output_dir(path)
+
+
+#: --lens-file-check, defined once for every command that takes --lens-file.
+lens_file_check_option = click.option(
+    "--lens-file-check", "lens_file_check", type=click.Choice(LENS_FILE_CHECKS), default="warn",
+    show_default=True,
+    help="How a --lens-file that does not match its sidecar (rows, columns, file checksum) or "
+    "the table it was computed from (the input checksum) is treated: warn, error, or off.",
+)
 
 
 class Neighbors:
@@ -295,12 +306,23 @@ _LENS_HELP = ("A lens as name or name:key=value,... (repeatable; `lenswork lense
               "eccentricity[p=1]).")
 
 
+class LensFile(str):
+    """A --lens-file path and the --lens-file-check rule it is read under."""
+
+    def __new__(cls, path, check="warn"):
+        self = super().__new__(cls, path)
+        self.check = check
+        return self
+
+
 def lens_options(views=False):
     """``-l/--lens``, ``--lens-file`` and ``--use``: the lens columns a graph is built on.
 
-    The same three options on every command that builds a graph. The command
-    receives ``lens_specs`` (tuple), ``lens_file`` and ``use`` (text, or a tuple
-    of texts with ``views=True``, where each ``--use`` is one view).
+    The same options on every command that builds a graph (with
+    ``--lens-file-check``). The command receives ``lens_specs`` (tuple),
+    ``lens_file`` (a :class:`LensFile` carrying its check rule, or None) and
+    ``use`` (text, or a tuple of texts with ``views=True``, where each ``--use``
+    is one view).
     """
     if views:
         lens_help = "One view per --lens. " + _LENS_HELP
@@ -311,8 +333,14 @@ def lens_options(views=False):
         use_help = "Columns to take from --lens-file, comma-separated (default: all of them)."
 
     def decorator(func):
+        @functools.wraps(func)
+        def wrapper(*args, lens_file, lens_file_check, **kwargs):
+            path = None if lens_file is None else LensFile(lens_file, lens_file_check)
+            return func(*args, lens_file=path, **kwargs)
+
         func = click.option("--use", "use", default=None, multiple=views, metavar="COLS",
-                            help=use_help)(func)
+                            help=use_help)(wrapper)
+        func = lens_file_check_option(func)
         func = click.option(
             "--lens-file", type=click.Path(dir_okay=False), default=None,
             help="Lens columns written by `lenswork compute` or `lenswork screen` (CSV, TSV or "
@@ -364,7 +392,7 @@ def _read_lens_file(ws, lens_file):
     from ..table import LensTable
 
     with _progress.step("read the lens file"):
-        return LensTable.read(lens_file, ws.cloud)
+        return LensTable.read(lens_file, ws.cloud, check=getattr(lens_file, "check", "warn"))
 
 
 def lens_table(ws, lens_specs, lens_file=None, use=None):

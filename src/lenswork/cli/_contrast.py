@@ -9,6 +9,7 @@ from pathlib import Path
 import click
 
 from .._errors import InputError
+from .._io import unformula
 from ..contrast import AGAINST
 from ..graph import LAYOUTS
 from ._common import (
@@ -17,7 +18,6 @@ from ._common import (
     graph_options,
     input_options,
     lens_options,
-    output_dir,
     parse_color,
 )
 
@@ -80,7 +80,8 @@ def _read_ids(path, cloud):
         lines = Path(path).read_text(encoding="utf-8").splitlines()
     except OSError as err:
         raise InputError(f"Cannot read --rows-file {str(path)!r}: {err.strerror}.") from None
-    ids = [ln.split(",")[0].strip() for ln in lines if ln.strip()]
+    # the formula guard of lenswork's own CSV files (memberships.csv) undone
+    ids = [unformula(ln.split(",")[0].strip()) for ln in lines if ln.strip()]
     if ids and ids[0] == cloud.id_name:  # a header line
         ids = ids[1:]
     if not ids:
@@ -152,11 +153,11 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
     (the graph coloured by each top column). Everything is computed before the
     first file is written.
     """
-    from .._io import write_text
+    from .._io import OutputSet, write_text
     from .._json import dumps
     from ..contrast import contrast_columns, node_column_values
 
-    out = output_dir(out_dir)
+    output = OutputSet(out_dir, command="contrast")  # checked before the work
     rows = None
     if row_ids is not None and rows_file is not None:
         raise click.UsageError("Give --rows or --rows-file, not both.")
@@ -201,14 +202,15 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
                                                    "summary": graph.summary().to_dict()},
            "input": cloud.provenance, "lenses": [c.provenance() for c in table], "seed": seed}
     text = dumps(doc) + "\n"
-    written = [result.write_csv(out / OUTPUTS["csv"])]
-    write_text(out / OUTPUTS["json"], text)
-    written.append(out / OUTPUTS["json"])
-    if figures:
-        from ..plot._style import save
+    with output as stage:
+        result.write_csv(stage / OUTPUTS["csv"])
+        write_text(stage / OUTPUTS["json"], text)
+        if figures:
+            from ..plot._style import save
 
-        written += [save(fig, out / name) for name, fig in figures.items()]
-    click.echo(f"wrote {', '.join(str(p) for p in written)}")
+            for name, fig in figures.items():
+                save(fig, stage / name)
+    click.echo(f"wrote {', '.join(str(p) for p in output.written)}")
 
 
 COMMANDS = [contrast_command]

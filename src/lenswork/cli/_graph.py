@@ -8,13 +8,13 @@ import click
 
 from .. import _progress
 from .._errors import ParameterError
+from .._io import OutputSet
 from ..graph import LAYOUTS, write_graph_json, write_graphml, write_memberships
 from ._common import (
     build_view,
     colour_data,
     graph_options,
     lens_options,
-    output_dir,
     parse_color,
 )
 from ._partitioned import (
@@ -47,7 +47,8 @@ OUTPUTS = {
               help="auto: levels for one lens, lens coordinates for two, spring above.")
 @click.option("-o", "--out", "out_dir", default="lenswork-graph", show_default=True,
               type=click.Path(file_okay=False),
-              help="Output directory (created if missing; its graph files are replaced).")
+              help="Output directory (created if missing). The files of the previous run there are "
+              "replaced as a set (lenswork-manifest.json lists them).")
 @click.option("--no-figure", is_flag=True, help="Skip the drawing (PNG and SVG).")
 @graph_options()
 def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, layout, out_dir,
@@ -75,7 +76,7 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
     raw-value intervals with the element-knn clusterer (the same graph as
     --cover-scale raw --clusterer element-knn on one machine).
     """
-    out = output_dir(out_dir)
+    output = OutputSet(out_dir, command="graph")  # checked before the work
     colour = parse_color(color) if color else None
     ws = None
     if cluster is not None:  # --scheduler: lenses and graph on partitions (element-knn rule)
@@ -99,17 +100,16 @@ def graph_command(cloud, seed, lens_specs, lens_file, use, stat_columns, color, 
     with _progress.step("graph: summary"):
         text = graph.summary().text()
     click.echo(text)
-    with _progress.step("graph: writing the files"):
-        written = [
-            write_graphml(graph, out / OUTPUTS["graphml"]),
-            write_graph_json(graph, out / OUTPUTS["json"]),
-            write_memberships(graph, out / OUTPUTS["members"]),
-        ]
+    with _progress.step("graph: writing the files"), output as stage:
+        write_graphml(graph, stage / OUTPUTS["graphml"])
+        write_graph_json(graph, stage / OUTPUTS["json"])
+        write_memberships(graph, stage / OUTPUTS["members"])
         if figures:
             from ..plot._style import save
 
-            written += [save(fig, out / OUTPUTS[key]) for key, fig in figures.items()]
-    click.echo(f"wrote {', '.join(str(p) for p in written)}")
+            for key, fig in figures.items():
+                save(fig, stage / OUTPUTS[key])
+    click.echo(f"wrote {', '.join(str(p) for p in output.written)}")
 
 
 def _colour_options(graph, ws, column, stat, level):

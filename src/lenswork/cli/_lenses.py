@@ -6,6 +6,7 @@ import textwrap
 
 import click
 
+from .._io import check_output_file
 from ..lenses import ENDINGS, compute_lenses, get_lens, lens_names
 from ..normalize import NORMALIZATIONS
 from ._common import neighbors_option
@@ -64,9 +65,9 @@ def compute(cloud, seed, lenses, out, normalization, neighbors, cluster=None):
     estimate, the library version, the input checksum and the seed.
 
     With --scheduler, TABLE is a directory of Parquet or CSV partitions (or a
-    glob) and the columns are computed on a Dask cluster and written to the
-    directory OUT (one Parquet file per partition and lenses.json; default
-    lenses/).
+    glob) and the columns are computed on a Dask cluster and written as the
+    Parquet dataset folder OUT (one file per partition; default lenses/), its
+    provenance to OUT.json beside it.
     """
     if cluster is not None:  # the partitioned path (lenswork.partitioned)
         refuse_with_scheduler(normalize=normalization, neighbors=neighbors.given)
@@ -74,6 +75,7 @@ def compute(cloud, seed, lenses, out, normalization, neighbors, cluster=None):
         out = lens_out_dir(out, ctx.get_parameter_source("out").name == "DEFAULT")
         lens, files = cluster.write_lenses(lenses, out)
         return print_lens_run(cluster.cloud, lens, files, out)
+    out = check_output_file(out)  # before the work: a file in the path, a read-only folder
     ws = neighbors.workspace(cloud, seed)
     table = compute_lenses(ws, list(lenses))
     if normalization:

@@ -20,6 +20,8 @@ from pathlib import Path
 import click
 
 from .. import _progress
+from .._errors import LensworkError
+from .._io import check_output_dir, check_output_file
 from ._common import input_options
 
 __all__ = [
@@ -73,7 +75,16 @@ def _computer(client, show):
             with contextlib.redirect_stdout(sys.stderr):  # the bar writes to stdout
                 progress(futures, scheduler=client.scheduler.address)
             click.echo("", err=True)
-        return gather_each(futures)  # one result at a time: spilled results fit in memory
+        try:
+            return gather_each(futures)  # one result at a time: spilled results fit in memory
+        except Exception as err:
+            if type(err).__name__ != "KilledWorker":
+                raise
+            raise LensworkError(
+                f"A Dask worker died repeatedly running the same task ({err}); the run was "
+                f"stopped. Give the workers more memory (--memory-limit), more partitions, or "
+                f"fewer rows per partition."
+            ) from None
 
     return compute
 
@@ -137,7 +148,7 @@ class ClusterRun:
                                   random_state=self.seed)
 
     def write_lenses(self, specs, out):
-        """Lens columns as one Parquet file per partition plus lenses.json in ``out``."""
+        """Lens columns as a Parquet dataset folder ``out`` plus ``out.json`` beside it."""
         lens = self.lenses(specs)
         return lens, lens.write(out, compute=self.compute)
 
@@ -263,7 +274,7 @@ def lens_out_dir(out, default_used):
     """The directory the partitioned lens columns go to, from ``compute``'s ``-o``."""
     path = Path(out)
     if default_used:
-        return path.with_suffix("")
+        return check_output_dir(path.with_suffix(""))
     if path.suffix.lower() in _FILE_ENDINGS:
         raise click.UsageError(
             f"With --scheduler the lens columns are written as one Parquet file per partition "
@@ -271,7 +282,8 @@ def lens_out_dir(out, default_used):
         )
     if path.exists() and not path.is_dir():
         raise click.UsageError(f"Output {out!r} is a file; give a directory path.")
-    return path
+    check_output_file(path.with_name(path.name + ".json"))  # the provenance beside it
+    return check_output_dir(path)  # a folder that takes no writes fails before the work
 
 
 def print_lens_run(cloud, lens, files, out):

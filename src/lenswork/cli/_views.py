@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import click
 
+from .._io import OutputSet
 from ..bootstrap import bootstrap_graph
 from ..compare import compare_views
 from ..probe import stability_map
@@ -39,14 +40,13 @@ def stability(cloud, seed, lens_specs, lens_file, use, grid_intervals, grid_over
     settings inside such a region. With --cover ball a row N of the grid is a
     net spacing of 1/N.
     """
-    out = output_dir(out)
+    output = OutputSet(out, command="stability")  # checked before the work
     ws = neighbors.workspace(cloud, seed)
     table = lens_table(ws, lens_specs, lens_file, use)
     # "auto" settings fixed on these rows: the map's default cell is the default graph's
     settings = settings.resolve(ws.n, len(table.names))
     smap = stability_map(table, ws, settings=settings, interval_counts=grid_intervals,
                          overlaps=grid_overlaps)
-    csv_path, sidecar = smap.write(out / "stability.csv")
     click.echo(f"Stability map of {smap.lens} on {ws.n} rows "
                f"({len(smap.interval_counts)} x {len(smap.overlaps)} cover settings).")
     click.echo(_grid_text(smap, "loops"))
@@ -57,10 +57,11 @@ def stability(cloud, seed, lens_specs, lens_file, use, grid_intervals, grid_over
             value = int(smap.counts[feature][cell])
             click.echo(f"{feature}: {value} at the default setting; the same over "
                        f"{int(region.sum())} of {region.size} cells around it")
-    written = [csv_path, sidecar]
-    if not no_figure:
-        written += smap.plot(out / "stability.png")
-    click.echo("wrote " + ", ".join(str(p) for p in written))
+    with output as stage:
+        smap.write(stage / "stability.csv")
+        if not no_figure:
+            smap.plot(stage / "stability.png")
+    click.echo("wrote " + ", ".join(str(p) for p in output.written))
 
 
 def _grid_text(smap, feature):

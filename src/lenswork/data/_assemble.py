@@ -6,7 +6,7 @@ import math
 
 import numpy as np
 
-from ._checks import check_magnitude, check_unique_ids
+from ._checks import check_distinct_rows, check_magnitude, check_unique_ids
 from ._cloud import ExcludedRow, PointCloud
 from ._files import DELIMITER_LIKE, DELIMITER_NAMES
 from ._messages import (
@@ -193,6 +193,13 @@ def assemble(raw, features, id_column, scale, invalid, min_rows):
     rows = raw.row_numbers[keep]
     lo, hi = X.min(axis=0), X.max(axis=0)
     constant = lo == hi
+    if constant.all() and n > 1:
+        raise input_error(
+            f"Every row used of {label} has the same feature values "
+            f"({names_list(list(feature_names))}): no lens can tell the rows apart, and a lens "
+            f"computed on them would be constant or arbitrary. Choose feature columns that vary "
+            f"(--features)."
+        )
     if constant.any() and n > 1:
         warn_user(
             f"Feature column{'s' if constant.sum() > 1 else ''} "
@@ -208,6 +215,7 @@ def assemble(raw, features, id_column, scale, invalid, min_rows):
         _warn_id_like(X, feature_names, label)
     if scale is None:
         _warn_scales(X, feature_names, label)
+    distinct = check_distinct_rows(X, label)
     id_name = names[id_j] if id_j is not None else (
         "row" if "row" not in names else "row_number"
     )
@@ -218,6 +226,8 @@ def assemble(raw, features, id_column, scale, invalid, min_rows):
         features=list(feature_names), id_column=None if id_j is None else names[id_j],
         passthrough=[names[j] for j in pass_js], scaling=scaling, invalid=invalid,
     )
+    if distinct is not None:
+        provenance["distinct_rows"] = distinct
     return PointCloud(
         X=X,
         feature_names=feature_names,

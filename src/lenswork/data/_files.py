@@ -4,13 +4,13 @@ from __future__ import annotations
 
 import csv
 import gc
-import hashlib
 import itertools
 import os
 
 import numpy as np
 
 from .._errors import ParameterError
+from .._io import file_digest, unformula
 from ._arrays import raw_from_array
 from ._messages import input_error, names_list, not_number_error, warn_user
 from ._raw import (
@@ -72,7 +72,7 @@ def read_file(path, delimiter, opts):
         )
     try:
         size = path.stat().st_size
-        digest = _sha256_file(path)
+        digest = file_digest(path)[1]
     except OSError as err:
         raise input_error(f"{label} could not be read ({err.strerror}). Check its permissions.") \
             from None
@@ -88,14 +88,6 @@ def read_file(path, delimiter, opts):
         return _read_parquet(path, label, dict(prov, format="parquet"))
     fmt = "tsv" if suffix in (".tsv", ".tab") else "csv"
     return _read_delimited(path, label, delimiter, dict(prov, format=fmt), opts)
-
-
-def _sha256_file(path):
-    h = hashlib.sha256()
-    with open(path, "rb") as fh:
-        for block in iter(lambda: fh.read(1 << 20), b""):
-            h.update(block)
-    return h.hexdigest()
 
 
 def _read_npy(path, label, prov):
@@ -148,6 +140,10 @@ def _read_parquet(path, label, prov):
         plain = pa.types.is_integer(typ) or pa.types.is_floating(typ) or pa.types.is_boolean(typ)
         if plain and col.null_count == 0:
             columns.append(np.asarray(col.to_numpy()))
+        elif pa.types.is_nested(typ) or pa.types.is_dictionary(typ) and \
+                pa.types.is_nested(typ.value_type):
+            # map, list and struct cells: no number and no plain id, but passed through as text
+            columns.append(object_array([None if v is None else str(v) for v in col.to_pylist()]))
         else:
             columns.append(object_array(col.to_pylist()))
     n = table.num_rows
@@ -246,7 +242,7 @@ def _choose_delimiter(sample, given, fmt):
 def _read_header(reader, label, opts):
     for record in reader:
         if any(cell.strip() for cell in record):
-            names = [cell.strip() or f"column_{j + 1}" for j, cell in enumerate(record)]
+            names = [unformula(cell.strip()) or f"column_{j + 1}" for j, cell in enumerate(record)]
             check_duplicate_names(names, f"The header row of {label}")
             if all(is_number_text(c) for c in names):
                 warn_user(
@@ -263,26 +259,29 @@ def _read_header(reader, label, opts):
 
 def _chunks(reader, width, label, delim):
     """Blocks of data records (blank lines dropped, widths checked) and their row numbers."""
+    # Rows are numbered as a spreadsheet shows them: one per record (the header is row 1),
+    # whatever line breaks quoted fields hold. Up to the header, records are lines.
     prev = reader.line_num
     while True:
         block = list(itertools.islice(reader, _CHUNK_ROWS))
         if not block:
             return
-        end = reader.line_num
-        if end - prev == len(block):
-            starts = np.arange(prev + 1, end + 1, dtype=np.int64)
-        else:  # quoted fields span lines: count the line breaks inside them
-            starts = np.empty(len(block), dtype=np.int64)
-            line = prev + 1
-            for i, record in enumerate(block):
-                starts[i] = line
-                line += 1 + sum(f.count("\n") + f.count("\r") - f.count("\r\n") for f in record)
-        prev = end
+        starts = np.arange(prev + 1, prev + len(block) + 1, dtype=np.int64)
+        prev += len(block)
         if any(len(record) != width for record in block):
             block, starts = _drop_blank(block, starts, width, label, delim)
             if not block:
                 continue
         yield block, starts
+
+
+def _text_cells(cells):
+    """Text cells as an object array, the formula guard of lenswork's CSV writers undone."""
+    out = np.array(cells, dtype=object)
+    for i, cell in enumerate(cells):
+        if cell[:1] == "'":
+            out[i] = unformula(cell)
+    return out
 
 
 def _drop_blank(block, starts, width, label, delim):
@@ -334,14 +333,14 @@ def _read_body(reader, names, label, delim, feats, id_j, prov):
                         )
                         # Text from the first block on: keep the strings; else read them again.
                         roles[j] = "text" if offset == 0 else "late"
-                        parts[j] = [np.array(cols[j], dtype=object)] if offset == 0 else None
+                        parts[j] = [_text_cells(cols[j])] if offset == 0 else None
                         continue
                     parts[j].append(values)
                     if len(miss):
                         missing[j].append(miss + offset)
                     had_number[j] = had_number[j] or len(miss) < len(values)
                 elif role == "text":
-                    parts[j].append(np.array(cols[j], dtype=object))
+                    parts[j].append(_text_cells(cols[j]))
             rows.append(starts)
             offset += len(block)
     finally:
@@ -378,6 +377,6 @@ def _reread_text_columns(path, delim, raw, columns):
                 break  # the header row
         for block, _ in _chunks(reader, len(raw.names), raw.label, delim):
             for j in columns:
-                parts[j].append(np.array([record[j] for record in block], dtype=object))
+                parts[j].append(_text_cells([record[j] for record in block]))
     for j in columns:
         raw.columns[j] = np.concatenate(parts[j])

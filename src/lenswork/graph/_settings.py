@@ -285,6 +285,10 @@ def _overlap(name, value):
     return check_float(name, value, lo=0.0, hi=1.0, hi_open=True, context="Cover")
 
 
+#: The largest gap_bins: more bins than rows in a cover element are empty anyway.
+MAX_GAP_BINS = 10_000
+
+
 @dataclass(frozen=True)
 class GraphSettings(SettingsRecord):
     """Every setting of a graph build, validated once (see the module notes).
@@ -432,7 +436,15 @@ class GraphSettings(SettingsRecord):
         put("metric", check_choice("metric", self.metric, METRICS, context="build_graph"))
         put("fragments", check_choice("fragments", self.fragments, FRAGMENT_RULES,
                                       context="build_graph"))
-        put("gap_bins", check_int("gap_bins", self.gap_bins, lo=2, context="build_graph"))
+        try:  # bounded: np.histogram allocates every bin (1e9 bins took 24 GB on 300 rows)
+            put("gap_bins", check_int("gap_bins", self.gap_bins, lo=2, hi=MAX_GAP_BINS,
+                                      context="build_graph"))
+        except ParameterError as err:
+            raise ParameterError(
+                f"{err} The gap rule bins the merge heights of one cover element (at most one "
+                f"per row); more than {MAX_GAP_BINS:,} bins leave nearly all empty and cost "
+                f"memory (1e9 bins: 24 GB)."
+            ) from None
         put("hole_scales", check_int("hole_scales", self.hole_scales, lo=1,
                                      context="build_graph"))
         if self.random_state is not None:

@@ -44,13 +44,14 @@ from __future__ import annotations
 
 import csv
 import json
+import re
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
 import numpy as np
 
 from .._errors import InputError
-from .._io import atomic_path, write_text
+from .._io import atomic_path, safe_cell, write_text
 from .._json import dumps, plain
 from ..table import LensTable
 from ._lensgraph import STATS, LensGraph
@@ -68,6 +69,17 @@ FORMAT_VERSION = 1
 _GRAPHML_NS = "http://graphml.graphdrawing.org/xmlns"
 _XSI_NS = "http://www.w3.org/2001/XMLSchema-instance"
 _SCHEMA = f"{_GRAPHML_NS} {_GRAPHML_NS}/1.0/graphml.xsd"
+
+
+#: Characters XML 1.0 does not allow (ElementTree writes them as they are, which no XML
+#: parser reads back): control characters but tab, newline and carriage return, lone
+#: surrogates, U+FFFE and U+FFFF.
+_NOT_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
+
+
+def _xml_text(text):
+    """``text`` with the characters XML 1.0 does not allow replaced by U+FFFD."""
+    return _NOT_XML.sub("\ufffd", text)
 
 
 def write_graphml(graph, path):
@@ -100,7 +112,7 @@ def write_graphml(graph, path):
     def key(domain, name, kind):
         kid = f"d{len(keys)}"
         keys[(domain, name)] = kid
-        ET.SubElement(root, "key", {"id": kid, "for": domain, "attr.name": name,
+        ET.SubElement(root, "key", {"id": kid, "for": domain, "attr.name": _xml_text(name),
                                     "attr.type": kind})
         return kid
 
@@ -316,11 +328,11 @@ def write_memberships(graph, path):
     ['row,node', '1,0', '2,0', '2,1', '3,']
     """
     M = graph.membership
-    ids = [plain(x) for x in graph.row_ids]
+    ids = [safe_cell(plain(x)) for x in graph.row_ids]  # formulas neutralised, numbers kept
     path = Path(path)
     with atomic_path(path) as tmp, open(tmp, "w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
-        w.writerow([graph.id_name, "node"])
+        w.writerow([safe_cell(graph.id_name), "node"])
         indptr, indices = M.indptr, M.indices
         for i in range(graph.n_rows):
             a, b = indptr[i], indptr[i + 1]

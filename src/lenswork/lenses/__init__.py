@@ -26,7 +26,8 @@ Registry
     compute_lenses, get_lens, lens_names, lens_request, parse_lens, register_lens,
     user_lens, LensPart, LensSpec, Param
 Lens columns
-    LensColumn, LensTable, FORMATS (lens-file formats), ENDINGS (file ending -> format)
+    LensColumn, LensTable, FORMATS (lens-file formats), ENDINGS (file ending -> format),
+    LENS_FILE_CHECKS (what LensTable.read does with a mismatch)
 Lens functions and transformers
     pca_coordinates, PCALens, distance_to_measure, DistanceToMeasure,
     knn_distance, KNNDistance, data_column, gaussian_density, GaussianDensity,
@@ -52,7 +53,7 @@ from ._registry import (
     parse_lens,
     register_lens,
 )
-from ._table import ENDINGS, FORMATS, LensColumn, LensTable
+from ._table import ENDINGS, FORMATS, LENS_FILE_CHECKS, LensColumn, LensTable
 
 __all__ = [
     "DistanceToMeasure",
@@ -62,6 +63,7 @@ __all__ = [
     "GaussianDensity",
     "KNNDistance",
     "LaplacianLens",
+    "LENS_FILE_CHECKS",
     "LensColumn",
     "LensPart",
     "LensSpec",

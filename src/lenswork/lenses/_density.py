@@ -26,7 +26,7 @@ from functools import partial
 import numpy as np
 from sklearn.base import BaseEstimator, TransformerMixin
 
-from .._errors import InputError, warn_caller
+from .._errors import InputError, ParameterError, warn_caller
 from .._validation import (
     check_array,
     check_bool,
@@ -46,7 +46,10 @@ from ._common import (
 )
 from ._registry import LensPart, Param, register_lens
 
-__all__ = ["GaussianDensity", "gaussian_density", "scott_bandwidth", "silverman_bandwidth"]
+__all__ = [
+    "GaussianDensity", "gaussian_density", "kernel_cholesky", "scott_bandwidth",
+    "silverman_bandwidth",
+]
 
 BANDWIDTH_RULES = ("scott", "silverman", "cv")
 MODES = ("auto", "exact", "scalable")
@@ -57,6 +60,16 @@ PRECISIONS = ("float64", "float32")
 EXACT_MAX_ROWS = 50_000
 #: Default size of the reference subsample of the scalable mode.
 REFERENCE_SIZE = 20_000
+#: The largest numeric bandwidth: its square must stay a finite float.
+MAX_BANDWIDTH = 1e100
+#: A numeric bandwidth above this many times the data's widest sd makes the kernel flat over
+#: the data: log-density differences ~ (sd / h)^2 fall under float64 rounding near 1e6.
+FLAT_RATIO = 1e6
+#: A numeric bandwidth below this many times the data's widest sd: the whitened coordinates
+#: pass 1e6, their squares 1e12, and the tile sums' cancellation error (1e-16 relative) is
+#: no longer small against the kernel exponents.
+NARROW_RATIO = 1e-6
+
 #: Rows of the data used for likelihood cross-validation of the bandwidth.
 CV_SUBSAMPLE = 2_000
 #: Multipliers of Scott's bandwidth tried by likelihood cross-validation.
@@ -300,10 +313,35 @@ def _kernel_covariance(X, bandwidth, rng):
             return silverman_bandwidth(X), {"bandwidth_rule": "silverman"}
         return _cv_covariance(X, rng)
     h = float(bandwidth)
+    spread = float(np.sqrt(np.max(np.var(X, axis=0))))
+    if spread > 0 and h < NARROW_RATIO * spread:
+        raise ParameterError(
+            f"The bandwidth {h:g} is below {NARROW_RATIO:g} times the widest spread of the data "
+            f"(sd {spread:.4g}): squared distances in units of h pass 1e12, the kernel sums "
+            f"lose their precision, and each row's density would be its own kernel alone, a "
+            f"constant lens. Give a bandwidth near the distances between neighbouring rows, or "
+            f"a rule such as 'scott'."
+        )
+    if spread > 0 and h > FLAT_RATIO * spread:
+        raise ParameterError(
+            f"The bandwidth {h:g} is more than {FLAT_RATIO:g} times the widest spread of the "
+            f"data (sd {spread:.4g}): the kernel is flat over the data and every row's density "
+            f"differs from the next by less than float rounding, a constant lens. Give a "
+            f"bandwidth near {spread:.3g} or a rule such as 'scott'."
+        )
     return np.eye(d) * h**2, {"bandwidth_rule": "fixed", "bandwidth_h": h}
 
 
-def _cholesky(H, rule):
+def kernel_cholesky(H, rule):
+    """Cholesky factor of a kernel covariance; InputError (what to do) when it is singular.
+
+    Shared by the partitioned density, so both paths refuse with one message.
+
+    Examples
+    --------
+    >>> kernel_cholesky(np.eye(2) * 4.0, "fixed").tolist()
+    [[2.0, 0.0], [0.0, 2.0]]
+    """
     try:
         L = np.linalg.cholesky(H)
     except np.linalg.LinAlgError:
@@ -340,7 +378,7 @@ def _cv_covariance(X, rng):
     if s < 3:
         raise InputError(f"The 'cv' bandwidth needs at least 3 rows; got {n}.")
     base = C * s ** (-2.0 / (d + 4))
-    L = _cholesky(base, "cv")
+    L = kernel_cholesky(base, "cv")
     Z = _whiten(S, S.mean(axis=0), L)
     sq = np.einsum("ij,ij->i", Z, Z)
     D2 = np.maximum(sq[:, None] + sq[None, :] - 2.0 * (Z @ Z.T), 0.0)
@@ -378,7 +416,7 @@ class _Kernel:
         self.n, self.d = X.shape
         self.H, self.info = _kernel_covariance(X, bandwidth, rng)
         rule = self.info["bandwidth_rule"]
-        self.L = _cholesky(self.H, rule)
+        self.L = kernel_cholesky(self.H, rule)
         self.mean = X.mean(axis=0)
         self.Z = _whiten(X, self.mean, self.L)
         # log of the kernel's value at 0: -(d log 2 pi + log det H) / 2
@@ -454,10 +492,21 @@ def _evaluate(kernel, Q, *, self_query, log, mode, precision, reference_size, rn
     return out, info, rel_se
 
 
+def _check_bandwidth(name, value, *, context=""):
+    """A rule name or a number h in (0, 1e100]: h squared stays a finite float."""
+    value = check_float_or_choice(name, value, BANDWIDTH_RULES, lo=0.0, lo_open=True,
+                                  context=context)
+    if not isinstance(value, str) and value > MAX_BANDWIDTH:
+        raise ParameterError(
+            f"The bandwidth {value:g} of {context or 'density'} is above {MAX_BANDWIDTH:g}: its "
+            f"square (the kernel covariance) would overflow. Give a bandwidth near the spread "
+            f"of the data, or a rule such as 'scott'."
+        )
+    return value
+
+
 def _check_params(bandwidth, log, mode, precision, reference_size, context):
-    bandwidth = check_float_or_choice(
-        "bandwidth", bandwidth, BANDWIDTH_RULES, lo=0.0, lo_open=True, context=context
-    )
+    bandwidth = _check_bandwidth("bandwidth", bandwidth, context=context)
     log = check_bool("log", log, context=context)
     mode = check_choice("mode", mode, MODES, context=context)
     precision = check_choice("precision", precision, PRECISIONS, context=context)
@@ -557,11 +606,26 @@ def gaussian_density(
         kernel, X, self_query=True, log=log, mode=mode, precision=precision,
         reference_size=reference_size, rng=rng,
     )
+    _refuse_constant(values, kernel.info)
     if not return_info:
         return values
     if rel_se is not None:
         info["rel_se"] = rel_se
     return values, info
+
+
+def _refuse_constant(values, info):
+    """ParameterError when a fixed bandwidth gives every row the same density."""
+    if info.get("bandwidth_rule") != "fixed" or values.size < 2:
+        return
+    top = float(np.max(np.abs(values)))
+    if float(np.ptp(values)) <= 1e-12 * max(1.0, top):
+        raise ParameterError(
+            f"The bandwidth {info['bandwidth_h']:g} gives every row the same density: each "
+            f"row's kernel reaches no other row (a bandwidth far below the distances between "
+            f"rows), or all rows are identical. A constant lens is refused; give a larger "
+            f"bandwidth or a rule such as 'scott'."
+        )
 
 
 class GaussianDensity(LensOutputMixin, TransformerMixin, BaseEstimator):
@@ -662,7 +726,7 @@ class GaussianDensity(LensOutputMixin, TransformerMixin, BaseEstimator):
     params=[
         Param(
             "bandwidth", "scott",
-            partial(check_float_or_choice, choices=BANDWIDTH_RULES, lo=0.0, lo_open=True),
+            _check_bandwidth,
             "kernel width: a number h (isotropic), 'scott', 'silverman' or 'cv'",
         ),
         Param("log", True, check_bool, "log-density (true) or density (false)"),

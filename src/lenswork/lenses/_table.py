@@ -19,16 +19,16 @@ from pathlib import Path
 
 import numpy as np
 
-from .._errors import InputError, ParameterError
+from .._errors import InputError, LensworkWarning, ParameterError
 from .._frame import data_frame
-from .._io import atomic_path, write_text
+from .._io import atomic_path, check_against_manifest, file_digest, safe_cell, write_text
 from .._json import dumps, plain
 from .._validation import check_choice
 from .._version import __version__
 from ..data import load_table
 from ..normalize import NORMALIZATIONS, normalize
 
-__all__ = ["ENDINGS", "FORMATS", "LensColumn", "LensTable"]
+__all__ = ["ENDINGS", "FORMATS", "LENS_FILE_CHECKS", "LensColumn", "LensTable"]
 
 
 
@@ -145,9 +145,15 @@ class LensTable:
         )
 
     def provenance(self):
-        """JSON-ready provenance for the whole table (NaN and infinities as None)."""
+        """JSON-ready provenance for the whole table (NaN and infinities as None).
+
+        ``threads`` records numba's thread count when numba is loaded (the
+        approximate neighbour search, pynndescent, runs on it and its result
+        depends on the count).
+        """
         return plain({
             "lenswork_version": __version__,
+            "threads": _threads(),
             "input": self.cloud.provenance,
             "random_state": self.random_state,
             "n_rows_used": int(self.cloud.n),
@@ -244,26 +250,52 @@ class LensTable:
             names and renamed, so a failure leaves no half-written file.
         """
         path = Path(path)
-        if format is None:
-            ending = path.suffix.lower().lstrip(".")
-            format = ENDINGS.get(ending, ending)
-        format = check_choice("format", format, FORMATS, context="LensTable.write")
+        format, delimiter = _format_of(path, format)
         ids, passthrough, lens = self._full_rows(normalized)
+        passthrough = self._unclashed(passthrough)
         meta = self.provenance()
         meta["file"] = {
             "format": format, "values": "normalized" if normalized else "raw",
             "row_order": "input order; excluded rows present with missing lens values",
             "id_column": self.cloud.id_name, "passthrough": list(passthrough),
-            "lens_columns": self.names,
+            "lens_columns": self.names, "rows": int(len(ids)),
         }
+        if format == "csv":
+            meta["file"]["delimiter"] = delimiter
+            meta["file"]["text_cells"] = "formula-neutralised (a leading apostrophe)"
         with atomic_path(path) as tmp:
-            _WRITERS[format](tmp, self.cloud.id_name, ids, passthrough, self.names, lens)
+            _WRITERS[format](tmp, self.cloud.id_name, ids, passthrough, self.names, lens,
+                             delimiter=delimiter)
+            meta["file"]["bytes"], meta["file"]["sha256"] = file_digest(tmp)
         sidecar = path.with_name(path.name + ".json")
-        write_text(sidecar, dumps(meta) + "\n")
+        write_text(sidecar, dumps(meta) + "\n")  # written last: it vouches for the data file
         return path, sidecar
 
+    def _unclashed(self, passthrough):
+        """Passthrough columns renamed where a name is a lens column's (a warning says so)."""
+        taken = set(self.names) | {self.cloud.id_name}
+        if self.cloud.id_name in self.names:
+            raise ParameterError(
+                f"The lens column {self.cloud.id_name!r} has the name of the id column; give "
+                f"the id column another name (--id-column on a renamed column) or the lens "
+                f"another parameter."
+            )
+        out = {}
+        for name, col in passthrough.items():
+            new = name
+            while new in taken:
+                new = f"{new}_data"
+            if new != name:
+                warnings.warn(
+                    f"The data column {name!r} has the name of a lens column; it is written as "
+                    f"{new!r} beside the lens column.", LensworkWarning, stacklevel=3,
+                )
+            taken.add(new)
+            out[new] = col
+        return out
+
     @classmethod
-    def read(cls, path, cloud, *, columns=None):
+    def read(cls, path, cloud, *, columns=None, check="warn"):
         """Read lens columns written by :meth:`write` for the rows of ``cloud``.
 
         Parameters
@@ -277,6 +309,12 @@ class LensTable:
             the file with a value in every chosen column.
         columns : list of str, optional
             Lens columns to read (default: every lens column of the sidecar).
+        check : {"warn", "error", "off"}, default="warn"
+            What a mismatch does: the file's size or SHA-256 against the sidecar
+            (a data file from another run than its sidecar), its rows or columns
+            against the sidecar, its input checksum against ``cloud``'s (lenses
+            of another table with the same ids), or either file against the
+            folder's ``lenswork-manifest.json``.
 
         Returns
         -------
@@ -310,7 +348,10 @@ class LensTable:
         (['h'], [0.5, 1.5, 2.5, 3.5])
         """
         path = Path(path)
+        check = check_choice("check", check, LENS_FILE_CHECKS, context="LensTable.read")
         meta, names, id_column = _read_sidecar(path)
+        if check != "off":
+            _check_lens_file(path, meta, cloud, check)
         wanted = names if columns is None else list(columns)
         unknown = [c for c in wanted if c not in names]
         if unknown:
@@ -326,6 +367,11 @@ class LensTable:
             warnings.simplefilter("ignore")
             lens_cloud = load_table(path, features=wanted, id_column=id_column,
                                     invalid="exclude", min_rows=1)
+        if check != "off" and isinstance(meta["file"].get("rows"), int):
+            rows = lens_cloud.n + len(lens_cloud.excluded)
+            if rows != meta["file"]["rows"]:
+                _mismatch(f"The lens file {str(path)!r} has {rows} rows; its sidecar records "
+                          f"{meta['file']['rows']}", check)
         take = _match_ids(lens_cloud.ids, cloud.ids)
         if take is None:
             take = _match_by_text(lens_cloud, cloud, path, id_column)
@@ -341,6 +387,76 @@ class LensTable:
                 normalization=prov.get("normalization") if raw else None,
             ))
         return cls(out, cloud, random_state=meta.get("random_state", 0))
+
+
+#: Values of ``LensTable.read(check=)`` and of the CLI's --lens-file-check.
+LENS_FILE_CHECKS = ("warn", "error", "off")
+
+
+def _threads():
+    """{"numba": thread count} when numba is loaded, else {} (importing it costs seconds)."""
+    import sys
+
+    numba = sys.modules.get("numba")
+    if numba is None:
+        return {}
+    try:
+        return {"numba": int(numba.get_num_threads())}
+    except Exception:  # numba's threading layer may fail to start: record nothing
+        return {}
+
+
+def _mismatch(text, check):
+    text = (f"{text}. Write the lens file again for this table, or pass --lens-file-check off "
+            f"(check='off') to use it anyway.")
+    if check == "error":
+        raise InputError(text)
+    warnings.warn(text, LensworkWarning, stacklevel=3)
+
+
+def _check_lens_file(path, meta, cloud, check):
+    """The lens file against its sidecar, the folder's manifest and the table's checksum."""
+    sidecar = path.with_name(path.name + ".json")
+    size, digest = file_digest(path)  # once: against the manifest and the sidecar
+    for p, known in ((path, (size, digest)), (sidecar, None)):
+        problem = check_against_manifest(p, digest=known)
+        if problem:
+            _mismatch(problem, check)
+            return
+    info = meta["file"]
+    if isinstance(info.get("sha256"), str) and (size != info.get("bytes")
+                                                or digest != info["sha256"]):
+        _mismatch(f"The lens file {str(path)!r} is not the file its sidecar "
+                  f"{sidecar.name!r} describes (size or SHA-256 differs): one was replaced "
+                  f"without the other", check)
+        return
+    mine = (cloud.provenance or {}).get("sha256")
+    theirs = (meta.get("input") or {}).get("sha256")
+    if isinstance(mine, str) and isinstance(theirs, str) and mine != theirs:
+        _mismatch(f"The lens file {str(path)!r} was computed from another table (its sidecar "
+                  f"records input SHA-256 {theirs[:12]}..., this table's is {mine[:12]}...)",
+                  check)
+
+
+def _format_of(path, format):
+    """(format, CSV delimiter) of ``path``: the ending decides; a ``format`` that disagrees
+    with it, and an ending no format has, are refused."""
+    ending = path.suffix.lower().lstrip(".")
+    known = ", ".join("." + e for e in ENDINGS)
+    if format is None:
+        if ending not in ENDINGS:
+            raise ParameterError(
+                f"Cannot tell the lens-file format of {str(path)!r} from its ending; use one of "
+                f"{known} (or pass format=)."
+            )
+        format = ENDINGS[ending]
+    format = check_choice("format", format, FORMATS, context="LensTable.write")
+    if ending in ENDINGS and ENDINGS[ending] != format:
+        raise ParameterError(
+            f"The file {str(path)!r} ends in .{ending} but the format asked is {format!r}; "
+            f"give a name ending in .{format} or the format of the ending."
+        )
+    return format, "\t" if ending == "tsv" else ","
 
 
 def _read_sidecar(path):
@@ -419,20 +535,21 @@ def _item(v):
     return v.item() if isinstance(v, np.generic) else v
 
 
-def _write_csv(tmp, id_name, ids, passthrough, names, lens):
+def _write_csv(tmp, id_name, ids, passthrough, names, lens, delimiter=","):
     # Column by column (cells converted once per column, rows handed to csv in one call):
-    # the same text as a row loop, about 4x faster on a million rows.
-    cells = [[_item(v) for v in ids]]
-    cells += [[_item(v) for v in col] for col in passthrough.values()]
+    # the same text as a row loop, about 4x faster on a million rows. Text cells are
+    # formula-neutralised (lenswork._io.safe_cell); numbers are written as numbers.
+    cells = [[safe_cell(_item(v)) for v in ids]]
+    cells += [[safe_cell(_item(v)) for v in col] for col in passthrough.values()]
     for j in range(lens.shape[1]):
         cells.append(["" if v != v else repr(v) for v in lens[:, j].tolist()])
     with open(tmp, "w", newline="", encoding="utf-8") as fh:
-        w = csv.writer(fh)
-        w.writerow([id_name, *passthrough, *names])
+        w = csv.writer(fh, delimiter=delimiter)
+        w.writerow([safe_cell(n) for n in (id_name, *passthrough, *names)])
         w.writerows(zip(*cells))
 
 
-def _write_parquet(tmp, id_name, ids, passthrough, names, lens):
+def _write_parquet(tmp, id_name, ids, passthrough, names, lens, delimiter=None):
     try:
         import pyarrow as pa
         import pyarrow.parquet as pq
@@ -441,15 +558,24 @@ def _write_parquet(tmp, id_name, ids, passthrough, names, lens):
             "Writing Parquet needs pyarrow: install it with `pip install lenswork[parquet]`, "
             "or write CSV / NPY instead."
         ) from None
-    data = {id_name: pa.array([_item(v) for v in ids])}
+    data = {id_name: _arrow_column(pa, id_name, ids)}
     for name, col in passthrough.items():
-        data[name] = pa.array([_item(v) for v in col])
+        data[name] = _arrow_column(pa, name, col)
     for j, name in enumerate(names):
         data[name] = pa.array(lens[:, j], mask=np.isnan(lens[:, j]))
     pq.write_table(pa.table(data), tmp)
 
 
-def _write_npy(tmp, id_name, ids, passthrough, names, lens):
+def _arrow_column(pa, name, values):
+    """A Parquet column of ids or passthrough cells; mixed or nested cells as text."""
+    cells = [_item(v) for v in values]
+    try:
+        return pa.array(cells)
+    except (pa.ArrowInvalid, pa.ArrowTypeError):
+        return pa.array([None if v is None else str(v) for v in cells], type=pa.string())
+
+
+def _write_npy(tmp, id_name, ids, passthrough, names, lens, delimiter=None):
     """Lens values only: an NPY file holds one array, no ids (read back by position)."""
     with open(tmp, "wb") as fh:
         np.save(fh, lens)

@@ -5,7 +5,16 @@ from __future__ import annotations
 from .._errors import ParameterError
 from .._validation import check_int
 
-__all__ = ["active_client", "gather_each", "p2p_buffers", "start_client"]
+__all__ = [
+    "MIN_WORKER_MEMORY", "active_client", "check_memory_limit", "gather_each", "p2p_buffers",
+    "start_client",
+]
+
+#: The smallest per-worker memory limit a local cluster is started with. An idle worker
+#: process holds 66 MiB (measured, distributed's LocalCluster on Linux) and one running
+#: lenswork's tasks more (numpy, scikit-learn, pyarrow loaded); below its needs the nanny
+#: kills and restarts it without end (measured: --memory-limit 1MB, 604 restarts).
+MIN_WORKER_MEMORY = 256 * 2**20
 
 
 def active_client():
@@ -93,6 +102,35 @@ def p2p_buffers(memory_limit):
             "distributed.p2p.storage.buffer": min(share, 100 * 2**20)}
 
 
+def check_memory_limit(memory_limit):
+    """``memory_limit`` as given ("auto", None, 0) or in bytes; ParameterError when it is not a
+    size or is below :data:`MIN_WORKER_MEMORY`.
+
+    Examples
+    --------
+    >>> check_memory_limit("600MB"), check_memory_limit("auto")
+    (600000000, 'auto')
+    """
+    if memory_limit is None or str(memory_limit).strip().lower() in ("auto", "0", ""):
+        return memory_limit
+    from dask.utils import parse_bytes
+
+    try:
+        limit = parse_bytes(memory_limit) if isinstance(memory_limit, str) else int(memory_limit)
+    except (TypeError, ValueError):
+        raise ParameterError(
+            f"--memory-limit {memory_limit!r} is not a size; give one such as 600MB or 2GB, "
+            f"or auto."
+        ) from None
+    if limit < MIN_WORKER_MEMORY:
+        raise ParameterError(
+            f"--memory-limit {memory_limit!r} is below {MIN_WORKER_MEMORY // 2**20} MiB per "
+            f"worker: an idle worker process alone holds about 66 MiB and one running lenswork's "
+            f"tasks more, so it would be restarted without end. Give at least 256MB (or auto)."
+        )
+    return limit
+
+
 def start_client(scheduler="local", *, workers=2, threads=1, memory_limit="auto",
                  processes=True):
     """A ``distributed.Client``: connected to ``scheduler``, or on a new LocalCluster.
@@ -132,18 +170,32 @@ def start_client(scheduler="local", *, workers=2, threads=1, memory_limit="auto"
     if str(scheduler).strip().lower() == "local":
         import dask
 
-        workers = check_int("workers", workers, lo=1, context="start_client")
-        threads = check_int("threads", threads, lo=1, context="start_client")
+        try:  # bounded: each worker is a process with its own memory limit on this machine
+            workers = check_int("workers", workers, lo=1, hi=256, context="start_client")
+            threads = check_int("threads", threads, lo=1, hi=256, context="start_client")
+        except ParameterError as err:
+            raise ParameterError(
+                f"{err} A local cluster starts one process per worker on this machine (about "
+                f"66 MiB each before any data); for more, start a cluster of several machines "
+                f"and pass its scheduler address."
+            ) from None
+        memory_limit = check_memory_limit(memory_limit)
         # a Client given cluster options starts a LocalCluster and closes it with itself; the
         # workers take the configuration of this moment (also when the nanny restarts one)
-        with dask.config.set(p2p_buffers(memory_limit)):
-            return distributed.Client(
-                n_workers=workers, threads_per_worker=threads, memory_limit=memory_limit,
-                processes=processes, dashboard_address=None,
-            )
+        try:
+            with dask.config.set(p2p_buffers(memory_limit)):
+                return distributed.Client(
+                    n_workers=workers, threads_per_worker=threads, memory_limit=memory_limit,
+                    processes=processes, dashboard_address=None, timeout="60s",
+                )
+        except Exception as err:  # a worker lost while starting: any of several types
+            raise ParameterError(
+                f"The local Dask cluster did not start ({type(err).__name__}: {err}). Check the "
+                f"free memory and --workers / --memory-limit, or run without --scheduler."
+            ) from None
     try:
         return distributed.Client(str(scheduler), timeout="20s")
-    except OSError as err:
+    except (OSError, TimeoutError, ValueError) as err:
         raise ParameterError(
             f"Could not reach the Dask scheduler at {scheduler!r} ({err}). Check the address "
             f"(e.g. tcp://host:8786), or use 'local'."

@@ -32,10 +32,11 @@ import numpy as np
 
 from .. import __version__
 from .._errors import ParameterError
-from .._io import atomic_path, write_text
+from .._io import OutputSet, atomic_path, check_output_file, write_text
 from .._json import dumps
 from .._validation import check_float, check_float_or_choice, check_int
 from ..lenses import get_lens, lens_request
+from ..lenses._density import kernel_cholesky
 from ..lenses._laplacian import laplacian_eigenmaps
 from ..lenses._nystrom import nystrom_extend
 from ._intake import require_dask
@@ -44,6 +45,9 @@ from ._sample import sample_cloud
 __all__ = ["PARTITIONED_LENSES", "PartitionedLenses", "partitioned_lenses"]
 
 _BLOCK = 2048
+
+#: The manifest of a Parquet dataset folder (a leading underscore: Parquet readers skip it).
+DATASET_MANIFEST = "_lenswork-manifest.json"
 
 
 def _pca_basis(cloud, m):
@@ -279,10 +283,17 @@ class PartitionedLenses:
         return np.concatenate([o[0] for o in out]), np.concatenate([o[1] for o in out])
 
     def write(self, directory, compute=None):
-        """Write one Parquet file per partition (ids + lens columns) and ``lenses.json``.
+        """Write a Parquet dataset folder (one file per partition) and its provenance beside it.
 
-        Each file goes to a temporary name and is renamed; ``lenses.json``
-        (strict JSON) is written last, so a directory with it is complete.
+        The folder ``directory`` holds ``part-00000.parquet``... (ids, lens
+        columns and, for an estimated lens, its per-row error column
+        ``<name>_error``) and ``_lenswork-manifest.json`` (a name Parquet
+        readers skip), so ``pandas.read_parquet(directory)`` reads the whole
+        table. It is written as one output set (:class:`lenswork._io.OutputSet`)
+        in a staging folder beside it and swapped in with one rename: no part
+        of an earlier run survives. The provenance ``<directory>.json`` (strict
+        JSON, beside the folder) is written last and records the set's
+        checksum.
 
         Parameters
         ----------
@@ -293,38 +304,53 @@ class PartitionedLenses:
         Returns
         -------
         list of str
-            The files written.
+            The files written: the parts, then the provenance.
         """
         from pathlib import Path
 
         dask = require_dask()
         directory = Path(directory)
-        directory.mkdir(parents=True, exist_ok=True)
+        sidecar = directory.with_name(directory.name + ".json")
+        check_output_file(sidecar)
+        output = OutputSet(directory, command="compute --scheduler", manifest=DATASET_MANIFEST,
+                           replace_folder=True)
         write = dask.delayed(_write_part, pure=False)
-        tasks = [
-            write(self.cloud.delayed_parts()[i], part, self.names, self.cloud.id_name,
-                  str(directory / f"part-{i:05d}.parquet"))
-            for i, part in enumerate(self.parts)
-        ]
+        errors = [bool(not p.get("exact", False)) for p in self.provenance]
+        # without an id column each partition numbers its rows from 1: the files get the
+        # global 1-based position instead, so the dataset's ids are unique
+        numbered = self.cloud.options.get("id_column") is None
         compute = compute or (lambda items: list(dask.compute(*items)))
-        files = list(compute(tasks))
-        sidecar = {
+        with output as stage:
+            tasks = [
+                write(self.cloud.delayed_parts()[i], part, self.names, self.cloud.id_name,
+                      str(stage / f"part-{i:05d}.parquet"), errors,
+                      int(self.cloud.offsets[i]) if numbered else None)
+                for i, part in enumerate(self.parts)
+            ]
+            names = [Path(f).name for f in compute(tasks)]
+        doc = {
             "lenswork_version": __version__, "input": self.cloud.provenance,
-            "columns": dict(zip(self.names, self.provenance)), "files": [Path(f).name
-                                                                        for f in files],
+            "columns": dict(zip(self.names, self.provenance)), "files": names,
+            "dataset": {"folder": directory.name, "manifest": DATASET_MANIFEST,
+                        "set_sha256": output.document["set_sha256"],
+                        "error_columns": [f"{n}_error" for n, e in zip(self.names, errors) if e]},
         }
-        write_text(directory / "lenses.json", dumps(sidecar))
-        return [*files, str(directory / "lenses.json")]
+        write_text(sidecar, dumps(doc))
+        return [str(directory / n) for n in names] + [str(sidecar)]
 
 
-def _write_part(data, part, names, id_name, path):
+def _write_part(data, part, names, id_name, path, errors=None, offset=None):
     import pyarrow as pa
     import pyarrow.parquet as pq
 
-    values = part[0]
-    cols = {id_name: data[1]}
+    values, errs = part[0], part[1]
+    ids = data[1] if offset is None else offset + np.arange(1, len(data[1]) + 1)
+    cols = {id_name: ids}
     for j, name in enumerate(names):
         cols[name] = values[:, j]
+    for j, name in enumerate(names):
+        if errors is not None and errors[j]:
+            cols[f"{name}_error"] = errs[:, j]
     with atomic_path(path) as tmp:
         pq.write_table(pa.table(cols), tmp)
     return path
@@ -420,7 +446,8 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
                 H = cloud.scatter / (n - 1) * n ** (-2.0 / (d + 4))
                 if p["bandwidth"] != "scott":
                     H = np.eye(d) * float(p["bandwidth"]) ** 2
-                Lc = np.linalg.cholesky(H)
+                Lc = kernel_cholesky(H, p["bandwidth"] if isinstance(p["bandwidth"], str)
+                                     else "fixed")  # the single machine's refusal
                 sctx["whiten"] = np.linalg.inv(Lc)
                 sctx["log_norm"] = float(-0.5 * d * math.log(2 * math.pi)
                                          - np.log(np.diag(Lc)).sum())

@@ -10,23 +10,17 @@ the figure sheet).
 
 from __future__ import annotations
 
-import contextlib
-import csv
 import html
 import io
 import math
-import os
-import shutil
-import tempfile
 import warnings
-from pathlib import Path
 
 import numpy as np
 
 from .. import _progress
 from .._errors import LensworkWarning, ParameterError
 from .._frame import data_frame
-from .._io import write_text
+from .._io import MANIFEST, OutputSet, csv_writer, write_text
 from .._json import dumps, plain
 from .._validation import check_choice, check_float, check_int
 from .._version import __version__
@@ -428,7 +422,7 @@ class ScreenResult:
         """The ranking table as CSV text (params as JSON, missing values empty)."""
         rows = self.rows()
         buf = io.StringIO()
-        w = csv.writer(buf, lineterminator="\n")
+        w = csv_writer(buf, lineterminator="\n")
         header = list(rows[0]) if rows else []
         w.writerow(header)
         for r in rows:
@@ -619,22 +613,17 @@ class ScreenResult:
 
         Notes
         -----
-        All files are first written (each atomically) into a hidden staging
-        directory inside ``directory`` and moved into place only when every
-        one of them is complete, so a failure leaves no partial output behind
-        (a directory created for this call is removed again).
+        The files are one output set (:class:`lenswork._io.OutputSet`): written
+        into a hidden staging folder beside ``directory`` and moved in only
+        when every one is complete, with ``lenswork-manifest.json`` last; files
+        an earlier run wrote there and this one did not (``lenses.csv`` after
+        ``lens_format="parquet"``, a figure) are removed. A failure leaves the
+        folder as it was.
         """
         lens_format = check_choice("lens_format", lens_format, FORMATS, context="write")
         table = self.to_lens_table()  # raises before anything is written
-        directory = Path(directory)
-        created = not directory.exists()
-        if directory.exists() and not directory.is_dir():
-            raise ParameterError(
-                f"Output directory {str(directory)!r} is a file; give a directory path."
-            )
-        directory.mkdir(parents=True, exist_ok=True)
-        staging = Path(tempfile.mkdtemp(prefix=".lenswork-screen-", dir=directory))
-        try:
+        output = OutputSet(directory, command="screen")
+        with output as staging:
             with _progress.step("writing ranking and lens columns"):
                 write_text(staging / "ranking.csv", self.to_csv_text())
                 write_text(staging / "ranking.json", dumps(self.to_dict()) + "\n")
@@ -644,17 +633,7 @@ class ScreenResult:
 
                 with _progress.step("figure sheet (PNG, SVG)"):
                     screen_sheet(self, [staging / "sheet.png", staging / "sheet.svg"])
-            names = sorted(p.name for p in staging.iterdir() if not p.name.startswith("."))
-            for name in names:
-                os.replace(staging / name, directory / name)
-        except BaseException:
-            shutil.rmtree(staging, ignore_errors=True)
-            if created:
-                with contextlib.suppress(OSError):
-                    directory.rmdir()
-            raise
-        shutil.rmtree(staging, ignore_errors=True)
-        return {name: directory / name for name in names}
+        return {p.name: p for p in output.written if p.name != MANIFEST}
 
     def __repr__(self):
         return (f"ScreenResult({len(self.names)} candidates, selected={self.selected}, "
