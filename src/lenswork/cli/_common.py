@@ -332,11 +332,11 @@ def lens_options(views=False):
         lens_help = _LENS_HELP + " Two or more lens columns give a product cover."
         use_help = "Columns to take from --lens-file, comma-separated (default: all of them)."
 
-    def decorator(func):
-        @functools.wraps(func)
+    def decorator(command):
+        @functools.wraps(command)
         def wrapper(*args, lens_file, lens_file_check, **kwargs):
             path = None if lens_file is None else LensFile(lens_file, lens_file_check)
-            return func(*args, lens_file=path, **kwargs)
+            return command(*args, lens_file=path, **kwargs)
 
         func = click.option("--use", "use", default=None, multiple=views, metavar="COLS",
                             help=use_help)(wrapper)
