@@ -1,0 +1,162 @@
+"""Figures a reader can trust: the comparison, stability and bootstrap figures.
+
+Rendered on matplotlib's Agg canvas and read back: text boxes from
+``Text.get_window_extent`` (display pixels), node markers from the scatter
+offsets through ``Axes.transData``, the correspondence panels from their
+image arrays, checked against member sets intersected in plain Python.
+"""
+
+import itertools
+
+import numpy as np
+import pytest
+from matplotlib.collections import PathCollection
+from matplotlib.image import AxesImage
+
+from lenswork import Workspace, compare_views
+
+pytestmark = pytest.mark.filterwarnings("ignore:.*rows are in no node:lenswork.LensworkWarning")
+
+
+@pytest.fixture(scope="module")
+def sheets():
+    """Two parallel noisy sheets in 3-d: a view of (x, y) puts both sheets' nodes of one
+    cover cell at the same lens means, so a drawing at the lens means stacks them."""
+    rng = np.random.default_rng(50321)
+    n = 700
+    u, v = rng.uniform(0, 1, n), rng.uniform(0, 1, n)
+    sheet = rng.integers(0, 2, n) * 3.0
+    X = np.column_stack([u, v, sheet + rng.normal(0, 0.02, n)])
+    return X, Workspace(X)
+
+
+def _views(X, V):
+    views = {"x": X[:, 0], "x and y": X[:, :2], "x cubed": X[:, 0] ** 7, "y": X[:, 1]}
+    return dict(list(views.items())[:V])
+
+
+def _texts(fig):
+    """Every visible, non-empty text of a drawn figure."""
+    out = [t for t in fig.texts]
+    for ax in fig.axes:
+        out += [ax.title, ax._left_title, ax._right_title, ax.xaxis.label, ax.yaxis.label]
+        out += list(ax.texts)
+        # tick labels the axis draws: those inside its view limits
+        for labels, lim, k in ((ax.get_xticklabels(), ax.get_xlim(), 0),
+                               (ax.get_yticklabels(), ax.get_ylim(), 1)):
+            lo, hi = sorted(lim)
+            out += [t for t in labels if lo <= t.get_position()[k] <= hi]
+    return [t for t in out if t.get_visible() and t.get_text().strip()]
+
+
+def _render(fig):
+    fig.canvas.draw()
+    return fig.canvas.get_renderer()
+
+
+def _overlaps(fig):
+    """Pairs of text boxes that overlap by more than one pixel each way."""
+    renderer = _render(fig)
+    boxes = [(t.get_text(), t.get_window_extent(renderer)) for t in _texts(fig)]
+    bad = []
+    for (ta, a), (tb, b) in itertools.combinations(boxes, 2):
+        dx = min(a.x1, b.x1) - max(a.x0, b.x0)
+        dy = min(a.y1, b.y1) - max(a.y0, b.y0)
+        if dx > 1 and dy > 1:
+            bad.append((ta, tb))
+    return bad
+
+
+def _pair_panels(fig):
+    return [ax for ax in fig.axes if any(isinstance(im, AxesImage) for im in ax.images)]
+
+
+def _view_panels(fig):
+    return [ax for ax in fig.axes if any(isinstance(c, PathCollection) for c in ax.collections)]
+
+
+def _shares_by_sets(ga, gb):
+    """|rows(i) & rows(j)| / |rows(i)| from the member lists (Python sets, no sparse product)."""
+    out = np.zeros((ga.n_nodes, gb.n_nodes))
+    rows_b = [set(gb.members(j).tolist()) for j in range(gb.n_nodes)]
+    for i in range(ga.n_nodes):
+        rows_a = set(ga.members(i).tolist())
+        for j in range(gb.n_nodes):
+            out[i, j] = len(rows_a & rows_b[j]) / max(len(rows_a), 1)
+    return out
+
+
+@pytest.mark.parametrize("V", [2, 3, 4])
+def test_comparison_figure_has_every_pair_and_no_overprinted_text(sheets, V):
+    from lenswork.plot import comparison_figure
+
+    X, ws = sheets
+    cmp = compare_views(_views(X, V), ws, intervals=8, min_size=5)
+    fig = comparison_figure(cmp)
+    try:
+        n_pairs = V * (V - 1) // 2
+        panels = _pair_panels(fig)
+        assert len(panels) == n_pairs
+        # each pair panel is headed by its own pair and draws that pair's correspondence
+        heads = {}
+        for ax in panels:
+            head = [t.get_text() for t in ax.texts if "co-membership ARI" in t.get_text()]
+            assert len(head) == 1
+            heads[head[0].split(":")[0]] = ax
+        for a, b in itertools.combinations(range(V), 2):
+            key = f"{'ABCD'[a]} vs {'ABCD'[b]}"
+            assert key in heads, (key, sorted(heads))
+            p = cmp.pair(a, b)
+            assert f"co-membership ARI {p['co_ari']:.2f}" in \
+                [t.get_text() for t in heads[key].texts if t.get_text().startswith(key)][0]
+            shown = heads[key].images[0].get_array()
+            np.testing.assert_allclose(shown, _shares_by_sets(cmp.graphs[a], cmp.graphs[b]),
+                                       rtol=0, atol=1e-12)
+        # the telling agreement leads the figure, as it leads format_text()
+        title = fig.get_suptitle()
+        if V == 2:
+            p = cmp.pairs[0]
+            assert title.startswith(f"x vs x and y:  co-membership ARI {p['co_ari']:.2f}")
+        else:
+            best = max(cmp.pairs, key=lambda p: p["co_ari"])
+            assert f"to {best['co_ari']:.2f}" in title and "co-membership ARI from" in title
+        assert _overlaps(fig) == []
+    finally:
+        import matplotlib.pyplot as plt
+
+        plt.close(fig)
+
+
+@pytest.mark.parametrize("V", [2, 4])
+def test_every_node_of_every_view_shows(sheets, V):
+    from lenswork.plot import comparison_figure
+
+    X, ws = sheets
+    cmp = compare_views(_views(X, V), ws, intervals=8, min_size=5)
+    # the (x, y) view's drawing at the lens means stacks the two sheets' nodes
+    means = np.column_stack([cmp.graphs[1].node_values(c) for c in cmp.graphs[1].lens_columns])
+    assert np.unique(np.round(means, 1), axis=0).shape[0] < cmp.graphs[1].n_nodes
+    fig = comparison_figure(cmp)
+    try:
+        _render(fig)
+        views = _view_panels(fig)
+        assert len(views) == V
+        for ax, g, s in zip(views, cmp.graphs, cmp.summaries, strict=True):
+            xy = ax.transData.transform(ax.collections[-1].get_offsets())
+            assert xy.shape[0] == g.n_nodes
+            gap = np.sqrt(((xy[:, None] - xy[None]) ** 2).sum(-1))
+            gap[np.diag_indices_from(gap)] = np.inf
+            assert gap.min() >= 3.0, (g.lens_columns, gap.min())  # pixels at 100 dpi
+            # every marker inside its panel
+            box = ax.get_window_extent()
+            assert (xy[:, 0] >= box.x0).all() and (xy[:, 0] <= box.x1).all()
+            assert (xy[:, 1] >= box.y0).all() and (xy[:, 1] <= box.y1).all()
+            # the panel's title leads with the significant counts
+            words = " ".join(" ".join(t.get_text().replace("\u00b7", " ").split())
+                             for t in ax.texts)
+            head = " ".join(s.headline(" ").split())
+            assert f"significant: {head}" in words
+    finally:
+        import matplotlib.pyplot as plt
+
+        plt.close(fig)
