@@ -10,6 +10,7 @@ import itertools
 
 import numpy as np
 import pytest
+from _shapes import noisy_circle
 from matplotlib.collections import PathCollection
 from matplotlib.image import AxesImage
 
@@ -156,6 +157,101 @@ def test_every_node_of_every_view_shows(sheets, V):
                              for t in ax.texts)
             head = " ".join(s.headline(" ").split())
             assert f"significant: {head}" in words
+    finally:
+        import matplotlib.pyplot as plt
+
+        plt.close(fig)
+
+
+# --------------------------------------------------------------------------- stability map
+@pytest.fixture(scope="module")
+def circle_map():
+    from lenswork import LensColumn, stability_map
+
+    rng = np.random.default_rng(2718)
+    X = noisy_circle(500, rng)
+    return stability_map(LensColumn("x", X[:, 0]), Workspace(X), interval_counts=(6, 10),
+                         overlaps=(0.2, 0.3))
+
+
+def test_stability_figure_names_raw_counts_raw(circle_map):
+    from lenswork.plot import stability_figure
+
+    fig = stability_figure(circle_map)
+    try:
+        titles = [ax.get_title(loc="left") for ax in fig.axes]
+        assert titles == ["components", "raw cycles (b1)", "raw nodes of degree \u2265 3",
+                          "raw leaf chains"]
+        # the map records no significant count, and the figure says so instead of hiding it
+        assert any("records no significance" in t.get_text() for t in fig.texts)
+        # each panel shows the map's own counts, cell by cell
+        for ax, name in zip(fig.axes, ("components", "loops", "branch_points", "flares"),
+                            strict=True):
+            np.testing.assert_array_equal(ax.images[0].get_array(), circle_map.counts[name])
+        assert _overlaps(fig) == []
+    finally:
+        import matplotlib.pyplot as plt
+
+        plt.close(fig)
+
+
+def test_stability_figure_leads_with_significant_counts_when_the_map_holds_them(circle_map):
+    """A map carrying per-cell significant counts (the structure probe's grid keys) draws
+    them first, in the count colours; the raw panels follow in grey."""
+    import dataclasses
+
+    from lenswork.plot import stability_figure
+
+    counts = dict(circle_map.counts)
+    counts["significant_loops"] = np.ones_like(counts["loops"])
+    counts["significant_branches"] = np.zeros_like(counts["loops"])
+    smap = dataclasses.replace(circle_map, counts=counts)
+    fig = stability_figure(smap)
+    try:
+        titles = [ax.get_title(loc="left") for ax in fig.axes]
+        assert titles[:3] == ["components", "significant loops", "significant branches"]
+        assert all(t.startswith("raw ") for t in titles[3:]) and len(titles) == 6
+        top = [ax.images[0].cmap(1.0)[:3] for ax in fig.axes]
+        grey = [abs(r - g) < 0.1 and abs(g - b) < 0.1 for r, g, b in top]
+        assert grey == [False, False, False, True, True, True]
+        assert _overlaps(fig) == []
+    finally:
+        import matplotlib.pyplot as plt
+
+        plt.close(fig)
+
+
+# --------------------------------------------------------------------------- bootstrap
+def test_bootstrap_figure_leads_with_the_significant_counts():
+    from collections import Counter
+
+    from lenswork import bootstrap_graph, build_graph
+    from lenswork.plot import bootstrap_figure
+    from lenswork.plot._style import ACCENT
+
+    rng = np.random.default_rng(3141)
+    X = noisy_circle(400, rng, noise=0.04)
+    ws = Workspace(X)
+    res = bootstrap_graph(X[:, 0], ws, resamples=6, random_state=2)
+    fig = bootstrap_figure(res)
+    try:
+        # the title states the full-data graph's significant counts, as its summary does
+        head = build_graph(X[:, 0], ws).summary().headline(" \u00b7 ")
+        assert head in " ".join(fig.get_suptitle().split("\n")).replace("  ", " ")
+        panels = {ax.get_title(loc="left"): ax for ax in fig.axes if ax.get_visible()}
+        assert list(panels)[:2] == ["components", "significant loops"]
+        assert {"raw cycles (b1)", "raw leaf chains"} <= set(panels)
+        # significant loops: bar heights are the shares of resamples (Counter as reference)
+        ax = panels["significant loops"]
+        share = {c: k / res.resamples for c, k in Counter(res.significant_counts["loops"]).items()}
+        bars = {int(round(p.get_x() + p.get_width() / 2)): p for p in ax.patches}
+        for count, p in bars.items():
+            assert p.get_height() == pytest.approx(share.get(count, 0.0), abs=1e-12)
+        from matplotlib.colors import to_hex
+
+        amber = [c for c, p in bars.items() if to_hex(p.get_facecolor()) == ACCENT.lower()]
+        assert amber == [sum(f["kind"] == "loop" for f in res.full_features)]
+        assert _overlaps(fig) == []
     finally:
         import matplotlib.pyplot as plt
 
