@@ -37,17 +37,23 @@ def _views(X, V):
 
 
 def _texts(fig):
-    """Every visible, non-empty text of a drawn figure."""
+    """Every visible, non-empty, upright text of a drawn figure."""
     out = [t for t in fig.texts]
     for ax in fig.axes:
-        out += [ax.title, ax._left_title, ax._right_title, ax.xaxis.label, ax.yaxis.label]
-        out += list(ax.texts)
+        if not ax.get_visible():
+            continue
+        out += [ax.title, ax._left_title, ax._right_title] + list(ax.texts)
+        if not ax.axison:  # axis("off"): no labels or ticks drawn
+            continue
+        out += [ax.xaxis.label, ax.yaxis.label]
         # tick labels the axis draws: those inside its view limits
         for labels, lim, k in ((ax.get_xticklabels(), ax.get_xlim(), 0),
                                (ax.get_yticklabels(), ax.get_ylim(), 1)):
             lo, hi = sorted(lim)
             out += [t for t in labels if lo <= t.get_position()[k] <= hi]
-    return [t for t in out if t.get_visible() and t.get_text().strip()]
+    # a slanted label's box is not its outline (slanted neighbours' boxes overlap): left out
+    return [t for t in out if t.get_visible() and t.get_text().strip()
+            and t.get_rotation() % 90 == 0]
 
 
 def _render(fig):
@@ -251,6 +257,31 @@ def test_bootstrap_figure_leads_with_the_significant_counts():
 
         amber = [c for c, p in bars.items() if to_hex(p.get_facecolor()) == ACCENT.lower()]
         assert amber == [sum(f["kind"] == "loop" for f in res.full_features)]
+        assert _overlaps(fig) == []
+    finally:
+        import matplotlib.pyplot as plt
+
+        plt.close(fig)
+
+
+# --------------------------------------------------------------------------- screen sheet
+def test_screen_sheet_cards_state_the_significant_counts():
+    import lenswork.plot._sheet as sheet
+    from lenswork import screen
+
+    rng = np.random.default_rng(1618)
+    X = noisy_circle(500, rng, noise=0.04)
+    X = np.column_stack([X, rng.normal(0, 0.05, (500, 1))])
+    result = screen(Workspace(X), count=2)
+    fig = sheet._draw(result)
+    try:
+        texts = [t.get_text() for ax in fig.axes for t in ax.texts]
+        for r in result.rows():
+            loops, branches = r["significant_loops"], r["significant_branches"]
+            want = (f"significant: {loops} loop{'' if loops == 1 else 's'}, {branches} "
+                    f"branch{'' if branches == 1 else 'es'}")
+            assert want in texts, (r["column"], want)
+        # the card titles (rank and name) never overprint the lines under them
         assert _overlaps(fig) == []
     finally:
         import matplotlib.pyplot as plt
