@@ -287,3 +287,37 @@ def test_screen_sheet_cards_state_the_significant_counts():
         import matplotlib.pyplot as plt
 
         plt.close(fig)
+
+
+# --------------------------------------------------------------------------- graph drawing
+def test_feature_labels_stand_beside_their_nodes_not_on_them():
+    from lenswork import build_graph
+    from lenswork.plot import draw_graph
+
+    rng = np.random.default_rng(4242)
+    X = noisy_circle(800, rng, noise=0.03)
+    g = build_graph(X[:, 0], Workspace(X), intervals=12)
+    s = g.summary()
+    assert s.significant_counts()["loops"] == 1
+    fig = draw_graph(g, node_scale=2.0)  # large markers: a label at a fixed offset hits them
+    try:
+        renderer = _render(fig)
+        ax = fig.axes[0]
+        pos = g.layout()
+        centre = ax.transData.transform(pos)
+        # draw_graph's marker areas (points^2): node_scale * (16 + 340 * size / largest)
+        area = 2.0 * (16.0 + 340.0 * g.node_sizes / g.node_sizes.max())
+        radius = 0.5 * np.sqrt(area) * fig.dpi / 72.0  # pixels
+        names = {lab for lab, _ in s.labelled()}
+        labels = [t for t in ax.texts if t.get_text() in names]
+        assert labels
+        for t in labels:
+            at = int(np.argmin(np.hypot(*(pos - np.asarray(t.xy)).T)))  # the node it labels
+            box = t.get_window_extent(renderer)
+            # the point of the label's box nearest the node's centre lies outside the marker
+            near = np.clip(centre[at], [box.x0, box.y0], [box.x1, box.y1])
+            assert np.hypot(*(near - centre[at])) >= radius[at] - 0.5, t.get_text()
+    finally:
+        import matplotlib.pyplot as plt
+
+        plt.close(fig)
