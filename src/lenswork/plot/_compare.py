@@ -50,12 +50,15 @@ _CLOSE = 0.02
 #: Inches: view panel width and height, pair panel width and height.
 _VIEW_W, _VIEW_H = 3.7, 3.2
 _PAIR_W, _PAIR_H = 3.9, 2.6
-#: Inches: header bands (figure title, view titles, pair titles) and foot bands.
-_FIG_HEAD, _VIEW_HEAD, _VIEW_FOOT = 0.62, 0.62, 0.5
-_PAIR_HEAD, _PAIR_FOOT = 0.95, 0.5
+#: Inches: the figure's title band, the band under a pair panel (its axis labels).
+_FIG_HEAD, _PAIR_FOOT = 0.62, 0.5
 _GAP, _BAR_W, _MARGIN = 0.45, 0.12, 0.25
 #: Pair panels per row when they stand below the views.
 _PAIR_COLS = 3
+
+
+def _count(n, word):
+    return f"{n} {word}{'' if n == 1 else 's'}"
 
 
 def _letter(i):
@@ -67,7 +70,7 @@ def _wrap(text, width_in, size, sep=" \u00b7 "):
 
     Lines break at ``sep`` (the dot between counts) where they can, else at spaces.
     """
-    chars = max(12, int(width_in * 72 / (0.56 * size)))
+    chars = max(12, int(width_in * 72 / (0.52 * size)))
     lines = []
     for part in text.split(sep):
         if lines and len(lines[-1]) + len(sep) + len(part) <= chars:
@@ -173,62 +176,69 @@ def _draw_view(ax, cmp, view, by):
     return sc
 
 
-def _stack(ax, lines, anchor=None):
-    """Write ``[(text, colour, size, weight)]`` upwards from the top of ``ax`` (or ``anchor``).
+def _stack(ax, lines):
+    """Write ``[(text, colour, size, weight)]`` upwards from the top of ``ax``.
 
     Each text sits on the one below it (annotate relative to its box), so
     wrapped lines of any count never overprint each other.
     """
-    out = []
+    anchor, coords, lift = (0.0, 1.0), "axes fraction", 3
     for text, colour, size, weight in lines:
-        if anchor is None:
-            anchor = ax.annotate(text, xy=(0.0, 1.0), xycoords="axes fraction",
-                                 xytext=(0, 3), textcoords="offset points", fontsize=size,
-                                 color=colour, fontweight=weight, va="bottom", ha="left",
-                                 linespacing=1.15, annotation_clip=False)
-        else:
-            anchor = ax.annotate(text, xy=(0.0, 1.0), xycoords=anchor, xytext=(0, 1.5),
-                                 textcoords="offset points", fontsize=size, color=colour,
-                                 fontweight=weight, va="bottom", ha="left", linespacing=1.15,
-                                 annotation_clip=False)
-        out.append(anchor)
-    return out
+        art = ax.annotate(text, xy=anchor, xycoords=coords, xytext=(0, lift),
+                          textcoords="offset points", fontsize=size, color=colour,
+                          fontweight=weight, va="bottom", ha="left", linespacing=1.15,
+                          annotation_clip=False)
+        anchor, coords, lift = (0.0, 1.0), art, 1.5
 
 
-def _view_texts(ax, cmp, view, by, width):
-    """Title (letter, name, significant counts) above a view panel; raw counts under it."""
+def _stack_height(lines):
+    """Inches that :func:`_stack` needs for ``lines`` (plus a small margin)."""
+    points = sum((text.count("\n") + 1) * size * 1.2 + 1.5 for text, _, size, _ in lines)
+    return (points + 3) / 72 + 0.08
+
+
+def _view_lines(cmp, view, width):
+    """Title of a view panel, bottom up: its significant counts, then its letter and name."""
     s = cmp.summaries[view]
     word = "significant" if s.significance is not None else "no significance"
     dot = " \u00b7 "
-    _stack(ax, [(_wrap(f"{word}: {s.headline(dot)}", width, 7.5), INK, 7.5, "normal"),
-                (_wrap(f"{_letter(view)}  {cmp.names[view]}", width, 9), INK, 9, "bold")])
-    raw = (f"raw: {s.n_nodes} nodes \u00b7 {s.loops} cycles (b1) \u00b7 "
-           f"{len(s.branch_points)} of degree \u2265 3 \u00b7 {s.n_flares} leaf chains")
+    return [(_wrap(f"{word}: {s.headline(dot)}", width, 7.5), INK, 7.5, "normal"),
+            (_wrap(f"{_letter(view)}  {cmp.names[view]}", width, 9), INK, 9, "bold")]
+
+
+def _view_foot(cmp, view, by, width):
+    """Under a view panel: its raw counts, named raw, and what colours it."""
+    s = cmp.summaries[view]
+    raw = (f"raw: {_count(s.n_nodes, 'node')} \u00b7 {_count(s.loops, 'cycle')} (b1) \u00b7 "
+           f"{len(s.branch_points)} of degree \u2265 3 \u00b7 "
+           f"{_count(s.n_flares, 'leaf chain')}")
     colour = f"colour: {_letter(by)}'s lens ({cmp.graphs[by].lens_columns[0]}), mean rank"
-    ax.text(0.0, -0.02, _wrap(raw, width, 6.5) + "\n" + _wrap(colour, width, 6.5),
-            transform=ax.transAxes, fontsize=6.5, color=MUTED, va="top", ha="left",
-            linespacing=1.15)
+    return _wrap(raw, width, 6.5) + "\n" + _wrap(colour, width, 6.5)
 
 
-def _pair_texts(ax, cmp, p, a, b, width):
-    """Header of a pair panel: the co-membership agreement first, as format_text prints it."""
+def _pair_lines(cmp, p, a, b, width):
+    """Header of a pair panel, bottom up; read top down it is format_text's order: the
+    co-membership agreement, the induced partition's scores, the significant features in
+    one view only, the count of small ones."""
     co = (f"{_letter(a)} vs {_letter(b)}: co-membership ARI {p['co_ari']:.2f} \u00b7 "
           f"pair Jaccard {p['co_jaccard']:.2f}" + (" (trivial)" if p.get("co_trivial") else ""))
     trivial = " (trivial: one block each)" if p.get("trivial") else ""
-    lines = [(_wrap(f"{cmp.partition} partition: ARI {p['ari']:.2f} \u00b7 VI {p['vi']:.2f} "
-                    f"nats ({p['rows_compared']:,} rows){trivial}", width, 7), MUTED)]
     only = [f"{f['label']} in {_letter(a)}" for f in p["only_a"]]
     only += [f"{f['label']} in {_letter(b)}" for f in p["only_b"]]
     if len(only) > 5:
         only = [*only[:5], f"{len(only) - 5} more (see comparison.json)"]
-    lines.append((_wrap("significant in one view only: " + ", ".join(only), width, 7), ACCENT)
-                 if only else ("every significant feature matched in the other view", MUTED))
-    lines.append((_wrap(f"small features in one view only (not listed): {p['small_only_a']} "
-                        f"in {_letter(a)}, {p['small_only_b']} in {_letter(b)}", width, 7),
-                  MUTED))
-    lines.insert(0, (_wrap(co, width, 8.5), INK))
-    return _stack(ax, [(text, colour, 8.5 if k == 0 else 7, "bold" if k == 0 else "normal")
-                       for k, (text, colour) in reversed(list(enumerate(lines)))])
+    lines = [
+        (_wrap(co, width, 8.5), INK, 8.5, "bold"),
+        (_wrap(f"{cmp.partition} partition: ARI {p['ari']:.2f} \u00b7 VI {p['vi']:.2f} nats "
+               f"({p['rows_compared']:,} rows){trivial}", width, 7), MUTED, 7, "normal"),
+        (_wrap("significant in one view only: " + ", ".join(only), width, 7), ACCENT, 7,
+         "normal") if only else
+        ("every significant feature matched in the other view", MUTED, 7, "normal"),
+        (_wrap(f"small features in one view only (not listed): {p['small_only_a']} in "
+               f"{_letter(a)}, {p['small_only_b']} in {_letter(b)}", width, 7), MUTED, 7,
+         "normal"),
+    ]
+    return lines[::-1]
 
 
 def _draw_pair(ax, cmp, a, b):
@@ -276,24 +286,37 @@ def comparison_figure(cmp):
 
     Every view gets a panel and every pair of views a correspondence panel
     with its own header (module notes). Sizes are set in inches, so the
-    panels keep their size whatever the number of views.
+    panels keep their size whatever the number of views, and every header
+    band is as tall as its wrapped lines.
     """
     V = len(cmp.names)
     pairs = [(cmp.names.index(p["a"]), cmp.names.index(p["b"]), p) for p in cmp.pairs]
     beside = len(pairs) == 1
+    text_w = _VIEW_W - 0.2
+    view_lines = [_view_lines(cmp, i, text_w) for i in range(V)]
+    feet = [_view_foot(cmp, i, (i + 1) % V, text_w) for i in range(V)]
+    pair_lines = [_pair_lines(cmp, p, a, b, _PAIR_W - 0.1) for a, b, p in pairs]
+    view_head = max(_stack_height(lines) for lines in view_lines)
+    view_foot = max(f.count("\n") + 1 for f in feet) * 6.5 * 1.2 / 72 + 0.12
+    pair_cols = 1 if beside else min(_PAIR_COLS, len(pairs))
+    pair_rows = -(-len(pairs) // pair_cols)
+    pair_heads = [max(_stack_height(pair_lines[t])
+                      for t in range(r * pair_cols, min((r + 1) * pair_cols, len(pairs))))
+                  for r in range(pair_rows)]
     views_w = V * _VIEW_W + (V - 1) * _GAP + _GAP + _BAR_W + 0.55
-    view_band = _VIEW_HEAD + _VIEW_H + _VIEW_FOOT
-    pair_band = _PAIR_HEAD + _PAIR_H + _PAIR_FOOT
     if beside:
+        view_head = pair_heads[0] = max(view_head, pair_heads[0])  # panel tops aligned
         W = _MARGIN + views_w + 0.3 + _PAIR_W + _GAP / 2 + _BAR_W + 0.55 + _MARGIN
-        H = _FIG_HEAD + max(view_band, pair_band) + 0.1
-        pair_cols, pair_rows = 1, 1
+        H = _FIG_HEAD + view_head + max(_VIEW_H + view_foot, _PAIR_H + _PAIR_FOOT) + 0.1
+        pair_tops = [_FIG_HEAD + view_head]
     else:
-        pair_cols = min(_PAIR_COLS, len(pairs))
-        pair_rows = -(-len(pairs) // pair_cols)
         pairs_w = pair_cols * _PAIR_W + (pair_cols - 1) * 0.75 + _GAP / 2 + _BAR_W + 0.55
         W = _MARGIN + max(views_w, pairs_w) + _MARGIN
-        H = _FIG_HEAD + view_band + 0.25 + pair_rows * pair_band + 0.1
+        pair_tops, top = [], _FIG_HEAD + view_head + _VIEW_H + view_foot + 0.15
+        for head in pair_heads:
+            pair_tops.append(top + head)
+            top += head + _PAIR_H + _PAIR_FOOT
+        H = top + 0.1
 
     def rect(left, top, w, h):  # inches from the top-left corner -> figure fractions
         return [left / W, 1 - (top + h) / H, w / W, h / H]
@@ -303,31 +326,25 @@ def comparison_figure(cmp):
         sc = None
         for i in range(V):
             left = _MARGIN + 0.25 + i * (_VIEW_W + _GAP)
-            ax = fig.add_axes(rect(left, _FIG_HEAD + _VIEW_HEAD, _VIEW_W - 0.25, _VIEW_H))
-            by = (i + 1) % V
-            sc = _draw_view(ax, cmp, i, by)
-            _view_texts(ax, cmp, i, by, _VIEW_W - 0.2)
+            ax = fig.add_axes(rect(left, _FIG_HEAD + view_head, _VIEW_W - 0.25, _VIEW_H))
+            sc = _draw_view(ax, cmp, i, (i + 1) % V)
+            _stack(ax, view_lines[i])
+            ax.text(0.0, -0.02, feet[i], transform=ax.transAxes, fontsize=6.5, color=MUTED,
+                    va="top", ha="left", linespacing=1.15)
         bar_left = _MARGIN + 0.25 + V * (_VIEW_W + _GAP) - _GAP / 2
-        _bar(fig, sc, rect(bar_left, _FIG_HEAD + _VIEW_HEAD, _BAR_W, _VIEW_H),
+        _bar(fig, sc, rect(bar_left, _FIG_HEAD + view_head, _BAR_W, _VIEW_H),
              _wrap("colour: the next view's lens, mean rank over the node's rows", _VIEW_H, 7))
         im = None
-        for t, (a, b, p) in enumerate(pairs):
+        for t, (a, b, _) in enumerate(pairs):
             r, c = divmod(t, pair_cols)
-            if beside:
-                left = _MARGIN + views_w + 0.3 + 0.35
-                top = _FIG_HEAD + _PAIR_HEAD
-            else:
-                left = _MARGIN + 0.35 + c * (_PAIR_W + 0.75)
-                top = _FIG_HEAD + view_band + 0.25 + r * pair_band + _PAIR_HEAD
-            ax = fig.add_axes(rect(left, top, _PAIR_W - 0.35, _PAIR_H))
+            left = (_MARGIN + views_w + 0.65) if beside else \
+                (_MARGIN + 0.35 + c * (_PAIR_W + 0.75))
+            ax = fig.add_axes(rect(left, pair_tops[r], _PAIR_W - 0.35, _PAIR_H))
             im = _draw_pair(ax, cmp, a, b)
-            _pair_texts(ax, cmp, p, a, b, _PAIR_W - 0.1)
-        if beside:
-            bar_left, bar_top = _MARGIN + views_w + 0.3 + _PAIR_W + _GAP / 4, _FIG_HEAD + _PAIR_HEAD
-        else:
-            bar_left = _MARGIN + 0.35 + pair_cols * (_PAIR_W + 0.75) - 0.75 + _GAP / 4
-            bar_top = _FIG_HEAD + view_band + 0.25 + _PAIR_HEAD
-        _bar(fig, im, rect(bar_left, bar_top, _BAR_W, _PAIR_H),
+            _stack(ax, pair_lines[t])
+        bar_left = (_MARGIN + views_w + 0.3 + _PAIR_W + _GAP / 4) if beside else \
+            (_MARGIN + 0.35 + pair_cols * (_PAIR_W + 0.75) - 0.75 + _GAP / 4)
+        _bar(fig, im, rect(bar_left, pair_tops[0], _BAR_W, _PAIR_H),
              _wrap("share of the row node's rows held by the column node", _PAIR_H, 7))
         fig.suptitle(_headline(cmp), x=_MARGIN / W, y=1 - 0.12 / H, fontsize=10,
                      fontweight="bold", color=INK, ha="left", va="top")
