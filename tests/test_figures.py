@@ -6,6 +6,7 @@ offsets through ``Axes.transData``, the correspondence panels from their
 image arrays, checked against member sets intersected in plain Python.
 """
 
+import contextlib
 import itertools
 
 import numpy as np
@@ -34,6 +35,17 @@ def sheets():
 def _views(X, V):
     views = {"x": X[:, 0], "x and y": X[:, :2], "x cubed": X[:, 0] ** 7, "y": X[:, 1]}
     return dict(list(views.items())[:V])
+
+
+@contextlib.contextmanager
+def _drawn(fig):
+    """The figure, closed when the test is done with it."""
+    import matplotlib.pyplot as plt
+
+    try:
+        yield fig
+    finally:
+        plt.close(fig)
 
 
 def _texts(fig):
@@ -99,8 +111,7 @@ def test_comparison_figure_has_every_pair_and_no_overprinted_text(sheets, V):
 
     X, ws = sheets
     cmp = compare_views(_views(X, V), ws, intervals=8, min_size=5)
-    fig = comparison_figure(cmp)
-    try:
+    with _drawn(comparison_figure(cmp)) as fig:
         n_pairs = V * (V - 1) // 2
         panels = _pair_panels(fig)
         assert len(panels) == n_pairs
@@ -128,10 +139,6 @@ def test_comparison_figure_has_every_pair_and_no_overprinted_text(sheets, V):
             best = max(cmp.pairs, key=lambda p: p["co_ari"])
             assert f"to {best['co_ari']:.2f}" in title and "co-membership ARI from" in title
         assert _overlaps(fig) == []
-    finally:
-        import matplotlib.pyplot as plt
-
-        plt.close(fig)
 
 
 @pytest.mark.parametrize("V", [2, 4])
@@ -143,8 +150,7 @@ def test_every_node_of_every_view_shows(sheets, V):
     # the (x, y) view's drawing at the lens means stacks the two sheets' nodes
     means = np.column_stack([cmp.graphs[1].node_values(c) for c in cmp.graphs[1].lens_columns])
     assert np.unique(np.round(means, 1), axis=0).shape[0] < cmp.graphs[1].n_nodes
-    fig = comparison_figure(cmp)
-    try:
+    with _drawn(comparison_figure(cmp)) as fig:
         _render(fig)
         views = _view_panels(fig)
         assert len(views) == V
@@ -163,10 +169,6 @@ def test_every_node_of_every_view_shows(sheets, V):
                              for t in ax.texts)
             head = " ".join(s.headline(" ").split())
             assert f"significant: {head}" in words
-    finally:
-        import matplotlib.pyplot as plt
-
-        plt.close(fig)
 
 
 # --------------------------------------------------------------------------- stability map
@@ -183,8 +185,7 @@ def circle_map():
 def test_stability_figure_names_raw_counts_raw(circle_map):
     from lenswork.plot import stability_figure
 
-    fig = stability_figure(circle_map)
-    try:
+    with _drawn(stability_figure(circle_map)) as fig:
         titles = [ax.get_title(loc="left") for ax in fig.axes]
         assert titles == ["components", "raw cycles (b1)", "raw nodes of degree \u2265 3",
                           "raw leaf chains"]
@@ -195,10 +196,6 @@ def test_stability_figure_names_raw_counts_raw(circle_map):
                             strict=True):
             np.testing.assert_array_equal(ax.images[0].get_array(), circle_map.counts[name])
         assert _overlaps(fig) == []
-    finally:
-        import matplotlib.pyplot as plt
-
-        plt.close(fig)
 
 
 def test_stability_figure_leads_with_significant_counts_when_the_map_holds_them(circle_map):
@@ -212,8 +209,7 @@ def test_stability_figure_leads_with_significant_counts_when_the_map_holds_them(
     counts["significant_loops"] = np.ones_like(counts["loops"])
     counts["significant_branches"] = np.zeros_like(counts["loops"])
     smap = dataclasses.replace(circle_map, counts=counts)
-    fig = stability_figure(smap)
-    try:
+    with _drawn(stability_figure(smap)) as fig:
         titles = [ax.get_title(loc="left") for ax in fig.axes]
         assert titles[:3] == ["components", "significant loops", "significant branches"]
         assert all(t.startswith("raw ") for t in titles[3:]) and len(titles) == 6
@@ -221,10 +217,6 @@ def test_stability_figure_leads_with_significant_counts_when_the_map_holds_them(
         grey = [abs(r - g) < 0.1 and abs(g - b) < 0.1 for r, g, b in top]
         assert grey == [False, False, False, True, True, True]
         assert _overlaps(fig) == []
-    finally:
-        import matplotlib.pyplot as plt
-
-        plt.close(fig)
 
 
 # --------------------------------------------------------------------------- bootstrap
@@ -239,8 +231,7 @@ def test_bootstrap_figure_leads_with_the_significant_counts():
     X = noisy_circle(400, rng, noise=0.04)
     ws = Workspace(X)
     res = bootstrap_graph(X[:, 0], ws, resamples=6, random_state=2)
-    fig = bootstrap_figure(res)
-    try:
+    with _drawn(bootstrap_figure(res)) as fig:
         # the title states the full-data graph's significant counts, as its summary does
         head = build_graph(X[:, 0], ws).summary().headline(" \u00b7 ")
         assert head in " ".join(fig.get_suptitle().split("\n")).replace("  ", " ")
@@ -258,10 +249,6 @@ def test_bootstrap_figure_leads_with_the_significant_counts():
         amber = [c for c, p in bars.items() if to_hex(p.get_facecolor()) == ACCENT.lower()]
         assert amber == [sum(f["kind"] == "loop" for f in res.full_features)]
         assert _overlaps(fig) == []
-    finally:
-        import matplotlib.pyplot as plt
-
-        plt.close(fig)
 
 
 # --------------------------------------------------------------------------- screen sheet
@@ -273,8 +260,7 @@ def test_screen_sheet_cards_state_the_significant_counts():
     X = noisy_circle(500, rng, noise=0.04)
     X = np.column_stack([X, rng.normal(0, 0.05, (500, 1))])
     result = screen(Workspace(X), count=2)
-    fig = sheet._draw(result)
-    try:
+    with _drawn(sheet._draw(result)) as fig:
         texts = [t.get_text() for ax in fig.axes for t in ax.texts]
         for r in result.rows():
             loops, branches = r["significant_loops"], r["significant_branches"]
@@ -283,10 +269,6 @@ def test_screen_sheet_cards_state_the_significant_counts():
             assert want in texts, (r["column"], want)
         # the card titles (rank and name) never overprint the lines under them
         assert _overlaps(fig) == []
-    finally:
-        import matplotlib.pyplot as plt
-
-        plt.close(fig)
 
 
 # --------------------------------------------------------------------------- graph drawing
@@ -299,8 +281,8 @@ def test_feature_labels_stand_beside_their_nodes_not_on_them():
     g = build_graph(X[:, 0], Workspace(X), intervals=12)
     s = g.summary()
     assert s.significant_counts()["loops"] == 1
-    fig = draw_graph(g, node_scale=2.0)  # large markers: a label at a fixed offset hits them
-    try:
+    # large markers: a label set at a fixed offset from the centre would land on them
+    with _drawn(draw_graph(g, node_scale=2.0)) as fig:
         renderer = _render(fig)
         ax = fig.axes[0]
         pos = g.layout()
@@ -317,7 +299,3 @@ def test_feature_labels_stand_beside_their_nodes_not_on_them():
             # the point of the label's box nearest the node's centre lies outside the marker
             near = np.clip(centre[at], [box.x0, box.y0], [box.x1, box.y1])
             assert np.hypot(*(near - centre[at])) >= radius[at] - 0.5, t.get_text()
-    finally:
-        import matplotlib.pyplot as plt
-
-        plt.close(fig)
