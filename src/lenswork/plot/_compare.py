@@ -109,6 +109,7 @@ def _fan_out(pos, close=_CLOSE, rounds=6):
     pos = np.asarray(pos, dtype=np.float64).copy()
     if pos.shape[0] < 2:
         return pos
+    import scipy.sparse as sp
     from scipy.sparse.csgraph import connected_components
     from scipy.spatial import cKDTree
 
@@ -119,8 +120,6 @@ def _fan_out(pos, close=_CLOSE, rounds=6):
         pairs = cKDTree(unit).query_pairs(close, output_type="ndarray")
         if not len(pairs):
             break
-        import scipy.sparse as sp
-
         n = unit.shape[0]
         A = sp.coo_matrix((np.ones(len(pairs)), (pairs[:, 0], pairs[:, 1])), shape=(n, n))
         _, group = connected_components(A, directed=False)
@@ -135,13 +134,14 @@ def _fan_out(pos, close=_CLOSE, rounds=6):
 
 
 def _view_positions(g):
-    """(positions, y label, levels) of a view's nodes; see the module notes."""
+    """(positions, y label, number of levels) of a view's nodes; see the module notes."""
     method = auto_layout(len(g.lens_columns), g.n_nodes)
     pos = np.asarray(g.layout(method), dtype=np.float64)
     if method == "level" and g.n_nodes:
         level = np.unique(g.node_levels[:, 0], return_inverse=True)[1].ravel()
         pos[:, 1] = level
-        return pos, f"cover interval of {g.lens_columns[0]} (low \u2192 high)", int(level.max()) + 1
+        return pos, f"cover interval of {g.lens_columns[0]} (low \u2192 high)", \
+            int(level.max()) + 1
     return _fan_out(pos), None, None
 
 
@@ -152,7 +152,7 @@ def _draw_view(ax, cmp, view, by):
     sizes = g.node_sizes.astype(np.float64)
     # marker diameter (points) no wider than the spacing of the levels / of the nodes
     room = _VIEW_H * 72 / max(levels or np.sqrt(max(g.n_nodes, 1)) * 1.6, 1)
-    big = float(np.clip(0.9 * room, 5.0, 14.0))
+    big = float(np.clip((0.9 if levels else 0.65) * room, 5.0, 14.0))
     small = min(3.0, big)
     diam = small + (big - small) * np.sqrt(sizes / max(sizes.max(), 1))
     if g.n_edges:
@@ -213,7 +213,12 @@ def _view_foot(cmp, view, by, width):
            f"{len(s.branch_points)} of degree \u2265 3 \u00b7 "
            f"{_count(s.n_flares, 'leaf chain')}")
     colour = f"colour: {_letter(by)}'s lens ({cmp.graphs[by].lens_columns[0]}), mean rank"
-    return _wrap(raw, width, 6.5) + "\n" + _wrap(colour, width, 6.5)
+    lines = [_wrap(raw, width, 6.5), _wrap(colour, width, 6.5)]
+    g = cmp.graphs[view]
+    if auto_layout(len(g.lens_columns), g.n_nodes) == "lens":
+        lines.append(_wrap(f"x: {g.lens_columns[0]}, y: {g.lens_columns[1]} (node means; nodes "
+                           f"within {_CLOSE:.0%} of each other fanned out)", width, 6.5))
+    return "\n".join(lines)
 
 
 def _pair_lines(cmp, p, a, b, width):
