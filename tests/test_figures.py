@@ -86,6 +86,18 @@ def _overlaps(fig):
     return bad
 
 
+def _outside(fig):
+    """Texts that run past the figure's edges (cut off in a file written without a tight box)."""
+    renderer = _render(fig)
+    W, H = fig.canvas.get_width_height()
+    out = []
+    for t in _texts(fig):
+        box = t.get_window_extent(renderer)
+        if box.x0 < -1 or box.y0 < -1 or box.x1 > W + 1 or box.y1 > H + 1:
+            out.append(t.get_text())
+    return out
+
+
 def _pair_panels(fig):
     return [ax for ax in fig.axes if any(isinstance(im, AxesImage) for im in ax.images)]
 
@@ -138,7 +150,7 @@ def test_comparison_figure_has_every_pair_and_no_overprinted_text(sheets, V):
         else:
             best = max(cmp.pairs, key=lambda p: p["co_ari"])
             assert f"to {best['co_ari']:.2f}" in title and "co-membership ARI from" in title
-        assert _overlaps(fig) == []
+        assert _overlaps(fig) == [] and _outside(fig) == []
 
 
 @pytest.mark.parametrize("V", [2, 4])
@@ -195,7 +207,9 @@ def test_stability_figure_names_raw_counts_raw(circle_map):
         for ax, name in zip(fig.axes, ("components", "loops", "branch_points", "flares"),
                             strict=True):
             np.testing.assert_array_equal(ax.images[0].get_array(), circle_map.counts[name])
-        assert _overlaps(fig) == []
+        assert _overlaps(fig) == [] and _outside(fig) == []
+    with _drawn(stability_figure(circle_map, ["loops"])) as fig:  # one narrow panel
+        assert _overlaps(fig) == [] and _outside(fig) == []
 
 
 def test_stability_figure_leads_with_significant_counts_when_the_map_holds_them(circle_map):
@@ -216,7 +230,7 @@ def test_stability_figure_leads_with_significant_counts_when_the_map_holds_them(
         top = [ax.images[0].cmap(1.0)[:3] for ax in fig.axes]
         grey = [abs(r - g) < 0.1 and abs(g - b) < 0.1 for r, g, b in top]
         assert grey == [False, False, False, True, True, True]
-        assert _overlaps(fig) == []
+        assert _overlaps(fig) == [] and _outside(fig) == []
 
 
 # --------------------------------------------------------------------------- bootstrap
@@ -248,7 +262,7 @@ def test_bootstrap_figure_leads_with_the_significant_counts():
 
         amber = [c for c, p in bars.items() if to_hex(p.get_facecolor()) == ACCENT.lower()]
         assert amber == [sum(f["kind"] == "loop" for f in res.full_features)]
-        assert _overlaps(fig) == []
+        assert _overlaps(fig) == [] and _outside(fig) == []
 
 
 # --------------------------------------------------------------------------- screen sheet

@@ -133,7 +133,10 @@ def stability_figure(smap, features=None):
     foot = "" if default is None else _wrap(
         "Dashed box: the default setting. Amber outline: the cells that share its count and "
         "touch it (4-connected), a stable region to pick settings from.", width, 7)
-    top = 0.6 + (0.14 * (head.count("\n") + 1) if head else 0.0) + 0.3
+    title = _wrap(f"Stability map of {smap.lens}  \u00b7  {smap.n_rows:,} rows  \u00b7  "
+                  f"{p} \u00d7 {q} cover settings", width, 10)
+    lift = 0.17 * title.count("\n")  # the title's extra lines
+    top = 0.6 + lift + (0.14 * (head.count("\n") + 1) if head else 0.0) + 0.3
     bottom = 0.75 + (0.14 * (foot.count("\n") + 1) if foot else 0.0)
     height = top + bottom + p * cell
     with style():
@@ -164,11 +167,10 @@ def stability_figure(smap, features=None):
             ax.tick_params(length=0)
             for spine in ax.spines.values():
                 spine.set_visible(False)
-        fig.suptitle(f"Stability map of {smap.lens}  \u00b7  {smap.n_rows:,} rows  \u00b7  "
-                     f"{p} \u00d7 {q} cover settings", x=0.01, y=1 - 0.1 / height, ha="left",
+        fig.suptitle(title, x=0.01, y=1 - 0.1 / height, ha="left",
                      va="top", fontsize=10, fontweight="bold", color=INK)
         if head:
-            fig.text(0.01, 1 - 0.42 / height, head, fontsize=7, color=MUTED, ha="left",
+            fig.text(0.01, 1 - (0.42 + lift) / height, head, fontsize=7, color=MUTED, ha="left",
                      va="top", linespacing=1.2)
         if foot:
             fig.text(0.01, 0.005, foot, fontsize=7, color=MUTED, ha="left", va="bottom",
