@@ -243,7 +243,8 @@ def _mark_significant(ax, summary, pos, area):
     for lab, f in labelled:
         at = f.nodes[0] if f.kind != "loop" else f.nodes[int(np.argmax(pos[list(f.nodes), 1]))]
         k = stacked[at] = stacked.get(at, -1) + 1
-        ax.annotate(lab, pos[at], xytext=(6, 5 + 9 * k), textcoords="offset points", fontsize=7,
+        gap = 0.5 * np.sqrt(area[at]) + 2.0  # beside the marker (and its ring), not on it
+        ax.annotate(lab, pos[at], xytext=(gap, 2 + 9 * k), textcoords="offset points", fontsize=7,
                     color=ACCENT_2 if f.kind in ("flare", "limb") else ACCENT, zorder=5,
                     fontweight="bold")
     if keys:

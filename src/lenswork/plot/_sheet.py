@@ -3,7 +3,9 @@
 Layout, top to bottom:
 
 * a title line (rows, features, what was chosen and why the selection stopped);
-* one *card* per candidate, in rank order: a histogram of the lens over its
+* one *card* per candidate, in rank order, titled with its rank, name and
+  (with the structure probe) its significant loops and branches, never the
+  raw cycle counts; then a histogram of the lens over its
   min-max range, with the bins the spread score counts (what a cover sees),
   above the data's first two principal coordinates coloured by the lens's
   rank (so one outlier cannot wash the colours out). Chosen lenses carry the
@@ -117,7 +119,7 @@ def _draw(result):
     ncols = min(_COLS, m)
     nrows = math.ceil(m / ncols)
     bottom_h = max(4.2, 0.24 * m + 1.4)
-    card_h = 2.35
+    card_h = 2.45
     width = max(12.5, 2.1 * ncols)
     height = 0.9 + nrows * card_h + bottom_h
     xy, pick = _points(result)
@@ -129,7 +131,7 @@ def _draw(result):
         )
         _title(fig.add_subplot(outer[0]), result)
         # per card row: histogram, scatter, spacer (room for the next row's titles)
-        cards = outer[1].subgridspec(3 * nrows, ncols, height_ratios=[0.42, 1.0, 0.2] * nrows,
+        cards = outer[1].subgridspec(3 * nrows, ncols, height_ratios=[0.42, 1.0, 0.27] * nrows,
                                      hspace=0.12, wspace=0.16)
         for pos, (row, j) in enumerate(zip(rows, order, strict=True)):
             r, c = divmod(pos, ncols)
@@ -192,15 +194,19 @@ def _card(ax_h, ax_s, result, row, j, xy, pick):
     # title: rank and name, then the figures behind the score
     title = f"#{row['rank']}  {row['column']}"
     ax_h.set_title(title, loc="left", fontsize=_fit(title, 25, 8),
-                   color=ACCENT if chosen else INK, pad=11)
+                   color=ACCENT if chosen else INK, pad=19 if _significant_text(row) else 11)
     if row["partner"] is None:
         partner = "no partner"
     else:
         partner = f"|\u03c1| {abs(row['partner_rho']):.2f} with {row['partner']}"
     spread = row.get("robust_spread", math.nan)
     line = f"r.spread {spread:.2f} \u00b7 {partner}"
-    ax_h.text(0, 1.04, line, fontsize=_fit(line, 40, 6), color=MUTED,
-              transform=ax_h.transAxes, va="bottom")
+    below = ax_h.text(0, 1.04, line, fontsize=_fit(line, 40, 6), color=MUTED,
+                      transform=ax_h.transAxes, va="bottom")
+    structure = _significant_text(row)
+    if structure:  # the probe's significant counts; its raw counts stay in the table
+        ax_h.annotate(structure, xy=(0.0, 1.0), xycoords=below, xytext=(0, 1),
+                      textcoords="offset points", va="bottom", fontsize=6, color=INK)
     for ax in (ax_h, ax_s):
         ax.set_xticks([])
         ax.set_yticks([])
@@ -222,6 +228,18 @@ def _card(ax_h, ax_s, result, row, j, xy, pick):
         spine.set_visible(True)
         spine.set_color(ACCENT if chosen else GRID)
         spine.set_linewidth(1.8 if chosen else 0.8)
+
+
+def _significant_text(row):
+    """``significant: 1 loop, 2 branches``: the structure probe's counts of a lens (or "").
+
+    The most frequent significant counts over the probe's cover grid (``lenswork.probe``).
+    """
+    loops, branches = row.get("significant_loops"), row.get("significant_branches")
+    if not all(isinstance(v, (int, np.integer)) for v in (loops, branches)):
+        return ""
+    return (f"significant: {loops} loop{'' if loops == 1 else 's'}, {branches} "
+            f"branch{'' if branches == 1 else 'es'}")
 
 
 def _heatmap(fig, ax, result, rows, order):
