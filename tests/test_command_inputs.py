@@ -322,7 +322,8 @@ def test_the_pair_score_is_the_pair_merit(tmp_path):
     doc = json.loads((tmp_path / "s" / "ranking.json").read_text())
     first, second = doc["ranking"][:2]
     assert "gain" not in first
-    # the pair's merit is R_NX x the geometric mean of the two merits (README, "pair merit")
+    # without the probe the pair's merit is R_NX x the geometric mean of the two merits (README,
+    # "pair merit"; with the probe, R_NX x the two lenses' joint merit)
     want = first["preservation"] * np.sqrt(first["merit"] * second["merit"])
     assert first["pair_merit"] == pytest.approx(want, rel=1e-9)
     header = (tmp_path / "s" / "ranking.csv").read_text().splitlines()[0]

@@ -107,8 +107,9 @@ def _fit(text, width, size, smallest=4.0):
 
 def _pair_formula(result):
     if result.pairing == "preservation":
-        return ("pair merit = R_NX \u00d7 \u221a(merit \u00d7 merit of #1) (narrow bar; #1 and "
-                "#2: their pair's)")
+        joint = ("joint merit with #1" if result.probe is not None
+                 else "\u221a(merit \u00d7 merit of #1)")
+        return (f"pair merit = R_NX \u00d7 {joint} (narrow bar; #1 and #2: their pair's)")
     return "pair merit = merit \u00d7 (1 \u2212 max |\u03c1| to those chosen before) (narrow bar)"
 
 

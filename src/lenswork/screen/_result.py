@@ -306,13 +306,17 @@ class ScreenResult:
                 nearest[j] = (self.names[i], float(self.correlation[j, i]))
         rest = [j for j in range(m) if j not in sel]
         pres = self.preservation
+        joint = joint_merit(self.scores, self.weights) if self.pairing == "preservation" else None
         for j in rest:
             if sel:
                 i = sel[int(np.argmax(absr[j, sel]))]
                 nearest[j] = (self.names[i], float(self.correlation[j, i]))
                 if self.pairing == "preservation" and np.isfinite(pres[j]):
-                    # as the partner of the first chosen lens: R_NX x sqrt(merit merit)
-                    pair[j] = max(pres[j], 0.0) * math.sqrt(self.merit[j] * self.merit[sel[0]])
+                    # as the partner of the first chosen lens: R_NX x the two lenses' joint
+                    # merit (the rule's own score; sqrt(merit merit) without the probe)
+                    both = joint(j, sel[0]) if joint is not None else \
+                        math.sqrt(self.merit[j] * self.merit[sel[0]])
+                    pair[j] = max(pres[j], 0.0) * both
                 elif self.pairing == "preservation":
                     pair[j] = 0.0
                 else:
@@ -361,8 +365,8 @@ class ScreenResult:
             if self.pairing == "preservation" and len(sel) > 1:
                 what = "pair" if len(sel) == 2 else "set"
                 if t == 0:
-                    return (f"selected #1: best {what} merit {pair:.2f} (R_NX x geometric mean "
-                            f"of merits), its higher merit ({self.merit[j]:.2f})")
+                    return (f"selected #1: best {what} merit {pair:.2f} (R_NX x joint merit), "
+                            f"its higher merit ({self.merit[j]:.2f})")
                 return (f"selected #{t + 1}: {what} merit {pair:.2f}, |rho| "
                         f"{abs(nearest[1]):.2f} to {nearest[0]}")
             if t == 0:
@@ -535,10 +539,11 @@ class ScreenResult:
         spread, ``smooth``: smoothness, ``structure`` with the probe, beside the
         probe's significant loops / branches ``sig L/B`` and all loops / flares /
         branch points ``L/F/B``), merit, ``R_NX`` with the first chosen lens,
-        the pair merit (what the pairing maximises: ``R_NX x sqrt(merit merit')``
-        with the first chosen lens, or ``merit x (1 - max |rho|)`` with
-        ``pairing="greedy"``), the most correlated other candidate, the reference correlations
-        and the reason for the decision.
+        the pair merit (what the pairing maximises: ``R_NX x`` the joint merit
+        with the first chosen lens, ``sqrt(merit merit')`` without the probe, or
+        ``merit x (1 - max |rho|)`` with ``pairing="greedy"``), the most
+        correlated other candidate, the reference correlations and the reason
+        for the decision.
         """
         rows = self.rows()[:max_rows]
         refs = self.reference_names[:3]

@@ -37,8 +37,10 @@ Pairs and sets
 --------------
 A two-lens cover makes a two-dimensional cover space, and a Mapper node
 gathers rows that are close there and linked in the data. The pair is the
-one with the largest ``R_NX(pair) * sqrt(merit_i merit_j)`` among the pairs
-with ``|rho| <= ceiling`` (``pairing="preservation"``, the default), where
+one with the largest ``R_NX(pair) * joint merit`` among the pairs with
+``|rho| <= ceiling`` (``pairing="preservation"``, the default), where the
+joint merit (:func:`joint_merit`) scores the structure the two lenses show
+together (``sqrt(merit_i merit_j)`` without the structure probe) and
 ``R_NX`` is the neighbour preservation of the pair's rank space (Lee and
 Verleysen, Neurocomputing 2009; :func:`lenswork.criteria.neighbour_preservation`):
 how many of each row's data neighbours stay its neighbours in the cover
@@ -54,8 +56,9 @@ bound falls below the best score found: the result is the exhaustive one.
 with the largest pair merit ``merit * (1 - max |rho| to the lenses already
 taken)`` under the ceiling (:func:`select_lenses`).
 
-The *pair merit* is what each rule maximises: ``R_NX(set) * geometric mean of
-the merits`` for ``"preservation"``, ``merit * (1 - max |rho|)`` for
+The *pair merit* is what each rule maximises: ``R_NX(pair) * joint merit``
+(for a set of more than two, ``R_NX(set) * geometric mean of the merits``) for
+``"preservation"``, ``merit * (1 - max |rho|)`` for
 ``"greedy"``. (lenswork does not call it a gain: in Mapper, gain is the cover's
 overlap fraction.)
 """
