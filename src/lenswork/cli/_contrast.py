@@ -154,7 +154,8 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
     """
     from .._io import write_text
     from .._json import dumps
-    from ..contrast import contrast_columns, node_column_values
+    from ..columns import node_column_values
+    from ..contrast import contrast_columns
 
     out = output_dir(out_dir)
     rows = None

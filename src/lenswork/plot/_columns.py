@@ -8,6 +8,8 @@ from pathlib import Path
 import numpy as np
 
 from .._errors import ParameterError
+from ..columns import node_column_values
+from ..graph import graph_layout
 from ._graph import draw_graph
 from ._style import MUTED, as_paths, figure, save, style
 
@@ -67,18 +69,10 @@ def column_multiples(graph, data, columns, *, stat="mean", levels=None, highligh
         raise ParameterError("column_multiples needs at least one column to draw.")
     levels = dict(levels or {})
     captions = dict(captions or {})
-    if isinstance(layout, str):
-        from ..graph import graph_layout
-
-        method = layout
-        if layout == "auto":
-            m = len(graph.lens_columns)
-            method = "level" if m == 1 else ("lens" if m == 2 else "spring")
-        pos = graph_layout(graph, method=method, random_state=random_state)
+    if isinstance(layout, str):  # "auto": graph_layout applies the one rule (auto_layout)
+        pos = graph_layout(graph, method=layout, random_state=random_state)
     else:
         pos = np.asarray(layout, dtype=np.float64)
-    from ..contrast import node_column_values
-
     values = {}
     for c in columns:  # every value first: a bad column fails before any drawing
         values[c] = node_column_values(graph, data, c, "share" if c in levels else stat,

@@ -191,7 +191,7 @@ def _colour_values(graph, color, stat, data, level, values):
     in_graph = color == "size" or color in graph.node_stats
     if data is not None and (not in_graph or stat not in ("mean", "min", "max")
                              or level is not None):
-        from ..contrast import node_column_values
+        from ..columns import node_column_values
 
         values, label = node_column_values(graph, data, color, stat, level=level)
         return values, label, color
