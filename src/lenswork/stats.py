@@ -69,7 +69,7 @@ def benjamini_hochberg(pvalues):
     The finite p-values go to ``scipy.stats.false_discovery_control(method="bh")``
     (O(m log m): one sort, one running minimum from the end); this function adds
     the NaN handling and lenswork's error. scipy's q-values equal the step-up
-    formula above to 2e-16 (``tests/test_stats.py``).
+    formula above to 2e-16 (``tests/test_contrast.py``; ``bench_partitions.py``).
 
     References
     ----------
