@@ -33,7 +33,6 @@ Errors
 
 from __future__ import annotations
 
-from . import _graph_methods  # noqa: F401  (attaches LensGraph.write_* and .draw)
 from ._errors import InputError, LensworkError, LensworkWarning, ParameterError
 from ._version import __version__
 from .bootstrap import BootstrapResult, CoverSuggestion, bootstrap_graph, suggest_cover

@@ -520,8 +520,30 @@ class BootstrapResult:
             out["bootstrap.png"] = self.plot(directory / "bootstrap.png")[0]
         return out
 
-    # plot(paths=None) -- bar charts of the count distributions -- is attached by
-    # lenswork._graph_methods (the plots live above this module).
+    def text(self):
+        """For a terminal: the per-feature count table, then how often each feature recurs."""
+        return (f"Bootstrap of {self.lens_label}: {self.resamples} resamples "
+                f"({self.scheme_text}), {self.n_rows} rows.\n{self.format_table()}\n"
+                f"Significant features of the full-data graph and how often each recurs:\n"
+                f"{self.format_features()}")
+
+    def plot(self, paths=None):
+        """Bar charts of the count distributions; write to ``paths`` or return the figure.
+
+        The plot module is imported here, on the first call (with matplotlib).
+        """
+        from .plot._stability import bootstrap_figure, bootstrap_sheet
+        from .plot._style import as_paths
+
+        if paths is None:
+            return bootstrap_figure(self)
+        return bootstrap_sheet(self, as_paths(paths))
+
+    def _repr_png_(self):
+        """The ``plot()`` figure as PNG bytes (a notebook shows it); matplotlib's Agg canvas."""
+        from .plot._style import png_bytes
+
+        return png_bytes(self.plot())
 
     def __repr__(self):
         mode, share = self.mode("loops")

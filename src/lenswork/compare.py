@@ -478,8 +478,27 @@ class ViewComparison:
             out[path.name] = path
         return out
 
-    # plot(paths=None) -- the views side by side, each coloured by the next view's lens -- is
-    # attached by lenswork._graph_methods (the plots live above this module).
+    def text(self):
+        """The comparison for a terminal (:meth:`format_text`, the older name)."""
+        return self.format_text()
+
+    def plot(self, paths=None):
+        """Views side by side, each coloured by the next view's lens; write or return the figure.
+
+        The plot module is imported here, on the first call (with matplotlib).
+        """
+        from .plot._compare import comparison_figure, comparison_sheet
+        from .plot._style import as_paths
+
+        if paths is None:
+            return comparison_figure(self)
+        return comparison_sheet(self, as_paths(paths))
+
+    def _repr_png_(self):
+        """The ``plot()`` figure as PNG bytes (a notebook shows it); matplotlib's Agg canvas."""
+        from .plot._style import png_bytes
+
+        return png_bytes(self.plot())
 
     def __repr__(self):
         p = self.pairs[0]

@@ -745,7 +745,7 @@ class StabilityMap:
             "data_components": self.data_components, "settings": dict(self.settings),
         }
 
-    def write(self, path):
+    def write_csv(self, path):
         """Write the CSV table to ``path`` and its provenance to ``<path>.json`` (atomically).
 
         Returns
@@ -760,8 +760,68 @@ class StabilityMap:
         write_text(sidecar, dumps(self.provenance()) + "\n")
         return path, sidecar
 
-    # plot(paths=None, features=None) -- one heat map per feature type -- is attached by
-    # lenswork._graph_methods (the plots live above this module).
+    def write(self, directory, *, figures=True):
+        """Write ``stability.csv``, its ``.json`` sidecar (and ``stability.png``) into a folder.
+
+        A path ending in ``.csv`` is the older call: :meth:`write_csv` to that
+        path, returning ``(path, sidecar)``.
+
+        Returns
+        -------
+        list of Path
+        """
+        from pathlib import Path
+
+        directory = Path(directory)
+        if directory.suffix.lower() == ".csv":  # the older call, write(path.csv): the table only
+            return self.write_csv(directory)
+        if directory.exists() and not directory.is_dir():
+            raise ParameterError(
+                f"Output directory {str(directory)!r} is a file; give a directory path."
+            )
+        directory.mkdir(parents=True, exist_ok=True)
+        fig = self.plot() if figures else None  # drawn before the first file is written
+        written = list(self.write_csv(directory / "stability.csv"))
+        if fig is not None:
+            from .plot._style import save
+
+            written.append(save(fig, directory / "stability.png"))
+        return written
+
+    def to_dict(self):
+        """JSON-ready: the provenance (lens, grid, settings, default) and one record per cell."""
+        return {**self.provenance(), "cells": self.rows()}
+
+    def text(self):
+        """For a terminal: per feature type, its count over the grid (intervals x overlaps)."""
+        head = "intervals " + " ".join(f"{o:>5g}" for o in self.overlaps)
+        lines = [f"Stability map of {self.lens}: {len(self.interval_counts)} interval counts x "
+                 f"{len(self.overlaps)} overlaps, {self.n_rows:,} rows"]
+        for name in self.features:
+            if name not in self.counts:
+                continue
+            lines += [f"{name}:", "  " + head]
+            for i, iv in enumerate(self.interval_counts):
+                lines.append(f"  {iv:>9} " + " ".join(f"{int(v):>5}" for v in self.counts[name][i]))
+        return "\n".join(lines)
+
+    def plot(self, paths=None, features=None):
+        """Draw one heat map per feature type; write to ``paths`` or return the figure.
+
+        The plot module is imported here, on the first call (with matplotlib).
+        """
+        from .plot._stability import stability_figure, stability_sheet
+        from .plot._style import as_paths
+
+        if paths is None:
+            return stability_figure(self, features)
+        return stability_sheet(self, as_paths(paths), features)
+
+    def _repr_png_(self):
+        """The ``plot()`` figure as PNG bytes (a notebook shows it); matplotlib's Agg canvas."""
+        from .plot._style import png_bytes
+
+        return png_bytes(self.plot())
 
     def to_frame(self):
         """The map as a pandas DataFrame, one row per grid cell: the columns of the CSV file.
@@ -799,7 +859,7 @@ def stability_map(lens, workspace, *, settings=None, interval_counts=MAP_INTERVA
     -------
     StabilityMap
         ``.counts[feature]`` is a (len(interval_counts), len(overlaps)) int array;
-        ``.write(path)`` writes the CSV table, ``.plot(path)`` the heat maps,
+        ``.write_csv(path)`` writes the CSV table, ``.plot(path)`` the heat maps,
         ``.region(feature)`` the stable region around the default setting.
 
     Raises

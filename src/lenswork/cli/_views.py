@@ -46,7 +46,7 @@ def stability(cloud, seed, lens_specs, lens_file, use, grid_intervals, grid_over
     settings = settings.resolve(ws.n, len(table.names))
     smap = stability_map(table, ws, settings=settings, interval_counts=grid_intervals,
                          overlaps=grid_overlaps)
-    csv_path, sidecar = smap.write(out / "stability.csv")
+    csv_path, sidecar = smap.write_csv(out / "stability.csv")
     click.echo(f"Stability map of {smap.lens} on {ws.n} rows "
                f"({len(smap.interval_counts)} x {len(smap.overlaps)} cover settings).")
     click.echo(_grid_text(smap, "loops"))

@@ -199,7 +199,8 @@ def contrast_columns(graph, data, feature=None, *, nodes=None, rows=None, agains
               "all_features": all_features, "lenswork": __version__,
               "scaling": cloud.provenance.get("scaling"),
               "lenses": list(graph.lens_columns)}
-    return ContrastResult(tuple(out), tuple(infos), tuple(skipped), tuple(notes), params)
+    return ContrastResult(tuple(out), tuple(infos), tuple(skipped), tuple(notes), params,
+                          graph=graph, cloud=cloud)
 
 
 

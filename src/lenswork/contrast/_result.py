@@ -5,14 +5,16 @@ from __future__ import annotations
 import csv
 import io
 import math
+import re
 from dataclasses import asdict, dataclass, field
 
 import numpy as np  # noqa: F401  (the doctests use np)
 
 from .._errors import ParameterError
-from .._frame import data_frame
+from .._frame import data_frame, records_frame
 from .._io import write_text
 from .._json import dumps
+from .._validation import check_choice
 
 __all__ = ["EFFECT_FLOOR", "ColumnContrast", "ContrastResult"]
 
@@ -120,6 +122,10 @@ class ContrastResult:
         Soft remarks (pooled levels, missing values dropped).
     params : dict
         ``against, hops, alpha, max_levels``, library version.
+    graph, cloud : LensGraph and PointCloud
+        What was contrasted (set by :func:`contrast_columns`; not compared,
+        not written): :meth:`plot` and :meth:`write` draw the graph coloured by
+        the top columns.
 
     Examples
     --------
@@ -138,6 +144,8 @@ class ContrastResult:
     skipped: tuple = ()
     notes: tuple = ()
     params: dict = field(default_factory=dict)
+    graph: object = field(default=None, repr=False, compare=False)
+    cloud: object = field(default=None, repr=False, compare=False)
 
     def for_feature(self, label):
         """The rows of one feature, by rank."""
@@ -162,8 +170,15 @@ class ContrastResult:
         """The table as a list of plain dicts (one per row)."""
         return [asdict(r) for r in self.rows]
 
-    def to_frame(self):
-        """The table as a pandas DataFrame (needs pandas)."""
+    def to_frame(self, what="columns"):
+        """A pandas DataFrame (needs pandas): the column table, or one row per feature.
+
+        ``what="columns"``: the rows of ``contrast.csv``; ``"features"``: the
+        ``features`` list of ``contrast.json``.
+        """
+        what = check_choice("what", what, ("columns", "features"), context="ContrastResult")
+        if what == "features":
+            return records_frame(list(self.features), what="a column contrast's features")
         names = [f.name for f in ColumnContrast.__dataclass_fields__.values()]
         cols = {n: [getattr(r, n) for r in self.rows] for n in names}
         return data_frame(cols, what="a column contrast")
@@ -248,6 +263,59 @@ class ContrastResult:
 
     def __str__(self):
         return self.text()
+
+    def write(self, directory, *, figures=True, top=6):
+        """Write ``contrast.csv``, ``contrast.json`` (and ``columns_<feature>.png``) into a folder.
+
+        One sheet per feature with a significant column (:meth:`plot`); every
+        figure is drawn before the first file is written. Returns the paths.
+        """
+        from pathlib import Path
+
+        directory = Path(directory)
+        if directory.exists() and not directory.is_dir():
+            raise ParameterError(
+                f"Output directory {str(directory)!r} is a file; give a directory path."
+            )
+        figs = {}
+        if figures and self.graph is not None:
+            for label in self.significant_features():
+                name = "columns_" + re.sub(r"[^A-Za-z0-9_.-]+", "-", label).strip("-") + ".png"
+                figs[name] = self.plot(feature=label, top=top)
+        directory.mkdir(parents=True, exist_ok=True)
+        written = [self.write_csv(directory / "contrast.csv"),
+                   self.write_json(directory / "contrast.json")]
+        if figs:
+            from ..plot._style import save
+
+            written += [save(fig, directory / name) for name, fig in figs.items()]
+        return written
+
+    def plot(self, path=None, *, feature=None, top=6):
+        """The graph coloured by each of a feature's top columns (:func:`plot.contrast_sheet`).
+
+        ``feature`` defaults to the first feature with a significant column (else
+        the first feature). Needs the graph and cloud :func:`contrast_columns`
+        keeps on the result; the plot module is imported here, on the first call.
+        """
+        if self.graph is None or self.cloud is None:
+            raise ParameterError(
+                "This ContrastResult holds no graph and data to draw (it was not made by "
+                "contrast_columns); call lenswork.plot.contrast_sheet(result, graph, data, "
+                "feature)."
+            )
+        if feature is None:
+            sig = self.significant_features()
+            feature = sig[0] if sig else self.features[0]["label"]
+        from ..plot._columns import contrast_sheet
+
+        return contrast_sheet(self, self.graph, self.cloud, feature, top=top, path=path)
+
+    def _repr_png_(self):
+        """The ``plot()`` figure as PNG bytes (a notebook shows it); matplotlib's Agg canvas."""
+        from ..plot._style import png_bytes
+
+        return png_bytes(self.plot())
 
 
 def _short_nodes(nodes, k=8):

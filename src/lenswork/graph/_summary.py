@@ -517,6 +517,52 @@ class GraphSummary:
     def __str__(self):
         return self.text()
 
+    def to_frame(self, what="features"):
+        """A pandas DataFrame, one row per feature (limbs included), with its label and threshold.
+
+        The ``significant_features``, ``small_features`` and ``other_features``
+        of :meth:`record` in one table (``significant`` tells them apart).
+        """
+        from .._frame import records_frame
+        from .._validation import check_choice
+
+        check_choice("what", what, ("features",), context="GraphSummary.to_frame")
+        rows = [self._feature_dict(lab, f) for lab, f in self.labelled()]
+        return records_frame(rows, what="a graph summary")
+
+    def write(self, directory, *, figures=True):
+        """Write ``summary.json`` (:meth:`record`), ``summary.txt`` (and ``summary.png``).
+
+        The figure is the graph drawing with its significant features marked
+        (:meth:`plot`), drawn before the first file is written. Returns the paths.
+        """
+        from pathlib import Path
+
+        from .._io import write_text
+        from .._json import dumps
+
+        out = Path(directory)
+        if out.exists() and not out.is_dir():
+            raise ParameterError(
+                f"Output directory {str(out)!r} is a file; give a directory path."
+            )
+        fig = self.plot() if figures else None
+        out.mkdir(parents=True, exist_ok=True)
+        written = [out / "summary.json", out / "summary.txt"]
+        write_text(written[0], dumps(self.record()) + "\n")
+        write_text(written[1], self.text() + "\n")
+        if fig is not None:
+            from ..plot._style import save
+
+            written.append(save(fig, out / "summary.png"))
+        return written
+
+    def plot(self, path=None, **kwargs):
+        """The graph drawing with the significant features marked (:meth:`LensGraph.plot`)."""
+        if self._graph is None:
+            raise ParameterError("This summary holds no graph to draw; summarise a LensGraph.")
+        return self._graph.plot(path, **kwargs)
+
 
 #: Words of the significant counts (singular; ``_count`` adds the plural).
 _WORDS = {"components": "component", "loops": "loop", "holes": "hole", "flares": "flare",

@@ -9,7 +9,6 @@ import numpy as np
 
 from .._errors import ParameterError
 from ..columns import node_column_values
-from ..graph import graph_layout
 from ._graph import draw_graph
 from ._style import MUTED, as_paths, figure, save, style
 
@@ -69,8 +68,8 @@ def column_multiples(graph, data, columns, *, stat="mean", levels=None, highligh
         raise ParameterError("column_multiples needs at least one column to draw.")
     levels = dict(levels or {})
     captions = dict(captions or {})
-    if isinstance(layout, str):  # "auto": graph_layout applies the one rule (auto_layout)
-        pos = graph_layout(graph, method=layout, random_state=random_state)
+    if isinstance(layout, str):  # "auto": the graph's one layout rule (graph/_layout.py)
+        pos = graph.layout(method=layout, random_state=random_state)
     else:
         pos = np.asarray(layout, dtype=np.float64)
     values = {}
