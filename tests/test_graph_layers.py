@@ -62,7 +62,8 @@ def test_the_plots_never_import_the_graph_package():
                        for m in mods), path.name
 
 
-@pytest.mark.parametrize("name", ["probe.py", "bootstrap.py", "compare.py",
+@pytest.mark.parametrize("name", ["probe.py", "stability.py", "bootstrap.py", "suggest.py",
+                                  "compare.py",
                                   "contrast/_result.py"])
 def test_results_import_no_plots_and_no_private_names(name):
     path = SRC / name

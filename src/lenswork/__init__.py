@@ -90,7 +90,7 @@ from .lenses import (
     user_lens,
 )
 from .normalize import normalize
-from .probe import StabilityMap, StructureProbe, feature_counts, stability_map, structure_scores
+from .probe import StructureProbe, feature_counts, structure_scores
 from .report import write_report
 from .screen import (
     ScreenResult,
@@ -103,6 +103,7 @@ from .screen import (
     spearman_matrix,
     spread_score,
 )
+from .stability import StabilityMap, stability_map
 from .workspace import NeighborGraph, Workspace, neighbor_graph
 
 __all__ = [
