@@ -195,7 +195,7 @@ def write_graph_json(graph, path):
 
     Examples
     --------
-    >>> import tempfile, scipy.sparse as sp
+    >>> import json, tempfile, scipy.sparse as sp
     >>> from lenswork.graph import LensGraph
     >>> g = LensGraph(sp.csr_matrix(np.eye(2, dtype=int)), [[0], [1]], [], [],
     ...               {"h": np.zeros((2, 3))}, lens_columns=["h"])
