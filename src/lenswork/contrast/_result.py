@@ -15,6 +15,7 @@ from .._frame import data_frame, records_frame
 from .._io import write_text
 from .._json import dumps
 from .._validation import check_choice
+from ..columns import node_column_values
 
 __all__ = ["EFFECT_FLOOR", "ColumnContrast", "ContrastResult"]
 
@@ -307,9 +308,15 @@ class ContrastResult:
         if feature is None:
             sig = self.significant_features()
             feature = sig[0] if sig else self.features[0]["label"]
+        values = {}  # computed here, below the plot, and handed to it
+        for r in self.for_feature(feature)[:max(1, int(top))]:
+            stat, level = ("share", r.level) if r.type == "categorical" else ("mean", None)
+            values[r.column] = node_column_values(self.graph, self.cloud, r.column, stat,
+                                                  level=level)
         from ..plot._columns import contrast_sheet
 
-        return contrast_sheet(self, self.graph, self.cloud, feature, top=top, path=path)
+        return contrast_sheet(self, self.graph, self.cloud, feature, top=top, path=path,
+                              values=values)
 
     def _repr_png_(self):
         """The ``plot()`` figure as PNG bytes (a notebook shows it); matplotlib's Agg canvas."""
