@@ -17,7 +17,8 @@ from lenswork import (
     bootstrap_graph,
     suggest_cover,
 )
-from lenswork.bootstrap import _count_for_length, _draw, _hausdorff_scale, _max_lens_gap
+from lenswork.bootstrap import _draw
+from lenswork.suggest import _count_for_length, _hausdorff_scale, _max_lens_gap
 
 
 # --------------------------------------------------------------------------- confidence

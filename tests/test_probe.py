@@ -26,7 +26,8 @@ from lenswork import (
     structure_scores,
 )
 from lenswork.graph import build_graph
-from lenswork.probe import FEATURE_WEIGHTS, _mode, _region, _score
+from lenswork.probe import FEATURE_WEIGHTS, _mode, _score
+from lenswork.stability import _region
 
 
 def _networkx_counts(graph):

@@ -33,7 +33,6 @@ Errors
 
 from __future__ import annotations
 
-from . import _graph_methods  # noqa: F401  (attaches LensGraph.write_* and .draw)
 from ._errors import InputError, LensworkError, LensworkWarning, OutputError, ParameterError
 from ._version import __version__
 from .bootstrap import BootstrapResult, CoverSuggestion, bootstrap_graph, suggest_cover
@@ -91,7 +90,7 @@ from .lenses import (
     user_lens,
 )
 from .normalize import normalize
-from .probe import StabilityMap, StructureProbe, feature_counts, stability_map, structure_scores
+from .probe import StructureProbe, feature_counts, structure_scores
 from .report import write_report
 from .screen import (
     ScreenResult,
@@ -105,6 +104,7 @@ from .screen import (
     spearman_matrix,
     spread_score,
 )
+from .stability import StabilityMap, stability_map
 from .workspace import NeighborGraph, Workspace, neighbor_graph
 
 __all__ = [

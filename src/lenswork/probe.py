@@ -81,10 +81,8 @@ that gives (6, 9), from about 300 rows on the full grid; a data-dependent
 
 Stability map
 -------------
-:func:`stability_map` runs the same grid for one lens at a finer resolution
-and keeps every count per cell: a table (CSV) and a heat map per feature type
-(:meth:`StabilityMap.plot`), with the 4-connected region of cells that share
-the default setting's count, from which a user picks cover settings.
+:func:`stability_map` (:mod:`lenswork.stability`) runs the same grid for one
+lens at a finer resolution.
 
 Cost
 ----
@@ -107,24 +105,20 @@ from __future__ import annotations
 
 import io
 import math
-from collections import deque
-from dataclasses import dataclass, field
 
 import numpy as np
 
 from . import _progress
 from ._errors import ParameterError
-from ._io import dict_csv_writer, write_text
+from ._io import dict_csv_writer
 from ._json import dumps
 from ._validation import check_float, check_int
-from ._version import __version__
 from .graph._features import (
     FEATURES,
     as_workspace,
     build_counts,
     empty_counts,
     feature_counts,
-    lens_label,
     quiet_build,
 )
 from .graph._persistence import diagram_trunks, lens_persistence, significance_total
@@ -134,12 +128,14 @@ from .table import as_lens_table
 __all__ = [
     "FEATURES",
     "FEATURE_WEIGHTS",
-    "StabilityMap",
     "StructureProbe",
+    "check_grid",
+    "data_components",
     "default_cell_setting",
     "feature_counts",
+    "grid_counts",
+    "merged_settings",
     "probe_intervals",
-    "stability_map",
     "structure_scores",
 ]
 
@@ -154,13 +150,10 @@ PROBE_OVERLAPS = (0.25, 0.4)
 #: Weights of the diagram point kinds in the significance total ``T`` (a loop counts as
 #: much as two branches, as ``FEATURE_WEIGHTS`` weighs loops against flares).
 SIGNIFICANCE_WEIGHTS = {"loop": 1.0, "down": 0.5, "up": 0.5}
-#: The stability map's default grid.
-MAP_INTERVALS = (4, 6, 8, 10, 12, 14, 16, 20)
-MAP_OVERLAPS = (0.1, 0.2, 0.3, 0.4, 0.5)
 
 
 # --------------------------------------------------------------------------- grid
-def _check_grid(interval_counts, overlaps, context):
+def check_grid(interval_counts, overlaps, context):
     """Validated, de-duplicated, sorted interval counts and overlaps."""
     if isinstance(interval_counts, (str, int, np.integer)):
         interval_counts = ([interval_counts] if not isinstance(interval_counts, str)
@@ -247,7 +240,7 @@ def probe_intervals(n_rows, min_size, overlap, columns=1, intervals=PROBE_INTERV
     return tuple(sorted({min(int(v), best) for v in intervals}))
 
 
-def _graph_settings(settings, k, overrides):
+def merged_settings(settings, k, overrides):
     """GraphSettings from ``settings`` (object, dict or None), then ``k`` and the overrides."""
     if "intervals" in overrides:  # one meaning per name: the grid's counts are interval_counts
         raise ParameterError(
@@ -298,25 +291,8 @@ def _mode(values):
     return best, float(counts.max() / values.size)
 
 
-def _region(grid, cell):
-    """Boolean mask of the 4-connected cells holding the same value as ``grid[cell]``."""
-    grid = np.asarray(grid)
-    mask = np.zeros(grid.shape, dtype=bool)
-    target = grid[cell]
-    todo = deque([cell])
-    mask[cell] = True
-    while todo:
-        i, j = todo.popleft()
-        for a, b in ((i - 1, j), (i + 1, j), (i, j - 1), (i, j + 1)):
-            if 0 <= a < grid.shape[0] and 0 <= b < grid.shape[1] and not mask[a, b] \
-                    and grid[a, b] == target:
-                mask[a, b] = True
-                todo.append((a, b))
-    return mask
-
-
 # --------------------------------------------------------------------------- graphs
-def _data_components(workspace, cols, settings):
+def data_components(workspace, cols, settings):
     """Components of the data itself under the graph builder's clustering (cached per settings).
 
     The graph built with one interval on the first lens covers the whole range,
@@ -332,8 +308,8 @@ def _data_components(workspace, cols, settings):
     return workspace.cached(key, compute)
 
 
-def _grid_counts(cols, workspace, interval_counts, overlaps, settings, data_components, label,
-                 jitter=False):
+def grid_counts(cols, workspace, interval_counts, overlaps, settings, data_components, label,
+                jitter=False):
     """Feature counts of the graph at every (intervals, overlap) cell: dict -> (p, q) arrays.
 
     Each cell's settings come from :func:`lenswork.graph.grid_settings`, so the
@@ -608,16 +584,16 @@ def structure_scores(lenses, workspace, *, settings=None, interval_counts=None,
     """
     weights = _check_weights(weights)
     floor = check_float("floor", floor, lo=0, hi=1, hi_open=True, context="structure_scores")
-    settings = _graph_settings(settings, k, overrides)
+    settings = merged_settings(settings, k, overrides)
     workspace = as_workspace(workspace)
     if interval_counts is None:
-        _, overlaps = _check_grid(PROBE_INTERVALS, overlaps, "structure_scores")
+        _, overlaps = check_grid(PROBE_INTERVALS, overlaps, "structure_scores")
         interval_counts = probe_intervals(workspace.n, _min_size(settings, workspace.n),
                                     min(overlaps))
-    interval_counts, overlaps = _check_grid(interval_counts, overlaps, "structure_scores")
+    interval_counts, overlaps = check_grid(interval_counts, overlaps, "structure_scores")
     cols = as_lens_table(lenses, workspace, what="structure_scores", finite=False).columns
     good = [c for c in cols if np.isfinite(np.asarray(c.values)).all()]
-    data_c = _data_components(workspace, good or cols, settings) if good else 0
+    data_c = data_components(workspace, good or cols, settings) if good else 0
     scores, counts = {}, {}
     for col in cols:
         if col not in good:
@@ -627,8 +603,8 @@ def structure_scores(lenses, workspace, *, settings=None, interval_counts=None,
             )
             scores[col.name] = {k: math.nan for k in _score_keys()}
             continue
-        grid = _grid_counts([col], workspace, interval_counts, overlaps, settings, data_c, col.name,
-                            jitter=None)
+        grid = grid_counts([col], workspace, interval_counts, overlaps, settings, data_c, col.name,
+                           jitter=None)
         counts[col.name] = grid
         scores[col.name] = _score(grid, weights, floor, workspace.n)
     return StructureProbe(
@@ -645,204 +621,3 @@ def _min_size(settings, n_rows):
     return settings.min_size
 
 
-# --------------------------------------------------------------------------- stability map
-@dataclass(frozen=True, eq=False)
-class StabilityMap:
-    """Feature counts of one lens's graph over an interval-count x overlap grid.
-
-    Attributes
-    ----------
-    lens : str
-        The lens column name(s), joined by `` x `` for a multi-column cover.
-    interval_counts : tuple of int
-        Interval counts (grid rows).
-    overlaps : tuple of float
-        Overlaps (grid columns).
-    counts : dict of str -> ndarray of shape (len(interval_counts), len(overlaps)), int
-        ``nodes``, ``edges``, ``unassigned`` (rows in no node), ``components``,
-        ``loops``, ``branch_points``, ``flares``, ``extra_components`` and
-        ``empty`` (1 where no cover element kept a group of ``min_size`` rows)
-        at every cell.
-    n_rows : int
-    data_components : int
-        Components of the data itself (see the module docstring).
-    default : (int, float) or None
-        The grid cell of the settings themselves (intervals, overlap; see
-        :func:`default_cell_setting`), when the grid holds it.
-    settings : dict
-        The graph settings used, whole (:meth:`GraphSettings.to_dict`).
-
-    Examples
-    --------
-    >>> from lenswork import Workspace
-    >>> t = np.linspace(0, 2 * np.pi, 300, endpoint=False)
-    >>> ws = Workspace(np.column_stack([np.cos(t), np.sin(t)]))
-    >>> smap = stability_map(ws.X[:, 0], ws, interval_counts=(8, 10), overlaps=(0.3,))
-    >>> smap.default_cell, smap.region("loops").tolist(), len(smap.rows())
-    ((1, 0), [[True], [True]], 2)
-    """
-
-    lens: str
-    interval_counts: tuple
-    overlaps: tuple
-    counts: dict
-    n_rows: int
-    data_components: int
-    default: tuple | None = None
-    settings: dict = field(default_factory=dict)
-
-    @property
-    def features(self):
-        """The feature types drawn by default: :data:`FEATURES`."""
-        return FEATURES
-
-    @property
-    def default_cell(self):
-        """Grid position (row, column) of the default setting, or None."""
-        if self.default is None:
-            return None
-        i = (self.interval_counts.index(self.default[0])
-             if self.default[0] in self.interval_counts else None)
-        close = [j for j, o in enumerate(self.overlaps) if math.isclose(o, self.default[1])]
-        return None if i is None or not close else (i, close[0])
-
-    def region(self, feature, cell=None):
-        """Cells with the same ``feature`` count as ``cell``, 4-connected to it.
-
-        Parameters
-        ----------
-        feature : str
-        cell : (int, int), optional
-            Grid position; default :attr:`default_cell`.
-
-        Returns
-        -------
-        ndarray of bool, shape (len(interval_counts), len(overlaps))
-        """
-        if feature not in self.counts:
-            raise ParameterError(
-                f"No feature {feature!r} in the stability map; it has: "
-                f"{', '.join(self.counts)}."
-            )
-        cell = self.default_cell if cell is None else tuple(cell)
-        if cell is None:
-            raise ParameterError(
-                "The stability map's grid does not hold the default setting; pass a cell=(i, j)."
-            )
-        return _region(self.counts[feature], cell)
-
-    def rows(self):
-        """One dict per grid cell: intervals, overlap, then every count."""
-        out = []
-        for i, iv in enumerate(self.interval_counts):
-            for j, ov in enumerate(self.overlaps):
-                out.append({"intervals": int(iv), "overlap": float(ov),
-                            **{k: int(v[i, j]) for k, v in self.counts.items()}})
-        return out
-
-    def to_csv_text(self):
-        """The map as CSV text, one row per cell."""
-        rows = self.rows()
-        buf = io.StringIO()
-        w = dict_csv_writer(buf, list(rows[0]), lineterminator="\n")
-        w.writeheader()
-        w.writerows(rows)
-        return buf.getvalue()
-
-    def provenance(self):
-        """JSON-ready description: lens, grid, settings, default, data components, version."""
-        return {
-            "lenswork_version": __version__, "kind": "stability map", "lens": self.lens,
-            "n_rows": self.n_rows, "interval_counts": list(self.interval_counts),
-            "overlaps": list(self.overlaps), "default": list(self.default or []) or None,
-            "data_components": self.data_components, "settings": dict(self.settings),
-        }
-
-    def write(self, path):
-        """Write the CSV table to ``path`` and its provenance to ``<path>.json`` (atomically).
-
-        Returns
-        -------
-        (Path, Path)
-        """
-        from pathlib import Path
-
-        path = Path(path)
-        write_text(path, self.to_csv_text())
-        sidecar = path.with_name(path.name + ".json")
-        write_text(sidecar, dumps(self.provenance()) + "\n")
-        return path, sidecar
-
-    # plot(paths=None, features=None) -- one heat map per feature type -- is attached by
-    # lenswork._graph_methods (the plots live above this module).
-
-    def to_frame(self):
-        """The map as a pandas DataFrame, one row per grid cell: the columns of the CSV file.
-
-        ``intervals``, ``overlap`` and every count of :attr:`counts`, as
-        :meth:`to_csv_text` writes them. Needs pandas (a clear error without it).
-        """
-        from ._frame import records_frame
-
-        return records_frame(self.rows(), what="a StabilityMap")
-
-
-def stability_map(lens, workspace, *, settings=None, interval_counts=MAP_INTERVALS,
-                  overlaps=MAP_OVERLAPS, k=None, **overrides):
-    """Feature counts of one lens's graph over a grid of cover settings.
-
-    Parameters
-    ----------
-    lens : LensColumn, LensTable, array-like or registry spec
-        One lens; several columns give a product cover, with the same interval
-        count and overlap on every column.
-    workspace : Workspace
-    interval_counts : sequence of int, default=(4, 6, 8, 10, 12, 14, 16, 20)
-    overlaps : sequence of float in [0, 1), default=(0.1, 0.2, 0.3, 0.4, 0.5)
-    settings : GraphSettings or dict, optional
-        The graph settings; each cell replaces the cover's resolution and
-        overlap (:func:`lenswork.graph.grid_settings`: interval count, or
-        ball spacing ``1 / N``). The settings' own cell is the map's default.
-    k : int, optional
-        Neighbours of the shared graph (an override of ``settings.k``).
-    **overrides
-        Any :class:`~lenswork.GraphSettings` field, applied to ``settings``.
-
-    Returns
-    -------
-    StabilityMap
-        ``.counts[feature]`` is a (len(interval_counts), len(overlaps)) int array;
-        ``.write(path)`` writes the CSV table, ``.plot(path)`` the heat maps,
-        ``.region(feature)`` the stable region around the default setting.
-
-    Raises
-    ------
-    ParameterError
-        Bad grid or setting.
-
-    Notes
-    -----
-    Cost: one graph build per cell, O(n k) each on the shared neighbour graph.
-
-    Examples
-    --------
-    >>> from lenswork import Workspace
-    >>> t = np.linspace(0, 2 * np.pi, 500, endpoint=False)
-    >>> ws = Workspace(np.column_stack([np.cos(t), np.sin(t)]))
-    >>> smap = stability_map(np.cos(t), ws, interval_counts=(6, 10), overlaps=(0.2, 0.3))
-    >>> smap.counts["loops"].tolist()
-    [[1, 1], [1, 1]]
-    """
-    interval_counts, overlaps = _check_grid(interval_counts, overlaps, "stability_map")
-    settings = _graph_settings(settings, k, overrides)
-    workspace = as_workspace(workspace)
-    cols = as_lens_table(lens, workspace, what="stability_map").columns
-    data_c = _data_components(workspace, cols, settings)
-    label = lens_label(cols)
-    counts = _grid_counts(cols, workspace, interval_counts, overlaps, settings, data_c, label)
-    return StabilityMap(
-        lens=label, interval_counts=interval_counts, overlaps=overlaps, counts=counts,
-        n_rows=workspace.n, data_components=data_c,
-        default=default_cell_setting(settings, workspace.n, len(cols)),
-        settings=settings.to_dict(),
-    )

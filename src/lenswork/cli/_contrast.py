@@ -155,7 +155,8 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
     """
     from .._io import OutputSet, write_text
     from .._json import dumps
-    from ..contrast import contrast_columns, node_column_values
+    from ..columns import node_column_values
+    from ..contrast import contrast_columns
 
     output = OutputSet(out_dir, command="contrast")  # checked before the work
     rows = None

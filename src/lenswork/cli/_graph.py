@@ -133,7 +133,7 @@ def _colour_options(graph, ws, column, stat, level):
             f"such column.{hint} Lens columns: {', '.join(graph.lens_columns)}; data columns: "
             f"{', '.join(data_names)}; or 'size'."
         )
-    from ..contrast import node_column_values
+    from ..columns import node_column_values
 
     data = colour_data(ws, column)
     node_column_values(graph, data, column, stat, level=level)

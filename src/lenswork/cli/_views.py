@@ -7,7 +7,7 @@ import click
 from .._io import OutputSet
 from ..bootstrap import bootstrap_graph
 from ..compare import compare_views
-from ..probe import stability_map
+from ..stability import stability_map
 from ._common import graph_options, input_options, lens_options, lens_table, lens_views, output_dir
 
 __all__ = ["COMMANDS"]

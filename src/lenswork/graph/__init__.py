@@ -36,10 +36,10 @@ from ._cover import COVER_SCALES, COVERS, BallCover, Cover, CoverBase, IntervalC
 from ._layout import LAYOUTS, auto_layout, graph_layout
 from ._lensgraph import GraphEdge, GraphNode, LensGraph
 from ._nerve import membership_matrix, nerve_edges, nerve_triangles
+from ._read import read_graph_json
 from ._settings import GraphSettings, grid_settings
 from ._summary import GraphFeature, GraphSummary
 from .io import (
-    read_graph_json,
     read_lens_file,
     write_graph_json,
     write_graphml,

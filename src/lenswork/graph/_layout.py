@@ -30,7 +30,7 @@ import numpy as np
 from scipy.sparse.csgraph import connected_components
 
 from .._validation import check_choice
-from ._summary import neighbour_lists
+from ._walk import neighbour_lists
 
 __all__ = ["LAYOUTS", "auto_layout", "graph_layout"]
 

@@ -10,14 +10,12 @@ import scipy.sparse as sp
 
 from .._errors import ParameterError
 from .._json import dumps, plain
-from ._layout import graph_layout
+from ._layout import auto_layout, graph_layout
 from ._nerve import jaccard_weights, nerve_triangles
 from ._summary import summarize
+from ._tables import STATS
 
 __all__ = ["GraphEdge", "GraphNode", "LensGraph"]
-
-#: Node statistics kept for every lens and data column, in this order.
-STATS = ("mean", "min", "max")
 
 
 @dataclass(frozen=True, eq=False)
@@ -277,8 +275,120 @@ class LensGraph:
         """Node positions, shape (n_nodes, 2); see :func:`lenswork.graph.graph_layout`."""
         return graph_layout(self, method=method, random_state=random_state)
 
-    # Writers (write_graphml, write_json, write_memberships) and draw are attached by
-    # lenswork._graph_methods, a module above both this one and its writers and plots.
+    def layout_method(self, method="auto"):
+        """The layout a name stands for: ``"auto"`` resolved by :func:`auto_layout` (one rule)."""
+        return auto_layout(len(self.lens_columns), self.n_nodes) if method == "auto" else method
+
+    # ------------------------------------------------------------ the result protocol
+    # text / to_dict / to_frame / write / plot, as every result object has them
+    # (DEVELOPERS.md, "Result objects"). Writers, frames and plots are imported inside
+    # the methods: this module imports none of them, and matplotlib, pandas and networkx
+    # load on the first call only.
+    def text(self, max_features=20):
+        """The graph's summary for a terminal (:meth:`GraphSummary.text`)."""
+        return self.summary().text(max_features=max_features)
+
+    def to_dict(self):
+        """The JSON form (nodes, edges, membership, params, provenance, summary) as a dict.
+
+        What :meth:`write_json` writes; :func:`lenswork.graph.read_graph_json` reads it back.
+        """
+        from .io import graph_to_dict
+
+        return graph_to_dict(self)
+
+    def to_frame(self, what="nodes"):
+        """The nodes (or edges) as a pandas DataFrame with the GraphML attributes as columns.
+
+        Parameters
+        ----------
+        what : {"nodes", "edges"}, default="nodes"
+            ``"nodes"``: index ``node``; ``size``, ``element``, ``level`` and
+            ``<column>_mean`` / ``_min`` / ``_max`` for every lens and data column.
+            ``"edges"``: index ``edge``; ``source``, ``target``, ``shared``,
+            ``jaccard``. The names and text forms of :meth:`write_graphml`.
+
+        Returns
+        -------
+        pandas.DataFrame
+
+        Raises
+        ------
+        LensworkError
+            pandas is not installed.
+        ParameterError
+            ``what`` is neither "nodes" nor "edges".
+        """
+        from ._tables import graph_frame
+
+        return graph_frame(self, what)
+
+    def write(self, directory, *, figures=True):
+        """Write ``graph.graphml``, ``graph.json``, ``memberships.csv`` (and ``graph.png``).
+
+        Every file is written atomically; the figure is drawn before the first
+        file is written. Returns the list of paths.
+        """
+        from pathlib import Path
+
+        out = Path(directory)
+        out.mkdir(parents=True, exist_ok=True)
+        fig = self.plot() if figures else None
+        written = [self.write_graphml(out / "graph.graphml"), self.write_json(out / "graph.json"),
+                   self.write_memberships(out / "memberships.csv")]
+        if fig is not None:
+            from ..plot._style import save
+
+            written.append(save(fig, out / "graph.png"))
+        return written
+
+    def plot(self, path=None, **kwargs):
+        """Draw the graph (see :func:`lenswork.plot.draw_graph`); imports matplotlib on first use.
+
+        Returns the figure, or writes it to ``path`` (PNG or SVG by its ending).
+        """
+        from ..plot._graph import draw_graph
+
+        return draw_graph(self, path=path, **kwargs)
+
+    def draw(self, path=None, **kwargs):
+        """The same as :meth:`plot` (the older name)."""
+        return self.plot(path, **kwargs)
+
+    def write_graphml(self, path):
+        """Write GraphML (typed node and edge attributes) atomically; see :func:`write_graphml`."""
+        from .io import write_graphml
+
+        return write_graphml(self, path)
+
+    def write_json(self, path):
+        """Write the JSON form (nodes, edges, membership, params, provenance) atomically."""
+        from .io import write_graph_json
+
+        return write_graph_json(self, path)
+
+    def write_memberships(self, path):
+        """Write a CSV of row id -> node, one line per membership, atomically."""
+        from .io import write_memberships
+
+        return write_memberships(self, path)
+
+    def to_networkx(self):
+        """The graph as a ``networkx.Graph`` with the node, edge and graph attributes of GraphML.
+
+        Nodes ``0 .. n_nodes - 1``; equal to ``networkx.read_graphml`` of
+        :meth:`write_graphml`'s file with the nodes ``n<i>`` renamed ``i``. Needs
+        networkx (a clear error when it is missing).
+        """
+        from ._networkx import to_networkx
+
+        return to_networkx(self)
+
+    def _repr_html_(self):
+        """Summary table and a small inline SVG drawing, for notebooks."""
+        from ._svg import graph_html
+
+        return graph_html(self)
 
     # ---------------------------------------------------------------- identity
     def __eq__(self, other):

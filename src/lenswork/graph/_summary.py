@@ -81,17 +81,22 @@ a breadth-first spanning tree (one per non-tree edge), so their number is
 from __future__ import annotations
 
 import math
-from collections import deque
 from dataclasses import dataclass, field, replace
 from functools import cached_property
 
 import numpy as np
-import scipy.sparse as sp
-from scipy.sparse.csgraph import connected_components
 
 from .._errors import ParameterError
-from ._nerve import nerve_triangles
-from ._persistence import ascending_edge_order, diagram_trunks, graph_diagrams
+from ._significance import BRANCH_RADIUS, significance_of  # noqa: F401  (BRANCH_RADIUS: tests)
+from ._walk import (
+    chains,
+    components_by_size,
+    fundamental_cycles,
+    neighbour_lists,
+    nerve_holes,
+    row_counter,
+    structure,
+)
 
 __all__ = ["GraphFeature", "GraphSummary", "cover_settings",
            "neighbour_lists", "settings_text", "summarize"]
@@ -191,7 +196,7 @@ class GraphSummary:
         """
         if self._graph is None:
             return ()
-        sig = _significance(self._graph)
+        sig = significance_of(self._graph)
         return _limbs(self._graph, sig) if sig is not None else ()
 
     def _all(self):
@@ -231,7 +236,7 @@ class GraphSummary:
         >>> build_graph(X[:, 1], X).summary().significance["loops"]
         (1, 1)
         """
-        if self._graph is None or _significance(self._graph) is None:
+        if self._graph is None or significance_of(self._graph) is None:
             return None
         out = {}
         for key, kind in (("loops", "loop"), ("limbs", "limb"), ("flares", "flare"),
@@ -269,7 +274,7 @@ class GraphSummary:
         (:func:`~lenswork.graph._persistence.resolution_threshold`); None for a
         lens whose threshold is infinite (one interval: nothing certified).
         """
-        sig = _significance(self._graph) if self._graph is not None else None
+        sig = significance_of(self._graph) if self._graph is not None else None
         if sig is None:
             return None
         return {name: (float(d.threshold) if math.isfinite(d.threshold) else None)
@@ -519,6 +524,52 @@ class GraphSummary:
     def __str__(self):
         return self.text()
 
+    def to_frame(self, what="features"):
+        """A pandas DataFrame, one row per feature (limbs included), with its label and threshold.
+
+        The ``significant_features``, ``small_features`` and ``other_features``
+        of :meth:`record` in one table (``significant`` tells them apart).
+        """
+        from .._frame import records_frame
+        from .._validation import check_choice
+
+        check_choice("what", what, ("features",), context="GraphSummary.to_frame")
+        rows = [self._feature_dict(lab, f) for lab, f in self.labelled()]
+        return records_frame(rows, what="a graph summary")
+
+    def write(self, directory, *, figures=True):
+        """Write ``summary.json`` (:meth:`record`), ``summary.txt`` (and ``summary.png``).
+
+        The figure is the graph drawing with its significant features marked
+        (:meth:`plot`), drawn before the first file is written. Returns the paths.
+        """
+        from pathlib import Path
+
+        from .._io import write_text
+        from .._json import dumps
+
+        out = Path(directory)
+        if out.exists() and not out.is_dir():
+            raise ParameterError(
+                f"Output directory {str(out)!r} is a file; give a directory path."
+            )
+        fig = self.plot() if figures else None
+        out.mkdir(parents=True, exist_ok=True)
+        written = [out / "summary.json", out / "summary.txt"]
+        write_text(written[0], dumps(self.record()) + "\n")
+        write_text(written[1], self.text() + "\n")
+        if fig is not None:
+            from ..plot._style import save
+
+            written.append(save(fig, out / "summary.png"))
+        return written
+
+    def plot(self, path=None, **kwargs):
+        """The graph drawing with the significant features marked (:meth:`LensGraph.plot`)."""
+        if self._graph is None:
+            raise ParameterError("This summary holds no graph to draw; summarise a LensGraph.")
+        return self._graph.plot(path, **kwargs)
+
 
 #: Words of the significant counts (singular; ``_count`` adds the plural).
 _WORDS = {"components": "component", "loops": "loop", "holes": "hole", "flares": "flare",
@@ -582,82 +633,9 @@ def settings_text(settings):
     return "settings: " + ", ".join(parts)
 
 
-def neighbour_lists(n_nodes, edges):
-    """The neighbours of every node as lists, from an (n_edges, 2) edge array."""
-    nb = [[] for _ in range(n_nodes)]
-    for a, b in edges.tolist():
-        nb[a].append(b)
-        nb[b].append(a)
-    return nb
-
-
-def _fundamental_cycles(nb, labels, n_comp):
-    """One cycle per non-tree edge of a BFS spanning forest (roots: smallest node)."""
-    V = len(nb)
-    parent, depth = _bfs_forest(nb)
-    cycles = []
-    seen = set()
-    for u in range(V):
-        for w in sorted(nb[u]):
-            if w <= u or parent[w] == u or parent[u] == w or (u, w) in seen:
-                continue
-            seen.add((u, w))
-            cycles.append(_tree_path((parent, depth), u, w))
-    return cycles
-
-
-def _chains(nb, deg):
-    """Leaf-started chains: (nodes, end) with end a branch point, or a path to another leaf."""
-    flares, paths = [], []
-    for leaf in range(len(nb)):
-        if deg[leaf] != 1:
-            continue
-        chain = [leaf]
-        prev, cur = leaf, nb[leaf][0]
-        while deg[cur] == 2:
-            chain.append(cur)
-            nxt = nb[cur][0] if nb[cur][0] != prev else nb[cur][1]
-            prev, cur = cur, nxt
-        if deg[cur] >= 3:
-            flares.append((tuple(chain), cur))
-        elif leaf < cur:  # deg[cur] == 1: the component is a path; record it once
-            paths.append(tuple(chain + [cur]))
-    return flares, paths
-
-
-def _structure(graph):
-    """Components, degrees and neighbour lists (shared by the counts and the features)."""
-    A = graph.adjacency()
-    n_comp, labels = connected_components(A, directed=False)
-    return int(n_comp), labels, graph.degrees, neighbour_lists(graph.n_nodes, graph.edge_index)
-
-
-def _row_counter(graph):
-    """``rows_of(nodes)``: distinct rows in a set of nodes, O(their memberships)."""
-    csc = sp.csc_matrix(graph.membership)
-    stamp = np.empty(graph.n_rows, dtype=np.int64)
-
-    def rows_of(nodes):
-        parts = [csc.indices[csc.indptr[c]:csc.indptr[c + 1]] for c in nodes]
-        if not parts:
-            return 0
-        idx = np.concatenate(parts)
-        pos = np.arange(idx.size)
-        stamp[idx] = pos  # a repeated row keeps one position: count each row once
-        return int(np.count_nonzero(stamp[idx] == pos))
-
-    return rows_of
-
-
-def _components(labels, n_comp):
-    nodes = [np.flatnonzero(labels == c) for c in range(n_comp)]
-    order = sorted(range(n_comp), key=lambda c: (-nodes[c].size, nodes[c][0]))
-    return [nodes[c] for c in order]
-
-
 def _features(graph):
-    n_comp, labels, deg, nb = _structure(graph)
-    rows_of = _row_counter(graph)
+    n_comp, labels, deg, nb = structure(graph)
+    rows_of = row_counter(graph)
 
     def lens_range(nodes):
         idx = np.asarray(nodes, dtype=np.int64)
@@ -671,11 +649,11 @@ def _features(graph):
         nodes = tuple(int(x) for x in nodes)
         return GraphFeature(kind, nodes, rows_of(nodes), lens_range(nodes), attached_to)
 
-    sig = _significance(graph)
-    features = [feature("component", nodes) for nodes in _components(labels, n_comp)]
-    flares, paths = _chains(nb, deg)
+    sig = significance_of(graph)
+    features = [feature("component", nodes) for nodes in components_by_size(labels, n_comp)]
+    flares, paths = chains(nb, deg)
     if sig is None:
-        features += [feature("loop", cycle) for cycle in _fundamental_cycles(nb, labels, n_comp)]
+        features += [feature("loop", cycle) for cycle in fundamental_cycles(nb, labels, n_comp)]
         features += [feature("branch", (int(v),)) for v in np.flatnonzero(deg >= 3)]
         features += [feature("flare", chain, attached_to=int(end)) for chain, end in flares]
     else:
@@ -694,7 +672,7 @@ def _features(graph):
 
 
 def _limbs(graph, sig):
-    rows_of = _row_counter(graph)
+    rows_of = row_counter(graph)
     nb = neighbour_lists(graph.n_nodes, graph.edge_index)
     out = []
     for nodes, merge, value, ok in sig.limbs(nb):
@@ -707,303 +685,6 @@ def _limbs(graph, sig):
     return tuple(out)
 
 
-def _region(nb, level, extreme, merge):
-    """The nodes reached from ``extreme`` through nodes strictly beyond ``merge``'s level (on
-    ``extreme``'s side), the extreme first and the rest in increasing order."""
-    sign = 1.0 if level[extreme] > level[merge] else -1.0
-    cut = level[merge]
-    seen, todo = {extreme}, [extreme]
-    while todo:
-        u = todo.pop()
-        for w in nb[u]:
-            if w not in seen and sign * (level[w] - cut) > 0:
-                seen.add(w)
-                todo.append(w)
-    seen.discard(extreme)
-    return (int(extreme), *sorted(int(x) for x in seen))
-
-
-class _Significance:
-    """The per-lens diagrams of a graph and the significance of its features (module notes)."""
-
-    def __init__(self, graph, diagrams):
-        self.graph = graph
-        self.diagrams = diagrams
-        self.levels = graph.node_elements.astype(np.float64)
-
-    def _best(self, values):
-        """(largest significance, significant in some lens) over per-lens (value, ok) pairs."""
-        values = list(values)
-        if not values:
-            return 0.0, False
-        return max(v for v, _ in values), any(ok for _, ok in values)
-
-    def loops(self, nb):
-        """(cycle, significance, significant) per loop, from the lens certifying the most."""
-        best = max(range(len(self.diagrams)),
-                   key=lambda j: (self.diagrams[j].count("loop", significant=True), -j))
-        d = self.diagrams[best]
-        E = np.asarray(self.graph.edge_index, dtype=np.int64).reshape(-1, 2)
-        level = self.levels[:, best]
-        order = ascending_edge_order(E, level)
-        tree = _spanning_forest(E, order, self.graph.n_nodes)
-        keep = d.kind == "loop"
-        out = []
-        for i in np.flatnonzero(keep)[np.argsort(-d.significance[keep], kind="stable")]:
-            a, b = (int(x) for x in E[int(d.edge[i])])
-            out.append((_tree_path(tree, a, b), float(d.significance[i]),
-                        bool(d.significant[i])))
-        return out
-
-    @cached_property
-    def trunks(self):
-        """Per lens: (extreme node, merge node, significance, threshold) of each trunk."""
-        E = np.asarray(self.graph.edge_index, dtype=np.int64).reshape(-1, 2)
-        sizes = np.asarray(self.graph.membership.sum(axis=0)).ravel()
-        return [[t[1:] for t in diagram_trunks(d, E, self.levels[:, j], sizes)]
-                for j, d in enumerate(self.diagrams)]
-
-    def limbs(self, nb):
-        """(nodes, attached to, significance, significant) for every branch of every lens.
-
-        The diagram's ``down`` and ``up`` points, and the trunks (a component's
-        extreme down or up to where a significant branch joins it). A limb's
-        nodes are its region: the nodes reached from its extreme through nodes
-        beyond the level where it joins the rest (the extreme first); it is
-        attached to the node where it joins. The same limb seen by several
-        lenses (regions of node-set Jaccard index at least 1/2) is listed
-        once, at its largest significance.
-        """
-        found = []
-        for j, d in enumerate(self.diagrams):
-            level = self.levels[:, j]
-            ends = [(int(d.nodes[i, 0]), int(d.nodes[i, 1]), float(d.significance[i]),
-                     bool(d.significant[i]))
-                    for i in np.flatnonzero((d.kind == "down") | (d.kind == "up"))]
-            ends += [(top, merge, value, value > thr) for top, merge, value, thr in self.trunks[j]]
-            for top, merge, value, ok in ends:
-                found.append((j, _region(nb, level, top, merge), merge, value, ok))
-        found.sort(key=lambda t: (-t[3], t[0], t[1][0]))
-        kept = []
-        for j, region, merge, value, ok in found:
-            nodes = set(region)
-            same = next((k for k in kept if j not in k["lenses"]
-                         and len(nodes & k["set"]) * 2 >= len(nodes | k["set"])), None)
-            if same is None:
-                kept.append({"lenses": {j}, "set": nodes, "region": region, "merge": merge,
-                             "value": value, "ok": ok})
-            else:  # the same limb under another lens: listed once, at the larger value
-                same["lenses"].add(j)
-                same["ok"] = same["ok"] or ok
-        return [(k["region"], k["merge"], k["value"], k["ok"]) for k in kept]
-
-    def at_node(self, v, nb):
-        """Third-largest lens span of the exits at node ``v`` (module notes).
-
-        For each lens: the ball is the part of the graph reached from ``v``
-        through nodes whose level is within ``r`` of ``v``'s, the shell the
-        nodes reached within ``2 r`` that are not in the ball, with ``r`` a
-        share :data:`BRANCH_RADIUS` of the resolution threshold. Each
-        component of the shell is an exit; its arm is the component of
-        ``G - ball`` holding it, and its span runs from ``v``'s level to the
-        arm's farthest level.
-        """
-        if len(nb[v]) < 3:
-            return 0.0, False
-        vals = []
-        for j, d in enumerate(self.diagrams):
-            if not (d.range > 0 and math.isfinite(d.threshold)):
-                vals.append((0.0, False))
-                continue
-            lv = self.levels[:, j]
-            spans = self._exit_spans(v, nb, lv, BRANCH_RADIUS * d.threshold * d.range)
-            if len(spans) < 3:
-                vals.append((0.0, False))
-                continue
-            value = float(sorted(spans, reverse=True)[2]) / d.range
-            vals.append((value, value > d.threshold))
-        return self._best(vals)
-
-    @staticmethod
-    def _exit_spans(v, nb, level, radius):
-        """Lens span of the arm behind each exit of the ball of ``radius`` around ``v``."""
-        lv = level[v]
-
-        def reach(seeds, allowed):
-            seen = set(seeds)
-            frontier = list(seeds)
-            while frontier:
-                nxt = []
-                for u in frontier:
-                    for x in nb[u]:
-                        if x not in seen and allowed(x):
-                            seen.add(x)
-                            nxt.append(x)
-                frontier = nxt
-            return seen
-
-        ball = reach([v], lambda x: abs(level[x] - lv) <= radius)
-        wide = reach([v], lambda x: abs(level[x] - lv) <= 2 * radius)
-        shell = wide - ball
-        exits, done = [], set()
-        for u in sorted(shell):
-            if u not in done:
-                done |= reach([u], lambda x: x in shell)
-                exits.append(u)
-        if len(exits) < 3:  # no branching: the arms are not needed
-            return []
-        spans, arms = [], []  # exits in one component of G - ball share its arm: searched once
-        for u in exits:
-            arm = next((a for a in arms if u in a[0]), None)
-            if arm is None:
-                nodes = reach([u], lambda x: x not in ball)
-                values = level[sorted(nodes)]
-                arm = (nodes, max(values.max(), lv) - min(values.min(), lv))
-                arms.append(arm)
-            spans.append(arm[1])
-        return spans
-
-    def ends_at(self, v):
-        """Largest significance of the limbs and loops with an end at node ``v``."""
-        vals = []
-        for j, d in enumerate(self.diagrams):
-            hit = ((d.nodes[:, 0] == v) | (d.nodes[:, 1] == v)) & (d.kind != "component")
-            vals += [(float(d.significance[i]), bool(d.significant[i]))
-                     for i in np.flatnonzero(hit)]
-            vals += [(value, value > thr) for top, merge, value, thr in self.trunks[j]
-                     if v in (top, merge)]
-        return self._best(vals)
-
-    def branch(self, v, nb):
-        """Smaller of the arm span and the largest feature ending at ``v`` (module notes)."""
-        arm, arm_ok = self.at_node(v, nb)
-        end, end_ok = self.ends_at(v)
-        return min(arm, end), arm_ok and end_ok
-
-    def flare(self, chain, end):
-        """Significance of the limb or trunk born at the flare's leaf (module notes)."""
-        leaf = chain[0]
-        vals = []
-        for j, d in enumerate(self.diagrams):
-            born = np.flatnonzero(((d.kind == "down") | (d.kind == "up")) & (d.nodes[:, 0] == leaf))
-            if born.size:
-                i = int(born[np.argmax(d.significance[born])])
-                vals.append((float(d.significance[i]), bool(d.significant[i])))
-            vals += [(value, value > thr) for top, _, value, thr in self.trunks[j]
-                     if top == leaf]
-        return self._best(vals)
-
-
-def _spanning_forest(E, order, V):
-    """Parent and depth of every node in the spanning forest grown by adding edges in ``order``.
-
-    Kruskal's rule: an edge joins the forest when its ends are in different
-    trees; the forest is then rooted (breadth first, smallest node first).
-    """
-    parent = list(range(V))
-
-    def find(a):
-        while parent[a] != a:
-            parent[a] = parent[parent[a]]
-            a = parent[a]
-        return a
-
-    tree = [[] for _ in range(V)]
-    for e in order.tolist():
-        a, b = int(E[e, 0]), int(E[e, 1])
-        ra, rb = find(a), find(b)
-        if ra != rb:
-            parent[ra] = rb
-            tree[a].append(b)
-            tree[b].append(a)
-    return _bfs_forest(tree)
-
-
-def _bfs_forest(nb):
-    """Parent and depth of every node, breadth first from the smallest unseen node.
-
-    Neighbours are visited in increasing order, so the forest is deterministic
-    (in a tree it is the tree itself, rooted).
-    """
-    V = len(nb)
-    up = [-1] * V
-    depth = [-1] * V
-    for root in range(V):
-        if depth[root] >= 0:
-            continue
-        depth[root] = 0
-        queue = deque([root])
-        while queue:
-            u = queue.popleft()
-            for w in sorted(nb[u]):
-                if depth[w] < 0:
-                    depth[w], up[w] = depth[u] + 1, u
-                    queue.append(w)
-    return up, depth
-
-
-def _tree_path(forest, a, b):
-    """Nodes of the forest path from ``a`` to ``b`` (the cycle closed by the edge a-b)."""
-    up, depth = forest
-    left, right = [a], [b]
-    while depth[a] > depth[b]:
-        a = up[a]
-        left.append(a)
-    while depth[b] > depth[a]:
-        b = up[b]
-        right.append(b)
-    while a != b:
-        a, b = up[a], up[b]
-        left.append(a)
-        right.append(b)
-    return tuple(left + right[-2::-1])
-
-
-def _significance(graph):
-    """The graph's _Significance (cached on the graph), or None without lens levels."""
-    cached = getattr(graph, "_significance_cache", None)
-    if cached is not None:
-        return cached or None
-    try:
-        diagrams = graph_diagrams(graph)
-    except (ParameterError, KeyError, IndexError, TypeError, ValueError):
-        diagrams = None  # a hand-made graph whose parameters do not describe its cover
-    result = _Significance(graph, diagrams) if diagrams else False
-    graph._significance_cache = result
-    return result or None
-
-
-#: Radius of the ball around a node whose exits are counted as its directions, as a share of
-#: the resolution threshold: a quarter, the uncertainty of one end's level (the threshold
-#: holds the uncertainty of both ends, twice over; see ``resolution_threshold``).
-BRANCH_RADIUS = 0.25
-
-#: Largest boundary matrix (edges x triangles) whose rank is computed densely.
-_MAX_BOUNDARY = 4_000_000
-
-
-def _holes(graph, loops):
-    """b1 of the nerve's 2-skeleton: loops minus the rank of the triangle boundary map."""
-    if loops == 0:
-        return 0
-    tri, _ = nerve_triangles(graph.membership)
-    if len(tri) == 0:
-        return loops
-    V = graph.n_nodes
-    edges = np.sort(np.asarray(graph.edge_index, dtype=np.int64), axis=1)
-    keys = edges[:, 0] * V + edges[:, 1]
-    order = np.argsort(keys)
-    if len(keys) * len(tri) > _MAX_BOUNDARY:
-        return None
-    D = np.zeros((len(keys), len(tri)))
-    cols = np.arange(len(tri))
-    # boundary of [i, j, h] = [j, h] - [i, h] + [i, j] (common practice, simplicial homology)
-    for (a, b), sign in (((1, 2), 1.0), ((0, 2), -1.0), ((0, 1), 1.0)):
-        e = order[np.searchsorted(keys, tri[:, a] * V + tri[:, b], sorter=order)]
-        D[e, cols] = sign
-    return int(loops - np.linalg.matrix_rank(D))
-
-
 def summarize(graph):
     """Summarise a LensGraph; see :class:`GraphSummary`.
 
@@ -1014,15 +695,15 @@ def summarize(graph):
     length of the fundamental cycles and O(P) per feature.
     """
     V, E = graph.n_nodes, graph.n_edges
-    n_comp, labels, deg, nb = _structure(graph)
-    rows_of = _row_counter(graph)
-    flares, _ = _chains(nb, deg)
+    n_comp, labels, deg, nb = structure(graph)
+    rows_of = row_counter(graph)
+    flares, _ = chains(nb, deg)
     loops = int(E - V + n_comp)
     return GraphSummary(
         n_rows=graph.n_rows, n_nodes=V, n_edges=E, n_components=n_comp,
-        loops=loops, holes=_holes(graph, loops),
+        loops=loops, holes=nerve_holes(graph, loops),
         branch_points=tuple(int(v) for v in np.flatnonzero(deg >= 3)),
         n_flares=len(flares), n_unassigned=int(graph.unassigned.size),
-        component_sizes=tuple(rows_of(nodes) for nodes in _components(labels, n_comp)),
+        component_sizes=tuple(rows_of(nodes) for nodes in components_by_size(labels, n_comp)),
         settings=cover_settings(graph), _graph=graph,
     )

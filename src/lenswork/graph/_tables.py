@@ -26,12 +26,13 @@ import numpy as np
 from .._frame import data_frame
 from .._validation import check_choice
 
-__all__ = ["TABLES", "graph_columns", "graph_frame"]
+__all__ = ["STATS", "TABLES", "graph_columns", "graph_frame"]
 
 #: The tables a graph gives, in the order of ``to_frame(what=...)``.
 TABLES = ("nodes", "edges")
 #: The per-node statistics of every lens and data column, in the GraphML's order.
-_STATS = ("mean", "min", "max")
+#: The statistics a graph keeps per node and column (LensGraph.node_stats columns).
+STATS = ("mean", "min", "max")
 
 
 def _joined(values, as_int):
@@ -88,8 +89,8 @@ def graph_columns(graph, what="nodes"):
     text[:] = [_joined(levels[a], as_int=False) for a in range(V)]
     columns["level"] = text.copy()
     for name in (*graph.lens_columns, *graph.data_columns):
-        stats = np.asarray(graph.node_stats[name], dtype=np.float64).reshape(V, len(_STATS))
-        for j, stat in enumerate(_STATS):
+        stats = np.asarray(graph.node_stats[name], dtype=np.float64).reshape(V, len(STATS))
+        for j, stat in enumerate(STATS):
             columns[f"{name}_{stat}"] = stats[:, j].copy()
     return columns
 

@@ -8,6 +8,7 @@ from pathlib import Path
 import numpy as np
 
 from .._errors import ParameterError
+from ..columns import node_column_values
 from ._graph import draw_graph
 from ._style import MUTED, as_paths, figure, save, style
 
@@ -16,7 +17,7 @@ __all__ = ["column_multiples", "contrast_sheet"]
 
 def column_multiples(graph, data, columns, *, stat="mean", levels=None, highlight=None,
                      captions=None, layout="auto", ncols=3, title=None, path=None,
-                     random_state=0):
+                     random_state=0, values=None):
     """The graph drawn once per data column, its nodes coloured by that column.
 
     Parameters
@@ -44,6 +45,10 @@ def column_multiples(graph, data, columns, *, stat="mean", levels=None, highligh
     path : str, Path or list of them, optional
         Write the sheet (``.png`` / ``.svg``, atomically) and close it.
     random_state : int, default=0
+    values : dict of str -> (ndarray of shape (n_nodes,), str), optional
+        The node values and colour-bar label of each column, computed by the
+        caller (:func:`lenswork.columns.node_column_values`); then ``data`` is
+        not read. Without it the values are computed here from ``data``.
 
     Returns
     -------
@@ -67,22 +72,15 @@ def column_multiples(graph, data, columns, *, stat="mean", levels=None, highligh
         raise ParameterError("column_multiples needs at least one column to draw.")
     levels = dict(levels or {})
     captions = dict(captions or {})
-    if isinstance(layout, str):
-        from ..graph import graph_layout
-
-        method = layout
-        if layout == "auto":
-            m = len(graph.lens_columns)
-            method = "level" if m == 1 else ("lens" if m == 2 else "spring")
-        pos = graph_layout(graph, method=method, random_state=random_state)
+    if isinstance(layout, str):  # "auto": the graph's one layout rule (graph/_layout.py)
+        pos = graph.layout(method=layout, random_state=random_state)
     else:
         pos = np.asarray(layout, dtype=np.float64)
-    from ..contrast import node_column_values
-
+    given = dict(values or {})
     values = {}
     for c in columns:  # every value first: a bad column fails before any drawing
-        values[c] = node_column_values(graph, data, c, "share" if c in levels else stat,
-                                       level=levels.get(c))
+        values[c] = given[c] if c in given else node_column_values(
+            graph, data, c, "share" if c in levels else stat, level=levels.get(c))
     ncols = max(1, min(int(ncols), len(columns)))
     nrows = math.ceil(len(columns) / ncols)
     with style():
@@ -109,12 +107,14 @@ def column_multiples(graph, data, columns, *, stat="mean", levels=None, highligh
 
 
 def contrast_sheet(result, graph, data, feature, *, top=6, path=None, layout="auto", ncols=3,
-                   random_state=0):
+                   random_state=0, values=None):
     """Small multiples of a feature's top columns from a :class:`~lenswork.ContrastResult`.
 
     Each panel is the graph coloured by one of the ``top`` best-ranked columns
     (a categorical one by the share of its most over-represented level), the
     feature's nodes ringed, and a caption with the effect size and q-value.
+    ``values`` (column -> node values and label) skips the computing, as in
+    :func:`column_multiples`.
 
     Examples
     --------
@@ -147,4 +147,5 @@ def contrast_sheet(result, graph, data, feature, *, top=6, path=None, layout="au
              f"nodes ringed; top {len(rows)} columns")
     return column_multiples(graph, data, [r.column for r in rows], levels=levels,
                             highlight=info["nodes"], captions=captions, layout=layout,
-                            ncols=ncols, title=title, path=path, random_state=random_state)
+                            ncols=ncols, title=title, path=path, random_state=random_state,
+                            values=values)

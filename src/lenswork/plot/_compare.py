@@ -35,7 +35,6 @@ import numpy as np
 from matplotlib.colors import LinearSegmentedColormap
 from matplotlib.ticker import MaxNLocator
 
-from ..graph import auto_layout
 from ..normalize import normalize
 from ._style import ACCENT, INK, LENS_CMAP, MUTED, plt, save, style
 
@@ -135,7 +134,7 @@ def _fan_out(pos, close=_CLOSE, rounds=6):
 
 def _view_positions(g):
     """(positions, y label, number of levels) of a view's nodes; see the module notes."""
-    method = auto_layout(len(g.lens_columns), g.n_nodes)
+    method = g.layout_method()
     pos = np.asarray(g.layout(method), dtype=np.float64)
     if method == "level" and g.n_nodes:
         level = np.unique(g.node_levels[:, 0], return_inverse=True)[1].ravel()
@@ -215,7 +214,7 @@ def _view_foot(cmp, view, by, width):
     colour = f"colour: {_letter(by)}'s lens ({cmp.graphs[by].lens_columns[0]}), mean rank"
     lines = [_wrap(raw, width, 6.5), _wrap(colour, width, 6.5)]
     g = cmp.graphs[view]
-    if auto_layout(len(g.lens_columns), g.n_nodes) == "lens":
+    if g.layout_method() == "lens":
         lines.append(_wrap(f"x: {g.lens_columns[0]}, y: {g.lens_columns[1]} (node means; nodes "
                            f"within {_CLOSE:.0%} of each other fanned out)", width, 6.5))
     return "\n".join(lines)

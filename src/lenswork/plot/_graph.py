@@ -7,7 +7,6 @@ from pathlib import Path
 import numpy as np
 
 from .._errors import ParameterError
-from ..graph import auto_layout, graph_layout
 from ._style import ACCENT, ACCENT_2, GRID, INK, LENS_CMAP, MUTED, PAPER, figure, save, style
 
 __all__ = ["draw_graph"]
@@ -100,10 +99,9 @@ def draw_graph(graph, path=None, *, color=None, stat="mean", layout="auto", ax=N
             f"The 'highlight' nodes must lie in 0..{graph.n_nodes - 1}; got {int(bad[0])}."
         )
     method = layout if isinstance(layout, str) else "given"
-    if isinstance(layout, str):
-        if layout == "auto":
-            method = auto_layout(len(graph.lens_columns), graph.n_nodes)
-        pos = graph_layout(graph, method=method, random_state=random_state)
+    if isinstance(layout, str):  # the graph's own layout rule (graph/_layout.py)
+        method = graph.layout_method(layout)
+        pos = graph.layout(method=method, random_state=random_state)
     else:
         pos = np.asarray(layout, dtype=np.float64)
         if pos.shape != (graph.n_nodes, 2):
@@ -191,7 +189,7 @@ def _colour_values(graph, color, stat, data, level, values):
     in_graph = color == "size" or color in graph.node_stats
     if data is not None and (not in_graph or stat not in ("mean", "min", "max")
                              or level is not None):
-        from ..contrast import node_column_values
+        from ..columns import node_column_values
 
         values, label = node_column_values(graph, data, color, stat, level=level)
         return values, label, color

@@ -27,7 +27,8 @@ from .._errors import InputError, ParameterError
 from .._json import plain
 from .._validation import check_int
 from .._version import __version__
-from ..contrast import MISSING_TEXT, contrast_columns, node_column_values
+from ..columns import MISSING_TEXT, node_column_values
+from ..contrast import contrast_columns
 from ..data import PointCloud
 from ..graph import LensGraph, auto_layout, graph_layout, read_graph_json
 
@@ -291,13 +292,12 @@ def _round(values, digits=6):
     return out
 
 
-def _columns_part(graph, cloud, units):
+def _columns_part(graph, cloud):
     out = []
-    for name in cloud.feature_names:
+    for name in cloud.feature_names:  # node_column_values reads the table's own units
         mean, _ = node_column_values(graph, cloud, name, "mean")
-        c, s = units.get(name, (0.0, 1.0))
         out.append({"name": name, "role": "feature", "type": "numeric",
-                    "mean": _round(c + s * mean)})
+                    "mean": _round(mean)})
     for name in (str(k) for k in cloud.passthrough):
         if name == cloud.id_name:
             continue
@@ -498,7 +498,7 @@ def report_data(graph, data=None, *, screen=None, title=None, top=6, alpha=0.05,
     scaling = None
     if cloud is not None:
         units, scaling = _units(cloud)
-        columns = _columns_part(graph, cloud, units)
+        columns = _columns_part(graph, cloud)
         per_node, per_feature, contrast_params = _contrasts(
             graph, cloud, features, units, top, alpha, contrast_rows, random_state)
         for f in features:
