@@ -209,3 +209,13 @@ def test_laplacian_solver_settings_reach_the_cli():
     assert default.names == ["laplacian_1"]
     with pytest.raises(ParameterError, match="'tol' parameter of laplacian"):
         compute_lenses(ws, ["laplacian:tol=2"])
+
+
+def test_lenses_command_shows_declared_types():
+    from click.testing import CliRunner
+
+    from lenswork.cli import cli
+
+    out = CliRunner().invoke(cli, ["lenses", "--name", "laplacian"]).output
+    assert "tol=0.001, max_iter=200" in out
+    assert "- tol (float in (0, 1)): stop when each residual" in out
