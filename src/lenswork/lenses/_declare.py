@@ -81,10 +81,6 @@ class LensDecl:
     params: tuple
     family: str = ""
 
-    def param(self, name):
-        """The declared Param called ``name``."""
-        return next(p for p in self.params if p.name == name)
-
     def defaults(self):
         """Every declared default, as a dict (function and transformer parameters)."""
         return {p.name: p.default for p in self.params}
