@@ -39,7 +39,8 @@ def list_lenses(only):
         click.echo(f"    cost: {spec.cost}")
         if only:
             for p in spec.params:
-                click.echo(textwrap.fill(f"{p.name}: {p.doc}", 96, initial_indent="    - ",
+                kind = f" ({p.type})" if p.type else ""
+                click.echo(textwrap.fill(f"{p.name}{kind}: {p.doc}", 96, initial_indent="    - ",
                                          subsequent_indent="      "))
 
 

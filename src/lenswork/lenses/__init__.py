@@ -13,7 +13,10 @@ module             lenses
 ``_column``        ``column`` (any data column); :func:`user_lens` for callables
 =================  ====================================================
 
-``_registry`` holds the one mapping (validation, dispatch, listing), ``_table``
+Each lens is declared once, as a :class:`LensDecl` in its family module
+(``_declare``): the function's defaults and checks, the transformer's
+parameters, the registry entry and both docstrings' parameter lists follow
+from it. ``_registry`` holds the one mapping (validation, dispatch, listing), ``_table``
 the :class:`LensColumn` / :class:`LensTable` objects the registry builds, and
 ``_common`` the helpers the families share. The Laplacian lens keeps its edge
 weights in ``_affinity`` and its Nystrom extension and sample mode in
@@ -24,7 +27,7 @@ Public surface
 --------------
 Registry
     compute_lenses, get_lens, lens_names, lens_request, parse_lens, register_lens,
-    user_lens, LensPart, LensSpec, Param
+    user_lens, LensDecl, LensPart, LensSpec, Param
 Lens columns
     LensColumn, LensTable, FORMATS (lens-file formats), ENDINGS (file ending -> format),
     LENS_FILE_CHECKS (what LensTable.read does with a mismatch)
@@ -38,6 +41,7 @@ Lens functions and transformers
 from __future__ import annotations
 
 from ._column import data_column, user_lens
+from ._declare import LensDecl
 from ._density import GaussianDensity, gaussian_density, scott_bandwidth, silverman_bandwidth
 from ._dtm import DistanceToMeasure, KNNDistance, distance_to_measure, knn_distance
 from ._eccentricity import Eccentricity, eccentricity, geodesic_eccentricity
@@ -65,6 +69,7 @@ __all__ = [
     "LaplacianLens",
     "LENS_FILE_CHECKS",
     "LensColumn",
+    "LensDecl",
     "LensPart",
     "LensSpec",
     "LensTable",

@@ -27,6 +27,7 @@ import numpy as np
 
 from .._errors import InputError, LensworkError, ParameterError
 from .._validation import check_bool, check_float, check_int
+from ._declare import LensDecl
 from ._registry import LensPart, Param, register_lens
 
 __all__ = ["data_column", "user_lens"]
@@ -104,15 +105,28 @@ def _check_name(name, value, *, context=""):
     return value.strip()
 
 
+#: The one declaration of the lens: function, registry, CLI and docs follow.
+COLUMN = LensDecl(
+    "column",
+    summary="A data column: any feature or numeric passthrough column, as it is",
+    cost="O(n)",
+    params=(
+        Param("name", None, _check_name,
+              "the column to use: a feature or a numeric passthrough column (required)",
+              tag=False, type="str",
+              more="A feature column holds its values after any scaling on intake."),
+    ),
+)
+
+
+@COLUMN.function
 def data_column(cloud, name):
     """The values of one numeric column of a point cloud, as a lens.
 
     Parameters
     ----------
     cloud : PointCloud
-    name : str
-        A feature column (its values after any scaling on intake) or a
-        numeric passthrough column.
+    {lens_params}
 
     Returns
     -------
@@ -140,7 +154,6 @@ def data_column(cloud, name):
     >>> data_column(cloud, "x1").tolist(), data_column(cloud, "hour").tolist()
     ([1.0, 3.0, 5.0], [7.0, 8.0, 9.0])
     """
-    name = _check_name("name", name, context="data_column")
     if name is None:
         raise ParameterError(
             "The 'name' parameter of data_column must be a column name (a non-empty str). "
@@ -149,19 +162,7 @@ def data_column(cloud, name):
     return _column_values(cloud, name, "data_column")[0]
 
 
-@register_lens(
-    "column",
-    summary="A data column: any feature or numeric passthrough column, as it is",
-    cost="O(n)",
-    params=[
-        Param(
-            "name", None, _check_name,
-            "the column to use: a feature or a numeric passthrough column (required)",
-            tag=False,
-        )
-    ],
-    family="column",
-)
+@COLUMN.register
 def _column_lens(ws, *, name):
     cloud = ws.cloud
     if name is None:

@@ -44,7 +44,8 @@ from ._common import (
     sample_rows,
     zero_self,
 )
-from ._registry import LensPart, Param, register_lens
+from ._declare import LensDecl, keep
+from ._registry import LensPart, Param
 
 __all__ = [
     "GaussianDensity", "gaussian_density", "kernel_cholesky", "scott_bandwidth",
@@ -505,18 +506,44 @@ def _check_bandwidth(name, value, *, context=""):
     return value
 
 
-def _check_params(bandwidth, log, mode, precision, reference_size, context):
-    bandwidth = _check_bandwidth("bandwidth", bandwidth, context=context)
-    log = check_bool("log", log, context=context)
-    mode = check_choice("mode", mode, MODES, context=context)
-    precision = check_choice("precision", precision, PRECISIONS, context=context)
-    reference_size = check_int("reference_size", reference_size, lo=2, context=context)
-    return bandwidth, log, mode, precision, reference_size
+#: The one declaration of the lens: function, transformer, registry, CLI and docs follow.
+DENSITY = LensDecl(
+    "density",
+    summary="Gaussian kernel density (log by default)",
+    cost="exact O(n^2 d) up to 50,000 rows; scalable O(n m d), m = 20,000",
+    params=(
+        Param("bandwidth", "scott", _check_bandwidth,
+              "kernel width: a number h (isotropic), 'scott', 'silverman' or 'cv'",
+              type='float or {"scott", "silverman", "cv"}',
+              more="``\"scott\"``: full covariance ``cov(X) n^(-2/(d+4))`` (as\n"
+                   "``scipy.stats.gaussian_kde``); ``\"silverman\"``: diagonal, see\n"
+                   ":func:`silverman_bandwidth`; ``\"cv\"``: the multiplier of Scott's\n"
+                   "bandwidth (1/8 to 8, 25 steps) that maximises the leave-one-out\n"
+                   "log-likelihood on a random subsample of ``s = min(n, 2000)`` rows (with\n"
+                   "Scott's covariance for s rows), then applied to Scott's covariance for\n"
+                   "all n rows; a warning when it lands on the edge of the grid; a float\n"
+                   "``h``: isotropic kernel ``h^2 I``."),
+        Param("log", True, check_bool, "log-density (true) or density (false)", type="bool",
+              more="The density spans many orders of magnitude."),
+        Param("mode", "auto", partial(check_choice, choices=MODES),
+              "exact sum, subsample estimate with standard error, or auto by size",
+              type='{"auto", "exact", "scalable"}',
+              more='``"auto"`` is exact up to 50,000 rows, scalable above.'),
+        Param("precision", "float64", partial(check_choice, choices=PRECISIONS),
+              "tile arithmetic; float32 is about twice as fast",
+              type='{"float64", "float32"}',
+              more="Relative error about 1e-5 (sums are accumulated in float64)."),
+        Param("reference_size", REFERENCE_SIZE, partial(check_int, lo=2),
+              "subsample size of the scalable mode", type="int >= 2"),
+        Param("random_state", 0, keep, 'seeds the subsamples (scalable mode, "cv")',
+              type="int, numpy Generator or None", lens=False),
+    ),
+)
 
 
+@DENSITY.function
 def gaussian_density(
-    X, *, bandwidth="scott", log=True, mode="auto", precision="float64",
-    reference_size=REFERENCE_SIZE, random_state=0, return_info=False,
+    X, *, bandwidth, log, mode, precision, reference_size, random_state, return_info=False,
 ):
     """Gaussian kernel density of the sample at each of its own points.
 
@@ -524,26 +551,7 @@ def gaussian_density(
     ----------
     X : array-like of shape (n_samples, n_features)
         A 1-D array is read as one feature.
-    bandwidth : float or {"scott", "silverman", "cv"}, default="scott"
-        ``"scott"``: full covariance ``cov(X) n^(-2/(d+4))`` (as
-        ``scipy.stats.gaussian_kde``); ``"silverman"``: diagonal, see
-        :func:`silverman_bandwidth`; ``"cv"``: the multiplier of Scott's
-        bandwidth (1/8 to 8, 25 steps) that maximises the leave-one-out
-        log-likelihood on a random subsample of ``s = min(n, 2000)`` rows (with
-        Scott's covariance for s rows), then applied to Scott's covariance for
-        all n rows; a warning when it lands on the edge of the grid; a float
-        ``h``: isotropic kernel ``h^2 I``.
-    log : bool, default=True
-        Return ``log f``; the density spans many orders of magnitude.
-    mode : {"auto", "exact", "scalable"}, default="auto"
-        ``"auto"`` is exact up to 50,000 rows, scalable above.
-    precision : {"float64", "float32"}, default="float64"
-        Tile arithmetic; float32 is about twice as fast, relative error about
-        1e-5 (sums are accumulated in float64).
-    reference_size : int, default=20000
-        Subsample size of the scalable mode.
-    random_state : int, numpy Generator or None, default=0
-        Seeds the subsamples (scalable mode, "cv").
+    {lens_params}
     return_info : bool, default=False
         Also return a dict: mode, bandwidth rule and factor, kernel sd per
         feature, error estimate, ``self_share_median``; in scalable mode also
@@ -596,9 +604,6 @@ def gaussian_density(
     >>> logf.shape, bool(np.allclose(logf, gaussian_kde(X.T).logpdf(X.T)))
     ((500,), True)
     """
-    bandwidth, log, mode, precision, reference_size = _check_params(
-        bandwidth, log, mode, precision, reference_size, "gaussian_density"
-    )
     X = check_array(X, "gaussian_density", min_rows=2)
     rng = check_random_state(random_state)
     kernel = _Kernel(X, bandwidth, rng)
@@ -628,18 +633,13 @@ def _refuse_constant(values, info):
         )
 
 
+@DENSITY.estimator
 class GaussianDensity(LensOutputMixin, TransformerMixin, BaseEstimator):
     """Gaussian kernel density as a transformer (one output column).
 
     Parameters
     ----------
-    bandwidth : float or {"scott", "silverman", "cv"}, default="scott"
-    log : bool, default=True
-    mode : {"auto", "exact", "scalable"}, default="auto"
-    precision : {"float64", "float32"}, default="float64"
-    reference_size : int, default=20000
-    random_state : int or None, default=0
-        See :func:`gaussian_density`.
+    {lens_params}
 
     Attributes
     ----------
@@ -670,26 +670,12 @@ class GaussianDensity(LensOutputMixin, TransformerMixin, BaseEstimator):
     True
     """
 
-    def __init__(
-        self, *, bandwidth="scott", log=True, mode="auto", precision="float64",
-        reference_size=REFERENCE_SIZE, random_state=0,
-    ):
-        self.bandwidth = bandwidth
-        self.log = log
-        self.mode = mode
-        self.precision = precision
-        self.reference_size = reference_size
-        self.random_state = random_state
-
     def _params(self):
-        return _check_params(
-            self.bandwidth, self.log, self.mode, self.precision, self.reference_size,
-            "GaussianDensity",
-        )
+        return DENSITY.check(self.get_params(), "GaussianDensity")
 
     def fit(self, X, y=None):
         """Choose the kernel for ``X`` and keep ``X`` as the reference sample."""
-        bandwidth, *_ = self._params()
+        bandwidth = self._params()["bandwidth"]
         X = check_input(self, X, reset=True, min_rows=2, why="a kernel covariance")
         self._kernel = _Kernel(X, bandwidth, check_random_state(self.random_state))
         self.covariance_ = self._kernel.H
@@ -697,10 +683,11 @@ class GaussianDensity(LensOutputMixin, TransformerMixin, BaseEstimator):
         return self
 
     def _run(self, Q, self_query):
-        _, log, mode, precision, reference_size = self._params()
+        p = self._params()
         values, info, _ = _evaluate(
-            self._kernel, Q, self_query=self_query, log=log, mode=mode, precision=precision,
-            reference_size=reference_size, rng=check_random_state(self.random_state),
+            self._kernel, Q, self_query=self_query, log=p["log"], mode=p["mode"],
+            precision=p["precision"], reference_size=p["reference_size"],
+            rng=check_random_state(self.random_state),
         )
         return values[:, None], info
 
@@ -718,28 +705,12 @@ class GaussianDensity(LensOutputMixin, TransformerMixin, BaseEstimator):
         return values
 
 
-@register_lens(
-    "density",
-    summary="Gaussian kernel density (log by default)",
-    cost="exact O(n^2 d) up to 50,000 rows; scalable O(n m d), m = 20,000",
-    family="density",
-    params=[
-        Param(
-            "bandwidth", "scott",
-            _check_bandwidth,
-            "kernel width: a number h (isotropic), 'scott', 'silverman' or 'cv'",
-        ),
-        Param("log", True, check_bool, "log-density (true) or density (false)"),
-        Param("mode", "auto", partial(check_choice, choices=MODES),
-              "exact sum, subsample estimate with standard error, or auto by size"),
-        Param("precision", "float64", partial(check_choice, choices=PRECISIONS),
-              "tile arithmetic; float32 is about twice as fast"),
-    ],
-)
-def _density_lens(ws, *, bandwidth, log, mode, precision):
+@DENSITY.register
+def _density_lens(ws, *, bandwidth, log, mode, precision, reference_size):
     ws.require_rows(2, "The density lens")
     values, info = gaussian_density(
         ws.X, bandwidth=bandwidth, log=log, mode=mode, precision=precision,
+        reference_size=reference_size,
         random_state=ws.random_state, return_info=True,
     )
     info.pop("rel_se", None)  # per-point array: the summary figures stay in info

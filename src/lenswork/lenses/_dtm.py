@@ -31,7 +31,8 @@ from .._errors import InputError, ParameterError, warn_caller
 from .._validation import check_array, check_float, check_int
 from ..workspace import NeighborGraph, neighbor_graph
 from ._common import LensOutputMixin, check_input
-from ._registry import LensPart, Param, register_lens
+from ._declare import LensDecl, keep
+from ._registry import LensPart, Param
 
 __all__ = ["DistanceToMeasure", "KNNDistance", "distance_to_measure", "knn_distance"]
 
@@ -97,31 +98,40 @@ def _check_graph(graph, n, needed, context):
     return graph.distances
 
 
-def _check_mass(mass, context):
-    return check_float("mass", mass, lo=0.0, hi=1.0, lo_open=True, context=context)
+_SEED = Param("random_state", 0, keep,
+               "seed of the approximate neighbour search (large, high-dimensional data)",
+               type="int or None", lens=False)
 
-
-def _check_max_k(max_k, context):
-    return check_int("max_k", max_k, lo=1, context=context)
+#: The one declaration of the lens: function, transformer, registry, CLI and docs follow.
+DTM = LensDecl(
+    "dtm",
+    summary="Distance to a measure: root mean squared distance to the nearest share of points",
+    cost="O(n k), k = ceil(mass n) <= shared graph k + 1 (31 by default), once the graph exists",
+    params=(
+        Param("mass", 0.01, partial(check_float, lo=0.0, hi=1.0, lo_open=True),
+              "share of the points in the local average, in (0, 1]; k = ceil(mass n), capped at "
+              "the shared neighbour graph's k + 1", type="float in (0, 1]",
+              more="The point itself counts among the k nearest points. The function and\n"
+                   "the transformer cap k at ``max_k``."),
+        Param("max_k", MAX_K, partial(check_int, lo=1),
+              "cap on k (warns when it applies; see Notes)", type="int >= 1", lens=False),
+        _SEED,
+    ),
+)
 
 
 # ---------------------------------------------------------------- distance to a measure
-def distance_to_measure(X, *, mass=0.01, graph=None, max_k=MAX_K, random_state=0):
+@DTM.function
+def distance_to_measure(X, *, mass, max_k, random_state, graph=None):
     """Distance to the empirical measure of ``X``, at every row of ``X``.
 
     Parameters
     ----------
     X : array-like of shape (n_samples, n_features)
-    mass : float in (0, 1], default=0.01
-        Share m of the points averaged over: k = ceil(m n) nearest points,
-        the point itself included.
+    {lens_params}
     graph : NeighborGraph, optional
         A precomputed neighbour graph of ``X`` (self excluded) with at least
         k - 1 neighbours; built with :func:`lenswork.neighbor_graph` when omitted.
-    max_k : int, default=100
-        Cap on k (warns when it applies; see Notes).
-    random_state : int, default=0
-        Seed of the approximate neighbour search (large, high-dimensional data).
 
     Returns
     -------
@@ -164,8 +174,6 @@ def distance_to_measure(X, *, mass=0.01, graph=None, max_k=MAX_K, random_state=0
     """
     context = "distance_to_measure"
     X = check_array(X, context)
-    mass = _check_mass(mass, context)
-    max_k = _check_max_k(max_k, context)
     n = X.shape[0]
     k, wanted = _dtm_k(mass, n, max_k)
     _dtm_messages(mass, n, k, wanted, context, _warn)
@@ -178,16 +186,13 @@ def distance_to_measure(X, *, mass=0.01, graph=None, max_k=MAX_K, random_state=0
     return _dtm_from_distances(distances, k)
 
 
+@DTM.estimator
 class DistanceToMeasure(LensOutputMixin, TransformerMixin, BaseEstimator):
     """Distance to the empirical measure of the fitted rows, as a transformer.
 
     Parameters
     ----------
-    mass : float in (0, 1], default=0.01
-        Share of the fitted points averaged over: k = ceil(mass n), capped at ``max_k``.
-    max_k : int, default=100
-    random_state : int, default=0
-        Seed of the approximate neighbour search in ``fit_transform`` (large data).
+    {lens_params}
 
     Attributes
     ----------
@@ -224,18 +229,13 @@ class DistanceToMeasure(LensOutputMixin, TransformerMixin, BaseEstimator):
     [[49.6667]]
     """
 
-    def __init__(self, *, mass=0.01, max_k=MAX_K, random_state=0):
-        self.mass = mass
-        self.max_k = max_k
-        self.random_state = random_state
-
     def fit(self, X, y=None):
         """Remember the rows whose measure the DTM is taken of; returns self."""
         from sklearn.neighbors import NearestNeighbors
 
         context = type(self).__name__
-        mass = _check_mass(self.mass, context)
-        max_k = _check_max_k(self.max_k, context)
+        params = DTM.check(self.get_params(), context)
+        mass, max_k = params["mass"], params["max_k"]
         X = check_input(self, X, reset=True)
         n = X.shape[0]
         self.k_, wanted = _dtm_k(mass, n, max_k)
@@ -264,19 +264,7 @@ class DistanceToMeasure(LensOutputMixin, TransformerMixin, BaseEstimator):
         return np.sqrt(np.einsum("ij,ij->i", dist, dist) / self.k_)[:, None]
 
 
-@register_lens(
-    "dtm",
-    summary="Distance to a measure: root mean squared distance to the nearest share of points",
-    cost="O(n k), k = ceil(mass n) <= shared graph k + 1 (31 by default), once the graph exists",
-    params=[
-        Param(
-            "mass", 0.01, partial(check_float, lo=0.0, hi=1.0, lo_open=True),
-            "share of the points in the local average, in (0, 1]; k = ceil(mass n), capped at "
-            "the shared neighbour graph's k + 1",
-        )
-    ],
-    family="dtm",
-)
+@DTM.register
 def _dtm_lens(ws, *, mass):
     # The lens reads the workspace's one shared graph: k - 1 other points may not exceed
     # the neighbours that graph holds (Workspace.shared_k; min_neighbors = 30 gives k <= 31),
@@ -329,19 +317,31 @@ def _check_k(k, n, context):
     return k
 
 
-def knn_distance(X, *, k=10, graph=None, random_state=0):
+#: The one declaration of the lens: function, transformer, registry, CLI and docs follow.
+KNN_DISTANCE = LensDecl(
+    "knn_distance",
+    summary="k-NN distance: distance from each row to its k-th nearest other row",
+    cost="O(n) once the neighbour graph exists",
+    family="dtm",
+    params=(
+        Param("k", 10, partial(check_int, lo=1), "which neighbour (self excluded)",
+              type="int >= 1", more="Needs n_samples >= k + 1."),
+        _SEED,
+    ),
+)
+
+
+@KNN_DISTANCE.function
+def knn_distance(X, *, k, random_state, graph=None):
     """Distance from each row of ``X`` to its k-th nearest other row.
 
     Parameters
     ----------
     X : array-like of shape (n_samples, n_features)
-    k : int, default=10
-        Which neighbour (self excluded); needs n_samples >= k + 1.
+    {lens_params}
     graph : NeighborGraph, optional
         A precomputed neighbour graph of ``X`` with at least k neighbours;
         built with :func:`lenswork.neighbor_graph` when omitted.
-    random_state : int, default=0
-        Seed of the approximate neighbour search (large, high-dimensional data).
 
     Returns
     -------
@@ -388,14 +388,13 @@ def knn_distance(X, *, k=10, graph=None, random_state=0):
     return np.ascontiguousarray(distances[:, k - 1])
 
 
+@KNN_DISTANCE.estimator
 class KNNDistance(LensOutputMixin, TransformerMixin, BaseEstimator):
     """Distance to the k-th nearest fitted row, as a transformer.
 
     Parameters
     ----------
-    k : int, default=10
-    random_state : int, default=0
-        Seed of the approximate neighbour search in ``fit_transform`` (large data).
+    {lens_params}
 
     Attributes
     ----------
@@ -433,16 +432,12 @@ class KNNDistance(LensOutputMixin, TransformerMixin, BaseEstimator):
     ([3.0, 2.0, 3.0, 6.0], [1.0, 3.0])
     """
 
-    def __init__(self, *, k=10, random_state=0):
-        self.k = k
-        self.random_state = random_state
-
     def fit(self, X, y=None):
         """Remember the rows; returns self."""
         from sklearn.neighbors import NearestNeighbors
 
         context = type(self).__name__
-        k = check_int("k", self.k, lo=1, context=context)
+        k = KNN_DISTANCE.check(self.get_params(), context)["k"]
         why = f"each row's k-th neighbour other than itself, k={k}"
         X = check_input(self, X, reset=True, min_rows=k + 1, why=why)
         self.k_ = k
@@ -474,13 +469,7 @@ class KNNDistance(LensOutputMixin, TransformerMixin, BaseEstimator):
         return np.where(on_sample, dist[:, k], dist[:, k - 1])[:, None]
 
 
-@register_lens(
-    "knn_distance",
-    summary="k-NN distance: distance from each row to its k-th nearest other row",
-    cost="O(n) once the neighbour graph exists",
-    params=[Param("k", 10, partial(check_int, lo=1), "which neighbour (self excluded)")],
-    family="dtm",
-)
+@KNN_DISTANCE.register
 def _knn_distance_lens(ws, *, k):
     ws.require_rows(k + 1, f"knn_distance with k={k}")
     g = ws.neighbors(k, mass=True)  # the k-th other row, copies included

@@ -37,7 +37,8 @@ from ._common import (
     sample_rows,
     zero_self,
 )
-from ._registry import LensPart, Param, register_lens
+from ._declare import LensDecl, keep
+from ._registry import LensPart, Param
 
 __all__ = ["Eccentricity", "eccentricity", "geodesic_eccentricity"]
 
@@ -59,8 +60,11 @@ GEODESIC_BUDGET = 10_000_000
 _DIJKSTRA_BATCH = 16
 
 
-def _check_p(p, context):
-    p = check_float_or_choice("p", p, ("inf",), lo=1.0, lo_open=False, context=context)
+_P_CHECK = partial(check_float_or_choice, choices=("inf",), lo=1.0, lo_open=False)
+_P_DOC = "order of the mean (>= 1) or 'inf' for the largest distance"
+
+
+def _p_value(p):
     return math.inf if p == "inf" else float(p)
 
 
@@ -235,31 +239,37 @@ def _returned(values, info, err, p, return_info):
     return values, info
 
 
-def _check_params(p, mode, landmarks, context):
-    p = _check_p(p, context)
-    mode = check_choice("mode", mode, MODES, context=context)
-    landmarks = check_int("landmarks", landmarks, lo=2, context=context)
-    return p, mode, landmarks
+#: The one declaration of the lens: function, transformer, registry, CLI and docs follow.
+ECCENTRICITY = LensDecl(
+    "eccentricity",
+    summary="Mean Euclidean distance to all points (order p)",
+    cost="p=2: O(n d); else exact O(n^2 d) up to 40,000 rows, landmarks O(n m d)",
+    params=(
+        Param("p", 2.0, _P_CHECK, _P_DOC, type='float >= 1 or "inf"',
+              more='``"inf"`` (or ``np.inf``) gives the largest distance.'),
+        Param("mode", "auto", partial(check_choice, choices=MODES),
+              "exact pairs, landmark estimate, or auto by size (p=2: closed form)",
+              type='{"auto", "exact", "landmark"}',
+              more="For p != 2: all pairs, or the mean over ``landmarks`` random rows;\n"
+                   '``"auto"`` is exact up to 40,000 rows. p = 2 always uses the exact\n'
+                   'closed form (``info["mode"] == "closed_form"``).'),
+        Param("landmarks", LANDMARKS, partial(check_int, lo=2),
+              "landmark sample size of the estimate", type="int >= 2"),
+        Param("random_state", 0, keep, "seeds the landmark choice",
+              type="int, numpy Generator or None", lens=False),
+    ),
+)
 
 
-def eccentricity(X, *, p=2.0, mode="auto", landmarks=LANDMARKS, random_state=0,
-                 return_info=False):
+@ECCENTRICITY.function
+def eccentricity(X, *, p, mode, landmarks, random_state, return_info=False):
     """Euclidean eccentricity ``(mean_y ||x - y||^p)^(1/p)`` of every row.
 
     Parameters
     ----------
     X : array-like of shape (n_samples, n_features)
         A 1-D array is read as one feature.
-    p : float >= 1 or "inf", default=2.0
-        Order of the mean; ``"inf"`` (or ``np.inf``) gives the largest distance.
-    mode : {"auto", "exact", "landmark"}, default="auto"
-        For p != 2: all pairs, or the mean over ``landmarks`` random rows;
-        ``"auto"`` is exact up to 40,000 rows. p = 2 always uses the exact
-        closed form (``info["mode"] == "closed_form"``).
-    landmarks : int, default=1000
-        Landmark sample size.
-    random_state : int, numpy Generator or None, default=0
-        Seeds the landmark choice.
+    {lens_params}
     return_info : bool, default=False
         Also return a dict (mode, error estimate) and, under ``"error"``... see Notes.
 
@@ -312,23 +322,20 @@ def eccentricity(X, *, p=2.0, mode="auto", landmarks=LANDMARKS, random_state=0,
     >>> eccentricity(X, p="inf").tolist()
     [2.0, 2.0]
     """
-    p, mode, landmarks = _check_params(p, mode, landmarks, "eccentricity")
     X = check_array(X, "eccentricity")
     rng = check_random_state(random_state)
+    p = _p_value(p)
     values, info, err = _eccentricity(X, None, p=p, mode=mode, landmarks=landmarks, rng=rng)
     return _returned(values, info, err, p, return_info)
 
 
+@ECCENTRICITY.estimator
 class Eccentricity(LensOutputMixin, TransformerMixin, BaseEstimator):
     """Euclidean eccentricity as a transformer (one output column).
 
     Parameters
     ----------
-    p : float >= 1 or "inf", default=2.0
-    mode : {"auto", "exact", "landmark"}, default="auto"
-    landmarks : int, default=1000
-    random_state : int or None, default=0
-        See :func:`eccentricity`.
+    {lens_params}
 
     Attributes
     ----------
@@ -355,23 +362,18 @@ class Eccentricity(LensOutputMixin, TransformerMixin, BaseEstimator):
     True
     """
 
-    def __init__(self, *, p=2.0, mode="auto", landmarks=LANDMARKS, random_state=0):
-        self.p = p
-        self.mode = mode
-        self.landmarks = landmarks
-        self.random_state = random_state
-
     def fit(self, X, y=None):
         """Keep ``X`` as the reference rows."""
-        _check_params(self.p, self.mode, self.landmarks, "Eccentricity")
+        ECCENTRICITY.check(self.get_params(), "Eccentricity")
         self._X = check_input(self, X, reset=True)
         self.info_ = {}
         return self
 
     def _run(self, Q):
-        p, mode, landmarks = _check_params(self.p, self.mode, self.landmarks, "Eccentricity")
+        params = ECCENTRICITY.check(self.get_params(), "Eccentricity")
         values, info, _ = _eccentricity(
-            self._X, Q, p=p, mode=mode, landmarks=landmarks,
+            self._X, Q, p=_p_value(params["p"]), mode=params["mode"],
+            landmarks=params["landmarks"],
             rng=check_random_state(self.random_state),
         )
         return values[:, None], info
@@ -523,25 +525,39 @@ def _auto_landmarks(landmarks, n):
     return m, rule
 
 
-def geodesic_eccentricity(X, *, p=2.0, k=15, landmarks="auto", neighbors=None,
-                          random_state=0, return_info=False):
+#: The one declaration of the lens: function, registry, CLI and docs follow.
+GEODESIC_ECCENTRICITY = LensDecl(
+    "geodesic_eccentricity",
+    summary="Mean shortest-path distance on the neighbour graph (order p)",
+    cost="O(m n k log n) for m landmarks, once the neighbour graph exists",
+    family="eccentricity",
+    params=(
+        Param("p", 2.0, _P_CHECK, _P_DOC, type='float >= 1 or "inf"'),
+        Param("k", 15, partial(check_int, lo=1), "neighbours per point of the graph",
+              type="int >= 1", more="Ignored when ``neighbors`` is given."),
+        Param("landmarks", "auto", _check_landmarks,
+              "Dijkstra sources (all points when at least n); 'auto': all up to 200 rows, "
+              "else clip(round(1e7 / n), 32, 200)", type='int >= 1 or "auto"',
+              more="With ``landmarks >= n_samples`` the result is exact; the cost stays\n"
+                   "near 1e7 node visits (200 up to 5e4 rows, 100 at 1e5, 32 from about\n"
+                   "3e5 rows)."),
+        Param("random_state", 0, keep, "seeds the landmark choice",
+              type="int, numpy Generator or None", lens=False),
+    ),
+)
+
+
+@GEODESIC_ECCENTRICITY.function
+def geodesic_eccentricity(X, *, p, k, landmarks, random_state, neighbors=None,
+                          return_info=False):
     """Eccentricity in the shortest-path metric of the k-nearest-neighbour graph.
 
     Parameters
     ----------
     X : array-like of shape (n_samples, n_features)
-    p : float >= 1 or "inf", default=2.0
-    k : int, default=15
-        Neighbours per point of the graph (ignored when ``neighbors`` is given).
-    landmarks : int or "auto", default="auto"
-        Number of Dijkstra sources; with ``landmarks >= n_samples`` the result is
-        exact. ``"auto"`` follows n: every row up to 200 rows, else
-        ``clip(round(1e7 / n), 32, 200)`` (200 up to 5e4 rows, 100 at 1e5, 32
-        from about 3e5 rows), so the cost stays near 1e7 node visits.
+    {lens_params}
     neighbors : NeighborGraph, optional
         A precomputed graph on ``X`` (the lens passes the workspace's shared graph).
-    random_state : int, numpy Generator or None, default=0
-        Seeds the landmark choice.
     return_info : bool, default=False
         Also return a dict (mode, components, error); in landmark mode it holds
         ``"se"`` (p finite) or ``"gap"`` (p = inf), one value per point.
@@ -592,9 +608,7 @@ def geodesic_eccentricity(X, *, p=2.0, k=15, landmarks="auto", neighbors=None,
     """
     from ..workspace import NeighborGraph, neighbor_graph
 
-    p = _check_p(p, "geodesic_eccentricity")
-    k = check_int("k", k, lo=1, context="geodesic_eccentricity")
-    landmarks = _check_landmarks("landmarks", landmarks, context="geodesic_eccentricity")
+    p = _p_value(p)
     X = check_array(X, "geodesic_eccentricity")
     rng = check_random_state(random_state)
     if neighbors is None:
@@ -619,26 +633,7 @@ def geodesic_eccentricity(X, *, p=2.0, k=15, landmarks="auto", neighbors=None,
 # registry entries
 # ---------------------------------------------------------------------------
 
-_P_CHECK = partial(check_float_or_choice, choices=("inf",), lo=1.0, lo_open=False)
-
-
-def _p_value(p):
-    return math.inf if p == "inf" else float(p)
-
-
-@register_lens(
-    "eccentricity",
-    summary="Mean Euclidean distance to all points (order p)",
-    cost="p=2: O(n d); else exact O(n^2 d) up to 40,000 rows, landmarks O(n m d)",
-    family="eccentricity",
-    params=[
-        Param("p", 2.0, _P_CHECK, "order of the mean (>= 1) or 'inf' for the largest distance"),
-        Param("mode", "auto", partial(check_choice, choices=MODES),
-              "exact pairs, landmark estimate, or auto by size (p=2: closed form)"),
-        Param("landmarks", LANDMARKS, partial(check_int, lo=2),
-              "landmark sample size of the estimate"),
-    ],
-)
+@ECCENTRICITY.register
 def _eccentricity_lens(ws, *, p, mode, landmarks):
     values, info, _ = _eccentricity(
         ws.X, None, p=_p_value(p), mode=mode, landmarks=landmarks,
@@ -647,19 +642,7 @@ def _eccentricity_lens(ws, *, p, mode, landmarks):
     return [LensPart(values, "", info)]
 
 
-@register_lens(
-    "geodesic_eccentricity",
-    summary="Mean shortest-path distance on the neighbour graph (order p)",
-    cost="O(m n k log n) for m landmarks, once the neighbour graph exists",
-    family="eccentricity",
-    params=[
-        Param("p", 2.0, _P_CHECK, "order of the mean (>= 1) or 'inf' for the largest distance"),
-        Param("k", 15, partial(check_int, lo=1), "neighbours per point of the graph"),
-        Param("landmarks", "auto", _check_landmarks,
-              "Dijkstra sources (all points when at least n); 'auto': all up to 200 rows, "
-              "else clip(round(1e7 / n), 32, 200)"),
-    ],
-)
+@GEODESIC_ECCENTRICITY.register
 def _geodesic_eccentricity_lens(ws, *, p, k, landmarks):
     graph = ws.neighbors(k)
     m, rule = _auto_landmarks(landmarks, ws.n)

@@ -58,8 +58,9 @@ from ..linalg import component_eigenvalues, laplacian_eigs
 from ..workspace import neighbor_graph
 from ._affinity import WEIGHTS, knn_affinity
 from ._common import LensOutputMixin, check_input
+from ._declare import LensDecl, keep
 from ._nystrom import extend_by_component, sample_fit
-from ._registry import LensPart, Param, register_lens
+from ._registry import LensPart, Param
 
 __all__ = ["LaplacianLens", "laplacian_eigenmaps"]
 
@@ -85,15 +86,44 @@ def _embed(graph, m, weights, rng, tol, max_iter, warn=_warn):
     return coords, info, W
 
 
-def _check_params(components, k, weights, tol, max_iter, mode, landmarks, context):
-    components = check_int("components", components, lo=1, context=context)
-    k = check_int("k", k, lo=1, context=context)
-    weights = check_choice("weights", weights, WEIGHTS, context=context)
-    tol = check_float("tol", tol, lo=0, hi=1, lo_open=True, hi_open=True, context=context)
-    max_iter = check_int("max_iter", max_iter, lo=1, context=context)
-    mode = check_choice("mode", mode, MODES, context=context)
-    landmarks = check_int("landmarks", landmarks, lo=MIN_LANDMARKS, context=context)
-    return components, k, weights, tol, max_iter, mode, landmarks
+#: The one declaration of the lens: function, transformer, registry, CLI and docs follow.
+LAPLACIAN = LensDecl(
+    "laplacian",
+    summary="Laplacian eigenmaps: first non-trivial eigenvectors of the normalised k-NN "
+    "graph Laplacian",
+    cost="exact: O(n k) per LOBPCG iteration (about 10-30) once the neighbour graph exists; "
+    "sample (auto above 200,000 rows): a solve on 20,000 landmarks, then an O(k) Nystrom "
+    "extension per row",
+    params=(
+        Param("components", 2, partial(check_int, lo=1),
+              "number of eigenvectors (columns laplacian_1, ...; laplacian_j does not depend on "
+              "it, so it is not part of the column name)", tag=False, type="int >= 1"),
+        Param("k", 15, partial(check_int, lo=1), "neighbours per point in the graph",
+              type="int >= 1",
+              more="The k-NN graph is built with :func:`lenswork.neighbor_graph`, exact or\n"
+                   "approximate by size."),
+        Param("weights", "heat", partial(check_choice, choices=WEIGHTS),
+              "edge weights: heat (one global sigma) or self_tuning (local sigma_i)",
+              type='{"heat", "self_tuning"}'),
+        Param("tol", 1e-3, partial(check_float, lo=0, hi=1, lo_open=True, hi_open=True),
+              "stop when each residual ||S u - mu u|| is at most tol times its eigenvalue "
+              "lambda = 1 - mu", type="float in (0, 1)"),
+        Param("max_iter", 200, partial(check_int, lo=1),
+              "LOBPCG iterations at most (a warning says when they ran out)", type="int >= 1"),
+        Param("mode", "auto", partial(check_choice, choices=MODES),
+              "exact (all rows), sample (landmarks + Nystrom extension, with its error "
+              "estimated), or auto by size", type='{"auto", "exact", "sample"}',
+              more='``"exact"`` solves on the graph of all rows; ``"sample"`` solves on\n'
+                   "``landmarks`` seeded rows and extends to the others by the Nystrom\n"
+                   'formula (Bengio et al. 2004); ``"auto"`` is exact up to 200,000 rows,\n'
+                   "sample above. With ``landmarks >= n_samples`` sample is exact."),
+        Param("landmarks", LANDMARKS, partial(check_int, lo=MIN_LANDMARKS),
+              "rows solved in sample mode", type=f"int >= {MIN_LANDMARKS}"),
+        Param("random_state", 0, keep,
+              "seed of the landmarks, of the aggregation and of the approximate neighbour graph",
+              type="int, Generator or None", lens=False),
+    ),
+)
 
 
 def _require_rows(n, components, k, context):
@@ -159,37 +189,17 @@ def _fit(X, components, k, weights, tol, max_iter, mode, landmarks, random_state
 
 
 # ------------------------------------------------------------------ public surface
+@LAPLACIAN.function
 def laplacian_eigenmaps(
-    X, components=2, *, k=15, weights="heat", tol=1e-3, max_iter=200, mode="auto",
-    landmarks=LANDMARKS, random_state=0, return_info=False,
+    X, components, *, k, weights, tol, max_iter, mode, landmarks, random_state,
+    return_info=False,
 ):
     """Laplacian-eigenmap coordinates of the rows of ``X``.
 
     Parameters
     ----------
     X : array-like of shape (n_samples, n_features)
-    components : int, default=2
-        Number m of non-trivial eigenvectors (output columns).
-    k : int, default=15
-        Neighbours per point in the k-NN graph (built with
-        :func:`lenswork.neighbor_graph`, exact or approximate by size).
-    weights : {"heat", "self_tuning"}, default="heat"
-        Edge weights; see the module notes.
-    tol : float in (0, 1), default=1e-3
-        Stop when each residual ``||S u - mu u||`` is at most ``tol`` times its
-        eigenvalue ``lambda = 1 - mu``.
-    max_iter : int, default=200
-        LOBPCG iterations at most (a warning says when they ran out).
-    mode : {"auto", "exact", "sample"}, default="auto"
-        ``"exact"`` solves on the graph of all rows; ``"sample"`` solves on
-        ``landmarks`` seeded rows and extends to the others by the Nystrom
-        formula (Bengio et al. 2004); ``"auto"`` is exact up to 200,000 rows,
-        sample above. With ``landmarks >= n_samples`` sample is exact.
-    landmarks : int, default=20000
-        Rows of the sample mode (at least 100).
-    random_state : int, default=0
-        Seed of the landmarks, of the aggregation and of the approximate
-        neighbour graph.
+    {lens_params}
     return_info : bool, default=False
         Also return a dict with ``eigenvalues`` (of ``I - S``), ``residuals``,
         ``iterations``, ``method``, ``levels``, ``sigma``, ``graph_components``,
@@ -265,28 +275,20 @@ def laplacian_eigenmaps(
     True
     """
     context = "laplacian_eigenmaps"
-    params = _check_params(components, k, weights, tol, max_iter, mode, landmarks, context)
     X = check_array(X, context)
-    coords, info, _ = _fit(X, *params, random_state, context)
+    coords, info, _ = _fit(
+        X, components, k, weights, tol, max_iter, mode, landmarks, random_state, context
+    )
     return (coords, info) if return_info else coords
 
 
+@LAPLACIAN.estimator
 class LaplacianLens(LensOutputMixin, TransformerMixin, BaseEstimator):
     """Laplacian eigenmaps as a scikit-learn transformer, with a Nystrom extension to new rows.
 
     Parameters
     ----------
-    components : int, default=2
-    k : int, default=15
-    weights : {"heat", "self_tuning"}, default="heat"
-    tol : float, default=1e-3
-    max_iter : int, default=200
-    mode : {"auto", "exact", "sample"}, default="auto"
-        Solve on all rows, or on ``landmarks`` seeded rows with the Nystrom
-        extension to the rest; ``"auto"``: exact up to 200,000 rows.
-    landmarks : int, default=20000
-    random_state : int, default=0
-        See :func:`laplacian_eigenmaps`.
+    {lens_params}
 
     Attributes
     ----------
@@ -358,34 +360,18 @@ class LaplacianLens(LensOutputMixin, TransformerMixin, BaseEstimator):
     [2.0, 2.0]
     """
 
-    def __init__(
-        self, *, components=2, k=15, weights="heat", tol=1e-3, max_iter=200, mode="auto",
-        landmarks=LANDMARKS, random_state=0,
-    ):
-        self.components = components
-        self.k = k
-        self.weights = weights
-        self.tol = tol
-        self.max_iter = max_iter
-        self.mode = mode
-        self.landmarks = landmarks
-        self.random_state = random_state
-
     def fit(self, X, y=None):
         """Compute the embedding of ``X``; returns self."""
         from sklearn.neighbors import NearestNeighbors
 
         context = type(self).__name__
-        params = _check_params(
-            self.components, self.k, self.weights, self.tol, self.max_iter, self.mode,
-            self.landmarks, context,
-        )
-        components, k = params[0], params[1]
+        params = LAPLACIAN.check(self.get_params(), context)
+        components, k = params["components"], params["k"]
         X = check_input(
             self, X, reset=True, min_rows=max(components + 2, k + 1),
             why=f"components + 2 and k + 1, with components={components}, k={k}",
         )
-        coords, info, state = _fit(X, *params, self.random_state, context)
+        coords, info, state = _fit(X, **params, context=context)
         self.embedding_ = coords
         self.eigenvalues_ = np.asarray(info["eigenvalues"])
         self.residuals_ = np.asarray(info["residuals"])
@@ -418,33 +404,10 @@ class LaplacianLens(LensOutputMixin, TransformerMixin, BaseEstimator):
         return self.fit(X).embedding_
 
 
-@register_lens(
-    "laplacian",
-    summary="Laplacian eigenmaps: first non-trivial eigenvectors of the normalised k-NN "
-    "graph Laplacian",
-    cost="exact: O(n k) per LOBPCG iteration (about 10-30) once the neighbour graph exists; "
-    "sample (auto above 200,000 rows): a solve on 20,000 landmarks, then an O(k) Nystrom "
-    "extension per row",
-    params=[
-        Param("components", 2, partial(check_int, lo=1),
-              "number of eigenvectors (columns laplacian_1, ...; laplacian_j does not depend on "
-              "it, so it is not part of the column name)", tag=False),
-        Param("k", 15, partial(check_int, lo=1), "neighbours per point in the graph"),
-        Param(
-            "weights", "heat", partial(check_choice, choices=WEIGHTS),
-            "edge weights: heat (one global sigma) or self_tuning (local sigma_i)",
-        ),
-        Param("mode", "auto", partial(check_choice, choices=MODES),
-              "exact (all rows), sample (landmarks + Nystrom extension, with its error "
-              "estimated), or auto by size"),
-        Param("landmarks", LANDMARKS, partial(check_int, lo=MIN_LANDMARKS),
-              "rows solved in sample mode"),
-    ],
-    family="laplacian",
-)
-def _laplacian_lens(ws, *, components, k, weights, mode, landmarks):
+@LAPLACIAN.register
+def _laplacian_lens(ws, *, components, k, weights, tol, max_iter, mode, landmarks):
     coords, info, _ = _fit(
-        ws.X, components, k, weights, 1e-3, 200, mode, landmarks, ws.random_state,
+        ws.X, components, k, weights, tol, max_iter, mode, landmarks, ws.random_state,
         "The laplacian lens", warn=ws.warn, graph_of=ws.neighbors,
     )
     parts = []

@@ -31,7 +31,8 @@ from sklearn.base import BaseEstimator, TransformerMixin
 from .._errors import InputError, ParameterError, warn_caller
 from .._validation import check_array, check_choice, check_int, seed_of
 from ._common import LensOutputMixin, check_input
-from ._registry import LensPart, Param, register_lens
+from ._declare import LensDecl, keep
+from ._registry import LensPart, Param
 
 __all__ = ["PCALens", "pca_coordinates"]
 
@@ -209,19 +210,34 @@ def _pca_scores(ws, m):
     return ws.cached(("pca_scores", m), compute)
 
 
-def pca_coordinates(X, *, components=2, solver="auto", random_state=0):
+#: The one declaration of the lens: function, transformer, registry, CLI and docs follow.
+PCA = LensDecl(
+    "pca",
+    summary="Principal coordinates: projections on the first principal axes",
+    cost="O(n d^2 + d^3) (covariance, d <= 500); O(n d m) per pass (randomized SVD, d > 500)",
+    params=(
+        Param("components", 2, partial(check_int, lo=1),
+              "number of principal coordinates (columns pca_1, pca_2, ...; pca_j does not "
+              "depend on it, so it is not part of the column name)", tag=False,
+              type="int >= 1", more="At most min(n_samples, n_features)."),
+        Param("solver", "auto", partial(check_choice, choices=SOLVERS),
+              "covariance eigendecomposition or randomized SVD; auto: covariance for "
+              "n_features <= 500", type='{"auto", "covariance", "randomized"}', lens=False),
+        Param("random_state", 0, keep,
+              "seed of the randomized SVD (unused by the covariance solver)",
+              type="int, Generator or None", lens=False),
+    ),
+)
+
+
+@PCA.function
+def pca_coordinates(X, *, components, solver, random_state):
     """The first principal coordinates of the rows of ``X``.
 
     Parameters
     ----------
     X : array-like of shape (n_samples, n_features)
-    components : int, default=2
-        Number of principal coordinates m, 1 <= m <= min(n_samples, n_features).
-    solver : {"auto", "covariance", "randomized"}, default="auto"
-        ``"auto"`` uses the covariance eigendecomposition for n_features <= 500
-        and the randomized SVD above.
-    random_state : int, default=0
-        Seed of the randomized SVD (unused by the covariance solver).
+    {lens_params}
 
     Returns
     -------
@@ -271,7 +287,6 @@ def pca_coordinates(X, *, components=2, solver="auto", random_state=0):
     n, d = X.shape
     _require_two_rows(n, context)
     m = _check_components(components, n, d, context)
-    solver = check_choice("solver", solver, SOLVERS, context=context)
     basis = _fit_basis(X, m, _choose_solver(solver, d), random_state)
     return _project(X, basis, m).T
 
@@ -284,17 +299,13 @@ def _require_two_rows(n, context):
         )
 
 
+@PCA.estimator
 class PCALens(LensOutputMixin, TransformerMixin, BaseEstimator):
     """Principal coordinates as a scikit-learn transformer.
 
     Parameters
     ----------
-    components : int, default=2
-        Number of principal coordinates m.
-    solver : {"auto", "covariance", "randomized"}, default="auto"
-        See :func:`pca_coordinates`.
-    random_state : int, default=0
-        Seed of the randomized SVD.
+    {lens_params}
 
     Attributes
     ----------
@@ -333,18 +344,14 @@ class PCALens(LensOutputMixin, TransformerMixin, BaseEstimator):
     True
     """
 
-    def __init__(self, *, components=2, solver="auto", random_state=0):
-        self.components = components
-        self.solver = solver
-        self.random_state = random_state
-
     def fit(self, X, y=None):
         """Compute the basis of ``X``; returns self."""
         context = type(self).__name__
+        params = PCA.check(self.get_params(), context)
         X = check_input(self, X, reset=True, min_rows=2, why="a covariance")
         n, d = X.shape
-        m = _check_components(self.components, n, d, context)
-        solver = _choose_solver(check_choice("solver", self.solver, SOLVERS, context=context), d)
+        m = _check_components(params["components"], n, d, context)
+        solver = _choose_solver(params["solver"], d)
         basis = _fit_basis(X, m, solver, self.random_state).first(m)
         self.mean_ = basis.mean
         self.components_ = basis.components
@@ -363,20 +370,7 @@ class PCALens(LensOutputMixin, TransformerMixin, BaseEstimator):
         return _project(X, self._basis, self.components_.shape[0]).T
 
 
-@register_lens(
-    "pca",
-    summary="Principal coordinates: projections on the first principal axes",
-    cost="O(n d^2 + d^3) (covariance, d <= 500); O(n d m) per pass (randomized SVD, d > 500)",
-    params=[
-        Param(
-            "components", 2, partial(check_int, lo=1),
-            "number of principal coordinates (columns pca_1, pca_2, ...; pca_j does not depend "
-            "on it, so it is not part of the column name)",
-            tag=False,
-        )
-    ],
-    family="pca",
-)
+@PCA.register
 def _pca_lens(ws, *, components):
     basis = _pca_basis(ws, components)
     scores = _pca_scores(ws, components)

@@ -53,7 +53,11 @@ class Param:
     """One lens parameter: name, default, checker ``check(name, value, *, context)``, doc.
 
     ``tag=False`` keeps the parameter out of the column name (for a parameter
-    the compute function already puts into the part label).
+    the compute function already puts into the part label). ``type`` is the
+    numpydoc type of the docstring entry (``"int >= 1"``), ``more`` further
+    docstring lines, and ``lens=False`` keeps a parameter of the function and
+    the transformer out of the registry and the CLI (``random_state``: the
+    workspace gives it); see :class:`~lenswork.lenses._declare.LensDecl`.
     """
 
     name: str
@@ -61,6 +65,9 @@ class Param:
     check: Callable
     doc: str
     tag: bool = True
+    type: str = ""
+    more: str = ""
+    lens: bool = True
 
     def clean(self, value, context):
         return self.check(self.name, value, context=context)
