@@ -72,6 +72,13 @@ def make_gallery(out, quick=False):
     written.append(target)
     _step("screen sheet", t)
 
+    t = time.perf_counter()  # the graph of the screen's own choice: the loop and both flares
+    pair = lw.build_graph(result.to_lens_table(), ws)
+    target = out / "graph_screen_pair.png"
+    pair.draw(target)
+    written.append(target)
+    _step("graph of the screen's pair", t)
+
     table = lw.compute_lenses(ws, ["laplacian", "pca:components=2", "density"])
     for name in GRAPH_LENSES:
         t = time.perf_counter()
