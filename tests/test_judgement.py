@@ -12,6 +12,7 @@ import warnings
 
 import numpy as np
 import pytest
+import scipy.sparse as sp
 from _judgement_data import (
     NOISE_COLUMN,
     build,
@@ -184,3 +185,51 @@ def test_circle_top_lens_shows_one_significant_loop_and_noise_ranks_last():
     # every selected lens follows the circle: smoothness well above a noise lens's 0
     for name in result.selected:
         assert result.scores["smoothness"][result.names.index(name)] > 0.5
+
+
+def test_heat_weights_keep_far_rows_of_heavy_tailed_data_attached():
+    # scikit-learn's bundled wine (z-scored) plus five far rows (a heavy tail, as counts that
+    # are mostly 0 have): the heat kernel of Belkin and Niyogi (2003), exp(-d^2 / sigma^2)
+    # with sigma the median neighbour distance, is unchanged for every row whose nearest
+    # neighbour lies within sigma; a far row's distances are measured from its reach
+    # d_1 - sigma (local connectivity, McInnes, Healy and Melville 2018), so its nearest edge
+    # weighs exp(-1) (closed form) and the graph stays in one piece (scipy's
+    # connected_components as the reference).
+    from scipy.sparse.csgraph import connected_components
+    from sklearn.datasets import load_wine
+    from sklearn.neighbors import NearestNeighbors
+
+    from lenswork.lenses import laplacian_eigenmaps
+    from lenswork.lenses._affinity import knn_affinity
+
+    X = load_wine().data
+    X = (X - X.mean(axis=0)) / X.std(axis=0)
+    far = X[:5] + np.diag([8.0, 10.0, 12.0, 14.0, 16.0, 0, 0, 0, 0, 0, 0, 0, 0])[:5]
+    X = np.vstack([X, far])
+    n, k = X.shape[0], 10
+    ws = Workspace(X, random_state=0)
+    graph = ws.neighbors(k)
+    W, _ = knn_affinity(graph, "heat")
+    dist, idx = NearestNeighbors(n_neighbors=k + 1).fit(X).kneighbors(X)
+    dist, idx = dist[:, 1:], idx[:, 1:]
+    sigma = np.median(dist[dist > 0])
+    bulk = dist[:, 0] <= sigma
+    assert bulk.sum() > 0.8 * n and not bulk[-5:].any()
+    plain = np.exp(-((dist / sigma) ** 2))
+    for i in np.flatnonzero(bulk)[:40]:
+        for j, w in zip(idx[i], plain[i]):
+            if w >= 1e-10:
+                assert W[i, j] >= w - 1e-12  # symmetric: the larger of the two ends' weights
+    for i in range(n - 5, n):
+        assert W[i].max() == pytest.approx(np.exp(-1.0), rel=1e-9)
+    assert connected_components(W, directed=False)[0] == 1
+    # the plain heat kernel cuts the far rows off: the graph falls apart
+    keep = plain >= 1e-10
+    A = sp.csr_matrix((plain[keep], (np.repeat(np.arange(n), k)[keep.ravel()],
+                                     idx[keep])), shape=(n, n))
+    assert connected_components(A.maximum(A.T), directed=False)[0] > 1
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        _, info = laplacian_eigenmaps(X, components=2, k=k, return_info=True, random_state=0)
+    assert info["graph_components"] == 1
+    assert info["eigenvalues"][0] > 1e-6  # not an eigenvector sitting on a detached row

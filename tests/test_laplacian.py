@@ -460,7 +460,9 @@ def test_nystrom_extension_equals_the_formula(weights):
     dist, idx = dist[:, 1:], idx[:, 1:]
     if weights == "heat":
         sigma = np.median(dist[dist > 0])
-        wgt = np.exp(-((dist / sigma) ** 2))
+        # measured from each row's reach max(d_1 - sigma, 0) (local connectivity beyond sigma,
+        # McInnes, Healy and Melville 2018)
+        wgt = np.exp(-((np.maximum(dist - np.maximum(dist[:, :1] - sigma, 0), 0) / sigma) ** 2))
     else:
         s = dist[:, 6]
         wgt = np.exp(-(dist**2) / (s[:, None] * s[idx]))
@@ -475,7 +477,7 @@ def test_nystrom_extension_equals_the_formula(weights):
     near = np.argsort(D, axis=1)[:, :k]
     d = np.take_along_axis(D, near, axis=1)
     if weights == "heat":
-        w = np.exp(-((d / sigma) ** 2))
+        w = np.exp(-((np.maximum(d - np.maximum(d[:, :1] - sigma, 0), 0) / sigma) ** 2))
     else:
         w = np.exp(-(d**2) / (d[:, 6][:, None] * s[near]))
     ref = np.einsum("ij,ijm->im", w, E[near]) / w.sum(axis=1)[:, None] / (1.0 - lam)

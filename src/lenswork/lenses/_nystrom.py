@@ -32,7 +32,7 @@ import numpy as np
 
 from .._errors import InputError, ParameterError
 from .._validation import check_array, check_choice, check_float, check_int
-from ._affinity import MIN_WEIGHT, SELF_TUNING_NEIGHBOR, WEIGHTS
+from ._affinity import MIN_WEIGHT, SELF_TUNING_NEIGHBOR, WEIGHTS, heat_weights
 
 __all__ = [
     "HOLDOUT",
@@ -80,7 +80,8 @@ def nystrom_extend(landmarks_X, vectors, eigenvalues, X_new, *, k=15, weights="h
         Landmarks each new point is linked to (the k of the landmark graph).
     weights : {"heat", "self_tuning"}, default="heat"
         ``"heat"``: ``exp(-d^2 / sigma^2)`` with the landmark graph's ``sigma``
-        (``info["sigma"]``; required); ``"self_tuning"``:
+        (``info["sigma"]``; required) and d less the new point's reach
+        (``lenswork.lenses._affinity.heat_weights``); ``"self_tuning"``:
         ``exp(-d^2 / (sigma_z sigma_j))`` with ``sigma_z`` the distance from the
         new point to its 7th nearest landmark and ``sigma_j`` that from landmark
         ``j`` to its 7th nearest other landmark (k-th when k < 7).
@@ -174,7 +175,7 @@ def nystrom_extend(landmarks_X, vectors, eigenvalues, X_new, *, k=15, weights="h
         block = Z[start:start + _BLOCK]
         dist, idx = _knn(L, block, k)
         if weights == "heat":
-            w = np.exp(-((dist / sigma) ** 2))
+            w = heat_weights(dist, sigma)
         else:
             j = min(SELF_TUNING_NEIGHBOR, k) - 1
             s_new = dist[:, j].copy()
