@@ -7,7 +7,8 @@ import pytest
 
 SCRIPT = Path(__file__).resolve().parents[1] / "gallery" / "make_gallery.py"
 FIGURES = [
-    "screen_sheet.png", "graph_screen_pair.png", "graph_laplacian_1.png", "graph_pca_2.png", "graph_density.png",
+    "screen_sheet.png", "graph_screen_pair.png", "graph_laplacian_1.png", "graph_pca_2.png",
+    "graph_density.png",
     "stability_laplacian_1.png", "bootstrap_laplacian_1.png", "compare_laplacian_1_density.png",
 ]
 
