@@ -119,6 +119,7 @@ from scipy.sparse.csgraph import connected_components
 
 from .._errors import ParameterError
 from .._validation import check_float, check_int
+from ._walk import neighbour_lists
 
 __all__ = [
     "PERSISTENCE_KINDS",
@@ -330,14 +331,6 @@ def _h0(order, nb, f):
     return pairs, roots
 
 
-def _neighbour_lists(E, V):
-    nb = [[] for _ in range(V)]
-    for a, b in E.tolist():
-        nb[a].append(b)
-        nb[b].append(a)
-    return nb
-
-
 # --------------------------------------------------------------------------- loops
 def _cone_reduction(E, f, up_order):
     """Ext1 and Rel1 pairs from the reduced columns of the cone triangles (see module notes).
@@ -537,7 +530,7 @@ def trunk_points(edges, values, persistence, *, slack=None, sizes=None, n_nodes=
     V = f.size
     slack = np.zeros(V) if slack is None else np.asarray(slack, dtype=np.float64).reshape(-1)
     sizes = np.ones(V) if sizes is None else np.asarray(sizes, dtype=np.float64).reshape(-1)
-    nb = _neighbour_lists(E, V)
+    nb = neighbour_lists(V, E)
     up = np.lexsort((np.arange(V), f))
     out = []
     down_pairs, _ = _h0(up, nb, f)
@@ -557,7 +550,7 @@ def trunk_points(edges, values, persistence, *, slack=None, sizes=None, n_nodes=
 # --------------------------------------------------------------------------- diagram
 def _diagram(E, f, rng, threshold, slack=None):
     V = f.size
-    nb = _neighbour_lists(E, V)
+    nb = neighbour_lists(V, E)
     up = np.lexsort((np.arange(V), f))  # ascending (f, index)
     down = up[::-1].copy()
     kinds, births, deaths, nodes, edges = [], [], [], [], []
