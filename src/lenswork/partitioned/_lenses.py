@@ -170,8 +170,8 @@ def _raw_part_lens(part, offset, spec, ctx):
     raise AssertionError(kind)
 
 
-#: The median of |Z| for a standard normal Z (standard normal table).
-_HALF_NORMAL_MEDIAN = 0.6745
+#: The share of a normal within 1 sd (standard normal table): the stated error's coverage.
+_ONE_SD_SHARE = 0.6827
 #: Seeded rows at which the estimated lenses are also computed exactly (one pass over all
 #: rows, probes x n x d flops) to calibrate the error they state.
 PROBES = 200
@@ -265,24 +265,31 @@ def _calibrate(cloud, parts, spec, sctx, probes):
 def _calibration(exact, est, err):
     """(scale of the stated error, figures for the provenance) from the probe rows.
 
-    With a per-row standard error: scale = median |z| / 0.6745, z = (estimate - exact) / se
-    (0.6745: the median of |N(0, 1)|, standard normal table; the scale is 1 when the se is
-    right; the se's own sample is blind to rare large kernel terms, and a median is not
-    swayed by the few probes whose se is near 0).
-    Without one: the root-mean-square actual error over the probes.
+    The stated error of a row is a one-sd-like band: about 68.27% of rows (the share of a
+    normal within 1 sd, standard normal table) have an actual error below it. With a per-row
+    standard error se the band is ``error_scale * se``, error_scale = the 68.27% quantile of
+    |estimate - exact| / se over the probes (1 when the se is right; the se's own sample is
+    blind to the rare large kernel terms of a sum in high dimension, so it can be several
+    times too small there). Without one the band is that quantile of |estimate - exact|, the
+    same for every row. ``tail_factor_90`` / ``tail_factor_99``: the multiples of the band
+    that cover 90% / 99% of the probes (1.64 / 2.58 for a normal error).
     """
     actual = np.abs(est - exact)
     figures = {"probe_rows": int(exact.size), "probe_rms_error": float(np.sqrt(np.mean(
         actual**2))), "probe_max_error": float(actual.max())}
     if err is None:
-        return None, figures
-    ok = err > 0
-    if not ok.any():
-        return 1.0, figures
-    z = actual[ok] / err[ok]
-    scale = float(np.median(z) / _HALF_NORMAL_MEDIAN)
-    figures["error_scale"] = scale
-    return (scale if scale > 0 else 1.0), figures
+        z, scale = actual, float(np.quantile(actual, _ONE_SD_SHARE))
+    else:
+        ok = err > 0
+        z = actual[ok] / err[ok] if ok.any() else np.zeros(1)
+        scale = float(np.quantile(z, _ONE_SD_SHARE))
+    if not scale > 0:
+        scale = 1.0 if err is not None else float(actual.max())
+    figures.update(tail_factor_90=float(np.quantile(z, 0.9) / scale) if scale else 0.0,
+                   tail_factor_99=float(np.quantile(z, 0.99) / scale) if scale else 0.0)
+    if err is not None:
+        figures["error_scale"] = scale
+    return scale, figures
 
 
 def _quantise(part, L):
@@ -629,14 +636,16 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
                 probes = (probe.X, np.asarray(probe.provenance["sample_positions"]))
             exact, est, err = _calibrate(cloud, parts, spec, sctx, probes)
             scale, figures = _calibration(exact, est, err)
-            if scale is None:
-                sctx["error_rms"] = figures["probe_rms_error"]
-                what = ("the error column holds the root-mean-square actual error over the "
-                        "probe rows (the same for every row)")
+            if err is None:
+                sctx["error_rms"] = scale
+                what = ("the error column holds the 68.27% quantile of the actual error over "
+                        "the probe rows (the same for every row)")
             else:
                 sctx["error_scale"] = scale
-                what = ("the error column holds the standard error times error_scale = "
-                        "median |z| / 0.6745, z = (estimate - exact) / se over the probe rows")
+                what = ("the error column holds the standard error times error_scale, the "
+                        "68.27% quantile of |estimate - exact| / se over the probe rows")
+            what += ("; about 68% of rows lie within it, 90% within tail_factor_90 times it "
+                     "(1.64 for a normal error)")
             prov[0].update(figures)
             prov[0]["error"] += (
                 f"; calibrated on {figures['probe_rows']} seeded probe rows whose exact value "
