@@ -107,16 +107,17 @@ def _exact_rows(X, rows, mass):
     k = min(int(np.ceil(round(mass * n, 9))), n)
     xx, zz = (X * X).sum(1), (Z * Z).sum(1)
     ecc, dens, dtm = (np.empty(len(rows)) for _ in range(3))
-    for a in range(0, len(rows), 100):
-        r = rows[a:a + 100]
+    step = max(1, min(100, int(2e7 // n)))  # rows x n float64 blocks of at most 160 MB
+    for a in range(0, len(rows), step):
+        r = rows[a:a + step]
         D2 = np.maximum(xx[r, None] + xx[None, :] - 2.0 * X[r] @ X.T, 0.0)
         D2[np.arange(len(r)), r] = 0.0
-        ecc[a:a + 100] = np.sqrt(D2).mean(1)
+        ecc[a:a + step] = np.sqrt(D2).mean(1)
         Z2 = np.maximum(zz[r, None] + zz[None, :] - 2.0 * Z[r] @ Z.T, 0.0)
         Z2[np.arange(len(r)), r] = 0.0
-        dens[a:a + 100] = logsumexp(-0.5 * Z2, axis=1) - np.log(n) + logc
+        dens[a:a + step] = logsumexp(-0.5 * Z2, axis=1) - np.log(n) + logc
         part = np.sort(np.partition(D2, k - 1, axis=1)[:, :k], axis=1)  # self first, at 0
-        dtm[a:a + 100] = np.sqrt(part.sum(1) / k)
+        dtm[a:a + step] = np.sqrt(part.sum(1) / k)
     return {"eccentricity[p=1]": ecc, "density": dens, "dtm": dtm}
 
 
