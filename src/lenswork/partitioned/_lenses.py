@@ -39,7 +39,7 @@ from ..lenses import get_lens, lens_request
 from ..lenses._density import kernel_cholesky
 from ..lenses._laplacian import laplacian_eigenmaps
 from ..lenses._nystrom import nystrom_extend
-from ._intake import require_dask
+from ._intake import require_dask, tree_reduce
 from ._sample import sample_cloud
 
 __all__ = ["PARTITIONED_LENSES", "PartitionedLenses", "partitioned_lenses"]
@@ -227,18 +227,6 @@ def _probe_exact(kind, p, total, n, k):
     return np.sqrt(total.sum(1) / k)
 
 
-def _tree(items, merge):
-    dask = require_dask()
-    fn = dask.delayed(merge, pure=True)
-    items = list(items)
-    while len(items) > 1:
-        nxt = [fn(items[i], items[i + 1]) for i in range(0, len(items) - 1, 2)]
-        if len(items) % 2:
-            nxt.append(items[-1])
-        items = nxt
-    return items[0]
-
-
 def _calibrate(cloud, parts, spec, sctx, probes):
     """Exact values at the probe rows and the estimate there: the error the lens states.
 
@@ -252,7 +240,7 @@ def _calibrate(cloud, parts, spec, sctx, probes):
     piece = dask.delayed(_probe_piece, pure=True)
     pieces = [piece(pt, int(cloud.offsets[i]), P, ppos, spec, sctx)
               for i, pt in enumerate(parts)]
-    total = dask.compute(_tree(pieces, _probe_merge(kind, k)))[0]
+    total = dask.compute(tree_reduce(pieces, dask.delayed(_probe_merge(kind, k), pure=True)))[0]
     if kind == "density":
         logf = total[0] + np.log(total[1]) - math.log(n) + sctx["log_norm"]
         exact = logf if p["log"] else np.exp(logf)
@@ -664,15 +652,7 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
 
 def tree_sum(items):
     """Pairwise tree of delayed ``_add`` over (counts, total) pairs."""
-    dask = require_dask()
-    add = dask.delayed(_add, pure=True)
-    items = list(items)
-    while len(items) > 1:
-        nxt = [add(items[i], items[i + 1]) for i in range(0, len(items) - 1, 2)]
-        if len(items) % 2:
-            nxt.append(items[-1])
-        items = nxt
-    return items[0]
+    return tree_reduce(items, require_dask().delayed(_add, pure=True))
 
 
 def _held_out(L, vec, p, seed):
