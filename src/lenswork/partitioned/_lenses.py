@@ -175,6 +175,11 @@ _ONE_SD_SHARE = 0.6827
 #: Seeded rows at which the estimated lenses are also computed exactly (one pass over all
 #: rows, probes x n x d flops) to calibrate the error they state.
 PROBES = 200
+#: The DTM's exact pass keeps the k = ceil(m N) smallest squared distances per probe: at most
+#: this many values (32 MB) per partial result, so fewer probes when k is large (a 1e7-row
+#: table with m = 0.01 keeps 40), never fewer than _MIN_PROBES.
+_PROBE_DTM_VALUES = 4_000_000
+_MIN_PROBES = 20
 
 
 def _probe_piece(part, offset, P, ppos, spec, ctx):
@@ -237,6 +242,9 @@ def _calibrate(cloud, parts, spec, sctx, probes):
     P, ppos = probes
     n = cloud.n
     k = sctx.get("dtm_k", 0)
+    if k and len(ppos) * k > _PROBE_DTM_VALUES:  # the k smallest per probe stay in memory
+        keep = np.linspace(0, len(ppos) - 1, max(_MIN_PROBES, _PROBE_DTM_VALUES // k)).astype(int)
+        P, ppos = P[np.unique(keep)], ppos[np.unique(keep)]
     piece = dask.delayed(_probe_piece, pure=True)
     pieces = [piece(pt, int(cloud.offsets[i]), P, ppos, spec, sctx)
               for i, pt in enumerate(parts)]
