@@ -22,6 +22,12 @@ Estimated against a broadcast seeded uniform sample of ``landmarks`` rows
     Cohen-Steiner and Mérigot (2011, Theorem 3.5; theorem number from memory); ``laplacian`` -- the
     landmark solution extended by :func:`lenswork.lenses._nystrom.nystrom_extend`,
     its error measured on held-out landmarks.
+
+The density, eccentricity (p != 2) and DTM estimates are also computed exactly at
+``PROBES`` seeded rows (one pass over all rows), and the error column they write
+is calibrated there: a band about 68% of rows lie within (the standard error
+times ``error_scale``; for the DTM the actual error's quantile itself), with the
+tail factors that cover 90% and 99% (see :func:`_calibration`).
 """
 
 from __future__ import annotations
