@@ -139,3 +139,36 @@ def test_too_few_rows_for_k():
 def test_bad_parameters(kwargs, match):
     with pytest.raises(ParameterError, match=match):
         neighbor_graph(np.zeros((20, 2)) + np.arange(20)[:, None], **kwargs)
+
+
+_THREADS_SCRIPT = """
+import sys
+import numpy as np
+from lenswork import Workspace
+from lenswork.lenses import compute_lenses
+
+X = np.random.default_rng(2024).normal(size=(2500, 12))
+ws = Workspace(X, neighbor_method="approximate", random_state=5)
+table = compute_lenses(ws, ["knn_distance", "laplacian:components=2", "dtm:mass=0.01"])
+np.save(sys.argv[1], table.values(normalized=False))
+print(",".join(table.names))
+"""
+
+
+def test_approximate_lenses_equal_under_any_thread_count(tmp_path):
+    # Same seed, same values whether numba runs 1 or 2 threads: the descent's update blocks
+    # follow the thread count, so lenswork runs the descent on a fixed count.
+    import os
+    import subprocess
+    import sys
+
+    out = {}
+    for threads in (1, 2):
+        path = tmp_path / f"lens-{threads}.npy"
+        env = dict(os.environ, NUMBA_NUM_THREADS=str(threads))
+        run = subprocess.run([sys.executable, "-c", _THREADS_SCRIPT, str(path)], env=env,
+                             capture_output=True, text=True, timeout=600)
+        assert run.returncode == 0, run.stderr[-2000:]
+        out[threads] = (run.stdout.strip(), np.load(path))
+    assert out[1][0] == out[2][0] == "knn_distance,laplacian_1,laplacian_2,dtm"
+    assert_array_equal(out[1][1], out[2][1])

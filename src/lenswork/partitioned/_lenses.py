@@ -22,6 +22,12 @@ Estimated against a broadcast seeded uniform sample of ``landmarks`` rows
     Cohen-Steiner and Mérigot (2011, Theorem 3.5; theorem number from memory); ``laplacian`` -- the
     landmark solution extended by :func:`lenswork.lenses._nystrom.nystrom_extend`,
     its error measured on held-out landmarks.
+
+The density, eccentricity (p != 2) and DTM estimates are also computed exactly at
+``PROBES`` seeded rows (one pass over all rows), and the error column they write
+is calibrated there: a band about 68% of rows lie within (the standard error
+times ``error_scale``; for the DTM the actual error's quantile itself), with the
+tail factors that cover 90% and 99% (see :func:`_calibration`).
 """
 
 from __future__ import annotations
@@ -34,12 +40,12 @@ from .. import __version__
 from .._errors import ParameterError
 from .._io import OutputSet, atomic_path, check_output_file, write_text
 from .._json import dumps
-from .._validation import check_float, check_float_or_choice, check_int
+from .._validation import check_float, check_float_or_choice, check_int, seed_of
 from ..lenses import get_lens, lens_request
 from ..lenses._density import kernel_cholesky
 from ..lenses._laplacian import laplacian_eigenmaps
 from ..lenses._nystrom import nystrom_extend
-from ._intake import require_dask
+from ._intake import require_dask, tree_reduce
 from ._sample import sample_cloud
 
 __all__ = ["PARTITIONED_LENSES", "PartitionedLenses", "partitioned_lenses"]
@@ -93,9 +99,24 @@ def _landmark_mean(X, pos, L, lpos, N, value):
 
 
 def _part_lens(part, offset, spec, ctx):
-    """Lens values (n_i, m) and per-row error (n_i, m) or None, for one partition."""
+    """Lens values (n_i, m) and per-row error (n_i, m) or None, for one partition.
+
+    ``offset``: the global position of the partition's first row, or an array of the
+    global positions of its rows (the probe rows). The error column of an estimated
+    lens is scaled by its probe calibration ``ctx["error_scale"]`` when set.
+    """
+    vals, err = _raw_part_lens(part, offset, spec, ctx)
+    if err is not None and "error_scale" in ctx:
+        err = err * ctx["error_scale"]
+    elif err is None and "error_rms" in ctx:
+        err = np.full_like(vals, ctx["error_rms"])
+    return vals, err
+
+
+def _raw_part_lens(part, offset, spec, ctx):
     X = part[0]
-    pos = offset + np.arange(X.shape[0])
+    pos = (offset + np.arange(X.shape[0]) if np.isscalar(offset)
+           else np.asarray(offset, dtype=np.int64))
     kind, p = spec["kind"], spec["params"]
     if kind == "column":
         return X[:, [spec["j"]]], None
@@ -153,6 +174,124 @@ def _part_lens(part, offset, spec, ctx):
                               k=p["k"], weights=p["weights"], sigma=ctx["lap_sigma"])
         return vals, None
     raise AssertionError(kind)
+
+
+#: The share of a normal within 1 sd (standard normal table): the stated error's coverage.
+_ONE_SD_SHARE = 0.6827
+#: Seeded rows at which the estimated lenses are also computed exactly (one pass over all
+#: rows, probes x n x d flops) to calibrate the error they state.
+PROBES = 200
+#: The DTM's exact pass keeps the k = ceil(m N) smallest squared distances per probe: at most
+#: this many values (32 MB) per partial result, so fewer probes when k is large (a 1e7-row
+#: table with m = 0.01 keeps 40), never fewer than _MIN_PROBES.
+_PROBE_DTM_VALUES = 4_000_000
+_MIN_PROBES = 20
+
+
+def _probe_piece(part, offset, P, ppos, spec, ctx):
+    """One partition's share of the exact value at the probe rows P (global positions ppos).
+
+    eccentricity: sum of d^p; density: (row max, sum of exp(e - max)) of the kernel
+    exponents e; dtm: the k smallest squared distances. A probe's own row counts at
+    distance 0 (the single machine's convention).
+    """
+    X = part[0]
+    kind, p = spec["kind"], spec["params"]
+    rows = offset + np.arange(X.shape[0])
+    _, qi, ci = np.intersect1d(ppos, rows, assume_unique=True, return_indices=True)
+    if kind == "density":
+        W = ctx["whiten"]
+        E = -0.5 * _sq_dist(P @ W.T, X @ W.T)
+        E[qi, ci] = 0.0
+        top = E.max(1) if E.shape[1] else np.full(P.shape[0], -np.inf)
+        return top, np.exp(E - top[:, None]).sum(1)
+    D = _sq_dist(P, X)
+    D[qi, ci] = 0.0
+    if kind == "eccentricity":
+        return (np.sqrt(D) ** p["p"]).sum(1)
+    k = min(ctx["dtm_k"], D.shape[1])
+    return np.partition(D, k - 1, axis=1)[:, :k] if k < D.shape[1] else D
+
+
+def _probe_merge(kind, k):
+    """The pairwise merge of two _probe_piece results."""
+    if kind == "eccentricity":
+        return lambda a, b: a + b
+    if kind == "density":
+        def merge(a, b):
+            top = np.maximum(a[0], b[0])
+            return top, a[1] * np.exp(a[0] - top) + b[1] * np.exp(b[0] - top)
+        return merge
+
+    def smallest(a, b):
+        D = np.concatenate([a, b], axis=1)
+        return np.partition(D, k - 1, axis=1)[:, :k] if k < D.shape[1] else D
+    return smallest
+
+
+def _probe_exact(kind, p, total, n, k):
+    """Exact lens values at the probe rows from the merged pieces."""
+    if kind == "eccentricity":
+        return (total / n) ** (1.0 / p["p"])
+    if kind == "density":
+        return total  # finished by the caller (log, constant)
+    return np.sqrt(total.sum(1) / k)
+
+
+def _calibrate(cloud, parts, spec, sctx, probes):
+    """Exact values at the probe rows and the estimate there: the error the lens states.
+
+    Returns (exact, estimate, raw error column or None) at the probe rows.
+    """
+    dask = require_dask()
+    kind, p = spec["kind"], spec["params"]
+    P, ppos = probes
+    n = cloud.n
+    k = sctx.get("dtm_k", 0)
+    if k and len(ppos) * k > _PROBE_DTM_VALUES:  # the k smallest per probe stay in memory
+        keep = np.linspace(0, len(ppos) - 1, max(_MIN_PROBES, _PROBE_DTM_VALUES // k)).astype(int)
+        P, ppos = P[np.unique(keep)], ppos[np.unique(keep)]
+    piece = dask.delayed(_probe_piece, pure=True)
+    pieces = [piece(pt, int(cloud.offsets[i]), P, ppos, spec, sctx)
+              for i, pt in enumerate(parts)]
+    total = dask.compute(tree_reduce(pieces, dask.delayed(_probe_merge(kind, k), pure=True)))[0]
+    if kind == "density":
+        logf = total[0] + np.log(total[1]) - math.log(n) + sctx["log_norm"]
+        exact = logf if p["log"] else np.exp(logf)
+    else:
+        exact = _probe_exact(kind, p, total, n, k)
+    est, err = _raw_part_lens((P,), ppos, spec, sctx)
+    return exact, est[:, 0], None if err is None else err[:, 0]
+
+
+def _calibration(exact, est, err):
+    """(scale of the stated error, figures for the provenance) from the probe rows.
+
+    The stated error of a row is a one-sd-like band: about 68.27% of rows (the share of a
+    normal within 1 sd, standard normal table) have an actual error below it. With a per-row
+    standard error se the band is ``error_scale * se``, error_scale = the 68.27% quantile of
+    |estimate - exact| / se over the probes (1 when the se is right; the se's own sample is
+    blind to the rare large kernel terms of a sum in high dimension, so it can be several
+    times too small there). Without one the band is that quantile of |estimate - exact|, the
+    same for every row. ``tail_factor_90`` / ``tail_factor_99``: the multiples of the band
+    that cover 90% / 99% of the probes (1.64 / 2.58 for a normal error).
+    """
+    actual = np.abs(est - exact)
+    figures = {"probe_rows": int(exact.size), "probe_rms_error": float(np.sqrt(np.mean(
+        actual**2))), "probe_max_error": float(actual.max())}
+    if err is None:
+        z, scale = actual, float(np.quantile(actual, _ONE_SD_SHARE))
+    else:
+        ok = err > 0
+        z = actual[ok] / err[ok] if ok.any() else np.zeros(1)
+        scale = float(np.quantile(z, _ONE_SD_SHARE))
+    if not scale > 0:
+        scale = 1.0 if err is not None else float(actual.max())
+    figures.update(tail_factor_90=float(np.quantile(z, 0.9) / scale) if scale else 0.0,
+                   tail_factor_99=float(np.quantile(z, 0.99) / scale) if scale else 0.0)
+    if err is not None:
+        figures["error_scale"] = scale
+    return scale, figures
 
 
 def _quantise(part, L):
@@ -425,7 +564,7 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
         L = sample.X
         ctx["landmarks"] = L
         ctx["positions"] = sample.provenance["sample_positions"]
-    provs, per_spec = [], []
+    provs, per_spec, probes = [], [], None
     for spec in specs:
         kind, p = spec["kind"], spec["params"]
         prov = [dict(base, lens=kind, column=name, params=dict(p)) for name in spec["names"]]
@@ -466,6 +605,7 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
                 [dask.delayed(_quantise, pure=True)(pt, L) for pt in parts]))[0]
             mass = p["mass"]
             sctx["weights"], sctx["mass"] = counts / n, mass
+            sctx["dtm_k"] = max(1, math.ceil(round(mass * n, 9)))  # exact DTM's k at the probes
             # any `near` landmarks weigh at least the `near` lightest ones, so a row's `near`
             # nearest landmarks hold its mass m: the rest need no sorting
             light = np.cumsum(np.sort(counts / n))
@@ -492,6 +632,26 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
                           "landmarks; held_out_abs_corr: |corr| on the landmarks of one half "
                           "between the solution on all landmarks and the extension of the "
                           "solution on the other half")
+        if kind in ("eccentricity", "density", "dtm") and not prov[0]["exact"]:
+            if probes is None:
+                probe = sample_cloud(cloud, min(PROBES, n), random_state=seed_of(random_state) + 1)
+                probes = (probe.X, np.asarray(probe.provenance["sample_positions"]))
+            exact, est, err = _calibrate(cloud, parts, spec, sctx, probes)
+            scale, figures = _calibration(exact, est, err)
+            if err is None:
+                sctx["error_rms"] = scale
+                what = ("the error column holds the 68.27% quantile of the actual error over "
+                        "the probe rows (the same for every row)")
+            else:
+                sctx["error_scale"] = scale
+                what = ("the error column holds the standard error times error_scale, the "
+                        "68.27% quantile of |estimate - exact| / se over the probe rows")
+            what += ("; about 68% of rows lie within it, 90% within tail_factor_90 times it "
+                     "(1.64 for a normal error)")
+            prov[0].update(figures)
+            prov[0]["error"] += (
+                f"; calibrated on {figures['probe_rows']} seeded probe rows whose exact value "
+                f"is computed by a pass over all rows: {what}")
         per_spec.append((spec, sctx))
         provs.extend(prov)
     lens_part = dask.delayed(_part_lens, pure=True)
@@ -506,15 +666,7 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
 
 def tree_sum(items):
     """Pairwise tree of delayed ``_add`` over (counts, total) pairs."""
-    dask = require_dask()
-    add = dask.delayed(_add, pure=True)
-    items = list(items)
-    while len(items) > 1:
-        nxt = [add(items[i], items[i + 1]) for i in range(0, len(items) - 1, 2)]
-        if len(items) % 2:
-            nxt.append(items[-1])
-        items = nxt
-    return items[0]
+    return tree_reduce(items, require_dask().delayed(_add, pure=True))
 
 
 def _held_out(L, vec, p, seed):
