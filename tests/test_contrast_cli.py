@@ -136,3 +136,16 @@ def test_default_tests_the_significant_features_and_all_features_the_rest(tmp_pa
     skipped = {x["feature"] for x in doc["contrast"]["skipped"] if x["feature"]}
     assert tested | skipped == {lab for lab, _ in s.labelled()}
     assert doc["contrast"]["params"]["all_features"] is True
+
+
+def test_all_features_draws_only_features_with_a_tested_column(tmp_path):
+    # the one component of pca_1's graph holds 2,999 of 3,000 rows: every column is untested
+    # there (fewer than two values on one side), so it gets no sheet instead of an error
+    out = tmp_path / "all"
+    res = run("contrast", "--demo", "--lens", "pca_1", "--all-features", "-o", out)
+    assert res.exit_code == 0, res.output
+    doc = strict_loads((out / "contrast.json").read_text())
+    tested = {r["feature"] for r in doc["contrast"]["columns"]}
+    sheets = {p.name for p in out.iterdir() if p.name.startswith("columns_")}
+    assert sheets and len(sheets) <= len(tested)
+    assert "columns_component-1.png" not in sheets

@@ -184,8 +184,8 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
         from ..plot._columns import contrast_sheet
         from ..plot._graph import draw_graph
 
-        labels = [f["label"] for f in result.features] if all_features else \
-            result.significant_features()
+        labels = [f["label"] for f in result.features if result.for_feature(f["label"])] \
+            if all_features else result.significant_features()  # a sheet needs a tested column
         for label in labels[:MAX_SHEETS]:
             figures[f"columns_{_safe(label)}.png"] = contrast_sheet(
                 result, graph, ws, label, top=top, layout=layout, random_state=seed)
