@@ -431,6 +431,8 @@ def test_size_like_parameters_are_bounded_with_the_reason():
 
     with pytest.raises(ParameterError, match=r"\[2, 10000\].*24 GB"):
         GraphSettings(clusterer="single", gap_bins=1_000_000_000)
+    with pytest.raises(ParameterError, match=r"\[1, 32\].*builds the graph again"):
+        GraphSettings(hole_scales=1_000_000_000)
     X = np.random.default_rng(0).normal(size=(300, 2))
     with pytest.raises(ParameterError, match="would overflow"):
         gaussian_density(X, bandwidth=1e300)

@@ -288,6 +288,10 @@ def _overlap(name, value):
 #: The largest gap_bins: more bins than rows in a cover element are empty anyway.
 MAX_GAP_BINS = 10_000
 
+#: The most hole scales: each is a whole graph build, and the interval counts from N down to
+#: N / 2 hold few distinct values for any cover a screen can use.
+MAX_HOLE_SCALES = 32
+
 
 @dataclass(frozen=True)
 class GraphSettings(SettingsRecord):
@@ -445,8 +449,15 @@ class GraphSettings(SettingsRecord):
                 f"per row); more than {MAX_GAP_BINS:,} bins leave nearly all empty and cost "
                 f"memory (1e9 bins: 24 GB)."
             ) from None
-        put("hole_scales", check_int("hole_scales", self.hole_scales, lo=1,
-                                     context="build_graph"))
+        try:  # bounded: every scale is a whole graph build (1e9 scales ran out of memory)
+            put("hole_scales", check_int("hole_scales", self.hole_scales, lo=1,
+                                         hi=MAX_HOLE_SCALES, context="build_graph"))
+        except ParameterError as err:
+            raise ParameterError(
+                f"{err} Each hole scale builds the graph again at a coarser interval count "
+                f"(from the cover's down to half of it); {MAX_HOLE_SCALES} is more than a cover "
+                f"of up to 64 intervals has distinct counts there."
+            ) from None
         if self.random_state is not None:
             put("random_state", check_int("random_state", self.random_state, lo=0,
                                           context="build_graph"))

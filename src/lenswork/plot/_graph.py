@@ -216,7 +216,7 @@ def _mark_significant(ax, summary, pos, area):
         ax.add_collection(LineCollection(seg, colors=ACCENT, linewidths=4.5, alpha=0.55,
                                          zorder=1.5, capstyle="round"))
         keys.append(Line2D([], [], color=ACCENT, linewidth=4.5, alpha=0.55))
-        names.append("significant loop")
+        names.append("significant hole" if len(summary.thresholds) > 1 else "significant loop")
     tails = [(lab, f) for lab, f in labelled if f.kind in ("flare", "limb")]
     if tails:
         paths = [summary.tail_path(f) for _, f in tails]
