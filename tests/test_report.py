@@ -291,3 +291,17 @@ def test_passthrough_numbers_read_as_text_are_numeric(tmp_path):
     assert cols["temp"]["type"] == "numeric"
     np.testing.assert_allclose(cols["temp"]["mean"], expect, rtol=1e-5)
     assert cols["kind"]["type"] == "categorical" and sorted(cols["kind"]["levels"]) == ["hi", "lo"]
+
+
+def test_every_ranking_field_the_page_shows_is_in_the_screen_document(demo_cloud):
+    # the page's table columns come from SCREEN_FIELDS: each must be a key of the screen's own
+    # ranking rows (a renamed field would show as an empty column), with the same values
+    from lenswork.report._data import SCREEN_FIELDS
+
+    ws = lw.Workspace(demo_cloud, random_state=0)
+    result = lw.screen(ws)
+    doc = result.to_dict()
+    assert set(SCREEN_FIELDS) <= set(doc["ranking"][0])
+    page = report_data(lw.build_graph(result.to_lens_table(), ws), ws, screen=result)
+    for shown, row in zip(page["screen"]["ranking"], doc["ranking"], strict=True):
+        assert shown["pair_merit"] == row["pair_merit"] and shown["column"] == row["column"]

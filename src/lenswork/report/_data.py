@@ -58,7 +58,7 @@ CONTRAST_ROWS = 100_000
 MIN_NODE_ROWS = 50
 #: Screen ranking fields shown in the page's table, in order.
 SCREEN_FIELDS = ("rank", "column", "merit", "robust_spread", "smoothness", "structure",
-                 "significant_loops", "significant_branches", "preservation", "gain")
+                 "significant_loops", "significant_branches", "preservation", "pair_merit")
 
 
 # ---------------------------------------------------------------- members

@@ -325,7 +325,7 @@
 
   // ------------------------------------------------------------ screen
   var LABELS = { rank: "rank", column: "lens column", merit: "merit", robust_spread: "robust spread", smoothness: "smoothness",
-    structure: "structure", significant_loops: "sig. loops", significant_branches: "sig. branches", preservation: "R_NX", gain: "pair score" };
+    structure: "structure", significant_loops: "sig. loops", significant_branches: "sig. branches", preservation: "R_NX", pair_merit: "pair merit" };
   function buildScreen(section) {
     var S = DATA.screen;
     section.appendChild(el("h2", {}, ["Lens screen"]));
