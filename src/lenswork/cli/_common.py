@@ -11,7 +11,7 @@ import click
 
 from .. import _progress
 from .._errors import LensworkError, LensworkWarning, ParameterError
-from .._io import check_output_dir, os_error_text
+from .._io import os_error_text
 from ..graph import CUTOFF_WORDS, GraphSettings
 from ..lenses import LENS_FILE_CHECKS
 from ..workspace import METHODS
@@ -21,7 +21,6 @@ __all__ = [
     "Neighbors",
     "build_view",
     "cli_text",
-    "colour_data",
     "cutoff_value",
     "graph_option_fields",
     "graph_options",
@@ -34,7 +33,6 @@ __all__ = [
     "neighbors_option",
     "number_list",
     "feature_text",
-    "output_dir",
     "parse_color",
     "split_names",
     "screen_option_fields",
@@ -224,12 +222,6 @@ def cutoff_value(text, words=CUTOFF_WORDS):
         ) from None
 
 
-def output_dir(path):
-    """``path`` as a Path, checked before the work: it must be a folder that takes writes
-    (or can be created). OutputError (a message) otherwise."""
-    return check_output_dir(path)
-
-
 #: --lens-file-check, defined once for every command that takes --lens-file.
 lens_file_check_option = click.option(
     "--lens-file-check", "lens_file_check", type=click.Choice(LENS_FILE_CHECKS), default="warn",
@@ -285,13 +277,6 @@ def parse_color(text):
     if level is not None and stat != "share":
         raise ParameterError(f"--color {text!r}: only share takes a level (COL:share=LEVEL).")
     return column, stat, level
-
-
-def colour_data(ws, column):
-    """Where a --color column's row values come from: a feature in the table's own units
-    (any --scale undone), else the workspace (passthrough columns, categorical levels)."""
-    cloud = ws.cloud
-    return cloud.unscaled(column) if column in cloud.feature_names else ws
 
 
 def split_names(text):

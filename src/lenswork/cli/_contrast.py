@@ -14,7 +14,6 @@ from ..contrast import AGAINST
 from ..graph import LAYOUTS
 from ._common import (
     build_view,
-    colour_data,
     graph_options,
     input_options,
     lens_options,
@@ -172,7 +171,7 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
     colour = parse_color(color) if color else None
     ws, table, graph = build_from_options(cloud, seed, graph_opts)
     if colour is not None:  # a wrong column or level fails here, before any file is written
-        node_column_values(graph, colour_data(ws, colour[0]), colour[0], colour[1],
+        node_column_values(graph, ws, colour[0], colour[1],
                            level=colour[2])
     result = contrast_columns(
         graph, ws, list(feature_labels) or None, rows=rows, against=against, hops=hops,
@@ -192,7 +191,7 @@ def contrast_command(cloud, seed, graph_opts, feature_labels, row_ids, rows_file
         if colour is not None:
             figures[f"graph_{_safe(colour[0])}.png"] = draw_graph(
                 graph, color=colour[0], stat=colour[1], level=colour[2],
-                data=colour_data(ws, colour[0]),
+                data=ws,
                 layout=layout, random_state=seed)
     click.echo(graph.summary().text(max_features=0).split("\n  ...")[0])
     click.echo(result.text(top, all_features=all_features))

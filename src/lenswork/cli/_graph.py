@@ -12,7 +12,6 @@ from .._io import OutputSet
 from ..graph import LAYOUTS, write_graph_json, write_graphml, write_memberships
 from ._common import (
     build_view,
-    colour_data,
     graph_options,
     lens_options,
     parse_color,
@@ -135,7 +134,7 @@ def _colour_options(graph, ws, column, stat, level):
         )
     from ..columns import node_column_values
 
-    data = colour_data(ws, column)
+    data = ws  # features read in the table's units (PointCloud.unscaled)
     node_column_values(graph, data, column, stat, level=level)
     return {"color": column, "stat": stat, "level": level, "data": data}
 

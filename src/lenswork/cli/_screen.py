@@ -4,9 +4,10 @@ from __future__ import annotations
 
 import click
 
+from .._io import check_output_dir
 from ..screen import screen
 from ..table import FORMATS
-from ._common import input_options, neighbors_option, output_dir, screen_options
+from ._common import input_options, neighbors_option, screen_options
 
 __all__ = ["COMMANDS"]
 
@@ -49,7 +50,7 @@ def screen_command(cloud, seed, out_dir, settings, lens_format, neighbors, no_fi
     """
     if settings.lenses == () and not settings.extra:
         raise click.UsageError("--no-defaults needs at least one --lens.")
-    output_dir(out_dir)  # a folder that takes no writes fails here, before the work
+    check_output_dir(out_dir)  # a folder that takes no writes fails here, before the work
     ws = neighbors.workspace(cloud, seed)
     result = screen(ws, settings)
     click.echo(result.text())

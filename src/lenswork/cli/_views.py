@@ -4,11 +4,11 @@ from __future__ import annotations
 
 import click
 
-from .._io import OutputSet
+from .._io import OutputSet, check_output_dir
 from ..bootstrap import bootstrap_graph
 from ..compare import compare_views
 from ..stability import stability_map
-from ._common import graph_options, input_options, lens_options, lens_table, lens_views, output_dir
+from ._common import graph_options, input_options, lens_options, lens_table, lens_views
 
 __all__ = ["COMMANDS"]
 
@@ -106,7 +106,7 @@ def bootstrap(cloud, seed, lens_specs, lens_file, use, resamples, scheme, fracti
     recurs. bootstrap.csv holds one row per resample; bootstrap.json the
     summary, the settings and any suggestion.
     """
-    out = output_dir(out)
+    out = check_output_dir(out)
     ws = neighbors.workspace(cloud, seed)
     result = bootstrap_graph(
         lens_table(ws, lens_specs, lens_file, use), ws, settings=settings, resamples=resamples,
@@ -163,7 +163,7 @@ def compare(cloud, seed, lens_specs, lens_file, use, partition, match, out, no_f
     each pair of nodes); comparison.png draws the views side by side, each
     coloured by the other view's lens.
     """
-    out = output_dir(out)
+    out = check_output_dir(out)
     ws = neighbors.workspace(cloud, seed)
     views = lens_views(ws, lens_specs, lens_file, use)
     if len(views) < 2:
