@@ -65,7 +65,6 @@ overlap fraction.)
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -273,14 +272,18 @@ def check_weights(weights, scores):
 
 
 class PairPreservation:
-    """Neighbour preservation ``R_NX`` of sets of lens columns, cached per set.
+    """Neighbour preservation ``R_NX(K)`` of sets of lens columns, cached per set.
 
     Parameters
     ----------
     columns : array-like of shape (n_rows, m)
         The lens values on the rows used (every row, or a sample of them).
     neighbors : array-like of shape (n_rows, K), int
-        The data's K nearest neighbours among those rows.
+        The data's K nearest neighbours among those rows (the screen's shared graph).
+    scale : {"k", "log-auc"}, default="k"
+        Passed to :func:`lenswork.criteria.neighbour_preservation`: ``R_NX`` at
+        the graph's own K (the default; see the module notes) or the log-scale
+        area over k = 1..K.
 
     Examples
     --------
@@ -291,18 +294,20 @@ class PairPreservation:
     0.9
     """
 
-    def __init__(self, columns, neighbors):
+    def __init__(self, columns, neighbors, scale="k"):
         V = np.asarray(columns, dtype=np.float64)
         ok = np.isfinite(V).all(axis=0)
         self.U = np.column_stack([normalize(V[:, j], "rank") if ok[j] else np.zeros(len(V))
                                   for j in range(V.shape[1])])
         self.neighbors = np.asarray(neighbors, dtype=np.int64)
+        self.scale = scale
         self._cache = {}
 
     def __call__(self, indices):
         key = tuple(sorted(int(j) for j in indices))
         if key not in self._cache:
-            self._cache[key] = neighbour_preservation(self.U[:, list(key)], self.neighbors)
+            self._cache[key] = neighbour_preservation(self.U[:, list(key)], self.neighbors,
+                                                      scale=self.scale)
         return self._cache[key]
 
 
@@ -311,83 +316,59 @@ STRUCTURE_FLOOR = 0.25
 
 
 def joint_merit(scores, weights, floor=STRUCTURE_FLOOR):
-    """The merit of a pair with the structure the two lenses show together, or None.
+    """The structure two lenses show together: the pair rule's weight on ``R_NX``, or None.
 
     Parameters
     ----------
     scores : dict of str -> ndarray of shape (m,)
-        Score columns; the pair rule needs ``structure``, ``coherence``,
-        ``loop_significance`` and ``branch_significance`` (the structure probe's).
+        Score columns; the pair rule needs ``loop_significance`` and
+        ``branch_significance`` (the structure probe's).
     weights : dict of str -> float
-        The merit's weights.
+        The merit's weights; the structure must enter them.
     floor : float, default=0.25
+        The weight of a pair that shows no significant loop or branch (the
+        probe's floor for a lens that reveals nothing).
 
     Returns
     -------
     callable or None
-        ``merit(i, j)``: the weighted geometric mean of ``sqrt(s_i s_j)`` over the
-        weighted score columns, except ``structure``, which is the pair's own:
-        ``sqrt(c_i c_j) (floor + (1 - floor)(1 - 2^-(T_loop + T_branch)))`` with
+        ``merit(i, j) = floor + (1 - floor)(1 - 2^-(T_loop + T_branch))`` with
         ``T_loop = max(T_loop_i, T_loop_j)`` and ``T_branch`` likewise
         (``T = -log2(1 - significance)``, the probe's totals per kind). So a pair
         of a lens that shows the loop and one that shows the tails gets credit
-        for both, and two lenses that show the same loop get it once. The mean
-        is then multiplied by the pair's coverage, ``prod_kind ((1 + r_kind) /
-        2) ** (w_structure / sum w)`` over the kinds (loops, branches) some
-        candidate shows, with ``r_kind`` the larger ``merit_i * sig_kind_i`` of
-        the pair over the largest of any candidate (``sig_kind``: the probe's
-        ``loop_significance`` or ``branch_significance``): a pair that leaves
-        out the loops or the tails that the best lenses show loses as much as
-        a structure score halved. None when the structure does not enter the
-        merit or the columns are missing.
+        for both, two lenses that show the same loop get it once, and pairs that
+        show nothing significant all weigh ``floor``: then ``R_NX`` alone
+        decides. The lenses' spread and smoothness do not enter: for a pair they
+        are what ``R_NX`` measures (a lens with ties or one that scatters data
+        neighbours scatters the pair's neighbourhoods), and counting them again
+        let one lens's smoothness outweigh a neighbour-preservation gap between
+        pairs. None when the structure does not enter the merit or the columns
+        are missing (the pair rule then weighs ``R_NX`` by ``sqrt(merit_i
+        merit_j)``).
 
     Examples
     --------
-    >>> s = {"structure": [0.625, 0.4375, 0.625], "coherence": [1.0, 1.0, 1.0],
-    ...      "loop_significance": [0.5, 0.0, 0.5], "branch_significance": [0.0, 0.25, 0.0]}
+    >>> s = {"structure": [0.625, 0.4375, 0.625, 0.25],
+    ...      "loop_significance": [0.5, 0.0, 0.5, 0.0],
+    ...      "branch_significance": [0.0, 0.25, 0.0, 0.0]}
     >>> f = joint_merit(s, {"structure": 1.0})
-    >>> round(float(f(0, 1)), 4), round(float(f(0, 2)), 4)   # loop + tail beats loop + loop
-    (0.7188, 0.3125)
+    >>> round(f(0, 1), 4), round(f(0, 2), 4), round(f(1, 3), 4)  # loop + tail beats loop + loop
+    (0.7188, 0.625, 0.4375)
     """
-    need = ("structure", "coherence", "loop_significance", "branch_significance")
+    need = ("loop_significance", "branch_significance")
     if weights.get("structure", 0) <= 0 or not all(k in scores for k in need):
         return None
-    cols = {k: np.nan_to_num(np.asarray(v, dtype=np.float64), nan=0.0)
-            for k, v in scores.items() if k in weights or k in need}
-    total = sum(weights.values())
 
     def level(name):
-        s = np.clip(cols[name], 0.0, 1.0 - 1e-12)
+        s = np.clip(np.nan_to_num(np.asarray(scores[name], dtype=np.float64), nan=0.0),
+                    0.0, 1.0 - 1e-12)
         return -np.log2(1.0 - s)
 
     loop_t, branch_t = level("loop_significance"), level("branch_significance")
-    single = weighted_merit(cols, weights)
-    shown = [single * cols[k] for k in ("loop_significance", "branch_significance")]
-    best = [float(v.max()) if v.size else 0.0 for v in shown]
-
-    def coverage(i, j):
-        out = 1.0
-        for v, top in zip(shown, best):
-            if top > 0:
-                out *= 0.5 * (1.0 + min(max(v[i], v[j]) / top, 1.0))
-        return out ** (weights["structure"] / total)
 
     def merit(i, j):
-        log_sum = 0.0
-        for name, w in weights.items():
-            if w == 0:
-                continue
-            if name == "structure":
-                T = max(loop_t[i], loop_t[j]) + max(branch_t[i], branch_t[j])
-                v = math.sqrt(cols["coherence"][i] * cols["coherence"][j]) \
-                    * (floor + (1.0 - floor) * (1.0 - 2.0 ** (-T)))
-                v = max(v, math.sqrt(cols[name][i] * cols[name][j]))
-            else:
-                v = math.sqrt(max(cols[name][i], 0.0) * max(cols[name][j], 0.0))
-            if v <= 0:
-                return 0.0
-            log_sum += w * math.log(v)
-        return math.exp(log_sum / total) * coverage(i, j)
+        T = max(loop_t[i], loop_t[j]) + max(branch_t[i], branch_t[j])
+        return float(floor + (1.0 - floor) * (1.0 - 2.0 ** (-T)))
 
     return merit
 
