@@ -16,6 +16,13 @@ measurements shipped inside two PyPI packages (the optional extra ``holdout``):
   prestige and mentor's articles of 915 PhD biochemists, counts with 168 duplicate rows,
   labelled by sex), added with the development suite's tables of ties and small clinical
   tables (tests/_judgement_data.py: DoctorAUS, email, NeuroCog) and kept out of them;
+  DAAG ``ais`` (Telford and Cunningham 1991: eleven blood and body measurements of 202
+  Australian athletes, labelled by sex), DAAG ``possum`` (Lindenmayer et al. 1995: nine body
+  measurements of 101 mountain brushtail possums with complete records, Victoria or not),
+  AER ``Affairs`` (Fair 1978: seven counts and ratings of 601 people, mostly zero affairs,
+  labelled by sex) and AER ``NMES1988`` (Deb and Trivedi 1997: ten counts of medical care
+  of 4,406 people, mostly zero, labelled by self-rated health), added with the pair rule's
+  change to R_NX at the neighbour graph's K and run once, after it was fixed;
 * ``palmerpenguins`` (Gorman, Williams and Fraser 2014: four body measurements of 333
   penguins with complete records, 3 species).
 
@@ -120,5 +127,37 @@ def phd_pubs(rng):
                 source="vcdExtra PhdPubs: 5 counts / flags, 18% duplicate rows; sex")
 
 
+def athletes(rng):
+    d = _rdata("DAAG", "ais")
+    cols = ["rcc", "wcc", "hc", "hg", "ferr", "bmi", "ssf", "pcBfat", "lbm", "ht", "wt"]
+    return Case("athletes", _zscore(d[cols].to_numpy(dtype=float)), _labels(d["sex"]),
+                source="DAAG ais: 11 blood and body measurements of 202 athletes; sex")
+
+
+def possums(rng):
+    d = _rdata("DAAG", "possum")
+    cols = ["hdlngth", "skullw", "totlngth", "taill", "footlgth", "earconch", "eye", "chest",
+            "belly"]
+    d = d.dropna(subset=cols)
+    return Case("possums", _zscore(d[cols].to_numpy(dtype=float)), _labels(d["Pop"]),
+                source="DAAG possum: 9 body measurements of 101 possums; Victoria or not")
+
+
+def affairs(rng):
+    d = _rdata("AER", "Affairs")
+    cols = ["affairs", "age", "yearsmarried", "religiousness", "education", "occupation",
+            "rating"]
+    return Case("affairs", d[cols].to_numpy(dtype=float), _labels(d["gender"]),
+                source="AER Affairs: 7 counts and ratings of 601 people, 75% no affairs; sex")
+
+
+def medical_use(rng):
+    d = _rdata("AER", "NMES1988")
+    cols = ["visits", "nvisits", "ovisits", "novisits", "emergency", "hospital", "chronic",
+            "age", "school", "income"]
+    return Case("medical_use", d[cols].to_numpy(dtype=float), _labels(d["health"]),
+                source="AER NMES1988: 10 counts of medical care, mostly 0; 3 health ratings")
+
+
 BUILDERS = (crabs, glass, olive, penguins, temperature_windows, sunspot_windows, skulls,
-            phd_pubs)
+            phd_pubs, athletes, possums, affairs, medical_use)

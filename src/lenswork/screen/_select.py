@@ -322,7 +322,7 @@ def joint_merit(scores, weights, floor=STRUCTURE_FLOOR):
     ----------
     scores : dict of str -> ndarray of shape (m,)
         Score columns; the pair rule needs ``loop_significance`` and
-        ``branch_significance`` (the structure probe's).
+        ``branch_significance`` (the structure probe's) and the merit's columns.
     weights : dict of str -> float
         The merit's weights; the structure must enter them.
     floor : float, default=0.25
@@ -332,19 +332,26 @@ def joint_merit(scores, weights, floor=STRUCTURE_FLOOR):
     Returns
     -------
     callable or None
-        ``merit(i, j) = floor + (1 - floor)(1 - 2^-(T_loop + T_branch))`` with
-        ``T_loop = max(T_loop_i, T_loop_j)`` and ``T_branch`` likewise
-        (``T = -log2(1 - significance)``, the probe's totals per kind). So a pair
-        of a lens that shows the loop and one that shows the tails gets credit
-        for both, two lenses that show the same loop get it once, and pairs that
-        show nothing significant all weigh ``floor``: then ``R_NX`` alone
-        decides. The lenses' spread and smoothness do not enter: for a pair they
-        are what ``R_NX`` measures (a lens with ties or one that scatters data
-        neighbours scatters the pair's neighbourhoods), and counting them again
-        let one lens's smoothness outweigh a neighbour-preservation gap between
-        pairs. None when the structure does not enter the merit or the columns
-        are missing (the pair rule then weighs ``R_NX`` by ``sqrt(merit_i
-        merit_j)``).
+        ``merit(i, j) = (floor + (1 - floor)(1 - 2^-(T_loop + T_branch))) *
+        coverage(i, j)`` with ``T_loop = max(T_loop_i, T_loop_j)`` and
+        ``T_branch`` likewise (``T = -log2(1 - significance)``, the probe's
+        totals per kind). So a pair of a lens that shows the loop and one that
+        shows the tails gets credit for both, two lenses that show the same loop
+        get it once, and pairs that show nothing significant all weigh
+        ``floor``: then ``R_NX`` alone decides. The coverage is ``prod_kind ((1
+        + r_kind) / 2) ** (w_structure / sum w)`` over the kinds (loops,
+        branches) some candidate shows, with ``r_kind`` the larger ``merit_i *
+        sig_kind_i`` of the pair over the largest of any candidate
+        (``sig_kind``: the probe's ``loop_significance`` or
+        ``branch_significance``): a pair that leaves out the loops or the tails
+        that the best lenses show loses as much as a structure score halved.
+        The lenses' spread and smoothness do not enter on their own: for a pair
+        they are what ``R_NX`` measures (a lens with ties or one that scatters
+        data neighbours scatters the pair's neighbourhoods), and counting them
+        again let one lens's smoothness outweigh a gap in neighbour
+        preservation between pairs. None when the structure does not enter the
+        merit or the columns are missing (the pair rule then weighs ``R_NX`` by
+        ``sqrt(merit_i merit_j)``).
 
     Examples
     --------
@@ -353,22 +360,30 @@ def joint_merit(scores, weights, floor=STRUCTURE_FLOOR):
     ...      "branch_significance": [0.0, 0.25, 0.0, 0.0]}
     >>> f = joint_merit(s, {"structure": 1.0})
     >>> round(f(0, 1), 4), round(f(0, 2), 4), round(f(1, 3), 4)  # loop + tail beats loop + loop
-    (0.7188, 0.625, 0.4375)
+    (0.7188, 0.3125, 0.2188)
     """
     need = ("loop_significance", "branch_significance")
     if weights.get("structure", 0) <= 0 or not all(k in scores for k in need):
         return None
+    cols = {k: np.nan_to_num(np.asarray(v, dtype=np.float64), nan=0.0)
+            for k, v in scores.items() if k in weights or k in need}
 
     def level(name):
-        s = np.clip(np.nan_to_num(np.asarray(scores[name], dtype=np.float64), nan=0.0),
-                    0.0, 1.0 - 1e-12)
-        return -np.log2(1.0 - s)
+        return -np.log2(1.0 - np.clip(cols[name], 0.0, 1.0 - 1e-12))
 
     loop_t, branch_t = level("loop_significance"), level("branch_significance")
+    single = weighted_merit(cols, weights)
+    shown = [single * cols[k] for k in need]
+    best = [float(v.max()) if v.size else 0.0 for v in shown]
+    power = weights["structure"] / sum(weights.values())
 
     def merit(i, j):
         T = max(loop_t[i], loop_t[j]) + max(branch_t[i], branch_t[j])
-        return float(floor + (1.0 - floor) * (1.0 - 2.0 ** (-T)))
+        coverage = 1.0
+        for v, top in zip(shown, best):
+            if top > 0:
+                coverage *= 0.5 * (1.0 + min(max(v[i], v[j]) / top, 1.0))
+        return float((floor + (1.0 - floor) * (1.0 - 2.0 ** (-T))) * coverage ** power)
 
     return merit
 
