@@ -63,9 +63,10 @@ The screen's merit
 The screen (:mod:`lenswork.screen`) ranks candidates by the geometric mean of
 robust spread, smoothness and the probe's significance-based structure score
 (:func:`lenswork.probe.structure_scores`), :func:`proposed_merit` with equal
-weights, and picks the pair with the largest ``R_NX(pair) * sqrt(merit_i
-merit_j)`` under the redundancy ceiling (``lenswork.screen._select`` says
-why). Measured in tests/benchmarks/bench_judgement.py.
+weights, and picks the pair with the largest ``R_NX(K)`` (``scale="k"``, K the
+shared neighbour graph's) times the structure the two lenses show together,
+under the redundancy ceiling (``lenswork.screen._select`` says why). Measured
+in tests/benchmarks/bench_judgement.py.
 
 References
 ----------

@@ -17,9 +17,10 @@ pure noise, ``column:name=noise``) and print:
 
 The main table is the screen's default (merit: robust spread x Laplacian smoothness x
 significance-based structure, geometric mean; pair: R_NX(K) x the structure the two show, under
-the ceiling; single-lens ranking by merit). With ``--baseline`` a second table re-ranks the same candidate columns by the
-earlier default (histogram-entropy spread x count-based structure, greedy ``merit * (1 - |rho|)``
-rule), from the score columns the screen already holds (the probe grid is the new one).
+the ceiling; single-lens ranking by merit). With ``--baseline`` a second table re-ranks the same
+candidate columns by the earlier default (histogram-entropy spread x count-based structure,
+greedy ``merit * (1 - |rho|)`` rule), from the score columns the screen already holds (the probe
+grid is the new one).
 
 Run: ``OMP_NUM_THREADS=1 nice -n 15 python tests/benchmarks/bench_judgement.py [--quick]
 [--baseline] [--verbose] [--only wine,iris]`` (untimed: no lock needed).

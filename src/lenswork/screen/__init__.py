@@ -6,8 +6,9 @@ Cai and Niyogi, NIPS 2005) and when its graphs show significant structure
 (loops and branches spanning more of its range than the cover can make,
 by extended persistence: Carrière and Oudot, FoCM 2018; the structure
 probe). The merit is their geometric mean. The chosen pair is the one whose
-two-dimensional cover space best keeps each row's data neighbours (``R_NX``,
-Lee and Verleysen 2009) weighted by the merits, never two lenses with
+two-dimensional cover space best keeps each row's K data neighbours
+(``R_NX(K)``, Lee and Verleysen 2009, K the shared neighbour graph's) weighted
+by the structure the two lenses show together, never two lenses with
 ``|rho|`` above the redundancy ceiling.
 
 Public surface
