@@ -361,7 +361,8 @@ def joint_merit(scores, weights, floor=STRUCTURE_FLOOR):
         sig_kind_i`` of the pair over the largest of any candidate
         (``sig_kind``: the probe's ``loop_significance`` or
         ``branch_significance``): a pair that leaves out the loops or the tails
-        that the best lenses show loses as much as a structure score halved.
+        that the best lenses show loses what halving a lens's structure score
+        costs its merit, ``2^-(w_structure / sum w)``.
         The lenses' spread and smoothness do not enter on their own: for a pair
         they are what ``R_NX`` measures (a lens with ties or one that scatters
         data neighbours scatters the pair's neighbourhoods), and counting them
