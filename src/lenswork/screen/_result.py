@@ -143,7 +143,8 @@ class ScreenResult:
         elif pairing == "preservation":
             self.selection = select_by_preservation(
                 correlation, self.merit, preservation, count=count, ceiling=ceiling,
-                usable=self.usable, joint_merit=joint_merit(self.scores, self.weights),
+                usable=self.usable,
+                joint_merit=joint_merit(self.scores, self.weights, families=self._families()),
             )
         else:
             self.selection = select_lenses(
@@ -275,6 +276,10 @@ class ScreenResult:
             self._pres = out
         return self._pres
 
+    def _families(self):
+        """The lens family of each candidate (the pair rule's coverage counts kinds two show)."""
+        return [col.lens for col in self.lenses.columns]
+
     def partners(self):
         """For each candidate: (name, rho) of the most correlated other candidate."""
         m = len(self.names)
@@ -306,7 +311,8 @@ class ScreenResult:
                 nearest[j] = (self.names[i], float(self.correlation[j, i]))
         rest = [j for j in range(m) if j not in sel]
         pres = self.preservation
-        joint = joint_merit(self.scores, self.weights) if self.pairing == "preservation" else None
+        joint = joint_merit(self.scores, self.weights, families=self._families()) \
+            if self.pairing == "preservation" else None
         for j in rest:
             if sel:
                 i = sel[int(np.argmax(absr[j, sel]))]

@@ -332,7 +332,7 @@ class PairPreservation:
 STRUCTURE_FLOOR = 0.25
 
 
-def joint_merit(scores, weights, floor=STRUCTURE_FLOOR):
+def joint_merit(scores, weights, floor=STRUCTURE_FLOOR, families=None):
     """The structure two lenses show together: the pair rule's weight on ``R_NX``, or None.
 
     Parameters
@@ -345,6 +345,10 @@ def joint_merit(scores, weights, floor=STRUCTURE_FLOOR):
     floor : float, default=0.25
         The weight of a pair that shows no significant loop or branch (the
         probe's floor for a lens that reveals nothing).
+    families : sequence of str, optional
+        The lens family of each candidate (``LensColumn.lens``). The coverage
+        then counts only the kinds of structure that lenses of at least two
+        families show (default: every kind some candidate shows).
 
     Returns
     -------
@@ -362,7 +366,13 @@ def joint_merit(scores, weights, floor=STRUCTURE_FLOOR):
         (``sig_kind``: the probe's ``loop_significance`` or
         ``branch_significance``): a pair that leaves out the loops or the tails
         that the best lenses show loses what halving a lens's structure score
-        costs its merit, ``2^-(w_structure / sum w)``.
+        costs its merit, ``2^-(w_structure / sum w)``. With ``families``, a kind
+        that lenses of one family alone show is left out of the coverage: one
+        construction's feature may be its artefact (a Laplacian vector computed
+        per piece of a disconnected neighbour graph puts its pieces at
+        arbitrary levels, and its graphs branch between them), while two
+        constructions that agree point at the data; the pair still gets the
+        kind's credit in ``T``.
         The lenses' spread and smoothness do not enter on their own: for a pair
         they are what ``R_NX`` measures (a lens with ties or one that scatters
         data neighbours scatters the pair's neighbourhoods), and counting them
@@ -379,6 +389,9 @@ def joint_merit(scores, weights, floor=STRUCTURE_FLOOR):
     >>> f = joint_merit(s, {"structure": 1.0})
     >>> round(f(0, 1), 4), round(f(0, 2), 4), round(f(1, 3), 4)  # loop + tail beats loop + loop
     (0.7188, 0.3125, 0.2188)
+    >>> g = joint_merit(s, {"structure": 1.0}, families=["pca", "density", "pca", "dtm"])
+    >>> round(g(0, 2), 4)   # the loop is one family's, the tail another's: no coverage
+    0.625
     """
     need = ("loop_significance", "branch_significance")
     if weights.get("structure", 0) <= 0 or not all(k in scores for k in need):
@@ -391,7 +404,9 @@ def joint_merit(scores, weights, floor=STRUCTURE_FLOOR):
 
     loop_t, branch_t = level("loop_significance"), level("branch_significance")
     single = weighted_merit(cols, weights)
-    shown = [single * cols[k] for k in need]
+    kinds = need if families is None else [
+        k for k in need if len({families[j] for j in np.flatnonzero(cols[k] > 0)}) >= 2]
+    shown = [single * cols[k] for k in kinds]
     best = [float(v.max()) if v.size else 0.0 for v in shown]
     power = weights["structure"] / sum(weights.values())
 
