@@ -18,7 +18,7 @@ measurements shipped inside two PyPI packages (the optional extra ``holdout``):
   tables (tests/_judgement_data.py: DoctorAUS, email, NeuroCog) and kept out of them;
   DAAG ``ais`` (Telford and Cunningham 1991: eleven blood and body measurements of 202
   Australian athletes, labelled by sex), DAAG ``possum`` (Lindenmayer et al. 1995: nine body
-  measurements of 101 mountain brushtail possums with complete records, Victoria or not),
+  measurements of 103 mountain brushtail possums with complete records, Victoria or not),
   AER ``Affairs`` (Fair 1978: seven counts and ratings of 601 people, mostly zero affairs,
   labelled by sex) and AER ``NMES1988`` (Deb and Trivedi 1997: ten counts of medical care
   of 4,406 people, mostly zero, labelled by self-rated health), added with the pair rule's
@@ -140,7 +140,7 @@ def possums(rng):
             "belly"]
     d = d.dropna(subset=cols)
     return Case("possums", _zscore(d[cols].to_numpy(dtype=float)), _labels(d["Pop"]),
-                source="DAAG possum: 9 body measurements of 101 possums; Victoria or not")
+                source="DAAG possum: 9 body measurements of 103 possums; Victoria or not")
 
 
 def affairs(rng):
