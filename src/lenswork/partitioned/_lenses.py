@@ -40,13 +40,29 @@ from .. import __version__
 from .._errors import ParameterError
 from .._io import OutputSet, atomic_path, check_output_file, write_text
 from .._json import dumps
-from .._validation import check_float, check_float_or_choice, check_int, seed_of
+from .._validation import (
+    check_choice,
+    check_float,
+    check_float_or_choice,
+    check_int,
+    seed_of,
+)
 from ..lenses import get_lens, lens_request
-from ..lenses._density import kernel_cholesky
+from ..lenses._common import PROBES, calibrate_error
+from ..lenses._density import (
+    DENSITY_PROBES,
+    EXACT_MAX_ROWS,
+    MODES,
+    REFERENCE_SIZE,
+    kernel_cholesky,
+    log_kernel_sum,
+    subsample_log_density,
+    whiten_rows,
+)
 from ..lenses._laplacian import laplacian_eigenmaps
 from ..lenses._nystrom import nystrom_extend
 from ._intake import require_dask, tree_reduce
-from ._sample import sample_cloud
+from ._sample import keyed_sample, sample_cloud
 
 __all__ = ["PARTITIONED_LENSES", "PartitionedLenses", "partitioned_lenses"]
 
@@ -125,8 +141,8 @@ def _raw_part_lens(part, offset, spec, ctx):
     if kind == "eccentricity" and p["p"] == 2.0:
         Xc = X - ctx["mean"]
         return np.sqrt(np.einsum("ij,ij->i", Xc, Xc) + ctx["spread"])[:, None], None
-    L, lpos, N = ctx["landmarks"], ctx["positions"], ctx["n"]
     if kind == "eccentricity":
+        L, lpos, N = ctx["landmarks"], ctx["positions"], ctx["n"]
         pp = p["p"]
 
         def value(Q, L):
@@ -138,20 +154,16 @@ def _raw_part_lens(part, offset, spec, ctx):
         with np.errstate(divide="ignore", invalid="ignore"):
             err = np.where(mu > 0, vals * se / (pp * mu), 0.0)
         return vals[:, None], err[:, None]
-    if kind == "density":
-        W, logc = ctx["whiten"], ctx["log_norm"]
-        LZ = L @ W.T
-
-        def value(Q, _L):
-            Z = Q @ W.T
-            return np.exp(-0.5 * _sq_dist(Z, LZ)), np.ones(Q.shape[0])
-
-        f, se = _landmark_mean(X, pos, L, lpos, N, value)
-        rel = se / f
+    if kind == "density":  # the single machine's estimator and reference rows
+        logf, rel, _ = subsample_log_density(
+            whiten_rows(X, ctx["mean"], ctx["chol"]), ctx["ref_z"], ctx["n"], ctx["log_norm"],
+            ref_rows=ctx["ref_positions"], query_rows=pos)
+        rel = None if ctx["ref_positions"].size >= ctx["n"] else rel  # exact: no error
         if p["log"]:
-            return (np.log(f) + logc)[:, None], rel[:, None]
-        c = math.exp(logc)
-        return (f * c)[:, None], (rel * f * c)[:, None]
+            return logf[:, None], None if rel is None else rel[:, None]
+        f = np.exp(logf)
+        return f[:, None], None if rel is None else (rel * f)[:, None]
+    L = ctx.get("landmarks")
     if kind == "dtm":
         w, mass, near = ctx["weights"], ctx["mass"], ctx["dtm_candidates"]
         out = np.empty(X.shape[0])
@@ -176,11 +188,6 @@ def _raw_part_lens(part, offset, spec, ctx):
     raise AssertionError(kind)
 
 
-#: The share of a normal within 1 sd (standard normal table): the stated error's coverage.
-_ONE_SD_SHARE = 0.6827
-#: Seeded rows at which the estimated lenses are also computed exactly (one pass over all
-#: rows, probes x n x d flops) to calibrate the error they state.
-PROBES = 200
 #: The DTM's exact pass keeps the k = ceil(m N) smallest squared distances per probe: at most
 #: this many values (32 MB) per partial result, so fewer probes when k is large (a 1e7-row
 #: table with m = 0.01 keeps 40), never fewer than _MIN_PROBES.
@@ -199,12 +206,9 @@ def _probe_piece(part, offset, P, ppos, spec, ctx):
     kind, p = spec["kind"], spec["params"]
     rows = offset + np.arange(X.shape[0])
     _, qi, ci = np.intersect1d(ppos, rows, assume_unique=True, return_indices=True)
-    if kind == "density":
-        W = ctx["whiten"]
-        E = -0.5 * _sq_dist(P @ W.T, X @ W.T)
-        E[qi, ci] = 0.0
-        top = E.max(1) if E.shape[1] else np.full(P.shape[0], -np.inf)
-        return top, np.exp(E - top[:, None]).sum(1)
+    if kind == "density":  # log of the kernel sum over the partition's rows
+        return log_kernel_sum(whiten_rows(P, ctx["mean"], ctx["chol"]),
+                              whiten_rows(X, ctx["mean"], ctx["chol"]))
     D = _sq_dist(P, X)
     D[qi, ci] = 0.0
     if kind == "eccentricity":
@@ -218,10 +222,7 @@ def _probe_merge(kind, k):
     if kind == "eccentricity":
         return lambda a, b: a + b
     if kind == "density":
-        def merge(a, b):
-            top = np.maximum(a[0], b[0])
-            return top, a[1] * np.exp(a[0] - top) + b[1] * np.exp(b[0] - top)
-        return merge
+        return np.logaddexp
 
     def smallest(a, b):
         D = np.concatenate([a, b], axis=1)
@@ -256,42 +257,12 @@ def _calibrate(cloud, parts, spec, sctx, probes):
               for i, pt in enumerate(parts)]
     total = dask.compute(tree_reduce(pieces, dask.delayed(_probe_merge(kind, k), pure=True)))[0]
     if kind == "density":
-        logf = total[0] + np.log(total[1]) - math.log(n) + sctx["log_norm"]
+        logf = total - math.log(n) + sctx["log_norm"]
         exact = logf if p["log"] else np.exp(logf)
     else:
         exact = _probe_exact(kind, p, total, n, k)
     est, err = _raw_part_lens((P,), ppos, spec, sctx)
     return exact, est[:, 0], None if err is None else err[:, 0]
-
-
-def _calibration(exact, est, err):
-    """(scale of the stated error, figures for the provenance) from the probe rows.
-
-    The stated error of a row is a one-sd-like band: about 68.27% of rows (the share of a
-    normal within 1 sd, standard normal table) have an actual error below it. With a per-row
-    standard error se the band is ``error_scale * se``, error_scale = the 68.27% quantile of
-    |estimate - exact| / se over the probes (1 when the se is right; the se's own sample is
-    blind to the rare large kernel terms of a sum in high dimension, so it can be several
-    times too small there). Without one the band is that quantile of |estimate - exact|, the
-    same for every row. ``tail_factor_90`` / ``tail_factor_99``: the multiples of the band
-    that cover 90% / 99% of the probes (1.64 / 2.58 for a normal error).
-    """
-    actual = np.abs(est - exact)
-    figures = {"probe_rows": int(exact.size), "probe_rms_error": float(np.sqrt(np.mean(
-        actual**2))), "probe_max_error": float(actual.max())}
-    if err is None:
-        z, scale = actual, float(np.quantile(actual, _ONE_SD_SHARE))
-    else:
-        ok = err > 0
-        z = actual[ok] / err[ok] if ok.any() else np.zeros(1)
-        scale = float(np.quantile(z, _ONE_SD_SHARE))
-    if not scale > 0:
-        scale = 1.0 if err is not None else float(actual.max())
-    figures.update(tail_factor_90=float(np.quantile(z, 0.9) / scale) if scale else 0.0,
-                   tail_factor_99=float(np.quantile(z, 0.99) / scale) if scale else 0.0)
-    if err is not None:
-        figures["error_scale"] = scale
-    return scale, figures
 
 
 def _quantise(part, L):
@@ -316,7 +287,8 @@ PARTITIONED_LENSES = {
     "pca": {"components": 2},
     "eccentricity": {"p": 2.0},
     "column": {"name": None},
-    "density": {"bandwidth": "scott", "log": True},
+    "density": {"bandwidth": "scott", "log": True, "mode": "auto",
+                "reference_size": REFERENCE_SIZE},
     "dtm": {"mass": 0.01},
     "laplacian": {"components": 2, "k": 15, "weights": "heat"},
 }
@@ -375,6 +347,8 @@ def _parse_spec(name, params, cloud):
         p["bandwidth"] = check_float_or_choice("bandwidth", p["bandwidth"], ("scott",), context=ctx)
         if isinstance(p["log"], str):
             p["log"] = p["log"].strip().lower() in ("1", "true", "yes")
+        p["reference_size"] = check_int("reference_size", p["reference_size"], lo=2, context=ctx)
+        p["mode"] = check_choice("mode", p["mode"], MODES, context=ctx)
         spec["names"] = _column_names(name, p)
     elif name == "dtm":
         p["mass"] = check_float("mass", p["mass"], lo=0.0, hi=1.0, lo_open=True, context=ctx)
@@ -555,7 +529,7 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
     base = {"lenswork_version": __version__, "input_sha256": cloud.provenance["sha256"],
             "random_state": random_state, "n_rows": n}
     needs_sample = any(
-        s["kind"] in ("density", "dtm", "laplacian")
+        s["kind"] in ("dtm", "laplacian")
         or (s["kind"] == "eccentricity" and s["params"]["p"] != 2.0) for s in specs
     )
     parts = cloud.delayed_parts()
@@ -564,7 +538,7 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
         L = sample.X
         ctx["landmarks"] = L
         ctx["positions"] = sample.provenance["sample_positions"]
-    provs, per_spec, probes = [], [], None
+    provs, per_spec, probes = [], [], {}
     for spec in specs:
         kind, p = spec["kind"], spec["params"]
         prov = [dict(base, lens=kind, column=name, params=dict(p)) for name in spec["names"]]
@@ -580,25 +554,41 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
             prov[0].update(exact=True, error="none: exact" + (
                 " closed form E_2(x)^2 = ||x - mean||^2 + (1/N) sum ||y - mean||^2"
                 if kind == "eccentricity" else " (the feature column)"))
-        elif kind in ("eccentricity", "density"):
-            if kind == "density":
-                H = cloud.scatter / (n - 1) * n ** (-2.0 / (d + 4))
-                if p["bandwidth"] != "scott":
-                    H = np.eye(d) * float(p["bandwidth"]) ** 2
-                Lc = kernel_cholesky(H, p["bandwidth"] if isinstance(p["bandwidth"], str)
-                                     else "fixed")  # the single machine's refusal
-                sctx["whiten"] = np.linalg.inv(Lc)
-                sctx["log_norm"] = float(-0.5 * d * math.log(2 * math.pi)
-                                         - np.log(np.diag(Lc)).sum())
-                prov[0]["bandwidth_matrix"] = H
-            what = ("the relative standard error of the density (that of log density, delta "
-                    "method)" if kind == "density" else
-                    "the standard error of E_p carried from mean d^p by the delta method")
+        elif kind == "density":
+            H = cloud.scatter / (n - 1) * n ** (-2.0 / (d + 4))
+            if p["bandwidth"] != "scott":
+                H = np.eye(d) * float(p["bandwidth"]) ** 2
+            Lc = kernel_cholesky(H, p["bandwidth"] if isinstance(p["bandwidth"], str)
+                                 else "fixed")  # the single machine's refusal
+            sctx["whiten"], sctx["chol"] = np.linalg.inv(Lc), Lc
+            sctx["log_norm"] = float(-0.5 * d * math.log(2 * math.pi) - np.log(np.diag(Lc)).sum())
+            # the single machine's mode "auto": every row a reference up to its exact size,
+            # else its seeded reference subsample (the same rows, by the same keyed rule)
+            exact = p["mode"] == "exact" or (
+                p["mode"] == "auto" and n <= max(EXACT_MAX_ROWS, p["reference_size"]))
+            m = n if exact else min(n, p["reference_size"])
+            R, rpos = keyed_sample(cloud, m, random_state=random_state)
+            sctx["ref_z"], sctx["ref_positions"] = whiten_rows(R, cloud.mean, Lc), rpos
+            prov[0]["bandwidth_matrix"] = H
+            if m >= n:
+                prov[0].update(exact=True, mode="exact", error="none: exact sum over all rows "
+                               "(every row broadcast as a reference, as the single machine's "
+                               f"exact mode up to {EXACT_MAX_ROWS:,} rows)")
+            else:
+                prov[0].update(
+                    exact=False, mode="scalable", reference_size=int(m),
+                    error=f"the single machine's scalable estimate: own term exact, the other "
+                    f"N - 1 terms from the mean over the same seeded subsample of {m} rows "
+                    f"(lenswork.lenses._common.sample_rows' keyed rule); the error column holds "
+                    f"the relative standard error of the density (that of log density, delta "
+                    f"method), se = sd / sqrt(m) * sqrt(1 - m/N)")
+        elif kind == "eccentricity":
             prov[0].update(
                 exact=False, landmarks=int(L.shape[0]),
                 error=f"Monte Carlo: own term exact, the other N - 1 terms from the mean over "
                 f"a seeded uniform sample of s = {L.shape[0]} rows; se = sd / sqrt(s) * "
-                f"sqrt(1 - s/N); the error column holds {what}",
+                f"sqrt(1 - s/N); the error column holds the standard error of E_p carried "
+                f"from mean d^p by the delta method",
             )
         elif kind == "dtm":
             counts, total = dask.compute(tree_sum(
@@ -633,11 +623,12 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
                           "between the solution on all landmarks and the extension of the "
                           "solution on the other half")
         if kind in ("eccentricity", "density", "dtm") and not prov[0]["exact"]:
-            if probes is None:
-                probe = sample_cloud(cloud, min(PROBES, n), random_state=seed_of(random_state) + 1)
-                probes = (probe.X, np.asarray(probe.provenance["sample_positions"]))
-            exact, est, err = _calibrate(cloud, parts, spec, sctx, probes)
-            scale, figures = _calibration(exact, est, err)
+            size = DENSITY_PROBES if kind == "density" else PROBES
+            if size not in probes:  # probe_positions' rows: the single machine's probes
+                probe = sample_cloud(cloud, min(size, n), random_state=seed_of(random_state) + 1)
+                probes[size] = (probe.X, np.asarray(probe.provenance["sample_positions"]))
+            exact, est, err = _calibrate(cloud, parts, spec, sctx, probes[size])
+            scale, figures = calibrate_error(exact, est, err)
             if err is None:
                 sctx["error_rms"] = scale
                 what = ("the error column holds the 68.27% quantile of the actual error over "
