@@ -110,8 +110,8 @@ def test_estimated_lenses_within_stated_error(client):
     cloud = open_partitioned(da.from_array(X, chunks=(1000, 2)))
     k = math.ceil(0.05 * 3000)
     lens = partitioned_lenses(
-        cloud, ["density", "eccentricity:p=1", f"dtm:mass={k / 3000}"], landmarks=500,
-        random_state=3,
+        cloud, ["density:mode=scalable,reference_size=500", "eccentricity:p=1",
+                f"dtm:mass={k / 3000}"], landmarks=500, random_state=3,
     )
     values, errors = lens.compute()
     # density: scipy.stats.gaussian_kde (Scott's rule, full covariance; Scott 1992) on all rows
@@ -156,8 +156,8 @@ def test_estimated_lenses_state_their_actual_error_in_high_dimension(client):
     X = Y @ np.linalg.qr(rng.normal(size=(d, 3)))[0].T + rng.normal(0, 0.05, (n, d))
     mass = 0.02
     lens = partitioned_lenses(open_partitioned(da.from_array(X, chunks=(1000, d))),
-                              ["eccentricity:p=1", "density", f"dtm:mass={mass}"],
-                              landmarks=300, random_state=1)
+                              ["eccentricity:p=1", "density:mode=scalable,reference_size=300",
+                               f"dtm:mass={mass}"], landmarks=300, random_state=1)
     values, errors = lens.compute()
     k = math.ceil(mass * n)
     dist, _ = NearestNeighbors(n_neighbors=k).fit(X).kneighbors(X)  # self first, at 0
@@ -166,7 +166,8 @@ def test_estimated_lenses_state_their_actual_error_in_high_dimension(client):
              np.sqrt(np.mean(dist**2, axis=1))]  # DTM of the empirical measure at mass k/n
     for j, name in enumerate(lens.names):
         ratio = np.abs(values[:, j] - exact[j]) / errors[:, j]
-        assert np.all(np.isfinite(ratio)) and lens.provenance[j]["probe_rows"] == 200, name
+        probes = 1000 if lens.provenance[j]["lens"] == "density" else 200  # DENSITY_PROBES
+        assert np.all(np.isfinite(ratio)) and lens.provenance[j]["probe_rows"] == probes, name
         tail = lens.provenance[j]["tail_factor_90"]
         assert 0.55 < np.mean(ratio <= 1) < 0.8, (name, np.mean(ratio <= 1))
         assert 0.8 < np.mean(ratio <= tail) < 0.97, (name, np.mean(ratio <= tail))

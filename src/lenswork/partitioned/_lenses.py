@@ -601,6 +601,9 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
             light = np.cumsum(np.sort(counts / n))
             sctx["dtm_candidates"] = int(min(L.shape[0], np.searchsorted(light, mass) + 1))
             Q = math.sqrt(total / n)
+            # the mass asked is the mass used: no neighbour graph here, so no cap on k (the
+            # single machine caps k at its graph's, warns and names the column by its mass)
+            prov[0].update(mass=mass, mass_used=mass, k_requested=sctx["dtm_k"], capped=False)
             prov[0].update(
                 exact=False, landmarks=int(L.shape[0]), quantisation_error=Q,
                 error_bound=Q / math.sqrt(mass),
