@@ -6,16 +6,24 @@ Exact (equal to the single-machine lenses up to rounding)
     ``E_2(x)^2 = ||x - mean||^2 + (1/N) sum_y ||y - mean||^2``; ``column`` -- a
     feature column.
 
-Estimated against a broadcast seeded uniform sample of ``landmarks`` rows
+The single machine's density
     ``density`` -- Gaussian kernel density (Scott's full-covariance bandwidth
-    from the exact covariance), the own kernel term exact and the other
-    ``N - 1`` terms estimated by the sample mean, with the Monte Carlo standard
-    error ``sd / sqrt(s) * sqrt(1 - s / N)`` per row (relative standard error of
-    ``log f`` by the delta method); ``eccentricity`` with p != 2 -- the same
-    sampling for ``mean_y ||x - y||^p``, error carried to ``E_p`` by the delta
+    from the exact covariance, or a number) by the single machine's estimator
+    :func:`lenswork.lenses._density.subsample_log_density` on the same
+    reference rows (:func:`._sample.keyed_sample`): exact up to 50,000 rows
+    (every row a reference), above it the own term exact and the other
+    ``N - 1`` terms from the mean over 20,000 seeded reference rows, with the
+    relative standard error ``sd / sqrt(m) * sqrt(1 - m / N)`` per row
+    (that of ``log f`` by the delta method). Values and error column equal the
+    single machine's.
+
+Estimated against a broadcast seeded uniform sample of ``landmarks`` rows
+    ``eccentricity`` with p != 2 -- the sample mean of ``||x - y||^p`` (own term
+    exact), its Monte Carlo standard error carried to ``E_p`` by the delta
     method; ``dtm`` -- the distance to the measure ``nu`` that puts on each
     landmark the share of all rows nearest to it (a Voronoi quantisation of
-    the data), with the hard bound
+    the data), at the mass asked (no neighbour graph here, so no cap on k),
+    with the hard bound
     ``sup |d_{mu,m} - d_{nu,m}| <= W_2(mu, nu) / sqrt(m) <= Q / sqrt(m)``,
     ``Q^2 = (1/N) sum_x ||x - q(x)||^2`` (q: nearest landmark; the map x -> q(x)
     is a transport plan from mu to nu), by the stability theorem of Chazal,
@@ -23,11 +31,12 @@ Estimated against a broadcast seeded uniform sample of ``landmarks`` rows
     landmark solution extended by :func:`lenswork.lenses._nystrom.nystrom_extend`,
     its error measured on held-out landmarks.
 
-The density, eccentricity (p != 2) and DTM estimates are also computed exactly at
-``PROBES`` seeded rows (one pass over all rows), and the error column they write
-is calibrated there: a band about 68% of rows lie within (the standard error
-times ``error_scale``; for the DTM the actual error's quantile itself), with the
-tail factors that cover 90% and 99% (see :func:`_calibration`).
+The density (scalable), eccentricity (p != 2) and DTM estimates are also computed
+exactly at ``PROBES`` seeded rows (``DENSITY_PROBES`` for the density; one pass
+over all rows), and the error column they write is calibrated there: a band
+about 68% of rows lie within (the standard error times ``error_scale``; for the
+DTM the actual error's quantile itself), with the tail factors that cover 90%
+and 99% (see :func:`lenswork.lenses._common.calibrate_error`).
 """
 
 from __future__ import annotations
@@ -487,7 +496,9 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
         ``"dtm:mass=0.05"``, ``"laplacian:components=2,k=15"``.
     landmarks : int, default=2000
         Size of the broadcast seeded uniform sample (drawn by
-        :func:`sample_cloud`) the estimated lenses use.
+        :func:`sample_cloud`) the eccentricity (p != 2), DTM and Laplacian
+        estimates use; the density uses its own ``reference_size`` (20,000
+        above 50,000 rows), as on one machine.
     random_state : int, default=0
 
     Returns
@@ -498,7 +509,8 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
     -----
     See the module notes for what is exact and the stated error of each
     estimated lens. Cost per partition of n_i rows: O(n_i d m) for PCA, O(n_i d)
-    for the closed-form eccentricity, O(n_i s d) for the sample-based ones (s
+    for the closed-form eccentricity, O(n_i m d) for the density (m = its
+    reference rows, all rows up to 50,000), O(n_i s d) for the sample-based ones (s
     landmarks), plus one extra pass for the DTM's Voronoi weights and one
     Laplacian solve on the s landmarks (and one on half of them for the
     held-out error).
