@@ -578,3 +578,18 @@ def test_density_refusal_is_the_single_machines(client):
     with pytest.raises(InputError) as single_error:
         gaussian_density(X)
     assert str(cluster_error.value) == str(single_error.value)
+
+
+def test_density_bandwidth_refusals_are_the_single_machines(client):
+    # a numeric bandwidth far off the data's spread: the single machine's messages, word for word
+    X = _mixture(400, d=3)
+    cloud = open_partitioned(da.from_array(X, chunks=(150, 3)))
+    for h in (1e300, 1e7, 1e-9):
+        with pytest.raises(ParameterError) as cluster_error:
+            partitioned_lenses(cloud, [f"density:bandwidth={h}"])
+        with pytest.raises(ParameterError) as single_error:
+            gaussian_density(X, bandwidth=h)
+        assert str(cluster_error.value).replace("partitioned lens density", "") == str(
+            single_error.value).replace("gaussian_density", ""), h
+    with pytest.raises(ParameterError, match="takes bandwidth 'scott' or a number"):
+        partitioned_lenses(cloud, ["density:bandwidth=silverman"])

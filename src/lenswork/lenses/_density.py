@@ -52,6 +52,7 @@ from ._registry import LensPart, Param
 __all__ = [
     "GaussianDensity", "gaussian_density", "kernel_cholesky", "scott_bandwidth",
     "silverman_bandwidth", "subsample_log_density", "whiten_rows", "DENSITY_PROBES",
+    "check_bandwidth", "fixed_kernel",
     "log_kernel_sum",
 ]
 
@@ -323,8 +324,21 @@ def _kernel_covariance(X, bandwidth, rng):
         if bandwidth == "silverman":
             return silverman_bandwidth(X), {"bandwidth_rule": "silverman"}
         return _cv_covariance(X, rng)
-    h = float(bandwidth)
-    spread = float(np.sqrt(np.max(np.var(X, axis=0))))
+    return fixed_kernel(float(bandwidth), float(np.sqrt(np.max(np.var(X, axis=0)))), d)
+
+
+def fixed_kernel(h, spread, d):
+    """``(h^2 I, info)`` for a numeric bandwidth h; refused when h is far off the data's spread.
+
+    ``spread``: the widest column sd (ddof 0). Shared by the partitioned density, so
+    both paths refuse with one message.
+
+    Examples
+    --------
+    >>> H, info = fixed_kernel(0.5, 1.0, 2)
+    >>> H.tolist(), info["bandwidth_rule"]
+    ([[0.25, 0.0], [0.0, 0.25]], 'fixed')
+    """
     if spread > 0 and h < NARROW_RATIO * spread:
         raise ParameterError(
             f"The bandwidth {h:g} is below {NARROW_RATIO:g} times the widest spread of the data "
@@ -576,8 +590,14 @@ def subsample_log_density(Zq, Zr, n, log_k0, *, ref_rows, query_rows=None, self_
     return out, se_rel_mean * share, {"share": share, "se_rel_mean": se_rel_mean}
 
 
-def _check_bandwidth(name, value, *, context=""):
-    """A rule name or a number h in (0, 1e100]: h squared stays a finite float."""
+def check_bandwidth(name, value, *, context=""):
+    """A rule name or a number h in (0, 1e100]: h squared stays a finite float.
+
+    Examples
+    --------
+    >>> check_bandwidth("bandwidth", "Scott"), check_bandwidth("bandwidth", 2)
+    ('scott', 2.0)
+    """
     value = check_float_or_choice(name, value, BANDWIDTH_RULES, lo=0.0, lo_open=True,
                                   context=context)
     if not isinstance(value, str) and value > MAX_BANDWIDTH:
@@ -595,7 +615,7 @@ DENSITY = LensDecl(
     summary="Gaussian kernel density (log by default)",
     cost="exact O(n^2 d) up to 50,000 rows; scalable O(n m d), m = 20,000",
     params=(
-        Param("bandwidth", "scott", _check_bandwidth,
+        Param("bandwidth", "scott", check_bandwidth,
               "kernel width: a number h (isotropic), 'scott', 'silverman' or 'cv'",
               type='float or {"scott", "silverman", "cv"}',
               more="``\"scott\"``: full covariance ``cov(X) n^(-2/(d+4))`` (as\n"

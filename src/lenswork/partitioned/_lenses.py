@@ -63,6 +63,8 @@ from ..lenses._density import (
     EXACT_MAX_ROWS,
     MODES,
     REFERENCE_SIZE,
+    check_bandwidth,
+    fixed_kernel,
     kernel_cholesky,
     log_kernel_sum,
     subsample_log_density,
@@ -353,7 +355,13 @@ def _parse_spec(name, params, cloud):
         spec["j"] = cloud.feature_names.index(p["name"])
         spec["names"] = _column_names(name, p, [str(p["name"])])
     elif name == "density":
-        p["bandwidth"] = check_float_or_choice("bandwidth", p["bandwidth"], ("scott",), context=ctx)
+        p["bandwidth"] = check_bandwidth("bandwidth", p["bandwidth"], context=ctx)
+        if isinstance(p["bandwidth"], str) and p["bandwidth"] != "scott":
+            raise ParameterError(
+                f"The density on partitions takes bandwidth 'scott' or a number; "
+                f"{p['bandwidth']!r} needs the rows in one place (a percentile or a "
+                f"cross-validation sample). Give 'scott' or a number h."
+            )
         if isinstance(p["log"], str):
             p["log"] = p["log"].strip().lower() in ("1", "true", "yes")
         p["reference_size"] = check_int("reference_size", p["reference_size"], lo=2, context=ctx)
@@ -568,8 +576,9 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
                 if kind == "eccentricity" else " (the feature column)"))
         elif kind == "density":
             H = cloud.scatter / (n - 1) * n ** (-2.0 / (d + 4))
-            if p["bandwidth"] != "scott":
-                H = np.eye(d) * float(p["bandwidth"]) ** 2
+            if p["bandwidth"] != "scott":  # the single machine's checks and refusals
+                spread = float(np.sqrt(max(float(np.max(np.diag(cloud.scatter))) / n, 0.0)))
+                H = fixed_kernel(float(p["bandwidth"]), spread, d)[0]
             Lc = kernel_cholesky(H, p["bandwidth"] if isinstance(p["bandwidth"], str)
                                  else "fixed")  # the single machine's refusal
             sctx["whiten"], sctx["chol"] = np.linalg.inv(Lc), Lc
