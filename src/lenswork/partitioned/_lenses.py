@@ -581,7 +581,7 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
                 H = fixed_kernel(float(p["bandwidth"]), spread, d)[0]
             Lc = kernel_cholesky(H, p["bandwidth"] if isinstance(p["bandwidth"], str)
                                  else "fixed")  # the single machine's refusal
-            sctx["whiten"], sctx["chol"] = np.linalg.inv(Lc), Lc
+            sctx["chol"] = Lc
             sctx["log_norm"] = float(-0.5 * d * math.log(2 * math.pi) - np.log(np.diag(Lc)).sum())
             # the single machine's mode "auto": every row a reference up to its exact size,
             # else its seeded reference subsample (the same rows, by the same keyed rule)
