@@ -569,17 +569,6 @@ def test_scalable_mode_is_the_single_machine_estimate_and_states_its_error(clien
     assert np.mean(np.abs(v - exact) <= e / prov["error_scale"]) < 0.5
 
 
-def test_density_refusal_is_the_single_machines(client):
-    X = _mixture(500, d=4)
-    X[:, 2] = 1.0  # a constant column: Scott's covariance is singular
-    cloud = open_partitioned(da.from_array(X, chunks=(200, 4)))
-    with pytest.raises(InputError) as cluster_error:
-        partitioned_lenses(cloud, ["density"])
-    with pytest.raises(InputError) as single_error:
-        gaussian_density(X)
-    assert str(cluster_error.value) == str(single_error.value)
-
-
 def test_density_bandwidth_refusals_are_the_single_machines(client):
     # a numeric bandwidth far off the data's spread: the single machine's messages, word for word
     X = _mixture(400, d=3)
