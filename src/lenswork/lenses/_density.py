@@ -686,10 +686,13 @@ def gaussian_density(
     a random subsample of ``m = reference_size`` other points: O(n m d). It is
     unbiased; ``info["rel_se_median"]`` and ``rel_se_max`` give the estimated
     relative standard error of ``f`` (sample variance with finite-population
-    correction). This is a statistical estimate, not a hard bound: when the
-    kernel is narrow against the spacing of the points (many dimensions) a
-    few near neighbours carry the sum and the sample variance understates the
-    error of the off-self part (``others_rel_se_median``). ``self_share_median``
+    correction) times ``info["error_scale"]``: when the kernel is narrow
+    against the spacing of the points (many dimensions) a few near neighbours
+    carry the sum and the sample variance understates the error, so the se is
+    calibrated on 1,000 seeded probe rows whose exact density is summed over
+    all rows (about 68% of rows lie within the stated error;
+    ``tail_factor_90`` times it holds 90%). A statistical estimate, not a hard
+    bound; the partitioned density states the same column. ``self_share_median``
     is the median share of ``f`` due to the point's own term; near 1 the lens
     hardly varies and a wider bandwidth (``"cv"``) shows more.
 
