@@ -216,3 +216,36 @@ def test_bad_parameters_and_data():
         distance_to_measure(bad)
     with pytest.raises(InputError, match="X has 3 features, but DistanceToMeasure is expecting 2"):
         DistanceToMeasure(mass=0.5).fit(X).transform(np.zeros((1, 3)))
+
+
+def test_capped_mass_is_told_once_recorded_and_printed_by_the_cli(tmp_path):
+    # "Nothing silently wrong": the mass asked, the mass used and the option that lifts the
+    # cap, in one warning at the caller's line, in the sidecar and on the CLI's output.
+    # Reference for k: the definition k = ceil(m n) (Chazal, Cohen-Steiner and Mérigot 2011).
+    import json
+    import warnings
+
+    from click.testing import CliRunner
+
+    from lenswork.cli import cli
+
+    X = np.random.default_rng(125).normal(size=(4_000, 3))
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        (col,) = get_lens("dtm")(Workspace(X, random_state=0), mass=0.01)  # k = 40 > 31
+    dtm_warnings = [w for w in caught if "mass=0.01" in str(w.message)]
+    assert len(dtm_warnings) == 1 and "lenswork" not in dtm_warnings[0].filename
+    message = str(dtm_warnings[0].message)
+    assert "asks for k=40" in message and "capped at 31 (mass 0.00775)" in message
+    assert "min_neighbors" in message
+    assert col.info["mass"] == 0.01 and col.info["mass_used"] == pytest.approx(31 / 4000)
+    table = tmp_path / "t.csv"
+    np.savetxt(table, X, delimiter=",", header="a,b,c", comments="")
+    out = tmp_path / "l.csv"
+    result = CliRunner().invoke(cli, ["compute", str(table), "-l", "dtm", "-o", str(out)])
+    assert result.exit_code == 0, result.output
+    assert "capped at 31 (mass 0.00775)" in result.output and "--min-neighbors" in result.output
+    (column,) = json.loads(out.with_name("l.csv.json").read_text())["columns"]
+    assert column["name"] == "dtm[mass=0.00775]" and column["params"] == {"mass": 0.00775}
+    assert column["info"]["capped"] is True and column["info"]["mass"] == 0.01
+    assert column["info"]["k_requested"] == 40 and column["info"]["k"] == 31

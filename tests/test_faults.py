@@ -482,11 +482,11 @@ def test_cluster_dataset_folder_rerun_with_fewer_parts(tmp_path):
     out = tmp_path / "lens"
     for chunks in (200, 450):  # 5 parts, then 2
         cloud = open_partitioned(da.from_array(X, chunks=(chunks, 2)))
-        files = partitioned_lenses(cloud, ["pca", "density"], landmarks=200).write(out)
+        files = partitioned_lenses(cloud, ["pca", "dtm"], landmarks=200).write(out)
         assert files[-1] == str(tmp_path / "lens.json")  # provenance beside the folder
     back = pd.read_parquet(out)
     assert len(back) == 900 and back.iloc[:, 0].is_unique
-    assert "density_error" in back.columns and "pca_1_error" not in back.columns
+    assert "dtm_error" in back.columns and "pca_1_error" not in back.columns
     assert sorted(p.name for p in out.iterdir()) == [
         "_lenswork-manifest.json", "part-00000.parquet", "part-00001.parquet"]
     doc = json.loads((tmp_path / "lens.json").read_text())

@@ -53,7 +53,8 @@ def _scheduler_options(func, default=None):
                         "workers spill to disk above 60% of it.")(func)
     func = click.option("--landmarks", default=2000, show_default=True, type=int,
                         help="With --scheduler: size of the seeded sample the estimated "
-                        "lenses (density, dtm, eccentricity p != 2, laplacian) use.")(func)
+                        "lenses (dtm, eccentricity p != 2, laplacian) use; the density takes "
+                        "the single machine's reference rows (density:reference_size=...).")(func)
     return func
 
 

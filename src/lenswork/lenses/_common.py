@@ -2,6 +2,8 @@
 
 * :func:`sample_rows` draws a simple random subsample keyed on the rows'
   own values, so a lens estimated from it does not depend on the row order.
+* :func:`calibrate_error` scales an estimated lens's stated error on probe rows
+  whose exact value is known (the scalable density, the partitioned lenses).
 * :func:`parallel_rows` runs a worker over blocks of rows on a few threads
   (BLAS at one thread each); :func:`zero_self` clears the self pairs of a
   tile of an all-pairs reduction. Tiles are ``TILE_ROWS x TILE_COLS``.
@@ -18,14 +20,19 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 
 from .._errors import InputError
-from .._validation import check_finite
+from .._validation import check_finite, seed_of
 
 __all__ = [
     "TILE_COLS",
     "TILE_ROWS",
+    "ONE_SD_SHARE",
+    "PROBES",
     "LensOutputMixin",
+    "calibrate_error",
     "check_input",
     "parallel_rows",
+    "probe_positions",
+    "sample_keys",
     "sample_rows",
     "zero_self",
 ]
@@ -59,10 +66,91 @@ def sample_rows(X, m, rng):
         return np.arange(n)
     w = rng.standard_normal(X.shape[1])
     s = (X * w).sum(axis=1)
-    scale = float(np.std(s)) or 1.0
-    key = np.mod(s * (1e6 / scale) + rng.random(), 1.0)
+    key = sample_keys(X, w, float(np.std(s)), rng.random(), s)
     order = np.lexsort((np.arange(n), key))  # duplicate rows: ties are exchangeable anyway
     return np.sort(order[:m])
+
+
+def sample_keys(X, w, scale, shift, s=None):
+    """The keys :func:`sample_rows` ranks rows by: ``(X w) 1e6 / scale + shift`` modulo 1.
+
+    ``w`` (a standard normal vector) and ``shift`` (uniform in [0, 1)) are drawn
+    in that order from the seeded generator; ``scale`` is the sd of ``X w`` over
+    all rows (ddof 0). Shared with the partitioned density, which ranks each
+    partition's rows by these keys and keeps the ``m`` smallest overall, so
+    both paths take the same reference rows.
+
+    Examples
+    --------
+    >>> X = np.arange(6.0).reshape(3, 2)
+    >>> sample_keys(X, np.array([1.0, 0.0]), 1e6, 0.5).tolist()
+    [0.5, 0.5, 0.5]
+    """
+    if s is None:
+        s = (X * w).sum(axis=1)
+    return np.mod(s * (1e6 / (scale or 1.0)) + shift, 1.0)
+
+
+#: The share of a normal within 1 sd (standard normal table): a stated error band's coverage.
+ONE_SD_SHARE = 0.6827
+#: Seeded rows at which an estimated lens is also computed exactly, to calibrate its error.
+PROBES = 200
+
+
+def probe_positions(n, random_state, size=PROBES):
+    """Sorted positions of the ``min(size, n)`` probe rows of a seed.
+
+    ``default_rng(seed + 1).choice(n, size, replace=False)``: the rows the
+    partitioned lenses draw with :func:`lenswork.partitioned.sample_cloud` at
+    seed + 1, so both paths calibrate on the same rows.
+
+    Examples
+    --------
+    >>> probe_positions(1000, 0).size, probe_positions(5, 0).tolist()
+    (200, [0, 1, 2, 3, 4])
+    """
+    size = min(size, n)
+    rng = np.random.default_rng(seed_of(random_state) + 1)
+    return np.sort(rng.choice(n, size, replace=False)).astype(np.int64)
+
+
+def calibrate_error(exact, est, err):
+    """(scale of the stated error, figures for the provenance) from the probe rows.
+
+    The stated error of a row is a one-sd-like band: about 68.27% of rows (the share of a
+    normal within 1 sd, standard normal table) have an actual error below it. With a per-row
+    standard error ``err`` the band is ``error_scale * err``, error_scale = the 68.27%
+    quantile of |estimate - exact| / err over the probes (1 when the se is right; a
+    subsample's own variance is blind to the rare large kernel terms of a sum in high
+    dimension, so it can be several times too small there). Without one (``err`` None) the
+    band is that quantile of |estimate - exact|, the same for every row. ``tail_factor_90``
+    / ``tail_factor_99``: the multiples of the band that cover 90% / 99% of the probes (1.64
+    / 2.58 for a normal error). Shared by the single machine's scalable density and the
+    partitioned lenses.
+
+    Examples
+    --------
+    >>> exact = np.zeros(5)
+    >>> scale, fig = calibrate_error(exact, np.array([1.0, -1, 2, -2, 4]), np.full(5, 2.0))
+    >>> round(scale, 4), fig["probe_rows"]
+    (1.0, 5)
+    """
+    actual = np.abs(est - exact)
+    figures = {"probe_rows": int(exact.size), "probe_rms_error": float(np.sqrt(np.mean(
+        actual**2))), "probe_max_error": float(actual.max())}
+    if err is None:
+        z, scale = actual, float(np.quantile(actual, ONE_SD_SHARE))
+    else:
+        ok = err > 0
+        z = actual[ok] / err[ok] if ok.any() else np.zeros(1)
+        scale = float(np.quantile(z, ONE_SD_SHARE))
+    if not scale > 0:
+        scale = 1.0 if err is not None else float(actual.max())
+    figures.update(tail_factor_90=float(np.quantile(z, 0.9) / scale) if scale else 0.0,
+                   tail_factor_99=float(np.quantile(z, 0.99) / scale) if scale else 0.0)
+    if err is not None:
+        figures["error_scale"] = scale
+    return scale, figures
 
 
 def _n_threads():

@@ -6,16 +6,24 @@ Exact (equal to the single-machine lenses up to rounding)
     ``E_2(x)^2 = ||x - mean||^2 + (1/N) sum_y ||y - mean||^2``; ``column`` -- a
     feature column.
 
-Estimated against a broadcast seeded uniform sample of ``landmarks`` rows
+The single machine's density
     ``density`` -- Gaussian kernel density (Scott's full-covariance bandwidth
-    from the exact covariance), the own kernel term exact and the other
-    ``N - 1`` terms estimated by the sample mean, with the Monte Carlo standard
-    error ``sd / sqrt(s) * sqrt(1 - s / N)`` per row (relative standard error of
-    ``log f`` by the delta method); ``eccentricity`` with p != 2 -- the same
-    sampling for ``mean_y ||x - y||^p``, error carried to ``E_p`` by the delta
+    from the exact covariance, or a number) by the single machine's estimator
+    :func:`lenswork.lenses._density.subsample_log_density` on the same
+    reference rows (:func:`._sample.keyed_sample`): exact up to 50,000 rows
+    (every row a reference), above it the own term exact and the other
+    ``N - 1`` terms from the mean over 20,000 seeded reference rows, with the
+    relative standard error ``sd / sqrt(m) * sqrt(1 - m / N)`` per row
+    (that of ``log f`` by the delta method). Values and error column equal the
+    single machine's.
+
+Estimated against a broadcast seeded uniform sample of ``landmarks`` rows
+    ``eccentricity`` with p != 2 -- the sample mean of ``||x - y||^p`` (own term
+    exact), its Monte Carlo standard error carried to ``E_p`` by the delta
     method; ``dtm`` -- the distance to the measure ``nu`` that puts on each
     landmark the share of all rows nearest to it (a Voronoi quantisation of
-    the data), with the hard bound
+    the data), at the mass asked (no neighbour graph here, so no cap on k),
+    with the hard bound
     ``sup |d_{mu,m} - d_{nu,m}| <= W_2(mu, nu) / sqrt(m) <= Q / sqrt(m)``,
     ``Q^2 = (1/N) sum_x ||x - q(x)||^2`` (q: nearest landmark; the map x -> q(x)
     is a transport plan from mu to nu), by the stability theorem of Chazal,
@@ -23,11 +31,12 @@ Estimated against a broadcast seeded uniform sample of ``landmarks`` rows
     landmark solution extended by :func:`lenswork.lenses._nystrom.nystrom_extend`,
     its error measured on held-out landmarks.
 
-The density, eccentricity (p != 2) and DTM estimates are also computed exactly at
-``PROBES`` seeded rows (one pass over all rows), and the error column they write
-is calibrated there: a band about 68% of rows lie within (the standard error
-times ``error_scale``; for the DTM the actual error's quantile itself), with the
-tail factors that cover 90% and 99% (see :func:`_calibration`).
+The density (scalable), eccentricity (p != 2) and DTM estimates are also computed
+exactly at ``PROBES`` seeded rows (``DENSITY_PROBES`` for the density; one pass
+over all rows), and the error column they write is calibrated there: a band
+about 68% of rows lie within (the standard error times ``error_scale``; for the
+DTM the actual error's quantile itself), with the tail factors that cover 90%
+and 99% (see :func:`lenswork.lenses._common.calibrate_error`).
 """
 
 from __future__ import annotations
@@ -40,13 +49,31 @@ from .. import __version__
 from .._errors import ParameterError
 from .._io import OutputSet, atomic_path, check_output_file, write_text
 from .._json import dumps
-from .._validation import check_float, check_float_or_choice, check_int, seed_of
+from .._validation import (
+    check_choice,
+    check_float,
+    check_float_or_choice,
+    check_int,
+    seed_of,
+)
 from ..lenses import get_lens, lens_request
-from ..lenses._density import kernel_cholesky
+from ..lenses._common import PROBES, calibrate_error
+from ..lenses._density import (
+    DENSITY_PROBES,
+    EXACT_MAX_ROWS,
+    MODES,
+    REFERENCE_SIZE,
+    check_bandwidth,
+    fixed_kernel,
+    kernel_cholesky,
+    log_kernel_sum,
+    subsample_log_density,
+    whiten_rows,
+)
 from ..lenses._laplacian import laplacian_eigenmaps
 from ..lenses._nystrom import nystrom_extend
 from ._intake import require_dask, tree_reduce
-from ._sample import sample_cloud
+from ._sample import keyed_sample, sample_cloud
 
 __all__ = ["PARTITIONED_LENSES", "PartitionedLenses", "partitioned_lenses"]
 
@@ -125,8 +152,8 @@ def _raw_part_lens(part, offset, spec, ctx):
     if kind == "eccentricity" and p["p"] == 2.0:
         Xc = X - ctx["mean"]
         return np.sqrt(np.einsum("ij,ij->i", Xc, Xc) + ctx["spread"])[:, None], None
-    L, lpos, N = ctx["landmarks"], ctx["positions"], ctx["n"]
     if kind == "eccentricity":
+        L, lpos, N = ctx["landmarks"], ctx["positions"], ctx["n"]
         pp = p["p"]
 
         def value(Q, L):
@@ -138,20 +165,16 @@ def _raw_part_lens(part, offset, spec, ctx):
         with np.errstate(divide="ignore", invalid="ignore"):
             err = np.where(mu > 0, vals * se / (pp * mu), 0.0)
         return vals[:, None], err[:, None]
-    if kind == "density":
-        W, logc = ctx["whiten"], ctx["log_norm"]
-        LZ = L @ W.T
-
-        def value(Q, _L):
-            Z = Q @ W.T
-            return np.exp(-0.5 * _sq_dist(Z, LZ)), np.ones(Q.shape[0])
-
-        f, se = _landmark_mean(X, pos, L, lpos, N, value)
-        rel = se / f
+    if kind == "density":  # the single machine's estimator and reference rows
+        logf, rel, _ = subsample_log_density(
+            whiten_rows(X, ctx["mean"], ctx["chol"]), ctx["ref_z"], ctx["n"], ctx["log_norm"],
+            ref_rows=ctx["ref_positions"], query_rows=pos)
+        rel = None if ctx["ref_positions"].size >= ctx["n"] else rel  # exact: no error
         if p["log"]:
-            return (np.log(f) + logc)[:, None], rel[:, None]
-        c = math.exp(logc)
-        return (f * c)[:, None], (rel * f * c)[:, None]
+            return logf[:, None], None if rel is None else rel[:, None]
+        f = np.exp(logf)
+        return f[:, None], None if rel is None else (rel * f)[:, None]
+    L = ctx.get("landmarks")
     if kind == "dtm":
         w, mass, near = ctx["weights"], ctx["mass"], ctx["dtm_candidates"]
         out = np.empty(X.shape[0])
@@ -176,11 +199,6 @@ def _raw_part_lens(part, offset, spec, ctx):
     raise AssertionError(kind)
 
 
-#: The share of a normal within 1 sd (standard normal table): the stated error's coverage.
-_ONE_SD_SHARE = 0.6827
-#: Seeded rows at which the estimated lenses are also computed exactly (one pass over all
-#: rows, probes x n x d flops) to calibrate the error they state.
-PROBES = 200
 #: The DTM's exact pass keeps the k = ceil(m N) smallest squared distances per probe: at most
 #: this many values (32 MB) per partial result, so fewer probes when k is large (a 1e7-row
 #: table with m = 0.01 keeps 40), never fewer than _MIN_PROBES.
@@ -199,12 +217,9 @@ def _probe_piece(part, offset, P, ppos, spec, ctx):
     kind, p = spec["kind"], spec["params"]
     rows = offset + np.arange(X.shape[0])
     _, qi, ci = np.intersect1d(ppos, rows, assume_unique=True, return_indices=True)
-    if kind == "density":
-        W = ctx["whiten"]
-        E = -0.5 * _sq_dist(P @ W.T, X @ W.T)
-        E[qi, ci] = 0.0
-        top = E.max(1) if E.shape[1] else np.full(P.shape[0], -np.inf)
-        return top, np.exp(E - top[:, None]).sum(1)
+    if kind == "density":  # log of the kernel sum over the partition's rows
+        return log_kernel_sum(whiten_rows(P, ctx["mean"], ctx["chol"]),
+                              whiten_rows(X, ctx["mean"], ctx["chol"]))
     D = _sq_dist(P, X)
     D[qi, ci] = 0.0
     if kind == "eccentricity":
@@ -218,10 +233,7 @@ def _probe_merge(kind, k):
     if kind == "eccentricity":
         return lambda a, b: a + b
     if kind == "density":
-        def merge(a, b):
-            top = np.maximum(a[0], b[0])
-            return top, a[1] * np.exp(a[0] - top) + b[1] * np.exp(b[0] - top)
-        return merge
+        return np.logaddexp
 
     def smallest(a, b):
         D = np.concatenate([a, b], axis=1)
@@ -256,42 +268,12 @@ def _calibrate(cloud, parts, spec, sctx, probes):
               for i, pt in enumerate(parts)]
     total = dask.compute(tree_reduce(pieces, dask.delayed(_probe_merge(kind, k), pure=True)))[0]
     if kind == "density":
-        logf = total[0] + np.log(total[1]) - math.log(n) + sctx["log_norm"]
+        logf = total - math.log(n) + sctx["log_norm"]
         exact = logf if p["log"] else np.exp(logf)
     else:
         exact = _probe_exact(kind, p, total, n, k)
     est, err = _raw_part_lens((P,), ppos, spec, sctx)
     return exact, est[:, 0], None if err is None else err[:, 0]
-
-
-def _calibration(exact, est, err):
-    """(scale of the stated error, figures for the provenance) from the probe rows.
-
-    The stated error of a row is a one-sd-like band: about 68.27% of rows (the share of a
-    normal within 1 sd, standard normal table) have an actual error below it. With a per-row
-    standard error se the band is ``error_scale * se``, error_scale = the 68.27% quantile of
-    |estimate - exact| / se over the probes (1 when the se is right; the se's own sample is
-    blind to the rare large kernel terms of a sum in high dimension, so it can be several
-    times too small there). Without one the band is that quantile of |estimate - exact|, the
-    same for every row. ``tail_factor_90`` / ``tail_factor_99``: the multiples of the band
-    that cover 90% / 99% of the probes (1.64 / 2.58 for a normal error).
-    """
-    actual = np.abs(est - exact)
-    figures = {"probe_rows": int(exact.size), "probe_rms_error": float(np.sqrt(np.mean(
-        actual**2))), "probe_max_error": float(actual.max())}
-    if err is None:
-        z, scale = actual, float(np.quantile(actual, _ONE_SD_SHARE))
-    else:
-        ok = err > 0
-        z = actual[ok] / err[ok] if ok.any() else np.zeros(1)
-        scale = float(np.quantile(z, _ONE_SD_SHARE))
-    if not scale > 0:
-        scale = 1.0 if err is not None else float(actual.max())
-    figures.update(tail_factor_90=float(np.quantile(z, 0.9) / scale) if scale else 0.0,
-                   tail_factor_99=float(np.quantile(z, 0.99) / scale) if scale else 0.0)
-    if err is not None:
-        figures["error_scale"] = scale
-    return scale, figures
 
 
 def _quantise(part, L):
@@ -316,7 +298,8 @@ PARTITIONED_LENSES = {
     "pca": {"components": 2},
     "eccentricity": {"p": 2.0},
     "column": {"name": None},
-    "density": {"bandwidth": "scott", "log": True},
+    "density": {"bandwidth": "scott", "log": True, "mode": "auto",
+                "reference_size": REFERENCE_SIZE},
     "dtm": {"mass": 0.01},
     "laplacian": {"components": 2, "k": 15, "weights": "heat"},
 }
@@ -372,9 +355,17 @@ def _parse_spec(name, params, cloud):
         spec["j"] = cloud.feature_names.index(p["name"])
         spec["names"] = _column_names(name, p, [str(p["name"])])
     elif name == "density":
-        p["bandwidth"] = check_float_or_choice("bandwidth", p["bandwidth"], ("scott",), context=ctx)
+        p["bandwidth"] = check_bandwidth("bandwidth", p["bandwidth"], context=ctx)
+        if isinstance(p["bandwidth"], str) and p["bandwidth"] != "scott":
+            raise ParameterError(
+                f"The density on partitions takes bandwidth 'scott' or a number; "
+                f"{p['bandwidth']!r} needs the rows in one place (a percentile or a "
+                f"cross-validation sample). Give 'scott' or a number h."
+            )
         if isinstance(p["log"], str):
             p["log"] = p["log"].strip().lower() in ("1", "true", "yes")
+        p["reference_size"] = check_int("reference_size", p["reference_size"], lo=2, context=ctx)
+        p["mode"] = check_choice("mode", p["mode"], MODES, context=ctx)
         spec["names"] = _column_names(name, p)
     elif name == "dtm":
         p["mass"] = check_float("mass", p["mass"], lo=0.0, hi=1.0, lo_open=True, context=ctx)
@@ -513,7 +504,9 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
         ``"dtm:mass=0.05"``, ``"laplacian:components=2,k=15"``.
     landmarks : int, default=2000
         Size of the broadcast seeded uniform sample (drawn by
-        :func:`sample_cloud`) the estimated lenses use.
+        :func:`sample_cloud`) the eccentricity (p != 2), DTM and Laplacian
+        estimates use; the density uses its own ``reference_size`` (20,000
+        above 50,000 rows), as on one machine.
     random_state : int, default=0
 
     Returns
@@ -524,7 +517,8 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
     -----
     See the module notes for what is exact and the stated error of each
     estimated lens. Cost per partition of n_i rows: O(n_i d m) for PCA, O(n_i d)
-    for the closed-form eccentricity, O(n_i s d) for the sample-based ones (s
+    for the closed-form eccentricity, O(n_i m d) for the density (m = its
+    reference rows, all rows up to 50,000), O(n_i s d) for the sample-based ones (s
     landmarks), plus one extra pass for the DTM's Voronoi weights and one
     Laplacian solve on the s landmarks (and one on half of them for the
     held-out error).
@@ -555,7 +549,7 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
     base = {"lenswork_version": __version__, "input_sha256": cloud.provenance["sha256"],
             "random_state": random_state, "n_rows": n}
     needs_sample = any(
-        s["kind"] in ("density", "dtm", "laplacian")
+        s["kind"] in ("dtm", "laplacian")
         or (s["kind"] == "eccentricity" and s["params"]["p"] != 2.0) for s in specs
     )
     parts = cloud.delayed_parts()
@@ -564,7 +558,7 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
         L = sample.X
         ctx["landmarks"] = L
         ctx["positions"] = sample.provenance["sample_positions"]
-    provs, per_spec, probes = [], [], None
+    provs, per_spec, probes = [], [], {}
     for spec in specs:
         kind, p = spec["kind"], spec["params"]
         prov = [dict(base, lens=kind, column=name, params=dict(p)) for name in spec["names"]]
@@ -580,25 +574,42 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
             prov[0].update(exact=True, error="none: exact" + (
                 " closed form E_2(x)^2 = ||x - mean||^2 + (1/N) sum ||y - mean||^2"
                 if kind == "eccentricity" else " (the feature column)"))
-        elif kind in ("eccentricity", "density"):
-            if kind == "density":
-                H = cloud.scatter / (n - 1) * n ** (-2.0 / (d + 4))
-                if p["bandwidth"] != "scott":
-                    H = np.eye(d) * float(p["bandwidth"]) ** 2
-                Lc = kernel_cholesky(H, p["bandwidth"] if isinstance(p["bandwidth"], str)
-                                     else "fixed")  # the single machine's refusal
-                sctx["whiten"] = np.linalg.inv(Lc)
-                sctx["log_norm"] = float(-0.5 * d * math.log(2 * math.pi)
-                                         - np.log(np.diag(Lc)).sum())
-                prov[0]["bandwidth_matrix"] = H
-            what = ("the relative standard error of the density (that of log density, delta "
-                    "method)" if kind == "density" else
-                    "the standard error of E_p carried from mean d^p by the delta method")
+        elif kind == "density":
+            H = cloud.scatter / (n - 1) * n ** (-2.0 / (d + 4))
+            if p["bandwidth"] != "scott":  # the single machine's checks and refusals
+                spread = float(np.sqrt(max(float(np.max(np.diag(cloud.scatter))) / n, 0.0)))
+                H = fixed_kernel(float(p["bandwidth"]), spread, d)[0]
+            Lc = kernel_cholesky(H, p["bandwidth"] if isinstance(p["bandwidth"], str)
+                                 else "fixed")  # the single machine's refusal
+            sctx["chol"] = Lc
+            sctx["log_norm"] = float(-0.5 * d * math.log(2 * math.pi) - np.log(np.diag(Lc)).sum())
+            # the single machine's mode "auto": every row a reference up to its exact size,
+            # else its seeded reference subsample (the same rows, by the same keyed rule)
+            exact = p["mode"] == "exact" or (
+                p["mode"] == "auto" and n <= max(EXACT_MAX_ROWS, p["reference_size"]))
+            m = n if exact else min(n, p["reference_size"])
+            R, rpos = keyed_sample(cloud, m, random_state=random_state)
+            sctx["ref_z"], sctx["ref_positions"] = whiten_rows(R, cloud.mean, Lc), rpos
+            prov[0]["bandwidth_matrix"] = H
+            if m >= n:
+                prov[0].update(exact=True, mode="exact", error="none: exact sum over all rows "
+                               "(every row broadcast as a reference, as the single machine's "
+                               f"exact mode up to {EXACT_MAX_ROWS:,} rows)")
+            else:
+                prov[0].update(
+                    exact=False, mode="scalable", reference_size=int(m),
+                    error=f"the single machine's scalable estimate: own term exact, the other "
+                    f"N - 1 terms from the mean over the same seeded subsample of {m} rows "
+                    f"(lenswork.lenses._common.sample_rows' keyed rule); the error column holds "
+                    f"the relative standard error of the density (that of log density, delta "
+                    f"method), se = sd / sqrt(m) * sqrt(1 - m/N)")
+        elif kind == "eccentricity":
             prov[0].update(
                 exact=False, landmarks=int(L.shape[0]),
                 error=f"Monte Carlo: own term exact, the other N - 1 terms from the mean over "
                 f"a seeded uniform sample of s = {L.shape[0]} rows; se = sd / sqrt(s) * "
-                f"sqrt(1 - s/N); the error column holds {what}",
+                f"sqrt(1 - s/N); the error column holds the standard error of E_p carried "
+                f"from mean d^p by the delta method",
             )
         elif kind == "dtm":
             counts, total = dask.compute(tree_sum(
@@ -611,6 +622,9 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
             light = np.cumsum(np.sort(counts / n))
             sctx["dtm_candidates"] = int(min(L.shape[0], np.searchsorted(light, mass) + 1))
             Q = math.sqrt(total / n)
+            # the mass asked is the mass used: no neighbour graph here, so no cap on k (the
+            # single machine caps k at its graph's, warns and names the column by its mass)
+            prov[0].update(mass=mass, mass_used=mass, k_requested=sctx["dtm_k"], capped=False)
             prov[0].update(
                 exact=False, landmarks=int(L.shape[0]), quantisation_error=Q,
                 error_bound=Q / math.sqrt(mass),
@@ -633,11 +647,12 @@ def partitioned_lenses(cloud, lenses, *, landmarks=2000, random_state=0):
                           "between the solution on all landmarks and the extension of the "
                           "solution on the other half")
         if kind in ("eccentricity", "density", "dtm") and not prov[0]["exact"]:
-            if probes is None:
-                probe = sample_cloud(cloud, min(PROBES, n), random_state=seed_of(random_state) + 1)
-                probes = (probe.X, np.asarray(probe.provenance["sample_positions"]))
-            exact, est, err = _calibrate(cloud, parts, spec, sctx, probes)
-            scale, figures = _calibration(exact, est, err)
+            size = DENSITY_PROBES if kind == "density" else PROBES
+            if size not in probes:  # probe_positions' rows: the single machine's probes
+                probe = sample_cloud(cloud, min(size, n), random_state=seed_of(random_state) + 1)
+                probes[size] = (probe.X, np.asarray(probe.provenance["sample_positions"]))
+            exact, est, err = _calibrate(cloud, parts, spec, sctx, probes[size])
+            scale, figures = calibrate_error(exact, est, err)
             if err is None:
                 sctx["error_rms"] = scale
                 what = ("the error column holds the 68.27% quantile of the actual error over "

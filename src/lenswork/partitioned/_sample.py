@@ -6,9 +6,10 @@ import numpy as np
 
 from .._validation import check_int, check_random_state
 from ..data import PointCloud
-from ._intake import require_dask
+from ..lenses._common import sample_keys
+from ._intake import require_dask, tree_reduce
 
-__all__ = ["sample_positions", "sample_cloud"]
+__all__ = ["keyed_sample", "sample_positions", "sample_cloud"]
 
 
 def sample_positions(n, size, random_state=0):
@@ -94,3 +95,64 @@ def sample_cloud(cloud, size, *, random_state=0):
         id_name=cloud.id_name, passthrough={},
         row_numbers=np.concatenate([o[2] for o in out]), excluded=(), provenance=prov,
     )
+
+
+def _smallest_keys(part, offset, w, scale, shift, m):
+    X = part[0]
+    key = sample_keys(X, w, scale, shift)
+    pos = offset + np.arange(X.shape[0], dtype=np.int64)
+    keep = np.lexsort((pos, key))[:m]
+    return key[keep], pos[keep], X[keep]
+
+
+def _merge_smallest(m):
+    def merge(a, b):
+        key, pos, X = (np.concatenate([u, v]) for u, v in zip(a, b))
+        keep = np.lexsort((pos, key))[:m]
+        return key[keep], pos[keep], X[keep]
+    return merge
+
+
+def keyed_sample(cloud, size, *, random_state=0):
+    """The rows :func:`lenswork.lenses._common.sample_rows` takes, drawn across partitions.
+
+    The single machine's rule, so both paths estimate from the same rows: a
+    seeded random projection ``s = X w`` of each row, keyed by ``s 1e6 / sd(s)
+    + u`` modulo 1, and the ``size`` smallest keys kept (ties by position). The
+    sd comes from the exact scatter of the intake; each partition returns its
+    ``size`` smallest keys and a tree of pairwise merges keeps the smallest.
+
+    Returns
+    -------
+    X : ndarray of shape (size, d)
+        The rows, in global order.
+    positions : ndarray of int64
+        Their sorted 0-based global positions.
+
+    Examples
+    --------
+    >>> import dask.array as da
+    >>> from lenswork.partitioned import open_partitioned
+    >>> from lenswork.lenses._common import sample_rows
+    >>> X = np.random.default_rng(0).normal(size=(40, 3))
+    >>> cloud = open_partitioned(da.from_array(X, chunks=(15, 3)))
+    >>> S, pos = keyed_sample(cloud, 6, random_state=2)
+    >>> pos.tolist() == sample_rows(X, 6, np.random.default_rng(2)).tolist()
+    True
+    """
+    dask = require_dask()
+    size = check_int("size", size, lo=1, context="keyed_sample")
+    parts = cloud.delayed_parts()
+    if size >= cloud.n:
+        out = dask.compute(*[dask.delayed(_take, pure=True)(p, slice(None)) for p in parts])
+        return (np.ascontiguousarray(np.concatenate([o[0] for o in out])),
+                np.arange(cloud.n, dtype=np.int64))
+    rng = check_random_state(random_state)
+    w = rng.standard_normal(cloud.d)
+    scale = float(np.sqrt(max(float(w @ cloud.scatter @ w) / cloud.n, 0.0)))
+    shift = rng.random()
+    piece = dask.delayed(_smallest_keys, pure=True)
+    pieces = [piece(p, int(cloud.offsets[i]), w, scale, shift, size) for i, p in enumerate(parts)]
+    _, pos, X = dask.compute(tree_reduce(pieces, dask.delayed(_merge_smallest(size), pure=True)))[0]
+    order = np.argsort(pos)
+    return np.ascontiguousarray(X[order]), pos[order]
