@@ -211,12 +211,23 @@ BUILDERS = (wine, breast_cancer, iris, digits, circles, moons, swiss_roll, s_cur
             doctor_visits, email, neurocog)
 
 
-def build(builder, seed=0):
-    """The case with a noise column: ``(case, PointCloud)``."""
+def build(builder, seed=0, scale=None):
+    """The case with a noise column: ``(case, PointCloud)``.
+
+    ``scale="zscore"`` standardises the feature columns of every case first (a
+    diagnostic: tables kept in their own units, whose columns differ in scale,
+    then weigh their columns alike; the cases already z-scored do not change).
+    """
+    from dataclasses import replace
+
     from lenswork import PointCloud
 
     rng = np.random.default_rng(seed)
     case = builder(rng)
+    if scale == "zscore":
+        case = replace(case, X=_zscore(case.X))
+    elif scale is not None:
+        raise ValueError(f"scale must be None or 'zscore', not {scale!r}")
     noise = np.random.default_rng(seed + 1).normal(size=case.X.shape[0])
     cloud = PointCloud.from_array(case.X, passthrough={NOISE_COLUMN: noise})
     return case, cloud

