@@ -193,3 +193,35 @@ def test_concentrated_lens_is_refused():
     # without the support factor its Laplacian score alone calls it smooth
     assert result.scores["laplacian_score"][j] < 0.5
     assert support_factor(np.array([4, 10, 30]), 15).tolist() == [0.0, 10 / 15, 1.0]
+
+
+def test_value_support_is_the_fewest_rows_carrying_half_the_squared_deviations():
+    # brute force with numpy (common practice: half of sum (v - median)^2, largest first)
+    rng = np.random.default_rng(5)
+    for v in (rng.normal(size=500), rng.lognormal(sigma=2.0, size=400),
+              np.r_[np.zeros(300), 4.0, 5.0]):
+        dev = np.sort((v - np.median(v)) ** 2)[::-1]
+        need = int(np.argmax(np.cumsum(dev) >= 0.5 * dev.sum() * (1 - 1e-12))) + 1
+        assert robust_spread(v).value_support == need
+
+
+def test_lens_concentrated_on_its_values_is_refused_though_its_ranks_spread():
+    # A Laplacian-like vector concentrated on one weakly linked row: every other row sits
+    # within 1e-7 of -0.0122 (smoothly, along the first coordinate), one row at 81.9. Its
+    # ranks are spread (rank support large) but half its value variation is on one row, so
+    # the balanced cover spends half its range there: it must not be chosen.
+    rng = np.random.default_rng(7)
+    X = rng.normal(size=(600, 2))
+    hair = -0.0122 + 1e-7 * np.tanh(X[:, 0])
+    far = int(np.argmax(X[:, 1]))
+    hair[far] = 81.9
+    assert robust_spread(hair).value_support == 1  # <= min(5, ceil(0.01 * 600))
+    assert robust_spread(hair).support > HANDFUL * 15
+    cloud = lw.PointCloud.from_array(X)
+    table = lw.LensTable([lw.LensColumn("smooth", X[:, 0] + 0.1 * X[:, 1]),
+                          lw.LensColumn("other", X[:, 1]),
+                          lw.LensColumn("hair", hair)], cloud)
+    result = lw.screen(table, count=2, probe=False)
+    j = result.names.index("hair")
+    assert result.scores["smoothness"][j] == 0.0 and result.merit[j] == 0.0
+    assert "hair" not in result.selected

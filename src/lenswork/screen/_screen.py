@@ -30,6 +30,8 @@ import numpy as np
 from .. import _progress
 from .._errors import InputError, ParameterError, warn_caller
 from ..criteria import (
+    HANDFUL,
+    TAIL,
     RobustSpread,
     heat_kernel_affinity,
     laplacian_null_sd,
@@ -92,12 +94,23 @@ def _score_columns(table, bins):
     scores["robust_spread"] = np.array([r.robust_spread for r in robust], dtype=np.float64)
     scores["tail_share"] = np.array([r.tail_share for r in robust], dtype=np.float64)
     scores["support"] = np.array([r.support for r in robust], dtype=np.float64)
+    scores["value_support"] = np.array([r.value_support for r in robust], dtype=np.float64)
     return scores, [s.status for s in found], Z
 
 
-def _smoothness(Z, ws, usable, support):
-    """Laplacian score, smoothness and neighbour jitter of every column (lenswork.criteria)."""
+def _smoothness(Z, ws, usable, support, value_support):
+    """Laplacian score, smoothness and neighbour jitter of every column (lenswork.criteria).
+
+    A column whose values put half their variation on a handful of rows that are
+    also its most extreme 1 % (``value_support <= min(HANDFUL * k, ceil(TAIL * n))``,
+    i.e. ``tail_share >= 1/2`` on at most ``k / 3`` rows; the eigensolver's warning
+    for a concentrated Laplacian vector uses the same 1 %) is concentrated there
+    on the value half of the balanced cover scale, however well spread its ranks:
+    its support counts 0, so its smoothness and merit are 0.
+    """
     k = min(SMOOTHNESS_K, ws.n - 1)
+    handful = min(HANDFUL * k, math.ceil(TAIL * Z.shape[1]))
+    support = np.where(np.asarray(value_support) <= handful, 0.0, support)
     S = heat_kernel_affinity(ws, k=k)
     Lr, jitter = unit_rank_criteria(np.where(usable[:, None], Z, np.nan), S)
     return {"smoothness": smoothness(Lr, null_sd=laplacian_null_sd(S), support=support, k=k),
@@ -312,7 +325,8 @@ def _rank(table, settings, ws, refs, skipped):
     with _progress.step("smoothness: Laplacian score on the neighbour graph"):
         notes = data_notes(ws) if cloud.n > 2 else {}
         if cloud.n > 2:
-            scores.update(_smoothness(Z, ws, usable, scores["support"]))
+            scores.update(_smoothness(Z, ws, usable, scores["support"],
+                                      scores["value_support"]))
         del Z
     for j, s in enumerate(status):
         if s != "ok":
