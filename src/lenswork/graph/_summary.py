@@ -27,9 +27,9 @@ Significance
 Every loop, branch, flare and branch point of an interval-cover graph gets a
 *significance*: how much of the lens range it spans, read from the extended
 persistence diagram of each lens on the graph (Carrière and Oudot, FoCM 2018;
-:func:`lenswork.graph._persistence.lens_persistence`), as a share of the
+:func:`lenswork.graph._thresholds.lens_persistence`), as a share of the
 range, and is *significant* when that share exceeds the cover's resolution
-threshold (:func:`~lenswork.graph._persistence.resolution_threshold`: more
+threshold (:func:`~lenswork.graph._thresholds.resolution_threshold`: more
 than one interval once both ends' uncertainty is taken off):
 
 * loops: the diagram's loop points (extended H1), each represented by the
@@ -271,7 +271,7 @@ class GraphSummary:
         """``{lens: significance threshold}`` of every lens (None without lens levels).
 
         The share of a lens's range a feature must exceed to be significant
-        (:func:`~lenswork.graph._persistence.resolution_threshold`); None for a
+        (:func:`~lenswork.graph._thresholds.resolution_threshold`); None for a
         lens whose threshold is infinite (one interval: nothing certified).
         """
         sig = significance_of(self._graph) if self._graph is not None else None
