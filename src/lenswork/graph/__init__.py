@@ -31,8 +31,10 @@ module         concept
 from __future__ import annotations
 
 from ._build import build_graph, hole_scale_settings, node_jitter, node_statistics
-from ._cluster import CLUSTERERS, CUTOFF_WORDS, FRAGMENT_RULES, neighbor_cutoff
+from ._cluster import CLUSTERERS
 from ._cover import COVER_SCALES, COVERS, BallCover, Cover, CoverBase, IntervalCover
+from ._cutoff import CUTOFF_WORDS, neighbor_cutoff
+from ._fragments import FRAGMENT_RULES
 from ._layout import LAYOUTS, auto_layout, graph_layout
 from ._lensgraph import GraphEdge, GraphNode, LensGraph
 from ._nerve import membership_matrix, nerve_edges, nerve_triangles

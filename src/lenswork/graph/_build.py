@@ -12,7 +12,8 @@ from .._validation import seed_of
 from .._version import __version__
 from ..table import as_lens_table
 from ..workspace import Workspace
-from ._cluster import CLUSTERERS, cluster_elements, clusterer_name
+from ._cluster import CLUSTERERS, cluster_elements
+from ._cluster_estimator import clusterer_name
 from ._cover import CoverBase
 from ._lensgraph import LensGraph
 from ._nerve import membership_matrix, nerve_edges
