@@ -34,13 +34,14 @@ from ._build import build_graph, hole_scale_settings, node_jitter, node_statisti
 from ._cluster import CLUSTERERS
 from ._cover import COVER_SCALES, COVERS, BallCover, Cover, CoverBase, IntervalCover
 from ._cutoff import CUTOFF_WORDS, neighbor_cutoff
+from ._feature_list import GraphFeature
 from ._fragments import FRAGMENT_RULES
 from ._layout import LAYOUTS, auto_layout, graph_layout
 from ._lensgraph import GraphEdge, GraphNode, LensGraph
 from ._nerve import membership_matrix, nerve_edges, nerve_triangles
 from ._read import read_graph_json
 from ._settings import GraphSettings, grid_settings
-from ._summary import GraphFeature, GraphSummary
+from ._summary import GraphSummary
 from .io import (
     read_lens_file,
     write_graph_json,
