@@ -13,19 +13,26 @@ Nerve
 Files (:mod:`lenswork.graph.io`)
     write_graphml, write_graph_json, read_graph_json, write_memberships, read_lens_file
 
-=============  ==========================================================
-module         concept
-=============  ==========================================================
-``_settings``  GraphSettings: every build setting, validated once
-``_cover``     the cover interface, the interval product cover, the ball cover
-``_cluster``   clusters of each cover element; cut-off and fragment rules
-``_nerve``     membership matrix, edges from ``M^T M``, triangles
-``_lensgraph`` the LensGraph object
-``_summary``   components, loops, branch points, flares, features
-``_layout``    level, lens, spring and spectral layouts
-``_build``     build_graph: cover -> clusters -> nerve
-``io``         GraphML, JSON, memberships CSV
-=============  ==========================================================
+===================  ==========================================================
+module               concept
+===================  ==========================================================
+``_settings``        GraphSettings: every build setting, validated once
+``_cover``           the cover interface, the interval product cover, the ball cover
+``_cluster``         clusters of each cover element: the rule table, the element loop
+``_cluster_*``       one module per clustering rule family, the rule interface
+``_cutoff``          the edge-length cut-off rules
+``_fragments``       groups below min_size attached to a kept cluster nearby
+``_nerve``           membership matrix, edges from ``M^T M``, triangles
+``_lensgraph``       the LensGraph object
+``_persistence``     extended persistence diagrams of a function on a graph
+``_thresholds``      the cover's significance rule, a lens's diagram on a graph
+``_trunks``          the branches that hold a component's extremes
+``_summary``         components, loops, branch points, flares (GraphSummary)
+``_feature_list``    the features of a graph (GraphFeature)
+``_layout``          level, lens, spring and spectral layouts
+``_build``           build_graph: cover -> clusters -> nerve
+``io``               GraphML, JSON, memberships CSV
+===================  ==========================================================
 """
 
 from __future__ import annotations
