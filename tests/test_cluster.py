@@ -12,7 +12,7 @@ from sklearn.neighbors import NearestNeighbors
 import lenswork.workspace as workspace_module
 from lenswork import ParameterError, Workspace
 from lenswork.graph import Cover, build_graph, neighbor_cutoff
-from lenswork.graph._cluster import _cut_indices
+from lenswork.graph._cutoff import cut_indices
 
 
 def node_sets(graph):
@@ -260,7 +260,7 @@ def test_one_shared_neighbour_graph(monkeypatch):
         build_graph(X[:, 0], ws, intervals=intervals, overlap=overlap)
     assert len(calls) == 1  # every graph reads the workspace's cached neighbour graph
     c = neighbor_cutoff(ws)
-    assert _cut_indices(ws, 15, "euclidean", c) is _cut_indices(ws, 15, "euclidean", c)
+    assert cut_indices(ws, 15, "euclidean", c) is cut_indices(ws, 15, "euclidean", c)
 
 
 @pytest.mark.parametrize(
@@ -281,7 +281,7 @@ def test_bad_clustering_parameters(kwargs, match):
 
 
 def test_single_linkage_refuses_huge_elements(monkeypatch):
-    import lenswork.graph._cluster as cluster_module
+    import lenswork.graph._cluster_single as cluster_module
 
     monkeypatch.setattr(cluster_module, "SINGLE_MAX_POINTS", 50)
     rng = np.random.default_rng(214)

@@ -13,7 +13,7 @@ from lenswork import ParameterError, Workspace
 from lenswork.compare import adjusted_rand_index
 from lenswork.graph import Cover, GraphSettings, build_graph
 from lenswork.graph._build import lens_jitter
-from lenswork.graph._cluster import cluster_element, landmark_priority
+from lenswork.graph._cluster_element import cluster_element, landmark_priority
 
 
 def _reference_components(X, k, cutoff=np.inf):

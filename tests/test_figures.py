@@ -195,8 +195,13 @@ def circle_map():
 
 
 def test_stability_figure_names_raw_counts_raw(circle_map):
+    import dataclasses
+
     from lenswork.plot import stability_figure
 
+    # a map without per-cell significance (as a map of a ball cover, or an older map)
+    raw = {k: v for k, v in circle_map.counts.items() if not k.startswith("significant_")}
+    circle_map = dataclasses.replace(circle_map, counts=raw)
     with _drawn(stability_figure(circle_map)) as fig:
         titles = [ax.get_title(loc="left") for ax in fig.axes]
         assert titles == ["components", "raw cycles (b1)", "raw nodes of degree \u2265 3",
@@ -219,7 +224,7 @@ def test_stability_figure_leads_with_significant_counts_when_the_map_holds_them(
 
     from lenswork.plot import stability_figure
 
-    counts = dict(circle_map.counts)
+    counts = {k: v for k, v in circle_map.counts.items() if not k.startswith("significant_")}
     counts["significant_loops"] = np.ones_like(counts["loops"])
     counts["significant_branches"] = np.zeros_like(counts["loops"])
     smap = dataclasses.replace(circle_map, counts=counts)
@@ -230,6 +235,24 @@ def test_stability_figure_leads_with_significant_counts_when_the_map_holds_them(
         top = [ax.images[0].cmap(1.0)[:3] for ax in fig.axes]
         grey = [abs(r - g) < 0.1 and abs(g - b) < 0.1 for r, g, b in top]
         assert grey == [False, False, False, True, True, True]
+        assert _overlaps(fig) == [] and _outside(fig) == []
+
+
+def test_stability_figure_draws_the_maps_own_significant_counts_first(circle_map):
+    """stability_map records the summary's significant counts per cell: the figure leads
+    with them, each panel the map's own counts, the raw panels after them."""
+    from lenswork.plot import stability_figure
+
+    with _drawn(stability_figure(circle_map)) as fig:
+        titles = [ax.get_title(loc="left") for ax in fig.axes]
+        assert titles == ["components", "significant loops", "significant flares",
+                          "significant limbs", "significant branch points", "raw cycles (b1)",
+                          "raw nodes of degree \u2265 3", "raw leaf chains"]
+        names = ("components", "significant_loops", "significant_flares", "significant_limbs",
+                 "significant_branch_points", "loops", "branch_points", "flares")
+        for ax, name in zip(fig.axes, names, strict=True):
+            np.testing.assert_array_equal(ax.images[0].get_array(), circle_map.counts[name])
+        assert not any("records no significance" in t.get_text() for t in fig.texts)
         assert _overlaps(fig) == [] and _outside(fig) == []
 
 

@@ -16,7 +16,7 @@ from _shapes import noisy_circle
 
 from lenswork import Workspace, bootstrap_graph, build_graph
 from lenswork.graph import write_graph_json
-from lenswork.graph._persistence import graph_diagrams
+from lenswork.graph._thresholds import graph_diagrams
 
 
 def y_tree(n, rng, noise=0.03):

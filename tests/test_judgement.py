@@ -32,7 +32,7 @@ from lenswork.criteria import (
     neighbour_jitter,
     smoothness,
 )
-from lenswork.graph._persistence import lens_persistence, resolution_threshold
+from lenswork.graph._thresholds import lens_persistence, resolution_threshold
 
 
 def _diagram(builder, lens):

@@ -14,11 +14,8 @@ import numpy as np
 import pytest
 
 from lenswork import ParameterError, build_graph
-from lenswork.graph._persistence import (
-    extended_persistence,
-    lens_persistence,
-    resolution_threshold,
-)
+from lenswork.graph._persistence import extended_persistence
+from lenswork.graph._thresholds import lens_persistence, resolution_threshold
 
 
 # --------------------------------------------------------------------------- references
@@ -275,7 +272,7 @@ def test_errors():
 
 
 def test_structure_significance_counts_significant_features_only():
-    from lenswork.graph._persistence import structure_significance
+    from lenswork.graph._structure_score import structure_significance
 
     ring = extended_persistence([[i, (i + 1) % 6] for i in range(6)],
                                 [0.0, 1, 2, 3, 2, 1], threshold=0.3)

@@ -260,12 +260,15 @@ def test_stability_map_table_and_figure(tmp_path):
     with open(path, newline="") as fh:
         rows = list(csv.DictReader(fh))
     assert len(rows) == 6
-    assert list(rows[0])[:7] == ["intervals", "overlap", "nodes", "edges", "unassigned",
-                                 "components", "loops"]
+    # the significant counts lead (the summary's first line), the raw ones follow
+    assert list(rows[0])[:10] == ["intervals", "overlap", "components", "significant_loops",
+                                  "significant_flares", "significant_limbs",
+                                  "significant_branch_points", "loops", "branch_points",
+                                  "flares"]
     for r in rows:
         i = smap.interval_counts.index(int(r["intervals"]))
         j = smap.overlaps.index(float(r["overlap"]))
-        for feature in ("components", "loops", "branch_points", "flares"):
+        for feature in ("components", "significant_loops", "loops", "branch_points", "flares"):
             assert int(r[feature]) == smap.counts[feature][i, j]
     meta = json.loads(sidecar.read_text())
     assert meta["lens"] == "x" and meta["default"] == [10, 0.3] and meta["n_rows"] == 400
@@ -283,3 +286,61 @@ def test_stability_map_default_outside_the_grid():
     assert smap.region("loops", cell=(0, 0))[0, 0]
     with pytest.raises(ParameterError, match="No feature 'holes'"):
         smap.region("holes", cell=(0, 0))
+
+
+def _circle_with_tail(n, rng):
+    """A noisy circle of radius 1 with a straight tail of length 2 leaving it at (1, 0)."""
+    t = rng.uniform(0, 2 * np.pi, n - n // 4)
+    s = rng.uniform(0, 2, n // 4)
+    X = np.vstack([np.column_stack([np.cos(t), np.sin(t)]), np.column_stack([1 + s, 0 * s])])
+    return X + rng.normal(scale=0.03, size=X.shape)
+
+
+@pytest.mark.parametrize("columns", [(0,), (0, 1)])
+def test_stability_cells_state_the_graph_summary_significant_counts(columns):
+    # The reference is the project's own graph summary: every cell's significant counts are
+    # those build_graph(...).summary() gives at that cell's settings (for two lenses the holes
+    # over the coarser cover scales, which build_graph builds itself), its raw counts too.
+    from lenswork.graph import grid_settings
+    from lenswork.probe import merged_settings
+
+    rng = np.random.default_rng(20261204)
+    X = _circle_with_tail(900, rng)
+    ws = Workspace(X)
+    lens = X[:, columns[0]] if len(columns) == 1 else X[:, list(columns)]
+    smap = stability_map(lens, ws, interval_counts=(6, 10, 14), overlaps=(0.2, 0.4))
+    lead = "significant_loops" if len(columns) == 1 else "significant_holes"
+    assert smap.features[:2] == ("components", lead)
+    settings = merged_settings(None, None, {})
+    for i, n_int in enumerate(smap.interval_counts):
+        for j, overlap in enumerate(smap.overlaps):
+            s = build_graph(lens, ws, grid_settings(settings, n_int, overlap)).summary()
+            want = s.significant_counts()
+            got = {k: int(smap.counts[f"significant_{k}" if k != "components" else k][i, j])
+                   for k in want}
+            assert got == want, (n_int, overlap)
+            assert smap.counts["loops"][i, j] == s.loops
+            assert smap.counts["flares"][i, j] == s.n_flares
+    # the tail is a flare (or, for the x lens, the trunk holding the maximum) somewhere
+    assert smap.counts["significant_flares"].max() + smap.counts["significant_limbs"].max() >= 1
+
+
+def test_stability_map_counts_one_significant_hole_per_circle():
+    # scikit-learn's make_circles: two concentric circles, each with first Betti number 1
+    # (closed form); both loops span more than the cover's resolution threshold at 10 and 12
+    # intervals (the inner circle spans 60 % of the x range, the threshold is at most 0.32
+    # plus the lens jitter: lenswork.graph._thresholds.resolution_threshold).
+    from sklearn.datasets import make_circles
+
+    X, _ = make_circles(n_samples=1200, noise=0.03, factor=0.6, random_state=0)
+    ws = Workspace(X)
+    one = stability_map(X[:, 0], ws, interval_counts=(10, 12), overlaps=(0.3, 0.4))
+    assert (one.counts["components"] == 2).all()
+    assert (one.counts["significant_loops"] == 2).all()
+    both = stability_map(X, ws, interval_counts=(10, 12), overlaps=(0.3, 0.4))
+    assert (both.counts["significant_holes"] == 2).all()
+    assert (both.counts["loops"] > 2).all()  # the raw cycles of a product cover are not holes
+    text = both.text()
+    assert text.index("significant holes:") < text.index("raw loops")
+    rec = both.to_dict()["cells"][0]
+    assert list(rec)[2:4] == ["components", "significant_holes"]

@@ -3,6 +3,8 @@
 import re
 from pathlib import Path
 
+import numpy as np
+
 ROOT = Path(__file__).resolve().parents[1]
 README = ROOT / "README.md"
 
@@ -70,4 +72,7 @@ def test_readme_headline_figures_are_the_commands_own(tmp_path):
     assert pair["holes"] == 1 and pair["flares"] == 2  # the gallery's pair: the loop, both flares
     smap = lw.stability_map(lw.compute_lenses(ws, ["laplacian:components=1"]), ws)
     region = smap.region("loops")
-    assert int(region.sum()) == region.size == 40  # "b1 = 1 holds over all 40 cells"
+    assert int(region.sum()) == region.size == 40  # "raw b1 = 1 over all 40"
+    sig = smap.region("significant_loops")  # "One significant loop holds over 37 of the 40"
+    assert smap.counts["significant_loops"][smap.default_cell] == 1 and int(sig.sum()) == 37
+    assert set(zip(*np.nonzero(~sig))) == {(0, 3), (0, 4), (1, 4)}  # 4 x 0.4, 0.5; 6 x 0.5

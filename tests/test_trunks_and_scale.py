@@ -13,13 +13,10 @@ import scipy.sparse as sp
 
 from lenswork import Workspace, build_graph
 from lenswork.graph import Cover, GraphSettings, node_jitter
-from lenswork.graph._persistence import (
-    diagram_trunks,
-    extended_persistence,
-    significance_total,
-    trunk_points,
-)
+from lenswork.graph._persistence import extended_persistence
 from lenswork.graph._settings import auto_scale
+from lenswork.graph._structure_score import significance_total
+from lenswork.graph._trunks import diagram_trunks, trunk_points
 
 
 def _path(n, start=0):
@@ -119,7 +116,7 @@ def test_per_point_thresholds_use_the_jitter_at_both_ends():
     t = np.linspace(0, 2 * np.pi, 600, endpoint=False)
     X = np.column_stack([np.cos(t), np.sin(t)])
     g = build_graph(X[:, 1], X, intervals=10, overlap=0.3)
-    from lenswork.graph._persistence import lens_persistence, resolution_threshold
+    from lenswork.graph._thresholds import lens_persistence, resolution_threshold
     d = lens_persistence(g)
     local = np.asarray(g.params["node_jitter"][0])
     step = 0.7 / (1 + 9 * 0.7)

@@ -19,16 +19,16 @@ acts; same clusterer, cut-off and minimum size).
 Significance of one graph
 -------------------------
 Each graph of one lens also gets the extended persistence diagram of the lens
-on it (``lenswork.graph._persistence.lens_persistence``; Carrière and Oudot,
+on it (``lenswork.graph._thresholds.lens_persistence``; Carrière and Oudot,
 "Structure and stability of the one-dimensional Mapper", FoCM 2018): every
 loop and branch is a pair of lens levels, and its *significance* is the share
 of the lens range it spans. A feature is *significant* when it spans more than
 the cover can make on its own, ``2 (L + delta)`` (interval length ``L``, the
-lens's neighbour jitter ``delta``; see ``lenswork.graph._persistence``). The
+lens's neighbour jitter ``delta``; see ``lenswork.graph._thresholds``). The
 cell's total is ``T = sum w_kind * significance`` over the significant points
 and trunks (:data:`SIGNIFICANCE_WEIGHTS`: loops 1, branches 0.5; a trunk, the
 tail that holds the lens's extreme, counts as a branch:
-``lenswork.graph._persistence.diagram_trunks``): a tangle of short noise loops
+``lenswork.graph._trunks.diagram_trunks``): a tangle of short noise loops
 adds 0, one loop over the whole range adds 1. The loop and the branch parts
 are also kept apart (``loop_significance``, ``branch_significance``: ``1 -
 2 ** -median`` of each), for the screen's pair merit. The thresholds are the
@@ -121,8 +121,10 @@ from .graph._features import (
     feature_counts,
     quiet_build,
 )
-from .graph._persistence import diagram_trunks, lens_persistence, significance_total
 from .graph._settings import GraphSettings, grid_settings
+from .graph._structure_score import significance_total
+from .graph._thresholds import lens_persistence
+from .graph._trunks import diagram_trunks
 from .table import as_lens_table
 
 __all__ = [
@@ -315,7 +317,7 @@ def grid_counts(cols, workspace, interval_counts, overlaps, settings, data_compo
     Each cell's settings come from :func:`lenswork.graph.grid_settings`, so the
     grid sweeps whichever cover the settings hold. Unless ``jitter`` is False
     (one lens column, interval cover) each cell's graph also gets its extended
-    persistence diagram (``lenswork.graph._persistence.lens_persistence`` with
+    persistence diagram (``lenswork.graph._thresholds.lens_persistence`` with
     that jitter; None: the graph's own, per node): the counts of significant
     loops and branches (trunks included) and the significance total ``T`` of the
     module notes.

@@ -35,7 +35,8 @@ from lenswork.graph import (
     nerve_edges,
 )
 from lenswork.graph._build import node_statistics
-from lenswork.graph._cluster import _cut_indices, cluster_elements
+from lenswork.graph._cluster import cluster_elements
+from lenswork.graph._cutoff import cut_indices
 
 
 def _baseline_clusters(ws, rows, elements, k, cutoff):
@@ -61,7 +62,7 @@ def run_size(n, rng, intervals=20, overlap=0.3, k=15):
     ws = Workspace(X)
     _, t_knn = timed(ws.neighbors, k)
     cutoff, t_cut = timed(neighbor_cutoff, ws, k)
-    _, t_cutidx = timed(_cut_indices, ws, k, "euclidean", cutoff)
+    _, t_cutidx = timed(cut_indices, ws, k, "euclidean", cutoff)
     cover, t_fit = timed(Cover(intervals=intervals, overlap=overlap).fit, lens)
     (rows, elements), t_inc = timed(cover.incidence, order=cover.values_[:, 0])
     result, t_cl = timed(cluster_elements, ws, rows, elements, GraphSettings(k=k, random_state=0))

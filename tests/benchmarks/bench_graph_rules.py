@@ -57,7 +57,7 @@ def main():
 
     import lenswork as lw
     from lenswork.compare import adjusted_rand_index, co_membership, induced_partition
-    from lenswork.graph import _cluster
+    from lenswork.graph import _cluster_element
 
     print(f"lenswork from {Path(lw.__file__).parent}; {os.cpu_count()} cores, shared", flush=True)
     start = time.perf_counter()
@@ -78,7 +78,7 @@ def main():
         ref = None
         for rule, mark in runs:
             if mark is not None:
-                _cluster.ELEMENT_LANDMARKS = mark  # the default of cluster_element
+                _cluster_element.ELEMENT_LANDMARKS = mark  # the default of cluster_element
             ws = lw.Workspace(X, random_state=0)
             t0 = time.perf_counter()
             with warnings.catch_warnings():

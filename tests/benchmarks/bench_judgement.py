@@ -12,7 +12,7 @@ pure noise, ``column:name=noise``) and print:
   rank among all candidate pairs by that measure; pca_1 + pca_2's accuracy and rank;
 - shapes: the top lens's default graph (build_graph defaults): its loops b1 and flares, and the
   significant loops and branches by the cover-resolution rule of
-  lenswork.graph._persistence, against the known b1 / flares;
+  lenswork.graph._thresholds, against the known b1 / flares;
 - the noise lens's rank among the candidates.
 
 The main table is the screen's default (merit: robust spread x Laplacian smoothness x
@@ -53,7 +53,7 @@ from lenswork.criteria import (  # noqa: E402
     heat_kernel_affinity,
     neighbour_jitter,
 )
-from lenswork.graph._persistence import lens_persistence  # noqa: E402
+from lenswork.graph._thresholds import lens_persistence  # noqa: E402
 
 NOISE_SPEC = f"column:name={NOISE_COLUMN}"
 VERBOSE = False

@@ -32,8 +32,11 @@ def stability(cloud, seed, lens_specs, lens_file, use, grid_intervals, grid_over
     """Map the graph's feature counts over a grid of cover settings for one lens.
 
     For every (intervals, overlap) cell the Mapper graph of the lens is built on
-    the shared neighbour graph and its components, loops (b1), branch points and
-    flares are counted. The table (one row per cell) goes to stability.csv, the
+    the shared neighbour graph and its significant structure is counted as the
+    graph summary's first line gives it (components, significant loops -- holes
+    for several lenses, checked over coarser covers --, flares, limbs, branch
+    points), then its raw counts (loops b1, branch points, flares: small
+    features included). The table (one row per cell) goes to stability.csv, the
     heat maps to stability.png; the region of cells around the default setting
     (the default graph's: intervals and min_size from the rows, overlap 0.3)
     with the same count is outlined. Pick cover
@@ -49,13 +52,17 @@ def stability(cloud, seed, lens_specs, lens_file, use, grid_intervals, grid_over
                          overlaps=grid_overlaps)
     click.echo(f"Stability map of {smap.lens} on {ws.n} rows "
                f"({len(smap.interval_counts)} x {len(smap.overlaps)} cover settings).")
-    click.echo(_grid_text(smap, "loops"))
+    lead = next((f for f in ("significant_loops", "significant_holes") if f in smap.counts),
+                "loops")
+    click.echo(_grid_text(smap, lead))
     cell = smap.default_cell
     if cell is not None:
-        for feature in ("components", "loops", "branch_points", "flares"):
+        for feature in smap.features:
             region = smap.region(feature)
             value = int(smap.counts[feature][cell])
-            click.echo(f"{feature}: {value} at the default setting; the same over "
+            name = feature.replace("_", " ") if feature.startswith("significant_") \
+                or feature == "components" else f"raw {feature.replace('_', ' ')}"
+            click.echo(f"{name}: {value} at the default setting; the same over "
                        f"{int(region.sum())} of {region.size} cells around it")
     with output as stage:
         smap.write(stage / "stability.csv")
@@ -67,7 +74,7 @@ def stability(cloud, seed, lens_specs, lens_file, use, grid_intervals, grid_over
 def _grid_text(smap, feature):
     counts = smap.counts[feature]
     head = "intervals \\ overlap " + " ".join(f"{o:>5g}" for o in smap.overlaps)
-    lines = [f"{feature}:", head]
+    lines = [f"{feature.replace('_', ' ')}:", head]
     for i, iv in enumerate(smap.interval_counts):
         lines.append(f"{iv:>19d} " + " ".join(f"{int(v):>5d}" for v in counts[i]))
     return "\n".join(lines)

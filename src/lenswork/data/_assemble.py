@@ -270,9 +270,10 @@ def _warn_id_like(X, names, label):
 
 def _warn_scales(X, names, label):
     """Warn when the feature columns' spreads (standard deviations) differ by > SCALE_RATIO."""
-    top = np.max(np.abs(X), axis=0)
+    top = np.maximum(X.max(axis=0), -X.min(axis=0))
     top[top == 0] = 1.0
-    sd = (X / top).std(axis=0) * top  # scaled first: squares cannot overflow
+    # scaled first (squares cannot overflow), one column at a time: no copy of the whole table
+    sd = np.array([(X[:, k] / top[k]).std() * top[k] for k in range(X.shape[1])])
     live = np.flatnonzero(sd > 0)
     if live.size < 2:
         return

@@ -278,7 +278,7 @@ def column_numbers(raw, j):
     col = raw.columns[j]
     kind = col.dtype.kind
     if kind in "iuf":
-        return col.astype(np.float64), NO_INDEX
+        return col.astype(np.float64, copy=False), NO_INDEX  # read only: no copy of a float column
     if kind == "U":
         return parse_text_cells(col.tolist())
     if kind in "OS":

@@ -12,7 +12,8 @@ from .._validation import seed_of
 from .._version import __version__
 from ..table import as_lens_table
 from ..workspace import Workspace
-from ._cluster import CLUSTERERS, cluster_elements, clusterer_name
+from ._cluster import CLUSTERERS, cluster_elements
+from ._cluster_estimator import clusterer_name
 from ._cover import CoverBase
 from ._lensgraph import LensGraph
 from ._nerve import membership_matrix, nerve_edges
@@ -46,7 +47,7 @@ def lens_jitter(values, neighbours, rows=None):
         ``delta_j = sqrt(mean over (i, its neighbours l) of (u_ij - u_lj)^2) / span_j``
         (0 for a constant lens): the lens's jitter at the data's resolution,
         which widens the significance threshold of
-        :func:`lenswork.graph._persistence.resolution_threshold`. Unit weights
+        :func:`lenswork.graph._thresholds.resolution_threshold`. Unit weights
         over the shared k-NN graph (the heat-kernel version of the screen
         weighs close neighbours more).
 
@@ -91,7 +92,7 @@ def node_jitter(values, neighbours, membership, rows=None, fallback=None):
     list of list of float
         ``[lens][node]``: :func:`lens_jitter` restricted to the node's members
         (as a share of the lens's span), the local uncertainty of a feature
-        end at that node (``lenswork.graph._persistence``, module notes).
+        end at that node (``lenswork.graph._thresholds``, module notes).
 
     Examples
     --------

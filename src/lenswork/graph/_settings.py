@@ -72,14 +72,11 @@ from dataclasses import dataclass, field
 from .._errors import ParameterError
 from .._validation import SettingsRecord, check_choice, check_float, check_int
 from ..workspace import EXACT_MAX_ROWS, METRICS
-from ._cluster import (
-    CLUSTERERS,
-    FRAGMENT_RULES,
-    check_clusterer,
-    check_cutoff,
-    clusterer_name,
-)
+from ._cluster import CLUSTERERS, check_clusterer
+from ._cluster_estimator import clusterer_name
 from ._cover import COVER_SCALES, COVERS, CoverBase
+from ._cutoff import check_cutoff
+from ._fragments import FRAGMENT_RULES
 
 __all__ = [
     "AUTO_BETA",

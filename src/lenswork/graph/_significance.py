@@ -14,7 +14,9 @@ from functools import cached_property
 import numpy as np
 
 from .._errors import ParameterError
-from ._persistence import ascending_edge_order, diagram_trunks, graph_diagrams
+from ._persistence import ascending_edge_order
+from ._thresholds import graph_diagrams
+from ._trunks import diagram_trunks
 from ._walk import spanning_forest, tree_path
 
 __all__ = ["BRANCH_RADIUS", "Significance", "significance_of"]

@@ -27,9 +27,9 @@ Significance
 Every loop, branch, flare and branch point of an interval-cover graph gets a
 *significance*: how much of the lens range it spans, read from the extended
 persistence diagram of each lens on the graph (Carrière and Oudot, FoCM 2018;
-:func:`lenswork.graph._persistence.lens_persistence`), as a share of the
+:func:`lenswork.graph._thresholds.lens_persistence`), as a share of the
 range, and is *significant* when that share exceeds the cover's resolution
-threshold (:func:`~lenswork.graph._persistence.resolution_threshold`: more
+threshold (:func:`~lenswork.graph._thresholds.resolution_threshold`: more
 than one interval once both ends' uncertainty is taken off):
 
 * loops: the diagram's loop points (extended H1), each represented by the
@@ -81,65 +81,25 @@ a breadth-first spanning tree (one per non-tree edge), so their number is
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from functools import cached_property
 
 import numpy as np
 
 from .._errors import ParameterError
+from ._feature_list import graph_features, graph_limbs
 from ._significance import BRANCH_RADIUS, significance_of  # noqa: F401  (BRANCH_RADIUS: tests)
-from ._walk import (
-    chains,
-    components_by_size,
-    fundamental_cycles,
-    neighbour_lists,
-    nerve_holes,
-    row_counter,
-    structure,
+from ._summary_text import (
+    COUNT_WORDS,
+    KIND_WORDS,
+    count_text,
+    cover_settings,
+    feature_line,
+    settings_text,
 )
+from ._walk import chains, components_by_size, nerve_holes, row_counter, structure
 
-__all__ = ["GraphFeature", "GraphSummary", "cover_settings",
-           "neighbour_lists", "settings_text", "summarize"]
-
-
-@dataclass(frozen=True)
-class GraphFeature:
-    """One feature of the graph.
-
-    Attributes
-    ----------
-    kind : {"component", "loop", "branch", "flare", "path", "limb"}
-    nodes : tuple of int
-    rows : int
-        Distinct rows in the feature's nodes.
-    lens_range : dict of str -> (float, float)
-        Range of each lens spanned by the feature's nodes.
-    attached_to : int or None
-        For a flare: the branch point it leads to.
-    significance : float or None
-        Share of the lens range the feature spans (module notes); None for
-        components, paths and graphs without lens levels.
-    significant : bool or None
-        Significance above the cover's resolution threshold.
-    """
-
-    kind: str
-    nodes: tuple
-    rows: int
-    lens_range: dict
-    attached_to: int | None = None
-    significance: float | None = None
-    significant: bool | None = None
-
-    def to_dict(self):
-        """JSON-ready form."""
-        return {
-            "kind": self.kind, "nodes": list(self.nodes), "rows": self.rows,
-            "lens_range": {k: [float(a), float(b)] for k, (a, b) in self.lens_range.items()},
-            "attached_to": self.attached_to,
-            "significance": None if self.significance is None else float(self.significance),
-            "significant": self.significant,
-        }
+__all__ = ["GraphSummary", "summarize"]
 
 
 @dataclass(frozen=True)
@@ -183,7 +143,7 @@ class GraphSummary:
         Loops, flares and branch points carry their significance (module
         notes); the diagram's branches are in :attr:`limbs`.
         """
-        return _features(self._graph) if self._graph is not None else ()
+        return graph_features(self._graph) if self._graph is not None else ()
 
     @cached_property
     def limbs(self):
@@ -197,7 +157,7 @@ class GraphSummary:
         if self._graph is None:
             return ()
         sig = significance_of(self._graph)
-        return _limbs(self._graph, sig) if sig is not None else ()
+        return graph_limbs(self._graph, sig) if sig is not None else ()
 
     def _all(self):
         return (*self.features, *self.limbs)
@@ -271,7 +231,7 @@ class GraphSummary:
         """``{lens: significance threshold}`` of every lens (None without lens levels).
 
         The share of a lens's range a feature must exceed to be significant
-        (:func:`~lenswork.graph._persistence.resolution_threshold`); None for a
+        (:func:`~lenswork.graph._thresholds.resolution_threshold`); None for a
         lens whose threshold is infinite (one interval: nothing certified).
         """
         sig = significance_of(self._graph) if self._graph is not None else None
@@ -360,11 +320,11 @@ class GraphSummary:
         """
         counts = self.significant_counts()
         if counts is None:
-            return sep.join([_count(self.n_components, "component"),
-                             _count(self.loops, "loop") + " (raw)",
-                             _count(len(self.branch_points), "branch point") + " (raw)",
-                             _count(self.n_flares, "flare") + " (raw)"])
-        return sep.join(_count(v, _WORDS[k]) for k, v in counts.items())
+            return sep.join([count_text(self.n_components, "component"),
+                             count_text(self.loops, "loop") + " (raw)",
+                             count_text(len(self.branch_points), "branch point") + " (raw)",
+                             count_text(self.n_flares, "flare") + " (raw)"])
+        return sep.join(count_text(v, COUNT_WORDS[k]) for k, v in counts.items())
 
     def raw_counts_text(self, sep=", "):
         """The raw cycle and degree counts in words (noise included)."""
@@ -506,17 +466,17 @@ class GraphSummary:
         names = {id(f): lab for lab, f in self.labelled()}
         listed = [f for f in self._all() if f.significant is not False]
         for f in listed[:max_features]:
-            lines.append(_feature_line(f, self.needed(f), names.get(id(f))))
+            lines.append(feature_line(f, self.needed(f), names.get(id(f))))
         if len(listed) > max_features:
             lines.append(f"  ... {len(listed) - max_features} more features")
         if small:
             kinds = {}
             for f in small:
                 kinds[f.kind] = kinds.get(f.kind, 0) + 1
-            counted = ", ".join(f"{_KIND_WORDS[k]} {n}" for k, n in kinds.items())
+            counted = ", ".join(f"{KIND_WORDS[k]} {n}" for k, n in kinds.items())
             shown = sorted(small, key=lambda f: -f.significance)[:max(0, max_features // 4)]
             lines.append(f"  small features (below the threshold): {len(small)} ({counted})")
-            lines.extend(_feature_line(f, self.needed(f), names.get(id(f))) for f in shown)
+            lines.extend(feature_line(f, self.needed(f), names.get(id(f))) for f in shown)
             if len(small) > len(shown):
                 lines.append(f"  ... {len(small) - len(shown)} more small features")
         return "\n".join(lines)
@@ -569,120 +529,6 @@ class GraphSummary:
         if self._graph is None:
             raise ParameterError("This summary holds no graph to draw; summarise a LensGraph.")
         return self._graph.plot(path, **kwargs)
-
-
-#: Words of the significant counts (singular; ``_count`` adds the plural).
-_WORDS = {"components": "component", "loops": "loop", "holes": "hole", "flares": "flare",
-          "limbs": "limb", "branch_points": "branch point"}
-#: Words of the feature kinds in the small-feature count.
-_KIND_WORDS = {"loop": "loops", "limb": "limbs", "flare": "flares", "branch": "branch points"}
-
-
-def _count(n, word):
-    if n is None:
-        return f"{word}s unknown"
-    return f"{n} {word}{'' if n == 1 else 's'}"
-
-
-def _feature_line(f, needed=None, label=None):
-    spans = ", ".join(f"{k} {a:.4g}..{b:.4g}" for k, (a, b) in f.lens_range.items())
-    extra = f" -> node {f.attached_to}" if f.attached_to is not None else ""
-    shown = f.nodes if len(f.nodes) <= 8 else (*f.nodes[:8], "...")
-    node_text = ",".join(str(x) for x in shown)
-    sig = ""
-    if f.significance is not None:
-        sig = f"  significance {f.significance:.2f}"
-        if f.significant is False and needed is not None:
-            sig += (f" < {needed:.2f} needed" if f"{f.significance:.2f}" != f"{needed:.2f}"
-                    else f" (needs more than {needed:.3f})")
-    return (f"  {label or f.kind:<12} {len(f.nodes):>4} nodes {f.rows:>8,} rows  "
-            f"{spans}{extra}{sig}  [{node_text}]")
-
-
-def cover_settings(graph):
-    """The cover settings a graph was built with, and which of them were ``"auto"``."""
-    params = getattr(graph, "params", None) or {}
-    prov = getattr(graph, "provenance", None) or {}
-    cover = params.get("cover") or {}
-    out = {key: cover[key] for key in ("kind", "intervals", "overlap", "scale", "radius",
-                                       "centres") if key in cover and cover[key] is not None}
-    if "min_size" in params:
-        out["min_size"] = params["min_size"]
-    if isinstance(params.get("clusterer"), str):
-        out["clusterer"] = params["clusterer"]
-    auto = sorted(prov.get("auto_settings") or {})
-    if auto:
-        out["auto"] = auto
-    return out
-
-
-def settings_text(settings):
-    """One line: cover resolution, min_size and clusterer, marking those resolved from the data."""
-    auto = set(settings.get("auto", ()))
-
-    def shown(key, value):
-        if isinstance(value, (list, tuple)):
-            value = " x ".join(f"{v:g}" if isinstance(v, float) else str(v) for v in value)
-        elif isinstance(value, float):
-            value = f"{value:g}"
-        return f"{key} {value}" + (" (auto)" if key in auto else "")
-
-    parts = [shown(k, settings[k]) for k in ("intervals", "overlap", "scale", "radius",
-                                             "centres", "min_size", "clusterer")
-             if k in settings]
-    return "settings: " + ", ".join(parts)
-
-
-def _features(graph):
-    n_comp, labels, deg, nb = structure(graph)
-    rows_of = row_counter(graph)
-
-    def lens_range(nodes):
-        idx = np.asarray(nodes, dtype=np.int64)
-        return {
-            name: (float(graph.node_stats[name][idx, 1].min()),
-                   float(graph.node_stats[name][idx, 2].max()))
-            for name in graph.lens_columns
-        }
-
-    def feature(kind, nodes, attached_to=None):
-        nodes = tuple(int(x) for x in nodes)
-        return GraphFeature(kind, nodes, rows_of(nodes), lens_range(nodes), attached_to)
-
-    sig = significance_of(graph)
-    features = [feature("component", nodes) for nodes in components_by_size(labels, n_comp)]
-    flares, paths = chains(nb, deg)
-    if sig is None:
-        features += [feature("loop", cycle) for cycle in fundamental_cycles(nb, labels, n_comp)]
-        features += [feature("branch", (int(v),)) for v in np.flatnonzero(deg >= 3)]
-        features += [feature("flare", chain, attached_to=int(end)) for chain, end in flares]
-    else:
-        for cycle, value, ok in sig.loops(nb):
-            features.append(replace(feature("loop", cycle), significance=value, significant=ok))
-        for v in np.flatnonzero(deg >= 3):
-            value, ok = sig.branch(int(v), nb)
-            features.append(replace(feature("branch", (int(v),)), significance=value,
-                                    significant=ok))
-        for chain, end in flares:
-            value, ok = sig.flare(chain, int(end))
-            features.append(replace(feature("flare", chain, attached_to=int(end)),
-                                    significance=value, significant=ok))
-    features += [feature("path", chain) for chain in paths]
-    return tuple(features)
-
-
-def _limbs(graph, sig):
-    rows_of = row_counter(graph)
-    nb = neighbour_lists(graph.n_nodes, graph.edge_index)
-    out = []
-    for nodes, merge, value, ok in sig.limbs(nb):
-        idx = np.asarray(nodes, dtype=np.int64)
-        spans = {name: (float(graph.node_stats[name][idx, 1].min()),
-                        float(graph.node_stats[name][idx, 2].max()))
-                 for name in graph.lens_columns}
-        out.append(GraphFeature("limb", tuple(int(x) for x in nodes), rows_of(nodes), spans,
-                                attached_to=int(merge), significance=value, significant=ok))
-    return tuple(out)
 
 
 def summarize(graph):

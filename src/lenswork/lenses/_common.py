@@ -65,7 +65,9 @@ def sample_rows(X, m, rng):
     if m >= n:
         return np.arange(n)
     w = rng.standard_normal(X.shape[1])
-    s = (X * w).sum(axis=1)
+    s = np.empty(n)
+    for a in range(0, n, 65_536):  # in blocks: no (n, d) temporary (160 MB at 1e6 x 20)
+        s[a:a + 65_536] = (X[a:a + 65_536] * w).sum(axis=1)
     key = sample_keys(X, w, float(np.std(s)), rng.random(), s)
     order = np.lexsort((np.arange(n), key))  # duplicate rows: ties are exchangeable anyway
     return np.sort(order[:m])

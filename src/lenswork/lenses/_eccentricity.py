@@ -77,18 +77,24 @@ def _p_label(p):
 # ---------------------------------------------------------------------------
 
 
-def _augment_sq(Q, R):
-    """Factors with ``Qa @ RaT = ||q - r||^2``."""
+def _augment_rows(Q, q_sq):
+    """``Qa`` with ``Qa @ RaT = ||q - r||^2``: the rows ``Q``, their squared norms, ones."""
     d = Q.shape[1]
     Qa = np.empty((Q.shape[0], d + 2))
     Qa[:, :d] = Q
-    Qa[:, d] = np.einsum("ij,ij->i", Q, Q)
+    Qa[:, d] = q_sq
     Qa[:, d + 1] = 1.0
+    return Qa
+
+
+def _augment_cols(R, r_sq):
+    """``RaT`` with ``Qa @ RaT = ||q - r||^2``: ``-2 R^T``, ones, the squared norms."""
+    d = R.shape[1]
     RaT = np.empty((d + 2, R.shape[0]))
-    RaT[:d] = -2.0 * R.T
+    np.multiply(R.T, -2.0, out=RaT[:d])
     RaT[d] = 1.0
-    RaT[d + 1] = np.einsum("ij,ij->i", R, R)
-    return Qa, RaT
+    RaT[d + 1] = r_sq
+    return RaT
 
 
 def _power_sums(Q, R, p, *, ref_rows=None, second=False, extra=None):
@@ -97,9 +103,13 @@ def _power_sums(Q, R, p, *, ref_rows=None, second=False, extra=None):
     ``ref_rows`` (sorted data index of each reference row) marks self pairs of
     query rows 0..n-1, whose distance is set to exactly 0. ``extra`` (p = inf
     only, one value per reference) also returns ``min_j (d_ij + extra_j)``.
+    The squared-distance factors are made per tile (a block of query rows, a
+    tile of reference rows), so no (n, d + 2) copy of either side is held: at
+    1e6 x 20 rows that is 176 MB per side.
     """
-    Qa, RaT = _augment_sq(Q, R)
-    nq, nr = Qa.shape[0], RaT.shape[1]
+    q_sq = np.einsum("ij,ij->i", Q, Q)
+    r_sq = np.einsum("ij,ij->i", R, R)
+    nq, nr = Q.shape[0], R.shape[0]
     s1 = np.zeros(nq)
     s2 = np.zeros(nq) if second else None
     upper = np.full(nq, np.inf) if extra is not None else None
@@ -109,10 +119,11 @@ def _power_sums(Q, R, p, *, ref_rows=None, second=False, extra=None):
         acc2 = np.zeros(i1 - i0) if second else None
         up = np.full(i1 - i0, np.inf) if extra is not None else None
         buf = np.empty((i1 - i0, TILE_COLS))
+        Qa = _augment_rows(Q[i0:i1], q_sq[i0:i1])
         for j0 in range(0, nr, TILE_COLS):
             j1 = min(j0 + TILE_COLS, nr)
             T = buf if j1 - j0 == TILE_COLS else np.empty((i1 - i0, j1 - j0))
-            np.matmul(Qa[i0:i1], RaT[:, j0:j1], out=T)
+            np.matmul(Qa, _augment_cols(R[j0:j1], r_sq[j0:j1]), out=T)
             np.maximum(T, 0.0, out=T)  # rounding can make a squared distance slightly negative
             if ref_rows is not None:
                 zero_self(T, i0, i1, None, ref_rows, j0, j1)
@@ -151,7 +162,8 @@ def _scaled(X, Q=None):
     Xc = X - mean
     scale = float(np.sqrt(np.einsum("ij,ij->i", Xc, Xc).max())) or 1.0
     Qc = None if Q is None else (Q - mean) / scale
-    return Xc / scale, Qc, scale
+    Xc /= scale  # in place: one copy of X, not two
+    return Xc, Qc, scale
 
 
 def _finite_or_fail(values, p):

@@ -36,7 +36,8 @@ from .. import __version__
 from .._errors import ParameterError
 from .._validation import check_choice, check_float, check_int
 from ..graph import CUTOFF_WORDS, LensGraph, membership_matrix, nerve_edges, node_statistics
-from ..graph._cluster import NodeCollector, cluster_element
+from ..graph._cluster import NodeCollector
+from ..graph._cluster_element import cluster_element
 from ._client import active_client, gather_each
 from ._intake import require_dask
 

@@ -1,7 +1,9 @@
 """Stability-map and bootstrap figures.
 
-The stability map is one heat map per feature type (components, loops,
-branch points, flares): rows are interval counts, columns are overlaps, and
+The stability map is one heat map per feature type (components, then the
+significant loops or holes, flares, limbs and branch points the graph
+summary leads with, then the raw cycle and degree counts in grey): rows are
+interval counts, columns are overlaps, and
 each cell shows the count the graph at that cover setting has. The default
 setting is boxed, and the cells that share its count and touch it (the
 4-connected region around it) are outlined: a user picks cover settings inside
@@ -26,13 +28,19 @@ _TITLES = {
     "components": "components",
     "extra_components": "components beyond the data's",
     "significant_loops": "significant loops",
+    "significant_holes": "significant holes",
+    "significant_flares": "significant flares",
+    "significant_limbs": "significant limbs",
+    "significant_branch_points": "significant branch points",
     "significant_branches": "significant branches",
     "loops": "raw cycles (b1)",
     "branch_points": "raw nodes of degree \u2265 3",
     "flares": "raw leaf chains",
 }
-#: Stability-map counts judged significant, drawn first when a map holds them.
-_SIGNIFICANT_MAP = ("significant_loops", "significant_branches")
+#: Stability-map counts judged significant, drawn first when a map holds them (the graph
+#: summary's order; ``significant_branches`` is the structure probe's grid key).
+_SIGNIFICANT_MAP = ("significant_loops", "significant_holes", "significant_flares",
+                    "significant_limbs", "significant_branch_points", "significant_branches")
 #: Bootstrap: the significant kinds (keys of BootstrapResult.significant_counts), the kind
 #: names of its full_features, and their titles.
 #: In the order the graph summary's headline gives them.
@@ -60,7 +68,7 @@ def _map_features(smap, features):
     if features is not None:
         return list(features)
     names = list(smap.features)
-    lead = [n for n in names if not _is_raw(n)]
+    lead = [n for n in names if not _is_raw(n) and n not in _SIGNIFICANT_MAP]
     return lead + [k for k in _SIGNIFICANT_MAP if k in smap.counts] + \
         [n for n in names if _is_raw(n)]
 
