@@ -258,7 +258,7 @@ def neighbour_jitter(values, affinity, *, scale="rank"):
         (0 for a constant lens). Since ``f~^T L f~ = (1/2) sum_ij S_ij (f_i - f_j)^2``
         (He, Cai and Niyogi 2005), ``delta^2 = 2 L_r var_D(u) / range^2``: the
         Laplacian score in the units of the cover. It enters the significance
-        threshold of ``lenswork.graph._persistence.resolution_threshold``.
+        threshold of ``lenswork.graph._thresholds.resolution_threshold``.
 
     Examples
     --------
@@ -632,7 +632,7 @@ def proposed_merit(spread, smooth, structure):
         :func:`smoothness` of the Laplacian score (the lens follows the neighbours).
     structure : array-like of shape (m,)
         A significance-based structure score (:func:`lenswork.probe.structure_scores`,
-        or ``lenswork.graph._persistence.structure_significance`` of given diagrams).
+        or ``lenswork.graph._structure_score.structure_significance`` of given diagrams).
 
     Returns
     -------
