@@ -224,13 +224,23 @@ def test_id_like_and_scale_warnings_and_the_features_line(wide_csv, tmp_path):
     assert "(--id-column id)" in res.stderr and "(-f '~id')" in res.stderr
     with open(wide_csv) as fh:
         table = list(csv.DictReader(fh))
-    sd = {k: np.std([float(r[k]) for r in table]) for k in ["big", *(f"w{i:02d}" for i in
-                                                                 range(8))]}
-    ratio = sd["big"] / min(v for k, v in sd.items() if k != "big")  # numpy's population sd
+    cols = ["big", *(f"w{i:02d}" for i in range(8))]
+    span = {k: np.ptp([float(r[k]) for r in table]) for k in cols}
+    ratio = span["big"] / min(v for k, v in span.items() if k != "big")  # numpy's ptp
     assert ratio > 100
-    m = re.search(r"differ in scale by ([\d,]+)x", res.stderr)
+    # the default (--scale auto): ranges 100x apart are different units, standardised
+    m = re.search(r"differ in range by ([\d,]+)x", res.stderr)
     assert m and int(m.group(1).replace(",", "")) == round(ratio)
-    assert "--scale zscore" in res.stderr
+    assert "--scale none" in res.stderr
+    # kept in their units: the word about the standard deviations
+    raw = CliRunner().invoke(cli, ["compute", str(wide_csv), "--scale", "none", "--lens", "pca",
+                                   "-o", str(tmp_path / "n.csv")])
+    assert raw.exit_code == 0, raw.output
+    sd = {k: np.std([float(r[k]) for r in table]) for k in cols}
+    ratio = sd["big"] / min(v for k, v in sd.items() if k != "big")  # numpy's population sd
+    m = re.search(r"differ in scale by ([\d,]+)x", raw.stderr)
+    assert m and int(m.group(1).replace(",", "")) == round(ratio)
+    assert "--scale zscore" in raw.stderr
     assert "features (10): id, w00, w01, w02, w03, w04, w05, w06, w07, big; row ids 1..n" \
         in res.stderr
     # named id column, standardised features: no warning

@@ -50,7 +50,7 @@ def test_csv_values_match_pandas_reference(tmp_path):
         note = ["plain", "with, comma", 'with "quotes"', "two\nlines", " padded "][i % 5]
         rows.append([f"S{i:03d}", note, *(repr(float(v)) for v in x)])
     path = _write_rows(tmp_path / "t.csv", rows)
-    cloud = load_table(path, id_column="id")
+    cloud = load_table(path, id_column="id", scale=None)  # the values as read
     ref = pd.read_csv(path, keep_default_na=False)  # pandas.read_csv as the reference parser
     # repr(float) round-trips exactly, and both parsers are correctly rounded: exact equality.
     assert_array_equal(cloud.X, ref[["a", "b", "c"]].to_numpy())
@@ -486,7 +486,9 @@ def test_huge_values_overflow_squared_distances(tmp_path):
         InputError,
         match=r"Column 'a' in '.*t\.csv' holds 1e\+200 at row 2.*overflow.*scale='zscore'",
     ):
-        load_table(path)
+        load_table(path, scale=None)  # kept in its units
+    with pytest.warns(UserWarning, match=r"differ in range by 3\.33e\+199x"):
+        assert np.isfinite(load_table(path).X).all()  # the default (auto) standardises
     X = np.array([[1e200, 1.0], [2.0, 3.0], [-5.0, 4.0]])
     with np.errstate(over="ignore"):  # scipy's pdist as the reference: it does overflow
         assert not np.isfinite(pdist(X, "sqeuclidean")).all()

@@ -134,9 +134,10 @@ def input_options(func):
                   "-f '~COL'.")
     @click.option("--id-column", default=None, metavar="COL", help="Column holding row ids.")
     @click.option(
-        "--scale", type=click.Choice(["none", "zscore", "robust"]), default=None,
-        help="Standardise each feature column first (recorded). Default: none for files, "
-        "zscore for the demo.",
+        "--scale", type=click.Choice(["auto", "none", "zscore", "robust"]), default=None,
+        help="Standardise each feature column first (recorded). Default: auto for files "
+        "(zscore when the columns' ranges differ by more than 100x, i.e. different units; "
+        "none otherwise), zscore for the demo.",
     )
     @click.option(
         "--skip-invalid", is_flag=True,
@@ -179,7 +180,7 @@ def _load_table(table, features, id_column, scale, skip_invalid, delimiter):
 
     return load_table(
         table, features=features or None, id_column=id_column,
-        scale=None if scale in (None, "none") else scale,
+        scale=None if scale == "none" else (scale or "auto"),
         invalid="exclude" if skip_invalid else "error", delimiter=delimiter,
     )
 

@@ -257,7 +257,7 @@ def cluster_input_options(func):
         show = _progress.progress_wanted(quiet=bool(root.get("quiet")), force=root.get("progress"))
         run = ClusterRun(
             table, features=feats, id_column=id_column,
-            scale=None if scale in (None, "none") else scale,
+            scale=None if scale == "none" else (scale or "auto"),
             invalid="exclude" if skip_invalid else "error", seed=seed,
             landmarks=landmarks, scheduler=scheduler, workers=workers, memory_limit=memory_limit,
             show_progress=show,

@@ -33,7 +33,7 @@ from ._raw import (
 __all__ = ["SCALINGS", "assemble"]
 
 
-SCALINGS = ("zscore", "robust")
+SCALINGS = ("zscore", "robust", "auto")
 
 
 def _clean_ids(raw, j):
@@ -207,13 +207,17 @@ def assemble(raw, features, id_column, scale, invalid, min_rows):
             f"{'are' if constant.sum() > 1 else 'is'} constant (one value in every row used): "
             f"such columns add nothing to distances. Leave them out of the features."
         )
-    scaling = None
+    if not chosen and id_j is None:
+        _warn_id_like(X, feature_names, label)  # on the values as read: ids are integers
+    scaling, rule = None, None
+    if scale == "auto":
+        scale, rule = auto_scaling(lo, hi, feature_names, label)
     if scale is not None:
         X, scaling = _standardise(X, scale, feature_names, label)
+        if rule is not None:
+            scaling["chosen_by"] = rule
     check_magnitude(X, feature_names, rows, label, scale)
-    if not chosen and id_j is None:
-        _warn_id_like(X, feature_names, label)
-    if scale is None:
+    if scale is None and rule is None:
         _warn_scales(X, feature_names, label)
     distinct = check_distinct_rows(X, label)
     id_name = names[id_j] if id_j is not None else (
@@ -226,6 +230,8 @@ def assemble(raw, features, id_column, scale, invalid, min_rows):
         features=list(feature_names), id_column=None if id_j is None else names[id_j],
         passthrough=[names[j] for j in pass_js], scaling=scaling, invalid=invalid,
     )
+    if rule is not None and scaling is None:
+        provenance["scale_rule"] = rule
     if distinct is not None:
         provenance["distinct_rows"] = distinct
     return PointCloud(
@@ -266,6 +272,65 @@ def _warn_id_like(X, names, label):
             f"the id column (id_column=...; CLI: --id-column {looks[0]}) or leave it out of the "
             f"features (features='~{looks[0]}'; CLI: -f '~{looks[0]}')."
         )
+
+
+def auto_scaling(lo, hi, names, label):
+    """``scale="auto"``: z-score the features when their ranges differ by more than ``SCALE_RATIO``.
+
+    Columns whose ranges (max - min) differ by more than a factor of 100 are in
+    different units (a count of thousands beside a 0/1 flag): left as they are,
+    distances, neighbours and every lens follow the widest column, and which
+    column is widest is an accident of the units (standardising features in
+    different units before Euclidean distances is common practice). Ranges,
+    not standard deviations, tell units apart: a pixel that is rarely lit has a
+    small standard deviation but the same 0-16 range as the others (scikit-learn's
+    digits: range ratio 16, sd ratio 277), so such a table is left in its units.
+
+    Parameters
+    ----------
+    lo, hi : ndarray of shape (d,)
+        Each feature column's smallest and largest value on the rows used.
+    names : sequence of str
+    label : str
+        The table's name, for the message.
+
+    Returns
+    -------
+    scale : {"zscore", None}
+    rule : dict
+        ``{"rule": "auto", "range_ratio", "widest", "narrowest", "choice"}``,
+        recorded in the provenance.
+
+    Examples
+    --------
+    >>> import warnings
+    >>> with warnings.catch_warnings(record=True):
+    ...     auto_scaling(np.array([0.0, 0.0]), np.array([4000.0, 1.0]), ["lines", "flag"], "t")[0]
+    'zscore'
+    >>> auto_scaling(np.array([0.0, 0.0]), np.array([16.0, 2.0]), ["p1", "p2"], "t")[0] is None
+    True
+    """
+    span = np.asarray(hi, dtype=np.float64) - np.asarray(lo, dtype=np.float64)
+    live = np.flatnonzero(np.isfinite(span) & (span > 0))
+    if live.size < 2:
+        return None, {"rule": "auto", "range_ratio": 1.0, "choice": "none"}
+    wide, narrow = live[np.argmax(span[live])], live[np.argmin(span[live])]
+    with np.errstate(over="ignore"):
+        ratio = float(span[wide] / span[narrow])
+    choice = "zscore" if ratio > SCALE_RATIO else "none"
+    rule = {"rule": "auto", "range_ratio": ratio, "widest": names[wide],
+            "narrowest": names[narrow], "choice": choice}
+    if choice == "zscore":
+        times = (f"{ratio:,.0f}x" if ratio < 1e6 else f"{ratio:.3g}x" if np.isfinite(ratio)
+                 else "more than 1e308x")
+        warn_user(
+            f"Feature columns of {label} differ in range by {times} ({names[wide]!r} spans "
+            f"{span[wide]:.3g}, {names[narrow]!r} {span[narrow]:.3g}): they are in different "
+            f"units, so lenswork standardised them (z-score; scale='auto', the default). Pass "
+            f"scale='none' (CLI: --scale none) to keep the units."
+        )
+        return "zscore", rule
+    return None, rule
 
 
 def _warn_scales(X, names, label):

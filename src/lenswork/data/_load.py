@@ -18,7 +18,7 @@ __all__ = ["load_block", "load_table"]
 
 
 def load_table(
-    source, *, features=None, id_column=None, scale=None, invalid="error", delimiter=None,
+    source, *, features=None, id_column=None, scale="auto", invalid="error", delimiter=None,
     min_rows=2,
 ):
     """Read a table or array into a validated :class:`PointCloud`.
@@ -48,10 +48,14 @@ def load_table(
         Column of row ids, by name or 0-based position; ids must be unique.
         Default: ids 1..n in row order. Ids in a text table that are all plain
         integers become ints; other ids stay text.
-    scale : {None, "zscore", "robust"}, default=None
+    scale : {"auto", None, "zscore", "robust"}, default="auto"
         Standardise each feature column on the rows used: ``"zscore"`` is
         ``(x - mean) / std``, ``"robust"`` is ``(x - median) / IQR``. Recorded in
         ``provenance["scaling"]`` with the centre and scale of every column.
+        ``"auto"`` z-scores when the columns' ranges differ by more than 100x
+        (different units; :func:`lenswork.data.auto_scaling`, which warns and is
+        recorded) and otherwise keeps the units; ``None`` (or ``"none"``) keeps
+        them always.
     invalid : {"error", "exclude"}, default="error"
         What to do with rows holding a missing, NaN or infinite feature value:
         raise, or report them as :class:`ExcludedRow` (row number, id, reason,

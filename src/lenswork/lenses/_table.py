@@ -365,7 +365,7 @@ class LensTable:
             )
         with warnings.catch_warnings():  # rows kept out of the lens file are checked below
             warnings.simplefilter("ignore")
-            lens_cloud = load_table(path, features=wanted, id_column=id_column,
+            lens_cloud = load_table(path, features=wanted, id_column=id_column, scale=None,
                                     invalid="exclude", min_rows=1)
         if check != "off" and isinstance(meta["file"].get("rows"), int):
             rows = lens_cloud.n + len(lens_cloud.excluded)

@@ -26,7 +26,7 @@ import numpy as np
 
 from .._errors import InputError, ParameterError
 from .._validation import check_choice
-from ..data import PointCloud, load_block, load_table
+from ..data import PointCloud, auto_scaling, load_block, load_table
 
 __all__ = [
     "Part",
@@ -131,7 +131,7 @@ def _read_part(part, index, n_parts, features, id_column, invalid):
     prefix = f"Partition {index + 1} of {n_parts}: "
     try:
         if part.kind == "file":
-            cloud = load_table(part.obj, features=features, id_column=id_column,
+            cloud = load_table(part.obj, features=features, id_column=id_column, scale=None,
                                invalid=invalid, min_rows=1)
         else:
             block = part.obj
@@ -334,10 +334,11 @@ def open_partitioned(source, *, features=None, id_column=None, scale=None, inval
     features, id_column : optional
         As in :func:`lenswork.load_table`; the default features are those of the
         first partition, then required in every partition.
-    scale : {None, "zscore"}, default=None
+    scale : {None, "zscore", "auto"}, default=None
         ``"zscore"`` with the mean and standard deviation of all rows (from the
-        tree reduction). The robust scaling needs global quantiles and is not
-        offered here.
+        tree reduction); ``"auto"`` as in :func:`lenswork.load_table`, on the
+        global ranges (the CLI's default). The robust scaling needs global
+        quantiles and is not offered here.
     invalid : {"error", "exclude"}, default="error"
         As in :func:`lenswork.load_table`; excluded rows are listed in
         ``PartitionedCloud.excluded`` as ``(row, id, reason)``.
@@ -373,7 +374,7 @@ def open_partitioned(source, *, features=None, id_column=None, scale=None, inval
     """
     dask = require_dask()
     if scale is not None:
-        scale = check_choice("scale", scale, ("zscore",), context="open_partitioned")
+        scale = check_choice("scale", scale, ("zscore", "auto"), context="open_partitioned")
     invalid = check_choice("invalid", invalid, ("error", "exclude"), context="open_partitioned")
     parts, fmt, label = _parts_of(source)
     n_parts = len(parts)
@@ -411,7 +412,9 @@ def open_partitioned(source, *, features=None, id_column=None, scale=None, inval
             )
     lo = np.min([s["lo"] for s in summaries], axis=0)
     hi = np.max([s["hi"] for s in summaries], axis=0)
-    scaling, scaling_info = None, None
+    scaling, scaling_info, rule = None, None, None
+    if scale == "auto":
+        scale, rule = auto_scaling(lo, hi, names, label)
     if scale == "zscore":
         sd = np.sqrt(np.diag(M2) / n)
         sd = np.where(sd > 0, sd, 1.0)
@@ -436,6 +439,7 @@ def open_partitioned(source, *, features=None, id_column=None, scale=None, inval
                        for p, s in zip(parts, summaries)],
         "n_rows_used": int(n), "n_rows_excluded": len(excluded), "features": list(names),
         "id_column": None if id_column is None else first["id_name"], "scaling": scaling_info,
+        **({"scale_rule": rule} if rule is not None and scaling_info is None else {}),
         "invalid": invalid,
     }
     return PartitionedCloud(
