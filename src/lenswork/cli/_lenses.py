@@ -6,10 +6,9 @@ import textwrap
 
 import click
 
-from .._io import check_output_file
 from ..lenses import ENDINGS, compute_lenses, get_lens, lens_names
 from ..normalize import NORMALIZATIONS
-from ._common import neighbors_option
+from ._common import check_out_file, neighbors_option
 from ._partitioned import (
     cluster_input_options,
     lens_out_dir,
@@ -76,7 +75,7 @@ def compute(cloud, seed, lenses, out, normalization, neighbors, cluster=None):
         out = lens_out_dir(out, ctx.get_parameter_source("out").name == "DEFAULT")
         lens, files = cluster.write_lenses(lenses, out)
         return print_lens_run(cluster.cloud, lens, files, out)
-    out = check_output_file(out)  # before the work: a file in the path, a read-only folder
+    out = check_out_file(out)  # before the work: a file in the path, a read-only folder
     ws = neighbors.workspace(cloud, seed)
     table = compute_lenses(ws, list(lenses))
     if normalization:

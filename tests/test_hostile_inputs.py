@@ -1,0 +1,179 @@
+"""Hostile input and faults beyond issue 22's list, one test per case of the audit.
+
+Each test names its case id in tests/benchmarks/audit_faults.py (X<n>). Exit codes
+of a signal: 128 + the signal number, as POSIX shells report a process ended by
+one (common practice: 130 for SIGINT, 143 for SIGTERM).
+"""
+
+from __future__ import annotations
+
+import csv
+import os
+import signal
+import subprocess
+import sys
+import textwrap
+from pathlib import Path
+
+import numpy as np
+import pytest
+from click.testing import CliRunner
+
+from lenswork import InputError, ParameterError, load_table
+from lenswork._io import read_manifest
+from lenswork.cli import cli
+from lenswork.lenses import parse_lens
+
+SRC = str(Path(__file__).resolve().parents[1] / "src")
+
+# The CLI in a subprocess that sends itself a signal at the k-th os.replace / os.rename:
+# the moment its files are moved into place.
+_SIGNALLED = textwrap.dedent("""
+    import os, sys
+    kill_at, sig = int(sys.argv[1]), int(sys.argv[2])
+    calls = [0]
+    def wrap(real):
+        def call(*a, **kw):
+            calls[0] += 1
+            if calls[0] == kill_at:
+                os.kill(os.getpid(), sig)
+            return real(*a, **kw)
+        return call
+    os.replace, os.rename = wrap(os.replace), wrap(os.rename)
+    from lenswork.cli import main
+    sys.argv[0] = "lenswork"
+    main(sys.argv[3:])
+""")
+
+
+def _env():
+    return dict(os.environ, PYTHONPATH=SRC + os.pathsep + os.environ.get("PYTHONPATH", ""),
+                MPLBACKEND="Agg")
+
+
+def _table(path, n=200, seed=0, extra=None):
+    rng = np.random.default_rng(seed)
+    t = rng.uniform(0, 2 * np.pi, n)
+    X = np.column_stack([np.cos(t), np.sin(t), 0.1 * rng.normal(size=n)])
+    extra = extra or {}
+    with open(path, "w", newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(["id", "x", "y", "z", *extra])
+        w.writerows([f"r{i}", *X[i], *[v[i] for v in extra.values()]] for i in range(n))
+    return path
+
+
+def _hidden(folder):
+    folder = Path(folder)
+    inside = [p.name for p in folder.iterdir() if p.name.startswith(".")] if folder.is_dir() \
+        else []
+    beside = [p.name for p in folder.parent.iterdir() if p.name.startswith(f".{folder.name}.")]
+    return inside + beside
+
+
+@pytest.mark.parametrize("sig, code, at", [(signal.SIGINT, 130, 1), (signal.SIGTERM, 143, 2)])
+def test_x16_x18_signal_while_moving_in_ends_with_a_message_and_a_whole_set(tmp_path, sig,
+                                                                           code, at):
+    """X16 / X18: Ctrl-C or SIGTERM while graph moves its files in."""
+    data = _table(tmp_path / "t.csv")
+    out = tmp_path / "g"
+    argv = ["--quiet", "graph", str(data), "--id-column", "id", "-l", "pca", "--no-figure",
+            "-o", str(out)]
+    assert CliRunner().invoke(cli, argv + ["--intervals", "3"]).exit_code == 0
+    first = {p.name: p.read_bytes() for p in out.iterdir()}
+    run = subprocess.run([sys.executable, "-c", _SIGNALLED, str(at), str(int(sig)), *argv],
+                         env=_env(), capture_output=True, text=True, timeout=120)
+    assert run.returncode == code, run.stderr
+    assert "interrupted" in run.stderr and "Traceback" not in run.stderr
+    assert _hidden(out) == []  # no staging folder, journal or temporary file left
+    now = {p.name: p.read_bytes() for p in out.iterdir()}
+    doc = read_manifest(out)
+    # the earlier set, or (signals are held while moving in) the whole new one
+    assert now == first or sorted(now) == sorted(f["name"] for f in doc["files"]) + [
+        "lenswork-manifest.json"]
+
+
+def test_x17_sigint_while_computing_removes_the_staging_folder(tmp_path):
+    """X17: Ctrl-C before any file is in place: exit 130, nothing staged is left."""
+    data = _table(tmp_path / "t.csv")
+    out = tmp_path / "s"
+    # the first rename is a staged file's: the run is still writing into its staging folder
+    run = subprocess.run([sys.executable, "-c", _SIGNALLED, "1", str(int(signal.SIGINT)),
+                          "--quiet", "screen", str(data), "--id-column", "id", "--no-probe",
+                          "--no-figures", "-o", str(out)],
+                         env=_env(), capture_output=True, text=True, timeout=120)
+    assert run.returncode == 130, run.stderr
+    assert "interrupted (SIGINT)" in run.stderr and "Traceback" not in run.stderr
+    assert not out.exists() and _hidden(out) == []
+
+
+def test_x13_output_file_that_is_the_input_is_refused(tmp_path):
+    """X13: -o naming the input table (compute and report) never replaces it."""
+    data = _table(tmp_path / "t.csv")
+    before = data.read_bytes()
+    for argv in (["compute", str(data), "--id-column", "id", "-l", "pca", "-o", str(data)],
+                 ["report", str(data), "--id-column", "id", "-o", str(data)]):
+        res = CliRunner().invoke(cli, ["--quiet", *argv])
+        assert res.exit_code == 1, res.output
+        assert "is the input file" in res.output and "Nothing was computed" in res.output
+        assert data.read_bytes() == before
+
+
+def test_x10_a_field_of_a_million_characters_is_read(tmp_path):
+    """X10: csv's default field limit is 128 KiB; a long text cell is still a cell."""
+    path = _table(tmp_path / "long.csv", extra={"note": ["x" * (10**6 if i == 5 else 3)
+                                                         for i in range(200)]})
+    cloud = load_table(path, id_column="id")
+    assert cloud.n == 200 and list(cloud.feature_names) == ["x", "y", "z"]
+    assert len(cloud.passthrough["note"][5]) == 10**6
+
+
+def test_x21_lens_specs_repeated_keys_and_long_names(tmp_path):
+    """X21: a key given twice is refused; a 10,000-character spec gives a short message."""
+    with pytest.raises(ParameterError, match="'components' is given twice"):
+        parse_lens("pca:components=2,components=3")
+    data = _table(tmp_path / "t.csv")
+    for spec, text in (("x" * 10_000, "10,000 characters"), ("y" * 300, "Unknown lens")):
+        res = CliRunner().invoke(cli, ["--quiet", "compute", str(data), "-l", spec, "-o",
+                                       str(tmp_path / "l.csv")])
+        assert res.exit_code == 1 and text in res.output
+        assert len(res.output) < 400, len(res.output)
+
+
+def test_x37_a_device_or_fifo_as_table_is_refused_at_once(tmp_path):
+    """X37: /dev/zero never ends and a FIFO cannot be read twice: refused before reading."""
+    fifo = tmp_path / "pipe.csv"
+    os.mkfifo(fifo)
+    for path in (fifo, Path("/dev/zero")):
+        with pytest.raises(InputError, match="not a regular file"):
+            load_table(path)
+
+
+def test_x15_output_folder_removed_while_its_files_are_written(tmp_path, monkeypatch):
+    """X15: the folder (and its parent) disappear during the write: a message, no traceback."""
+    import shutil
+
+    data = _table(tmp_path / "t.csv")
+    parent = tmp_path / "p"
+    out = parent / "g"
+    real = os.replace
+
+    def vanish(a, b):
+        shutil.rmtree(parent, ignore_errors=True)
+        return real(a, b)
+
+    monkeypatch.setattr(os, "replace", vanish)
+    res = CliRunner().invoke(cli, ["--quiet", "graph", str(data), "--id-column", "id", "-l",
+                                   "pca", "--no-figure", "-o", str(out)])
+    assert res.exit_code == 1 and "Writing" in res.output and "failed" in res.output
+    assert res.exception is None or isinstance(res.exception, SystemExit)
+
+
+def test_x23_x30_library_names_read_as_options():
+    """X23 / X30: screen's and the graph's parameters are named by their options."""
+    from lenswork.cli._common import cli_text
+
+    assert cli_text("The 'count' parameter of screen must be an int in [1, 16].") == \
+        "The --count option must be an int in [1, 16]."
+    assert cli_text("No cover element holds a group of at least min_size=299 points") == \
+        "No cover element holds a group of at least --min-size 299 points"
