@@ -177,3 +177,46 @@ def test_x23_x30_library_names_read_as_options():
         "The --count option must be an int in [1, 16]."
     assert cli_text("No cover element holds a group of at least min_size=299 points") == \
         "No cover element holds a group of at least --min-size 299 points"
+
+
+def test_x47_decimal_commas_are_named(tmp_path):
+    """X47: a semicolon file written with decimal commas (0,126) says so."""
+    path = tmp_path / "euro.csv"
+    path.write_text("id;a;b\n" + "".join(f"r{i};0,{i:03d};-1,5\n" for i in range(50)))
+    with pytest.raises(InputError, match=r"column 'a' holds '0,000' at row 2, a number written "
+                                         r"with a decimal comma"):
+        load_table(path, id_column="id")
+
+
+def test_x51_an_unknown_output_ending_is_refused_before_the_work(tmp_path, monkeypatch):
+    """X51: compute -o l.txt stops before any lens is computed, naming the endings."""
+    import lenswork.cli._lenses as lenses_cli
+
+    data = _table(tmp_path / "t.csv")
+
+    def never(*args, **kwargs):
+        raise AssertionError("computed before the output was checked")
+
+    monkeypatch.setattr(lenses_cli, "compute_lenses", never)
+    res = CliRunner().invoke(cli, ["--quiet", "compute", str(data), "-l", "pca", "-o",
+                                   str(tmp_path / "l.txt")])
+    assert res.exit_code == 2 and ".csv, .tsv" in res.output and "format=" not in res.output
+
+
+def test_i53_rows_file_ids_with_commas_tabs_and_formulas(tmp_path):
+    """I5.3 (audit): --rows-file lines are whole ids even when they hold commas."""
+    ids = [f'=HYPERLINK("x","y")_{i}' if i % 3 == 0 else f"\tT_{i}" if i % 3 == 1 else f"a,{i}"
+           for i in range(200)]
+    rng = np.random.default_rng(1)
+    path = tmp_path / "t.csv"
+    with open(path, "w", newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(["id", "x", "y"])
+        w.writerows([ids[i], *rng.normal(size=2)] for i in range(200))
+    (tmp_path / "rows.txt").write_text("\n".join(ids[:40]) + "\n")
+    res = CliRunner().invoke(cli, ["--quiet", "contrast", str(path), "--id-column", "id", "-l",
+                                   "pca", "--rows-file", str(tmp_path / "rows.txt"),
+                                   "--no-figure", "-o", str(tmp_path / "k")])
+    assert res.exit_code == 0, res.output
+    text = (tmp_path / "k" / "contrast.csv").read_text()
+    assert "\n=" not in text and ",=" not in text  # OWASP: no cell starts a formula

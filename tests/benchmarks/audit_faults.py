@@ -669,10 +669,13 @@ def _(a):
 @case("I5.3", "formula-like column names and levels in contrast.csv")
 def _(a):
     out = a.work / "k53"
-    r = a.run(["-q", "contrast", _formula_table(a), "--id-column", "id", "-l", "pca",
-               "--no-figure", "--categorical", "=kind()", "-o", out])
+    t = _formula_table(a)
+    ids = [row[0] for row in read_csv_rows(t)[1:41]]
+    (a.work / "frows.txt").write_text("\n".join(ids) + "\n")
+    r = a.run(["-q", "contrast", t, "--id-column", "id", "-l", "pca", "--rows-file",
+               a.work / "frows.txt", "--no-figure", "--categorical", "=kind()", "-o", out])
     if r.rc:
-        return message(r)
+        return message(r, "^$")  # a run that writes no contrast.csv does not show the case
     bad = _formula_cells(out / "contrast.csv")
     return f"{len(bad)} formula cells in contrast.csv", not bad
 
@@ -1279,6 +1282,62 @@ def _(a):
 def _(a):
     shutil.copy(a.table(), a.work / "t.xlsx")
     return message(_compute(a, a.work / "t.xlsx"), "xlsx|format|ending")
+
+
+def _rows_file(a, name, header, rows):
+    (a.work / name).write_text(header + "\n" + "".join(r + "\n" for r in rows))
+    return a.work / name
+
+
+@case("X47", "a semicolon file with decimal commas (0,126)")
+def _(a):
+    rng = np.random.default_rng(0)
+    rows = [f"r{i};{x:.3f};{y:.3f}".replace(".", ",")
+            for i, (x, y) in enumerate(rng.normal(size=(100, 2)))]
+    f = _rows_file(a, "euro.csv", "id;a;b", rows)
+    return message(_compute(a, f, "--id-column", "id"), "decimal comma", r"\ba\b")
+
+
+@case("X48", "values near 1e200 (squared distances overflow)")
+def _(a):
+    rng = np.random.default_rng(0)
+    f = _rows_file(a, "huge.csv", "a,b", [f"{x * 1e200},{y}" for x, y in rng.normal(size=(100, 2))])
+    return message(_compute(a, f), "overflow|scale", r"\ba\b")
+
+
+@case("X49", "CRLF line ends and trailing blank lines")
+def _(a):
+    text = a.table(300).read_text().replace("\n", "\r\n") + "\r\n\r\n"
+    (a.work / "crlf.csv").write_bytes(text.encode())
+    r = _compute(a, a.work / "crlf.csv", "--id-column", "id", out="l_x49.csv")
+    if r.rc == 0:
+        n = len(read_csv_rows(a.work / "l_x49.csv")) - 1
+        return f"exit 0, {n} rows", n == 300
+    return message(r)
+
+
+@case("X50", "an empty id cell")
+def _(a):
+    rows = [f"{'' if i == 3 else f'r{i}'},{i % 7},{i % 5}" for i in range(100)]
+    return message(_compute(a, _rows_file(a, "noid.csv", "id,a,b", rows), "--id-column", "id"),
+                   r"\b5\b", "id")
+
+
+@case("X51", "-o /dev/null and -o with an unknown ending (.txt)")
+def _(a):
+    res = [message(_compute(a, a.table(), "--id-column", "id", out="/dev/null"), "regular"),
+           message(_compute(a, a.table(), "--id-column", "id", out="l.txt"), r"\.csv")]
+    bad = "format=" in res[1][0]
+    return "; ".join(d for d, _ in res) + (" [a Python name]" if bad else ""), \
+        all(ok for _, ok in res) and not bad
+
+
+@case("X52", "report --graph on a truncated graph.json")
+def _(a):
+    folder = a.folder("gbad")
+    (folder / "graph.json").write_text('{"format": "lenswork-graph", "nodes": [')
+    return message(a.run(["-q", "report", a.table(), "--id-column", "id", "--graph", folder,
+                          "-o", a.work / "r_x52.html"]), "graph.json", "JSON")
 
 
 # ---------------------------------------------------------------------- main

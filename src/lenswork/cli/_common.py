@@ -56,6 +56,7 @@ _CLI_RULES = (
      r"they are listed under 'unassigned' in graph.json. Use \1a smaller --min-size"),
     (re.compile(r"smaller than min_size=(\d+)"), r"smaller than --min-size \1"),
     (re.compile(r"\bmin_size=(\d+)"), r"--min-size \1"),
+    (re.compile(r" \(or pass format=\)"), ""),
     (re.compile(r"a larger k \(thin slices"), "a larger -k (thin slices"),
     (re.compile(r"a larger Workspace\(min_neighbors=\.\.\.\)"), "a larger --min-neighbors"),
     (re.compile(r"load them with lenswork\.load_table\(\.\.\., invalid='exclude'\)"),

@@ -76,6 +76,10 @@ def compute(cloud, seed, lenses, out, normalization, neighbors, cluster=None):
         lens, files = cluster.write_lenses(lenses, out)
         return print_lens_run(cluster.cloud, lens, files, out)
     out = check_out_file(out)  # before the work: a file in the path, a read-only folder
+    if out.suffix.lower().lstrip(".") not in ENDINGS:
+        raise click.BadParameter(
+            f"{str(out)!r} has no lens-file ending; use one of "
+            f"{', '.join('.' + e for e in ENDINGS)}.", param_hint="'-o' / '--out'")
     ws = neighbors.workspace(cloud, seed)
     table = compute_lenses(ws, list(lenses))
     if normalization:
