@@ -22,6 +22,7 @@ each case are in tests/test_faults.py and tests/test_hostile_inputs.py.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import csv
 import gzip
 import json
@@ -1338,6 +1339,97 @@ def _(a):
     (folder / "graph.json").write_text('{"format": "lenswork-graph", "nodes": [')
     return message(a.run(["-q", "report", a.table(), "--id-column", "id", "--graph", folder,
                           "-o", a.work / "r_x52.html"]), "graph.json", "JSON")
+
+
+def _session_alive(pid):
+    """Processes still in the session ``pid`` started (setsid): Dask workers left behind."""
+    out = subprocess.run(["ps", "-e", "-o", "sid=,pid="], capture_output=True, text=True).stdout
+    return [ln.split()[1] for ln in out.splitlines() if ln.split()[0] == str(pid)]
+
+
+@case("X53", "Ctrl-C during a cluster run: exit 130, no worker process left behind")
+def _(a):
+    d = _partitions(a, "p53", 40_000, 4)
+    out = a.work / "c53"
+
+    def limits():
+        os.setsid()
+
+    proc = subprocess.Popen([sys.executable, "-c", _CLI, "-q", "compute", str(d), "--scheduler",
+                             "local", "--workers", "2", "--id-column", "id", "-l", "density",
+                             "-l", "dtm", "-o", str(out)], env=a.env(), cwd=a.work,
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                            preexec_fn=limits)
+    time.sleep(12)
+    proc.send_signal(signal.SIGINT)
+    try:
+        _, err = proc.communicate(timeout=60)
+    except subprocess.TimeoutExpired:
+        os.killpg(proc.pid, signal.SIGKILL)
+        return "hang after SIGINT (stopped after 60 s)", False
+    time.sleep(5)
+    left = _session_alive(proc.pid)
+    for pid in left:
+        with contextlib.suppress(OSError):
+            os.kill(int(pid), signal.SIGKILL)
+    r = Ran(proc.returncode, "", err, 0, False)
+    desc = (f"exit {r.rc}, {'traceback' if r.traceback else short(r.last_error(), 50)}; "
+            f"{len(left)} processes left; {len(hidden_leftovers(out))} staging left")
+    return desc, r.rc == 130 and not left and not r.traceback and not hidden_leftovers(out)
+
+
+@case("X54", "cluster path: -o is the folder of input partitions")
+def _(a):
+    d = _partitions(a, "p54", 600, 2)
+    before = sorted(p.name for p in d.iterdir())
+    r = a.run(["-q", "compute", d, "--scheduler", "local", "--workers", "1", "--id-column",
+               "id", "-l", "pca", "-o", d], timeout=240)
+    kept = sorted(p.name for p in d.iterdir()) == before
+    desc, ok = message(r, "p54")
+    return desc + ("" if kept else "; the input partitions were replaced"), ok and kept
+
+
+@case("X55", "cluster path: partitions with different columns")
+def _(a):
+    d = _partitions(a, "p55", 600, 2)
+    (d / "part-1.csv").write_text("id,a,b,zz\n" + "".join(f"q{i},1,2,3\n" for i in range(50)))
+    return message(a.run(["-q", "compute", d, "--scheduler", "local", "--workers", "1",
+                          "--id-column", "id", "-l", "pca", "-o", a.work / "c55"], timeout=240),
+                   "part-1|column")
+
+
+@case("X56", "cluster path: a glob that matches nothing")
+def _(a):
+    return message(a.run(["-q", "compute", str(a.work / "nothing-*.parquet"), "--scheduler",
+                          "local", "--workers", "1", "-l", "pca", "-o", a.work / "c56"],
+                         timeout=240), "nothing-|match|no ")
+
+
+@case("X57", "a lens file whose column was renamed (sidecar lists another)")
+def _(a):
+    f = _lens_file_variant(a, "l_ren.csv", lambda rs: rs)
+    rows = read_csv_rows(f)
+    rows[0][1] = "other"
+    with open(f, "w", newline="") as fh:
+        csv.writer(fh).writerows(rows)
+    r = _graph_with(a, f, "g_x57")
+    if r.rc == 0:
+        return (("exit 0 with a warning", True) if re.search("sidecar|does not match", r.err)
+                else ("exit 0: accepted silently", False))
+    return message(r, "other|pca_1|sidecar")
+
+
+@case("X58", "graph on 5 rows, and a product cover of 10 lens columns")
+def _(a):
+    res = [message(a.run(["-q", "graph", _rows_file(a, "five.csv", "a,b", [f"{i},{i * i % 3}"
+                                                                          for i in range(5)]),
+                          "-l", "pca", "--no-figure", "-o", a.work / "g_x58a"]),
+                   "row", ok_rc0=True)]
+    t = a.table(300, name="t300d10.csv", d=10)
+    r = a.run(["-q", "graph", t, "--id-column", "id", "-l", "pca:components=10",
+               "--no-figure", "-o", a.work / "g_x58b"], timeout=180)
+    res.append(ok_run(r, "graph built") if r.rc == 0 else message(r, "lens|column|cover"))
+    return "; ".join(d for d, _ in res), all(ok for _, ok in res)
 
 
 # ---------------------------------------------------------------------- main
