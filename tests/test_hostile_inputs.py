@@ -220,3 +220,26 @@ def test_i53_rows_file_ids_with_commas_tabs_and_formulas(tmp_path):
     assert res.exit_code == 0, res.output
     text = (tmp_path / "k" / "contrast.csv").read_text()
     assert "\n=" not in text and ",=" not in text  # OWASP: no cell starts a formula
+
+
+def test_i26_cluster_compute_rerun_into_its_own_folder(tmp_path):
+    """I2.6 (audit): a second `compute --scheduler` into the same -o folder is a rerun."""
+    pytest.importorskip("distributed")
+    pd = pytest.importorskip("pandas")
+    pytest.importorskip("pyarrow")
+    out = tmp_path / "lens"
+    for name, n, parts in (("a", 600, 3), ("b", 200, 1)):
+        folder = tmp_path / name
+        folder.mkdir()
+        for j, rows in enumerate(np.array_split(np.arange(n), parts)):
+            _table(folder / f"part-{j}.csv", n=len(rows), seed=j)
+            text = (folder / f"part-{j}.csv").read_text().splitlines()
+            (folder / f"part-{j}.csv").write_text("\n".join(
+                [text[0]] + [f"{name}{rows[0] + i}," + ln.split(",", 1)[1]
+                             for i, ln in enumerate(text[1:])]) + "\n")
+        res = CliRunner().invoke(cli, ["--quiet", "compute", str(folder), "--scheduler", "local",
+                                       "--workers", "1", "--id-column", "id", "-l", "pca", "-o",
+                                       str(out)])
+        assert res.exit_code == 0, res.output
+    back = pd.read_parquet(out)
+    assert len(back) == 200 and back["id"].is_unique and back["id"].str.startswith("b").all()

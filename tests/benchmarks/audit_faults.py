@@ -482,7 +482,7 @@ def _(a):
         return message(r1)
     r2 = a.run(base[:2] + [_partitions(a, "p26b", 1000, 1)] + base[2:], timeout=240)
     if r2.rc != 0:
-        return message(r2)
+        return "rerun: " + message(r2, "^$")[0], False
     back = pd.read_parquet(out)
     ids = back.iloc[:, 0]
     return (f"read back {len(back)} rows, {int(ids.duplicated().sum())} duplicate ids "
@@ -763,8 +763,9 @@ def _(a):
         return message(r1)
     cl = pd.read_parquet(out).set_index("id")
     sm = pd.read_csv(one).set_index("id")
-    rhos = {c: spearmanr(cl.loc[sm.index, c], sm[c]).statistic for c in sm.columns
-            if c in cl.columns}
+    base = {c.split("[")[0]: c for c in cl.columns if not c.endswith("_error")}
+    rhos = {c: spearmanr(cl.loc[sm.index, base[c.split("[")[0]]], sm[c]).statistic
+            for c in sm.columns if c.split("[")[0] in base}
     errs = [c for c in cl.columns if c.endswith("_error")]
     text = ", ".join(f"{c} {v:.3f}" for c, v in rhos.items())
     return (f"rho {text}; error columns: {len(errs)}",

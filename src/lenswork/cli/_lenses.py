@@ -50,7 +50,7 @@ def list_lenses(only):
     help="A lens as name or name:key=value,... (repeatable). `lenswork lenses` lists them.",
 )
 @click.option("-o", "--out", default="lenses.csv", show_default=True,
-              type=click.Path(dir_okay=False),
+              type=click.Path(),  # a folder with --scheduler (rerun into it); checked below
               help="Output file; the ending picks the format "
               f"({', '.join('.' + e for e in ENDINGS)}). Provenance goes to OUT.json.")
 @click.option("--normalize", "normalization", type=click.Choice(NORMALIZATIONS), default=None,
