@@ -243,3 +243,23 @@ def test_i26_cluster_compute_rerun_into_its_own_folder(tmp_path):
         assert res.exit_code == 0, res.output
     back = pd.read_parquet(out)
     assert len(back) == 200 and back["id"].is_unique and back["id"].str.startswith("b").all()
+
+
+def test_x59_dangling_link_and_a_folder_in_the_way(tmp_path):
+    """X59: -o a symlink to a missing folder is named as such; a folder where a file of the
+    set goes stops the run before any file of the earlier set is replaced."""
+    data = _table(tmp_path / "t.csv")
+    link = tmp_path / "link"
+    link.symlink_to(tmp_path / "missing")
+    res = CliRunner().invoke(cli, ["--quiet", "graph", str(data), "--id-column", "id", "-l",
+                                   "pca", "--no-figure", "-o", str(link)])
+    assert res.exit_code == 1 and "symbolic link" in res.output and "missing" in res.output
+    out = tmp_path / "g"
+    argv = ["--quiet", "graph", str(data), "--id-column", "id", "-l", "pca", "-o", str(out)]
+    assert CliRunner().invoke(cli, argv + ["--no-figure"]).exit_code == 0
+    before = {p.name: p.read_bytes() for p in out.iterdir()}
+    (out / "graph.svg").mkdir()
+    res = CliRunner().invoke(cli, argv + ["--intervals", "3"])
+    assert res.exit_code == 1 and "graph.svg" in res.output and "in the way" in res.output
+    assert {p.name: p.read_bytes() for p in out.iterdir() if p.is_file()} == before
+    assert _hidden(out) == []

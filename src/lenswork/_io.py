@@ -304,6 +304,12 @@ def check_output_dir(directory, *, what="output folder"):
     probe = directory
     while not probe.exists() and not probe.is_symlink() and probe != probe.parent:
         probe = probe.parent
+    if probe.is_symlink() and not probe.exists():
+        raise OutputError(
+            f"Cannot write the {what} {str(directory)!r}: {str(probe)!r} is a symbolic link to "
+            f"{os.readlink(probe)!r}, which does not exist. Create that folder or choose "
+            f"another path (-o)."
+        )
     if not probe.is_dir():
         if probe == directory:
             raise OutputError(
@@ -611,6 +617,13 @@ class OutputSet:
         from ._json import dumps
 
         earlier = self._earlier()
+        for name in [*names, self.manifest]:  # before any file moves: the set goes in whole
+            target = self.directory / name
+            if target.is_dir() or (target.exists() and not target.is_file()):
+                raise OutputError(
+                    f"Cannot write {str(target)!r}: a folder (or device) of that name is in the "
+                    f"way. Move it, or choose another output folder (-o); nothing was replaced."
+                )
         _remove_stale_tmp(self.directory, earlier | set(names) | {self.manifest, _PENDING})
         # the journal: a run stopped while moving in leaves the names it may have placed
         write_text(self.directory / _PENDING, dumps(sorted(earlier | set(names))) + "\n")

@@ -1433,6 +1433,27 @@ def _(a):
     return "; ".join(d for d, _ in res), all(ok for _, ok in res)
 
 
+@case("X59", "-o a dangling symlink; a folder named graph.json inside the -o folder")
+def _(a):
+    link = a.work / "x59link"
+    if link.is_symlink():
+        link.unlink()
+    link.symlink_to(a.work / "x59-missing")
+    res = [message(a.run(["-q", "graph", a.table(), "--id-column", "id", "-l", "pca",
+                          "--no-figure", "-o", link]), "symbolic link|x59-missing")]
+    out = a.work / "g_x59"
+    a.run(["-q", "graph", a.table(), "--id-column", "id", "-l", "pca", "--no-figure", "-o", out])
+    before = {p.name: p.read_bytes() for p in out.iterdir() if p.is_file()}
+    (out / "graph.svg").mkdir()  # in the way of the next run's drawing
+    r = a.run(["-q", "graph", a.table(), "--id-column", "id", "-l", "pca", "--intervals", "3",
+               "-o", out])
+    after = {p.name: p.read_bytes() for p in out.iterdir() if p.is_file()}
+    desc, ok = message(r, "graph.svg")
+    res.append((desc + ("" if after == before else "; earlier files replaced"),
+                ok and after == before))
+    return "; ".join(d for d, _ in res), all(ok for _, ok in res)
+
+
 # ---------------------------------------------------------------------- main
 def run_cases(src, only=None):
     results = []
