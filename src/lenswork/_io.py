@@ -344,7 +344,7 @@ def check_output_file(path, *, inputs=()):
     ...     try:
     ...         check_output_file(table, inputs=[table])
     ...     except OutputError as err:
-    ...         print(str(err)[-39:])
+    ...         print(str(err)[-35:])
     give another output file name (-o).
     """
     if not str(path).strip():

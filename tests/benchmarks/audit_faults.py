@@ -958,7 +958,7 @@ def _(a):
 @case("X17", "SIGINT (Ctrl-C) while screen computes")
 def _(a):
     out = a.work / "x17"
-    return _signal_case(a, ["-q", "screen", a.table(3000, seed=3), "--id-column", "id",
+    return _signal_case(a, ["-q", "screen", a.table(20000, seed=3), "--id-column", "id",
                             "--no-figures", "-o", out], signal.SIGINT, delay=6, out=out)
 
 
