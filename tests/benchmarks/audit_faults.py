@@ -229,20 +229,22 @@ def short(text, width=110):
     return text if len(text) <= width else text[: width - 3] + "..."
 
 
-def missing_option(r):
+def broken(r):
+    """(outcome, verdict) when the run could not run, hung or ended in a traceback; else None."""
     m = re.search(r"No such option: (\S+)", r.err)
-    return m.group(1) if m else None
-
-
-def message(r, *words, ok_rc0=False):
-    """A clear message: exit code 1-2, no traceback, each of ``words`` (regex) in the error."""
-    opt = missing_option(r)
-    if opt:
-        return f"cannot run: option {opt} did not exist", None
+    if m:
+        return f"cannot run: option {m.group(1)} did not exist", None
     if r.timed_out:
         return f"hang (stopped after {r.secs:.0f} s)", False
     if r.traceback:
         return f"traceback: {short(r.last_error(), 90)}", False
+    return None
+
+
+def message(r, *words, ok_rc0=False):
+    """A clear message: exit code 1-2, no traceback, each of ``words`` (regex) in the error."""
+    if broken(r):
+        return broken(r)
     if r.rc == 0:
         return ("exit 0 (accepted)", True) if ok_rc0 else ("exit 0: accepted silently", False)
     if r.rc is not None and r.rc < 0:
@@ -256,13 +258,8 @@ def message(r, *words, ok_rc0=False):
 
 
 def ok_run(r, what="result correct"):
-    opt = missing_option(r)
-    if opt:
-        return f"cannot run: option {opt} did not exist", None
-    if r.timed_out:
-        return f"hang (stopped after {r.secs:.0f} s)", False
-    if r.traceback:
-        return f"traceback: {short(r.last_error(), 90)}", False
+    if broken(r):
+        return broken(r)
     if r.rc != 0:
         return f"exit {r.rc}: {short(r.last_error(), 100)}", False
     return f"exit 0, {what}", True
@@ -948,33 +945,29 @@ def _signal_case(a, argv, sig, *, at_move=None, delay=None, out=None):
     return desc, r.rc == want and not r.traceback and not left and bool(r.last_error())
 
 
-@case("X16", "SIGINT (Ctrl-C) while graph moves its files in")
-def _(a):
-    out = a.work / "x16"
-    return _signal_case(a, ["-q", "graph", a.table(), "--id-column", "id", "-l", "pca",
-                            "--no-figure", "-o", out], signal.SIGINT, at_move=2, out=out)
+#: (case, title, command, table rows, extra arguments, signal, at the k-th move or after seconds)
+_SIGNALLED = [
+    ("X16", "SIGINT (Ctrl-C) while graph moves its files in", "graph", 300,
+     ["-l", "pca", "--no-figure"], signal.SIGINT, {"at_move": 2}),
+    ("X17", "SIGINT (Ctrl-C) while screen computes", "screen", 20000, ["--no-figures"],
+     signal.SIGINT, {"delay": 6}),
+    ("X18", "SIGTERM while graph moves its files in", "graph", 300,
+     ["-l", "pca", "--no-figure"], signal.SIGTERM, {"at_move": 2}),
+    ("X19", "SIGTERM while compute computes", "compute", 60000,
+     ["-l", "laplacian", "-l", "dtm", "-l", "density"], signal.SIGTERM, {"delay": 6}),
+]
 
 
-@case("X17", "SIGINT (Ctrl-C) while screen computes")
-def _(a):
-    out = a.work / "x17"
-    return _signal_case(a, ["-q", "screen", a.table(20000, seed=3), "--id-column", "id",
-                            "--no-figures", "-o", out], signal.SIGINT, delay=6, out=out)
+def _signalled(command, n, extra, sig, when):
+    def run(a):
+        out = a.work / f"sig_{command}_{int(sig)}{'.csv' if command == 'compute' else ''}"
+        return _signal_case(a, ["-q", command, a.table(n, seed=3 if n > 300 else 0),
+                                "--id-column", "id", *extra, "-o", out], sig, out=out, **when)
+    return run
 
 
-@case("X18", "SIGTERM while graph moves its files in")
-def _(a):
-    out = a.work / "x18"
-    return _signal_case(a, ["-q", "graph", a.table(), "--id-column", "id", "-l", "pca",
-                            "--no-figure", "-o", out], signal.SIGTERM, at_move=2, out=out)
-
-
-@case("X19", "SIGTERM while compute computes")
-def _(a):
-    out = a.work / "x19.csv"
-    return _signal_case(a, ["-q", "compute", a.table(60000, seed=3), "--id-column", "id",
-                            "-l", "laplacian", "-l", "dtm", "-l", "density", "-o", out],
-                        signal.SIGTERM, delay=6, out=out)
+for _cid, _title, _command, _n, _extra, _sig, _when in _SIGNALLED:
+    case(_cid, _title)(_signalled(_command, _n, _extra, _sig, _when))
 
 
 @case("X20", "SIGINT / SIGTERM while contrast and stability move files in")
