@@ -263,3 +263,18 @@ def test_x59_dangling_link_and_a_folder_in_the_way(tmp_path):
     assert res.exit_code == 1 and "graph.svg" in res.output and "in the way" in res.output
     assert {p.name: p.read_bytes() for p in out.iterdir() if p.is_file()} == before
     assert _hidden(out) == []
+
+
+def test_x53_local_cluster_workers_leave_ctrl_c_to_lenswork():
+    """X53: a terminal's Ctrl-C reaches every process of the group; the workers ignore it
+    (the run closes them, with one message) instead of each printing a traceback."""
+    pytest.importorskip("distributed")
+    from lenswork.partitioned import start_client
+
+    client = start_client("local", workers=1)
+    try:
+        seen = client.run(lambda: int(signal.getsignal(signal.SIGINT)))
+    finally:
+        client.close()
+    assert list(seen.values()) == [int(signal.SIG_IGN)]
+    assert signal.getsignal(signal.SIGINT) is signal.default_int_handler  # restored here
