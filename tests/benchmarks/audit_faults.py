@@ -715,15 +715,15 @@ def _(a):
 
 
 # ====================================================================== section 7
-@case("I7.1", "--neighbors approximate under NUMBA_NUM_THREADS=1 and =2")
+@case("I7.1", "--neighbors approximate under NUMBA_NUM_THREADS=1 and =2 (20,000 x 30)")
 def _(a):
-    t = a.table(3000, seed=2)
+    t = a.table(20000, seed=2, d=30)  # the size at which the issue saw the values differ
     vals, sides = [], []
     for threads in (1, 2):
         out = a.work / f"l71_{threads}.csv"
         r = a.run(["-q", "compute", t, "--id-column", "id", "--neighbors", "approximate",
                    "-l", "knn_distance", "-l", "laplacian", "-l", "dtm", "-o", out],
-                  env=a.env(NUMBA_NUM_THREADS=threads), timeout=300)
+                  env=a.env(NUMBA_NUM_THREADS=threads), timeout=900)
         if r.rc:
             return message(r)
         vals.append(np.array([[float(x) for x in row[1:]] for row in read_csv_rows(out)[1:]]))
