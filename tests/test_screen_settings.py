@@ -189,7 +189,7 @@ def test_cli_screen_writes_the_settings_the_api_takes(tmp_path):
 def test_cli_bad_screen_setting_is_a_one_line_error(tmp_path):
     res = CliRunner().invoke(cli, ["screen", "--demo", "--sample", "12", "-o", str(tmp_path)])
     assert res.exit_code != 0
-    assert "'sample' parameter of screen must be an int in [100, inf)" in res.output
+    assert "The --sample option must be an int in [100, inf)" in res.output  # named as typed
     assert "Traceback" not in res.output
 
 

@@ -304,6 +304,12 @@ def check_output_dir(directory, *, what="output folder"):
     probe = directory
     while not probe.exists() and not probe.is_symlink() and probe != probe.parent:
         probe = probe.parent
+    if probe.is_symlink() and not probe.exists():
+        raise OutputError(
+            f"Cannot write the {what} {str(directory)!r}: {str(probe)!r} is a symbolic link to "
+            f"{os.readlink(probe)!r}, which does not exist. Create that folder or choose "
+            f"another path (-o)."
+        )
     if not probe.is_dir():
         if probe == directory:
             raise OutputError(
@@ -324,11 +330,37 @@ def check_output_dir(directory, *, what="output folder"):
     return directory
 
 
-def check_output_file(path):
-    """Check before any work that the file ``path`` can be written; return it as a Path."""
+def check_output_file(path, *, inputs=()):
+    """Check before any work that the file ``path`` can be written; return it as a Path.
+
+    ``inputs`` are the files the run reads: the output (or its ``.json``
+    sidecar) must be none of them, or the run would replace its own input.
+
+    Examples
+    --------
+    >>> import tempfile
+    >>> with tempfile.TemporaryDirectory() as d:
+    ...     table = write_text(Path(d) / "t.csv", "a,b")
+    ...     try:
+    ...         check_output_file(table, inputs=[table])
+    ...     except OutputError as err:
+    ...         print(str(err)[-35:])
+    give another output file name (-o).
+    """
     if not str(path).strip():
         raise OutputError("The output file name is empty; give one (-o).")
     path = Path(path)
+    for source in inputs:
+        for target in (path, path.with_name(path.name + ".json")):
+            same = False
+            with contextlib.suppress(OSError, TypeError):  # a path that does not exist yet
+                same = source is not None and os.path.samefile(source, target)
+            if same:
+                raise OutputError(
+                        f"The output {str(target)!r} is the input file {str(source)!r} this "
+                        f"run reads; writing it would replace the input. Nothing was "
+                        f"computed: give another output file name (-o)."
+                    )
     if path.is_dir():
         raise OutputError(f"The output {str(path)!r} is a folder; give a file name (-o).")
     if path.exists() and not path.is_file():
@@ -407,6 +439,29 @@ def check_against_manifest(path, *, manifest=MANIFEST, digest=None):
                 f"`lenswork {doc.get('command', '?')}`): a run was stopped while its files were "
                 f"moved in, or the file was changed since. Run the command again")
     return None
+
+
+@contextlib.contextmanager
+def _signals_held():
+    """Hold SIGINT and SIGTERM back (POSIX, main thread) while a set is moved in.
+
+    They are delivered when the block ends, so an interrupt never stops a run
+    half-way through moving its files in: the folder holds the whole new set or
+    the whole earlier one. (SIGKILL cannot be held; the journal covers it.)
+    """
+    import signal
+    import threading
+
+    held = {signal.SIGINT, signal.SIGTERM}
+    if not hasattr(signal, "pthread_sigmask") or \
+            threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    before = signal.pthread_sigmask(signal.SIG_BLOCK, held)
+    try:
+        yield
+    finally:
+        signal.pthread_sigmask(signal.SIG_SETMASK, before)
 
 
 class OutputSet:
@@ -540,10 +595,11 @@ class OutputSet:
             if fd is not None:
                 fcntl.flock(fd, fcntl.LOCK_EX)  # concurrent runs move in one after the other
             self._clean_stale()
-            if self.replace_folder:
-                self._swap_folder()
-            else:
-                self._move_in(names)
+            with _signals_held():  # Ctrl-C / SIGTERM wait until the set is in place
+                if self.replace_folder:
+                    self._swap_folder()
+                else:
+                    self._move_in(names)
         finally:
             if fd is not None:
                 os.close(fd)
@@ -561,6 +617,13 @@ class OutputSet:
         from ._json import dumps
 
         earlier = self._earlier()
+        for name in [*names, self.manifest]:  # before any file moves: the set goes in whole
+            target = self.directory / name
+            if target.is_dir() or (target.exists() and not target.is_file()):
+                raise OutputError(
+                    f"Cannot write {str(target)!r}: a folder (or device) of that name is in the "
+                    f"way. Move it, or choose another output folder (-o); nothing was replaced."
+                )
         _remove_stale_tmp(self.directory, earlier | set(names) | {self.manifest, _PENDING})
         # the journal: a run stopped while moving in leaves the names it may have placed
         write_text(self.directory / _PENDING, dumps(sorted(earlier | set(names))) + "\n")

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import functools
 import re
+import signal
+import threading
 import warnings
 from dataclasses import fields
 
@@ -11,7 +13,7 @@ import click
 
 from .. import _progress
 from .._errors import LensworkError, LensworkWarning, ParameterError
-from .._io import os_error_text
+from .._io import check_output_file, os_error_text
 from ..graph import CUTOFF_WORDS, GraphSettings
 from ..lenses import LENS_FILE_CHECKS
 from ..workspace import METHODS
@@ -20,6 +22,7 @@ __all__ = [
     "LensworkGroup",
     "Neighbors",
     "build_view",
+    "check_out_file",
     "cli_text",
     "cutoff_value",
     "graph_option_fields",
@@ -52,6 +55,8 @@ _CLI_RULES = (
     (re.compile(r"they are listed in LensGraph\.unassigned\. Use (.*?)a smaller min_size"),
      r"they are listed under 'unassigned' in graph.json. Use \1a smaller --min-size"),
     (re.compile(r"smaller than min_size=(\d+)"), r"smaller than --min-size \1"),
+    (re.compile(r"\bmin_size=(\d+)"), r"--min-size \1"),
+    (re.compile(r" \(or pass format=\)"), ""),
     (re.compile(r"a larger k \(thin slices"), "a larger -k (thin slices"),
     (re.compile(r"a larger Workspace\(min_neighbors=\.\.\.\)"), "a larger --min-neighbors"),
     (re.compile(r"load them with lenswork\.load_table\(\.\.\., invalid='exclude'\)"),
@@ -65,11 +70,16 @@ _OPTION_OF = {
     "interval_counts": "--interval-counts", "overlaps": "--overlaps",
 }
 _PARAMETER_OF = re.compile(
-    r"The '(\w+)' parameter of (?:Cover|BallCover|GraphSettings|build_graph|stability_map)\b")
+    r"The '(\w+)' parameter of (?:Cover|BallCover|GraphSettings|build_graph|stability_map|"
+    r"(?P<screen>screen|ScreenSettings))\b")
 
 
 def _option_of(match):
-    flag = _OPTION_OF.get(match.group(1))
+    if match.group("screen"):
+        flags = {f.name: f.metadata["cli"]["flags"] for f in screen_option_fields()}
+        flag = flags.get(match.group(1), (None,))[-1]
+    else:
+        flag = _OPTION_OF.get(match.group(1))
     return f"The {flag} option" if flag else match.group(0)
 
 
@@ -95,11 +105,19 @@ class LensworkGroup(click.Group):
     """A click group that turns lenswork's own errors into one-line messages."""
 
     def invoke(self, ctx):
+        previous = _on_sigterm(_terminated)
         try:
             with warnings.catch_warnings():
                 warnings.simplefilter("always", LensworkWarning)
                 warnings.showwarning = _show_warning
                 return super().invoke(ctx)
+        except KeyboardInterrupt as err:  # Ctrl-C or SIGTERM: output sets were rolled back
+            _progress.interrupt()
+            name, code = ("SIGTERM", 143) if isinstance(err, Terminated) else ("SIGINT", 130)
+            click.echo(f"Error: interrupted ({name}). Output is moved in as a whole set or not "
+                       f"at all: each output folder holds this run's complete set or the earlier "
+                       f"one (its lenswork-manifest.json says which).", err=True)
+            raise click.exceptions.Exit(code) from None
         except LensworkError as err:
             raise click.ClickException(cli_text(err)) from None
         except MemoryError:
@@ -108,6 +126,23 @@ class LensworkGroup(click.Group):
             ) from None
         except OSError as err:  # a file-system error not met by a check: one line, no traceback
             raise click.ClickException(os_error_text(err)) from None
+        finally:
+            _on_sigterm(previous)
+
+
+class Terminated(KeyboardInterrupt):
+    """SIGTERM, raised like Ctrl-C so that staged output is removed on the way out."""
+
+
+def _terminated(signum, frame):
+    raise Terminated()
+
+
+def _on_sigterm(handler):
+    """Install ``handler`` for SIGTERM (main thread only); return the previous one."""
+    if handler is None or threading.current_thread() is not threading.main_thread():
+        return None
+    return signal.signal(signal.SIGTERM, handler)
 
 
 def _show_warning(message, category, filename, lineno, file=None, line=None):
@@ -183,6 +218,18 @@ def _load_table(table, features, id_column, scale, skip_invalid, delimiter):
         scale=None if scale == "none" else (scale or "auto"),
         invalid="exclude" if skip_invalid else "error", delimiter=delimiter,
     )
+
+
+def check_out_file(out):
+    """check_output_file for a command's -o, refusing every file the command reads.
+
+    The inputs are the command's TABLE, --lens-file and --rows-file (read from
+    the click context), so no command can overwrite its own input.
+    """
+    ctx = click.get_current_context(silent=True)
+    params = ctx.params if ctx is not None else {}
+    inputs = [params.get(key) for key in ("table", "lens_file", "rows_file")]
+    return check_output_file(out, inputs=[str(i) for i in inputs if i])
 
 
 def feature_text(features, exclude=()):

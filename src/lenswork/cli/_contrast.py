@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import csv
 import functools
 import re
 from pathlib import Path
@@ -79,8 +80,11 @@ def _read_ids(path, cloud):
         lines = Path(path).read_text(encoding="utf-8").splitlines()
     except OSError as err:
         raise InputError(f"Cannot read --rows-file {str(path)!r}: {err.strerror}.") from None
-    # the formula guard of lenswork's own CSV files (memberships.csv) undone
-    ids = [unformula(ln.split(",")[0].strip()) for ln in lines if ln.strip()]
+    known = {str(v) for v in cloud.ids.tolist()}
+    # a line is an id (which may hold commas), or a CSV record whose first field is one
+    # (memberships.csv: quoted as csv writes it, the formula guard undone)
+    ids = [ln if ln in known else ln.strip() if ln.strip() in known else
+           unformula(next(csv.reader([ln]), [""])[0].strip()) for ln in lines if ln.strip()]
     if ids and ids[0] == cloud.id_name:  # a header line
         ids = ids[1:]
     if not ids:

@@ -6,10 +6,9 @@ import textwrap
 
 import click
 
-from .._io import check_output_file
 from ..lenses import ENDINGS, compute_lenses, get_lens, lens_names
 from ..normalize import NORMALIZATIONS
-from ._common import neighbors_option
+from ._common import check_out_file, neighbors_option
 from ._partitioned import (
     cluster_input_options,
     lens_out_dir,
@@ -51,7 +50,7 @@ def list_lenses(only):
     help="A lens as name or name:key=value,... (repeatable). `lenswork lenses` lists them.",
 )
 @click.option("-o", "--out", default="lenses.csv", show_default=True,
-              type=click.Path(dir_okay=False),
+              type=click.Path(),  # a folder with --scheduler (rerun into it); checked below
               help="Output file; the ending picks the format "
               f"({', '.join('.' + e for e in ENDINGS)}). Provenance goes to OUT.json.")
 @click.option("--normalize", "normalization", type=click.Choice(NORMALIZATIONS), default=None,
@@ -76,7 +75,11 @@ def compute(cloud, seed, lenses, out, normalization, neighbors, cluster=None):
         out = lens_out_dir(out, ctx.get_parameter_source("out").name == "DEFAULT")
         lens, files = cluster.write_lenses(lenses, out)
         return print_lens_run(cluster.cloud, lens, files, out)
-    out = check_output_file(out)  # before the work: a file in the path, a read-only folder
+    out = check_out_file(out)  # before the work: a file in the path, a read-only folder
+    if out.suffix.lower().lstrip(".") not in ENDINGS:
+        raise click.BadParameter(
+            f"{str(out)!r} has no lens-file ending; use one of "
+            f"{', '.join('.' + e for e in ENDINGS)}.", param_hint="'-o' / '--out'")
     ws = neighbors.workspace(cloud, seed)
     table = compute_lenses(ws, list(lenses))
     if normalization:

@@ -90,6 +90,15 @@ def _computer(client, show):
     return compute
 
 
+def _quiet_dask():
+    """Silence what distributed and asyncio log while a cluster run is stopped on purpose
+    (cancelled tasks, futures whose exception nobody reads any more)."""
+    import logging
+
+    for name in ("distributed", "asyncio", "tornado"):
+        logging.getLogger(name).setLevel(logging.CRITICAL + 1)
+
+
 class ClusterRun:
     """One command's run on a Dask scheduler: the client, the source and its options.
 
@@ -119,7 +128,9 @@ class ClusterRun:
         self._current.__enter__()
         return self
 
-    def __exit__(self, *exc):
+    def __exit__(self, kind, err, tb):
+        if kind is not None and issubclass(kind, KeyboardInterrupt):
+            _quiet_dask()  # the interrupt's message is lenswork's; the cancelled tasks are not news
         if self.client is not None:
             self._current.__exit__(None, None, None)
             self.client.close()

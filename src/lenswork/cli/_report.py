@@ -12,7 +12,7 @@ from ..graph import LAYOUTS, build_graph
 from ..report import CONTRAST_ROWS, write_report
 from ..screen import screen
 from ..table import LensTable
-from ._common import graph_options, input_options, number_list
+from ._common import check_out_file, graph_options, input_options, number_list
 
 __all__ = ["COMMANDS"]
 
@@ -73,6 +73,7 @@ def report_command(cloud, seed, screen_dir, graph_path, out_file, title, top, la
     """
     contrast_rows = None if contrast_rows.strip().lower() == "all" else \
         number_list(contrast_rows, int, "--contrast-rows")
+    out_file = check_out_file(out_file)  # before the work: not the table, a writable folder
     ws = neighbors.workspace(cloud, seed)
     screen_source = screen_dir
     if graph_path is not None:

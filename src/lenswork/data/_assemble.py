@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import re
 
 import numpy as np
 
@@ -378,11 +379,35 @@ def _no_features(raw, id_j, first_text):
                 f"{DELIMITER_NAMES[c]}s ({c!r}), so the columns may be separated by them: pass "
                 f"delimiter={c!r}, or save the file comma-separated."
             )
+    comma = _decimal_comma(raw, id_j)
+    if comma is not None:
+        j, value, row = comma
+        return input_error(
+            f"{label} has no feature columns: column {names[j]!r} holds {short(value)} at row "
+            f"{row}, a number written with a decimal comma. lenswork reads a decimal point: "
+            f"save the file with decimal points (e.g. 0.5, not 0,5)."
+        )
     besides = " besides the id column" if id_j is not None else ""
     return input_error(
         f"{label} has no feature columns: no column{besides} holds only numbers{example}. "
         f"Choose the feature columns (features=[...]; CLI: --features), or fix the cells."
     )
+
+
+#: A number written with a decimal comma (0,5 or -1.234,5): common in continental exports.
+_DECIMAL_COMMA = re.compile(r"^[+-]?(\d{1,3}(\.\d{3})+|\d+),\d+([eE][+-]?\d+)?$")
+
+
+def _decimal_comma(raw, id_j):
+    """(column, value, row) of the first text column whose cells are decimal-comma numbers."""
+    for j, col in enumerate(raw.columns):
+        if j == id_j or col is None or j in raw.parsed:
+            continue
+        cells = [(i, str(v).strip()) for i, v in enumerate(col[:50]) if str(v).strip()]
+        if cells and all(_DECIMAL_COMMA.match(v) for _, v in cells):
+            i, v = cells[0]
+            return j, v, raw.row_numbers[i]
+    return None
 
 
 def _standardise(X, method, names, label):

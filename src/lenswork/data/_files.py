@@ -26,6 +26,9 @@ from ._raw import (
     resolve_selection,
 )
 
+#: Longest field a text table may hold (2**31 - 1 characters, a C long on every platform).
+_FIELD_LIMIT = 2**31 - 1
+
 __all__ = ["DELIMITER_LIKE", "DELIMITER_NAMES", "read_file"]
 
 
@@ -59,6 +62,11 @@ def read_file(path, delimiter, opts):
     if path.is_dir():
         raise input_error(
             f"{label} is a directory; give the path of a table file (.csv, .tsv, .npy, .parquet)."
+        )
+    if not path.is_file():
+        raise input_error(
+            f"{label} is not a regular file (a device, FIFO or socket), which lenswork cannot "
+            f"read twice as it needs to; save the table to a file first."
         )
     suffix = path.suffix.lower()
     if suffix in (".xlsx", ".xls", ".ods", ".npz"):
@@ -179,7 +187,7 @@ def _read_delimited(path, label, delimiter, prov, opts):
         delim, how = _choose_delimiter(sample, delimiter, prov["format"])
         prov.update(delimiter=delim, delimiter_from=how)
         with open(path, newline="", encoding="utf-8-sig") as fh:
-            reader = csv.reader(fh, delimiter=delim)
+            reader = _csv_reader(fh, delim)
             names = _read_header(reader, label, opts)
             feats, id_j = resolve_selection(names, opts["features"], opts["id_column"], label)
             raw = _read_body(reader, names, label, delim,
@@ -367,11 +375,19 @@ def _read_body(reader, names, label, delim, feats, id_j, prov):
     return raw
 
 
+def _csv_reader(fh, delim):
+    """A csv reader that takes fields of any length (the module's default stops at 128 KiB;
+    a long note or a pasted document in one cell is still a cell)."""
+    if csv.field_size_limit() < _FIELD_LIMIT:
+        csv.field_size_limit(_FIELD_LIMIT)
+    return csv.reader(fh, delimiter=delim)
+
+
 def _reread_text_columns(path, delim, raw, columns):
     """Read the text of ``columns`` again (they turned out not numeric after the first block)."""
     parts = {j: [] for j in columns}
     with open(path, newline="", encoding="utf-8-sig") as fh:
-        reader = csv.reader(fh, delimiter=delim)
+        reader = _csv_reader(fh, delim)
         for record in reader:
             if any(cell.strip() for cell in record):
                 break  # the header row

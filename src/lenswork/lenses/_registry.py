@@ -281,7 +281,8 @@ def get_lens(name):
         ][:1]
         hint = f" Did you mean {close[0]!r}?" if close else ""
         raise ParameterError(
-            f"Unknown lens {name!r}.{hint} Registered lenses: {', '.join(sorted(REGISTRY))}; "
+            f"Unknown lens {_shown(str(name))}.{hint} Registered lenses: "
+            f"{', '.join(sorted(REGISTRY))}; "
             f"a column name of theirs (pca_2, laplacian_1, eccentricity[p=1]) works too."
         ) from None
 
@@ -297,6 +298,11 @@ def parse_lens(text):
     ('pca', {})
     """
     text = text.strip()
+    if len(text) > _LONGEST_SPEC:
+        raise ParameterError(
+            f"The lens spec {_shown(text)} has {len(text):,} characters; a lens spec is a name "
+            f"and a few key=value pairs (at most {_LONGEST_SPEC}). `lenswork lenses` lists them."
+        )
     name, _, rest = text.partition(":")
     name = name.strip()
     params = {}
@@ -308,10 +314,24 @@ def parse_lens(text):
                     f"Cannot read lens parameter {item!r} in {text!r}: expected key=value, "
                     f"as in 'density:bandwidth=0.5,log=false'."
                 )
+            if key.strip() in params:
+                raise ParameterError(
+                    f"The lens parameter {key.strip()!r} is given twice in {text!r}; give it "
+                    f"once (a second lens is a second --lens)."
+                )
             params[key.strip()] = value.strip()
     if not name:
         raise ParameterError(f"No lens name in {text!r}; expected e.g. 'pca:components=2'.")
     return name, params
+
+
+#: Longest lens spec read (a name and its parameters; longer text is not a lens spec).
+_LONGEST_SPEC = 500
+
+
+def _shown(text, width=60):
+    """``text`` quoted for a message, cut to ``width`` characters."""
+    return repr(text) if len(text) <= width else repr(text[:width]) + "..."
 
 
 #: A lens column name as the registry writes it: name, optional ``_<part>``, optional ``[tags]``.

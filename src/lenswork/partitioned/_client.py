@@ -2,6 +2,11 @@
 
 from __future__ import annotations
 
+import contextlib
+import logging
+import signal
+import threading
+
 from .._errors import ParameterError
 from .._validation import check_int
 
@@ -131,6 +136,22 @@ def check_memory_limit(memory_limit):
     return limit
 
 
+@contextlib.contextmanager
+def _workers_ignore_ctrl_c():
+    """Start worker processes with SIGINT ignored (POSIX, main thread): Ctrl-C at a terminal
+    reaches every process of the group, and the workers are this process's to stop (closing
+    the client), not each its own (a traceback per worker). A Ctrl-C while the workers start
+    is ignored too; the next one stops the run."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    before = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGINT, before)
+
+
 def start_client(scheduler="local", *, workers=2, threads=1, memory_limit="auto",
                  processes=True):
     """A ``distributed.Client``: connected to ``scheduler``, or on a new LocalCluster.
@@ -183,10 +204,14 @@ def start_client(scheduler="local", *, workers=2, threads=1, memory_limit="auto"
         # a Client given cluster options starts a LocalCluster and closes it with itself; the
         # workers take the configuration of this moment (also when the nanny restarts one)
         try:
-            with dask.config.set(p2p_buffers(memory_limit)):
+            with dask.config.set(p2p_buffers(memory_limit)), _workers_ignore_ctrl_c():
+                # no dashboard (nothing shows it; a second run warned that its port was taken)
+                # and no worker log lines: a failure reaches the user as lenswork's message,
+                # and a stopped run (Ctrl-C) does not print the workers' shutdown tracebacks
                 return distributed.Client(
                     n_workers=workers, threads_per_worker=threads, memory_limit=memory_limit,
                     processes=processes, dashboard_address=None, timeout="60s",
+                    scheduler_kwargs={"dashboard": False}, silence_logs=logging.CRITICAL,
                 )
         except Exception as err:  # a worker lost while starting: any of several types
             raise ParameterError(
