@@ -220,7 +220,9 @@ def build(builder, seed=0, scale=None):
     """
     from dataclasses import replace
 
-    from lenswork import PointCloud
+    import warnings
+
+    from lenswork import PointCloud, load_table
 
     rng = np.random.default_rng(seed)
     case = builder(rng)
@@ -229,5 +231,8 @@ def build(builder, seed=0, scale=None):
     elif scale is not None:
         raise ValueError(f"scale must be None or 'zscore', not {scale!r}")
     noise = np.random.default_rng(seed + 1).normal(size=case.X.shape[0])
-    cloud = PointCloud.from_array(case.X, passthrough={NOISE_COLUMN: noise})
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        X = load_table(case.X).X  # the default reading (scale="auto"), as a user gets it
+    cloud = PointCloud.from_array(X, passthrough={NOISE_COLUMN: noise})
     return case, cloud
