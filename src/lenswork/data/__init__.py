@@ -16,9 +16,9 @@ DataFrames the first row is row 1. Every problem with the data raises
 what to do; bad arguments raise :class:`~lenswork.ParameterError`.
 """
 
-from ._assemble import auto_scaling
+from ._assemble import auto_standardise
 from ._cloud import ExcludedRow, PointCloud
 from ._load import load_block, load_table
 from ._raw import MISSING_TEXT
 
-__all__ = ["ExcludedRow", "MISSING_TEXT", "PointCloud", "auto_scaling", "load_block", "load_table"]
+__all__ = ["ExcludedRow", "MISSING_TEXT", "PointCloud", "auto_standardise", "load_block", "load_table"]

@@ -212,7 +212,7 @@ def assemble(raw, features, id_column, scale, invalid, min_rows):
         _warn_id_like(X, feature_names, label)  # on the values as read: ids are integers
     scaling, rule = None, None
     if scale == "auto":
-        scale, rule = auto_scaling(lo, hi, feature_names, label)
+        scale, rule = auto_standardise(lo, hi, feature_names, label)
     if scale is not None:
         X, scaling = _standardise(X, scale, feature_names, label)
         if rule is not None:
@@ -275,7 +275,7 @@ def _warn_id_like(X, names, label):
         )
 
 
-def auto_scaling(lo, hi, names, label):
+def auto_standardise(lo, hi, names, label):
     """``scale="auto"``: z-score the features when their ranges differ by more than ``SCALE_RATIO``.
 
     Columns whose ranges (max - min) differ by more than a factor of 100 are in
@@ -306,9 +306,9 @@ def auto_scaling(lo, hi, names, label):
     --------
     >>> import warnings
     >>> with warnings.catch_warnings(record=True):
-    ...     auto_scaling(np.array([0.0, 0.0]), np.array([4000.0, 1.0]), ["lines", "flag"], "t")[0]
+    ...     auto_standardise(np.array([0.0, 0.0]), np.array([4000.0, 1.0]), ["lines", "flag"], "t")[0]
     'zscore'
-    >>> auto_scaling(np.array([0.0, 0.0]), np.array([16.0, 2.0]), ["p1", "p2"], "t")[0] is None
+    >>> auto_standardise(np.array([0.0, 0.0]), np.array([16.0, 2.0]), ["p1", "p2"], "t")[0] is None
     True
     """
     span = np.asarray(hi, dtype=np.float64) - np.asarray(lo, dtype=np.float64)

@@ -53,7 +53,7 @@ def load_table(
         ``(x - mean) / std``, ``"robust"`` is ``(x - median) / IQR``. Recorded in
         ``provenance["scaling"]`` with the centre and scale of every column.
         ``"auto"`` z-scores when the columns' ranges differ by more than 100x
-        (different units; :func:`lenswork.data.auto_scaling`, which warns and is
+        (different units; :func:`lenswork.data.auto_standardise`, which warns and is
         recorded) and otherwise keeps the units; ``None`` (or ``"none"``) keeps
         them always.
     invalid : {"error", "exclude"}, default="error"

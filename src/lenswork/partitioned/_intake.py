@@ -26,7 +26,7 @@ import numpy as np
 
 from .._errors import InputError, ParameterError
 from .._validation import check_choice
-from ..data import PointCloud, auto_scaling, load_block, load_table
+from ..data import PointCloud, auto_standardise, load_block, load_table
 
 __all__ = [
     "Part",
@@ -414,7 +414,7 @@ def open_partitioned(source, *, features=None, id_column=None, scale=None, inval
     hi = np.max([s["hi"] for s in summaries], axis=0)
     scaling, scaling_info, rule = None, None, None
     if scale == "auto":
-        scale, rule = auto_scaling(lo, hi, names, label)
+        scale, rule = auto_standardise(lo, hi, names, label)
     if scale == "zscore":
         sd = np.sqrt(np.diag(M2) / n)
         sd = np.where(sd > 0, sd, 1.0)
