@@ -671,3 +671,27 @@ def test_no_raw_numpy_error_reaches_the_cli(tmp_path):
         empty.write_bytes(b"")
         with pytest.raises(InputError, match="is empty"):
             load_input(str(empty), False, None, None, None, True)
+
+
+def test_auto_scale_standardises_columns_in_different_units():
+    # Reference: scikit-learn's StandardScaler (population sd, as numpy's std). Columns whose
+    # ranges differ by more than 100x (a count of thousands beside 0/1 flags) are z-scored;
+    # sklearn's digits (one 0-16 unit, some pixels rarely lit: sd ratio 277, range ratio 16)
+    # stays in its units (common practice: standardise features measured in different units).
+    from sklearn.datasets import load_digits
+    from sklearn.preprocessing import StandardScaler
+
+    rng = np.random.default_rng(3)
+    X = np.column_stack([rng.poisson(3000.0, 200) * 10, rng.integers(0, 2, 200), rng.normal(size=200)])
+    with pytest.warns(UserWarning, match=r"differ in range by [\d,]+x .*scale='none'"):
+        cloud = load_table(X.astype(float))
+    assert_allclose(cloud.X, StandardScaler().fit_transform(X), rtol=0, atol=1e-12)
+    assert cloud.provenance["scaling"]["chosen_by"]["choice"] == "zscore"
+    kept = load_table(X.astype(float), scale="none")
+    assert_array_equal(kept.X, X)
+    D = load_digits().data
+    digits = load_table(D[:, D.std(axis=0) > 0])
+    assert_array_equal(digits.X, D[:, D.std(axis=0) > 0])
+    assert digits.provenance["scaling"] is None
+    assert digits.provenance["scale_rule"]["choice"] == "none"
+    assert digits.provenance["scale_rule"]["range_ratio"] == 16.0

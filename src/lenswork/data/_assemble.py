@@ -312,18 +312,19 @@ def auto_standardise(lo, hi, names, label):
     True
     """
     span = np.asarray(hi, dtype=np.float64) - np.asarray(lo, dtype=np.float64)
-    live = np.flatnonzero(np.isfinite(span) & (span > 0))
+    # a span below the smallest normal float is not a unit but an underflow: such a column is
+    # refused by the magnitude check, not rescued by a scaling nobody asked for
+    live = np.flatnonzero(np.isfinite(span) & (span >= np.finfo(np.float64).tiny))
     if live.size < 2:
         return None, {"rule": "auto", "range_ratio": 1.0, "choice": "none"}
     wide, narrow = live[np.argmax(span[live])], live[np.argmin(span[live])]
     with np.errstate(over="ignore"):
-        ratio = float(span[wide] / span[narrow])
+        ratio = min(float(span[wide] / span[narrow]), float(np.finfo(np.float64).max))
     choice = "zscore" if ratio > SCALE_RATIO else "none"
     rule = {"rule": "auto", "range_ratio": ratio, "widest": names[wide],
             "narrowest": names[narrow], "choice": choice}
     if choice == "zscore":
-        times = (f"{ratio:,.0f}x" if ratio < 1e6 else f"{ratio:.3g}x" if np.isfinite(ratio)
-                 else "more than 1e308x")
+        times = f"{ratio:,.0f}x" if ratio < 1e6 else f"{ratio:.3g}x"
         warn_user(
             f"Feature columns of {label} differ in range by {times} ({names[wide]!r} spans "
             f"{span[wide]:.3g}, {names[narrow]!r} {span[narrow]:.3g}): they are in different "
