@@ -218,9 +218,8 @@ def build(builder, seed=0, scale=None):
     diagnostic: tables kept in their own units, whose columns differ in scale,
     then weigh their columns alike; the cases already z-scored do not change).
     """
-    from dataclasses import replace
-
     import warnings
+    from dataclasses import replace
 
     from lenswork import PointCloud, load_table
 

@@ -682,7 +682,8 @@ def test_auto_scale_standardises_columns_in_different_units():
     from sklearn.preprocessing import StandardScaler
 
     rng = np.random.default_rng(3)
-    X = np.column_stack([rng.poisson(3000.0, 200) * 10, rng.integers(0, 2, 200), rng.normal(size=200)])
+    X = np.column_stack([rng.poisson(3000.0, 200) * 10, rng.integers(0, 2, 200),
+                         rng.normal(size=200)])
     with pytest.warns(UserWarning, match=r"differ in range by [\d,]+x .*scale='none'"):
         cloud = load_table(X.astype(float))
     assert_allclose(cloud.X, StandardScaler().fit_transform(X), rtol=0, atol=1e-12)

@@ -21,4 +21,6 @@ from ._cloud import ExcludedRow, PointCloud
 from ._load import load_block, load_table
 from ._raw import MISSING_TEXT
 
-__all__ = ["ExcludedRow", "MISSING_TEXT", "PointCloud", "auto_standardise", "load_block", "load_table"]
+__all__ = [
+    "ExcludedRow", "MISSING_TEXT", "PointCloud", "auto_standardise", "load_block", "load_table",
+]

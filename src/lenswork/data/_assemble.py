@@ -305,10 +305,11 @@ def auto_standardise(lo, hi, names, label):
     Examples
     --------
     >>> import warnings
+    >>> lo = np.array([0.0, 0.0])
     >>> with warnings.catch_warnings(record=True):
-    ...     auto_standardise(np.array([0.0, 0.0]), np.array([4000.0, 1.0]), ["lines", "flag"], "t")[0]
+    ...     auto_standardise(lo, np.array([4000.0, 1.0]), ["lines", "flag"], "t")[0]
     'zscore'
-    >>> auto_standardise(np.array([0.0, 0.0]), np.array([16.0, 2.0]), ["p1", "p2"], "t")[0] is None
+    >>> auto_standardise(lo, np.array([16.0, 2.0]), ["p1", "p2"], "t")[0] is None
     True
     """
     span = np.asarray(hi, dtype=np.float64) - np.asarray(lo, dtype=np.float64)
