@@ -219,7 +219,7 @@ def assemble(raw, features, id_column, scale, invalid, min_rows):
             scaling["chosen_by"] = rule
     check_magnitude(X, feature_names, rows, label, scale)
     if scale is None and rule is None:
-        _warn_scales(X, feature_names, label)
+        _warn_scales(X, lo, hi, feature_names, label)
     distinct = check_distinct_rows(X, label)
     id_name = names[id_j] if id_j is not None else (
         "row" if "row" not in names else "row_number"
@@ -315,12 +315,10 @@ def auto_standardise(lo, hi, names, label):
     span = np.asarray(hi, dtype=np.float64) - np.asarray(lo, dtype=np.float64)
     # a span below the smallest normal float is not a unit but an underflow: such a column is
     # refused by the magnitude check, not rescued by a scaling nobody asked for
-    live = np.flatnonzero(np.isfinite(span) & (span >= np.finfo(np.float64).tiny))
-    if live.size < 2:
+    found = _widest_and_narrowest(span, np.finfo(np.float64).tiny)
+    if found is None:
         return None, {"rule": "auto", "range_ratio": 1.0, "choice": "none"}
-    wide, narrow = live[np.argmax(span[live])], live[np.argmin(span[live])]
-    with np.errstate(over="ignore"):
-        ratio = min(float(span[wide] / span[narrow]), float(np.finfo(np.float64).max))
+    ratio, wide, narrow = found
     choice = "zscore" if ratio > SCALE_RATIO else "none"
     rule = {"rule": "auto", "range_ratio": ratio, "widest": names[wide],
             "narrowest": names[narrow], "choice": choice}
@@ -336,17 +334,28 @@ def auto_standardise(lo, hi, names, label):
     return None, rule
 
 
-def _warn_scales(X, names, label):
+def _widest_and_narrowest(spread, smallest):
+    """``(ratio, widest, narrowest)`` over the columns whose finite spread is at least
+    ``smallest`` (None when fewer than two are): the ratio capped at the largest float."""
+    live = np.flatnonzero(np.isfinite(spread) & (spread >= smallest))
+    if live.size < 2:
+        return None
+    wide, narrow = live[np.argmax(spread[live])], live[np.argmin(spread[live])]
+    with np.errstate(over="ignore"):
+        ratio = min(float(spread[wide] / spread[narrow]), float(np.finfo(np.float64).max))
+    return ratio, wide, narrow
+
+
+def _warn_scales(X, lo, hi, names, label):
     """Warn when the feature columns' spreads (standard deviations) differ by > SCALE_RATIO."""
-    top = np.maximum(X.max(axis=0), -X.min(axis=0))
+    top = np.maximum(hi, -lo)  # the columns' largest magnitudes, from the intake's min / max
     top[top == 0] = 1.0
     # scaled first (squares cannot overflow), one column at a time: no copy of the whole table
     sd = np.array([(X[:, k] / top[k]).std() * top[k] for k in range(X.shape[1])])
-    live = np.flatnonzero(sd > 0)
-    if live.size < 2:
+    found = _widest_and_narrowest(sd, np.nextafter(0.0, 1.0))
+    if found is None:
         return
-    wide, narrow = live[np.argmax(sd[live])], live[np.argmin(sd[live])]
-    ratio = sd[wide] / sd[narrow]
+    ratio, wide, narrow = found
     if ratio > SCALE_RATIO:
         warn_user(
             f"Feature columns of {label} differ in scale by {ratio:,.0f}x (standard deviation of "
