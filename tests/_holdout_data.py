@@ -159,5 +159,35 @@ def medical_use(rng):
                 source="AER NMES1988: 10 counts of medical care, mostly 0; 3 health ratings")
 
 
+def leaves(rng):
+    d = _rdata("DAAG", "leafshape")
+    cols = ["bladelen", "petiole", "bladewid", "arch"]
+    return Case("leaves", d[cols].to_numpy(dtype=float), _labels(d["location"]),
+                source="DAAG leafshape: 3 leaf measurements + a flag of 286 leaves; 6 places")
+
+
+def soils(rng):
+    d = _rdata("heplots", "Oslo")
+    cols = ["altitude", "Cu", "Fe", "K", "Mg", "Mn", "P", "Zn"]
+    return Case("soils", d[cols].to_numpy(dtype=float), _labels(d["litho"]),
+                source="heplots Oslo: altitude + 7 soil elements of 332 sites; rock type")
+
+
+def recreation(rng):
+    d = _rdata("AER", "RecreationDemand")
+    cols = ["trips", "quality", "income", "costC", "costS", "costH"]
+    return Case("recreation", d[cols].to_numpy(dtype=float), _labels(d["ski"]),
+                source="AER RecreationDemand: 6 counts and costs of 659 boat owners, "
+                       "63% no trips; water-skis or not")
+
+
+def intensive_care(rng):
+    d = _rdata("Stat2Data", "ICU")
+    cols = ["Age", "SysBP", "Pulse", "Infection", "Sex", "Emergency"]
+    return Case("intensive_care", d[cols].to_numpy(dtype=float), _labels(d["Survive"]),
+                source="Stat2Data ICU: 3 measurements + 3 flags of 200 patients; survived")
+
+
 BUILDERS = (crabs, glass, olive, penguins, temperature_windows, sunspot_windows, skulls,
-            phd_pubs, athletes, possums, affairs, medical_use)
+            phd_pubs, athletes, possums, affairs, medical_use, leaves, soils, recreation,
+            intensive_care)

@@ -17,7 +17,13 @@ are mostly zero with many exact duplicate rows (Ecdat ``DoctorAUS``: Cameron and
 Australian health survey, 5,190 people, 1,367 rows repeating an earlier one; openintro
 ``email``: counts in 3,921 e-mails, two thirds of the cells zero) and a small table of a few
 clinical measurements (heplots ``NeuroCog``: seven cognitive scores of 242 people in three
-diagnostic groups, Hartman et al.).
+diagnostic groups, Hartman et al.). Four more came with the third round of the screen's
+judgement: a size-dominated morphometric table (Stat2Data ``Hawks``: five measurements of
+three hawk species, the rows with all five), a small table with two columns of few values
+(ISLR ``Auto``: seven measurements of 392 cars, labelled by origin), counts and amounts that
+are mostly zero (AER ``CreditCard``: nine figures of 1,319 card applicants, labelled by the
+decision) and clinical laboratory values (texmex ``liver``: eight liver enzyme values of 606
+patients, labelled by the dose they were given).
 
 Every case also carries a column of pure noise (a passthrough column named ``noise``, not a
 feature, so the geometry is unchanged): screened as the lens ``column:name=noise`` it must rank
@@ -206,9 +212,41 @@ def neurocog(rng):
                 source="heplots NeuroCog: 7 cognitive scores, 3 diagnostic groups")
 
 
+def hawks(rng):
+    d = _rdata("Stat2Data", "Hawks")
+    cols = ["Wing", "Weight", "Culmen", "Hallux", "Tail"]
+    d = d.dropna(subset=cols)
+    return Case("hawks", d[cols].to_numpy(dtype=float), _labels(d["Species"]),
+                source="Stat2Data Hawks: 5 measurements of 891 hawks, size-dominated; 3 species")
+
+
+def cars(rng):
+    d = _rdata("ISLR", "Auto")
+    cols = ["mpg", "cylinders", "displacement", "horsepower", "weight", "acceleration", "year"]
+    return Case("cars", d[cols].to_numpy(dtype=float), _labels(d["origin"]),
+                source="ISLR Auto: 7 measurements of 392 cars, 2 with few values; 3 origins")
+
+
+def credit_cards(rng):
+    d = _rdata("AER", "CreditCard")
+    cols = ["reports", "age", "income", "share", "expenditure", "dependents", "months",
+            "majorcards", "active"]
+    return Case("credit_cards", d[cols].to_numpy(dtype=float), _labels(d["card"]),
+                source="AER CreditCard: 9 counts and amounts of 1,319 applicants, many 0; "
+                       "card granted or not")
+
+
+def liver(rng):
+    d = _rdata("texmex", "liver")
+    cols = ["ALP.B", "ALT.B", "AST.B", "TBL.B", "ALP.M", "ALT.M", "AST.M", "TBL.M"]
+    return Case("liver", d[cols].to_numpy(dtype=float), _labels(d["dose"]),
+                source="texmex liver: 8 liver enzyme values of 606 patients, before and after; "
+                       "4 doses")
+
+
 BUILDERS = (wine, breast_cancer, iris, digits, circles, moons, swiss_roll, s_curve,
             circle_highd, torus, figure_eight, y_shape, sphere, sliding_windows,
-            doctor_visits, email, neurocog)
+            doctor_visits, email, neurocog, hawks, cars, credit_cards, liver)
 
 
 def build(builder, seed=0, scale=None):

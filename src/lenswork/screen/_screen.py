@@ -106,14 +106,17 @@ def _smoothness(Z, ws, usable, support, value_support):
     i.e. ``tail_share >= 1/2`` on at most ``k / 3`` rows; the eigensolver's warning
     for a concentrated Laplacian vector uses the same 1 %) is concentrated there
     on the value half of the balanced cover scale, however well spread its ranks:
-    its support counts 0, so its smoothness and merit are 0.
+    its support counts 0, so its smoothness and merit are 0. The bound for "smoother
+    than chance" is Bonferroni's over the usable candidates (criteria.chance_bound).
     """
     k = min(SMOOTHNESS_K, ws.n - 1)
     handful = min(HANDFUL * k, math.ceil(TAIL * Z.shape[1]))
     support = np.where(np.asarray(value_support) <= handful, 0.0, support)
     S = heat_kernel_affinity(ws, k=k)
     Lr, jitter = unit_rank_criteria(np.where(usable[:, None], Z, np.nan), S)
-    return {"smoothness": smoothness(Lr, null_sd=laplacian_null_sd(S), support=support, k=k),
+    tests = max(int(np.count_nonzero(usable)), 1)  # one test per usable candidate
+    return {"smoothness": smoothness(Lr, null_sd=laplacian_null_sd(S), support=support, k=k,
+                                     tests=tests),
             "laplacian_score": Lr, "jitter": jitter}
 
 
