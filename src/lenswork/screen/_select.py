@@ -94,6 +94,7 @@ from .._errors import ParameterError
 from .._validation import check_float, check_int
 from ..criteria import neighbour_preservation
 from ..normalize import normalize
+from ..probe import SIGNIFICANCE_WEIGHTS
 
 __all__ = [
     "DEFAULT_WEIGHTS",
@@ -368,16 +369,19 @@ def joint_merit(scores, weights, floor=STRUCTURE_FLOOR, families=None):
         branches) some candidate shows, each factor raised to ``s_kind``, with
         ``r_kind`` the larger ``merit_i * sig_kind_i`` of the pair over the
         largest of any candidate (``sig_kind``: the probe's ``loop_significance``
-        or ``branch_significance``) and ``s_kind`` the largest ``sig_kind`` of
-        any candidate: a pair that leaves out the loops or the tails that the
-        best lenses show loses ``2^-(s_kind w_structure / sum w)``, as much as
-        the evidence for them. One loop over the whole lens range at most
-        settings (``s = 0.5``) costs the pair that misses it 11 %; a branch over a
-        fifth of the range (``s = 0.1``) 2 %. (With the factor not raised to
-        ``s_kind``, a branch of significance 0.1 that three density-type lenses
-        showed on a table of card applicants cost every other pair 21 % and
-        took the pair from 0.84 to 0.58 balanced accuracy, while pca_1 +
-        pca_2 had 0.86; tests/benchmarks/bench_judgement.py, credit_cards.) With ``families``, a kind
+        or ``branch_significance``) and ``s_kind`` the evidence for the kind: the
+        largest total ``T_kind`` of any candidate in whole-range features of that
+        kind (one loop over the whole range ``T = 1``, one branch ``T = 0.5``,
+        the probe's ``SIGNIFICANCE_WEIGHTS``), at most 1. A pair that leaves
+        out loops or tails shown clearly (a whole-range feature or more) loses
+        what halving a lens's structure score costs its merit,
+        ``2^-(w_structure / sum w)`` (21 % with the default weights); one that
+        leaves out a kind shown weakly loses less: a branch of significance
+        0.1 (``T = 0.15``, a tail over 30 % of the range) costs it 7 %. (At the
+        full 21 % for every kind, such a branch, shown by three density-type
+        lenses on a table of card applicants, took the pair from 0.84 to 0.58
+        balanced accuracy, while pca_1 + pca_2 had 0.86;
+        tests/benchmarks/bench_judgement.py, credit_cards.) With ``families``, a kind
         that lenses of one family alone show is left out of the coverage: one
         construction's feature may be its artefact (a Laplacian vector computed
         per piece of a disconnected neighbour graph puts its pieces at
@@ -399,7 +403,7 @@ def joint_merit(scores, weights, floor=STRUCTURE_FLOOR, families=None):
     ...      "branch_significance": [0.0, 0.25, 0.0, 0.0]}
     >>> f = joint_merit(s, {"structure": 1.0})
     >>> round(f(0, 1), 4), round(f(0, 2), 4), round(f(1, 3), 4)  # loop + tail beats loop + loop
-    (0.7188, 0.5256, 0.3094)
+    (0.7188, 0.3516, 0.2188)
     >>> g = joint_merit(s, {"structure": 1.0}, families=["pca", "density", "pca", "dtm"])
     >>> round(g(0, 2), 4)   # the loop is one family's, the tail another's: no coverage
     0.625
@@ -419,7 +423,12 @@ def joint_merit(scores, weights, floor=STRUCTURE_FLOOR, families=None):
         k for k in need if len({families[j] for j in np.flatnonzero(cols[k] > 0)}) >= 2]
     shown = [single * cols[k] for k in kinds]
     best = [float(v.max()) if v.size else 0.0 for v in shown]
-    strength = [float(cols[k].max()) if cols[k].size else 0.0 for k in kinds]
+    # the evidence for each kind in whole-range features of that kind, at most one
+    full = {"loop_significance": SIGNIFICANCE_WEIGHTS["loop"],
+            "branch_significance": SIGNIFICANCE_WEIGHTS["down"]}
+    top_t = {"loop_significance": loop_t, "branch_significance": branch_t}
+    strength = [min(1.0, float(top_t[k].max()) / full[k]) if cols[k].size else 0.0
+                for k in kinds]
     power = weights["structure"] / sum(weights.values())
 
     def merit(i, j):
