@@ -603,3 +603,29 @@ def test_demo_screen_separates_loop_and_flares(demo_cloud):
     assert any(result.probe[c]["significant_loops"] == 1 for c in result.selected)
     sub = np.abs(result.correlation[np.ix_(result.selection.indices, result.selection.indices)])
     assert sub[0, 1] <= result.ceiling
+
+
+def test_missing_a_kind_costs_the_pair_as_much_as_the_evidence_for_it():
+    # joint_merit's coverage factor for a pair that shows none of a kind is
+    # 2 ** -(s * w_structure / sum w) (module notes), with s the kind's evidence in
+    # whole-range features: T = -log2(1 - significance) over the probe's weight (loop 1,
+    # branch 0.5), at most 1. Closed forms written for this test.
+    from lenswork.screen._select import joint_merit
+
+    weights = {"robust_spread": 1.0, "smoothness": 1.0, "structure": 1.0}
+
+    def scores(branch):
+        return {"robust_spread": [1.0, 1.0, 1.0], "smoothness": [1.0, 1.0, 1.0],
+                "structure": [0.5, 0.5, 0.5], "loop_significance": [0.0, 0.0, 0.0],
+                "branch_significance": [branch, 0.0, 0.0]}
+
+    for branch in (0.05, 0.1, 0.2, 0.29, 0.5, 0.9):
+        f = joint_merit(scores(branch), weights)
+        T = -math.log2(1.0 - branch)
+        s = min(1.0, T / 0.5)
+        shows = 0.25 + 0.75 * (1.0 - 2.0 ** -T)  # pair (0, 1): the branch is shown
+        assert f(0, 1) == pytest.approx(shows, rel=1e-12)
+        assert f(1, 2) == pytest.approx(0.25 * 2.0 ** (-s / 3.0), rel=1e-12)
+    # a weak branch (significance 0.1) costs a pair that misses it 7 %, a clear one 21 %
+    assert 1 - joint_merit(scores(0.1), weights)(1, 2) / 0.25 == pytest.approx(0.067, abs=1e-3)
+    assert 1 - joint_merit(scores(0.5), weights)(1, 2) / 0.25 == pytest.approx(0.206, abs=1e-3)
