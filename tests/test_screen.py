@@ -629,3 +629,72 @@ def test_missing_a_kind_costs_the_pair_as_much_as_the_evidence_for_it():
     # a weak branch (significance 0.1) costs a pair that misses it 7 %, a clear one 21 %
     assert 1 - joint_merit(scores(0.1), weights)(1, 2) / 0.25 == pytest.approx(0.067, abs=1e-3)
     assert 1 - joint_merit(scores(0.5), weights)(1, 2) / 0.25 == pytest.approx(0.206, abs=1e-3)
+
+
+def test_per_row_preservation_and_tied_pairs_against_sklearn_neighbours():
+    # Each row's term of R_NX(K) from scikit-learn's exact K-NN on the data and on the lens
+    # ranks (Lee and Verleysen 2009, written here as in _reference_rnx); the paired standard
+    # error of a score difference is numpy's sd / sqrt(n) of the per-row differences (common
+    # practice). tied_pairs must list exactly the pairs within two of them.
+    from sklearn.neighbors import NearestNeighbors
+
+    from lenswork.criteria import neighbour_preservation
+    from lenswork.screen._select import PairPreservation, tied_pairs
+
+    rng = np.random.default_rng(61)
+    n, K = 300, 10
+    X = rng.normal(size=(n, 3)) * [3.0, 1.0, 0.3]
+    V = np.column_stack([X[:, 0], X[:, 1], X[:, 2], X[:, 0] + X[:, 1],
+                         rng.normal(size=n)])
+    a = NearestNeighbors(n_neighbors=K + 1).fit(X).kneighbors(X, return_distance=False)[:, 1:]
+
+    def ref_rows(cols):
+        U = np.column_stack([(scipy.stats.rankdata(V[:, c]) - 0.5) / n for c in cols])
+        b = NearestNeighbors(n_neighbors=K + 1).fit(U).kneighbors(U, return_distance=False)
+        b = b[:, 1:]
+        c = np.array([len(np.intersect1d(a[i], b[i])) for i in range(n)])
+        return ((n - 1) * c / K - K) / (n - 1 - K)
+
+    per = neighbour_preservation(V[:, [0, 1]], a, scale="k", per_row=True)
+    assert_allclose(per, ref_rows([0, 1]), atol=1e-12)
+    assert per.mean() == pytest.approx(neighbour_preservation(V[:, [0, 1]], a, scale="k"),
+                                       abs=1e-12)
+    with pytest.raises(ParameterError, match="per_row"):
+        neighbour_preservation(V[:, [0, 1]], a, per_row=True)
+
+    pres = PairPreservation(V, a)
+    merit = np.ones(5)
+    R = spearman_matrix(V)
+    chosen = (0, 1)
+    found = {(i, j): (d, se) for i, j, _, d, se in
+             tied_pairs(chosen, R, merit, pres, ceiling=0.95)}
+    rc = ref_rows(chosen)
+    expect = {}
+    for i in range(5):
+        for j in range(i + 1, 5):
+            if (i, j) == chosen or abs(R[i, j]) > 0.95:
+                continue
+            rp = ref_rows([i, j])
+            diff = max(rc.mean(), 0) - max(rp.mean(), 0)
+            se = np.std(rc - rp, ddof=1) / np.sqrt(n)
+            if diff <= 2 * se:
+                expect[(i, j)] = (diff, se)
+    assert set(found) == set(expect)
+    for key, (d, se) in expect.items():
+        assert found[key] == pytest.approx((d, se), abs=1e-12)
+    assert list(found) == [(0, 3)]  # v0 + (v0 + v1) keeps more neighbours, within the error
+    # the screen reports them (summary line and JSON): an affine copy of a chosen lens has its
+    # ranks and merit, so the other chosen lens paired with it scores the same (difference 0)
+    cloud = PointCloud.from_array(X)
+    cols = [LensColumn(f"v{j}", V[:, j]) for j in range(5)]
+    cols += [LensColumn(f"twice_v{j}", 2.0 * V[:, j] + 1.0) for j in range(5)]
+    result = screen(LensTable(cols, cloud), count=2, probe=False)
+    a, b = result.selected
+    names = result.names
+    copy_of_b = [a, f"twice_{b}"]
+    copy_of_b.sort(key=names.index)
+    ties = result.pair_ties
+    assert copy_of_b in [t["lenses"] for t in ties]
+    assert next(t for t in ties if t["lenses"] == copy_of_b)["difference"] == pytest.approx(0.0)
+    assert result.to_dict()["pair_ties"] == ties
+    assert "As good within the error" in result.summary()

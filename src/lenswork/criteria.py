@@ -700,7 +700,7 @@ def proposed_merit(spread, smooth, structure):
     return np.cbrt(prod)
 
 
-def neighbour_preservation(columns, neighbors, *, scale="log-auc"):
+def neighbour_preservation(columns, neighbors, *, scale="log-auc", per_row=False):
     """How well lens columns, as a cover space, keep each row's nearest neighbours.
 
     Parameters
@@ -714,10 +714,15 @@ def neighbour_preservation(columns, neighbors, *, scale="log-auc"):
     scale : {"log-auc", "k"}, default="log-auc"
         ``"k"``: ``R_NX(K)`` at the graph's K only; ``"log-auc"``: the area under
         ``R_NX(k)`` for k = 1..K on a log scale, ``sum_k R_NX(k) / k / sum_k 1 / k``.
+    per_row : bool, default=False
+        With ``scale="k"``: return each row's term of ``R_NX(K)``,
+        ``((n - 1) c_i / K - K) / (n - 1 - K)`` with ``c_i`` the row's common
+        neighbours, whose mean is ``R_NX(K)`` (for the standard error of a
+        difference between two lens sets on the same rows).
 
     Returns
     -------
-    float
+    float (ndarray of shape (n_samples,) with ``per_row``)
         ``R_NX(k) = ((n - 1) Q_NX(k) - k) / (n - 1 - k)`` with ``Q_NX(k)`` the mean
         share of each row's k data neighbours that are also among its k
         neighbours in the lens space (Lee and Verleysen, "Quality assessment of
@@ -748,6 +753,11 @@ def neighbour_preservation(columns, neighbors, *, scale="log-auc"):
     from scipy.spatial import cKDTree
 
     scale = check_choice("scale", scale, ("log-auc", "k"), context="neighbour_preservation")
+    if per_row and scale != "k":
+        raise ParameterError(
+            "neighbour_preservation(per_row=True) needs scale='k': the log-scale area has no "
+            "per-row terms."
+        )
     F = np.asarray(columns, dtype=np.float64)
     F = F[:, None] if F.ndim == 1 else F
     ind = np.asarray(getattr(neighbors, "indices", neighbors), dtype=np.int64)
@@ -772,6 +782,7 @@ def neighbour_preservation(columns, neighbors, *, scale="log-auc"):
     # a common neighbour at lens rank a and data rank b counts in Q_NX(k) for k >= max(a, b):
     # sort each row's two lists together; a common neighbour is a pair of equal neighbours
     hist = np.zeros(K + 1, dtype=np.int64)
+    common = np.zeros(n, dtype=np.int64)
     rank = np.tile(np.arange(K), 2)
     for start in range(0, n, 8192):
         both = np.concatenate([found[start:start + 8192], ind[start:start + 8192]], axis=1)
@@ -780,6 +791,9 @@ def neighbour_preservation(columns, neighbors, *, scale="log-auc"):
         pos = rank[order]
         same = srt[:, 1:] == srt[:, :-1]
         hist += np.bincount(np.maximum(pos[:, 1:], pos[:, :-1])[same] + 1, minlength=K + 1)
+        common[start:start + 8192] = same.sum(axis=1)
+    if per_row:
+        return ((n - 1) * common / K - K) / (n - 1 - K)
     k = np.arange(1, K + 1)
     q = np.cumsum(hist[1:]) / (n * k)
     r = ((n - 1) * q - k) / (n - 1 - k)

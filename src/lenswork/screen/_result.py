@@ -31,6 +31,7 @@ from ._select import (
     check_weights,
     joint_merit,
     select_by_preservation,
+    tied_pairs,
     select_lenses,
     weighted_merit,
 )
@@ -152,6 +153,7 @@ class ScreenResult:
             )
         self.selected = [self.names[j] for j in self.selection.indices]
         self._pres = None
+        self._ties = None
         self._embedding = None
         self.probe = None  # a StructureProbe when the screen ran one
         self.data_notes = {}  # duplicates / pieces of the neighbour graph (screen.data_notes)
@@ -275,6 +277,35 @@ class ScreenResult:
                         out[j] = self._preservation((first, j))
             self._pres = out
         return self._pres
+
+    @property
+    def pair_ties(self):
+        """Pairs the data do not tell apart from the chosen pair (a list of dicts).
+
+        Each allowed pair whose score (``R_NX(K)`` times the joint merit, as the
+        pair rule scores it) is within two standard errors of the chosen pair's
+        (:func:`lenswork.screen._select.tied_pairs`): ``lenses``, ``score``,
+        ``difference`` (the chosen pair's score minus this one's) and ``se``.
+        Empty for the greedy rule, fewer than two chosen lenses, or a
+        preservation that gives no per-row terms. A long list says the choice
+        among these pairs is not the data's: look at more than one.
+        """
+        if self._ties is None:
+            sel = self.selection.indices
+            rows = getattr(self._preservation, "rows", None)
+            if self.pairing != "preservation" or len(sel) < 2 or rows is None \
+                    or getattr(self._preservation, "scale", "k") != "k":
+                self._ties = []
+            else:
+                found = tied_pairs(
+                    sel[:2], self.correlation, self.merit, self._preservation,
+                    ceiling=self.ceiling, usable=self.usable,
+                    joint_merit=joint_merit(self.scores, self.weights,
+                                            families=self._families()))
+                self._ties = [{"lenses": [self.names[i], self.names[j]], "score": score,
+                               "difference": diff, "se": se}
+                              for i, j, score, diff, se in found]
+        return self._ties
 
     def _families(self):
         """The lens family of each candidate (the pair rule's coverage counts kinds two show)."""
@@ -413,6 +444,7 @@ class ScreenResult:
                 "random_state": self.lenses.random_state,
             },
             "selected": self.selected,
+            "pair_ties": self.pair_ties,
             "stop": self.selection.stop,
             "stop_text": self.stop_text,
             "ranking": self.rows(),
@@ -596,15 +628,27 @@ class ScreenResult:
         return screen_figure(self)
 
     def summary(self):
-        """Two lines: what was screened, what was kept and why it stopped."""
+        """What was screened, what the data showed, what was kept and why it stopped.
+
+        A last line lists the pairs the data do not tell apart from the chosen one
+        (:attr:`pair_ties`), when there are any.
+        """
         n_use = int(self.usable.sum())
         head = (f"Screened {len(self.names)} candidate columns ({n_use} usable) on "
                 f"{self.cloud.n} rows x {self.cloud.d} features.")
         chosen = ", ".join(self.selected) if self.selected else "nothing"
         notes = [v["text"] for v in self.data_notes.values() if v.get("text")]
         data = f"\nData: {'; '.join(notes)}." if notes else ""
+        ties = self.pair_ties
+        tied = ""
+        if ties:
+            shown = ", ".join(" + ".join(t["lenses"]) for t in ties[:3])
+            more = f" and {len(ties) - 3} more" if len(ties) > 3 else ""
+            tied = (f"\nAs good within the error ({len(ties)} pair{'s' * (len(ties) > 1)} the "
+                    f"data do not tell apart from the chosen one: neighbour preservation x "
+                    f"structure within 2 standard errors): {shown}{more}.")
         return (f"{head}{data}\nSelected: {chosen} (stopped: {self.stop_text}; "
-                f"ceiling {self.ceiling:.2f}).")
+                f"ceiling {self.ceiling:.2f}).{tied}")
 
     def write(self, directory, *, figures=True, lens_format="csv"):
         """Write the ranking (CSV, JSON), the chosen lens columns and the figure sheet.

@@ -105,6 +105,7 @@ __all__ = [
     "joint_merit",
     "select_by_preservation",
     "select_lenses",
+    "tied_pairs",
     "weighted_merit",
 ]
 
@@ -324,13 +325,28 @@ class PairPreservation:
         self.neighbors = np.asarray(neighbors, dtype=np.int64)
         self.scale = scale
         self._cache = {}
+        self._rows = {}
 
     def __call__(self, indices):
         key = tuple(sorted(int(j) for j in indices))
         if key not in self._cache:
-            self._cache[key] = neighbour_preservation(self.U[:, list(key)], self.neighbors,
-                                                      scale=self.scale)
+            if self.scale == "k":
+                self._cache[key] = float(self.rows(key).mean())
+            else:
+                self._cache[key] = neighbour_preservation(self.U[:, list(key)], self.neighbors,
+                                                          scale=self.scale)
         return self._cache[key]
+
+    def rows(self, indices):
+        """Each row's term of ``R_NX(K)`` for a set of candidates (their mean is the call's value).
+
+        Only for ``scale="k"``; cached per set, like the call.
+        """
+        key = tuple(sorted(int(j) for j in indices))
+        if key not in self._rows:
+            self._rows[key] = neighbour_preservation(self.U[:, list(key)], self.neighbors,
+                                                     scale="k", per_row=True)
+        return self._rows[key]
 
 
 #: ``structure`` of a lens that reveals nothing and keeps its rows (the probe's default floor).
@@ -533,3 +549,87 @@ def select_by_preservation(correlation, merit, preservation, *, count=2, ceiling
         chosen.append(pick)
         pair_merits.append(top)
     return Selection(tuple(chosen), tuple(pair_merits), stop)
+
+
+#: Standard errors within which two pairs' scores count as the same (common practice).
+TIE_Z = 2.0
+
+
+def tied_pairs(chosen, correlation, merit, preservation, *, ceiling=0.8, usable=None,
+               joint_merit=None, z=TIE_Z):
+    """Pairs whose score the data do not tell apart from the chosen pair's.
+
+    Parameters
+    ----------
+    chosen : tuple of two int
+        The chosen pair (:func:`select_by_preservation`).
+    correlation, merit, ceiling, usable, joint_merit
+        As for :func:`select_by_preservation`: the same pairs are allowed and scored.
+    preservation : PairPreservation
+        Must give each row's term of ``R_NX(K)`` (``preservation.rows``).
+    z : float, default=2.0
+        Standard errors within which a pair counts as tied with the chosen one.
+
+    Returns
+    -------
+    list of (i, j, score, difference, se)
+        The allowed pairs with ``score_c - score_p <= z * se``, best score first:
+        ``score = weight * R_NX(K)`` as the pair rule scores it, ``difference``
+        the chosen pair's score minus this one's, ``se`` the standard error of
+        that difference from the per-row terms of both, ``sd(w_c r_c,i - w_p
+        r_p,i) / sqrt(n)`` (paired, the rows being the same). The chosen pair is
+        not listed.
+
+    Notes
+    -----
+    The rows' neighbourhoods overlap, so the per-row terms are not independent
+    and the standard error is a lower bound: the list is the least a reader
+    should weigh beside the chosen pair. Pairs that cannot be within ``z``
+    standard errors are not scored (a per-row term lies in ``[-K / (n - 1 -
+    K), (n - 1) / (n - 1 - K)]``, so ``se <= (w_c + w_p) * half that range /
+    sqrt(n)`` and ``score_p <= w_p``).
+
+    Examples
+    --------
+    >>> from lenswork import Workspace
+    >>> rng = np.random.default_rng(0)
+    >>> X = rng.uniform(size=(400, 2))
+    >>> V = np.column_stack([X[:, 0], X[:, 1], np.exp(X[:, 0])])  # exp: x0's ranks again
+    >>> pres = PairPreservation(V, Workspace(X).neighbors(10).indices)
+    >>> rho = np.corrcoef(V.T)
+    >>> [(int(i), int(j)) for i, j, *_ in tied_pairs((0, 1), rho, [1.0, 1.0, 1.0], pres,
+    ...                                              ceiling=1.0)]
+    [(1, 2)]
+    """
+    merit = np.asarray(merit, dtype=np.float64)
+    m = merit.shape[0]
+    ok = (np.ones(m, dtype=bool) if usable is None else np.asarray(usable, dtype=bool)) \
+        & (merit > 0)
+    absr = np.nan_to_num(np.abs(np.asarray(correlation, dtype=np.float64)), nan=1.0)
+    both = (lambda i, j: float(np.sqrt(merit[i] * merit[j]))) if joint_merit is None \
+        else (lambda i, j: float(joint_merit(int(i), int(j))))
+    c = tuple(sorted(int(j) for j in chosen))
+    wc = both(*c)
+    rc = wc * preservation.rows(c)
+    n = rc.shape[0]
+    K = preservation.neighbors.shape[1]
+    half = 0.5 * ((n - 1) + K) / (n - 1 - K)
+    score_c = max(float(rc.mean()), 0.0)
+    out = []
+    idx = np.flatnonzero(ok)
+    for a, i in enumerate(idx):
+        for j in idx[a + 1:]:
+            p = (int(i), int(j))
+            if p == c or absr[i, j] > ceiling:
+                continue
+            wp = both(*p)
+            if wp < score_c - z * (wc + wp) * half / np.sqrt(n):
+                continue  # cannot be within z standard errors
+            rp = wp * preservation.rows(p)
+            d = rc - rp
+            se = float(d.std(ddof=1) / np.sqrt(n))
+            diff = score_c - max(float(rp.mean()), 0.0)
+            if diff <= z * se:
+                out.append((p[0], p[1], score_c - diff, diff, se))
+    out.sort(key=lambda t: (-t[2], t[0], t[1]))
+    return out
