@@ -31,8 +31,8 @@ from ._select import (
     check_weights,
     joint_merit,
     select_by_preservation,
-    tied_pairs,
     select_lenses,
+    tied_pairs,
     weighted_merit,
 )
 from ._spread import status_text
