@@ -458,6 +458,13 @@ def joint_merit(scores, weights, floor=STRUCTURE_FLOOR, families=None):
     return merit
 
 
+def _pair_weight(merit, joint_merit):
+    """The pair rule's weight on ``R_NX``: ``joint_merit(i, j)``, or ``sqrt(merit_i merit_j)``."""
+    if joint_merit is None:
+        return lambda i, j: float(np.sqrt(merit[i] * merit[j]))
+    return lambda i, j: float(joint_merit(int(i), int(j)))
+
+
 def _geomean(merit, idx):
     return float(np.exp(np.mean(np.log(merit[list(idx)]))))
 
@@ -509,8 +516,7 @@ def select_by_preservation(correlation, merit, preservation, *, count=2, ceiling
     if count == 1:
         return Selection((first,), (float(merit[first]),), "count")
     absr = np.nan_to_num(np.abs(R), nan=1.0)
-    both = (lambda i, j: float(np.sqrt(merit[i] * merit[j]))) if joint_merit is None \
-        else (lambda i, j: float(joint_merit(int(i), int(j))))
+    both = _pair_weight(merit, joint_merit)
     pairs = [(both(i, j), int(i), int(j))
              for a, i in enumerate(idx) for j in idx[a + 1:] if absr[i, j] <= ceiling]
     if not pairs:
@@ -606,8 +612,7 @@ def tied_pairs(chosen, correlation, merit, preservation, *, ceiling=0.8, usable=
     ok = (np.ones(m, dtype=bool) if usable is None else np.asarray(usable, dtype=bool)) \
         & (merit > 0)
     absr = np.nan_to_num(np.abs(np.asarray(correlation, dtype=np.float64)), nan=1.0)
-    both = (lambda i, j: float(np.sqrt(merit[i] * merit[j]))) if joint_merit is None \
-        else (lambda i, j: float(joint_merit(int(i), int(j))))
+    both = _pair_weight(merit, joint_merit)
     c = tuple(sorted(int(j) for j in chosen))
     wc = both(*c)
     rc = wc * preservation.rows(c)
