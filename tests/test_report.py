@@ -231,7 +231,10 @@ def test_cli_from_screen_and_graph_folders(tmp_path, demo_graph):
     # a screen folder: its ranking and sheet go in, its lenses make the graph
     screen_doc = {"selected": ["pca_1"], "stop_text": "count 1 reached", "settings": {},
                   "ranking": [{"rank": 1, "column": "pca_1", "selected": True, "merit": 0.5,
-                               "reason": "selected #1"}]}
+                               "reason": "selected #1"}],
+                  "pair_ties": [{"lenses": ["pca_1", "pca_3"], "score": 0.2,
+                                 "difference": 0.01, "se": 0.01}],
+                  "data_notes": {"duplicates": {"text": "2 duplicate rows collapsed"}}}
     sdir = _mkdir(tmp_path / "s")
     (sdir / "ranking.json").write_text(json.dumps(screen_doc))
     res = runner.invoke(cli, ["report", "--demo", "--screen", str(sdir), "--graph",
@@ -240,6 +243,8 @@ def test_cli_from_screen_and_graph_folders(tmp_path, demo_graph):
     doc = json.loads(_parse(out.read_text(encoding="utf-8")).data_text.replace("<\\/", "</"))
     assert doc["screen"]["selected"] == ["pca_1"] and doc["screen"]["sheet"] is None
     assert doc["screen"]["ranking"][0]["reason"] == "selected #1"
+    assert doc["screen"]["pair_ties"] == [["pca_1", "pca_3"]]
+    assert doc["screen"]["data_notes"] == ["2 duplicate rows collapsed"]
     res = runner.invoke(cli, ["report", "--demo", "--screen", str(sdir), "-o", str(out)])
     assert res.exit_code == 1 and "No lens file in the screen folder" in res.output
 

@@ -263,6 +263,10 @@ def test_ranking_table_sorts(page, demo):
     assert sorted(chosen) == sorted(demo["screen"].selected)
     reasons = [td.text for td in _all(page, "#ranking td.reason")]
     assert all(reasons) and len(reasons) == len(rows)
+    # the pairs the data do not tell apart from the chosen one, as the summary lists them
+    ties = [" + ".join(t["lenses"]) for t in demo["screen"].pair_ties]
+    shown = [c.text for c in _all(page, "#pair-ties .chip")]
+    assert shown == ties
 
 
 def test_keyboard_reaches_the_controls(page, demo):
@@ -318,6 +322,10 @@ def test_readable_at_1280_and_phone_width(page, demo, tmp_path):
         assert overflow <= 1, (width, overflow)
         box = _by(page, "#graph").rect
         assert box["width"] >= 0.8 * min(width, 900) - 60
+        if width == 1280:  # the sticky node panel has its own column: no section runs under it
+            panel = _by(page, "#node-panel").rect
+            for sec in _all(page, "main > section"):
+                assert sec.rect["x"] + sec.rect["width"] <= panel["x"] + 1, sec.get_attribute("id")
         shots[width] = tmp_path / f"report_{width}.png"
         page.save_screenshot(str(shots[width]))
         assert shots[width].read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"

@@ -234,6 +234,9 @@ def _screen_part(doc, sheet):
     return {
         "selected": list(doc.get("selected", [])),
         "stop_text": doc.get("stop_text", ""),
+        "pair_ties": [list(t.get("lenses", [])) for t in doc.get("pair_ties") or []],
+        "data_notes": [v["text"] for v in (doc.get("data_notes") or {}).values()
+                       if isinstance(v, dict) and v.get("text")],
         "settings": doc.get("settings", {}),
         "fields": list(SCREEN_FIELDS),
         "ranking": rows,

@@ -333,6 +333,12 @@
     S.selected.forEach(function (s) { p.appendChild(el("span", { "class": "chip" }, [s])); });
     p.appendChild(document.createTextNode(" (" + S.stop_text + ")"));
     section.appendChild(p);
+    if (S.pair_ties && S.pair_ties.length) {
+      var ties = el("p", { id: "pair-ties" }, ["As good within the error (the data do not tell these pairs apart from the chosen one: neighbour preservation x structure within 2 standard errors): "]);
+      S.pair_ties.forEach(function (t) { ties.appendChild(el("span", { "class": "chip tie" }, [t.join(" + ")])); });
+      section.appendChild(ties);
+    }
+    if (S.data_notes && S.data_notes.length) section.appendChild(el("p", { "class": "hint", id: "data-notes" }, ["Data: " + S.data_notes.join("; ") + "."]));
     var fields = S.fields.concat(["reason"]), rows = S.ranking.slice(), sortKey = "rank", asc = true;
     var wrap = el("div", { "class": "table-wrap" }), t = el("table", { id: "ranking" });
     t.appendChild(el("caption", { "class": "muted", style: "text-align:left" }, ["Every candidate with its scores and the reason for the decision; chosen lenses shaded. Sort by a column with its header button."]));
