@@ -367,7 +367,13 @@ def main():
     lens_sizes = [10_000] if args.quick else [int(float(s)) for s in args.lens_sizes.split(",")
                                               if s]
     src = Path(args.src).resolve()
-    print(f"lenswork from {src}; machine: {os.cpu_count()} cores, shared", flush=True)
+    threads = {k: os.environ[k] for k in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS",
+                                          "MKL_NUM_THREADS", "NUMBA_NUM_THREADS")
+               if k in os.environ}
+    # the Nystrom step's BLAS work scales with threads: 1e6 rows took 46 s at
+    # OMP_NUM_THREADS=1 and 24 s at the default 2 threads on the reference machine
+    print(f"lenswork from {src}; machine: {os.cpu_count()} cores, shared; thread limits: "
+          f"{threads or 'none (library defaults)'}", flush=True)
     if args.graph_only:
         with tempfile.TemporaryDirectory(prefix="lenswork-scale-") as tmp:
             for n in [int(float(x)) for x in args.graph_only.split(",") if x]:
