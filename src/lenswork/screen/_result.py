@@ -127,6 +127,8 @@ class ScreenResult:
         self.skipped = list(skipped)
         self.merit = weighted_merit(self.scores, self.weights)
         self.merit[~self.usable] = 0.0
+        self._joint = None  # the pair rule's joint merit, built once (see _joint_merit)
+        self._joint_built = False
         if pairing not in PAIRINGS:
             raise ParameterError(
                 f"The 'pairing' parameter of screen must be one of {', '.join(PAIRINGS)}; got "
@@ -145,7 +147,7 @@ class ScreenResult:
             self.selection = select_by_preservation(
                 correlation, self.merit, preservation, count=count, ceiling=ceiling,
                 usable=self.usable,
-                joint_merit=joint_merit(self.scores, self.weights, families=self._families()),
+                joint_merit=self._joint_merit(),
             )
         else:
             self.selection = select_lenses(
@@ -299,13 +301,18 @@ class ScreenResult:
             else:
                 found = tied_pairs(
                     sel[:2], self.correlation, self.merit, self._preservation,
-                    ceiling=self.ceiling, usable=self.usable,
-                    joint_merit=joint_merit(self.scores, self.weights,
-                                            families=self._families()))
+                    ceiling=self.ceiling, usable=self.usable, joint_merit=self._joint_merit())
                 self._ties = [{"lenses": [self.names[i], self.names[j]], "score": score,
                                "difference": diff, "se": se}
                               for i, j, score, diff, se in found]
         return self._ties
+
+    def _joint_merit(self):
+        """The pair rule's joint merit (:func:`joint_merit`; None without the probe), built once."""
+        if not self._joint_built:
+            self._joint = joint_merit(self.scores, self.weights, families=self._families())
+            self._joint_built = True
+        return self._joint
 
     def _families(self):
         """The lens family of each candidate (the pair rule's coverage counts kinds two show)."""
@@ -342,8 +349,7 @@ class ScreenResult:
                 nearest[j] = (self.names[i], float(self.correlation[j, i]))
         rest = [j for j in range(m) if j not in sel]
         pres = self.preservation
-        joint = joint_merit(self.scores, self.weights, families=self._families()) \
-            if self.pairing == "preservation" else None
+        joint = self._joint_merit() if self.pairing == "preservation" else None
         for j in rest:
             if sel:
                 i = sel[int(np.argmax(absr[j, sel]))]

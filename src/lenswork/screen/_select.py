@@ -89,13 +89,13 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.sparse as sp
 
 from .._errors import ParameterError
 from .._validation import check_float, check_int
 from ..criteria import neighbour_preservation
 from ..normalize import normalize
 from ..probe import SIGNIFICANCE_WEIGHTS
+from ..workspace import knn_matrix
 
 __all__ = [
     "DEFAULT_WEIGHTS",
@@ -466,6 +466,13 @@ def _pair_weight(merit, joint_merit):
     return lambda i, j: float(joint_merit(int(i), int(j)))
 
 
+def _allowed_pairs(ok, absr, ceiling):
+    """Candidate pairs ``(i, j)``, ``i < j``, both usable, with ``|rho_ij| <= ceiling``."""
+    idx = np.flatnonzero(ok)
+    return [(int(i), int(j)) for a, i in enumerate(idx) for j in idx[a + 1:]
+            if absr[i, j] <= ceiling]
+
+
 def _geomean(merit, idx):
     return float(np.exp(np.mean(np.log(merit[list(idx)]))))
 
@@ -518,8 +525,7 @@ def select_by_preservation(correlation, merit, preservation, *, count=2, ceiling
         return Selection((first,), (float(merit[first]),), "count")
     absr = np.nan_to_num(np.abs(R), nan=1.0)
     both = _pair_weight(merit, joint_merit)
-    pairs = [(both(i, j), int(i), int(j))
-             for a, i in enumerate(idx) for j in idx[a + 1:] if absr[i, j] <= ceiling]
+    pairs = [(both(i, j), i, j) for i, j in _allowed_pairs(ok, absr, ceiling)]
     if not pairs:
         return Selection((first,), (float(merit[first]),),
                          "ceiling" if idx.size > 1 else "candidates")
@@ -614,11 +620,9 @@ def tied_pairs(chosen, correlation, merit, preservation, *, ceiling=0.8, usable=
     ...                                              ceiling=1.0)]
     [(1, 2)]
     """
-    merit = np.asarray(merit, dtype=np.float64)
-    m = merit.shape[0]
-    ok = (np.ones(m, dtype=bool) if usable is None else np.asarray(usable, dtype=bool)) \
-        & (merit > 0)
-    absr = np.nan_to_num(np.abs(np.asarray(correlation, dtype=np.float64)), nan=1.0)
+    merit, R, _, ceiling, ok = _check_selection(correlation, merit, 2, ceiling, usable,
+                                                "tied_pairs")
+    absr = np.nan_to_num(np.abs(R), nan=1.0)
     both = _pair_weight(merit, joint_merit)
     c = tuple(sorted(int(j) for j in chosen))
     wc = both(*c)
@@ -626,9 +630,7 @@ def tied_pairs(chosen, correlation, merit, preservation, *, ceiling=0.8, usable=
     n = rc.shape[0]
     nb = preservation.neighbors
     K = nb.shape[1]
-    A = sp.csr_matrix((np.ones(nb.size), (np.repeat(np.arange(n), K), nb.ravel())),
-                      shape=(n, n))
-    A = ((A + A.T) > 0).astype(np.float64)  # i ~ j: either is among the other's neighbours
+    A = knn_matrix(nb, np.ones(nb.shape))  # i ~ j: either is among the other's neighbours
     A.setdiag(0.0)
     A.eliminate_zeros()
     degree = float(np.asarray(A.sum(axis=1)).max()) if n else 0.0
@@ -636,22 +638,17 @@ def tied_pairs(chosen, correlation, merit, preservation, *, ceiling=0.8, usable=
     spread_c = float(rc.std()) if n > 1 else 0.0  # w_c sd(r_c)
     score_c = max(float(rc.mean()), 0.0)
     out = []
-    idx = np.flatnonzero(ok)
-    for a, i in enumerate(idx):
-        for j in idx[a + 1:]:
-            p = (int(i), int(j))
-            if p == c or absr[i, j] > ceiling:
-                continue
-            wp = both(*p)
-            if wp < score_c - z * np.sqrt((1.0 + degree) / n) * (spread_c + wp * half):
-                continue  # cannot be within z standard errors
-            rp = wp * preservation.rows(p)
-            d = rc - rp
-            e = d - d.mean()
-            var = max(float(e @ e + e @ (A @ e)) / n ** 2, float(d.var(ddof=1)) / n)
-            se = float(np.sqrt(var))
-            diff = score_c - max(float(rp.mean()), 0.0)
-            if diff <= z * se:
-                out.append((p[0], p[1], score_c - diff, diff, se))
+    for p in _allowed_pairs(ok, absr, ceiling):
+        wp = both(*p)
+        if p == c or wp < score_c - z * np.sqrt((1.0 + degree) / n) * (spread_c + wp * half):
+            continue  # the chosen pair, or one that cannot be within z standard errors
+        rp = wp * preservation.rows(p)
+        d = rc - rp
+        e = d - d.mean()
+        var = max(float(e @ e + e @ (A @ e)) / n ** 2, float(d.var(ddof=1)) / n)
+        se = float(np.sqrt(var))
+        diff = score_c - max(float(rp.mean()), 0.0)
+        if diff <= z * se:
+            out.append((p[0], p[1], score_c - diff, diff, se))
     out.sort(key=lambda t: (-t[2], t[0], t[1]))
     return out
