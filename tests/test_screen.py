@@ -713,3 +713,28 @@ def test_per_row_preservation_and_tied_pairs_against_sklearn_neighbours():
     assert next(t for t in ties if t["lenses"] == copy_of_b)["difference"] == pytest.approx(0.0)
     assert result.to_dict()["pair_ties"] == ties
     assert "As good within the error" in result.summary()
+
+
+def test_too_few_rows_for_the_screen_is_refused_with_its_own_minimum():
+    # The smoothness reads every row's 15 neighbours and the pair rule's R_NX(K) every row's
+    # K = min_neighbors = 30 (Lee and Verleysen, Neurocomputing 2009: K < n - 1); below 32 rows
+    # the screen used to fail inside the neighbour graph (n <= 15) or select nothing and blame
+    # the smoothness (16-31 rows).
+    from lenswork import InputError
+    from lenswork.screen import min_screen_rows
+
+    rng = np.random.default_rng(0)
+    assert min_screen_rows() == 32 and min_screen_rows(10) == 30
+    for n in (5, 20, 31):
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", LensworkWarning)  # refused before any lens is skipped
+            with pytest.raises(InputError, match=f"at least 32 rows; the data has {n}"):
+                screen(rng.normal(size=(n, 3)))
+    X = rng.normal(size=(31, 3))
+    table = LensTable([LensColumn("a", X[:, 0]), LensColumn("b", X[:, 1])],
+                      PointCloud.from_array(X))
+    with pytest.raises(InputError, match="at least 32 rows; the data has 31"):
+        screen(table)
+    assert len(screen(rng.normal(size=(32, 3))).selected) >= 1
+    ws = Workspace(rng.normal(size=(30, 3)), min_neighbors=10)
+    assert len(screen(ws).selected) >= 1  # the minimum follows the workspace's K

@@ -127,3 +127,18 @@ def test_screen_reads_a_table_file(tmp_path):
     data = json.loads((out / "ranking.json").read_text())
     assert data["settings"]["references"] == ["temp"]
     assert data["input"]["source"].endswith("ring.csv")
+
+
+def test_too_few_rows_end_in_the_screens_own_message_and_no_files(tmp_path):
+    # 20 rows: the screen's minimum is named before any lens is computed (no "skipped" warnings),
+    # with the option that lowers it; nothing is written (common practice: refuse before output).
+    table = tmp_path / "small.csv"
+    rng = np.random.default_rng(0)
+    table.write_text("a,b,c\n" + "".join(
+        ",".join(f"{v:.6f}" for v in row) + "\n" for row in rng.normal(size=(20, 3))))
+    out = tmp_path / "out"
+    result = CliRunner().invoke(cli, ["screen", str(table), "-o", str(out)])
+    assert result.exit_code != 0
+    assert "A screen needs at least 32 rows; the data has 20" in result.output
+    assert "(--min-neighbors 30)" in result.output and "skipped" not in result.output
+    assert "Traceback" not in result.output and not out.exists()

@@ -69,7 +69,7 @@ from ._candidates import default_candidates
 from ._confirm import SampledScreenResult, plan_sample
 from ._redundancy import spearman_matrix
 from ._result import PROBE_COUNTS, PROBE_SCORES, ScreenResult
-from ._screen import screen
+from ._screen import min_screen_rows, screen
 from ._select import (
     DEFAULT_WEIGHTS,
     PairPreservation,
@@ -93,6 +93,7 @@ __all__ = [
     "SpreadScore",
     "default_candidates",
     "histogram_entropy",
+    "min_screen_rows",
     "plan_sample",
     "screen",
     "select_by_preservation",

@@ -203,7 +203,8 @@ def screen(data, settings=None, **overrides):
         Bad count, ceiling, bins, lens spec or reference column (a non-numeric
         reference names the column and the first bad row).
     InputError
-        Fewer than 3 rows, or no candidate column at all.
+        Fewer rows than :func:`min_screen_rows` (32 by default), or no candidate
+        column at all.
 
     Warns
     -----
@@ -290,9 +291,39 @@ def _workspace(data, random_state):
         if hasattr(data, "columns") and not isinstance(data, np.ndarray):  # a DataFrame
             data = load_table(data)
         ws = Workspace(data, random_state=0 if random_state is None else random_state)
-    if ws.n < 3:
-        raise InputError(f"A screen needs at least 3 rows; the data has {ws.n}.")
+    _check_rows(ws.n, ws.min_neighbors)
     return ws
+
+
+def min_screen_rows(min_neighbors=30):
+    """Fewest rows a screen can judge: ``max(2 SMOOTHNESS_K, min_neighbors + 2)``, 32 by default.
+
+    The smoothness compares each lens with every row's ``SMOOTHNESS_K`` = 15 nearest
+    neighbours and counts 0 for a lens carried by at most a third of one
+    neighbourhood (``criteria.HANDFUL``); a lens spread over all rows without ties
+    carries half its variation on about a fifth of them, so below ``2 k`` rows no
+    lens can pass. The pair rule's ``R_NX(K)`` compares each row's ``K``
+    (``Workspace.min_neighbors``) data neighbours with its ``K`` neighbours in the
+    pair's rank plane, which needs ``K + 2`` rows to differ from chance.
+
+    >>> min_screen_rows(), min_screen_rows(10)
+    (32, 30)
+    """
+    return max(2 * SMOOTHNESS_K, int(min_neighbors) + 2)
+
+
+def _check_rows(n, min_neighbors):
+    """InputError naming the screen's own minimum when ``n`` rows are too few."""
+    need = min_screen_rows(min_neighbors)
+    if n < need:
+        raise InputError(
+            f"A screen needs at least {need} rows; the data has {n}. It compares each lens "
+            f"with every row's {SMOOTHNESS_K} nearest neighbours and each pair of lenses "
+            f"with every row's {min_neighbors} (Workspace min_neighbors={min_neighbors}; "
+            f"CLI: --min-neighbors {min_neighbors}). On so few rows choose the lenses "
+            f"yourself (build_graph with lenses=['pca']; CLI: lenswork graph --lens pca) "
+            f"or give more rows."
+        )
 
 
 def _rank(table, settings, ws, refs, skipped):
@@ -300,8 +331,9 @@ def _rank(table, settings, ws, refs, skipped):
     count, bins, probe = settings.count, settings.bins, settings.probe
     weights, pairing = settings.weights, settings.pairing
     cloud = table.cloud
-    if cloud.n < 3:
-        raise InputError(f"A screen needs at least 3 rows; the data has {cloud.n}.")
+    if ws is None:
+        ws = Workspace(table.cloud, random_state=table.random_state)
+    _check_rows(cloud.n, ws.min_neighbors)
     if len(table) == 0:
         raise InputError(
             "The screen has no candidate lens column. Give lenses (e.g. lenses=['pca']) or "
@@ -323,13 +355,9 @@ def _rank(table, settings, ws, refs, skipped):
         ref_corr = reference_correlations(
             [np.asarray(c.values, dtype=np.float64) for c in table.columns], refs, usable, Z
         )
-    if ws is None:
-        ws = Workspace(table.cloud, random_state=table.random_state)
     with _progress.step("smoothness: Laplacian score on the neighbour graph"):
-        notes = data_notes(ws) if cloud.n > 2 else {}
-        if cloud.n > 2:
-            scores.update(_smoothness(Z, ws, usable, scores["support"],
-                                      scores["value_support"]))
+        notes = data_notes(ws)
+        scores.update(_smoothness(Z, ws, usable, scores["support"], scores["value_support"]))
         del Z
     for j, s in enumerate(status):
         if s != "ok":
