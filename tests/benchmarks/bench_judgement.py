@@ -24,10 +24,13 @@ greedy ``merit * (1 - |rho|)`` rule), from the score columns the screen already 
 grid is the new one).
 
 Run: ``OMP_NUM_THREADS=1 nice -n 15 python tests/benchmarks/bench_judgement.py [--quick]
-[--baseline] [--verbose] [--only wine,iris] [--scale zscore] [--chance 3]`` (untimed: no lock
-needed). ``--chance 3`` adds the best pair's accuracy with the labels permuted (three shuffles,
-each re-scoring every pair): where the best pair is within it, the labels are not separated
-beyond chance and the 5 % bar compares noise.
+[--baseline] [--verbose] [--only wine,iris] [--scale zscore] [--chance 3] [--halves 3]``
+(untimed: no lock needed). ``--chance 3`` adds the best pair's accuracy with the labels
+permuted (three shuffles, each re-scoring every pair): where the best pair is within it, the
+labels are not separated beyond chance and the 5 % bar compares noise. ``--halves 3`` asks how
+often the bar can be met at all: on three stratified splits of the rows into halves, a pair
+chosen *with the labels* on one half (the best pair there) is judged on the other, beside the
+screen's pair and pca_1 + pca_2.
 ``--scale zscore`` is a diagnostic: every table's columns standardised first, so a table kept in
 its own units (email: line breaks in the hundreds beside 0/1 flags) weighs its columns alike.
 """
@@ -144,7 +147,9 @@ def evaluate(case, cloud, baseline):
             idx = [names.index(c) for c in chosen[:2]]
             rec["acc"] = acc[tuple(sorted(idx))] if len(idx) == 2 else float("nan")
             rec["rank"] = rank_of(acc, idx) if len(idx) == 2 else None
+            rec["pair"] = tuple(sorted(idx))
             p = (names.index("pca_1"), names.index("pca_2"))
+            rec["pca_pair"] = p
             rec["pca_acc"], rec["pca_rank"] = acc[p], rank_of(acc, p)
             rec["pairs"] = len(acc)
             best = max(acc, key=acc.get)
@@ -238,6 +243,50 @@ def chance_lines(records, draws, seed=7):
     return "\n".join(lines)
 
 
+def halves_lines(records, splits, seed=100):
+    """How often the bar is met on half-samples by a pair chosen with the labels, and by the screen.
+
+    For each of ``splits`` seeded stratified splits of the rows into halves A and B, every pair's
+    accuracy is measured on each half (ranks within the half). The label oracle takes the best
+    pair of A and is judged on B (and the other way round): cross-validated selection with the
+    labels (common practice), the most any rule choosing from these pairs can be expected to
+    do on new rows of half the size. The screen's pair (chosen without labels, on all rows) and
+    pca_1 + pca_2 are judged on the same halves. "bar" = within 5 % of the half's best pair and
+    at least pca_1 + pca_2 there; the table gives each rule's share of halves that meet it and
+    the totals their expected number of tables.
+    """
+    lines = [f"halves: the bar on {splits} x 2 half-samples; label oracle = best pair of the other "
+             f"half",
+             f"{'dataset':<15} {'oracle':>6} {'screen':>6} {'pca12':>6}"]
+    tot = np.zeros(3)
+    for case, rec in records:
+        if not case.labelled or len(rec["chosen"]) < 2:
+            continue
+        y, R, pca, chosen = np.asarray(case.labels), rec["ranks"], rec["pca_pair"], rec["pair"]
+        rng = np.random.default_rng(seed)
+        tables = []
+        for _ in range(splits):
+            A = np.zeros(len(y), dtype=bool)
+            for c in np.unique(y):
+                idx = rng.permutation(np.flatnonzero(y == c))
+                A[idx[: idx.size // 2]] = True
+            for half in (A, ~A):
+                Rh = np.column_stack([rankdata(R[half, j]) / half.sum() for j in range(rec["m"])])
+                tables.append(pair_table(Rh, y[half], rec["m"]))
+        met = np.zeros(3)
+        for k, acc in enumerate(tables):
+            other = tables[k ^ 1]
+            oracle = max(other, key=other.get)
+            top = max(acc.values())
+            for r, pair in enumerate((oracle, chosen, pca)):
+                met[r] += acc[pair] >= 0.95 * top - 1e-12 and acc[pair] >= acc[pca] - 1e-12
+        met /= len(tables)
+        tot += met
+        lines.append(f"{case.name:<15} {met[0]:6.2f} {met[1]:6.2f} {met[2]:6.2f}")
+    lines.append(f"{'expected tables':<15} {tot[0]:6.1f} {tot[1]:6.1f} {tot[2]:6.1f}")
+    return "\n".join(lines)
+
+
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--quick", action="store_true", help="four datasets only (smoke run)")
@@ -253,6 +302,10 @@ def main(argv=None):
     ap.add_argument("--chance", type=int, default=0, metavar="DRAWS",
                     help="also the best pair's accuracy with the labels permuted, mean of "
                     "DRAWS shuffles (0: off; each draw re-scores every pair)")
+    ap.add_argument("--halves", type=int, default=0, metavar="SPLITS",
+                    help="also how often the bar is met on half-samples by the best pair chosen "
+                    "with the labels on the other half, the screen's pair and pca_1 + pca_2 "
+                    "(0: off; each split re-scores every pair twice)")
     args = ap.parse_args(argv)
     global VERBOSE
     VERBOSE = args.verbose
@@ -282,6 +335,9 @@ def main(argv=None):
     if args.chance:
         print()
         print(chance_lines(records["screen"], args.chance))
+    if args.halves:
+        print()
+        print(halves_lines(records["screen"], args.halves))
     if args.baseline:
         print()
         print(fmt_table("BASELINE (entropy spread x count-based structure, greedy rho rule)",
