@@ -157,9 +157,7 @@ def _preservation(table, ws, random_state):
     n = table.cloud.n
     K = ws.shared_k
     V = np.column_stack([np.asarray(c.values, dtype=np.float64) for c in table.columns])
-    if n <= K + 1:
-        return None
-    if n <= _PRESERVATION_ROWS:
+    if n <= _PRESERVATION_ROWS:  # n > K + 1: the screen's row minimum (min_screen_rows)
         return PairPreservation(V, ws.neighbors(K).indices)
     rows = np.sort(np.random.default_rng(random_state).choice(n, _PRESERVATION_ROWS,
                                                               replace=False))
@@ -301,10 +299,11 @@ def min_screen_rows(min_neighbors=30):
     The smoothness compares each lens with every row's ``SMOOTHNESS_K`` = 15 nearest
     neighbours and counts 0 for a lens carried by at most a third of one
     neighbourhood (``criteria.HANDFUL``); a lens spread over all rows without ties
-    carries half its variation on about a fifth of them, so below ``2 k`` rows no
-    lens can pass. The pair rule's ``R_NX(K)`` compares each row's ``K``
-    (``Workspace.min_neighbors``) data neighbours with its ``K`` neighbours in the
-    pair's rank plane, which needs ``K + 2`` rows to differ from chance.
+    carries half its variation on about a fifth of them, so on fewer than about
+    ``5 k / 3`` rows no lens can pass (``2 k`` leaves a margin). The pair rule's
+    ``R_NX(K)`` compares each row's ``K`` (``Workspace.min_neighbors``) data
+    neighbours with its ``K`` neighbours in the pair's rank plane, which needs
+    ``K + 2`` rows to differ from chance.
 
     >>> min_screen_rows(), min_screen_rows(10)
     (32, 30)
