@@ -75,6 +75,16 @@ def separation(R, labels, cols):
                                  scoring="balanced_accuracy").mean())
 
 
+def rank_columns(V):
+    """Each column's ranks over n, ``rankdata / n`` (ties averaged; scipy.stats.rankdata)."""
+    return np.column_stack([rankdata(V[:, j]) / V.shape[0] for j in range(V.shape[1])])
+
+
+def meets_bar(acc, best, pca_acc):
+    """The issue's bar, each part: within 5 % of the best pair, at least pca_1 + pca_2."""
+    return acc >= 0.95 * best - 1e-12, acc >= pca_acc - 1e-12
+
+
 def pair_table(R, labels, m):
     """Accuracy of every candidate pair (i < j)."""
     return {(i, j): separation(R, labels, (i, j)) for i, j in combinations(range(m), 2)}
@@ -117,7 +127,7 @@ def evaluate(case, cloud, baseline):
     names = result.names
     m = len(names)
     V = np.column_stack([np.asarray(c.values, dtype=np.float64) for c in result.lenses.columns])
-    R = np.column_stack([rankdata(V[:, j]) / V.shape[0] for j in range(m)])
+    R = rank_columns(V)
     acc = pair_table(R, case.labels, m) if case.labelled else None
     # the single-lens ranking: by merit (the top lens is what a one-lens graph would use)
     follows = np.nan_to_num(result.scores["smoothness"], nan=0.0)  # as the screen's table
@@ -145,9 +155,9 @@ def evaluate(case, cloud, baseline):
         if acc is not None:
             rec["ranks"] = R
             idx = [names.index(c) for c in chosen[:2]]
-            rec["acc"] = acc[tuple(sorted(idx))] if len(idx) == 2 else float("nan")
-            rec["rank"] = rank_of(acc, idx) if len(idx) == 2 else None
             rec["pair"] = tuple(sorted(idx))
+            rec["acc"] = acc[rec["pair"]] if len(idx) == 2 else float("nan")
+            rec["rank"] = rank_of(acc, idx) if len(idx) == 2 else None
             p = (names.index("pca_1"), names.index("pca_2"))
             rec["pca_pair"] = p
             rec["pca_acc"], rec["pca_rank"] = acc[p], rank_of(acc, p)
@@ -200,10 +210,11 @@ def verdict(records, label):
             top_quarter = rec["rank"] is not None and rec["rank"] <= max(1, rec["pairs"] // 4)
             if not top_quarter:
                 bad.append(f"{case.name}: pair rank {rec['rank']}/{rec['pairs']} not top quarter")
-            if not rec["acc"] >= 0.95 * rec["best"][2] - 1e-12:
+            within, above_pca = meets_bar(rec["acc"], rec["best"][2], rec["pca_acc"])
+            if not within:
                 bad.append(f"{case.name}: acc {rec['acc']:.3f} more than 5% below the best pair's "
                            f"{rec['best'][2]:.3f}")
-            if not rec["acc"] >= rec["pca_acc"] - 1e-12:
+            if not above_pca:
                 # binomial standard error of an accuracy near pca12's on n rows (common practice)
                 n, p = case.X.shape[0], rec["pca_acc"]
                 se = (p * (1 - p) / n) ** 0.5
@@ -246,14 +257,15 @@ def chance_lines(records, draws, seed=7):
 def halves_lines(records, splits, seed=100):
     """How often the bar is met on half-samples by a pair chosen with the labels, and by the screen.
 
-    For each of ``splits`` seeded stratified splits of the rows into halves A and B, every pair's
-    accuracy is measured on each half (ranks within the half). The label oracle takes the best
-    pair of A and is judged on B (and the other way round): cross-validated selection with the
-    labels (common practice), the most any rule choosing from these pairs can be expected to
-    do on new rows of half the size. The screen's pair (chosen without labels, on all rows) and
-    pca_1 + pca_2 are judged on the same halves. "bar" = within 5 % of the half's best pair and
-    at least pca_1 + pca_2 there; the table gives each rule's share of halves that meet it and
-    the totals their expected number of tables.
+    For each of ``splits`` seeded stratified splits of the rows into halves A and B
+    (scikit-learn's ``StratifiedKFold(2)``), every pair's accuracy is measured on each half
+    (ranks within the half). The label oracle takes the best pair of A and is judged on B (and
+    the other way round): cross-validated selection with the labels (common practice), the most
+    any rule choosing from these pairs can be expected to do on new rows of half the size. The
+    screen's pair (chosen without labels, on all rows) and pca_1 + pca_2 are judged on the same
+    halves. "bar" = within 5 % of the half's best pair and at least pca_1 + pca_2 there; the
+    table gives each rule's share of halves that meet it and the totals their expected number
+    of tables.
     """
     lines = [f"halves: the bar on {splits} x 2 half-samples; label oracle = best pair of the other "
              f"half",
@@ -263,25 +275,20 @@ def halves_lines(records, splits, seed=100):
         if not case.labelled or len(rec["chosen"]) < 2:
             continue
         y, R, pca, chosen = np.asarray(case.labels), rec["ranks"], rec["pca_pair"], rec["pair"]
-        rng = np.random.default_rng(seed)
         tables = []
-        for _ in range(splits):
-            A = np.zeros(len(y), dtype=bool)
-            for c in np.unique(y):
-                idx = rng.permutation(np.flatnonzero(y == c))
-                A[idx[: idx.size // 2]] = True
-            for half in (A, ~A):
-                Rh = np.column_stack([rankdata(R[half, j]) / half.sum() for j in range(rec["m"])])
+        for split in range(splits):
+            halves = StratifiedKFold(2, shuffle=True, random_state=seed + split)
+            for _, half in halves.split(R, y):
                 with warnings.catch_warnings():  # classes of fewer than 5 rows in a half
                     warnings.simplefilter("ignore", UserWarning)
-                    tables.append(pair_table(Rh, y[half], rec["m"]))
+                    tables.append(pair_table(rank_columns(R[half]), y[half], rec["m"]))
         met = np.zeros(3)
         for k, acc in enumerate(tables):
             other = tables[k ^ 1]
             oracle = max(other, key=other.get)
             top = max(acc.values())
             for r, pair in enumerate((oracle, chosen, pca)):
-                met[r] += acc[pair] >= 0.95 * top - 1e-12 and acc[pair] >= acc[pca] - 1e-12
+                met[r] += all(meets_bar(acc[pair], top, acc[pca]))
         met /= len(tables)
         tot += met
         lines.append(f"{case.name:<15} {met[0]:6.2f} {met[1]:6.2f} {met[2]:6.2f}")

@@ -257,8 +257,9 @@ def screen(data, settings=None, **overrides):
         table = data
         if s.random_state is not None and s.random_state != table.random_state:
             table = LensTable(table.columns, table.cloud, random_state=s.random_state)
+        ws = _workspace(table.cloud, table.random_state)
         refs = _collect_references(table.cloud, s.references)
-        return _rank(table, s, None, refs, [])
+        return _rank(table, s, ws, refs, [])
     ws = _workspace(data, s.random_state)
     refs = _collect_references(ws.cloud, s.references)  # check them before the lenses
     plan = plan_sample(ws, s.sample)
@@ -268,6 +269,7 @@ def screen(data, settings=None, **overrides):
         return _rank(table, s, ws, refs, skipped)
     # sample -> screen -> confirm, each column's spec carried forward
     sub = plan.workspace
+    _check_rows(sub.n, sub.min_neighbors, of="the sample")
     with _progress.step(f"screen on a sample of {plan.size:,} of {ws.n:,} rows"):
         columns, skipped, origins = candidate_columns(sub, s.lenses, s.extra)
         table = LensTable(columns, sub.cloud, random_state=sub.random_state)
@@ -276,7 +278,11 @@ def screen(data, settings=None, **overrides):
 
 
 def _workspace(data, random_state):
-    """The Workspace of ``data`` (a Workspace must carry the same seed), at least 3 rows."""
+    """The Workspace of ``data`` (a Workspace must carry the same seed), with enough rows.
+
+    Every screen passes here first (a LensTable with its cloud), so the row minimum
+    is checked before any lens is computed; a sample is checked as it is drawn.
+    """
     if isinstance(data, Workspace):
         ws = data
         if random_state is not None and random_state != ws.random_state:
@@ -311,12 +317,12 @@ def min_screen_rows(min_neighbors=30):
     return max(2 * SMOOTHNESS_K, int(min_neighbors) + 2)
 
 
-def _check_rows(n, min_neighbors):
-    """InputError naming the screen's own minimum when ``n`` rows are too few."""
+def _check_rows(n, min_neighbors, of="the data"):
+    """InputError naming the screen's own minimum when ``n`` rows (``of``) are too few."""
     need = min_screen_rows(min_neighbors)
     if n < need:
         raise InputError(
-            f"A screen needs at least {need} rows; the data has {n}. It compares each lens "
+            f"A screen needs at least {need} rows; {of} has {n}. It compares each lens "
             f"with every row's {SMOOTHNESS_K} nearest neighbours and each pair of lenses "
             f"with every row's {min_neighbors} (Workspace min_neighbors={min_neighbors}; "
             f"CLI: --min-neighbors {min_neighbors}). On so few rows choose the lenses "
@@ -330,9 +336,6 @@ def _rank(table, settings, ws, refs, skipped):
     count, bins, probe = settings.count, settings.bins, settings.probe
     weights, pairing = settings.weights, settings.pairing
     cloud = table.cloud
-    if ws is None:
-        ws = Workspace(table.cloud, random_state=table.random_state)
-    _check_rows(cloud.n, ws.min_neighbors)
     if len(table) == 0:
         raise InputError(
             "The screen has no candidate lens column. Give lenses (e.g. lenses=['pca']) or "
