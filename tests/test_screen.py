@@ -738,3 +738,13 @@ def test_too_few_rows_for_the_screen_is_refused_with_its_own_minimum():
     assert len(screen(rng.normal(size=(32, 3))).selected) >= 1
     ws = Workspace(rng.normal(size=(30, 3)), min_neighbors=10)
     assert len(screen(ws).selected) >= 1  # the minimum follows the workspace's K
+
+
+def test_a_sample_smaller_than_the_screens_minimum_is_refused_as_drawn():
+    # A sample is a workspace of its own (lenswork.screen._confirm): with min_neighbors=150 a
+    # 100-row sample cannot hold R_NX(150) (Lee and Verleysen 2009: K < n - 1).
+    from lenswork import InputError
+
+    ws = Workspace(np.random.default_rng(0).normal(size=(500, 3)), min_neighbors=150)
+    with pytest.raises(InputError, match="at least 152 rows; the sample has 100"):
+        screen(ws, sample=100)
